@@ -1,0 +1,8 @@
+//! Command-line front end (binary only): arguments, dispatch, and the rendering of problems.
+
+mod args;
+mod render;
+mod run;
+
+pub use args::Args;
+pub use run::run;

@@ -1,0 +1,132 @@
+//! Dispatch: read the design, call the library, write the output.
+
+use std::io::{self, Write};
+use std::path::{Path, PathBuf};
+
+use joulepath::Design;
+use joulepath::error::{Diagnostic, Error, did_you_mean};
+use joulepath::report::{Format, budget::write_budget, outline::write_outline};
+use joulepath::solve::budget;
+
+use super::args::{Args, Command, FormatArg};
+use super::render::render_diagnostics;
+
+/// Why a command did not succeed.
+#[derive(Debug)]
+pub enum Failure {
+    /// The design file is invalid.
+    Invalid {
+        /// Its path as given.
+        file: PathBuf,
+        /// Its text (for showing source lines).
+        text: String,
+        /// The problems.
+        diagnostics: Vec<Diagnostic>,
+    },
+    /// An input file cannot be read or the output cannot be written (exit 1).
+    Input(String),
+    /// An argument does not fit the design (exit 2).
+    Usage(String),
+}
+
+impl Failure {
+    /// The exit code.
+    pub fn code(&self) -> u8 {
+        match self {
+            Failure::Invalid { .. } | Failure::Input(_) => 1,
+            Failure::Usage(_) => 2,
+        }
+    }
+
+    /// Print the failure on standard error.
+    pub fn report(&self) {
+        let mut err = io::stderr().lock();
+        let _ = match self {
+            Failure::Invalid { file, text, diagnostics } => {
+                render_diagnostics(&mut err, &file.display().to_string(), text, diagnostics)
+            }
+            Failure::Input(m) => writeln!(err, "error: {m}"),
+            Failure::Usage(m) => writeln!(err, "error: {m}"),
+        };
+    }
+}
+
+fn read(path: &Path) -> Result<String, Failure> {
+    std::fs::read_to_string(path)
+        .map_err(|e| Failure::Input(format!("cannot read `{}`: {e}", path.display())))
+}
+
+fn load(path: &Path) -> Result<Design, Failure> {
+    let text = read(path)?;
+    Design::from_text(&text).map_err(|e| match e {
+        Error::Invalid(diagnostics) => Failure::Invalid {
+            file: path.to_path_buf(),
+            text,
+            diagnostics,
+        },
+        other => Failure::Input(other.to_string()),
+    })
+}
+
+fn format(f: FormatArg) -> Format {
+    match f {
+        FormatArg::Table => Format::Table,
+        FormatArg::Json => Format::Json,
+        FormatArg::Csv => Format::Csv,
+    }
+}
+
+/// Write `bytes` to `out`, or standard output; a file is written whole or not at all.
+fn emit(bytes: &[u8], out: Option<&Path>) -> Result<(), Failure> {
+    match out {
+        None => match io::stdout().lock().write_all(bytes) {
+            Ok(()) => Ok(()),
+            // A reader that stops early (`| head`) is not an error.
+            Err(e) if e.kind() == io::ErrorKind::BrokenPipe => Ok(()),
+            Err(e) => Err(Failure::Input(format!("cannot write the output: {e}"))),
+        },
+        Some(path) => {
+            let name = path.file_name().map_or_else(|| "out".into(), |n| n.to_string_lossy().into_owned());
+            let tmp = path.with_file_name(format!(".{name}.partial"));
+            let fail = |e: io::Error| Failure::Input(format!("cannot write `{}`: {e}", path.display()));
+            std::fs::write(&tmp, bytes).map_err(fail)?;
+            std::fs::rename(&tmp, path).map_err(|e| {
+                let _ = std::fs::remove_file(&tmp);
+                fail(e)
+            })
+        }
+    }
+}
+
+/// Run the command line.
+pub fn run(args: &Args) -> Result<(), Failure> {
+    let mut buf: Vec<u8> = Vec::new();
+    let io_fail = |e: io::Error| Failure::Input(format!("cannot write the output: {e}"));
+    match &args.command {
+        Command::Check { file } => {
+            let d = load(file)?;
+            write_outline(&mut buf, &d).map_err(io_fail)?;
+            emit(&buf, None)
+        }
+        Command::Budget { file, soc, mode, format: f, output } => {
+            let d = load(file)?;
+            let modes: Vec<usize> = match mode {
+                None => (0..d.modes.len()).collect(),
+                Some(name) => match d.mode_index(name) {
+                    Some(m) => vec![m],
+                    None => {
+                        let names: Vec<&str> = d.modes.iter().map(|m| m.name.as_str()).collect();
+                        let hint = did_you_mean(name, names.iter().copied())
+                            .map_or_else(|| format!("the modes are {}", names.join(", ")), |s| format!("did you mean `{s}`?"));
+                        return Err(Failure::Usage(format!("the design has no mode `{name}` ({hint})")));
+                    }
+                },
+            };
+            let soc = soc.unwrap_or(d.pack.start_soc);
+            let result = budget(&d, soc, &modes);
+            write_budget(&mut buf, &d, soc, &result, format(*f)).map_err(io_fail)?;
+            emit(&buf, output.as_deref())
+        }
+        Command::Schema { output } => emit(joulepath::spec::design_schema().as_bytes(), output.as_deref()),
+    }
+}

@@ -1,0 +1,174 @@
+//! Errors of the library: one [`Diagnostic`] per problem found in a design file, gathered into an
+//! [`Error`] so that a user sees every problem of a file at once.
+
+use std::fmt;
+
+/// A place in the design file: 1-based line and column.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Location {
+    /// Line, counting from 1.
+    pub line: usize,
+    /// Column, counting from 1.
+    pub col: usize,
+}
+
+/// One problem in a design file, with the YAML path it concerns and, where known, its place.
+///
+/// # Examples
+///
+/// ```
+/// use joulepath::Diagnostic;
+/// let d = Diagnostic::new("stages[0].output", "`4 ma` has an unknown unit `ma`")
+///     .with_hint("write `4 mA`");
+/// assert_eq!(d.path(), "stages[0].output");
+/// assert_eq!(d.hint(), Some("write `4 mA`"));
+/// ```
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Diagnostic {
+    path: String,
+    message: String,
+    hint: Option<String>,
+    location: Option<Location>,
+}
+
+impl Diagnostic {
+    /// A diagnostic at `path` (for example `stages[2].input`; empty for the whole file).
+    pub fn new(path: impl Into<String>, message: impl Into<String>) -> Self {
+        Self {
+            path: path.into(),
+            message: message.into(),
+            hint: None,
+            location: None,
+        }
+    }
+
+    /// The same diagnostic with a fix to suggest.
+    #[must_use]
+    pub fn with_hint(mut self, hint: impl Into<String>) -> Self {
+        self.hint = Some(hint.into());
+        self
+    }
+
+    /// The same diagnostic with an optional fix to suggest.
+    #[must_use]
+    pub fn with_hint_opt(mut self, hint: Option<String>) -> Self {
+        self.hint = hint;
+        self
+    }
+
+    /// The same diagnostic with a place in the file.
+    #[must_use]
+    pub fn at(mut self, location: Option<Location>) -> Self {
+        if location.is_some() {
+            self.location = location;
+        }
+        self
+    }
+
+    /// The YAML path of the value concerned, e.g. `loads[1].draw.tx`.
+    pub fn path(&self) -> &str {
+        &self.path
+    }
+
+    /// What is wrong, in one sentence starting in lower case.
+    pub fn message(&self) -> &str {
+        &self.message
+    }
+
+    /// How to fix it, when there is something to suggest.
+    pub fn hint(&self) -> Option<&str> {
+        self.hint.as_deref()
+    }
+
+    /// Line and column, when the parser gave them.
+    pub fn location(&self) -> Option<Location> {
+        self.location
+    }
+}
+
+impl fmt::Display for Diagnostic {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        if let Some(loc) = self.location {
+            write!(f, "{}:{}: ", loc.line, loc.col)?;
+        }
+        if self.path.is_empty() {
+            write!(f, "{}", self.message)?;
+        } else {
+            write!(f, "{}: {}", self.path, self.message)?;
+        }
+        if let Some(h) = &self.hint {
+            write!(f, " ({h})")?;
+        }
+        Ok(())
+    }
+}
+
+/// The library's error: an invalid design (every problem found) or a failed write.
+#[derive(Debug)]
+#[non_exhaustive]
+pub enum Error {
+    /// The design file is invalid; every problem found is listed.
+    Invalid(Vec<Diagnostic>),
+    /// Writing a report failed.
+    Io(std::io::Error),
+}
+
+impl Error {
+    /// The diagnostics of an invalid design (empty for other errors).
+    pub fn diagnostics(&self) -> &[Diagnostic] {
+        match self {
+            Error::Invalid(d) => d,
+            Error::Io(_) => &[],
+        }
+    }
+
+    /// An invalid-input error with a single diagnostic.
+    pub fn single(d: Diagnostic) -> Self {
+        Error::Invalid(vec![d])
+    }
+}
+
+impl fmt::Display for Error {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            Error::Invalid(ds) => {
+                for (i, d) in ds.iter().enumerate() {
+                    if i > 0 {
+                        writeln!(f)?;
+                    }
+                    write!(f, "{d}")?;
+                }
+                Ok(())
+            }
+            Error::Io(e) => write!(f, "cannot write the output: {e}"),
+        }
+    }
+}
+
+impl std::error::Error for Error {}
+
+impl From<std::io::Error> for Error {
+    fn from(e: std::io::Error) -> Self {
+        Error::Io(e)
+    }
+}
+
+/// The nearest candidate to `name` by edit distance, when it is close enough to be a likely typo.
+///
+/// # Examples
+///
+/// ```
+/// let ids = ["boost-3v3", "ldo-1v8"];
+/// assert_eq!(joulepath::error::did_you_mean("boost-3v", ids.iter().copied()), Some("boost-3v3"));
+/// assert_eq!(joulepath::error::did_you_mean("radio", ids.iter().copied()), None);
+/// ```
+pub fn did_you_mean<'a>(name: &str, candidates: impl Iterator<Item = &'a str>) -> Option<&'a str> {
+    let mut best: Option<(f64, &str)> = None;
+    for c in candidates {
+        let score = strsim::jaro_winkler(&name.to_lowercase(), &c.to_lowercase());
+        if score > 0.8 && best.is_none_or(|(s, _)| score > s) {
+            best = Some((score, c));
+        }
+    }
+    best.map(|(_, c)| c)
+}

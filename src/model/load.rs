@@ -1,0 +1,78 @@
+//! Loads and what they draw.
+
+/// What a load draws in one state; the unit in the file decides the kind.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Draw {
+    /// A constant current, A.
+    Current(f64),
+    /// A constant power, W.
+    Power(f64),
+    /// A resistance, Ω: current V / R.
+    Resistance(f64),
+}
+
+impl Draw {
+    /// Current drawn at rail voltage `v` (a rail at or below 0 V gives a constant-power load an
+    /// unbounded current, which the solver reads as a collapse).
+    ///
+    /// # Examples
+    ///
+    /// ```
+    /// use joulepath::model::Draw;
+    /// assert_eq!(Draw::Current(0.01).current(3.0), 0.01);
+    /// assert!((Draw::Power(0.33).current(3.3) - 0.1).abs() < 1e-15);
+    /// assert!((Draw::Resistance(100.0).current(3.3) - 0.033).abs() < 1e-15);
+    /// ```
+    pub fn current(self, v: f64) -> f64 {
+        match self {
+            Draw::Current(i) => i,
+            Draw::Power(p) if p == 0.0 => 0.0,
+            Draw::Power(p) => {
+                if v > 0.0 {
+                    p / v
+                } else {
+                    f64::INFINITY
+                }
+            }
+            Draw::Resistance(r) => {
+                if v > 0.0 {
+                    v / r
+                } else {
+                    0.0
+                }
+            }
+        }
+    }
+
+    /// Whether the state draws anything at all.
+    pub fn is_drawing(self) -> bool {
+        match self {
+            Draw::Current(x) | Draw::Power(x) => x > 0.0,
+            Draw::Resistance(r) => r.is_finite(),
+        }
+    }
+}
+
+/// A load on a rail.
+#[derive(Debug, Clone)]
+pub struct Load {
+    /// Unique id.
+    pub id: String,
+    /// Rail: 0 the battery, `k + 1` the output of stage `k`.
+    pub rail: usize,
+    /// Lowest supply the load works at, V.
+    pub v_min: Option<f64>,
+    /// Highest supply the load tolerates, V.
+    pub v_max: Option<f64>,
+    /// Named states and their draws (the state `off` is implicit and draws nothing).
+    pub states: Vec<(String, Draw)>,
+    /// State used when a mode does not name the load (`None` = off).
+    pub default: Option<usize>,
+}
+
+impl Load {
+    /// Name of state `s` (`None` is `off`).
+    pub fn state_name(&self, s: Option<usize>) -> &str {
+        s.map_or("off", |k| self.states[k].0.as_str())
+    }
+}

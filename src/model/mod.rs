@@ -1,0 +1,95 @@
+//! The checked model of a design: typed physics in SI units (pack, stages, loads, modes,
+//! profile) plus the tree. A [`Design`] can only be made by [`Design::from_text`] or
+//! [`Design::from_spec`], which check every rule of the design file.
+
+mod curve;
+mod load;
+mod lower;
+mod mode;
+mod pack;
+mod stage;
+
+pub use curve::{Table, TableError};
+pub use load::{Draw, Load};
+pub use mode::{Mode, RepeatUntil, Step};
+pub use pack::{Cell, Chemistry, MONTH_S, Pack};
+pub use stage::{EffCurve, LossModel, Stage, StageKind};
+
+use crate::error::Error;
+use crate::spec::{self, DesignSpec, SourceMap};
+use crate::tree::Tree;
+
+/// Name of the pack's own rail.
+pub const BATTERY: &str = "battery";
+
+/// A checked design.
+#[derive(Debug, Clone)]
+pub struct Design {
+    /// Title shown in reports.
+    pub title: String,
+    /// Ambient temperature, °C.
+    pub ambient_c: f64,
+    /// The pack.
+    pub pack: Pack,
+    /// Stages, in file order.
+    pub stages: Vec<Stage>,
+    /// Loads, in file order.
+    pub loads: Vec<Load>,
+    /// Modes, in file order.
+    pub modes: Vec<Mode>,
+    /// The duty profile.
+    pub profile: Vec<Step>,
+    /// The tree.
+    pub tree: Tree,
+}
+
+impl Design {
+    /// Read and check a design file's text.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::Invalid`] with every problem found, each with its YAML path and place.
+    ///
+    /// # Examples
+    ///
+    /// ```
+    /// let text = r#"
+    /// cells:
+    ///   c: { capacity: 1 Ah, ocv: [[0 %, 3 V], [100 %, 4 V]], resistance: 0.1 ohm, cutoff: 3 V }
+    /// battery: { cell: c }
+    /// loads: [{ id: lamp, rail: battery, draw: { on: 100 mA } }]
+    /// modes: { lit: { lamp: on } }
+    /// profile: [{ mode: lit, for: 1 h }]
+    /// "#;
+    /// let d = joulepath::Design::from_text(text).unwrap();
+    /// assert_eq!(d.loads[0].id, "lamp");
+    /// assert!((d.pack.ocv(0.5) - 3.5).abs() < 1e-12);
+    /// ```
+    pub fn from_text(text: &str) -> Result<Self, Error> {
+        let parsed = spec::parse(text).map_err(Error::Invalid)?;
+        Self::from_spec(&parsed.spec, &parsed.source)
+    }
+
+    /// Check a parsed design; `source` gives the places of values for messages.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::Invalid`] with every problem found.
+    pub fn from_spec(spec: &DesignSpec, source: &SourceMap) -> Result<Self, Error> {
+        lower::lower(spec, source).map_err(Error::Invalid)
+    }
+
+    /// The rail's name: `battery` or the stage id.
+    pub fn rail_name(&self, rail: usize) -> &str {
+        if rail == 0 {
+            BATTERY
+        } else {
+            &self.stages[rail - 1].id
+        }
+    }
+
+    /// Index of the mode called `name`.
+    pub fn mode_index(&self, name: &str) -> Option<usize> {
+        self.modes.iter().position(|m| m.name == name)
+    }
+}

@@ -1,0 +1,54 @@
+//! Operating modes and the duty profile.
+
+/// One operating mode: the state of every load and which stages run.
+#[derive(Debug, Clone)]
+pub struct Mode {
+    /// Name.
+    pub name: String,
+    /// State of each load, by load index (`None` = off).
+    pub load_states: Vec<Option<usize>>,
+    /// Whether each stage is enabled, by stage index.
+    pub stage_on: Vec<bool>,
+}
+
+/// One item of the profile.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Step {
+    /// A mode held for a duration, s.
+    Hold {
+        /// Mode index.
+        mode: usize,
+        /// Duration, s.
+        seconds: f64,
+    },
+    /// A block of steps repeated `times` times, or until `seconds` have passed (the last pass
+    /// cut short where the duration ends).
+    Repeat {
+        /// The block.
+        steps: Vec<Step>,
+        /// How long it runs.
+        until: RepeatUntil,
+    },
+}
+
+/// How long a repeat block runs.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum RepeatUntil {
+    /// A number of passes.
+    Times(u64),
+    /// A total duration, s.
+    Seconds(f64),
+}
+
+impl Step {
+    /// Duration of one execution of this item, s.
+    pub fn duration(&self) -> f64 {
+        match self {
+            Step::Hold { seconds, .. } => *seconds,
+            Step::Repeat { steps, until } => match until {
+                RepeatUntil::Seconds(s) => *s,
+                RepeatUntil::Times(n) => *n as f64 * steps.iter().map(Step::duration).sum::<f64>(),
+            },
+        }
+    }
+}

@@ -1,0 +1,266 @@
+//! Stages: converters, regulators and switches, and the loss models of switching stages.
+
+use super::curve::Table;
+
+/// What a stage is.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum StageKind {
+    /// Step-down switching converter.
+    Buck,
+    /// Step-up switching converter.
+    Boost,
+    /// Switching converter regulating over its whole input range.
+    BuckBoost,
+    /// Linear regulator.
+    Linear,
+    /// Load switch.
+    Switch,
+}
+
+impl StageKind {
+    /// The name used in design files and reports.
+    pub fn name(self) -> &'static str {
+        match self {
+            StageKind::Buck => "buck",
+            StageKind::Boost => "boost",
+            StageKind::BuckBoost => "buck-boost",
+            StageKind::Linear => "linear",
+            StageKind::Switch => "switch",
+        }
+    }
+
+    /// Whether the stage is a switching converter (takes `efficiency` or `loss`).
+    pub fn is_switching(self) -> bool {
+        matches!(self, StageKind::Buck | StageKind::Boost | StageKind::BuckBoost)
+    }
+}
+
+/// One measured efficiency curve against output current.
+///
+/// # Formula
+///
+/// eta is piecewise linear in log10(Iout) and held beyond the last point. Its loss is
+/// L_c = P_out (1/eta - 1) at and above the lowest tabulated current I_lo; below it the loss falls
+/// linearly to the quiescent floor: L_c(I) = Vin q + (L_c(I_lo) - Vin q) I / I_lo (DESIGN
+/// section 5).
+#[derive(Debug, Clone)]
+pub struct EffCurve {
+    eta_vs_log_i: Table,
+    i_lo: f64,
+    i_hi: f64,
+}
+
+impl EffCurve {
+    /// A curve from `(output current A, efficiency 0..1)` points; currents must be positive and
+    /// distinct, efficiencies in (0, 1].
+    ///
+    /// # Errors
+    ///
+    /// A message naming the problem.
+    pub fn new(points: &[(f64, f64)]) -> Result<Self, String> {
+        if points.is_empty() {
+            return Err("an efficiency curve needs at least one point".into());
+        }
+        if let Some((i, _)) = points.iter().find(|(i, _)| !(*i > 0.0 && i.is_finite())) {
+            return Err(format!(
+                "efficiency curve currents must be above 0 A (found {i} A)"
+            ));
+        }
+        let table = Table::new(points.iter().map(|&(i, e)| (i.log10(), e)).collect())
+            .map_err(|_| "an efficiency curve has the same current twice".to_string())?;
+        let (lo, hi) = table.x_range();
+        Ok(Self {
+            eta_vs_log_i: table,
+            i_lo: 10f64.powf(lo),
+            i_hi: 10f64.powf(hi),
+        })
+    }
+
+    /// Efficiency at output current `iout` (held beyond the ends).
+    pub fn eta(&self, iout: f64) -> f64 {
+        self.eta_vs_log_i.at(iout.max(self.i_lo).log10())
+    }
+
+    /// Highest tabulated output current.
+    pub fn max_current(&self) -> f64 {
+        self.i_hi
+    }
+
+    /// Loss at input `vin`, output `vout`, `iout`, with quiescent current `q` as the floor.
+    pub fn loss(&self, vin: f64, vout: f64, iout: f64, q: f64) -> f64 {
+        let at = |i: f64| vout * i * (1.0 / self.eta(i) - 1.0);
+        if iout >= self.i_lo {
+            at(iout)
+        } else {
+            let floor = vin * q;
+            floor + (at(self.i_lo) - floor) * iout / self.i_lo
+        }
+    }
+}
+
+/// How a switching stage's loss is described.
+#[derive(Debug, Clone)]
+pub enum LossModel {
+    /// A constant efficiency 0..1: L = P_out (1/eta - 1) + Vin x quiescent.
+    Constant(f64),
+    /// Measured curves, each at an input voltage (`None` for a single curve), sorted by voltage.
+    Curves(Vec<(Option<f64>, EffCurve)>),
+    /// Loss terms: L = Vin x quiescent + drop x Iout + resistance x Iout^2.
+    Terms {
+        /// Proportional term, V.
+        drop: f64,
+        /// Conduction term, Ω.
+        resistance: f64,
+    },
+    /// Linear regulators and switches: loss follows from their currents.
+    None,
+}
+
+impl LossModel {
+    /// Loss of a switching stage in regulation.
+    ///
+    /// # Examples
+    ///
+    /// ```
+    /// use joulepath::model::LossModel;
+    /// // 12 V x 200 mA out at 90.5 %: loss 2.4 W x (1/0.905 - 1) = 0.2519 W.
+    /// let l = LossModel::Constant(0.905).loss(5.0, 12.0, 0.2, 0.0);
+    /// assert!((l - 0.251_933_701_657_458_6).abs() < 1e-12);
+    /// ```
+    pub fn loss(&self, vin: f64, vout: f64, iout: f64, q: f64) -> f64 {
+        match self {
+            LossModel::Constant(eta) => vout * iout * (1.0 / eta - 1.0) + vin * q,
+            LossModel::Terms { drop, resistance } => {
+                vin * q + drop * iout + resistance * iout * iout
+            }
+            LossModel::Curves(curves) => curves_loss(curves, vin, vout, iout, q),
+            LossModel::None => 0.0,
+        }
+    }
+
+    /// Whether `iout` lies above every tabulated current (the curve is extrapolated).
+    pub fn extrapolated(&self, iout: f64) -> bool {
+        match self {
+            LossModel::Curves(c) => c.iter().all(|(_, curve)| iout > curve.max_current()),
+            _ => false,
+        }
+    }
+}
+
+/// Between curves the loss is linear in Vin; outside them, the nearest curve.
+fn curves_loss(curves: &[(Option<f64>, EffCurve)], vin: f64, vout: f64, iout: f64, q: f64) -> f64 {
+    let first = &curves[0];
+    let last = &curves[curves.len() - 1];
+    let (Some(v_first), Some(v_last)) = (first.0, last.0) else {
+        return first.1.loss(vin, vout, iout, q);
+    };
+    if vin <= v_first {
+        return first.1.loss(vin, vout, iout, q);
+    }
+    if vin >= v_last {
+        return last.1.loss(vin, vout, iout, q);
+    }
+    let k = curves
+        .iter()
+        .position(|(v, _)| v.is_some_and(|v| v > vin))
+        .unwrap_or(curves.len() - 1)
+        .max(1);
+    let (va, ca) = (&curves[k - 1].0, &curves[k - 1].1);
+    let (vb, cb) = (&curves[k].0, &curves[k].1);
+    let (va, vb) = (va.unwrap_or(vin), vb.unwrap_or(vin));
+    let la = ca.loss(vin, vout, iout, q);
+    let lb = cb.loss(vin, vout, iout, q);
+    la + (lb - la) * (vin - va) / (vb - va)
+}
+
+/// A stage, in SI units. Built and checked when the design is read.
+#[derive(Debug, Clone)]
+pub struct Stage {
+    /// Unique id.
+    pub id: String,
+    /// Kind.
+    pub kind: StageKind,
+    /// Input rail: 0 is the battery, `k + 1` the output of stage `k`.
+    pub input: usize,
+    /// Regulation setpoint, V (0 for a switch).
+    pub setpoint: f64,
+    /// Loss model of a switching stage.
+    pub loss: LossModel,
+    /// Input current at zero load while enabled, A.
+    pub quiescent: f64,
+    /// Input current while disabled, A.
+    pub shutdown: f64,
+    /// Lowest input voltage at which it runs.
+    pub input_min: Option<f64>,
+    /// Highest rated input voltage.
+    pub input_max: Option<f64>,
+    /// Output current rating.
+    pub max_output_current: Option<f64>,
+    /// Least Vin - Vout in regulation (buck, linear), V.
+    pub dropout: f64,
+    /// Vin - Vout in bypass (boost), V.
+    pub bypass_drop: f64,
+    /// On resistance (switch), Ω.
+    pub on_resistance: f64,
+    /// Junction-to-ambient thermal resistance, K/W.
+    pub theta_ja: Option<f64>,
+    /// Maximum junction temperature, °C.
+    pub tj_max: f64,
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn rel(a: f64, b: f64) -> f64 {
+        ((a - b) / b).abs()
+    }
+
+    #[test]
+    fn three_term_loss_model_matches_published_form() {
+        // Driesse, Jain, Harrison, "Beyond the curves", IEEE PVSC 2008 (the three-term loss form,
+        // as implemented in pvlib.inverter.adr): Vout = 5 V, P0 = 5 mW (here Vin x q with
+        // Vin = 5 V, q = 1 mA), k1 = 0.02 V, k2 = 0.2 Ω. At 0.5 A the loss is 65.00 mW and the
+        // efficiency 0.9747; at 1 mA, 5.020 mW and 0.4990 (REFERENCES C07).
+        let m = LossModel::Terms {
+            drop: 0.02,
+            resistance: 0.2,
+        };
+        let l = m.loss(5.0, 5.0, 0.5, 1e-3);
+        assert!(rel(l, 0.065) < 1e-12);
+        assert!(rel(2.5 / (2.5 + l), 0.974_658_869_395_711_5) < 1e-9);
+        let l = m.loss(5.0, 5.0, 1e-3, 1e-3);
+        assert!(rel(l, 5.0202e-3) < 1e-12);
+        assert!((5e-3 / (5e-3 + l) - 0.4990).abs() < 5e-5);
+    }
+
+    #[test]
+    fn light_load_rule_by_hand() {
+        // DESIGN section 5, computed by hand: curve [[1 mA, 65 %], [10 mA, 80 %]], Vout 2.5 V,
+        // Vin 4 V, q 18 µA. At 1 mA: L = 2.5 mW x (1/0.65 - 1) = 1.346154 mW. At 28 µA:
+        // 72 µW + (1.346154 mW - 72 µW) x 0.028 = 107.672 µW. At 0: Vin q = 72 µW.
+        let c = EffCurve::new(&[(1e-3, 0.65), (10e-3, 0.80)]).unwrap();
+        let l1 = 2.5e-3 * (1.0 / 0.65 - 1.0);
+        assert!(rel(c.loss(4.0, 2.5, 1e-3, 18e-6), l1) < 1e-12);
+        let want = 72e-6 + (l1 - 72e-6) * 0.028;
+        assert!(rel(c.loss(4.0, 2.5, 28e-6, 18e-6), want) < 1e-12);
+        assert!(rel(c.loss(4.0, 2.5, 0.0, 18e-6), 72e-6) < 1e-12);
+        // Halfway between the points in log10(I): eta = 72.5 %.
+        assert!(rel(c.eta(10f64.powf(-2.5)), 0.725) < 1e-12);
+        // Held above the last point.
+        assert!(rel(c.eta(1.0), 0.80) < 1e-12);
+    }
+
+    #[test]
+    fn curves_interpolate_linearly_in_vin() {
+        let a = EffCurve::new(&[(1e-3, 0.70)]).unwrap();
+        let b = EffCurve::new(&[(1e-3, 0.80)]).unwrap();
+        let m = LossModel::Curves(vec![(Some(2.0), a.clone()), (Some(4.0), b.clone())]);
+        let (la, lb) = (a.loss(3.0, 1.0, 0.01, 0.0), b.loss(3.0, 1.0, 0.01, 0.0));
+        assert!(rel(m.loss(3.0, 1.0, 0.01, 0.0), 0.5 * (la + lb)) < 1e-12);
+        assert!(rel(m.loss(1.0, 1.0, 0.01, 0.0), a.loss(1.0, 1.0, 0.01, 0.0)) < 1e-12);
+        assert!(rel(m.loss(5.0, 1.0, 0.01, 0.0), b.loss(5.0, 1.0, 0.01, 0.0)) < 1e-12);
+        assert!(m.extrapolated(0.01));
+        assert!(!m.extrapolated(1e-3));
+    }
+}

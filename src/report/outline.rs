@@ -1,0 +1,129 @@
+//! The tree as an indented outline: what `check` prints for a valid design.
+
+use std::io::{self, Write};
+
+use crate::model::{Design, Draw, LossModel, RepeatUntil, Stage, StageKind, Step};
+use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent};
+
+/// Write the outline of `design`: the pack, then each rail with its loads and stages, then the
+/// modes and the profile.
+pub fn write_outline(w: &mut dyn Write, d: &Design) -> io::Result<()> {
+    let p = &d.pack;
+    let c = &p.cell;
+    writeln!(w, "{}", d.title)?;
+    writeln!(
+        w,
+        "pack: {} in series x {} in parallel of `{}` ({}), {} full, cutoff {}, {}, {} at 50 %, {} ambient",
+        p.series,
+        p.parallel,
+        c.name,
+        c.chemistry.name(),
+        fmt_eng(p.ocv(1.0), "V"),
+        fmt_eng(p.cutoff_v(), "V"),
+        fmt_eng(p.capacity_c(d.ambient_c) / 3600.0, "Ah"),
+        fmt_eng(p.r0(0.5, d.ambient_c), "Ω"),
+        fmt_celsius(d.ambient_c)
+    )?;
+    writeln!(w, "battery")?;
+    rail(w, d, 0, "")?;
+    let names: Vec<&str> = d.modes.iter().map(|m| m.name.as_str()).collect();
+    writeln!(w, "modes: {}", names.join(", "))?;
+    let cycle: f64 = d.profile.iter().map(Step::duration).sum();
+    writeln!(
+        w,
+        "profile: {} (one pass {})",
+        steps(d, &d.profile),
+        fmt_duration(cycle)
+    )?;
+    Ok(())
+}
+
+fn rail(w: &mut dyn Write, d: &Design, r: usize, prefix: &str) -> io::Result<()> {
+    let loads = d.tree.loads_on(r);
+    let stages = d.tree.stages_on(r);
+    let n = loads.len() + stages.len();
+    let mut i = 0;
+    for &l in loads {
+        i += 1;
+        let (branch, _) = branches(i == n);
+        let load = &d.loads[l];
+        let mut draws: Vec<String> = load
+            .states
+            .iter()
+            .enumerate()
+            .map(|(k, (name, draw))| {
+                let mark = if load.default == Some(k) { " (default)" } else { "" };
+                format!("{name} {}{mark}", draw_text(*draw))
+            })
+            .collect();
+        if let (Some(lo), Some(hi)) = (load.v_min, load.v_max) {
+            draws.push(format!("needs {}..{}", fmt_eng(lo, "V"), fmt_eng(hi, "V")));
+        }
+        writeln!(w, "{prefix}{branch}{}  {}", load.id, draws.join(", "))?;
+    }
+    for &k in stages {
+        i += 1;
+        let (branch, cont) = branches(i == n);
+        writeln!(w, "{prefix}{branch}{}  {}", d.stages[k].id, stage_text(&d.stages[k]))?;
+        rail(w, d, k + 1, &format!("{prefix}{cont}"))?;
+    }
+    Ok(())
+}
+
+fn branches(last: bool) -> (&'static str, &'static str) {
+    if last { ("└─ ", "   ") } else { ("├─ ", "│  ") }
+}
+
+fn draw_text(d: Draw) -> String {
+    match d {
+        Draw::Current(i) => fmt_eng(i, "A"),
+        Draw::Power(p) => fmt_eng(p, "W"),
+        Draw::Resistance(r) => fmt_eng(r, "Ω"),
+    }
+}
+
+fn stage_text(s: &Stage) -> String {
+    let mut parts = Vec::new();
+    if s.kind == StageKind::Switch {
+        parts.push(format!("switch, {} on", fmt_eng(s.on_resistance, "Ω")));
+    } else {
+        parts.push(format!("{} to {}", s.kind.name(), fmt_eng(s.setpoint, "V")));
+    }
+    match &s.loss {
+        LossModel::Constant(e) => parts.push(format!("efficiency {}", fmt_percent(*e))),
+        LossModel::Curves(c) if c.len() == 1 => parts.push("efficiency curve".into()),
+        LossModel::Curves(c) => parts.push(format!("efficiency curves at {} input voltages", c.len())),
+        LossModel::Terms { drop, resistance } => parts.push(format!(
+            "loss {} x I + {} x I²",
+            fmt_eng(*drop, "V"),
+            fmt_eng(*resistance, "Ω")
+        )),
+        LossModel::None => {}
+    }
+    match s.kind {
+        StageKind::Buck | StageKind::Linear => parts.push(format!("dropout {}", fmt_eng(s.dropout, "V"))),
+        StageKind::Boost => parts.push(format!("bypass drop {}", fmt_eng(s.bypass_drop, "V"))),
+        _ => {}
+    }
+    if s.quiescent > 0.0 {
+        parts.push(format!("quiescent {}", fmt_eng(s.quiescent, "A")));
+    }
+    if let (Some(lo), Some(hi)) = (s.input_min, s.input_max) {
+        parts.push(format!("input {}..{}", fmt_eng(lo, "V"), fmt_eng(hi, "V")));
+    }
+    parts.join(", ")
+}
+
+fn steps(d: &Design, list: &[Step]) -> String {
+    let parts: Vec<String> = list
+        .iter()
+        .map(|s| match s {
+            Step::Hold { mode, seconds } => format!("{} {}", d.modes[*mode].name, fmt_duration(*seconds)),
+            Step::Repeat { steps: inner, until } => match until {
+                RepeatUntil::Times(n) => format!("{n} x [{}]", steps(d, inner)),
+                RepeatUntil::Seconds(t) => format!("[{}] for {}", steps(d, inner), fmt_duration(*t)),
+            },
+        })
+        .collect();
+    parts.join(", ")
+}

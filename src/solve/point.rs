@@ -1,0 +1,510 @@
+//! One operating point: for a battery state and a mode, the voltage, current, state and loss of
+//! every stage and load. Voltages flow down the tree and currents up; the pack current is
+//! settled by a bracketed search ([`settle`]), and so is the output of every load switch.
+
+use super::root::{Settle, settle};
+use crate::model::{Design, Mode, Stage, StageKind};
+
+/// The regulation state of a stage at an operating point.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum StageState {
+    /// Holding its setpoint.
+    Regulating,
+    /// A buck or linear regulator below setpoint + dropout, passing its input through.
+    Dropout,
+    /// A boost whose input is above setpoint + bypass drop, passing it through.
+    Bypass,
+    /// A load switch, closed.
+    On,
+    /// Turned off by the mode, or its input rail is dead.
+    Off,
+    /// Its input, while running, is below the minimum of its input range: locked out.
+    Undervoltage,
+}
+
+impl StageState {
+    /// The name used in reports and JSON.
+    pub fn name(self) -> &'static str {
+        match self {
+            StageState::Regulating => "regulating",
+            StageState::Dropout => "dropout",
+            StageState::Bypass => "bypass",
+            StageState::On => "on",
+            StageState::Off => "off",
+            StageState::Undervoltage => "undervoltage",
+        }
+    }
+
+    /// Whether the stage passes power to its rail.
+    pub fn is_running(self) -> bool {
+        !matches!(self, StageState::Off | StageState::Undervoltage)
+    }
+}
+
+/// A stage at an operating point (SI units).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct StagePoint {
+    /// State.
+    pub state: StageState,
+    /// Input voltage (0 when the input rail is dead).
+    pub vin: f64,
+    /// Input current.
+    pub iin: f64,
+    /// Output voltage (0 when not running).
+    pub vout: f64,
+    /// Output current.
+    pub iout: f64,
+    /// Loss, W.
+    pub loss: f64,
+}
+
+impl StagePoint {
+    /// P_out / P_in while running and drawing; `None` otherwise.
+    pub fn efficiency(&self) -> Option<f64> {
+        let pin = self.vin * self.iin;
+        (self.state.is_running() && pin > 0.0).then(|| self.vout * self.iout / pin)
+    }
+}
+
+/// A load at an operating point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LoadPoint {
+    /// State index in the load (`None` = off).
+    pub state: Option<usize>,
+    /// Whether its rail is live.
+    pub live: bool,
+    /// Rail voltage.
+    pub voltage: f64,
+    /// Current drawn.
+    pub current: f64,
+    /// Power taken.
+    pub power: f64,
+}
+
+/// The pack side of an operating point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PackPoint {
+    /// Open-circuit voltage.
+    pub ocv: f64,
+    /// Terminal voltage.
+    pub voltage: f64,
+    /// Current (positive = discharge).
+    pub current: f64,
+    /// Internal loss I (OCV - V), W.
+    pub loss: f64,
+}
+
+impl PackPoint {
+    /// Terminal power V x I.
+    pub fn power(&self) -> f64 {
+        self.voltage * self.current
+    }
+}
+
+/// A solved operating point.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OperatingPoint {
+    /// Mode index.
+    pub mode: usize,
+    /// The pack.
+    pub pack: PackPoint,
+    /// Every stage, by index.
+    pub stages: Vec<StagePoint>,
+    /// Every load, by index.
+    pub loads: Vec<LoadPoint>,
+}
+
+impl OperatingPoint {
+    /// Sum of load powers plus stage losses: equals the pack's terminal power.
+    pub fn delivered_plus_losses(&self) -> f64 {
+        self.loads.iter().map(|l| l.power).sum::<f64>()
+            + self.stages.iter().map(|s| s.loss).sum::<f64>()
+    }
+}
+
+/// The state of the pack for one operating point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PackState {
+    /// State of charge, 0..1.
+    pub soc: f64,
+    /// Polarization voltage; `None` means settled at I x R1 (steady state, as `budget` uses).
+    pub v_pol: Option<f64>,
+    /// Ambient temperature, °C.
+    pub ambient_c: f64,
+}
+
+/// The result of solving one mode at one pack state.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Solution {
+    /// The pack cannot supply the demanded power at any terminal voltage.
+    Collapse {
+        /// Open-circuit voltage at the moment.
+        ocv: f64,
+        /// Effective source resistance.
+        resistance: f64,
+    },
+    /// The operating point.
+    Point(OperatingPoint),
+}
+
+/// Solve mode `mode` of `design` at pack state `at`.
+///
+/// Stages whose input, with the stage running, is below their minimum are locked out
+/// (`undervoltage`) and the point is solved again without them.
+///
+/// # Examples
+///
+/// ```
+/// use joulepath::solve::{PackState, Solution, solve_point};
+/// let text = r#"
+/// cells:
+///   c: { capacity: 1 Ah, ocv: [[0 %, 3 V], [100 %, 4 V]], resistance: 0.1 ohm, cutoff: 3 V }
+/// battery: { cell: c }
+/// stages: [{ id: ldo, kind: linear, input: battery, output: 3.3 V, quiescent: 10 µA }]
+/// loads: [{ id: mcu, rail: ldo, draw: { run: 5 mA } }]
+/// modes: { run: { mcu: run } }
+/// profile: [{ mode: run, for: 1 h }]
+/// "#;
+/// let d = joulepath::Design::from_text(text).unwrap();
+/// let at = PackState { soc: 1.0, v_pol: None, ambient_c: 25.0 };
+/// let Solution::Point(p) = solve_point(&d, 0, at) else { panic!() };
+/// // A linear regulator draws its output current plus its quiescent current.
+/// assert!((p.pack.current - 5.010e-3).abs() < 1e-12);
+/// ```
+pub fn solve_point(design: &Design, mode: usize, at: PackState) -> Solution {
+    let pack = &design.pack;
+    let ocv = pack.ocv(at.soc);
+    let r0 = pack.r0(at.soc, at.ambient_c);
+    let pol = pack.polarization(at.ambient_c);
+    let (v_open, r) = match (at.v_pol, pol) {
+        (Some(vp), _) => (ocv - vp, r0),
+        (None, Some((r1, _))) => (ocv, r0 + r1),
+        (None, None) => (ocv, r0),
+    };
+    let mut locked = vec![false; design.stages.len()];
+    loop {
+        let walker = Walker {
+            d: design,
+            mode: &design.modes[mode],
+            locked: &locked,
+        };
+        let s = settle(v_open, r, &mut |v| walker.rail_current(0, v, None));
+        let Settle::Point { v_a, v_b, alpha, .. } = s else {
+            return Solution::Collapse { ocv, resistance: r };
+        };
+        let mut rec_a = Vec::new();
+        let mut rec_b = Vec::new();
+        let ia = walker.rail_current(0, v_a, Some(&mut rec_a));
+        let ib = walker.rail_current(0, v_b, Some(&mut rec_b));
+        let rec = blend(&rec_a, &rec_b, alpha);
+        let current = alpha * ia + (1.0 - alpha) * ib;
+        let voltage = alpha * v_a + (1.0 - alpha) * v_b;
+        let point = assemble(design, mode, ocv, voltage, current, &rec);
+        let newly = lockouts(design, &walker, &point);
+        if newly.is_empty() {
+            return Solution::Point(point);
+        }
+        for k in newly {
+            locked[k] = true;
+        }
+    }
+}
+
+/// Running stages whose input is below their minimum, and no stage above them is too.
+fn lockouts(design: &Design, walker: &Walker, p: &OperatingPoint) -> Vec<usize> {
+    let low = |k: usize| {
+        let s = &p.stages[k];
+        !walker.locked[k]
+            && s.state.is_running()
+            && design.stages[k].input_min.is_some_and(|m| s.vin < m)
+    };
+    let mut out = Vec::new();
+    for k in 0..design.stages.len() {
+        if !low(k) {
+            continue;
+        }
+        let mut rail = design.stages[k].input;
+        let mut ancestor_low = false;
+        while rail > 0 {
+            if low(rail - 1) {
+                ancestor_low = true;
+                break;
+            }
+            rail = design.stages[rail - 1].input;
+        }
+        if !ancestor_low {
+            out.push(k);
+        }
+    }
+    out
+}
+
+#[derive(Debug, Clone, Copy)]
+enum Rec {
+    Stage(usize, StagePoint),
+    Load(usize, LoadPoint),
+}
+
+/// Weighted average of two walks of the same tree (same order of records).
+fn blend(a: &[Rec], b: &[Rec], alpha: f64) -> Vec<Rec> {
+    let mix = |x: f64, y: f64| alpha * x + (1.0 - alpha) * y;
+    a.iter()
+        .zip(b)
+        .map(|(ra, rb)| match (ra, rb) {
+            (Rec::Stage(k, sa), Rec::Stage(_, sb)) => {
+                let state = if sa.state == sb.state {
+                    sa.state
+                } else if sa.state == StageState::Regulating || sb.state == StageState::Regulating {
+                    StageState::Regulating
+                } else {
+                    sa.state
+                };
+                Rec::Stage(
+                    *k,
+                    StagePoint {
+                        state,
+                        vin: mix(sa.vin, sb.vin),
+                        iin: mix(sa.iin, sb.iin),
+                        vout: mix(sa.vout, sb.vout),
+                        iout: mix(sa.iout, sb.iout),
+                        loss: mix(sa.loss, sb.loss),
+                    },
+                )
+            }
+            (Rec::Load(l, la), Rec::Load(_, lb)) => Rec::Load(
+                *l,
+                LoadPoint {
+                    state: la.state,
+                    live: la.live || lb.live,
+                    voltage: mix(la.voltage, lb.voltage),
+                    current: mix(la.current, lb.current),
+                    power: mix(la.power, lb.power),
+                },
+            ),
+            (other, _) => *other,
+        })
+        .collect()
+}
+
+fn assemble(d: &Design, mode: usize, ocv: f64, voltage: f64, current: f64, rec: &[Rec]) -> OperatingPoint {
+    let off = StagePoint {
+        state: StageState::Off,
+        vin: 0.0,
+        iin: 0.0,
+        vout: 0.0,
+        iout: 0.0,
+        loss: 0.0,
+    };
+    let mut stages = vec![off; d.stages.len()];
+    let mut loads = vec![
+        LoadPoint {
+            state: None,
+            live: false,
+            voltage: 0.0,
+            current: 0.0,
+            power: 0.0
+        };
+        d.loads.len()
+    ];
+    for r in rec {
+        match *r {
+            Rec::Stage(k, s) => stages[k] = s,
+            Rec::Load(l, p) => loads[l] = p,
+        }
+    }
+    OperatingPoint {
+        mode,
+        pack: PackPoint {
+            ocv,
+            voltage,
+            current,
+            loss: current * (ocv - voltage),
+        },
+        stages,
+        loads,
+    }
+}
+
+/// Walks the tree for one mode: the current a rail draws at a voltage, optionally recording
+/// every stage and load on the way.
+struct Walker<'a> {
+    d: &'a Design,
+    mode: &'a Mode,
+    locked: &'a [bool],
+}
+
+impl Walker<'_> {
+    /// Current drawn from `rail` at voltage `v` by everything on it.
+    fn rail_current(&self, rail: usize, v: f64, mut rec: Option<&mut Vec<Rec>>) -> f64 {
+        let mut total = 0.0;
+        for &l in self.d.tree.loads_on(rail) {
+            let state = self.mode.load_states[l];
+            let (i, p) = match state {
+                Some(s) => {
+                    let draw = self.d.loads[l].states[s].1;
+                    let i = draw.current(v);
+                    (i, v.max(0.0) * i)
+                }
+                None => (0.0, 0.0),
+            };
+            total += i;
+            if let Some(r) = rec.as_deref_mut() {
+                r.push(Rec::Load(
+                    l,
+                    LoadPoint {
+                        state,
+                        live: true,
+                        voltage: v,
+                        current: i,
+                        power: p,
+                    },
+                ));
+            }
+        }
+        for &k in self.d.tree.stages_on(rail) {
+            total += self.stage_input(k, v, rec.as_deref_mut());
+        }
+        total
+    }
+
+    /// Record `rail` and everything below it as dead.
+    fn dead(&self, rail: usize, rec: &mut Vec<Rec>) {
+        for &l in self.d.tree.loads_on(rail) {
+            rec.push(Rec::Load(
+                l,
+                LoadPoint {
+                    state: self.mode.load_states[l],
+                    live: false,
+                    voltage: 0.0,
+                    current: 0.0,
+                    power: 0.0,
+                },
+            ));
+        }
+        for &k in self.d.tree.stages_on(rail) {
+            rec.push(Rec::Stage(
+                k,
+                StagePoint {
+                    state: StageState::Off,
+                    vin: 0.0,
+                    iin: 0.0,
+                    vout: 0.0,
+                    iout: 0.0,
+                    loss: 0.0,
+                },
+            ));
+            self.dead(k + 1, rec);
+        }
+    }
+
+    /// Input current of stage `k` at input voltage `vin`.
+    fn stage_input(&self, k: usize, vin: f64, rec: Option<&mut Vec<Rec>>) -> f64 {
+        let st = &self.d.stages[k];
+        let out = k + 1;
+        if !self.mode.stage_on[k] || self.locked[k] {
+            let state = if self.mode.stage_on[k] {
+                StageState::Undervoltage
+            } else {
+                StageState::Off
+            };
+            if let Some(r) = rec {
+                r.push(Rec::Stage(
+                    k,
+                    StagePoint {
+                        state,
+                        vin,
+                        iin: st.shutdown,
+                        vout: 0.0,
+                        iout: 0.0,
+                        loss: vin.max(0.0) * st.shutdown,
+                    },
+                ));
+                self.dead(out, r);
+            }
+            return st.shutdown;
+        }
+        let q = st.quiescent;
+        let (state, vout) = state_and_output(st, vin);
+        // Record the stage before its subtree; its figures are filled in after the walk below.
+        let slot = rec.as_ref().map(|r| r.len());
+        let mut rec = rec;
+        if let Some(r) = rec.as_deref_mut() {
+            r.push(Rec::Stage(k, StagePoint { state, vin, iin: 0.0, vout, iout: 0.0, loss: 0.0 }));
+        }
+        let (vout, iout, iin, loss) = match (st.kind, state) {
+            (StageKind::Switch, _) => {
+                let (vout, iout) = self.switch_output(k, vin, rec.as_deref_mut());
+                let iin = iout + q;
+                (vout, iout, iin, vin * iin - vout * iout)
+            }
+            (StageKind::Linear, _) | (_, StageState::Dropout | StageState::Bypass) => {
+                let iout = self.rail_current(out, vout, rec.as_deref_mut());
+                let iin = iout + q;
+                (vout, iout, iin, (vin - vout) * iout + vin * q)
+            }
+            _ => {
+                let iout = self.rail_current(out, vout, rec.as_deref_mut());
+                let loss = st.loss.loss(vin, vout, iout, q);
+                let pin = vout * iout + loss;
+                let iin = if vin > 0.0 {
+                    pin / vin
+                } else if pin > 0.0 {
+                    f64::INFINITY
+                } else {
+                    0.0
+                };
+                (vout, iout, iin, loss)
+            }
+        };
+        if let (Some(r), Some(slot)) = (rec, slot) {
+            r[slot] = Rec::Stage(k, StagePoint { state, vin, iin, vout, iout, loss });
+        }
+        iin
+    }
+
+    /// Output voltage and current of load switch `k` with input `vin`: its on resistance is a
+    /// source resistance for its rail, settled like the pack.
+    fn switch_output(&self, k: usize, vin: f64, rec: Option<&mut Vec<Rec>>) -> (f64, f64) {
+        let st = &self.d.stages[k];
+        let out = k + 1;
+        let s = settle(vin, st.on_resistance, &mut |v| self.rail_current(out, v, None));
+        let Settle::Point { v_a, v_b, alpha, current } = s else {
+            if let Some(r) = rec {
+                self.dead(out, r);
+            }
+            return (0.0, f64::INFINITY);
+        };
+        if let Some(r) = rec {
+            let mut ra = Vec::new();
+            let mut rb = Vec::new();
+            let ia = self.rail_current(out, v_a, Some(&mut ra));
+            let ib = self.rail_current(out, v_b, Some(&mut rb));
+            r.extend(blend(&ra, &rb, alpha));
+            return (alpha * v_a + (1.0 - alpha) * v_b, alpha * ia + (1.0 - alpha) * ib);
+        }
+        (alpha * v_a + (1.0 - alpha) * v_b, current)
+    }
+}
+
+/// A running stage's state and output voltage at input `vin` (DESIGN section 5).
+fn state_and_output(st: &Stage, vin: f64) -> (StageState, f64) {
+    let pass = |drop: f64| (vin - drop).max(0.0);
+    match st.kind {
+        StageKind::Buck | StageKind::Linear => {
+            if vin >= st.setpoint + st.dropout {
+                (StageState::Regulating, st.setpoint)
+            } else {
+                (StageState::Dropout, pass(st.dropout))
+            }
+        }
+        StageKind::Boost => {
+            if vin - st.bypass_drop <= st.setpoint {
+                (StageState::Regulating, st.setpoint)
+            } else {
+                (StageState::Bypass, pass(st.bypass_drop))
+            }
+        }
+        StageKind::BuckBoost => (StageState::Regulating, st.setpoint),
+        StageKind::Switch => (StageState::On, vin),
+    }
+}

@@ -1,0 +1,213 @@
+//! The operating point of a source with internal resistance feeding a nonlinear demand: the
+//! terminal voltage V at which the demand F(V) equals what the source line gives,
+//! (v_open - V) / r. Found by a bracketed search, so it always ends; where no such voltage
+//! exists the demand exceeds what the source can give, and that is reported as a collapse.
+
+use super::tolerance::{BISECT_MAX_ITER, BISECT_REL, FIXED_POINT_MAX_ITER, FIXED_POINT_REL, SCAN_STEPS};
+
+/// Where the source settles.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Settle {
+    /// No terminal voltage makes demand and supply meet: the source collapses.
+    Collapse,
+    /// The operating point lies between two voltages `v_a >= v_b` a hair apart: evaluate the
+    /// demand at both and take `alpha` of the first and `1 - alpha` of the second. Where the
+    /// demand is continuous both are the same point; where it jumps (a converter at a state
+    /// boundary) the blend is the time average of a converter switching between its two states,
+    /// which holds the terminal voltage at the boundary.
+    Point {
+        /// Upper voltage (demand at least the line current).
+        v_a: f64,
+        /// Lower voltage (demand at most the line current).
+        v_b: f64,
+        /// Weight of the evaluation at `v_a`.
+        alpha: f64,
+        /// The source current at the point.
+        current: f64,
+    },
+}
+
+fn finite_or_inf(x: f64) -> f64 {
+    if x.is_nan() { f64::INFINITY } else { x }
+}
+
+/// Settle a source of open-circuit voltage `v_open` and resistance `r` feeding `demand(V)`
+/// (current drawn at terminal voltage V), taking the highest terminal voltage that balances
+/// (the lowest source current), as DESIGN section 5 asks.
+///
+/// # Formula
+///
+/// Find the highest V in (0, v_open] where g(V) = (v_open - V) / r - F(V) changes sign from
+/// negative (above) to non-negative (below). For a constant-power load on a resistive source the
+/// answer is V = (v_open + sqrt(v_open^2 - 4 P r)) / 2, and none exists above
+/// P_max = v_open^2 / (4 r) (maximum power transfer; Alexander & Sadiku, Fundamentals of Electric
+/// Circuits, 5th ed., section 4.8, from memory).
+///
+/// # Examples
+///
+/// ```
+/// use joulepath::solve::{Settle, settle};
+/// // 3.7 V, 0.1 Ω feeding 5 W: I = (3.7 - sqrt(3.7^2 - 4 x 5 x 0.1)) / (2 x 0.1) = 1.405 A.
+/// let Settle::Point { current, .. } = settle(3.7, 0.1, &mut |v: f64| 5.0 / v) else { panic!() };
+/// assert!((current - 1.404_663_3).abs() < 1e-6);
+/// // 35 W is above 3.7^2 / 0.4 = 34.2 W: no operating point.
+/// assert_eq!(settle(3.7, 0.1, &mut |v: f64| 35.0 / v), Settle::Collapse);
+/// ```
+pub fn settle(v_open: f64, r: f64, demand: &mut dyn FnMut(f64) -> f64) -> Settle {
+    let mut f = |v: f64| finite_or_inf(demand(v));
+    if !(v_open > 0.0) {
+        let i = f(0.0);
+        return if i == 0.0 {
+            Settle::Point { v_a: 0.0, v_b: 0.0, alpha: 1.0, current: 0.0 }
+        } else {
+            Settle::Collapse
+        };
+    }
+    let f_top = f(v_open);
+    if r <= 0.0 || f_top == 0.0 {
+        return if f_top.is_finite() {
+            Settle::Point { v_a: v_open, v_b: v_open, alpha: 1.0, current: f_top }
+        } else {
+            Settle::Collapse
+        };
+    }
+    if !f_top.is_finite() {
+        return Settle::Collapse;
+    }
+    let g = |v: f64, fv: f64| (v_open - v) / r - fv;
+    // Fixed-point iteration on the current from the no-sag guess: for a demand that rises as the
+    // voltage falls it climbs monotonically to the lowest-current balance without passing it.
+    let mut v_upper = v_open;
+    let mut i = f_top;
+    for _ in 0..FIXED_POINT_MAX_ITER {
+        let v = v_open - r * i;
+        if v <= 0.0 {
+            break;
+        }
+        let fv = f(v);
+        if g(v, fv) >= 0.0 {
+            return bisect(v_open, r, &mut f, v, v_upper);
+        }
+        v_upper = v;
+        if fv - i <= FIXED_POINT_REL * fv {
+            // Converged from below: a point a hair lower should already balance.
+            let probe = v_open - r * (fv * (1.0 + 8.0 * FIXED_POINT_REL) + f64::MIN_POSITIVE);
+            if probe > 0.0 {
+                let fp = f(probe);
+                if g(probe, fp) >= 0.0 {
+                    return bisect(v_open, r, &mut f, probe, v_upper);
+                }
+            }
+        }
+        i = fv;
+    }
+    // Slow or no convergence (near the power limit, or a demand that falls with voltage): scan
+    // down from the last voltage known to be above the balance.
+    let step = v_upper / SCAN_STEPS as f64;
+    let mut prev = v_upper;
+    for j in 1..SCAN_STEPS {
+        let v = v_upper - step * j as f64;
+        let fv = f(v);
+        if g(v, fv) >= 0.0 {
+            return bisect(v_open, r, &mut f, v, prev);
+        }
+        prev = v;
+    }
+    Settle::Collapse
+}
+
+/// Narrow [lo, hi] (g(lo) >= 0 > g(hi)) to a hair and weigh the two ends.
+fn bisect(v_open: f64, r: f64, f: &mut dyn FnMut(f64) -> f64, mut lo: f64, mut hi: f64) -> Settle {
+    for _ in 0..BISECT_MAX_ITER {
+        if hi - lo <= BISECT_REL * hi {
+            break;
+        }
+        let mid = 0.5 * (lo + hi);
+        let fm = f(mid);
+        if (v_open - mid) / r - fm >= 0.0 {
+            lo = mid;
+        } else {
+            hi = mid;
+        }
+    }
+    let (fa, fb) = (f(hi), f(lo));
+    let target = (v_open - 0.5 * (hi + lo)) / r;
+    let alpha = if fa.is_finite() && fa - fb > f64::EPSILON * fa.abs().max(1e-300) {
+        ((target - fb) / (fa - fb)).clamp(0.0, 1.0)
+    } else {
+        0.5
+    };
+    if !fa.is_finite() && !fb.is_finite() {
+        return Settle::Collapse;
+    }
+    let (alpha, fa) = if fa.is_finite() { (alpha, fa) } else { (0.0, 0.0) };
+    Settle::Point {
+        v_a: hi,
+        v_b: lo,
+        alpha,
+        current: alpha * fa + (1.0 - alpha) * fb,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn point(s: Settle) -> (f64, f64) {
+        match s {
+            Settle::Point { v_a, v_b, current, .. } => (0.5 * (v_a + v_b), current),
+            Settle::Collapse => panic!("unexpected collapse"),
+        }
+    }
+
+    #[test]
+    fn constant_power_on_a_resistive_source() {
+        // REFERENCES C35 (algebra of C34): 3.7 V, 0.1 Ω, 5 W -> I = 1.405 A, V = 3.560 V;
+        // boost 2.5 W at 90 % (2.778 W) -> 0.7666 A, 3.623 V; coin cell 3.0 V, 20 Ω,
+        // 20 mW -> 6.993 mA, 2.860 V.
+        for (voc, r, p) in [(3.7, 0.1, 5.0), (3.7, 0.1, 2.5 / 0.9), (3.0, 20.0, 0.02)] {
+            let (v, i) = point(settle(voc, r, &mut |v: f64| p / v));
+            let v_exact = 0.5 * (voc + (voc * voc - 4.0 * p * r).sqrt());
+            assert!(((v - v_exact) / v_exact).abs() < 1e-12, "{voc} {r} {p}: {v}");
+            assert!(((v * i - p) / p).abs() < 1e-12);
+        }
+    }
+
+    #[test]
+    fn maximum_power_transfer_limit() {
+        // Maximum power transfer (Alexander & Sadiku, Fundamentals of Electric Circuits, 5th
+        // ed., section 4.8; from memory): P_max = Voc^2 / 4R at V = Voc / 2.
+        let (voc, r) = (3.0, 20.0);
+        let pmax = voc * voc / (4.0 * r);
+        let (v, _) = point(settle(voc, r, &mut |v: f64| 0.999 * pmax / v));
+        assert!(v > voc / 2.0 && v < 0.52 * voc, "just below P_max solves near Voc/2: {v}");
+        assert_eq!(settle(voc, r, &mut |v: f64| 1.001 * pmax / v), Settle::Collapse);
+    }
+
+    #[test]
+    fn resistive_and_constant_current_loads() {
+        // A 10 Ω load on 3 V with 0.5 Ω: I = 3 / 10.5 (Ohm's law).
+        let (_, i) = point(settle(3.0, 0.5, &mut |v: f64| v / 10.0));
+        assert!((i - 3.0 / 10.5).abs() < 1e-12);
+        let (v, i) = point(settle(3.0, 0.5, &mut |_| 0.2));
+        assert!((i - 0.2).abs() < 1e-12 && (v - 2.9).abs() < 1e-12);
+        // A constant current the source cannot give even at 0 V.
+        assert_eq!(settle(3.0, 0.5, &mut |_| 7.0), Settle::Collapse);
+    }
+
+    #[test]
+    fn holds_at_a_jump_with_no_balance_on_either_side() {
+        // Demand 1 A above 2.5 V and 0.2 A below: with 3 V and 1 Ω neither side balances, so the
+        // voltage is held at 2.5 V and the current is the line's 0.5 A.
+        let (v, i) = point(settle(3.0, 1.0, &mut |v: f64| if v >= 2.5 { 1.0 } else { 0.2 }));
+        assert!((v - 2.5).abs() < 1e-12 && (i - 0.5).abs() < 1e-9);
+    }
+
+    #[test]
+    fn takes_the_lower_current_of_two_balances() {
+        // Demand 0.2 A above 2.5 V and 1 A below, 3 V, 1 Ω: both 2.8 V (0.2 A) and 2.0 V (1 A)
+        // balance; the lower current wins.
+        let (v, i) = point(settle(3.0, 1.0, &mut |v: f64| if v > 2.5 { 0.2 } else { 1.0 }));
+        assert!((v - 2.8).abs() < 1e-12 && (i - 0.2).abs() < 1e-12);
+    }
+}

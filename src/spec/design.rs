@@ -1,0 +1,295 @@
+//! The serde mirror of a design file. Values are kept as written (quantities as text); the model
+//! layer parses and checks them so that every problem of a file can be reported at once.
+
+use indexmap::IndexMap;
+use schemars::JsonSchema;
+use serde::Deserialize;
+
+use super::qty::{Efficiency, Qty, ResistanceSpec};
+
+/// A whole design file.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+#[schemars(title = "joulepath design file")]
+pub struct DesignSpec {
+    /// Title of the design, shown in reports.
+    #[serde(default)]
+    pub design: Option<String>,
+    /// Ambient temperature, e.g. `25 °C` (the default).
+    #[serde(default)]
+    pub ambient: Option<Qty>,
+    /// Custom cells by name.
+    #[serde(default)]
+    pub cells: IndexMap<String, CellSpec>,
+    /// The pack: which cell, how many in series and parallel, start state.
+    pub battery: BatterySpec,
+    /// Converters, regulators and switches.
+    #[serde(default)]
+    pub stages: Vec<StageSpec>,
+    /// Everything that draws power.
+    #[serde(default)]
+    pub loads: Vec<LoadSpec>,
+    /// Operating modes: mode name -> { load id: state, stage id: off }.
+    #[serde(default)]
+    pub modes: IndexMap<String, Option<IndexMap<String, String>>>,
+    /// How the product spends its time, repeated until it stops.
+    #[serde(default)]
+    pub profile: Vec<StepSpec>,
+}
+
+/// Cell chemistry.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
+#[serde(rename_all = "kebab-case")]
+pub enum ChemistrySpec {
+    /// Lithium-ion (cobalt, nickel or manganese oxide cathodes).
+    LiIon,
+    /// Lithium iron phosphate.
+    Lifepo4,
+    /// Nickel-metal hydride.
+    Nimh,
+    /// Alkaline zinc-manganese dioxide.
+    Alkaline,
+    /// Lithium-manganese dioxide primary (coin cells).
+    LiMno2,
+    /// Lithium-thionyl chloride primary.
+    LiSocl2,
+    /// Lead-acid.
+    LeadAcid,
+    /// Anything else.
+    Other,
+}
+
+/// A cell: custom, or a preset with overrides (`preset:` names it).
+#[derive(Debug, Clone, Default, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct CellSpec {
+    /// A built-in preset this cell starts from; the other keys override it.
+    #[serde(default)]
+    pub preset: Option<String>,
+    /// Chemistry (default `other`).
+    #[serde(default)]
+    pub chemistry: Option<ChemistrySpec>,
+    /// Rated capacity, e.g. `600 mAh` (or an energy such as `2.2 Wh`).
+    #[serde(default)]
+    pub capacity: Option<Qty>,
+    /// The current the capacity is rated at; default capacity / 5 h.
+    #[serde(default)]
+    pub rated_current: Option<Qty>,
+    /// Open-circuit voltage against state of charge: `[[SoC, V], ...]`.
+    #[serde(default)]
+    pub ocv: Option<Vec<Vec<Qty>>>,
+    /// Ohmic internal resistance, one value or `[[SoC, R], ...]`.
+    #[serde(default)]
+    pub resistance: Option<ResistanceSpec>,
+    /// Optional 1-RC polarization branch.
+    #[serde(default)]
+    pub polarization: Option<PolarizationSpec>,
+    /// Peukert exponent (default 1.0).
+    #[serde(default)]
+    pub peukert: Option<Qty>,
+    /// End-of-discharge voltage per cell, under load.
+    #[serde(default)]
+    pub cutoff: Option<Qty>,
+    /// Continuous discharge limit per cell.
+    #[serde(default)]
+    pub max_current: Option<Qty>,
+    /// Self-discharge of the rated capacity, e.g. `3 %/month`.
+    #[serde(default)]
+    pub self_discharge: Option<Qty>,
+    /// Capacity and resistance factors against temperature.
+    #[serde(default)]
+    pub temperature: Option<Vec<TemperatureRowSpec>>,
+}
+
+/// The 1-RC polarization branch of a cell.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct PolarizationSpec {
+    /// Resistance of the RC branch.
+    pub resistance: Qty,
+    /// Its time constant R x C.
+    pub time_constant: Qty,
+}
+
+/// One row of a cell's temperature table.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct TemperatureRowSpec {
+    /// Temperature of the row.
+    pub at: Qty,
+    /// Capacity factor (default 100 %).
+    #[serde(default)]
+    pub capacity: Option<Qty>,
+    /// Resistance factor (default 100 %).
+    #[serde(default)]
+    pub resistance: Option<Qty>,
+}
+
+/// The cell a pack is built from: a name or an inline definition.
+#[derive(Debug, Clone, JsonSchema)]
+#[schemars(untagged)]
+pub enum CellRef {
+    /// A key of `cells` or a built-in preset.
+    Name(String),
+    /// An inline cell (may start from a preset).
+    Inline(Box<CellSpec>),
+}
+
+impl<'de> Deserialize<'de> for CellRef {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        let v = serde_yaml::Value::deserialize(d)?;
+        match v {
+            serde_yaml::Value::String(s) => Ok(CellRef::Name(s)),
+            serde_yaml::Value::Mapping(_) => serde_yaml::from_value(v)
+                .map(|c| CellRef::Inline(Box::new(c)))
+                .map_err(serde::de::Error::custom),
+            _ => Err(serde::de::Error::custom(
+                "expected a cell name or an inline cell mapping",
+            )),
+        }
+    }
+}
+
+/// The pack.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct BatterySpec {
+    /// The cell.
+    pub cell: CellRef,
+    /// Cells in series (default 1).
+    #[serde(default)]
+    pub series: Option<Qty>,
+    /// Strings in parallel (default 1).
+    #[serde(default)]
+    pub parallel: Option<Qty>,
+    /// State of charge at the start (default 100 %).
+    #[serde(default)]
+    pub start: Option<Qty>,
+    /// Aging factors.
+    #[serde(default)]
+    pub aging: Option<AgingSpec>,
+}
+
+/// Aging factors of the pack.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct AgingSpec {
+    /// Remaining capacity (default 100 %).
+    #[serde(default)]
+    pub capacity: Option<Qty>,
+    /// Resistance relative to new (default 100 %).
+    #[serde(default)]
+    pub resistance: Option<Qty>,
+}
+
+/// Stage kinds.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
+#[serde(rename_all = "kebab-case")]
+pub enum StageKindSpec {
+    /// Step-down switching converter.
+    Buck,
+    /// Step-up switching converter.
+    Boost,
+    /// Switching converter that regulates above and below its input.
+    BuckBoost,
+    /// Linear (low-dropout) regulator.
+    Linear,
+    /// Load switch.
+    Switch,
+}
+
+/// One stage: a converter, regulator or switch.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct StageSpec {
+    /// Unique id.
+    pub id: String,
+    /// Kind of stage.
+    pub kind: StageKindSpec,
+    /// `battery` or the id of the stage feeding this one.
+    pub input: String,
+    /// Regulation setpoint (not for `switch`).
+    #[serde(default)]
+    pub output: Option<Qty>,
+    /// Efficiency: a constant, one curve `[[I, eta], ...]` or curves per input voltage.
+    #[serde(default)]
+    pub efficiency: Option<Efficiency>,
+    /// Loss terms instead of an efficiency.
+    #[serde(default)]
+    pub loss: Option<LossSpec>,
+    /// Input current at zero load while enabled.
+    #[serde(default)]
+    pub quiescent: Option<Qty>,
+    /// Input current while disabled by a mode.
+    #[serde(default)]
+    pub shutdown: Option<Qty>,
+    /// `[min, max]` input voltage.
+    #[serde(default)]
+    pub input_range: Option<Vec<Qty>>,
+    /// Output current rating.
+    #[serde(default)]
+    pub max_output_current: Option<Qty>,
+    /// Buck and linear: least input-output difference that keeps regulation.
+    #[serde(default)]
+    pub dropout: Option<Qty>,
+    /// Boost: input-output difference in bypass.
+    #[serde(default)]
+    pub bypass_drop: Option<Qty>,
+    /// Switch: on resistance.
+    #[serde(default)]
+    pub on_resistance: Option<Qty>,
+    /// Junction-to-ambient thermal resistance.
+    #[serde(default)]
+    pub theta_ja: Option<Qty>,
+    /// Maximum junction temperature (default 125 °C).
+    #[serde(default)]
+    pub tj_max: Option<Qty>,
+}
+
+/// Loss terms of a switching stage: L = Vin x quiescent + drop x Iout + resistance x Iout^2.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct LossSpec {
+    /// Proportional term (a voltage).
+    #[serde(default)]
+    pub drop: Option<Qty>,
+    /// Conduction term (a resistance).
+    #[serde(default)]
+    pub resistance: Option<Qty>,
+}
+
+/// A load.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct LoadSpec {
+    /// Unique id.
+    pub id: String,
+    /// `battery` or a stage id.
+    pub rail: String,
+    /// `[min, max]` supply voltage the load needs.
+    #[serde(default)]
+    pub voltage_range: Option<Vec<Qty>>,
+    /// State name -> draw: a current, a power or a resistance.
+    pub draw: IndexMap<String, Qty>,
+    /// State when a mode does not name the load (default `off`).
+    #[serde(default)]
+    pub default: Option<String>,
+}
+
+/// One profile item: `{mode, for}` or `{repeat: [...], for | times}`.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct StepSpec {
+    /// The mode of a plain step.
+    #[serde(default)]
+    pub mode: Option<String>,
+    /// Duration of a step, or of a repeat block.
+    #[serde(default, rename = "for")]
+    pub duration: Option<Qty>,
+    /// Steps of a repeat block.
+    #[serde(default)]
+    pub repeat: Option<Vec<StepSpec>>,
+    /// Number of passes of a repeat block.
+    #[serde(default)]
+    pub times: Option<Qty>,
+}

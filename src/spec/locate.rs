@@ -1,0 +1,154 @@
+//! Where each value of a YAML document sits: a map from YAML path (`stages[2].input`) to line and
+//! column, built from the event stream of a second, position-aware parser. serde gives positions
+//! only for its first error; this index lets every later check name its place too.
+
+use std::collections::HashMap;
+
+use yaml_rust2::parser::{Event, MarkedEventReceiver, Parser};
+use yaml_rust2::scanner::Marker;
+
+use crate::error::Location;
+
+/// Line and column of every value (and every mapping key) in a document, by YAML path.
+#[derive(Debug, Default, Clone)]
+pub struct SourceMap {
+    values: HashMap<String, Location>,
+    keys: HashMap<String, Location>,
+}
+
+impl SourceMap {
+    /// Index `text`; a document the position parser cannot read gives an empty map.
+    pub fn build(text: &str) -> Self {
+        let mut rec = Recorder::default();
+        let mut parser = Parser::new_from_str(text);
+        if parser.load(&mut rec, false).is_err() {
+            return SourceMap::default();
+        }
+        rec.map
+    }
+
+    /// Where the value at `path` starts.
+    pub fn value(&self, path: &str) -> Option<Location> {
+        self.values.get(path).copied()
+    }
+
+    /// Where the key of the mapping entry at `path` is written (its value's place if unknown).
+    pub fn key(&self, path: &str) -> Option<Location> {
+        self.keys.get(path).copied().or_else(|| self.value(path))
+    }
+
+    /// The place of `path`, or of its nearest ancestor that has one.
+    pub fn nearest(&self, path: &str) -> Option<Location> {
+        let mut p = path;
+        loop {
+            if let Some(l) = self.value(p) {
+                return Some(l);
+            }
+            let cut = p.rfind(['.', '['])?;
+            p = &p[..cut];
+        }
+    }
+}
+
+enum Frame {
+    Map { path: String, key: Option<String> },
+    Seq { path: String, index: usize },
+}
+
+#[derive(Default)]
+struct Recorder {
+    stack: Vec<Frame>,
+    map: SourceMap,
+}
+
+fn loc(m: Marker) -> Location {
+    // The position parser counts lines from 1 and columns from 0.
+    Location {
+        line: m.line(),
+        col: m.col() + 1,
+    }
+}
+
+fn join(parent: &str, key: &str) -> String {
+    if parent.is_empty() {
+        key.to_string()
+    } else {
+        format!("{parent}.{key}")
+    }
+}
+
+impl Recorder {
+    /// The path of a value starting now, or None when the node is a mapping key.
+    fn value_path(&mut self, scalar_key: Option<&str>, mark: Marker) -> Option<String> {
+        match self.stack.last_mut() {
+            None => Some(String::new()),
+            Some(Frame::Seq { path, index }) => {
+                let p = format!("{path}[{index}]");
+                *index += 1;
+                Some(p)
+            }
+            Some(Frame::Map { path, key }) => match key.take() {
+                Some(k) => Some(join(path, &k)),
+                None => {
+                    let k = scalar_key.unwrap_or("?").to_string();
+                    self.map.keys.insert(join(path, &k), loc(mark));
+                    *key = Some(k);
+                    None
+                }
+            },
+        }
+    }
+}
+
+impl MarkedEventReceiver for Recorder {
+    fn on_event(&mut self, ev: Event, mark: Marker) {
+        match ev {
+            Event::Scalar(text, ..) => {
+                if let Some(p) = self.value_path(Some(&text), mark) {
+                    self.map.values.insert(p, loc(mark));
+                }
+            }
+            Event::Alias(_) => {
+                if let Some(p) = self.value_path(Some("*"), mark) {
+                    self.map.values.insert(p, loc(mark));
+                }
+            }
+            Event::SequenceStart(..) | Event::MappingStart(..) => {
+                // A container used as a mapping key gets a placeholder name.
+                let path = self.value_path(None, mark).unwrap_or_else(|| "?".into());
+                self.map.values.insert(path.clone(), loc(mark));
+                self.stack.push(if matches!(ev, Event::SequenceStart(..)) {
+                    Frame::Seq { path, index: 0 }
+                } else {
+                    Frame::Map { path, key: None }
+                });
+            }
+            Event::SequenceEnd | Event::MappingEnd => {
+                self.stack.pop();
+            }
+            _ => {}
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn paths_of_nested_values() {
+        let text = "design: x\nstages:\n  - id: a\n    input: battery\n  - id: b\n    efficiency: [[1 mA, 70 %]]\n";
+        let m = SourceMap::build(text);
+        assert_eq!(m.value("design"), Some(Location { line: 1, col: 9 }));
+        assert_eq!(m.value("stages[1].id"), Some(Location { line: 5, col: 9 }));
+        assert_eq!(m.key("stages[0].input"), Some(Location { line: 4, col: 5 }));
+        assert_eq!(m.value("stages[1].efficiency[0][1]").map(|l| l.line), Some(6));
+        assert_eq!(m.nearest("stages[1].nothing.here").map(|l| l.line), Some(5));
+    }
+
+    #[test]
+    fn unreadable_text_gives_an_empty_map() {
+        let m = SourceMap::build("a: [1, 2\n");
+        assert_eq!(m.value("a"), None);
+    }
+}

@@ -1,0 +1,293 @@
+//! The design file as written: serde types mirroring the YAML, read section by section so that
+//! every structural problem of a file is reported at once, each with its YAML path and place.
+//! This is the only module that uses the YAML parser.
+
+mod design;
+mod locate;
+mod qty;
+
+use indexmap::IndexMap;
+use serde::de::DeserializeOwned;
+use serde_yaml::Value;
+
+pub use design::{
+    AgingSpec, BatterySpec, CellRef, CellSpec, ChemistrySpec, DesignSpec, LoadSpec, LossSpec,
+    PolarizationSpec, StageKindSpec, StageSpec, StepSpec, TemperatureRowSpec,
+};
+pub use locate::SourceMap;
+pub use qty::{Efficiency, Qty, ResistanceSpec, VinCurveSpec};
+
+use crate::error::{Diagnostic, Location, did_you_mean};
+
+const TOP_KEYS: [&str; 8] = [
+    "design", "ambient", "cells", "battery", "stages", "loads", "modes", "profile",
+];
+
+/// A parsed design file and the places of its values.
+#[derive(Debug, Clone)]
+pub struct Parsed {
+    /// The file's content as serde types.
+    pub spec: DesignSpec,
+    /// Line and column of every value, by YAML path.
+    pub source: SourceMap,
+}
+
+/// Read a design file's text into its serde mirror.
+///
+/// # Errors
+///
+/// Every structural problem found (YAML syntax, unknown keys, wrong shapes, missing keys), each
+/// with its YAML path and, where known, line and column.
+///
+/// # Examples
+///
+/// ```
+/// let text = "battery: { cell: c }\nloads: [{ id: l, rail: battery, draw: { on: 1 mA } }]\n";
+/// let parsed = joulepath::spec::parse(text).unwrap();
+/// assert_eq!(parsed.spec.loads[0].id, "l");
+/// ```
+pub fn parse(text: &str) -> Result<Parsed, Vec<Diagnostic>> {
+    let root: Value = match serde_yaml::from_str(text) {
+        Ok(v) => v,
+        Err(e) => {
+            let location = e.location().map(|l| Location {
+                line: l.line(),
+                col: l.column(),
+            });
+            let msg = e.to_string();
+            // serde_yaml appends " at line L column C"; the place is shown separately.
+            let msg = msg.split(" at line ").next().unwrap_or(&msg).to_string();
+            return Err(vec![
+                Diagnostic::new("", format!("the file is not valid YAML: {msg}"))
+                    .with_hint("check the indentation and the brackets near that place")
+                    .at(location),
+            ]);
+        }
+    };
+    let source = SourceMap::build(text);
+    let mut r = Reader {
+        source: &source,
+        diags: Vec::new(),
+    };
+    let spec = r.read_design(root);
+    match spec {
+        Some(spec) if r.diags.is_empty() => Ok(Parsed { spec, source }),
+        _ => Err(r.diags),
+    }
+}
+
+struct Reader<'a> {
+    source: &'a SourceMap,
+    diags: Vec<Diagnostic>,
+}
+
+impl Reader<'_> {
+    fn push(&mut self, path: &str, message: String, hint: Option<String>) {
+        let location = self.source.nearest(path);
+        self.diags
+            .push(Diagnostic::new(path, message).with_hint_opt(hint).at(location));
+    }
+
+    /// Deserialize one part, turning a serde error into a diagnostic at `path`.
+    fn part<T: DeserializeOwned>(&mut self, path: &str, v: Value) -> Option<T> {
+        match serde_yaml::from_value::<T>(v) {
+            Ok(t) => Some(t),
+            Err(e) => {
+                self.serde_error(path, &e.to_string());
+                None
+            }
+        }
+    }
+
+    fn serde_error(&mut self, path: &str, msg: &str) {
+        if let Some(rest) = msg.strip_prefix("unknown field `") {
+            let name = rest.split('`').next().unwrap_or("");
+            let expected: Vec<&str> = rest
+                .split("expected one of ")
+                .nth(1)
+                .or_else(|| rest.split("expected ").nth(1))
+                .map(|s| s.split(", ").map(|w| w.trim_matches('`')).collect())
+                .unwrap_or_default();
+            let key_path = if path.is_empty() {
+                name.to_string()
+            } else {
+                format!("{path}.{name}")
+            };
+            let hint = match did_you_mean(name, expected.iter().copied()) {
+                Some(s) => format!("did you mean `{s}`?"),
+                None => format!("the keys allowed here are {}", backticked(&expected)),
+            };
+            let location = self.source.key(&key_path).or(self.source.nearest(path));
+            self.diags.push(
+                Diagnostic::new(key_path, format!("unknown key `{name}`"))
+                    .with_hint(hint)
+                    .at(location),
+            );
+            return;
+        }
+        if let Some(rest) = msg.strip_prefix("missing field `") {
+            let name = rest.split('`').next().unwrap_or("");
+            self.push(
+                path,
+                format!("`{name}` is missing"),
+                Some(format!("add `{name}:` here")),
+            );
+            return;
+        }
+        if let Some(rest) = msg.strip_prefix("unknown variant `") {
+            let name = rest.split('`').next().unwrap_or("");
+            let expected: Vec<&str> = rest
+                .split("expected one of ")
+                .nth(1)
+                .or_else(|| rest.split("expected ").nth(1))
+                .map(|s| s.split(", ").map(|w| w.trim_matches('`')).collect())
+                .unwrap_or_default();
+            let hint = match did_you_mean(name, expected.iter().copied()) {
+                Some(s) => format!("did you mean `{s}`?"),
+                None => format!("use one of {}", backticked(&expected)),
+            };
+            self.push(path, format!("unknown value `{name}`"), Some(hint));
+            return;
+        }
+        self.push(path, msg.to_string(), None);
+    }
+
+    fn read_design(&mut self, root: Value) -> Option<DesignSpec> {
+        let Value::Mapping(map) = root else {
+            self.push(
+                "",
+                format!(
+                    "a design file is a mapping of `battery`, `stages`, `loads`, `modes` and `profile`, but this file holds {}",
+                    qty::describe(&root)
+                ),
+                Some("see examples/ for a complete design".into()),
+            );
+            return None;
+        };
+        let mut sections: IndexMap<String, Value> = IndexMap::new();
+        for (k, v) in map {
+            let Some(key) = k.as_str().map(str::to_string) else {
+                self.push("", format!("a top-level key must be a name, found {}", qty::describe(&k)), None);
+                continue;
+            };
+            if !TOP_KEYS.contains(&key.as_str()) {
+                let hint = match did_you_mean(&key, TOP_KEYS.iter().copied()) {
+                    Some(s) => format!("did you mean `{s}`?"),
+                    None => format!("the top-level keys are {}", backticked(&TOP_KEYS)),
+                };
+                let location = self.source.key(&key);
+                self.diags.push(
+                    Diagnostic::new(key.clone(), format!("unknown key `{key}`"))
+                        .with_hint(hint)
+                        .at(location),
+                );
+                continue;
+            }
+            sections.insert(key, v);
+        }
+        let design = match sections.shift_remove("design") {
+            None | Some(Value::Null) => None,
+            Some(v) => self.part::<String>("design", v),
+        };
+        let ambient = match sections.shift_remove("ambient") {
+            None | Some(Value::Null) => None,
+            Some(v) => self.part::<Qty>("ambient", v),
+        };
+        let cells = self.map_section::<CellSpec>(&mut sections, "cells");
+        let battery = match sections.shift_remove("battery") {
+            Some(v) => self.part::<BatterySpec>("battery", v),
+            None => {
+                self.push(
+                    "",
+                    "the design has no `battery`".into(),
+                    Some("add `battery: { cell: NAME }` with a cell of `cells`".into()),
+                );
+                None
+            }
+        };
+        let stages = self.list_section::<StageSpec>(&mut sections, "stages");
+        let loads = self.list_section::<LoadSpec>(&mut sections, "loads");
+        let modes = self.map_section::<Option<IndexMap<String, String>>>(&mut sections, "modes");
+        let profile = self.list_section::<StepSpec>(&mut sections, "profile");
+        Some(DesignSpec {
+            design,
+            ambient,
+            cells,
+            battery: battery?,
+            stages,
+            loads,
+            modes,
+            profile,
+        })
+    }
+
+    fn list_section<T: DeserializeOwned>(
+        &mut self,
+        sections: &mut IndexMap<String, Value>,
+        name: &str,
+    ) -> Vec<T> {
+        match sections.shift_remove(name) {
+            None | Some(Value::Null) => Vec::new(),
+            Some(Value::Sequence(items)) => items
+                .into_iter()
+                .enumerate()
+                .filter_map(|(i, v)| self.part::<T>(&format!("{name}[{i}]"), v))
+                .collect(),
+            Some(other) => {
+                self.push(
+                    name,
+                    format!("`{name}` must be a list (items starting with `- `), found {}", qty::describe(&other)),
+                    None,
+                );
+                Vec::new()
+            }
+        }
+    }
+
+    fn map_section<T: DeserializeOwned>(
+        &mut self,
+        sections: &mut IndexMap<String, Value>,
+        name: &str,
+    ) -> IndexMap<String, T> {
+        let mut out = IndexMap::new();
+        match sections.shift_remove(name) {
+            None | Some(Value::Null) => {}
+            Some(Value::Mapping(m)) => {
+                for (k, v) in m {
+                    let Some(key) = k.as_str().map(str::to_string) else {
+                        self.push(name, format!("a name in `{name}` must be text, found {}", qty::describe(&k)), None);
+                        continue;
+                    };
+                    if let Some(t) = self.part::<T>(&format!("{name}.{key}"), v) {
+                        out.insert(key, t);
+                    }
+                }
+            }
+            Some(other) => self.push(
+                name,
+                format!("`{name}` must be a mapping of names, found {}", qty::describe(&other)),
+                None,
+            ),
+        }
+        out
+    }
+}
+
+/// `a`, `b` and `c`.
+pub(crate) fn backticked<S: AsRef<str>>(names: &[S]) -> String {
+    let quoted: Vec<String> = names.iter().map(|n| format!("`{}`", n.as_ref())).collect();
+    match quoted.len() {
+        0 => String::new(),
+        1 => quoted[0].clone(),
+        n => format!("{} or {}", quoted[..n - 1].join(", "), quoted[n - 1]),
+    }
+}
+
+/// The JSON Schema of the design file, generated from the serde types (what `joulepath schema`
+/// prints and `schemas/design.schema.json` holds).
+pub fn design_schema() -> String {
+    let schema = schemars::schema_for!(DesignSpec);
+    let mut text = serde_json::to_string_pretty(&schema).unwrap_or_default();
+    text.push('\n');
+    text
+}

@@ -1,0 +1,174 @@
+//! Value types of the design file that take more than one shape: a quantity (text or number),
+//! an efficiency (constant, one curve, curves per input voltage) and a resistance (one value or a
+//! table). Each is read from a YAML value by hand so that its error says what shapes are allowed.
+
+use std::borrow::Cow;
+
+use schemars::{JsonSchema, Schema, SchemaGenerator, json_schema};
+use serde::{Deserialize, Deserializer, de::Error as _};
+use serde_yaml::Value;
+
+/// A quantity as written: `"120 mA"`, or a plain number where one is allowed.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Qty(pub String);
+
+impl Qty {
+    /// The text as written (a YAML number becomes its decimal text).
+    pub fn text(&self) -> &str {
+        &self.0
+    }
+}
+
+fn scalar_text(v: &Value) -> Option<String> {
+    match v {
+        Value::String(s) => Some(s.clone()),
+        Value::Number(n) => Some(n.to_string()),
+        _ => None,
+    }
+}
+
+impl<'de> Deserialize<'de> for Qty {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        let v = Value::deserialize(d)?;
+        scalar_text(&v).map(Qty).ok_or_else(|| {
+            D::Error::custom(format!(
+                "expected a value with its unit such as `120 mA`, found {}",
+                describe(&v)
+            ))
+        })
+    }
+}
+
+impl JsonSchema for Qty {
+    fn schema_name() -> Cow<'static, str> {
+        "Quantity".into()
+    }
+    fn json_schema(_: &mut SchemaGenerator) -> Schema {
+        json_schema!({
+            "description": "A number and its unit, e.g. \"3.3 V\", \"120 mA\", \"2.5 µA\", \"50 mΩ\", \"25 °C\", \"91 %\", \"3 %/month\"; plain numbers only where dimensionless.",
+            "anyOf": [
+                { "type": "string", "pattern": "^\\s*[-+]?(\\d+\\.?\\d*|\\.\\d+)([eE][-+]?\\d+)?\\s*\\S*\\s*$" },
+                { "type": "number" }
+            ]
+        })
+    }
+}
+
+/// A short description of a YAML value for messages.
+pub(crate) fn describe(v: &Value) -> String {
+    match v {
+        Value::Null => "nothing".into(),
+        Value::Bool(b) => format!("`{b}`"),
+        Value::Number(n) => format!("the number `{n}`"),
+        Value::String(s) => format!("the text `{s}`"),
+        Value::Sequence(_) => "a list".into(),
+        Value::Mapping(_) => "a mapping".into(),
+        Value::Tagged(_) => "a tagged value".into(),
+    }
+}
+
+/// One efficiency curve measured at an input voltage.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct VinCurveSpec {
+    /// Input voltage of the curve.
+    pub vin: Qty,
+    /// `[[output current, efficiency], ...]`.
+    pub curve: Vec<Vec<Qty>>,
+}
+
+/// The efficiency of a switching stage.
+#[derive(Debug, Clone)]
+pub enum Efficiency {
+    /// One number for every load: `90 %` or `0.9`.
+    Constant(Qty),
+    /// One curve against output current: `[[1 mA, 72 %], [10 mA, 84 %]]`.
+    Curve(Vec<Vec<Qty>>),
+    /// One curve per input voltage: `[{vin: 2 V, curve: [...]}, ...]`.
+    PerVin(Vec<VinCurveSpec>),
+}
+
+impl<'de> Deserialize<'de> for Efficiency {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        let v = Value::deserialize(d)?;
+        if let Some(t) = scalar_text(&v) {
+            return Ok(Efficiency::Constant(Qty(t)));
+        }
+        let Value::Sequence(items) = &v else {
+            return Err(D::Error::custom(format!(
+                "expected `90 %`, a curve `[[1 mA, 72 %], ...]` or curves per input voltage, found {}",
+                describe(&v)
+            )));
+        };
+        if items.iter().any(Value::is_mapping) {
+            serde_yaml::from_value(v)
+                .map(Efficiency::PerVin)
+                .map_err(|e| D::Error::custom(format!("efficiency curves per input voltage: {e}")))
+        } else {
+            serde_yaml::from_value(v)
+                .map(Efficiency::Curve)
+                .map_err(|e| D::Error::custom(format!("efficiency curve: {e}")))
+        }
+    }
+}
+
+impl JsonSchema for Efficiency {
+    fn schema_name() -> Cow<'static, str> {
+        "Efficiency".into()
+    }
+    fn json_schema(g: &mut SchemaGenerator) -> Schema {
+        let q = g.subschema_for::<Qty>();
+        let per_vin = g.subschema_for::<VinCurveSpec>();
+        json_schema!({
+            "description": "A constant efficiency (\"90 %\" or 0.9), one curve [[output current, efficiency], ...], or a list of {vin, curve}.",
+            "anyOf": [
+                q,
+                { "type": "array", "items": { "type": "array", "items": q, "minItems": 2, "maxItems": 2 } },
+                { "type": "array", "items": per_vin }
+            ]
+        })
+    }
+}
+
+/// A cell's internal resistance: one value or a table against state of charge.
+#[derive(Debug, Clone)]
+pub enum ResistanceSpec {
+    /// The same at every state of charge.
+    Constant(Qty),
+    /// `[[SoC, R], ...]`.
+    Table(Vec<Vec<Qty>>),
+}
+
+impl<'de> Deserialize<'de> for ResistanceSpec {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        let v = Value::deserialize(d)?;
+        if let Some(t) = scalar_text(&v) {
+            return Ok(ResistanceSpec::Constant(Qty(t)));
+        }
+        if v.is_sequence() {
+            return serde_yaml::from_value(v)
+                .map(ResistanceSpec::Table)
+                .map_err(|e| D::Error::custom(format!("resistance table: {e}")));
+        }
+        Err(D::Error::custom(format!(
+            "expected a resistance such as `150 mΩ` or a table `[[SoC, R], ...]`, found {}",
+            describe(&v)
+        )))
+    }
+}
+
+impl JsonSchema for ResistanceSpec {
+    fn schema_name() -> Cow<'static, str> {
+        "CellResistance".into()
+    }
+    fn json_schema(g: &mut SchemaGenerator) -> Schema {
+        let q = g.subschema_for::<Qty>();
+        json_schema!({
+            "description": "Ohmic internal resistance: one value (\"150 mΩ\") or a table [[SoC, R], ...].",
+            "anyOf": [
+                q,
+                { "type": "array", "items": { "type": "array", "items": q, "minItems": 2, "maxItems": 2 } }
+            ]
+        })
+    }
+}
