@@ -1,0 +1,10 @@
+//! The integration tests: one binary, one module per concern.
+
+mod util;
+
+mod cli;
+mod errors;
+mod examples;
+mod properties;
+mod reference;
+mod schema;
