@@ -24,32 +24,69 @@ profile:
 
 #[test]
 fn check_prints_the_tree() {
-    let out = Test::new().design(&tree()).args(&["check", "{file}"]).expect_code(0);
+    let out = Test::new()
+        .design(&tree())
+        .args(&["check", "{file}"])
+        .expect_code(0);
     let o = &out.stdout;
-    assert!(o.starts_with("Test lamp, one lithium-ion cell, buck to 3.3 V\n"), "{o}");
-    for frag in ["battery\n", "buck-3v3  buck to 3.30 V", "led-switch  switch, 200 mΩ on", "mcu  sleep 3.00 µA (default), run 4.00 mA", "led  lit 60.0 mW", "modes: sleep, glow"] {
+    assert!(
+        o.starts_with("Test lamp, one lithium-ion cell, buck to 3.3 V\n"),
+        "{o}"
+    );
+    for frag in [
+        "battery\n",
+        "buck-3v3  buck to 3.30 V",
+        "led-switch  switch, 200 mΩ on",
+        "mcu  sleep 3.00 µA (default), run 4.00 mA",
+        "led  lit 60.0 mW",
+        "modes: sleep, glow",
+    ] {
         assert!(o.contains(frag), "missing {frag:?} in\n{o}");
     }
     // The switch hangs below the buck, its load below the switch: deeper indentation each time.
-    let indent = |id: &str| o.lines().find(|l| l.contains(&format!("{id}  "))).map(|l| l.chars().take_while(|c| !c.is_alphanumeric()).count()).unwrap();
+    let indent = |id: &str| {
+        o.lines()
+            .find(|l| l.contains(&format!("{id}  ")))
+            .map(|l| l.chars().take_while(|c| !c.is_alphanumeric()).count())
+            .unwrap()
+    };
     assert!(indent("buck-3v3") < indent("led-switch") && indent("led-switch") < indent("led"));
     assert!(out.stderr.is_empty());
 }
 
 #[test]
 fn budget_table_shows_states_units_and_the_caution() {
-    let out = Test::new().design(&tree()).args(&["budget", "{file}"]).expect_code(0);
+    let out = Test::new()
+        .design(&tree())
+        .args(&["budget", "{file}"])
+        .expect_code(0);
     let o = &out.stdout;
-    for frag in ["budget at 80 % state of charge", "mode `sleep`", "mode `glow`", "regulating", "off", "on", "mW", "Caution:", "IEC 62133-2"] {
+    for frag in [
+        "budget at 80 % state of charge",
+        "mode `sleep`",
+        "mode `glow`",
+        "regulating",
+        "off",
+        "on",
+        "mW",
+        "Caution:",
+        "IEC 62133-2",
+    ] {
         assert!(o.contains(frag), "missing {frag:?} in\n{o}");
     }
 }
 
 #[test]
 fn budget_json_follows_the_contract() {
-    let out = Test::new().design(&tree()).args(&["budget", "{file}", "--format", "json", "--soc", "50%"]).expect_code(0);
+    let out = Test::new()
+        .design(&tree())
+        .args(&["budget", "{file}", "--format", "json", "--soc", "50%"])
+        .expect_code(0);
     let v = out.json();
-    assert_eq!(v["design"], "Test lamp, one lithium-ion cell, buck to 3.3 V");
+    assert_eq!(
+        v["design"],
+        "Test lamp, one lithium-ion cell, buck to 3.3 V"
+    );
     assert!((v["soc"].as_f64().unwrap() - 0.5).abs() < 1e-12);
     let glow = &v["modes"][1];
     assert_eq!(glow["mode"], "glow");
@@ -57,7 +94,18 @@ fn budget_json_follows_the_contract() {
         assert!(glow["battery"][key].is_number(), "battery.{key}");
     }
     let st = &glow["stages"][0];
-    for key in ["id", "kind", "state", "vin_v", "iin_a", "vout_v", "iout_a", "loss_w", "efficiency", "junction_c"] {
+    for key in [
+        "id",
+        "kind",
+        "state",
+        "vin_v",
+        "iin_a",
+        "vout_v",
+        "iout_a",
+        "loss_w",
+        "efficiency",
+        "junction_c",
+    ] {
         assert!(st.get(key).is_some(), "stages[0].{key}");
     }
     assert_eq!(glow["stages"][1]["state"], "on");
@@ -74,24 +122,40 @@ fn budget_json_follows_the_contract() {
 #[test]
 fn budget_one_mode_soc_forms_and_csv() {
     for soc in ["30%", "30 %", "0.3"] {
-        let out = Test::new().design(&tree()).args(&["budget", "{file}", "--mode", "glow", "--soc", soc, "--format", "json"]).expect_code(0);
+        let out = Test::new()
+            .design(&tree())
+            .args(&[
+                "budget", "{file}", "--mode", "glow", "--soc", soc, "--format", "json",
+            ])
+            .expect_code(0);
         let v = out.json();
         assert_eq!(v["modes"].as_array().unwrap().len(), 1);
         assert!((v["soc"].as_f64().unwrap() - 0.3).abs() < 1e-12, "{soc}");
     }
-    let out = Test::new().design(&tree()).args(&["budget", "{file}", "--format", "csv"]).expect_code(0);
+    let out = Test::new()
+        .design(&tree())
+        .args(&["budget", "{file}", "--format", "csv"])
+        .expect_code(0);
     let mut lines = out.stdout.lines();
-    assert_eq!(lines.next().unwrap(), "mode,element,id,kind,state,vin_v,iin_a,vout_v,iout_a,power_w,loss_w,efficiency,junction_c");
+    assert_eq!(
+        lines.next().unwrap(),
+        "mode,element,id,kind,state,vin_v,iin_a,vout_v,iout_a,power_w,loss_w,efficiency,junction_c"
+    );
     let rows: Vec<&str> = lines.collect();
     // Per mode: the pack, two stages, two loads.
     assert_eq!(rows.len(), 2 * 5);
     assert!(rows.iter().all(|r| r.split(',').count() == 13), "{rows:?}");
-    assert!(rows.iter().any(|r| r.starts_with("glow,stage,led-switch,switch,on,")));
+    assert!(
+        rows.iter()
+            .any(|r| r.starts_with("glow,stage,led-switch,switch,on,"))
+    );
 }
 
 #[test]
 fn output_file_is_written_whole_and_stdout_stays_empty() {
-    let t = Test::new().design(&tree()).args(&["budget", "{file}", "--format", "json", "-o", "out.json"]);
+    let t = Test::new()
+        .design(&tree())
+        .args(&["budget", "{file}", "--format", "json", "-o", "out.json"]);
     let out = t.expect_code(0);
     assert!(out.stdout.is_empty());
     let text = std::fs::read_to_string(t.dir().join("out.json")).unwrap();
@@ -104,16 +168,66 @@ fn output_file_is_written_whole_and_stdout_stays_empty() {
 fn usage_errors_exit_2() {
     Test::new().args(&["frobnicate"]).expect_code(2);
     Test::new().args(&["budget"]).expect_code(2);
-    Test::new().design(&tree()).args(&["budget", "{file}", "--format", "xml"]).expect_code(2);
-    let out = Test::new().design(&tree()).args(&["budget", "{file}", "--mode", "glw"]).expect_code(2);
-    assert!(out.stderr.contains("did you mean `glow`?"), "{}", out.stderr);
+    Test::new()
+        .design(&tree())
+        .args(&["budget", "{file}", "--format", "xml"])
+        .expect_code(2);
+    let out = Test::new()
+        .design(&tree())
+        .args(&["budget", "{file}", "--mode", "glw"])
+        .expect_code(2);
+    assert!(
+        out.stderr.contains("did you mean `glow`?"),
+        "{}",
+        out.stderr
+    );
     Test::new().args(&["--help"]).expect_code(0);
 }
 
 #[test]
 fn invalid_output_leaves_no_file() {
-    let t = Test::new().design("battery: {").args(&["budget", "{file}", "-o", "out.txt"]);
+    let t = Test::new()
+        .design("battery: {")
+        .args(&["budget", "{file}", "-o", "out.txt"]);
     let out = t.expect_code(1);
     assert!(!t.dir().join("out.txt").exists());
-    assert!(out.stderr.contains("nothing was computed"), "{}", out.stderr);
+    assert!(
+        out.stderr.contains("nothing was computed"),
+        "{}",
+        out.stderr
+    );
+}
+
+#[test]
+fn readme_design_and_commands_stay_true() {
+    let readme = std::fs::read_to_string(crate::util::root().join("README.md")).unwrap();
+    let start = readme.find("```yaml\n").expect("a yaml block") + "```yaml\n".len();
+    let end = start + readme[start..].find("```").unwrap();
+    let design = joulepath::Design::from_text(&readme[start..end]);
+    assert!(
+        design.is_ok(),
+        "the README's design is invalid: {}",
+        design.unwrap_err()
+    );
+    // The set-up commands: exactly two, the first on a bundled example that exists.
+    let setup = readme
+        .split("## Set-up")
+        .nth(1)
+        .unwrap()
+        .split("```")
+        .nth(1)
+        .unwrap();
+    let cmds: Vec<&str> = setup.lines().filter(|l| !l.trim().is_empty()).collect();
+    assert_eq!(
+        cmds,
+        [
+            "cargo run --release -- budget examples/handheld-meter.yaml",
+            "cargo test"
+        ]
+    );
+    assert!(
+        crate::util::root()
+            .join("examples/handheld-meter.yaml")
+            .exists()
+    );
 }

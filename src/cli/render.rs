@@ -5,20 +5,33 @@ use std::io::{self, Write};
 use joulepath::Diagnostic;
 
 /// Write every diagnostic of `file` with the source line it points at, then a summary line.
-pub fn render_diagnostics(w: &mut dyn Write, file: &str, text: &str, ds: &[Diagnostic]) -> io::Result<()> {
+pub fn render_diagnostics(
+    w: &mut dyn Write,
+    file: &str,
+    text: &str,
+    ds: &[Diagnostic],
+) -> io::Result<()> {
     let lines: Vec<&str> = text.lines().collect();
     for d in ds {
         let place = match d.location() {
             Some(l) => format!("{file}:{}:{}", l.line, l.col),
             None => file.to_string(),
         };
-        let path = if d.path().is_empty() { String::new() } else { format!("{}: ", d.path()) };
+        let path = if d.path().is_empty() {
+            String::new()
+        } else {
+            format!("{}: ", d.path())
+        };
         writeln!(w, "error: {place}: {path}{}", d.message())?;
         if let Some(l) = d.location() {
             if let Some(src) = lines.get(l.line.wrapping_sub(1)) {
                 let num = l.line.to_string();
                 writeln!(w, "  {num} | {src}")?;
-                let caret_pad: String = src.chars().take(l.col.saturating_sub(1)).map(|c| if c == '\t' { '\t' } else { ' ' }).collect();
+                let caret_pad: String = src
+                    .chars()
+                    .take(l.col.saturating_sub(1))
+                    .map(|c| if c == '\t' { '\t' } else { ' ' })
+                    .collect();
                 writeln!(w, "  {} | {caret_pad}^", " ".repeat(num.len()))?;
             }
         }

@@ -42,11 +42,12 @@ impl Failure {
     pub fn report(&self) {
         let mut err = io::stderr().lock();
         let _ = match self {
-            Failure::Invalid { file, text, diagnostics } => {
-                render_diagnostics(&mut err, &file.display().to_string(), text, diagnostics)
-            }
-            Failure::Input(m) => writeln!(err, "error: {m}"),
-            Failure::Usage(m) => writeln!(err, "error: {m}"),
+            Failure::Invalid {
+                file,
+                text,
+                diagnostics,
+            } => render_diagnostics(&mut err, &file.display().to_string(), text, diagnostics),
+            Failure::Input(m) | Failure::Usage(m) => writeln!(err, "error: {m}"),
         };
     }
 }
@@ -86,9 +87,12 @@ fn emit(bytes: &[u8], out: Option<&Path>) -> Result<(), Failure> {
             Err(e) => Err(Failure::Input(format!("cannot write the output: {e}"))),
         },
         Some(path) => {
-            let name = path.file_name().map_or_else(|| "out".into(), |n| n.to_string_lossy().into_owned());
+            let name = path
+                .file_name()
+                .map_or_else(|| "out".into(), |n| n.to_string_lossy().into_owned());
             let tmp = path.with_file_name(format!(".{name}.partial"));
-            let fail = |e: io::Error| Failure::Input(format!("cannot write `{}`: {e}", path.display()));
+            let fail =
+                |e: io::Error| Failure::Input(format!("cannot write `{}`: {e}", path.display()));
             std::fs::write(&tmp, bytes).map_err(fail)?;
             std::fs::rename(&tmp, path).map_err(|e| {
                 let _ = std::fs::remove_file(&tmp);
@@ -108,7 +112,13 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             write_outline(&mut buf, &d).map_err(io_fail)?;
             emit(&buf, None)
         }
-        Command::Budget { file, soc, mode, format: f, output } => {
+        Command::Budget {
+            file,
+            soc,
+            mode,
+            format: f,
+            output,
+        } => {
             let d = load(file)?;
             let modes: Vec<usize> = match mode {
                 None => (0..d.modes.len()).collect(),
@@ -116,9 +126,13 @@ pub fn run(args: &Args) -> Result<(), Failure> {
                     Some(m) => vec![m],
                     None => {
                         let names: Vec<&str> = d.modes.iter().map(|m| m.name.as_str()).collect();
-                        let hint = did_you_mean(name, names.iter().copied())
-                            .map_or_else(|| format!("the modes are {}", names.join(", ")), |s| format!("did you mean `{s}`?"));
-                        return Err(Failure::Usage(format!("the design has no mode `{name}` ({hint})")));
+                        let hint = did_you_mean(name, names.iter().copied()).map_or_else(
+                            || format!("the modes are {}", names.join(", ")),
+                            |s| format!("did you mean `{s}`?"),
+                        );
+                        return Err(Failure::Usage(format!(
+                            "the design has no mode `{name}` ({hint})"
+                        )));
                     }
                 },
             };
@@ -127,6 +141,9 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             write_budget(&mut buf, &d, soc, &result, format(*f)).map_err(io_fail)?;
             emit(&buf, output.as_deref())
         }
-        Command::Schema { output } => emit(joulepath::spec::design_schema().as_bytes(), output.as_deref()),
+        Command::Schema { output } => emit(
+            joulepath::spec::design_schema().as_bytes(),
+            output.as_deref(),
+        ),
     }
 }

@@ -123,11 +123,18 @@ mod tests {
     }
 
     #[test]
+    #[allow(clippy::approx_constant)] // 3.14 is the documented input, not pi
     fn numpy_interp_documented_values() {
         // NumPy reference, numpy.interp: xp = [1, 2, 3], fp = [3, 2, 0];
         // interp([0, 1, 1.5, 2.72, 3.14]) = [3, 3, 2.5, 0.56, 0].
         let t = Table::new(vec![(3.0, 0.0), (1.0, 3.0), (2.0, 2.0)]).unwrap();
-        for (x, y) in [(0.0, 3.0), (1.0, 3.0), (1.5, 2.5), (2.72, 0.56), (3.14, 0.0)] {
+        for (x, y) in [
+            (0.0, 3.0),
+            (1.0, 3.0),
+            (1.5, 2.5),
+            (2.72, 0.56),
+            (3.14, 0.0),
+        ] {
             assert!(close(t.at(x), y), "interp({x}) = {} not {y}", t.at(x));
         }
     }
@@ -139,7 +146,10 @@ mod tests {
             Table::new(vec![(0.5, 1.0), (0.5, 2.0)]),
             Err(TableError::Repeated(1))
         );
-        assert_eq!(Table::new(vec![(f64::NAN, 1.0)]), Err(TableError::NotFinite));
+        assert_eq!(
+            Table::new(vec![(f64::NAN, 1.0)]),
+            Err(TableError::NotFinite)
+        );
     }
 
     #[test]

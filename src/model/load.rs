@@ -26,9 +26,10 @@ impl Draw {
     pub fn current(self, v: f64) -> f64 {
         match self {
             Draw::Current(i) => i,
-            Draw::Power(p) if p == 0.0 => 0.0,
             Draw::Power(p) => {
-                if v > 0.0 {
+                if p == 0.0 {
+                    0.0
+                } else if v > 0.0 {
                     p / v
                 } else {
                     f64::INFINITY

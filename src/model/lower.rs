@@ -192,7 +192,13 @@ impl Lower<'_> {
         })
     }
 
-    fn soc_table(&mut self, rows: &[Vec<Qty>], path: &str, dim: Dim, bound: Bound) -> Option<Table> {
+    fn soc_table(
+        &mut self,
+        rows: &[Vec<Qty>],
+        path: &str,
+        dim: Dim,
+        bound: Bound,
+    ) -> Option<Table> {
         let mut pts = Vec::new();
         let mut ok = true;
         for (i, row) in rows.iter().enumerate() {
@@ -228,7 +234,11 @@ impl Lower<'_> {
         match Table::new(pts) {
             Ok(t) => Some(t),
             Err(TableError::Repeated(_)) => {
-                self.err(path, "the table gives the same state of charge twice", Some("keep one row per SoC".into()));
+                self.err(
+                    path,
+                    "the table gives the same state of charge twice",
+                    Some("keep one row per SoC".into()),
+                );
                 None
             }
             Err(_) => {
@@ -256,7 +266,8 @@ impl Lower<'_> {
         };
         let ocv = match &c.ocv {
             Some(rows) => {
-                let t = self.soc_table(rows, &format!("{path}.ocv"), Dim::Voltage, Bound::AboveZero);
+                let t =
+                    self.soc_table(rows, &format!("{path}.ocv"), Dim::Voltage, Bound::AboveZero);
                 if let Some(t) = &t {
                     if !t.is_non_decreasing() {
                         self.err(
@@ -275,14 +286,20 @@ impl Lower<'_> {
             }
         };
         let capacity = match &c.capacity {
-            Some(q) => match self.quantity(q, &format!("{path}.capacity"), &[Dim::Charge, Dim::Energy]) {
-                Some(v) if v.value() > 0.0 => Some(v),
-                Some(_) => {
-                    self.err(&format!("{path}.capacity"), "the capacity must be above zero", None);
-                    None
+            Some(q) => {
+                match self.quantity(q, &format!("{path}.capacity"), &[Dim::Charge, Dim::Energy]) {
+                    Some(v) if v.value() > 0.0 => Some(v),
+                    Some(_) => {
+                        self.err(
+                            &format!("{path}.capacity"),
+                            "the capacity must be above zero",
+                            None,
+                        );
+                        None
+                    }
+                    None => None,
                 }
-                None => None,
-            },
+            }
             None => {
                 missing(self, "capacity", "600 mAh");
                 None
@@ -296,7 +313,12 @@ impl Lower<'_> {
         };
         let resistance = match &c.resistance {
             Some(ResistanceSpec::Constant(q)) => self
-                .value(q, &format!("{path}.resistance"), Dim::Resistance, Bound::AtLeastZero)
+                .value(
+                    q,
+                    &format!("{path}.resistance"),
+                    Dim::Resistance,
+                    Bound::AtLeastZero,
+                )
                 .map(Table::constant),
             Some(ResistanceSpec::Table(rows)) => self.soc_table(
                 rows,
@@ -320,21 +342,39 @@ impl Lower<'_> {
             if cut >= t.at(1.0) {
                 self.err(
                     &format!("{path}.cutoff"),
-                    format!("the cutoff {cut} V is not below the full-charge OCV {} V", t.at(1.0)),
+                    format!(
+                        "the cutoff {cut} V is not below the full-charge OCV {} V",
+                        t.at(1.0)
+                    ),
                     Some("the cutoff is the end-of-discharge voltage under load".into()),
                 );
             }
         }
         let rated = match (&c.rated_current, capacity_c) {
-            (Some(q), _) => self.value(q, &format!("{path}.rated_current"), Dim::Current, Bound::AboveZero),
+            (Some(q), _) => self.value(
+                q,
+                &format!("{path}.rated_current"),
+                Dim::Current,
+                Bound::AboveZero,
+            ),
             (None, Some(cap)) => Some(cap / (5.0 * 3600.0)),
             (None, None) => None,
         };
         let polarization = match &c.polarization {
             None => Some(None),
             Some(p) => {
-                let r = self.value(&p.resistance, &format!("{path}.polarization.resistance"), Dim::Resistance, Bound::AtLeastZero);
-                let tau = self.value(&p.time_constant, &format!("{path}.polarization.time_constant"), Dim::Time, Bound::AboveZero);
+                let r = self.value(
+                    &p.resistance,
+                    &format!("{path}.polarization.resistance"),
+                    Dim::Resistance,
+                    Bound::AtLeastZero,
+                );
+                let tau = self.value(
+                    &p.time_constant,
+                    &format!("{path}.polarization.time_constant"),
+                    Dim::Time,
+                    Bound::AboveZero,
+                );
                 r.zip(tau).map(Some)
             }
         };
@@ -353,8 +393,18 @@ impl Lower<'_> {
                 None => None,
             },
         };
-        let max_current = self.opt(c.max_current.as_ref(), &format!("{path}.max_current"), Dim::Current, Bound::AboveZero);
-        let self_discharge = self.opt(c.self_discharge.as_ref(), &format!("{path}.self_discharge"), Dim::Rate, Bound::AtLeastZero);
+        let max_current = self.opt(
+            c.max_current.as_ref(),
+            &format!("{path}.max_current"),
+            Dim::Current,
+            Bound::AboveZero,
+        );
+        let self_discharge = self.opt(
+            c.self_discharge.as_ref(),
+            &format!("{path}.self_discharge"),
+            Dim::Rate,
+            Bound::AtLeastZero,
+        );
         let temps = self.temperature(c, path);
         let (temp_capacity, temp_resistance) = temps?;
         Some(Cell {
@@ -444,16 +494,31 @@ impl Lower<'_> {
     }
 
     fn range(&mut self, v: Option<&Vec<Qty>>, path: &str) -> Option<(Option<f64>, Option<f64>)> {
-        let Some(v) = v else { return Some((None, None)) };
+        let Some(v) = v else {
+            return Some((None, None));
+        };
         if v.len() != 2 {
-            self.err(path, format!("a range has {} values, not 2", v.len()), Some("write `[min, max]`, e.g. `[1.7 V, 3.6 V]`".into()));
+            self.err(
+                path,
+                format!("a range has {} values, not 2", v.len()),
+                Some("write `[min, max]`, e.g. `[1.7 V, 3.6 V]`".into()),
+            );
             return None;
         }
-        let lo = self.value(&v[0], &format!("{path}[0]"), Dim::Voltage, Bound::AtLeastZero);
+        let lo = self.value(
+            &v[0],
+            &format!("{path}[0]"),
+            Dim::Voltage,
+            Bound::AtLeastZero,
+        );
         let hi = self.value(&v[1], &format!("{path}[1]"), Dim::Voltage, Bound::AboveZero);
         let (lo, hi) = (lo?, hi?);
         if lo >= hi {
-            self.err(path, format!("the minimum {lo} V is not below the maximum {hi} V"), Some("write `[min, max]`".into()));
+            self.err(
+                path,
+                format!("the minimum {lo} V is not below the maximum {hi} V"),
+                Some("write `[min, max]`".into()),
+            );
             return None;
         }
         Some((Some(lo), Some(hi)))
@@ -493,42 +558,118 @@ impl Lower<'_> {
         let before = self.diags.len();
         let setpoint = match (&s.output, kind) {
             (Some(_), StageKind::Switch) => {
-                self.err(&format!("{path}.output"), "a switch has no setpoint: its output follows its input", Some("remove `output`".into()));
+                self.err(
+                    &format!("{path}.output"),
+                    "a switch has no setpoint: its output follows its input",
+                    Some("remove `output`".into()),
+                );
                 None
             }
             (None, StageKind::Switch) => Some(0.0),
-            (Some(q), _) => self.value(q, &format!("{path}.output"), Dim::Voltage, Bound::AboveZero),
+            (Some(q), _) => {
+                self.value(q, &format!("{path}.output"), Dim::Voltage, Bound::AboveZero)
+            }
             (None, _) => {
-                self.err(path, format!("the {kn} stage `{}` has no `output` setpoint", s.id), Some("add e.g. `output: 3.3 V`".into()));
+                self.err(
+                    path,
+                    format!("the {kn} stage `{}` has no `output` setpoint", s.id),
+                    Some("add e.g. `output: 3.3 V`".into()),
+                );
                 None
             }
         };
         let loss = self.loss_model(s, kind, path);
-        let quiescent = self.opt(s.quiescent.as_ref(), &format!("{path}.quiescent"), Dim::Current, Bound::AtLeastZero);
-        let shutdown = self.opt(s.shutdown.as_ref(), &format!("{path}.shutdown"), Dim::Current, Bound::AtLeastZero);
+        let quiescent = self.opt(
+            s.quiescent.as_ref(),
+            &format!("{path}.quiescent"),
+            Dim::Current,
+            Bound::AtLeastZero,
+        );
+        let shutdown = self.opt(
+            s.shutdown.as_ref(),
+            &format!("{path}.shutdown"),
+            Dim::Current,
+            Bound::AtLeastZero,
+        );
         let range = self.range(s.input_range.as_ref(), &format!("{path}.input_range"));
-        let max_out = self.opt(s.max_output_current.as_ref(), &format!("{path}.max_output_current"), Dim::Current, Bound::AboveZero);
+        let max_out = self.opt(
+            s.max_output_current.as_ref(),
+            &format!("{path}.max_output_current"),
+            Dim::Current,
+            Bound::AboveZero,
+        );
         let dropout_default = match kind {
             StageKind::Linear => 0.2,
             _ => 0.1,
         };
         let takes_dropout = matches!(kind, StageKind::Buck | StageKind::Linear);
-        self.not_for(!takes_dropout && s.dropout.is_some(), path, "dropout", kn, "buck and linear stages");
-        self.not_for(kind != StageKind::Boost && s.bypass_drop.is_some(), path, "bypass_drop", kn, "boost stages");
-        self.not_for(kind != StageKind::Switch && s.on_resistance.is_some(), path, "on_resistance", kn, "switch stages");
-        let dropout = self.opt(s.dropout.as_ref(), &format!("{path}.dropout"), Dim::Voltage, Bound::AtLeastZero);
-        let bypass = self.opt(s.bypass_drop.as_ref(), &format!("{path}.bypass_drop"), Dim::Voltage, Bound::AtLeastZero);
+        self.not_for(
+            !takes_dropout && s.dropout.is_some(),
+            path,
+            "dropout",
+            kn,
+            "buck and linear stages",
+        );
+        self.not_for(
+            kind != StageKind::Boost && s.bypass_drop.is_some(),
+            path,
+            "bypass_drop",
+            kn,
+            "boost stages",
+        );
+        self.not_for(
+            kind != StageKind::Switch && s.on_resistance.is_some(),
+            path,
+            "on_resistance",
+            kn,
+            "switch stages",
+        );
+        let dropout = self.opt(
+            s.dropout.as_ref(),
+            &format!("{path}.dropout"),
+            Dim::Voltage,
+            Bound::AtLeastZero,
+        );
+        let bypass = self.opt(
+            s.bypass_drop.as_ref(),
+            &format!("{path}.bypass_drop"),
+            Dim::Voltage,
+            Bound::AtLeastZero,
+        );
         let ron = match (&s.on_resistance, kind) {
             (None, StageKind::Switch) => {
-                self.err(path, format!("the switch `{}` has no `on_resistance`", s.id), Some("add e.g. `on_resistance: 80 mΩ`".into()));
+                self.err(
+                    path,
+                    format!("the switch `{}` has no `on_resistance`", s.id),
+                    Some("add e.g. `on_resistance: 80 mΩ`".into()),
+                );
                 None
             }
-            (q, _) => self.opt(q.as_ref(), &format!("{path}.on_resistance"), Dim::Resistance, Bound::AtLeastZero),
+            (q, _) => self.opt(
+                q.as_ref(),
+                &format!("{path}.on_resistance"),
+                Dim::Resistance,
+                Bound::AtLeastZero,
+            ),
         };
-        let theta = self.opt(s.theta_ja.as_ref(), &format!("{path}.theta_ja"), Dim::ThermalResistance, Bound::AboveZero);
-        let tj_max = self.opt(s.tj_max.as_ref(), &format!("{path}.tj_max"), Dim::Temperature, Bound::Any);
+        let theta = self.opt(
+            s.theta_ja.as_ref(),
+            &format!("{path}.theta_ja"),
+            Dim::ThermalResistance,
+            Bound::AboveZero,
+        );
+        let tj_max = self.opt(
+            s.tj_max.as_ref(),
+            &format!("{path}.tj_max"),
+            Dim::Temperature,
+            Bound::Any,
+        );
         if s.id.trim().is_empty() {
-            self.err(&format!("{path}.id"), "the id is empty", Some("give the stage a short name such as `buck-3v3`".into()));
+            self.err(
+                &format!("{path}.id"),
+                "the id is empty",
+                Some("give the stage a short name such as `buck-3v3`".into()),
+            );
         }
         if self.diags.len() > before {
             return None;
@@ -555,11 +696,17 @@ impl Lower<'_> {
 
     fn loss_model(&mut self, s: &StageSpec, kind: StageKind, path: &str) -> Option<LossModel> {
         if !kind.is_switching() {
-            for (present, key) in [(s.efficiency.is_some(), "efficiency"), (s.loss.is_some(), "loss")] {
+            for (present, key) in [
+                (s.efficiency.is_some(), "efficiency"),
+                (s.loss.is_some(), "loss"),
+            ] {
                 if present {
                     self.err(
                         &format!("{path}.{key}"),
-                        format!("a {} stage takes no `{key}`: its loss follows from its currents", kind.name()),
+                        format!(
+                            "a {} stage takes no `{key}`: its loss follows from its currents",
+                            kind.name()
+                        ),
                         Some(format!("remove `{key}`")),
                     );
                 }
@@ -570,7 +717,11 @@ impl Lower<'_> {
             (Some(_), Some(_)) => {
                 self.err(
                     path,
-                    format!("the {} stage `{}` has both `efficiency` and `loss`", kind.name(), s.id),
+                    format!(
+                        "the {} stage `{}` has both `efficiency` and `loss`",
+                        kind.name(),
+                        s.id
+                    ),
                     Some("keep exactly one of `efficiency` and `loss`".into()),
                 );
                 None
@@ -584,8 +735,18 @@ impl Lower<'_> {
                 None
             }
             (None, Some(l)) => {
-                let drop = self.opt(l.drop.as_ref(), &format!("{path}.loss.drop"), Dim::Voltage, Bound::AtLeastZero);
-                let r = self.opt(l.resistance.as_ref(), &format!("{path}.loss.resistance"), Dim::Resistance, Bound::AtLeastZero);
+                let drop = self.opt(
+                    l.drop.as_ref(),
+                    &format!("{path}.loss.drop"),
+                    Dim::Voltage,
+                    Bound::AtLeastZero,
+                );
+                let r = self.opt(
+                    l.resistance.as_ref(),
+                    &format!("{path}.loss.resistance"),
+                    Dim::Resistance,
+                    Bound::AtLeastZero,
+                );
                 Some(LossModel::Terms {
                     drop: drop?.unwrap_or(0.0),
                     resistance: r?.unwrap_or(0.0),
@@ -602,7 +763,8 @@ impl Lower<'_> {
                 let mut curves = Vec::new();
                 for (i, vc) in list.iter().enumerate() {
                     let p = format!("{path}.efficiency[{i}]");
-                    let v = self.value(&vc.vin, &format!("{p}.vin"), Dim::Voltage, Bound::AboveZero);
+                    let v =
+                        self.value(&vc.vin, &format!("{p}.vin"), Dim::Voltage, Bound::AboveZero);
                     let c = self.curve(&vc.curve, &format!("{p}.curve"));
                     if let (Some(v), Some(c)) = (v, c) {
                         curves.push((Some(v), c));
@@ -612,12 +774,20 @@ impl Lower<'_> {
                     return None;
                 }
                 if curves.is_empty() {
-                    self.err(&format!("{path}.efficiency"), "the list of efficiency curves is empty", None);
+                    self.err(
+                        &format!("{path}.efficiency"),
+                        "the list of efficiency curves is empty",
+                        None,
+                    );
                     return None;
                 }
                 curves.sort_by(|a, b| a.0.unwrap_or(0.0).total_cmp(&b.0.unwrap_or(0.0)));
                 if curves.windows(2).any(|w| w[0].0 == w[1].0) {
-                    self.err(&format!("{path}.efficiency"), "two efficiency curves are at the same input voltage", Some("keep one curve per `vin`".into()));
+                    self.err(
+                        &format!("{path}.efficiency"),
+                        "two efficiency curves are at the same input voltage",
+                        Some("keep one curve per `vin`".into()),
+                    );
                     return None;
                 }
                 Some(LossModel::Curves(curves))
@@ -631,7 +801,14 @@ impl Lower<'_> {
         for (i, row) in rows.iter().enumerate() {
             let p = format!("{path}[{i}]");
             if row.len() != 2 {
-                self.err(&p, format!("a row has {} values, not 2", row.len()), Some("write each row as `[output current, efficiency]`, e.g. `[10 mA, 84 %]`".into()));
+                self.err(
+                    &p,
+                    format!("a row has {} values, not 2", row.len()),
+                    Some(
+                        "write each row as `[output current, efficiency]`, e.g. `[10 mA, 84 %]`"
+                            .into(),
+                    ),
+                );
                 ok = false;
                 continue;
             }
@@ -648,7 +825,14 @@ impl Lower<'_> {
         match EffCurve::new(&pts) {
             Ok(c) => Some(c),
             Err(e) => {
-                self.err(path, e, Some("give each output current once, e.g. `[[1 mA, 72 %], [10 mA, 84 %]]`".into()));
+                self.err(
+                    path,
+                    e,
+                    Some(
+                        "give each output current once, e.g. `[[1 mA, 72 %], [10 mA, 84 %]]`"
+                            .into(),
+                    ),
+                );
                 None
             }
         }
@@ -663,15 +847,26 @@ impl Lower<'_> {
             let range = self.range(l.voltage_range.as_ref(), &format!("{path}.voltage_range"));
             let mut states = Vec::new();
             if l.draw.is_empty() {
-                self.err(&format!("{path}.draw"), format!("the load `{}` has no states", l.id), Some("add e.g. `draw: { run: 6 mA }`".into()));
+                self.err(
+                    &format!("{path}.draw"),
+                    format!("the load `{}` has no states", l.id),
+                    Some("add e.g. `draw: { run: 6 mA }`".into()),
+                );
             }
             for (name, q) in &l.draw {
                 let p = format!("{path}.draw.{name}");
                 if name == "off" {
-                    self.err(&p, "`off` is a state every load has, drawing nothing", Some("name this state differently".into()));
+                    self.err(
+                        &p,
+                        "`off` is a state every load has, drawing nothing",
+                        Some("name this state differently".into()),
+                    );
                     continue;
                 }
-                let Some(v) = self.quantity(q, &p, &[Dim::Current, Dim::Power, Dim::Resistance]) else { continue };
+                let Some(v) = self.quantity(q, &p, &[Dim::Current, Dim::Power, Dim::Resistance])
+                else {
+                    continue;
+                };
                 let draw = match v.dim() {
                     Dim::Current => Draw::Current(v.value()),
                     Dim::Power => Draw::Power(v.value()),
@@ -682,7 +877,11 @@ impl Lower<'_> {
                     Draw::Current(x) | Draw::Power(x) => x < 0.0,
                 };
                 if bad {
-                    self.err(&p, format!("the draw `{}` must be above zero", q.text()), None);
+                    self.err(
+                        &p,
+                        format!("the draw `{}` must be above zero", q.text()),
+                        None,
+                    );
                     continue;
                 }
                 states.push((name.clone(), draw));
@@ -698,7 +897,11 @@ impl Lower<'_> {
                 }
             };
             if l.id.trim().is_empty() {
-                self.err(&format!("{path}.id"), "the id is empty", Some("give the load a short name such as `mcu`".into()));
+                self.err(
+                    &format!("{path}.id"),
+                    "the id is empty",
+                    Some("give the load a short name such as `mcu`".into()),
+                );
             }
             if self.diags.len() > before {
                 ok = false;
@@ -720,10 +923,17 @@ impl Lower<'_> {
     fn unknown_state(&mut self, path: &str, load: &str, state: &str, states: &[(String, Draw)]) {
         let names: Vec<&str> = states.iter().map(|s| s.0.as_str()).chain(["off"]).collect();
         let hint = match did_you_mean(state, names.iter().copied()) {
-            Some(s) => format!("did you mean `{s}`? The states of `{load}` are {}", backticked(&names)),
+            Some(s) => format!(
+                "did you mean `{s}`? The states of `{load}` are {}",
+                backticked(&names)
+            ),
             None => format!("the states of `{load}` are {}", backticked(&names)),
         };
-        self.err(path, format!("the load `{load}` has no state `{state}`"), Some(hint));
+        self.err(
+            path,
+            format!("the load `{load}` has no state `{state}`"),
+            Some(hint),
+        );
     }
 
     fn unique_ids(&mut self, spec: &DesignSpec) {
@@ -741,10 +951,18 @@ impl Lower<'_> {
             );
         for (id, path) in ids {
             if id == BATTERY {
-                self.err(&path, "`battery` is reserved for the pack's own rail", Some("choose another id".into()));
+                self.err(
+                    &path,
+                    "`battery` is reserved for the pack's own rail",
+                    Some("choose another id".into()),
+                );
             } else if let Some(first) = seen.get(id) {
                 let msg = format!("the id `{id}` is used twice (first at {first})");
-                self.err(&path, msg, Some("ids must be unique across stages and loads".into()));
+                self.err(
+                    &path,
+                    msg,
+                    Some("ids must be unique across stages and loads".into()),
+                );
             } else {
                 seen.insert(id, path);
             }
@@ -780,7 +998,11 @@ impl Lower<'_> {
         for (i, s) in spec.stages.iter().enumerate() {
             match self.rail(spec, &s.input, &format!("stages[{i}].input")) {
                 Some(r) if r == i + 1 => {
-                    self.err(&format!("stages[{i}].input"), format!("the stage `{}` feeds itself", s.id), Some("its input must be `battery` or another stage".into()));
+                    self.err(
+                        &format!("stages[{i}].input"),
+                        format!("the stage `{}` feeds itself", s.id),
+                        Some("its input must be `battery` or another stage".into()),
+                    );
                     ok = false;
                 }
                 Some(r) => inputs.push(r),
@@ -803,7 +1025,8 @@ impl Lower<'_> {
                 for e in errs {
                     match e {
                         TreeError::Cycle(stages) => {
-                            let mut names: Vec<&str> = stages.iter().map(|&k| spec.stages[k].id.as_str()).collect();
+                            let mut names: Vec<&str> =
+                                stages.iter().map(|&k| spec.stages[k].id.as_str()).collect();
                             names.push(names[0]);
                             self.err(
                                 &format!("stages[{}].input", stages[0]),
@@ -813,7 +1036,10 @@ impl Lower<'_> {
                         }
                         TreeError::TooDeep(k) => self.err(
                             &format!("stages[{k}].input"),
-                            format!("the chain of stages down to `{}` is deeper than {MAX_DEPTH}", spec.stages[k].id),
+                            format!(
+                                "the chain of stages down to `{}` is deeper than {MAX_DEPTH}",
+                                spec.stages[k].id
+                            ),
                             None,
                         ),
                     }
@@ -835,7 +1061,11 @@ impl Lower<'_> {
             for l in &spec.loads {
                 // States are indexed as in the lowered load: file order, `off` excluded.
                 let states: Vec<&String> = l.draw.keys().filter(|k| *k != "off").collect();
-                load_states.push(l.default.as_ref().and_then(|d| states.iter().position(|s| *s == d)));
+                load_states.push(
+                    l.default
+                        .as_ref()
+                        .and_then(|d| states.iter().position(|s| *s == d)),
+                );
             }
             let mut stage_on = vec![true; spec.stages.len()];
             for (key, value) in entries.iter().flatten() {
@@ -850,7 +1080,10 @@ impl Lower<'_> {
                     if let Some(k) = states.iter().position(|s| *s == value) {
                         load_states[li] = Some(k);
                     } else {
-                        let named: Vec<(String, Draw)> = states.iter().map(|s| ((*s).clone(), Draw::Current(0.0))).collect();
+                        let named: Vec<(String, Draw)> = states
+                            .iter()
+                            .map(|s| ((*s).clone(), Draw::Current(0.0)))
+                            .collect();
                         self.unknown_state(&p, key, value, &named);
                         ok = false;
                     }
@@ -859,17 +1092,32 @@ impl Lower<'_> {
                         "off" => stage_on[si] = false,
                         "on" => stage_on[si] = true,
                         _ => {
-                            self.err(&p, format!("a stage is `on` or `off` in a mode, not `{value}`"), Some(format!("write `{key}: off` to turn the stage off")));
+                            self.err(
+                                &p,
+                                format!("a stage is `on` or `off` in a mode, not `{value}`"),
+                                Some(format!("write `{key}: off` to turn the stage off")),
+                            );
                             ok = false;
                         }
                     }
                 } else {
-                    let names: Vec<&str> = spec.loads.iter().map(|l| l.id.as_str()).chain(spec.stages.iter().map(|s| s.id.as_str())).collect();
+                    let names: Vec<&str> = spec
+                        .loads
+                        .iter()
+                        .map(|l| l.id.as_str())
+                        .chain(spec.stages.iter().map(|s| s.id.as_str()))
+                        .collect();
                     let hint = match did_you_mean(key, names.iter().copied()) {
                         Some(s) => format!("did you mean `{s}`?"),
-                        None => "a mode names loads (with a state) and stages (with `off`)".to_string(),
+                        None => {
+                            "a mode names loads (with a state) and stages (with `off`)".to_string()
+                        }
                     };
-                    self.err(&p, format!("mode `{name}` names `{key}`, which is neither a load nor a stage"), Some(hint));
+                    self.err(
+                        &p,
+                        format!("mode `{name}` names `{key}`, which is neither a load nor a stage"),
+                        Some(hint),
+                    );
                     ok = false;
                 }
             }
@@ -884,7 +1132,11 @@ impl Lower<'_> {
 
     fn profile(&mut self, spec: &DesignSpec, modes: Option<&[Mode]>) -> Option<Vec<Step>> {
         if spec.profile.is_empty() {
-            self.err("profile", "the profile is empty", Some("add at least one step, e.g. `profile: [{ mode: run, for: 1 h }]`".into()));
+            self.err(
+                "profile",
+                "the profile is empty",
+                Some("add at least one step, e.g. `profile: [{ mode: run, for: 1 h }]`".into()),
+            );
             return None;
         }
         let names: Vec<&str> = spec.modes.keys().map(String::as_str).collect();
@@ -893,7 +1145,13 @@ impl Lower<'_> {
         steps
     }
 
-    fn steps(&mut self, items: &[StepSpec], path: &str, modes: &[&str], depth: usize) -> Option<Vec<Step>> {
+    fn steps(
+        &mut self,
+        items: &[StepSpec],
+        path: &str,
+        modes: &[&str],
+        depth: usize,
+    ) -> Option<Vec<Step>> {
         let mut out = Vec::new();
         let mut ok = true;
         for (i, s) in items.iter().enumerate() {
@@ -908,7 +1166,11 @@ impl Lower<'_> {
     fn duration(&mut self, q: &Qty, path: &str) -> Option<f64> {
         let v = self.value(q, path, Dim::Time, Bound::AtLeastZero)?;
         if v == 0.0 {
-            self.err(path, "a profile step cannot last zero time", Some("give a duration above zero or remove the step".into()));
+            self.err(
+                path,
+                "a profile step cannot last zero time",
+                Some("give a duration above zero or remove the step".into()),
+            );
             return None;
         }
         Some(v)
@@ -917,57 +1179,107 @@ impl Lower<'_> {
     fn step(&mut self, s: &StepSpec, path: &str, modes: &[&str], depth: usize) -> Option<Step> {
         match (&s.mode, &s.repeat) {
             (Some(_), Some(_)) => {
-                self.err(path, "a step has both `mode` and `repeat`", Some("a step is `{ mode: NAME, for: TIME }` or `{ repeat: [...], times: N }`".into()));
+                self.err(
+                    path,
+                    "a step has both `mode` and `repeat`",
+                    Some(
+                        "a step is `{ mode: NAME, for: TIME }` or `{ repeat: [...], times: N }`"
+                            .into(),
+                    ),
+                );
                 None
             }
             (None, None) => {
-                self.err(path, "a step has neither `mode` nor `repeat`", Some("write `{ mode: NAME, for: TIME }`".into()));
+                self.err(
+                    path,
+                    "a step has neither `mode` nor `repeat`",
+                    Some("write `{ mode: NAME, for: TIME }`".into()),
+                );
                 None
             }
             (Some(m), None) => {
                 if s.times.is_some() {
-                    self.err(&format!("{path}.times"), "`times` belongs to a `repeat` block", Some("remove it".into()));
+                    self.err(
+                        &format!("{path}.times"),
+                        "`times` belongs to a `repeat` block",
+                        Some("remove it".into()),
+                    );
                 }
                 let mode = modes.iter().position(|n| n == m);
-                if mode.is_none() {
+                // With no modes at all, that one problem is already reported.
+                if mode.is_none() && !modes.is_empty() {
                     let hint = match did_you_mean(m, modes.iter().copied()) {
                         Some(x) => format!("did you mean `{x}`?"),
                         None => format!("the modes are {}", backticked(modes)),
                     };
-                    self.err(&format!("{path}.mode"), format!("unknown mode `{m}`"), Some(hint));
+                    self.err(
+                        &format!("{path}.mode"),
+                        format!("unknown mode `{m}`"),
+                        Some(hint),
+                    );
                 }
                 let seconds = match &s.duration {
                     Some(q) => self.duration(q, &format!("{path}.for")),
                     None => {
-                        self.err(path, format!("the step in mode `{m}` has no duration"), Some("add `for:`, e.g. `for: 10 s`".into()));
+                        self.err(
+                            path,
+                            format!("the step in mode `{m}` has no duration"),
+                            Some("add `for:`, e.g. `for: 10 s`".into()),
+                        );
                         None
                     }
                 };
-                Some(Step::Hold { mode: mode?, seconds: seconds? })
+                Some(Step::Hold {
+                    mode: mode?,
+                    seconds: seconds?,
+                })
             }
             (None, Some(inner)) => {
                 if depth >= MAX_REPEAT_NESTING {
-                    self.err(path, format!("`repeat` blocks are nested deeper than {MAX_REPEAT_NESTING}"), None);
+                    self.err(
+                        path,
+                        format!("`repeat` blocks are nested deeper than {MAX_REPEAT_NESTING}"),
+                        None,
+                    );
                     return None;
                 }
                 if inner.is_empty() {
-                    self.err(&format!("{path}.repeat"), "the `repeat` block is empty", Some("list the steps to repeat".into()));
+                    self.err(
+                        &format!("{path}.repeat"),
+                        "the `repeat` block is empty",
+                        Some("list the steps to repeat".into()),
+                    );
                     return None;
                 }
                 let steps = self.steps(inner, &format!("{path}.repeat"), modes, depth + 1);
                 let until = match (&s.duration, &s.times) {
                     (Some(_), Some(_)) => {
-                        self.err(path, "a `repeat` block has both `for` and `times`", Some("keep one of them".into()));
+                        self.err(
+                            path,
+                            "a `repeat` block has both `for` and `times`",
+                            Some("keep one of them".into()),
+                        );
                         None
                     }
                     (None, None) => {
-                        self.err(path, "a `repeat` block has neither `for` nor `times`", Some("add `times: N` or `for: TIME`".into()));
+                        self.err(
+                            path,
+                            "a `repeat` block has neither `for` nor `times`",
+                            Some("add `times: N` or `for: TIME`".into()),
+                        );
                         None
                     }
-                    (Some(q), None) => self.duration(q, &format!("{path}.for")).map(RepeatUntil::Seconds),
-                    (None, Some(q)) => self.count(Some(q), &format!("{path}.times"), 1_000_000_000).map(RepeatUntil::Times),
+                    (Some(q), None) => self
+                        .duration(q, &format!("{path}.for"))
+                        .map(RepeatUntil::Seconds),
+                    (None, Some(q)) => self
+                        .count(Some(q), &format!("{path}.times"), 1_000_000_000)
+                        .map(RepeatUntil::Times),
                 };
-                Some(Step::Repeat { steps: steps?, until: until? })
+                Some(Step::Repeat {
+                    steps: steps?,
+                    until: until?,
+                })
             }
         }
     }
@@ -988,6 +1300,9 @@ fn chemistry(c: Option<ChemistrySpec>) -> Chemistry {
 
 fn capital(s: &str) -> String {
     // "a voltage" -> "the voltage"; used as the subject of a sentence.
-    let rest = s.strip_prefix("an ").or_else(|| s.strip_prefix("a ")).unwrap_or(s);
+    let rest = s
+        .strip_prefix("an ")
+        .or_else(|| s.strip_prefix("a "))
+        .unwrap_or(s);
     format!("the {rest}")
 }

@@ -31,7 +31,10 @@ impl StageKind {
 
     /// Whether the stage is a switching converter (takes `efficiency` or `loss`).
     pub fn is_switching(self) -> bool {
-        matches!(self, StageKind::Buck | StageKind::Boost | StageKind::BuckBoost)
+        matches!(
+            self,
+            StageKind::Buck | StageKind::Boost | StageKind::BuckBoost
+        )
     }
 }
 

@@ -177,7 +177,11 @@ fn write_csv(w: &mut dyn Write, d: &Design, modes: &[ModeBudget]) -> io::Result<
         writeln!(
             w,
             "{mode},battery,battery,pack,{},{},{},{},{},{},{},,",
-            if p.pack.voltage < d.pack.cutoff_v() { "below_cutoff" } else { "ok" },
+            if p.pack.voltage < d.pack.cutoff_v() {
+                "below_cutoff"
+            } else {
+                "ok"
+            },
             p.pack.ocv,
             p.pack.current,
             p.pack.voltage,

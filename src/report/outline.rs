@@ -52,7 +52,11 @@ fn rail(w: &mut dyn Write, d: &Design, r: usize, prefix: &str) -> io::Result<()>
             .iter()
             .enumerate()
             .map(|(k, (name, draw))| {
-                let mark = if load.default == Some(k) { " (default)" } else { "" };
+                let mark = if load.default == Some(k) {
+                    " (default)"
+                } else {
+                    ""
+                };
                 format!("{name} {}{mark}", draw_text(*draw))
             })
             .collect();
@@ -64,14 +68,23 @@ fn rail(w: &mut dyn Write, d: &Design, r: usize, prefix: &str) -> io::Result<()>
     for &k in stages {
         i += 1;
         let (branch, cont) = branches(i == n);
-        writeln!(w, "{prefix}{branch}{}  {}", d.stages[k].id, stage_text(&d.stages[k]))?;
+        writeln!(
+            w,
+            "{prefix}{branch}{}  {}",
+            d.stages[k].id,
+            stage_text(&d.stages[k])
+        )?;
         rail(w, d, k + 1, &format!("{prefix}{cont}"))?;
     }
     Ok(())
 }
 
 fn branches(last: bool) -> (&'static str, &'static str) {
-    if last { ("└─ ", "   ") } else { ("├─ ", "│  ") }
+    if last {
+        ("└─ ", "   ")
+    } else {
+        ("├─ ", "│  ")
+    }
 }
 
 fn draw_text(d: Draw) -> String {
@@ -92,7 +105,9 @@ fn stage_text(s: &Stage) -> String {
     match &s.loss {
         LossModel::Constant(e) => parts.push(format!("efficiency {}", fmt_percent(*e))),
         LossModel::Curves(c) if c.len() == 1 => parts.push("efficiency curve".into()),
-        LossModel::Curves(c) => parts.push(format!("efficiency curves at {} input voltages", c.len())),
+        LossModel::Curves(c) => {
+            parts.push(format!("efficiency curves at {} input voltages", c.len()))
+        }
         LossModel::Terms { drop, resistance } => parts.push(format!(
             "loss {} x I + {} x I²",
             fmt_eng(*drop, "V"),
@@ -101,7 +116,9 @@ fn stage_text(s: &Stage) -> String {
         LossModel::None => {}
     }
     match s.kind {
-        StageKind::Buck | StageKind::Linear => parts.push(format!("dropout {}", fmt_eng(s.dropout, "V"))),
+        StageKind::Buck | StageKind::Linear => {
+            parts.push(format!("dropout {}", fmt_eng(s.dropout, "V")))
+        }
         StageKind::Boost => parts.push(format!("bypass drop {}", fmt_eng(s.bypass_drop, "V"))),
         _ => {}
     }
@@ -118,10 +135,17 @@ fn steps(d: &Design, list: &[Step]) -> String {
     let parts: Vec<String> = list
         .iter()
         .map(|s| match s {
-            Step::Hold { mode, seconds } => format!("{} {}", d.modes[*mode].name, fmt_duration(*seconds)),
-            Step::Repeat { steps: inner, until } => match until {
+            Step::Hold { mode, seconds } => {
+                format!("{} {}", d.modes[*mode].name, fmt_duration(*seconds))
+            }
+            Step::Repeat {
+                steps: inner,
+                until,
+            } => match until {
                 RepeatUntil::Times(n) => format!("{n} x [{}]", steps(d, inner)),
-                RepeatUntil::Seconds(t) => format!("[{}] for {}", steps(d, inner), fmt_duration(*t)),
+                RepeatUntil::Seconds(t) => {
+                    format!("[{}] for {}", steps(d, inner), fmt_duration(*t))
+                }
             },
         })
         .collect();

@@ -61,9 +61,9 @@ impl TextTable {
         }
         for r in std::iter::once(&self.header).chain(&self.rows) {
             let mut line = String::from(indent);
-            for i in 0..n {
+            for (i, w) in width.iter().enumerate() {
                 let cell = r.get(i).map_or("", String::as_str);
-                let pad = width[i] - cell.chars().count();
+                let pad = w - cell.chars().count();
                 if i > 0 {
                     line.push_str("  ");
                 }

@@ -96,11 +96,19 @@ pub fn violations(design: &Design, p: &OperatingPoint, ambient_c: f64) -> Vec<Vi
                     push(
                         ViolationKind::StageOvercurrent,
                         &st.id,
-                        format!("`{}` delivers {}, above its {} rating", st.id, fmt_eng(sp.iout, "A"), fmt_eng(max, "A")),
+                        format!(
+                            "`{}` delivers {}, above its {} rating",
+                            st.id,
+                            fmt_eng(sp.iout, "A"),
+                            fmt_eng(max, "A")
+                        ),
                     );
                 }
             }
-            if matches!(st.loss, LossModel::Curves(_)) && sp.state == super::StageState::Regulating && st.loss.extrapolated(sp.iout) {
+            if matches!(st.loss, LossModel::Curves(_))
+                && sp.state == super::StageState::Regulating
+                && st.loss.extrapolated(sp.iout)
+            {
                 push(
                     ViolationKind::TableExtrapolated,
                     &st.id,
@@ -119,7 +127,12 @@ pub fn violations(design: &Design, p: &OperatingPoint, ambient_c: f64) -> Vec<Vi
                     push(
                         ViolationKind::Overvoltage,
                         &st.id,
-                        format!("`{}` sees {} at its input, above its {} maximum", st.id, fmt_eng(sp.vin, "V"), fmt_eng(max, "V")),
+                        format!(
+                            "`{}` sees {} at its input, above its {} maximum",
+                            st.id,
+                            fmt_eng(sp.vin, "V"),
+                            fmt_eng(max, "V")
+                        ),
                     );
                 }
             }
@@ -142,7 +155,11 @@ pub fn violations(design: &Design, p: &OperatingPoint, ambient_c: f64) -> Vec<Vi
     }
     for (rail, subject) in (0..design.tree.rails()).map(|r| (r, design.rail_name(r).to_string())) {
         let live = rail == 0 || p.stages[rail - 1].state.is_running();
-        let v = if rail == 0 { p.pack.voltage } else { p.stages[rail - 1].vout };
+        let v = if rail == 0 {
+            p.pack.voltage
+        } else {
+            p.stages[rail - 1].vout
+        };
         for &l in design.tree.loads_on(rail) {
             let load = &design.loads[l];
             if live {
@@ -151,7 +168,12 @@ pub fn violations(design: &Design, p: &OperatingPoint, ambient_c: f64) -> Vec<Vi
                         push(
                             ViolationKind::RailHigh,
                             &subject,
-                            format!("rail `{subject}` is at {}, above the {} maximum of `{}`", fmt_eng(v, "V"), fmt_eng(max, "V"), load.id),
+                            format!(
+                                "rail `{subject}` is at {}, above the {} maximum of `{}`",
+                                fmt_eng(v, "V"),
+                                fmt_eng(max, "V"),
+                                load.id
+                            ),
                         );
                     }
                 }
@@ -161,7 +183,10 @@ pub fn violations(design: &Design, p: &OperatingPoint, ambient_c: f64) -> Vec<Vi
                     push(
                         ViolationKind::OffRailDraw,
                         &load.id,
-                        format!("`{}` is `{name}` but its rail `{subject}` is off, so it draws nothing", load.id),
+                        format!(
+                            "`{}` is `{name}` but its rail `{subject}` is off, so it draws nothing",
+                            load.id
+                        ),
                     );
                 }
             }

@@ -189,7 +189,10 @@ pub fn solve_point(design: &Design, mode: usize, at: PackState) -> Solution {
             locked: &locked,
         };
         let s = settle(v_open, r, &mut |v| walker.rail_current(0, v, None));
-        let Settle::Point { v_a, v_b, alpha, .. } = s else {
+        let Settle::Point {
+            v_a, v_b, alpha, ..
+        } = s
+        else {
             return Solution::Collapse { ocv, resistance: r };
         };
         let mut rec_a = Vec::new();
@@ -286,7 +289,14 @@ fn blend(a: &[Rec], b: &[Rec], alpha: f64) -> Vec<Rec> {
         .collect()
 }
 
-fn assemble(d: &Design, mode: usize, ocv: f64, voltage: f64, current: f64, rec: &[Rec]) -> OperatingPoint {
+fn assemble(
+    d: &Design,
+    mode: usize,
+    ocv: f64,
+    voltage: f64,
+    current: f64,
+    rec: &[Rec],
+) -> OperatingPoint {
     let off = StagePoint {
         state: StageState::Off,
         vin: 0.0,
@@ -429,7 +439,17 @@ impl Walker<'_> {
         let slot = rec.as_ref().map(|r| r.len());
         let mut rec = rec;
         if let Some(r) = rec.as_deref_mut() {
-            r.push(Rec::Stage(k, StagePoint { state, vin, iin: 0.0, vout, iout: 0.0, loss: 0.0 }));
+            r.push(Rec::Stage(
+                k,
+                StagePoint {
+                    state,
+                    vin,
+                    iin: 0.0,
+                    vout,
+                    iout: 0.0,
+                    loss: 0.0,
+                },
+            ));
         }
         let (vout, iout, iin, loss) = match (st.kind, state) {
             (StageKind::Switch, _) => {
@@ -457,7 +477,17 @@ impl Walker<'_> {
             }
         };
         if let (Some(r), Some(slot)) = (rec, slot) {
-            r[slot] = Rec::Stage(k, StagePoint { state, vin, iin, vout, iout, loss });
+            r[slot] = Rec::Stage(
+                k,
+                StagePoint {
+                    state,
+                    vin,
+                    iin,
+                    vout,
+                    iout,
+                    loss,
+                },
+            );
         }
         iin
     }
@@ -467,8 +497,16 @@ impl Walker<'_> {
     fn switch_output(&self, k: usize, vin: f64, rec: Option<&mut Vec<Rec>>) -> (f64, f64) {
         let st = &self.d.stages[k];
         let out = k + 1;
-        let s = settle(vin, st.on_resistance, &mut |v| self.rail_current(out, v, None));
-        let Settle::Point { v_a, v_b, alpha, current } = s else {
+        let s = settle(vin, st.on_resistance, &mut |v| {
+            self.rail_current(out, v, None)
+        });
+        let Settle::Point {
+            v_a,
+            v_b,
+            alpha,
+            current,
+        } = s
+        else {
             if let Some(r) = rec {
                 self.dead(out, r);
             }
@@ -480,7 +518,10 @@ impl Walker<'_> {
             let ia = self.rail_current(out, v_a, Some(&mut ra));
             let ib = self.rail_current(out, v_b, Some(&mut rb));
             r.extend(blend(&ra, &rb, alpha));
-            return (alpha * v_a + (1.0 - alpha) * v_b, alpha * ia + (1.0 - alpha) * ib);
+            return (
+                alpha * v_a + (1.0 - alpha) * v_b,
+                alpha * ia + (1.0 - alpha) * ib,
+            );
         }
         (alpha * v_a + (1.0 - alpha) * v_b, current)
     }

@@ -3,7 +3,9 @@
 //! (v_open - V) / r. Found by a bracketed search, so it always ends; where no such voltage
 //! exists the demand exceeds what the source can give, and that is reported as a collapse.
 
-use super::tolerance::{BISECT_MAX_ITER, BISECT_REL, FIXED_POINT_MAX_ITER, FIXED_POINT_REL, SCAN_STEPS};
+use super::tolerance::{
+    BISECT_MAX_ITER, BISECT_REL, FIXED_POINT_MAX_ITER, FIXED_POINT_REL, SCAN_STEPS,
+};
 
 /// Where the source settles.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -55,10 +57,15 @@ fn finite_or_inf(x: f64) -> f64 {
 /// ```
 pub fn settle(v_open: f64, r: f64, demand: &mut dyn FnMut(f64) -> f64) -> Settle {
     let mut f = |v: f64| finite_or_inf(demand(v));
-    if !(v_open > 0.0) {
+    if v_open.is_nan() || v_open <= 0.0 {
         let i = f(0.0);
         return if i == 0.0 {
-            Settle::Point { v_a: 0.0, v_b: 0.0, alpha: 1.0, current: 0.0 }
+            Settle::Point {
+                v_a: 0.0,
+                v_b: 0.0,
+                alpha: 1.0,
+                current: 0.0,
+            }
         } else {
             Settle::Collapse
         };
@@ -66,7 +73,12 @@ pub fn settle(v_open: f64, r: f64, demand: &mut dyn FnMut(f64) -> f64) -> Settle
     let f_top = f(v_open);
     if r <= 0.0 || f_top == 0.0 {
         return if f_top.is_finite() {
-            Settle::Point { v_a: v_open, v_b: v_open, alpha: 1.0, current: f_top }
+            Settle::Point {
+                v_a: v_open,
+                v_b: v_open,
+                alpha: 1.0,
+                current: f_top,
+            }
         } else {
             Settle::Collapse
         };
@@ -140,7 +152,11 @@ fn bisect(v_open: f64, r: f64, f: &mut dyn FnMut(f64) -> f64, mut lo: f64, mut h
     if !fa.is_finite() && !fb.is_finite() {
         return Settle::Collapse;
     }
-    let (alpha, fa) = if fa.is_finite() { (alpha, fa) } else { (0.0, 0.0) };
+    let (alpha, fa) = if fa.is_finite() {
+        (alpha, fa)
+    } else {
+        (0.0, 0.0)
+    };
     Settle::Point {
         v_a: hi,
         v_b: lo,
@@ -155,7 +171,9 @@ mod tests {
 
     fn point(s: Settle) -> (f64, f64) {
         match s {
-            Settle::Point { v_a, v_b, current, .. } => (0.5 * (v_a + v_b), current),
+            Settle::Point {
+                v_a, v_b, current, ..
+            } => (0.5 * (v_a + v_b), current),
             Settle::Collapse => panic!("unexpected collapse"),
         }
     }
@@ -168,7 +186,10 @@ mod tests {
         for (voc, r, p) in [(3.7, 0.1, 5.0), (3.7, 0.1, 2.5 / 0.9), (3.0, 20.0, 0.02)] {
             let (v, i) = point(settle(voc, r, &mut |v: f64| p / v));
             let v_exact = 0.5 * (voc + (voc * voc - 4.0 * p * r).sqrt());
-            assert!(((v - v_exact) / v_exact).abs() < 1e-12, "{voc} {r} {p}: {v}");
+            assert!(
+                ((v - v_exact) / v_exact).abs() < 1e-12,
+                "{voc} {r} {p}: {v}"
+            );
             assert!(((v * i - p) / p).abs() < 1e-12);
         }
     }
@@ -180,8 +201,14 @@ mod tests {
         let (voc, r) = (3.0, 20.0);
         let pmax = voc * voc / (4.0 * r);
         let (v, _) = point(settle(voc, r, &mut |v: f64| 0.999 * pmax / v));
-        assert!(v > voc / 2.0 && v < 0.52 * voc, "just below P_max solves near Voc/2: {v}");
-        assert_eq!(settle(voc, r, &mut |v: f64| 1.001 * pmax / v), Settle::Collapse);
+        assert!(
+            v > voc / 2.0 && v < 0.52 * voc,
+            "just below P_max solves near Voc/2: {v}"
+        );
+        assert_eq!(
+            settle(voc, r, &mut |v: f64| 1.001 * pmax / v),
+            Settle::Collapse
+        );
     }
 
     #[test]
@@ -199,7 +226,9 @@ mod tests {
     fn holds_at_a_jump_with_no_balance_on_either_side() {
         // Demand 1 A above 2.5 V and 0.2 A below: with 3 V and 1 Ω neither side balances, so the
         // voltage is held at 2.5 V and the current is the line's 0.5 A.
-        let (v, i) = point(settle(3.0, 1.0, &mut |v: f64| if v >= 2.5 { 1.0 } else { 0.2 }));
+        let (v, i) = point(settle(3.0, 1.0, &mut |v: f64| {
+            if v >= 2.5 { 1.0 } else { 0.2 }
+        }));
         assert!((v - 2.5).abs() < 1e-12 && (i - 0.5).abs() < 1e-9);
     }
 
@@ -207,7 +236,9 @@ mod tests {
     fn takes_the_lower_current_of_two_balances() {
         // Demand 0.2 A above 2.5 V and 1 A below, 3 V, 1 Ω: both 2.8 V (0.2 A) and 2.0 V (1 A)
         // balance; the lower current wins.
-        let (v, i) = point(settle(3.0, 1.0, &mut |v: f64| if v > 2.5 { 0.2 } else { 1.0 }));
+        let (v, i) = point(settle(3.0, 1.0, &mut |v: f64| {
+            if v > 2.5 { 0.2 } else { 1.0 }
+        }));
         assert!((v - 2.8).abs() < 1e-12 && (i - 0.2).abs() < 1e-12);
     }
 }

@@ -91,7 +91,15 @@ impl Recorder {
                 Some(k) => Some(join(path, &k)),
                 None => {
                     let k = scalar_key.unwrap_or("?").to_string();
-                    self.map.keys.insert(join(path, &k), loc(mark));
+                    let at = loc(mark);
+                    self.map.keys.insert(join(path, &k), at);
+                    // A block mapping is marked at its first `:`; its first key is where it
+                    // starts as a reader sees it.
+                    if let Some(start) = self.map.values.get_mut(path.as_str()) {
+                        if (at.line, at.col) < (start.line, start.col) {
+                            *start = at;
+                        }
+                    }
                     *key = Some(k);
                     None
                 }
@@ -142,8 +150,19 @@ mod tests {
         assert_eq!(m.value("design"), Some(Location { line: 1, col: 9 }));
         assert_eq!(m.value("stages[1].id"), Some(Location { line: 5, col: 9 }));
         assert_eq!(m.key("stages[0].input"), Some(Location { line: 4, col: 5 }));
-        assert_eq!(m.value("stages[1].efficiency[0][1]").map(|l| l.line), Some(6));
+        assert_eq!(
+            m.value("stages[1].efficiency[0][1]").map(|l| l.line),
+            Some(6)
+        );
         assert_eq!(m.nearest("stages[1].nothing.here").map(|l| l.line), Some(5));
+        // A block mapping starts at its first key, a flow mapping at its brace.
+        assert_eq!(m.value("stages[0]"), Some(Location { line: 3, col: 5 }));
+        assert_eq!(m.value(""), Some(Location { line: 1, col: 1 }));
+        let m = SourceMap::build(
+            "a: { b: 1 }
+",
+        );
+        assert_eq!(m.value("a"), Some(Location { line: 1, col: 4 }));
     }
 
     #[test]

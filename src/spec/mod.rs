@@ -84,22 +84,25 @@ struct Reader<'a> {
 impl Reader<'_> {
     fn push(&mut self, path: &str, message: String, hint: Option<String>) {
         let location = self.source.nearest(path);
-        self.diags
-            .push(Diagnostic::new(path, message).with_hint_opt(hint).at(location));
+        self.diags.push(
+            Diagnostic::new(path, message)
+                .with_hint_opt(hint)
+                .at(location),
+        );
     }
 
     /// Deserialize one part, turning a serde error into a diagnostic at `path`.
     fn part<T: DeserializeOwned>(&mut self, path: &str, v: Value) -> Option<T> {
-        match serde_yaml::from_value::<T>(v) {
+        match T::deserialize(&v) {
             Ok(t) => Some(t),
             Err(e) => {
-                self.serde_error(path, &e.to_string());
+                self.serde_error(path, &e.to_string(), &v);
                 None
             }
         }
     }
 
-    fn serde_error(&mut self, path: &str, msg: &str) {
+    fn serde_error(&mut self, path: &str, msg: &str, v: &Value) {
         if let Some(rest) = msg.strip_prefix("unknown field `") {
             let name = rest.split('`').next().unwrap_or("");
             let expected: Vec<&str> = rest
@@ -146,7 +149,9 @@ impl Reader<'_> {
                 Some(s) => format!("did you mean `{s}`?"),
                 None => format!("use one of {}", backticked(&expected)),
             };
-            self.push(path, format!("unknown value `{name}`"), Some(hint));
+            // Name the key holding the value (`stages[0].kind`), not only the item.
+            let at = value_path(v, name).map_or_else(|| path.to_string(), |p| format!("{path}{p}"));
+            self.push(&at, format!("unknown value `{name}`"), Some(hint));
             return;
         }
         self.push(path, msg.to_string(), None);
@@ -167,7 +172,14 @@ impl Reader<'_> {
         let mut sections: IndexMap<String, Value> = IndexMap::new();
         for (k, v) in map {
             let Some(key) = k.as_str().map(str::to_string) else {
-                self.push("", format!("a top-level key must be a name, found {}", qty::describe(&k)), None);
+                self.push(
+                    "",
+                    format!(
+                        "a top-level key must be a name, found {}",
+                        qty::describe(&k)
+                    ),
+                    None,
+                );
                 continue;
             };
             if !TOP_KEYS.contains(&key.as_str()) {
@@ -236,7 +248,10 @@ impl Reader<'_> {
             Some(other) => {
                 self.push(
                     name,
-                    format!("`{name}` must be a list (items starting with `- `), found {}", qty::describe(&other)),
+                    format!(
+                        "`{name}` must be a list (items starting with `- `), found {}",
+                        qty::describe(&other)
+                    ),
                     None,
                 );
                 Vec::new()
@@ -255,7 +270,14 @@ impl Reader<'_> {
             Some(Value::Mapping(m)) => {
                 for (k, v) in m {
                     let Some(key) = k.as_str().map(str::to_string) else {
-                        self.push(name, format!("a name in `{name}` must be text, found {}", qty::describe(&k)), None);
+                        self.push(
+                            name,
+                            format!(
+                                "a name in `{name}` must be text, found {}",
+                                qty::describe(&k)
+                            ),
+                            None,
+                        );
                         continue;
                     };
                     if let Some(t) = self.part::<T>(&format!("{name}.{key}"), v) {
@@ -265,11 +287,30 @@ impl Reader<'_> {
             }
             Some(other) => self.push(
                 name,
-                format!("`{name}` must be a mapping of names, found {}", qty::describe(&other)),
+                format!(
+                    "`{name}` must be a mapping of names, found {}",
+                    qty::describe(&other)
+                ),
                 None,
             ),
         }
         out
+    }
+}
+
+/// The path, below `v`, of the first text value equal to `text` (`.kind`, `[2].chemistry`).
+fn value_path(v: &Value, text: &str) -> Option<String> {
+    match v {
+        Value::String(s) if s == text => Some(String::new()),
+        Value::Mapping(m) => m.iter().find_map(|(k, x)| {
+            let key = k.as_str()?;
+            value_path(x, text).map(|p| format!(".{key}{p}"))
+        }),
+        Value::Sequence(items) => items
+            .iter()
+            .enumerate()
+            .find_map(|(i, x)| value_path(x, text).map(|p| format!("[{i}]{p}"))),
+        _ => None,
     }
 }
 

@@ -135,7 +135,11 @@ fn find_cycles(stage_inputs: &[usize]) -> Vec<Vec<usize>> {
                     }
                     // Feeding order: input before consumer, so reverse the upward walk.
                     cyc.reverse();
-                    let m = cyc.iter().enumerate().min_by_key(|(_, c)| **c).map_or(0, |(i, _)| i);
+                    let m = cyc
+                        .iter()
+                        .enumerate()
+                        .min_by_key(|(_, c)| **c)
+                        .map_or(0, |(i, _)| i);
                     cyc.rotate_left(m);
                     cycles.push(cyc);
                 }
