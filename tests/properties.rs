@@ -52,21 +52,27 @@ fn stage_gen() -> impl Strategy<Value = StageGen> {
         0.0f64..2.0,
         prop::option::of(0.5f64..4.0),
     )
-        .prop_map(|(kind, parent, setpoint, loss, eta, q_ua, drop, ron, uvlo)| StageGen {
-            kind,
-            parent,
-            setpoint,
-            loss,
-            eta,
-            q_ua,
-            drop,
-            ron,
-            uvlo,
-        })
+        .prop_map(
+            |(kind, parent, setpoint, loss, eta, q_ua, drop, ron, uvlo)| StageGen {
+                kind,
+                parent,
+                setpoint,
+                loss,
+                eta,
+                q_ua,
+                drop,
+                ron,
+                uvlo,
+            },
+        )
 }
 
 fn load_gen() -> impl Strategy<Value = LoadGen> {
-    (0usize..64, 0usize..3, 0.0f64..1.0).prop_map(|(rail, kind, value)| LoadGen { rail, kind, value })
+    (0usize..64, 0usize..3, 0.0f64..1.0).prop_map(|(rail, kind, value)| LoadGen {
+        rail,
+        kind,
+        value,
+    })
 }
 
 fn tree_gen() -> impl Strategy<Value = TreeGen> {
@@ -78,20 +84,28 @@ fn tree_gen() -> impl Strategy<Value = TreeGen> {
         any::<bool>(),
         prop::collection::vec(stage_gen(), 0..7),
         prop::collection::vec(load_gen(), 1..9),
-        prop::collection::vec((prop::collection::vec(any::<bool>(), 9), prop::collection::vec(any::<bool>(), 7)), 1..4),
+        prop::collection::vec(
+            (
+                prop::collection::vec(any::<bool>(), 9),
+                prop::collection::vec(any::<bool>(), 7),
+            ),
+            1..4,
+        ),
         0.0f64..=1.0,
     )
-        .prop_map(|(series, ocv_lo, ocv_span, r_mohm, pol, stages, loads, modes, soc)| TreeGen {
-            series,
-            ocv_lo,
-            ocv_span,
-            r_mohm,
-            pol,
-            stages,
-            loads,
-            modes,
-            soc,
-        })
+        .prop_map(
+            |(series, ocv_lo, ocv_span, r_mohm, pol, stages, loads, modes, soc)| TreeGen {
+                series,
+                ocv_lo,
+                ocv_span,
+                r_mohm,
+                pol,
+                stages,
+                loads,
+                modes,
+                soc,
+            },
+        )
 }
 
 const KINDS: [&str; 5] = ["buck", "boost", "buck-boost", "linear", "switch"];
@@ -100,17 +114,37 @@ fn yaml(t: &TreeGen) -> String {
     let mut s = String::new();
     let (lo, hi) = (t.ocv_lo, t.ocv_lo + t.ocv_span);
     let mid = lo + 0.7 * (hi - lo);
-    let _ = writeln!(s, "cells:\n  gen:\n    capacity: 2 Ah\n    ocv: [[0 %, {lo} V], [40 %, {mid} V], [100 %, {hi} V]]");
-    let _ = writeln!(s, "    resistance: [[0 %, {} mΩ], [100 %, {} mΩ]]", 2.0 * t.r_mohm, t.r_mohm);
+    let _ = writeln!(
+        s,
+        "cells:\n  gen:\n    capacity: 2 Ah\n    ocv: [[0 %, {lo} V], [40 %, {mid} V], [100 %, {hi} V]]"
+    );
+    let _ = writeln!(
+        s,
+        "    resistance: [[0 %, {} mΩ], [100 %, {} mΩ]]",
+        2.0 * t.r_mohm,
+        t.r_mohm
+    );
     if t.pol {
-        let _ = writeln!(s, "    polarization: {{ resistance: {} mΩ, time_constant: 20 s }}", 0.5 * t.r_mohm);
+        let _ = writeln!(
+            s,
+            "    polarization: {{ resistance: {} mΩ, time_constant: 20 s }}",
+            0.5 * t.r_mohm
+        );
     }
     let _ = writeln!(s, "    cutoff: {} V", 0.5 * lo);
     let _ = writeln!(s, "battery: {{ cell: gen, series: {} }}\nstages:", t.series);
     for (k, g) in t.stages.iter().enumerate() {
         let kind = KINDS[g.kind];
-        let input = if k == 0 || g.parent % (k + 1) == 0 { "battery".to_string() } else { format!("s{}", g.parent % k) };
-        let _ = write!(s, "  - {{ id: s{k}, kind: {kind}, input: {input}, quiescent: {} µA", g.q_ua);
+        let input = if k == 0 || g.parent % (k + 1) == 0 {
+            "battery".to_string()
+        } else {
+            format!("s{}", g.parent % k)
+        };
+        let _ = write!(
+            s,
+            "  - {{ id: s{k}, kind: {kind}, input: {input}, quiescent: {} µA",
+            g.q_ua
+        );
         if kind != "switch" {
             let _ = write!(s, ", output: {} V", g.setpoint);
         }
@@ -131,8 +165,17 @@ fn yaml(t: &TreeGen) -> String {
             let _ = match g.loss {
                 0 => write!(s, ", efficiency: {e} %"),
                 1 => write!(s, ", efficiency: [[1 mA, {} %], [100 mA, {e} %]]", e * 0.8),
-                2 => write!(s, ", efficiency: [{{ vin: 1.5 V, curve: [[1 mA, {} %], [50 mA, {e} %]] }}, {{ vin: 5 V, curve: [[2 mA, {e} %]] }}]", e * 0.7),
-                _ => write!(s, ", loss: {{ drop: {} V, resistance: {} Ω }}", g.drop * 0.2, g.ron),
+                2 => write!(
+                    s,
+                    ", efficiency: [{{ vin: 1.5 V, curve: [[1 mA, {} %], [50 mA, {e} %]] }}, {{ vin: 5 V, curve: [[2 mA, {e} %]] }}]",
+                    e * 0.7
+                ),
+                _ => write!(
+                    s,
+                    ", loss: {{ drop: {} V, resistance: {} Ω }}",
+                    g.drop * 0.2,
+                    g.ron
+                ),
             };
         }
         if let Some(u) = g.uvlo {
@@ -143,13 +186,20 @@ fn yaml(t: &TreeGen) -> String {
     s.push_str("loads:\n");
     for (l, g) in t.loads.iter().enumerate() {
         let rail = g.rail % (t.stages.len() + 1);
-        let rail = if rail == 0 { "battery".to_string() } else { format!("s{}", rail - 1) };
+        let rail = if rail == 0 {
+            "battery".to_string()
+        } else {
+            format!("s{}", rail - 1)
+        };
         let draw = match g.kind {
             0 => format!("{} mA", 200.0 * g.value),
             1 => format!("{} mW", 800.0 * g.value),
             _ => format!("{} Ω", 5.0 + 2000.0 * g.value),
         };
-        let _ = writeln!(s, "  - {{ id: l{l}, rail: {rail}, draw: {{ on: {draw}, idle: 5 µA }}, default: idle }}");
+        let _ = writeln!(
+            s,
+            "  - {{ id: l{l}, rail: {rail}, draw: {{ on: {draw}, idle: 5 µA }}, default: idle }}"
+        );
     }
     s.push_str("modes:\n");
     for (m, (loads_on, stages_off)) in t.modes.iter().enumerate() {
@@ -227,14 +277,32 @@ fn random_trees_mostly_solve() {
         let d = Design::from_text(&yaml(&t)).unwrap();
         for m in 0..d.modes.len() {
             total += 1;
-            if let Solution::Point(p) = solve_point(&d, m, PackState { soc: t.soc, v_pol: None, ambient_c: 25.0 }) {
+            if let Solution::Point(p) = solve_point(
+                &d,
+                m,
+                PackState {
+                    soc: t.soc,
+                    v_pol: None,
+                    ambient_c: 25.0,
+                },
+            ) {
                 solved += 1;
                 states.extend(p.stages.iter().map(|s| s.state.name()));
             }
         }
     }
-    assert!(solved * 10 >= total * 6, "only {solved} of {total} points solved");
-    for s in ["regulating", "dropout", "bypass", "on", "off", "undervoltage"] {
+    assert!(
+        solved * 10 >= total * 6,
+        "only {solved} of {total} points solved"
+    );
+    for s in [
+        "regulating",
+        "dropout",
+        "bypass",
+        "on",
+        "off",
+        "undervoltage",
+    ] {
         assert!(states.contains(s), "no stage was ever `{s}`: {states:?}");
     }
 }

@@ -2,7 +2,9 @@
 //! examples and the contract's own rules computed by hand. The source is named beside each check.
 
 use joulepath::Design;
-use joulepath::solve::{OperatingPoint, PackState, Solution, StageState, ViolationKind, solve_point, violations};
+use joulepath::solve::{
+    OperatingPoint, PackState, Solution, StageState, ViolationKind, solve_point, violations,
+};
 
 use crate::util::close;
 
@@ -17,14 +19,25 @@ fn on_source(v: f64, r: &str, body: &str) -> Design {
 
 fn solve(d: &Design, mode: &str, soc: f64) -> Solution {
     let m = d.mode_index(mode).expect("mode");
-    solve_point(d, m, PackState { soc, v_pol: None, ambient_c: d.ambient_c })
+    solve_point(
+        d,
+        m,
+        PackState {
+            soc,
+            v_pol: None,
+            ambient_c: d.ambient_c,
+        },
+    )
 }
 
 fn point(d: &Design, mode: &str, soc: f64) -> OperatingPoint {
     match solve(d, mode, soc) {
         Solution::Point(p) => {
             let (a, b) = (p.pack.power(), p.delivered_plus_losses());
-            assert!((a - b).abs() <= 1e-9 * a.abs().max(b.abs()).max(1e-300), "energy balance {a} vs {b}");
+            assert!(
+                (a - b).abs() <= 1e-9 * a.abs().max(b.abs()).max(1e-300),
+                "energy balance {a} vs {b}"
+            );
             p
         }
         Solution::Collapse { .. } => panic!("unexpected collapse in `{mode}`"),
@@ -47,7 +60,11 @@ modes: { run: { l: on } }
 profile: [{ mode: run, for: 1 h }]
 ");
     let p = point(&d, "run", 1.0);
-    assert!((p.pack.current - 0.530).abs() < 0.0006, "{}", p.pack.current);
+    assert!(
+        (p.pack.current - 0.530).abs() < 0.0006,
+        "{}",
+        p.pack.current
+    );
     assert!(close(p.pack.current, 12.0 * 0.2 / (0.905 * 5.0), 1e-12));
     assert_eq!(stage(&d, &p, "b").state, StageState::Regulating);
 }
@@ -58,11 +75,15 @@ fn boost_with_source_sag_published_example() {
     // I = 0.7666 A at V = 3.623 V (the quadratic of a constant-power load on a resistive
     // source; Alexander & Sadiku, Fundamentals of Electric Circuits, 5th ed., section 4.8, from
     // memory).
-    let d = on_source(3.7, "0.1 ohm", "stages: [{ id: b, kind: boost, input: battery, output: 5 V, efficiency: 90 % }]
+    let d = on_source(
+        3.7,
+        "0.1 ohm",
+        "stages: [{ id: b, kind: boost, input: battery, output: 5 V, efficiency: 90 % }]
 loads: [{ id: l, rail: b, draw: { on: 500 mA } }]
 modes: { run: { l: on } }
 profile: [{ mode: run, for: 1 h }]
-");
+",
+    );
     let p = point(&d, "run", 0.5);
     let pb = 2.5 / 0.9;
     let v_exact = 0.5 * (3.7 + (3.7f64 * 3.7 - 4.0 * pb * 0.1).sqrt());
@@ -85,7 +106,11 @@ profile: [{ mode: heavy, for: 1 h }]
     let p = point(&d, "heavy", 1.0);
     let s = stage(&d, &p, "ldo");
     assert!(close(s.iin, 0.150 + 0.25e-3, 1e-12));
-    assert!(close(s.efficiency().unwrap(), 3.3 * 0.150 / (5.0 * 0.15025), 1e-12));
+    assert!(close(
+        s.efficiency().unwrap(),
+        3.3 * 0.150 / (5.0 * 0.15025),
+        1e-12
+    ));
     assert!((s.efficiency().unwrap() - 0.6589).abs() < 5e-5);
     assert!((s.loss - 0.2562).abs() < 5e-5);
     // REFERENCES C36 (JEDEC JESD51-1 definition of theta_ja): Tj = 40 °C + 0.25625 W x
@@ -113,7 +138,11 @@ modes: { via-buck: { a: on, ldo: off }, via-ldo: { b: on, buck: off } }
 profile: [{ mode: via-buck, for: 1 h }]
 ");
     let p = point(&d, "via-buck", 1.0);
-    assert!((p.pack.current - 10.4948e-3).abs() < 5e-8, "{}", p.pack.current);
+    assert!(
+        (p.pack.current - 10.4948e-3).abs() < 5e-8,
+        "{}",
+        p.pack.current
+    );
     let p = point(&d, "via-ldo", 1.0);
     assert!(close(p.pack.current, 10.001e-3, 1e-12));
 }
@@ -145,12 +174,20 @@ fn maximum_power_transfer_edge() {
     // section 4.8; from memory), REFERENCES C34: a 3.0 V coin cell with 20 Ω gives at most
     // 0.1125 W, at 1.5 V. Just below it a constant-power load solves near OCV / 2; just above,
     // the pack collapses.
-    let body = |p: f64| format!("loads: [{{ id: l, rail: battery, draw: {{ on: {p} W }} }}]\nmodes: {{ run: {{ l: on }} }}\nprofile: [{{ mode: run, for: 1 h }}]\n");
+    let body = |p: f64| {
+        format!(
+            "loads: [{{ id: l, rail: battery, draw: {{ on: {p} W }} }}]\nmodes: {{ run: {{ l: on }} }}\nprofile: [{{ mode: run, for: 1 h }}]\n"
+        )
+    };
     let pmax = 3.0 * 3.0 / (4.0 * 20.0);
     assert!(close(pmax, 0.1125, 1e-12));
     let d = on_source(3.0, "20 ohm", &body(0.999 * pmax));
     let p = point(&d, "run", 1.0);
-    assert!(p.pack.voltage > 1.5 && p.pack.voltage < 1.55, "{}", p.pack.voltage);
+    assert!(
+        p.pack.voltage > 1.5 && p.pack.voltage < 1.55,
+        "{}",
+        p.pack.voltage
+    );
     let exact = 0.5 * (3.0 + (9.0f64 - 4.0 * 0.999 * pmax * 20.0).sqrt());
     assert!(close(p.pack.voltage, exact, 1e-9));
     let d = on_source(3.0, "20 ohm", &body(1.001 * pmax));
@@ -174,12 +211,18 @@ profile: [{ mode: sleep, for: 1 h }]
     assert!(close(stage(&d, &p, "buck").loss, want, 1e-12));
     // At 10 mA, halfway in log10(I) between 1 mA and 100 mA: eta = 80 %.
     let p = point(&d, "run", 1.0);
-    assert!(close(stage(&d, &p, "buck").efficiency().unwrap(), 0.8, 1e-12));
+    assert!(close(
+        stage(&d, &p, "buck").efficiency().unwrap(),
+        0.8,
+        1e-12
+    ));
 }
 
 /// A cell whose OCV is 3.0 V at 0 % and 4.2 V at 100 %, no resistance: Vin = 3.0 + 1.2 s.
 fn ramp(body: &str) -> Design {
-    let text = format!("cells:\n  ramp: {{ capacity: 1 Ah, ocv: [[0 %, 3.0 V], [100 %, 4.2 V]], resistance: 0 ohm, cutoff: 2.5 V }}\nbattery: {{ cell: ramp }}\n{body}");
+    let text = format!(
+        "cells:\n  ramp: {{ capacity: 1 Ah, ocv: [[0 %, 3.0 V], [100 %, 4.2 V]], resistance: 0 ohm, cutoff: 2.5 V }}\nbattery: {{ cell: ramp }}\n{body}"
+    );
     Design::from_text(&text).unwrap_or_else(|e| panic!("{e}"))
 }
 
@@ -220,7 +263,11 @@ profile: [{ mode: run, for: 1 h }]
 ");
     let p = point(&d, "run", soc_for(3.6));
     assert_eq!(p.stages[0].state, StageState::Regulating);
-    assert!(close(p.pack.current, (3.3 * 0.05 / 0.92 + 3.6 * 20e-6) / 3.6, 1e-9));
+    assert!(close(
+        p.pack.current,
+        (3.3 * 0.05 / 0.92 + 3.6 * 20e-6) / 3.6,
+        1e-9
+    ));
     let p = point(&d, "run", soc_for(4.0));
     assert_eq!(p.stages[0].state, StageState::Bypass);
     assert!(close(p.stages[0].vout, 3.6, 1e-9));
@@ -270,7 +317,12 @@ profile: [{ mode: run, for: 1 h }]
     assert_eq!(p.stages[1].state, StageState::Off);
     assert!(p.stages[1].iin == 0.0 && p.loads.iter().all(|l| l.current == 0.0));
     let v = violations(&d, &p, d.ambient_c);
-    assert_eq!(v.iter().filter(|v| v.kind == ViolationKind::OffRailDraw).count(), 2);
+    assert_eq!(
+        v.iter()
+            .filter(|v| v.kind == ViolationKind::OffRailDraw)
+            .count(),
+        2
+    );
 }
 
 #[test]

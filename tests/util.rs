@@ -70,7 +70,11 @@ impl Test {
             std::fs::write(self.file(), d).expect("write design");
         }
         let file = self.file().display().to_string();
-        let args: Vec<String> = self.args.iter().map(|a| a.replace("{file}", &file)).collect();
+        let args: Vec<String> = self
+            .args
+            .iter()
+            .map(|a| a.replace("{file}", &file))
+            .collect();
         let out = Command::new(env!("CARGO_BIN_EXE_joulepath"))
             .args(&args)
             .current_dir(self.dir.path())
