@@ -49,6 +49,22 @@ pub enum Command {
         #[arg(short = 'o', long = "output")]
         output: Option<PathBuf>,
     },
+    /// How long the product runs in the way it is used, why it stops, and where the energy goes.
+    Runtime {
+        /// The design file (YAML).
+        file: PathBuf,
+        #[command(flatten)]
+        run: RunArgs,
+        /// Add a decimated time series (t, SoC, OCV, V, I) that keeps the pulses' lowest voltages.
+        #[arg(long)]
+        trace: bool,
+        /// Output format.
+        #[arg(long, value_enum, default_value_t = FormatArg::Table)]
+        format: FormatArg,
+        /// Write to this file instead of standard output.
+        #[arg(short = 'o', long = "output")]
+        output: Option<PathBuf>,
+    },
     /// Print the JSON Schema of the design file.
     Schema {
         /// Write to this file instead of standard output.
@@ -67,4 +83,34 @@ fn parse_soc(s: &str) -> Result<f64, String> {
     } else {
         Err(format!("`{s}` is outside 0 %..100 %"))
     }
+}
+
+/// Options of a discharge run.
+#[derive(Debug, Clone, clap::Args)]
+pub struct RunArgs {
+    /// Ambient temperature instead of the design's, e.g. `-10 °C` or `-10degC`.
+    #[arg(long, value_parser = parse_temperature, allow_hyphen_values = true)]
+    pub ambient: Option<f64>,
+    /// Stop simulating after this long (default 20 y), e.g. `5 y` or `90 d`.
+    #[arg(long, value_parser = parse_duration)]
+    pub horizon: Option<f64>,
+    /// Use the chronological reference solver (every pass executed; slow, for checking).
+    #[arg(long)]
+    pub exact: bool,
+}
+
+fn parse_with(s: &str, dim: joulepath::units::Dim) -> Result<f64, String> {
+    joulepath::units::parse_quantity(s, &[dim]).map(joulepath::units::Quantity::value).map_err(|e| {
+        let hint = e.hint().map(|h| format!(" ({h})")).unwrap_or_default();
+        format!("{e}{hint}")
+    })
+}
+
+fn parse_temperature(s: &str) -> Result<f64, String> {
+    parse_with(s, joulepath::units::Dim::Temperature)
+}
+
+fn parse_duration(s: &str) -> Result<f64, String> {
+    let v = parse_with(s, joulepath::units::Dim::Time)?;
+    if v > 0.0 { Ok(v) } else { Err(format!("`{s}` is not a duration above zero")) }
 }

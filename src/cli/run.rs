@@ -5,10 +5,10 @@ use std::path::{Path, PathBuf};
 
 use joulepath::Design;
 use joulepath::error::{Diagnostic, Error, did_you_mean};
-use joulepath::report::{Format, budget::write_budget, outline::write_outline};
+use joulepath::report::{Format, budget::write_budget, outline::write_outline, runtime::write_runtime};
 use joulepath::solve::budget;
 
-use super::args::{Args, Command, FormatArg};
+use super::args::{Args, Command, FormatArg, RunArgs};
 use super::render::render_diagnostics;
 
 /// Why a command did not succeed.
@@ -102,6 +102,19 @@ fn emit(bytes: &[u8], out: Option<&Path>) -> Result<(), Failure> {
     }
 }
 
+fn run_options(d: &Design, a: &RunArgs, trace: bool) -> joulepath::solve::RunOptions {
+    let mut o = joulepath::solve::RunOptions::for_design(d);
+    if let Some(t) = a.ambient {
+        o.ambient_c = t;
+    }
+    if let Some(h) = a.horizon {
+        o.horizon_s = h;
+    }
+    o.exact = a.exact;
+    o.trace = trace;
+    o
+}
+
 /// Run the command line.
 pub fn run(args: &Args) -> Result<(), Failure> {
     let mut buf: Vec<u8> = Vec::new();
@@ -139,6 +152,13 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             let soc = soc.unwrap_or(d.pack.start_soc);
             let result = budget(&d, soc, &modes);
             write_budget(&mut buf, &d, soc, &result, format(*f)).map_err(io_fail)?;
+            emit(&buf, output.as_deref())
+        }
+        Command::Runtime { file, run: ra, trace, format: f, output } => {
+            let d = load(file)?;
+            let opt = run_options(&d, ra, *trace);
+            let result = joulepath::solve::run(&d, &opt);
+            write_runtime(&mut buf, &d, &result, format(*f), *trace).map_err(io_fail)?;
             emit(&buf, output.as_deref())
         }
         Command::Schema { output } => emit(

@@ -4,7 +4,7 @@
 use serde::Serialize;
 
 use crate::model::Design;
-use crate::solve::{ModeBudget, Solution, Violation, junction_c};
+use crate::solve::{ModeBudget, RunResult, Solution, Violation, junction_c};
 
 /// `budget --format json`.
 #[derive(Debug, Serialize)]
@@ -187,5 +187,160 @@ fn mode_json(d: &Design, m: &ModeBudget) -> ModeJson {
                 .collect(),
             violations,
         },
+    }
+}
+
+/// `runtime --format json` (and each entry of `compare`).
+#[derive(Debug, Serialize)]
+pub struct RuntimeJson {
+    /// Design title.
+    pub design: String,
+    /// Runtime, s.
+    pub runtime_s: f64,
+    /// Stored energy over the loads' mean power, s (null when the loads took nothing).
+    pub ideal_runtime_s: Option<f64>,
+    /// Why and when the product stopped.
+    pub end: EndJson,
+    /// Pack totals.
+    pub battery: RunBatteryJson,
+    /// Stage totals.
+    pub stages: Vec<RunStageJson>,
+    /// Load totals.
+    pub loads: Vec<RunLoadJson>,
+    /// Violations with the time they first happened.
+    pub violations: Vec<ViolationJson>,
+    /// Decimated trace, with `--trace`.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub trace: Option<Vec<TraceJson>>,
+}
+
+/// The end of a run.
+#[derive(Debug, Serialize)]
+pub struct EndJson {
+    /// collapse, cutoff, undervoltage, rail, empty or horizon.
+    pub reason: String,
+    /// State of charge then.
+    pub soc: f64,
+    /// Mode then.
+    pub mode: Option<String>,
+    /// `battery`, a stage id or a load id.
+    pub subject: String,
+}
+
+/// Pack totals of a run.
+#[derive(Debug, Serialize)]
+pub struct RunBatteryJson {
+    /// Integral of the pack current.
+    pub charge_ah: f64,
+    /// Energy delivered at the terminals.
+    pub energy_wh: f64,
+    /// Mean current.
+    pub average_current_a: f64,
+    /// Mean terminal power.
+    pub average_power_w: f64,
+    /// Internal loss.
+    pub loss_wh: f64,
+}
+
+/// Stage totals of a run.
+#[derive(Debug, Serialize)]
+pub struct RunStageJson {
+    /// Id.
+    pub id: String,
+    /// Energy lost.
+    pub loss_wh: f64,
+    /// Mean loss over the run.
+    pub average_loss_w: f64,
+    /// Highest loss in any phase.
+    pub peak_loss_w: f64,
+    /// That phase's mode.
+    pub peak_mode: Option<String>,
+    /// Highest junction temperature (null without theta_ja).
+    pub max_junction_c: Option<f64>,
+}
+
+/// Load totals of a run.
+#[derive(Debug, Serialize)]
+pub struct RunLoadJson {
+    /// Id.
+    pub id: String,
+    /// Energy taken.
+    pub energy_wh: f64,
+}
+
+/// One trace point.
+#[derive(Debug, Serialize)]
+pub struct TraceJson {
+    /// Time.
+    pub t_s: f64,
+    /// State of charge.
+    pub soc: f64,
+    /// Open-circuit voltage.
+    pub open_circuit_v: f64,
+    /// Terminal voltage.
+    pub voltage_v: f64,
+    /// Pack current.
+    pub current_a: f64,
+}
+
+impl RuntimeJson {
+    /// The wire form of a run.
+    pub fn new(d: &Design, r: &RunResult, with_trace: bool) -> Self {
+        let t = r.runtime_s();
+        let wh = |j: f64| j / 3600.0;
+        let mode_name = |m: Option<usize>| m.map(|m| d.modes[m].name.clone());
+        Self {
+            design: d.title.clone(),
+            runtime_s: t,
+            ideal_runtime_s: r.ideal_runtime_s(),
+            end: EndJson {
+                reason: r.end.reason.name().into(),
+                soc: r.end.soc,
+                mode: mode_name(r.end.mode),
+                subject: r.end.subject.clone(),
+            },
+            battery: RunBatteryJson {
+                charge_ah: r.ledger.charge_c / 3600.0,
+                energy_wh: wh(r.ledger.energy_j),
+                average_current_a: r.average_current_a(),
+                average_power_w: r.average_power_w(),
+                loss_wh: wh(r.ledger.pack_loss_j),
+            },
+            stages: d
+                .stages
+                .iter()
+                .enumerate()
+                .map(|(k, s)| RunStageJson {
+                    id: s.id.clone(),
+                    loss_wh: wh(r.ledger.stage_loss_j[k]),
+                    average_loss_w: if t > 0.0 { r.ledger.stage_loss_j[k] / t } else { 0.0 },
+                    peak_loss_w: r.peaks[k].loss_w,
+                    peak_mode: mode_name(r.peaks[k].mode),
+                    max_junction_c: junction_c(d, k, r.peaks[k].loss_w, r.ambient_c),
+                })
+                .collect(),
+            loads: d
+                .loads
+                .iter()
+                .enumerate()
+                .map(|(l, load)| RunLoadJson {
+                    id: load.id.clone(),
+                    energy_wh: wh(r.ledger.load_energy_j[l]),
+                })
+                .collect(),
+            violations: r.violations.iter().map(ViolationJson::from).collect(),
+            trace: with_trace.then(|| {
+                r.trace
+                    .iter()
+                    .map(|p| TraceJson {
+                        t_s: p.t_s,
+                        soc: p.soc,
+                        open_circuit_v: p.ocv,
+                        voltage_v: p.voltage,
+                        current_a: p.current,
+                    })
+                    .collect()
+            }),
+        }
     }
 }

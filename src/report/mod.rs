@@ -4,6 +4,7 @@
 pub mod budget;
 pub mod json;
 pub mod outline;
+pub mod runtime;
 pub mod text;
 
 /// Output format of a report.

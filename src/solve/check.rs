@@ -5,7 +5,7 @@ use crate::model::{Design, LossModel};
 use crate::units::{fmt_celsius, fmt_eng};
 
 /// What limit is exceeded.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
 pub enum ViolationKind {
     /// Pack current above its continuous limit.
     PackOvercurrent,
@@ -65,23 +65,33 @@ pub fn junction_c(design: &Design, k: usize, loss: f64, ambient_c: f64) -> Optio
 
 /// Every violation at operating point `p`.
 pub fn violations(design: &Design, p: &OperatingPoint, ambient_c: f64) -> Vec<Violation> {
+    violations_where(design, p, ambient_c, &|_, _| true)
+}
+
+/// The violations at operating point `p` for which `keep(kind, subject)` holds; the others are
+/// not even described (the runtime asks only for those it has not seen yet).
+pub fn violations_where(
+    design: &Design,
+    p: &OperatingPoint,
+    ambient_c: f64,
+    keep: &dyn Fn(ViolationKind, &str) -> bool,
+) -> Vec<Violation> {
     let mode = &design.modes[p.mode];
     let mut out = Vec::new();
-    let mut push = |kind, subject: &str, detail: String| {
-        out.push(Violation {
-            kind,
-            subject: subject.to_string(),
-            mode: mode.name.clone(),
-            t_s: None,
-            detail,
-        });
+    let mut push = |kind, subject: &str, detail: &dyn Fn() -> String| {
+        if keep(kind, subject) {
+            out.push(Violation {
+                kind,
+                subject: subject.to_string(),
+                mode: mode.name.clone(),
+                t_s: None,
+                detail: detail(),
+            });
+        }
     };
     if let Some(max) = design.pack.max_current_a() {
         if p.pack.current > max {
-            push(
-                ViolationKind::PackOvercurrent,
-                "battery",
-                format!(
+            push(ViolationKind::PackOvercurrent, "battery", &|| format!(
                     "the pack gives {}, above its {} continuous limit",
                     fmt_eng(p.pack.current, "A"),
                     fmt_eng(max, "A")
@@ -93,10 +103,7 @@ pub fn violations(design: &Design, p: &OperatingPoint, ambient_c: f64) -> Vec<Vi
         if sp.state.is_running() {
             if let Some(max) = st.max_output_current {
                 if sp.iout > max {
-                    push(
-                        ViolationKind::StageOvercurrent,
-                        &st.id,
-                        format!(
+                    push(ViolationKind::StageOvercurrent, &st.id, &|| format!(
                             "`{}` delivers {}, above its {} rating",
                             st.id,
                             fmt_eng(sp.iout, "A"),
@@ -109,10 +116,7 @@ pub fn violations(design: &Design, p: &OperatingPoint, ambient_c: f64) -> Vec<Vi
                 && sp.state == super::StageState::Regulating
                 && st.loss.extrapolated(sp.iout)
             {
-                push(
-                    ViolationKind::TableExtrapolated,
-                    &st.id,
-                    format!(
+                push(ViolationKind::TableExtrapolated, &st.id, &|| format!(
                         "`{}` delivers {}, beyond the highest current of its efficiency table; its last efficiency is held",
                         st.id,
                         fmt_eng(sp.iout, "A")
@@ -124,10 +128,7 @@ pub fn violations(design: &Design, p: &OperatingPoint, ambient_c: f64) -> Vec<Vi
         if input_live {
             if let Some(max) = st.input_max {
                 if sp.vin > max {
-                    push(
-                        ViolationKind::Overvoltage,
-                        &st.id,
-                        format!(
+                    push(ViolationKind::Overvoltage, &st.id, &|| format!(
                             "`{}` sees {} at its input, above its {} maximum",
                             st.id,
                             fmt_eng(sp.vin, "V"),
@@ -139,10 +140,7 @@ pub fn violations(design: &Design, p: &OperatingPoint, ambient_c: f64) -> Vec<Vi
         }
         if let Some(tj) = junction_c(design, k, sp.loss, ambient_c) {
             if tj > st.tj_max {
-                push(
-                    ViolationKind::JunctionHot,
-                    &st.id,
-                    format!(
+                push(ViolationKind::JunctionHot, &st.id, &|| format!(
                         "`{}` dissipates {}: its junction reaches {}, above its {} limit",
                         st.id,
                         fmt_eng(sp.loss, "W"),
@@ -165,10 +163,7 @@ pub fn violations(design: &Design, p: &OperatingPoint, ambient_c: f64) -> Vec<Vi
             if live {
                 if let Some(max) = load.v_max {
                     if v > max {
-                        push(
-                            ViolationKind::RailHigh,
-                            &subject,
-                            format!(
+                        push(ViolationKind::RailHigh, &subject, &|| format!(
                                 "rail `{subject}` is at {}, above the {} maximum of `{}`",
                                 fmt_eng(v, "V"),
                                 fmt_eng(max, "V"),
@@ -180,10 +175,7 @@ pub fn violations(design: &Design, p: &OperatingPoint, ambient_c: f64) -> Vec<Vi
             } else if let Some(s) = mode.load_states[l] {
                 let (name, draw) = &load.states[s];
                 if draw.is_drawing() {
-                    push(
-                        ViolationKind::OffRailDraw,
-                        &load.id,
-                        format!(
+                    push(ViolationKind::OffRailDraw, &load.id, &|| format!(
                             "`{}` is `{name}` but its rail `{subject}` is off, so it draws nothing",
                             load.id
                         ),

@@ -2,12 +2,16 @@
 
 mod budget;
 mod check;
+mod discharge;
+mod ledger;
 mod point;
 mod root;
 pub mod tolerance;
 
 pub use budget::{ModeBudget, budget};
-pub use check::{Violation, ViolationKind, junction_c, violations};
+pub use check::{Violation, ViolationKind, junction_c, violations, violations_where};
+pub use discharge::{End, EndReason, Peak, RunOptions, RunResult, YEAR_S, run};
+pub use ledger::{Ledger, TracePoint, Tracer};
 pub use point::{
     LoadPoint, OperatingPoint, PackPoint, PackState, Solution, StagePoint, StageState, solve_point,
 };

@@ -1,0 +1,144 @@
+//! What a discharge run adds up: charge, energies per load, stage and the pack, peaks, and a
+//! decimated trace that keeps each stretch's lowest terminal voltage.
+
+use super::point::OperatingPoint;
+
+/// Running totals of a discharge (SI: C, J, W).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Ledger {
+    /// Integral of the pack current, C.
+    pub charge_c: f64,
+    /// Integral of terminal power, J (what the pack delivers to the tree).
+    pub energy_j: f64,
+    /// Integral of OCV x current, J (drawn from the pack's open-circuit voltage).
+    pub ocv_energy_j: f64,
+    /// Internal loss of the pack, J.
+    pub pack_loss_j: f64,
+    /// Energy lost in each stage, J.
+    pub stage_loss_j: Vec<f64>,
+    /// Energy taken by each load, J.
+    pub load_energy_j: Vec<f64>,
+}
+
+impl Ledger {
+    /// Zero totals for a tree of `stages` stages and `loads` loads.
+    pub fn new(stages: usize, loads: usize) -> Self {
+        Self {
+            charge_c: 0.0,
+            energy_j: 0.0,
+            ocv_energy_j: 0.0,
+            pack_loss_j: 0.0,
+            stage_loss_j: vec![0.0; stages],
+            load_energy_j: vec![0.0; loads],
+        }
+    }
+
+    /// Add operating point `p` held for `dt` seconds.
+    pub fn add_point(&mut self, p: &OperatingPoint, dt: f64) {
+        self.charge_c += p.pack.current * dt;
+        self.energy_j += p.pack.power() * dt;
+        self.ocv_energy_j += p.pack.ocv * p.pack.current * dt;
+        self.pack_loss_j += p.pack.loss * dt;
+        for (acc, s) in self.stage_loss_j.iter_mut().zip(&p.stages) {
+            *acc += s.loss * dt;
+        }
+        for (acc, l) in self.load_energy_j.iter_mut().zip(&p.loads) {
+            *acc += l.power * dt;
+        }
+    }
+
+    /// `self + k x delta`.
+    pub fn add_scaled(&mut self, delta: &Ledger, k: f64) {
+        self.charge_c += k * delta.charge_c;
+        self.energy_j += k * delta.energy_j;
+        self.ocv_energy_j += k * delta.ocv_energy_j;
+        self.pack_loss_j += k * delta.pack_loss_j;
+        for (a, b) in self.stage_loss_j.iter_mut().zip(&delta.stage_loss_j) {
+            *a += k * b;
+        }
+        for (a, b) in self.load_energy_j.iter_mut().zip(&delta.load_energy_j) {
+            *a += k * b;
+        }
+    }
+
+    /// `self - earlier`.
+    pub fn since(&self, earlier: &Ledger) -> Ledger {
+        let mut d = self.clone();
+        d.add_scaled(earlier, -1.0);
+        d
+    }
+
+    /// Energy taken by all loads, J.
+    pub fn load_energy_total(&self) -> f64 {
+        self.load_energy_j.iter().sum()
+    }
+
+    /// Energy lost in all stages, J.
+    pub fn stage_loss_total(&self) -> f64 {
+        self.stage_loss_j.iter().sum()
+    }
+}
+
+/// One point of the discharge trace.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TracePoint {
+    /// Time, s.
+    pub t_s: f64,
+    /// State of charge, 0..1.
+    pub soc: f64,
+    /// Open-circuit voltage.
+    pub ocv: f64,
+    /// Terminal voltage.
+    pub voltage: f64,
+    /// Pack current.
+    pub current: f64,
+}
+
+/// Keeps a few points per stretch of state of charge: the first one seen and the one with the
+/// lowest terminal voltage, so that pulses' sags survive the decimation.
+#[derive(Debug, Clone)]
+pub struct Tracer {
+    start_soc: f64,
+    buckets: Vec<(Option<TracePoint>, Option<TracePoint>)>,
+}
+
+impl Tracer {
+    /// A tracer with `buckets` stretches between `start_soc` and empty.
+    pub fn new(start_soc: f64, buckets: usize) -> Self {
+        Self {
+            start_soc,
+            buckets: vec![(None, None); buckets.max(1)],
+        }
+    }
+
+    /// Offer a point.
+    pub fn offer(&mut self, p: TracePoint) {
+        let n = self.buckets.len();
+        let used = if self.start_soc > 0.0 {
+            ((self.start_soc - p.soc) / self.start_soc).clamp(0.0, 1.0)
+        } else {
+            0.0
+        };
+        let b = ((used * n as f64) as usize).min(n - 1);
+        let (first, low) = &mut self.buckets[b];
+        if first.is_none_or(|f| p.t_s < f.t_s) {
+            *first = Some(p);
+        }
+        if low.is_none_or(|l| p.voltage < l.voltage) {
+            *low = Some(p);
+        }
+    }
+
+    /// The kept points in time order.
+    pub fn points(&self) -> Vec<TracePoint> {
+        let mut v: Vec<TracePoint> = self
+            .buckets
+            .iter()
+            .flat_map(|(a, b)| [*a, *b])
+            .flatten()
+            .collect();
+        v.sort_by(|a, b| a.t_s.total_cmp(&b.t_s));
+        v.dedup_by(|a, b| a.t_s.total_cmp(&b.t_s).is_eq() && a.voltage.total_cmp(&b.voltage).is_eq());
+        v
+    }
+}
