@@ -65,6 +65,19 @@ pub enum Command {
         #[arg(short = 'o', long = "output")]
         output: Option<PathBuf>,
     },
+    /// The stages and the pack ranked by the energy they turn into heat over the runtime.
+    Heat {
+        /// The design file (YAML).
+        file: PathBuf,
+        #[command(flatten)]
+        run: RunArgs,
+        /// Output format.
+        #[arg(long, value_enum, default_value_t = FormatArg::Table)]
+        format: FormatArg,
+        /// Write to this file instead of standard output.
+        #[arg(short = 'o', long = "output")]
+        output: Option<PathBuf>,
+    },
     /// Print the JSON Schema of the design file.
     Schema {
         /// Write to this file instead of standard output.
@@ -100,10 +113,12 @@ pub struct RunArgs {
 }
 
 fn parse_with(s: &str, dim: joulepath::units::Dim) -> Result<f64, String> {
-    joulepath::units::parse_quantity(s, &[dim]).map(joulepath::units::Quantity::value).map_err(|e| {
-        let hint = e.hint().map(|h| format!(" ({h})")).unwrap_or_default();
-        format!("{e}{hint}")
-    })
+    joulepath::units::parse_quantity(s, &[dim])
+        .map(joulepath::units::Quantity::value)
+        .map_err(|e| {
+            let hint = e.hint().map(|h| format!(" ({h})")).unwrap_or_default();
+            format!("{e}{hint}")
+        })
 }
 
 fn parse_temperature(s: &str) -> Result<f64, String> {
@@ -112,5 +127,9 @@ fn parse_temperature(s: &str) -> Result<f64, String> {
 
 fn parse_duration(s: &str) -> Result<f64, String> {
     let v = parse_with(s, joulepath::units::Dim::Time)?;
-    if v > 0.0 { Ok(v) } else { Err(format!("`{s}` is not a duration above zero")) }
+    if v > 0.0 {
+        Ok(v)
+    } else {
+        Err(format!("`{s}` is not a duration above zero"))
+    }
 }

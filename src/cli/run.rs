@@ -5,7 +5,9 @@ use std::path::{Path, PathBuf};
 
 use joulepath::Design;
 use joulepath::error::{Diagnostic, Error, did_you_mean};
-use joulepath::report::{Format, budget::write_budget, outline::write_outline, runtime::write_runtime};
+use joulepath::report::{
+    Format, budget::write_budget, heat::write_heat, outline::write_outline, runtime::write_runtime,
+};
 use joulepath::solve::budget;
 
 use super::args::{Args, Command, FormatArg, RunArgs};
@@ -154,11 +156,28 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             write_budget(&mut buf, &d, soc, &result, format(*f)).map_err(io_fail)?;
             emit(&buf, output.as_deref())
         }
-        Command::Runtime { file, run: ra, trace, format: f, output } => {
+        Command::Runtime {
+            file,
+            run: ra,
+            trace,
+            format: f,
+            output,
+        } => {
             let d = load(file)?;
             let opt = run_options(&d, ra, *trace);
             let result = joulepath::solve::run(&d, &opt);
             write_runtime(&mut buf, &d, &result, format(*f), *trace).map_err(io_fail)?;
+            emit(&buf, output.as_deref())
+        }
+        Command::Heat {
+            file,
+            run: ra,
+            format: f,
+            output,
+        } => {
+            let d = load(file)?;
+            let result = joulepath::solve::run(&d, &run_options(&d, ra, false));
+            write_heat(&mut buf, &d, &result, format(*f)).map_err(io_fail)?;
             emit(&buf, output.as_deref())
         }
         Command::Schema { output } => emit(

@@ -313,7 +313,11 @@ impl RuntimeJson {
                 .map(|(k, s)| RunStageJson {
                     id: s.id.clone(),
                     loss_wh: wh(r.ledger.stage_loss_j[k]),
-                    average_loss_w: if t > 0.0 { r.ledger.stage_loss_j[k] / t } else { 0.0 },
+                    average_loss_w: if t > 0.0 {
+                        r.ledger.stage_loss_j[k] / t
+                    } else {
+                        0.0
+                    },
                     peak_loss_w: r.peaks[k].loss_w,
                     peak_mode: mode_name(r.peaks[k].mode),
                     max_junction_c: junction_c(d, k, r.peaks[k].loss_w, r.ambient_c),

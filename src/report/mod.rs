@@ -2,6 +2,7 @@
 //! `std::io::Write`; the library itself never prints.
 
 pub mod budget;
+pub mod heat;
 pub mod json;
 pub mod outline;
 pub mod runtime;
@@ -25,11 +26,23 @@ over-discharged, overcharged or loaded beyond their limits: respect the cell mak
 the applicable safety standards (for example IEC 62133-2 for portable lithium cells) and local \
 codes. Junction temperatures from theta_ja are estimates for a standard test board.";
 
-/// Wrap `text` at `width` columns.
+/// Wrap `text` at `width` columns, never separating a number from its unit.
 pub fn wrap(text: &str, width: usize) -> Vec<String> {
+    let mut words: Vec<String> = Vec::new();
+    for word in text.split_whitespace() {
+        let is_unit =
+            word.chars().count() <= 4 && !word.chars().any(|c| c.is_ascii_digit() || c == '`');
+        match words.last_mut() {
+            Some(prev) if is_unit && prev.ends_with(|c: char| c.is_ascii_digit()) => {
+                prev.push(' ');
+                prev.push_str(word);
+            }
+            _ => words.push(word.to_string()),
+        }
+    }
     let mut lines = Vec::new();
     let mut line = String::new();
-    for word in text.split_whitespace() {
+    for word in &words {
         if !line.is_empty() && line.chars().count() + 1 + word.chars().count() > width {
             lines.push(std::mem::take(&mut line));
         }

@@ -106,7 +106,7 @@ fn stage_text(s: &Stage) -> String {
         LossModel::Constant(e) => parts.push(format!("efficiency {}", fmt_percent(*e))),
         LossModel::Curves(c) if c.len() == 1 => parts.push("efficiency curve".into()),
         LossModel::Curves(c) => {
-            parts.push(format!("efficiency curves at {} input voltages", c.len()))
+            parts.push(format!("efficiency curves at {} input voltages", c.len()));
         }
         LossModel::Terms { drop, resistance } => parts.push(format!(
             "loss {} x I + {} x I²",
@@ -117,7 +117,7 @@ fn stage_text(s: &Stage) -> String {
     }
     match s.kind {
         StageKind::Buck | StageKind::Linear => {
-            parts.push(format!("dropout {}", fmt_eng(s.dropout, "V")))
+            parts.push(format!("dropout {}", fmt_eng(s.dropout, "V")));
         }
         StageKind::Boost => parts.push(format!("bypass drop {}", fmt_eng(s.bypass_drop, "V"))),
         _ => {}

@@ -31,7 +31,9 @@ pub fn write_runtime(
 /// The end of a run in one plain sentence.
 pub fn end_sentence(d: &Design, r: &RunResult) -> String {
     let e = &r.end;
-    let mode = e.mode.map_or_else(String::new, |m| format!(" in mode `{}`", d.modes[m].name));
+    let mode = e
+        .mode
+        .map_or_else(String::new, |m| format!(" in mode `{}`", d.modes[m].name));
     let soc = fmt_percent(e.soc);
     match e.reason {
         EndReason::Collapse => format!(
@@ -42,7 +44,11 @@ pub fn end_sentence(d: &Design, r: &RunResult) -> String {
             fmt_eng(d.pack.cutoff_v(), "V")
         ),
         EndReason::Undervoltage => {
-            let min = d.stages.iter().find(|s| s.id == e.subject).and_then(|s| s.input_min);
+            let min = d
+                .stages
+                .iter()
+                .find(|s| s.id == e.subject)
+                .and_then(|s| s.input_min);
             format!(
                 "the input of `{}` fell below its {} minimum (undervoltage lockout){mode} with {soc} charge left",
                 e.subject,
@@ -50,7 +56,11 @@ pub fn end_sentence(d: &Design, r: &RunResult) -> String {
             )
         }
         EndReason::Rail => {
-            let min = d.loads.iter().find(|l| l.id == e.subject).and_then(|l| l.v_min);
+            let min = d
+                .loads
+                .iter()
+                .find(|l| l.id == e.subject)
+                .and_then(|l| l.v_min);
             format!(
                 "the supply of `{}` fell below its {} minimum{mode} with {soc} charge left",
                 e.subject,
@@ -68,7 +78,12 @@ pub fn end_sentence(d: &Design, r: &RunResult) -> String {
 fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<()> {
     let t = r.runtime_s();
     writeln!(w, "{}", d.title)?;
-    writeln!(w, "runtime {} at {} ambient", fmt_duration(t), fmt_celsius(r.ambient_c))?;
+    writeln!(
+        w,
+        "runtime {} at {} ambient",
+        fmt_duration(t),
+        fmt_celsius(r.ambient_c)
+    )?;
     for line in wrap(&format!("it stops because {}.", end_sentence(d, r)), 96) {
         writeln!(w, "{line}")?;
     }
@@ -93,13 +108,22 @@ fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<()> {
     )?;
     if !d.loads.is_empty() {
         let total = l.load_energy_total();
-        let mut tl = TextTable::new(&[("load", Align::Left), ("energy", Align::Right), ("share", Align::Right), ("average", Align::Right)]);
+        let mut tl = TextTable::new(&[
+            ("load", Align::Left),
+            ("energy", Align::Right),
+            ("share", Align::Right),
+            ("average", Align::Right),
+        ]);
         for (k, load) in d.loads.iter().enumerate() {
             let e = l.load_energy_j[k];
             tl.row(vec![
                 load.id.clone(),
                 fmt_eng(e / 3600.0, "Wh"),
-                if total > 0.0 { fmt_percent(e / total) } else { "—".into() },
+                if total > 0.0 {
+                    fmt_percent(e / total)
+                } else {
+                    "—".into()
+                },
                 fmt_eng(if t > 0.0 { e / t } else { 0.0 }, "W"),
             ]);
         }
@@ -123,7 +147,8 @@ fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<()> {
                 fmt_eng(l.stage_loss_j[k] / 3600.0, "Wh"),
                 fmt_eng(if t > 0.0 { l.stage_loss_j[k] / t } else { 0.0 }, "W"),
                 fmt_eng(peak.loss_w, "W"),
-                peak.mode.map_or_else(|| "—".into(), |m| d.modes[m].name.clone()),
+                peak.mode
+                    .map_or_else(|| "—".into(), |m| d.modes[m].name.clone()),
                 junction_c(d, k, peak.loss_w, r.ambient_c).map_or_else(|| "—".into(), fmt_celsius),
                 fmt_celsius(s.tj_max),
             ]);
@@ -155,8 +180,17 @@ fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<()> {
 fn write_csv(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<()> {
     let t = r.runtime_s();
     let l = &r.ledger;
-    writeln!(w, "element,id,energy_wh,loss_wh,average_loss_w,peak_loss_w,peak_mode,max_junction_c")?;
-    writeln!(w, "battery,battery,{},{},{},,,", l.energy_j / 3600.0, l.pack_loss_j / 3600.0, if t > 0.0 { l.pack_loss_j / t } else { 0.0 })?;
+    writeln!(
+        w,
+        "element,id,energy_wh,loss_wh,average_loss_w,peak_loss_w,peak_mode,max_junction_c"
+    )?;
+    writeln!(
+        w,
+        "battery,battery,{},{},{},,,",
+        l.energy_j / 3600.0,
+        l.pack_loss_j / 3600.0,
+        if t > 0.0 { l.pack_loss_j / t } else { 0.0 }
+    )?;
     for (k, s) in d.stages.iter().enumerate() {
         let p = r.peaks[k];
         writeln!(
@@ -179,7 +213,11 @@ fn write_csv(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<()> {
 fn write_trace_csv(w: &mut dyn Write, r: &RunResult) -> io::Result<()> {
     writeln!(w, "t_s,soc,open_circuit_v,voltage_v,current_a")?;
     for p in &r.trace {
-        writeln!(w, "{},{},{},{},{}", p.t_s, p.soc, p.ocv, p.voltage, p.current)?;
+        writeln!(
+            w,
+            "{},{},{},{},{}",
+            p.t_s, p.soc, p.ocv, p.voltage, p.current
+        )?;
     }
     Ok(())
 }

@@ -91,63 +91,68 @@ pub fn violations_where(
     };
     if let Some(max) = design.pack.max_current_a() {
         if p.pack.current > max {
-            push(ViolationKind::PackOvercurrent, "battery", &|| format!(
+            push(ViolationKind::PackOvercurrent, "battery", &|| {
+                format!(
                     "the pack gives {}, above its {} continuous limit",
                     fmt_eng(p.pack.current, "A"),
                     fmt_eng(max, "A")
-                ),
-            );
+                )
+            });
         }
     }
     for (k, (st, sp)) in design.stages.iter().zip(&p.stages).enumerate() {
         if sp.state.is_running() {
             if let Some(max) = st.max_output_current {
                 if sp.iout > max {
-                    push(ViolationKind::StageOvercurrent, &st.id, &|| format!(
+                    push(ViolationKind::StageOvercurrent, &st.id, &|| {
+                        format!(
                             "`{}` delivers {}, above its {} rating",
                             st.id,
                             fmt_eng(sp.iout, "A"),
                             fmt_eng(max, "A")
-                        ),
-                    );
+                        )
+                    });
                 }
             }
             if matches!(st.loss, LossModel::Curves(_))
                 && sp.state == super::StageState::Regulating
                 && st.loss.extrapolated(sp.iout)
             {
-                push(ViolationKind::TableExtrapolated, &st.id, &|| format!(
+                push(ViolationKind::TableExtrapolated, &st.id, &|| {
+                    format!(
                         "`{}` delivers {}, beyond the highest current of its efficiency table; its last efficiency is held",
                         st.id,
                         fmt_eng(sp.iout, "A")
-                    ),
-                );
+                    )
+                });
             }
         }
         let input_live = st.input == 0 || p.stages[st.input - 1].state.is_running();
         if input_live {
             if let Some(max) = st.input_max {
                 if sp.vin > max {
-                    push(ViolationKind::Overvoltage, &st.id, &|| format!(
+                    push(ViolationKind::Overvoltage, &st.id, &|| {
+                        format!(
                             "`{}` sees {} at its input, above its {} maximum",
                             st.id,
                             fmt_eng(sp.vin, "V"),
                             fmt_eng(max, "V")
-                        ),
-                    );
+                        )
+                    });
                 }
             }
         }
         if let Some(tj) = junction_c(design, k, sp.loss, ambient_c) {
             if tj > st.tj_max {
-                push(ViolationKind::JunctionHot, &st.id, &|| format!(
+                push(ViolationKind::JunctionHot, &st.id, &|| {
+                    format!(
                         "`{}` dissipates {}: its junction reaches {}, above its {} limit",
                         st.id,
                         fmt_eng(sp.loss, "W"),
                         fmt_celsius(tj),
                         fmt_celsius(st.tj_max)
-                    ),
-                );
+                    )
+                });
             }
         }
     }
@@ -163,23 +168,25 @@ pub fn violations_where(
             if live {
                 if let Some(max) = load.v_max {
                     if v > max {
-                        push(ViolationKind::RailHigh, &subject, &|| format!(
+                        push(ViolationKind::RailHigh, &subject, &|| {
+                            format!(
                                 "rail `{subject}` is at {}, above the {} maximum of `{}`",
                                 fmt_eng(v, "V"),
                                 fmt_eng(max, "V"),
                                 load.id
-                            ),
-                        );
+                            )
+                        });
                     }
                 }
             } else if let Some(s) = mode.load_states[l] {
                 let (name, draw) = &load.states[s];
                 if draw.is_drawing() {
-                    push(ViolationKind::OffRailDraw, &load.id, &|| format!(
+                    push(ViolationKind::OffRailDraw, &load.id, &|| {
+                        format!(
                             "`{}` is `{name}` but its rail `{subject}` is off, so it draws nothing",
                             load.id
-                        ),
-                    );
+                        )
+                    });
                 }
             }
         }

@@ -8,11 +8,12 @@
 //! the first failing instant inside the step is found by bisection.
 //!
 //! Two solvers share this machinery. The chronological reference (`exact`) executes every pass of
-//! every repeat block. The fast solver, once a block's passes have become periodic (polarization
-//! back to the same value at each pass start), skips many passes at once at the rates of a pass
-//! simulated at the middle of the skipped stretch (quasi-static averaging over SoC), then
-//! executes the next pass exactly; if that pass stops the product, the first stopping pass is
-//! found by bisection on the number of skipped passes and executed exactly.
+//! every repeat block. The fast solver, after one exact pass of a block, skips many passes at once
+//! at the rates of a pass simulated at the middle of the skipped stretch (quasi-static averaging
+//! over SoC), with the polarization relaxed toward its periodic value (one pass maps V_p to
+//! a V_p + b with a = e^(-T/tau), so the periodic value is b / (1 - a)); it then executes the next
+//! pass exactly. If that pass stops the product, the first stopping pass is found by bisection on
+//! the number of skipped passes and executed exactly.
 
 use std::collections::HashSet;
 
@@ -143,12 +144,20 @@ impl RunResult {
 
     /// Mean pack current.
     pub fn average_current_a(&self) -> f64 {
-        if self.end.t_s > 0.0 { self.ledger.charge_c / self.end.t_s } else { 0.0 }
+        if self.end.t_s > 0.0 {
+            self.ledger.charge_c / self.end.t_s
+        } else {
+            0.0
+        }
     }
 
     /// Mean pack terminal power.
     pub fn average_power_w(&self) -> f64 {
-        if self.end.t_s > 0.0 { self.ledger.energy_j / self.end.t_s } else { 0.0 }
+        if self.end.t_s > 0.0 {
+            self.ledger.energy_j / self.end.t_s
+        } else {
+            0.0
+        }
     }
 }
 
@@ -242,7 +251,11 @@ impl<'a> Ctx<'a> {
             pol: d.pack.polarization(opt.ambient_c),
             i_self: d.pack.self_discharge_a(),
             cutoff: d.pack.cutoff_v(),
-            max_ds: if opt.exact { STEP_MAX_DS_EXACT } else { STEP_MAX_DS_FAST },
+            max_ds: if opt.exact {
+                STEP_MAX_DS_EXACT
+            } else {
+                STEP_MAX_DS_FAST
+            },
             draws_below,
         }
     }
@@ -267,7 +280,10 @@ struct Sim<'a> {
 #[derive(Clone)]
 struct Delta {
     ds: f64,
-    periodic: bool,
+    /// Polarization decay over one pass, e^(-T / tau), and its periodic value: with the same
+    /// currents every pass, V_p(end) = a V_p(start) + b, so V* = b / (1 - a).
+    decay: f64,
+    vp_star: f64,
     ledger: Ledger,
 }
 
@@ -278,11 +294,17 @@ struct Mark {
 }
 
 impl Delta {
-    fn between(before: &Mark, after: &Sim) -> Self {
-        let dvp = (after.vp - before.vp).abs();
+    fn between(before: &Mark, after: &Sim, pass: f64) -> Self {
+        let decay = after.c.pol.map_or(0.0, |(_, tau)| (-pass / tau).exp());
+        let b = after.vp - decay * before.vp;
         Self {
             ds: before.s - after.s,
-            periodic: dvp <= 1e-6 + 1e-3 * before.vp.abs(),
+            decay,
+            vp_star: if decay < 1.0 {
+                b / (1.0 - decay)
+            } else {
+                after.vp
+            },
             ledger: after.ledger.since(&before.ledger),
         }
     }
@@ -297,10 +319,19 @@ impl<'a> Sim<'a> {
             s: d.pack.start_soc,
             vp: 0.0,
             ledger: Ledger::new(d.stages.len(), d.loads.len()),
-            peaks: vec![Peak { loss_w: 0.0, mode: None }; d.stages.len()],
+            peaks: vec![
+                Peak {
+                    loss_w: 0.0,
+                    mode: None
+                };
+                d.stages.len()
+            ],
             violations: Vec::new(),
             seen: HashSet::new(),
-            tracer: c.opt.trace.then(|| Tracer::new(d.pack.start_soc, TRACE_BUCKETS)),
+            tracer: c
+                .opt
+                .trace
+                .then(|| Tracer::new(d.pack.start_soc, TRACE_BUCKETS)),
             end: None,
         }
     }
@@ -419,7 +450,10 @@ impl<'a> Sim<'a> {
     fn observe(&mut self, p: &OperatingPoint) {
         for (peak, sp) in self.peaks.iter_mut().zip(&p.stages) {
             if sp.loss > peak.loss_w {
-                *peak = Peak { loss_w: sp.loss, mode: Some(p.mode) };
+                *peak = Peak {
+                    loss_w: sp.loss,
+                    mode: Some(p.mode),
+                };
             }
         }
         let seen = &self.seen;
@@ -440,7 +474,9 @@ impl<'a> Sim<'a> {
         let mut left = dur;
         let mut next: Option<Solution> = None;
         while left > 1e-12 * dur {
-            let sol = next.take().unwrap_or_else(|| self.solve(mode, self.s, self.vp));
+            let sol = next
+                .take()
+                .unwrap_or_else(|| self.solve(mode, self.s, self.vp));
             if let Some((reason, subject)) = self.verdict(&sol, self.s) {
                 if let Solution::Point(p) = &sol {
                     self.observe(p);
@@ -543,6 +579,9 @@ impl<'a> Sim<'a> {
         self.t += kf * pass;
         self.s -= kf * delta.ds;
         self.ledger.add_scaled(&delta.ledger, kf);
+        // Polarization relaxes toward its periodic value over the skipped passes.
+        let decay = delta.decay.powf(kf);
+        self.vp = delta.vp_star + (self.vp - delta.vp_star) * decay;
     }
 
     /// How many passes the fast solver may skip after a pass that changed things by `delta`.
@@ -559,7 +598,11 @@ impl<'a> Sim<'a> {
             f64::INFINITY
         };
         k = k.min(to_horizon).min(remaining.saturating_sub(1) as f64);
-        if k.is_finite() && k > 0.0 { k as u64 } else { 0 }
+        if k.is_finite() && k > 0.0 {
+            k as u64
+        } else {
+            0
+        }
     }
 
     /// Execute `n` passes of `steps` (each `pass` seconds); true if the product stopped.
@@ -567,7 +610,7 @@ impl<'a> Sim<'a> {
         let mut done = 0u64;
         let mut last: Option<Delta> = None;
         while done < n {
-            if let Some(delta) = last.as_ref().filter(|d| d.periodic) {
+            if let Some(delta) = last.as_ref() {
                 let k = self.plan_skip(delta, n - done, pass);
                 let allowed = !self.c.opt.exact || delta.ds == 0.0;
                 if allowed && k >= SKIP_MIN_PASSES {
@@ -585,7 +628,7 @@ impl<'a> Sim<'a> {
             if self.steps(steps, pass) {
                 return true;
             }
-            last = Some(Delta::between(&before, self));
+            last = Some(Delta::between(&before, self, pass));
             done += 1;
         }
         false
@@ -603,26 +646,33 @@ impl<'a> Sim<'a> {
         if mid.steps(steps, pass) {
             return self.finish_within(&base, steps, pass, delta, h);
         }
-        let rates = Delta::between(&mm, &mid);
-        if !(rates.ds > 0.0) && delta.ds > 0.0 {
+        let rates = Delta::between(&mm, &mid, pass);
+        if rates.ds.is_nan() || (rates.ds <= 0.0 && delta.ds > 0.0) {
             // A pass in the middle that gains charge cannot be extrapolated: go pass by pass.
             let before = self.mark();
             if self.steps(steps, pass) {
                 return None;
             }
-            return Some((1, Delta::between(&before, self)));
+            return Some((1, Delta::between(&before, self, pass)));
         }
         self.advance(k, pass, &rates);
         let before = self.mark();
         if self.steps(steps, pass) {
             return self.finish_within(&base, steps, pass, &rates, k);
         }
-        Some((k + 1, Delta::between(&before, self)))
+        Some((k + 1, Delta::between(&before, self, pass)))
     }
 
     /// The product stopped during the pass after `kmax` skipped passes from `base`: find the
     /// first pass that stops it and execute it exactly.
-    fn finish_within(&mut self, base: &Sim<'a>, steps: &[Step], pass: f64, delta: &Delta, kmax: u64) -> Option<(u64, Delta)> {
+    fn finish_within(
+        &mut self,
+        base: &Sim<'a>,
+        steps: &[Step],
+        pass: f64,
+        delta: &Delta,
+        kmax: u64,
+    ) -> Option<(u64, Delta)> {
         let stops = |j: u64| {
             let mut probe = base.clone();
             probe.advance(j, pass, delta);
@@ -643,6 +693,6 @@ impl<'a> Sim<'a> {
         if self.steps(steps, pass) {
             return None;
         }
-        Some((lo + 1, Delta::between(&before, self)))
+        Some((lo + 1, Delta::between(&before, self, pass)))
     }
 }

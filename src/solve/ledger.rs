@@ -62,6 +62,7 @@ impl Ledger {
     }
 
     /// `self - earlier`.
+    #[must_use]
     pub fn since(&self, earlier: &Ledger) -> Ledger {
         let mut d = self.clone();
         d.add_scaled(earlier, -1.0);
@@ -138,7 +139,9 @@ impl Tracer {
             .flatten()
             .collect();
         v.sort_by(|a, b| a.t_s.total_cmp(&b.t_s));
-        v.dedup_by(|a, b| a.t_s.total_cmp(&b.t_s).is_eq() && a.voltage.total_cmp(&b.voltage).is_eq());
+        v.dedup_by(|a, b| {
+            a.t_s.total_cmp(&b.t_s).is_eq() && a.voltage.total_cmp(&b.voltage).is_eq()
+        });
         v
     }
 }

@@ -92,11 +92,11 @@ impl Reader<'_> {
     }
 
     /// Deserialize one part, turning a serde error into a diagnostic at `path`.
-    fn part<T: DeserializeOwned>(&mut self, path: &str, v: Value) -> Option<T> {
-        match T::deserialize(&v) {
+    fn part<T: DeserializeOwned>(&mut self, path: &str, v: &Value) -> Option<T> {
+        match T::deserialize(v) {
             Ok(t) => Some(t),
             Err(e) => {
-                self.serde_error(path, &e.to_string(), &v);
+                self.serde_error(path, &e.to_string(), v);
                 None
             }
         }
@@ -199,15 +199,15 @@ impl Reader<'_> {
         }
         let design = match sections.shift_remove("design") {
             None | Some(Value::Null) => None,
-            Some(v) => self.part::<String>("design", v),
+            Some(v) => self.part::<String>("design", &v),
         };
         let ambient = match sections.shift_remove("ambient") {
             None | Some(Value::Null) => None,
-            Some(v) => self.part::<Qty>("ambient", v),
+            Some(v) => self.part::<Qty>("ambient", &v),
         };
         let cells = self.map_section::<CellSpec>(&mut sections, "cells");
         let battery = match sections.shift_remove("battery") {
-            Some(v) => self.part::<BatterySpec>("battery", v),
+            Some(v) => self.part::<BatterySpec>("battery", &v),
             None => {
                 self.push(
                     "",
@@ -243,7 +243,7 @@ impl Reader<'_> {
             Some(Value::Sequence(items)) => items
                 .into_iter()
                 .enumerate()
-                .filter_map(|(i, v)| self.part::<T>(&format!("{name}[{i}]"), v))
+                .filter_map(|(i, v)| self.part::<T>(&format!("{name}[{i}]"), &v))
                 .collect(),
             Some(other) => {
                 self.push(
@@ -280,7 +280,7 @@ impl Reader<'_> {
                         );
                         continue;
                     };
-                    if let Some(t) = self.part::<T>(&format!("{name}.{key}"), v) {
+                    if let Some(t) = self.part::<T>(&format!("{name}.{key}"), &v) {
                         out.insert(key, t);
                     }
                 }
