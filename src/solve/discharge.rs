@@ -353,6 +353,12 @@ impl<'a> Sim<'a> {
         solve_point(self.c.d, mode, at)
     }
 
+    /// Rate of fall of the SoC, per second, at pack current `i` (Peukert-effective current plus
+    /// self-discharge, over the usable charge).
+    fn rate(&self, i: f64) -> f64 {
+        (self.c.d.pack.peukert_current(i) + self.c.i_self) / self.c.q
+    }
+
     /// State after holding current `i` (at SoC rate `rate` per second) for `dt`.
     fn evolve(&self, i: f64, rate: f64, dt: f64) -> (f64, f64) {
         let s = self.s - rate * dt;
@@ -380,16 +386,20 @@ impl<'a> Sim<'a> {
         (s, vp)
     }
 
-    /// Add a step of `dt` to the totals, at the operating point of its mean state (`start` if
-    /// that point does not solve).
-    fn book(&mut self, mode: usize, start: &OperatingPoint, rate: f64, dt: f64) {
-        if dt <= 0.0 {
-            return;
-        }
+    /// The operating point at the mean state of a step of `dt` starting at `start` (`start`
+    /// itself if that point does not solve): the step's current and its totals come from it, which
+    /// makes the stepping second-order (midpoint) accurate.
+    fn mean_point(
+        &self,
+        mode: usize,
+        start: &OperatingPoint,
+        rate: f64,
+        dt: f64,
+    ) -> OperatingPoint {
         let (sm, vm) = self.mean_state(start.pack.current, rate, dt);
         match self.solve(mode, sm, vm) {
-            Solution::Point(p) => self.ledger.add_point(&p, dt),
-            Solution::Collapse { .. } => self.ledger.add_point(start, dt),
+            Solution::Point(p) => p,
+            Solution::Collapse { .. } => start.clone(),
         }
     }
 
@@ -486,12 +496,14 @@ impl<'a> Sim<'a> {
             }
             let Solution::Point(p) = sol else { return true };
             self.observe(&p);
-            let i = p.pack.current;
-            let rate = (self.c.d.pack.peukert_current(i) + self.c.i_self) / self.c.q;
+            let rate0 = self.rate(p.pack.current);
             let mut dt = left.min(self.c.opt.horizon_s - self.t);
-            if rate > 0.0 {
-                dt = dt.min(self.c.max_ds / rate);
+            if rate0 > 0.0 {
+                dt = dt.min(self.c.max_ds / rate0);
             }
+            let pm = self.mean_point(mode, &p, rate0, dt);
+            let i = pm.pack.current;
+            let rate = self.rate(i);
             let (s1, vp1) = self.evolve(i, rate, dt);
             let end_sol = self.solve(mode, s1, vp1);
             if self.verdict(&end_sol, s1).is_some() {
@@ -508,7 +520,7 @@ impl<'a> Sim<'a> {
                         lo = mid;
                     }
                 }
-                self.book(mode, &p, rate, hi);
+                self.ledger.add_point(&pm, hi);
                 let (sh, vh) = self.evolve(i, rate, hi);
                 self.t += hi;
                 self.s = sh;
@@ -523,7 +535,7 @@ impl<'a> Sim<'a> {
                 self.stop(reason, Some(mode), subject);
                 return true;
             }
-            self.book(mode, &p, rate, dt);
+            self.ledger.add_point(&pm, dt);
             self.t += dt;
             self.s = s1;
             self.vp = vp1;
