@@ -573,7 +573,12 @@ fn exercise(text: &str) {
 fn errors_are_well_formed(text: &str) -> Result<(), TestCaseError> {
     if let Err(e) = Design::from_text(text) {
         prop_assert!(!e.diagnostics().is_empty(), "an error without diagnostics");
-        let lines = text.lines().count().max(1);
+        // YAML counts `\r\n`, `\r` and `\n` each as one line break.
+        let lines = 1 + text
+            .replace("\r\n", "\n")
+            .chars()
+            .filter(|c| matches!(c, '\n' | '\r'))
+            .count();
         for d in e.diagnostics() {
             prop_assert!(!d.message().is_empty());
             if let Some(l) = d.location() {

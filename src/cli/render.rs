@@ -11,7 +11,9 @@ pub fn render_diagnostics(
     text: &str,
     ds: &[Diagnostic],
 ) -> io::Result<()> {
-    let lines: Vec<&str> = text.lines().collect();
+    // Line breaks as YAML counts them: `\r\n`, `\r` or `\n`.
+    let normalized = text.replace("\r\n", "\n").replace('\r', "\n");
+    let lines: Vec<&str> = normalized.split('\n').collect();
     for d in ds {
         let place = match d.location() {
             Some(l) => format!("{file}:{}:{}", l.line, l.col),

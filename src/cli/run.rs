@@ -142,7 +142,11 @@ pub fn run(args: &Args) -> Result<(), Failure> {
                     None => {
                         let names: Vec<&str> = d.modes.iter().map(|m| m.name.as_str()).collect();
                         let hint = did_you_mean(name, names.iter().copied()).map_or_else(
-                            || format!("the modes are {}", names.join(", ")),
+                            || {
+                                let quoted: Vec<String> =
+                                    names.iter().map(|n| format!("`{n}`")).collect();
+                                format!("the modes are {}", quoted.join(", "))
+                            },
                             |s| format!("did you mean `{s}`?"),
                         );
                         return Err(Failure::Usage(format!(

@@ -15,7 +15,7 @@ use crate::spec::{
     StageKindSpec, StageSpec, StepSpec, backticked,
 };
 use crate::tree::{MAX_DEPTH, Tree, TreeError};
-use crate::units::{Dim, Quantity, parse_quantity};
+use crate::units::{Dim, Quantity, fmt_eng, fmt_percent, parse_quantity};
 
 /// Deepest nesting of `repeat` blocks.
 const MAX_REPEAT_NESTING: usize = 16;
@@ -231,12 +231,22 @@ impl Lower<'_> {
             );
             return None;
         }
+        let repeated = pts.iter().enumerate().find_map(|(i, a)| {
+            pts[..i]
+                .iter()
+                .position(|b| b.0 == a.0)
+                .map(|j| (j, i, a.0))
+        });
         match Table::new(pts) {
             Ok(t) => Some(t),
             Err(TableError::Repeated(_)) => {
+                let (j, i, soc) = repeated.unwrap_or((0, 0, 0.0));
                 self.err(
-                    path,
-                    "the table gives the same state of charge twice",
+                    &format!("{path}[{i}]"),
+                    format!(
+                        "rows {j} and {i} of the table both give the state of charge {}",
+                        fmt_percent(soc)
+                    ),
                     Some("keep one row per SoC".into()),
                 );
                 None
@@ -343,8 +353,9 @@ impl Lower<'_> {
                 self.err(
                     &format!("{path}.cutoff"),
                     format!(
-                        "the cutoff {cut} V is not below the full-charge OCV {} V",
-                        t.at(1.0)
+                        "the cutoff {} is not below the full-charge OCV {}",
+                        fmt_eng(cut, "V"),
+                        fmt_eng(t.at(1.0), "V")
                     ),
                     Some("the cutoff is the end-of-discharge voltage under load".into()),
                 );
@@ -516,7 +527,11 @@ impl Lower<'_> {
         if lo >= hi {
             self.err(
                 path,
-                format!("the minimum {lo} V is not below the maximum {hi} V"),
+                format!(
+                    "the minimum {} is not below the maximum {}",
+                    fmt_eng(lo, "V"),
+                    fmt_eng(hi, "V")
+                ),
                 Some("write `[min, max]`".into()),
             );
             return None;
