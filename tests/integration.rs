@@ -7,4 +7,5 @@ mod errors;
 mod examples;
 mod properties;
 mod reference;
+mod runtime;
 mod schema;

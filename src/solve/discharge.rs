@@ -21,8 +21,8 @@ use super::check::{Violation, ViolationKind, violations_where};
 use super::ledger::{Ledger, TracePoint, Tracer};
 use super::point::{OperatingPoint, PackState, Solution, StageState, solve_point};
 use super::tolerance::{
-    END_BISECT_ITER, SKIP_MAX_DS, SKIP_MIN_PASSES, STEP_MAX_DS_EXACT, STEP_MAX_DS_FAST,
-    TRACE_BUCKETS,
+    END_BISECT_ITER, SKIP_MAX_DS, SKIP_MAX_DS_TRACE, SKIP_MIN_PASSES, STEP_MAX_DS_EXACT,
+    STEP_MAX_DS_FAST, TRACE_BUCKETS,
 };
 use crate::model::{Design, Step};
 
@@ -600,7 +600,13 @@ impl<'a> Sim<'a> {
     fn plan_skip(&self, delta: &Delta, remaining: u64, pass: f64) -> u64 {
         let to_horizon = ((self.c.opt.horizon_s - self.t) / pass).floor() - 1.0;
         let mut k = if delta.ds > 0.0 {
-            let by_ds = (SKIP_MAX_DS / delta.ds).floor();
+            // A trace wants points all along the discharge: smaller skips.
+            let max_ds = if self.tracer.is_some() {
+                SKIP_MAX_DS_TRACE
+            } else {
+                SKIP_MAX_DS
+            };
+            let by_ds = (max_ds / delta.ds).floor();
             let by_empty = (self.s / delta.ds).floor() - 2.0;
             by_ds.min(by_empty)
         } else if self.c.opt.exact || delta.ds < 0.0 {

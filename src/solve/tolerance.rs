@@ -22,6 +22,8 @@ pub const STEP_MAX_DS_FAST: f64 = 0.005;
 pub const STEP_MAX_DS_EXACT: f64 = 0.0005;
 /// Largest fall in state of charge the fast solver skips at once (at mid-stretch rates).
 pub const SKIP_MAX_DS: f64 = 0.01;
+/// The same when a trace is kept (about 500 stretches over a full discharge).
+pub const SKIP_MAX_DS_TRACE: f64 = 0.002;
 /// Fewest passes worth skipping.
 pub const SKIP_MIN_PASSES: u64 = 3;
 /// Bisection steps locating the end inside a step (2^-60 of the step).

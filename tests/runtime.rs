@@ -1,0 +1,327 @@
+//! Runtime across the discharge against hand computations and published examples (source named
+//! beside each), the fast solver against the chronological reference, and the run's energy
+//! balance.
+
+use joulepath::Design;
+use joulepath::solve::{EndReason, RunOptions, RunResult, run};
+
+use crate::util::{Test, close, example_files};
+
+fn design(text: &str) -> Design {
+    Design::from_text(text).unwrap_or_else(|e| panic!("{e}\n{text}"))
+}
+
+fn fast(d: &Design) -> RunResult {
+    run(d, &RunOptions::for_design(d))
+}
+
+fn exact(d: &Design) -> RunResult {
+    let mut o = RunOptions::for_design(d);
+    o.exact = true;
+    run(d, &o)
+}
+
+/// Energy drawn from the open-circuit voltage = load energy + stage losses + pack loss.
+fn assert_energy_balance(r: &RunResult, what: &str) {
+    let l = &r.ledger;
+    let out = l.load_energy_total() + l.stage_loss_total() + l.pack_loss_j;
+    assert!(
+        (l.ocv_energy_j - out).abs() <= 1e-6 * l.ocv_energy_j.abs().max(1e-300),
+        "{what}: drawn {} J vs used {out} J",
+        l.ocv_energy_j
+    );
+}
+
+fn one_load(cell: &str, draw: &str, profile: &str) -> String {
+    format!(
+        "cells:\n  c:\n{cell}\nbattery: {{ cell: c }}\nloads: [{{ id: l, rail: battery, draw: {{ on: {draw}, idle: 5 µA }} }}]\nmodes: {{ on: {{ l: on }}, idle: {{ l: idle }} }}\nprofile: {profile}\n"
+    )
+}
+
+#[test]
+fn constant_current_runtime_is_charge_over_current() {
+    // Coulomb counting (REFERENCES C26; common practice): with a constant current on any OCV
+    // curve the pack empties after Q / I: 1000 mAh / 200 mA = 18 000 s.
+    let cell = "    capacity: 1000 mAh\n    ocv: [[0 %, 3.0 V], [10 %, 3.4 V], [50 %, 3.7 V], [90 %, 4.0 V], [100 %, 4.2 V]]\n    resistance: 50 mΩ\n    cutoff: 2.5 V";
+    let d = design(&one_load(cell, "200 mA", "[{ mode: on, for: 1 h }]"));
+    for r in [fast(&d), exact(&d)] {
+        assert_eq!(r.end.reason, EndReason::Empty);
+        assert!(close(r.runtime_s(), 18_000.0, 1e-9), "{}", r.runtime_s());
+        assert!(close(r.ledger.charge_c, 3600.0, 1e-9));
+        assert_energy_balance(&r, "constant current");
+    }
+}
+
+#[test]
+fn duty_cycle_average_current_published_arithmetic() {
+    // REFERENCES C37 (common practice, no source: it is arithmetic): 20 mA for 10 ms in every
+    // 1 s and 5 µA otherwise average 204.95 µA; 225 mAh lasts 1098 h (45.74 d).
+    let cell = "    capacity: 225 mAh\n    ocv: [[0 %, 2.9 V], [100 %, 3.0 V]]\n    resistance: 0 ohm\n    cutoff: 2.0 V";
+    let d = design(&one_load(
+        cell,
+        "20 mA",
+        "[{ mode: on, for: 10 ms }, { mode: idle, for: 990 ms }]",
+    ));
+    let r = fast(&d);
+    let i_avg = (0.020 * 0.010 + 5e-6 * 0.990) / 1.0;
+    assert!(close(i_avg, 204.95e-6, 1e-12));
+    assert_eq!(r.end.reason, EndReason::Empty);
+    assert!(
+        close(r.runtime_s(), 810.0 / i_avg, 1e-6),
+        "{}",
+        r.runtime_s()
+    );
+    assert!((r.runtime_s() / 3600.0 - 1098.0).abs() < 0.5);
+    assert!(close(r.average_current_a(), i_avg, 1e-6));
+}
+
+#[test]
+fn constant_power_on_a_linear_ocv() {
+    // Integrating dt = Q OCV(s) ds / P over the used SoC: runtime = Q x mean OCV / P
+    // = 3600 C x 3.6 V / 0.5 W = 25 920 s (from 100 % to empty, no resistance).
+    let cell = "    capacity: 1 Ah\n    ocv: [[0 %, 3.0 V], [100 %, 4.2 V]]\n    resistance: 0 ohm\n    cutoff: 2.9 V";
+    let d = design(&one_load(cell, "0.5 W", "[{ mode: on, for: 1 h }]"));
+    let (f, e) = (fast(&d), exact(&d));
+    assert_eq!(f.end.reason, EndReason::Empty);
+    assert!(close(f.runtime_s(), 25_920.0, 1e-5), "{}", f.runtime_s());
+    assert!(close(e.runtime_s(), 25_920.0, 1e-6), "{}", e.runtime_s());
+    assert_energy_balance(&f, "constant power");
+    // All the stored energy reaches the load: runtime / ideal = 1.
+    assert!(close(f.ideal_runtime_s().unwrap(), f.runtime_s(), 1e-5));
+}
+
+fn peukert_runtime_h(capacity_ah: f64, rated_a: f64, k: f64, load_a: f64) -> f64 {
+    let text = format!(
+        "cells:\n  c: {{ capacity: {capacity_ah} Ah, rated_current: {rated_a} A, peukert: {k}, ocv: [[0 %, 12 V], [100 %, 12 V]], resistance: 0 ohm, cutoff: 10 V }}\nbattery: {{ cell: c }}\nloads: [{{ id: l, rail: battery, draw: {{ on: {load_a} A }} }}]\nmodes: {{ on: {{ l: on }} }}\nprofile: [{{ mode: on, for: 1 h }}]\n"
+    );
+    let r = fast(&design(&text));
+    assert_eq!(r.end.reason, EndReason::Empty);
+    r.runtime_s() / 3600.0
+}
+
+#[test]
+fn peukert_published_examples() {
+    // electrotechnik.net, "Peukert's Law and discharge of lead acid batteries" (2010), REFERENCES
+    // C13: Cp = 100 Ah at 1 A, k = 1.2, 5 A -> 14.5 h (t = Cp / I^k = 14.4956 h). The
+    // conservative form rated at 1 A is the same law.
+    let t = peukert_runtime_h(100.0, 1.0, 1.2, 5.0);
+    assert!((t - 14.5).abs() < 0.05, "{t}");
+    assert!(close(t, 100.0 / 5f64.powf(1.2), 1e-9));
+    // easycalculation.com, "How to Calculate Battery Capacity, Discharge Time using Peukert's
+    // Law", REFERENCES C14: C = 250 Ah, I = 20 A, n = 1.3 -> T = 5.088631644 h.
+    let t = peukert_runtime_h(250.0, 1.0, 1.3, 20.0);
+    assert!((t - 5.088_631_644).abs() < 1e-6, "{t}");
+    // Rated-time form (Peukert 1897; REFERENCES C12, from memory): C = 100 Ah at H = 20 h
+    // (5 A), k = 1.2, 10 A -> t = H (C / (I H))^k = 8.706 h.
+    let t = peukert_runtime_h(100.0, 5.0, 1.2, 10.0);
+    assert!((t - 8.706).abs() < 5e-4, "{t}");
+}
+
+#[test]
+fn peukert_gives_no_bonus_below_the_rated_current() {
+    // DESIGN section 5: I_eff = I max(1, I / I_rated)^(k - 1): below the rating the pack lasts
+    // exactly Q / I (100 Ah at 2.5 A: 40 h), never longer.
+    let t = peukert_runtime_h(100.0, 5.0, 1.2, 2.5);
+    assert!(close(t, 40.0, 1e-9), "{t}");
+}
+
+fn cold_design(ambient: &str) -> Design {
+    design(&format!(
+        "ambient: {ambient}\ncells:\n  c:\n    capacity: 2 Ah\n    ocv: [[0 %, 1.0 V], [100 %, 1.4 V]]\n    resistance: 30 mΩ\n    cutoff: 0.8 V\n    temperature:\n      - {{ at: 25 °C, capacity: 100 %, resistance: 100 % }}\n      - {{ at: -20 °C, capacity: 60 %, resistance: 300 % }}\nbattery: {{ cell: c }}\nloads: [{{ id: l, rail: battery, draw: {{ on: 100 mA }} }}]\nmodes: {{ on: {{ l: on }} }}\nprofile: [{{ mode: on, for: 1 h }}]\n"
+    ))
+}
+
+#[test]
+fn temperature_derates_capacity() {
+    // DESIGN section 4: factors linear in temperature between rows, held beyond them. At 2.5 °C,
+    // halfway from -20 °C to 25 °C: capacity 80 %, so 0.8 x 2 Ah / 100 mA = 16 h.
+    let d = cold_design("2.5 °C");
+    let r = fast(&d);
+    assert!(
+        close(r.runtime_s(), 16.0 * 3600.0, 1e-9),
+        "{}",
+        r.runtime_s()
+    );
+    // Held below the coldest row: -40 °C is derated like -20 °C (60 %: 12 h); `--ambient`
+    // overrides the design's ambient.
+    let mut o = RunOptions::for_design(&d);
+    o.ambient_c = -40.0;
+    assert!(close(run(&d, &o).runtime_s(), 12.0 * 3600.0, 1e-9));
+    let out = Test::new()
+        .design(
+            &std::fs::read_to_string(crate::util::root().join("examples/field-logger.yaml"))
+                .unwrap(),
+        )
+        .args(&[
+            "runtime",
+            "{file}",
+            "--ambient",
+            "-20 °C",
+            "--format",
+            "json",
+        ])
+        .expect_code(0);
+    let cold = out.json()["runtime_s"].as_f64().unwrap();
+    let out = Test::new()
+        .design(
+            &std::fs::read_to_string(crate::util::root().join("examples/field-logger.yaml"))
+                .unwrap(),
+        )
+        .args(&["runtime", "{file}", "--format", "json"])
+        .expect_code(0);
+    assert!(cold < out.json()["runtime_s"].as_f64().unwrap());
+}
+
+#[test]
+fn self_discharge_alone_empties_in_one_over_the_rate() {
+    // DESIGN section 5: I_self = rate x parallel x rated capacity / 30.44 d. With no load, a
+    // 3 %/month cell is empty after 1 / 0.03 months; aged to 90 % capacity, after 0.9 of that.
+    let text = |aging: &str| {
+        format!(
+            "cells:\n  c: {{ capacity: 1 Ah, ocv: [[0 %, 3 V], [100 %, 4 V]], resistance: 0.1 ohm, cutoff: 2.5 V, self_discharge: 3 %/month }}\nbattery: {{ cell: c, parallel: 2{aging} }}\nloads: [{{ id: l, rail: battery, draw: {{ on: 1 A }} }}]\nmodes: {{ shelf: {{}} }}\nprofile: [{{ mode: shelf, for: 1 d }}]\n"
+        )
+    };
+    let month = 30.44 * 86_400.0;
+    let r = fast(&design(&text("")));
+    assert_eq!(r.end.reason, EndReason::Empty);
+    assert!(
+        close(r.runtime_s(), month / 0.03, 1e-9),
+        "{}",
+        r.runtime_s()
+    );
+    let r = fast(&design(&text(", aging: { capacity: 90 % }")));
+    assert!(close(r.runtime_s(), 0.9 * month / 0.03, 1e-9));
+}
+
+fn pulse_design(polarization: &str) -> Design {
+    design(&format!(
+        "cells:\n  coin:\n    chemistry: li-mno2\n    capacity: 2.25 mAh\n    ocv: [[0 %, 2.5 V], [100 %, 3.0 V]]\n    resistance: 20 Ω\n{polarization}    cutoff: 2.3 V\nbattery: {{ cell: coin }}\nloads:\n  - {{ id: radio, rail: battery, draw: {{ tx: 20 mA }} }}\n  - {{ id: mcu, rail: battery, draw: {{ sleep: 5 µA }} }}\nmodes: {{ pulse: {{ radio: tx }}, idle: {{ mcu: sleep }} }}\nprofile: [{{ mode: pulse, for: 10 ms }}, {{ mode: idle, for: 990 ms }}]\n"
+    ))
+}
+
+#[test]
+fn pulse_sag_ends_the_run_by_hand() {
+    // By hand (DESIGN sections 5 and 6): the mean current is 204.95 µA (REFERENCES C37) and
+    // would run the 2.25 mAh cell to empty, but each 20 mA pulse sags it by 20 mA x 20 Ω = 0.4 V
+    // (Ohm's law), so it stops at the first pulse where OCV - 0.4 V < 2.3 V: OCV 2.7 V, SoC 40 %,
+    // after 8.1 C x 0.6 / 204.95 µA.
+    let i_avg = 0.02 * 0.01 + 5e-6 * 0.99;
+    let d = pulse_design("");
+    for r in [fast(&d), exact(&d)] {
+        assert_eq!(r.end.reason, EndReason::Cutoff);
+        assert_eq!(d.modes[r.end.mode.unwrap()].name, "pulse");
+        assert!((r.end.soc - 0.4).abs() < 1e-4, "{}", r.end.soc);
+        assert!(
+            close(r.runtime_s(), 8.1 * 0.6 / i_avg, 1e-4),
+            "{}",
+            r.runtime_s()
+        );
+    }
+    // With a 10 Ω, 5 ms polarization branch the pulse also charges V_p (exact exponential,
+    // REFERENCES C27): V_p = 0.2 V + (50 µV - 0.2 V) e^-2 = 172.94 mV at the pulse's end, so the
+    // run stops at OCV = 2.7 V + 172.94 mV, SoC 74.59 %, inside the pulse.
+    let d = pulse_design("    polarization: { resistance: 10 Ω, time_constant: 5 ms }\n");
+    let vp = 0.2 + (5e-6 * 10.0 - 0.2) * (-2f64).exp();
+    let s_end = (2.7 + vp - 2.5) / 0.5;
+    for r in [fast(&d), exact(&d)] {
+        assert_eq!(r.end.reason, EndReason::Cutoff);
+        assert!((r.end.soc - s_end).abs() < 1e-4, "{} vs {s_end}", r.end.soc);
+        assert!(
+            close(r.runtime_s(), 8.1 * (1.0 - s_end) / i_avg, 1e-4),
+            "{}",
+            r.runtime_s()
+        );
+        assert_energy_balance(&r, "pulses with polarization");
+    }
+}
+
+#[test]
+fn fast_solver_agrees_with_the_reference_on_small_examples() {
+    // DESIGN section 6: the fast solver's runtime within 0.2 % of a fine chronological run, and
+    // the same end reason. (The larger examples are compared in the benchmark, in release.)
+    let f = example_files()
+        .into_iter()
+        .find(|p| p.ends_with("field-logger.yaml"))
+        .unwrap();
+    let d = design(&std::fs::read_to_string(f).unwrap());
+    let (a, b) = (fast(&d), exact(&d));
+    assert_eq!(a.end.reason, b.end.reason);
+    assert!(
+        close(a.runtime_s(), b.runtime_s(), 2e-3),
+        "{} vs {}",
+        a.runtime_s(),
+        b.runtime_s()
+    );
+}
+
+#[test]
+fn every_example_runs_and_balances_energy() {
+    for f in example_files() {
+        let d = design(&std::fs::read_to_string(&f).unwrap());
+        let r = fast(&d);
+        assert!(r.runtime_s() > 0.0, "{}", f.display());
+        assert_ne!(r.end.reason, EndReason::Horizon, "{}", f.display());
+        assert_energy_balance(&r, &f.display().to_string());
+        let ideal = r.ideal_runtime_s().unwrap();
+        assert!(
+            r.runtime_s() < ideal,
+            "{}: runtime above the ideal",
+            f.display()
+        );
+    }
+}
+
+#[test]
+fn horizon_ends_a_run_that_would_never_stop() {
+    let text = "cells:\n  c: { capacity: 1 Ah, ocv: [[0 %, 3 V], [100 %, 4 V]], resistance: 0.1 ohm, cutoff: 2.5 V }\nbattery: { cell: c }\nloads: [{ id: l, rail: battery, draw: { on: 1 A } }]\nmodes: { shelf: {} }\nprofile: [{ mode: shelf, for: 1 s }]\n";
+    let d = design(text);
+    let r = fast(&d);
+    assert_eq!(r.end.reason, EndReason::Horizon);
+    assert!(close(r.runtime_s(), 20.0 * 365.25 * 86_400.0, 1e-9));
+    let out = Test::new()
+        .design(text)
+        .args(&["runtime", "{file}", "--horizon", "90 d", "--format", "json"])
+        .expect_code(0);
+    let v = out.json();
+    assert_eq!(v["end"]["reason"], "horizon");
+    assert!(close(
+        v["runtime_s"].as_f64().unwrap(),
+        90.0 * 86_400.0,
+        1e-9
+    ));
+    assert!(v["ideal_runtime_s"].is_null());
+}
+
+#[test]
+fn trace_keeps_the_pulse_minima() {
+    let text =
+        std::fs::read_to_string(crate::util::root().join("tests/data/runtime/pulse-tag.yaml"))
+            .unwrap();
+    let out = Test::new()
+        .design(&text)
+        .args(&["runtime", "{file}", "--trace", "--format", "json"])
+        .expect_code(0);
+    let v = out.json();
+    let trace = v["trace"].as_array().unwrap();
+    assert!(
+        (100..=5000).contains(&trace.len()),
+        "{} points",
+        trace.len()
+    );
+    let t: Vec<f64> = trace.iter().map(|p| p["t_s"].as_f64().unwrap()).collect();
+    assert!(t.windows(2).all(|w| w[0] <= w[1]));
+    // The pulses' sags survive decimation: the lowest kept voltage is the final pulse at cutoff.
+    let vmin = trace
+        .iter()
+        .map(|p| p["voltage_v"].as_f64().unwrap())
+        .fold(f64::INFINITY, f64::min);
+    assert!((vmin - 2.3).abs() < 0.01, "{vmin}");
+    let csv = Test::new()
+        .design(&text)
+        .args(&["runtime", "{file}", "--trace", "--format", "csv"])
+        .expect_code(0);
+    assert_eq!(
+        csv.stdout.lines().next(),
+        Some("t_s,soc,open_circuit_v,voltage_v,current_a")
+    );
+}
