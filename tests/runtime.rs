@@ -325,3 +325,166 @@ fn trace_keeps_the_pulse_minima() {
         Some("t_s,soc,open_circuit_v,voltage_v,current_a")
     );
 }
+
+mod agreement {
+    //! The fast solver against the chronological reference on random designs (DESIGN section 6:
+    //! runtime within 0.2 %, the same end reason).
+
+    use std::fmt::Write as _;
+
+    use proptest::prelude::*;
+    use proptest::test_runner::{Config, RngSeed};
+
+    use super::{design, exact, fast};
+    use crate::util::close;
+
+    #[derive(Debug, Clone)]
+    struct Gen {
+        ocv: (f64, f64, f64),
+        cut: f64,
+        r: f64,
+        pol: Option<(f64, f64)>,
+        peukert: f64,
+        self_discharge: f64,
+        stage: usize,
+        loads: Vec<(usize, usize, f64)>,
+        phases: Vec<(Vec<bool>, f64)>,
+        inner_times: u64,
+    }
+
+    fn designs() -> impl Strategy<Value = Gen> {
+        (
+            (2.5f64..3.2, 0.1f64..0.6, 0.0f64..0.8),
+            (-1.5f64..0.5, 0.0f64..12.0),
+            prop::option::of((0.1f64..3.0, 0.002f64..30.0)),
+            1.0f64..1.2,
+            0.0f64..5.0,
+            0usize..4,
+            prop::collection::vec((0usize..2, 0usize..3, 0.05f64..1.0), 1..4),
+            prop::collection::vec(
+                (prop::collection::vec(any::<bool>(), 4), 0.001f64..5.0),
+                2..4,
+            ),
+            1u64..5,
+        )
+            .prop_map(
+                |(
+                    ocv,
+                    (cut, r),
+                    pol,
+                    peukert,
+                    self_discharge,
+                    stage,
+                    loads,
+                    phases,
+                    inner_times,
+                )| Gen {
+                    ocv,
+                    cut,
+                    r,
+                    pol,
+                    peukert,
+                    self_discharge,
+                    stage,
+                    loads,
+                    phases,
+                    inner_times,
+                },
+            )
+    }
+
+    fn text(g: &Gen) -> String {
+        let (lo, span, bend) = g.ocv;
+        let hi = lo + span;
+        let mid = lo + span * (0.5 + 0.4 * bend);
+        let mut s = format!(
+            "cells:\n  c:\n    capacity: 2 mAh\n    rated_current: 1 mA\n    peukert: {}\n    self_discharge: {} %/month\n    ocv: [[0 %, {lo} V], [30 %, {mid} V], [100 %, {hi} V]]\n    resistance: [[0 %, {} Ω], [100 %, {} Ω]]\n    cutoff: {} V\n",
+            g.peukert,
+            g.self_discharge,
+            3.0 * g.r,
+            g.r,
+            lo + g.cut * span
+        );
+        if let Some((r1, tau)) = g.pol {
+            let _ = writeln!(
+                s,
+                "    polarization: {{ resistance: {r1} Ω, time_constant: {tau} s }}"
+            );
+        }
+        s.push_str("battery: { cell: c }\n");
+        let stage = match g.stage {
+            0 => "",
+            1 => {
+                "stages: [{ id: conv, kind: buck, input: battery, output: 1.8 V, efficiency: 88 %, quiescent: 5 µA }]\n"
+            }
+            2 => {
+                "stages: [{ id: conv, kind: boost, input: battery, output: 3.3 V, efficiency: [[100 µA, 70 %], [10 mA, 90 %]], quiescent: 8 µA, input_range: [2.2 V, 5 V] }]\n"
+            }
+            _ => {
+                "stages: [{ id: conv, kind: linear, input: battery, output: 2.0 V, quiescent: 2 µA }]\n"
+            }
+        };
+        s.push_str(stage);
+        s.push_str("loads:\n");
+        for (i, (rail, kind, x)) in g.loads.iter().enumerate() {
+            let rail = if *rail == 1 && g.stage > 0 {
+                "conv"
+            } else {
+                "battery"
+            };
+            let draw = match kind {
+                0 => format!("{} mA", 15.0 * x),
+                1 => format!("{} mW", 40.0 * x),
+                _ => format!("{} Ω", 100.0 / x),
+            };
+            let _ = writeln!(
+                s,
+                "  - {{ id: l{i}, rail: {rail}, draw: {{ on: {draw}, sleep: 3 µA }}, default: sleep }}"
+            );
+        }
+        s.push_str("modes:\n");
+        for (m, (on, _)) in g.phases.iter().enumerate() {
+            let items: Vec<String> = (0..g.loads.len())
+                .filter(|&i| on[i % on.len()])
+                .map(|i| format!("l{i}: on"))
+                .collect();
+            let _ = writeln!(s, "  m{m}: {{ {} }}", items.join(", "));
+        }
+        s.push_str("profile:\n  - repeat:\n");
+        for (m, (_, dur)) in g.phases.iter().enumerate().skip(1) {
+            let _ = writeln!(s, "      - {{ mode: m{m}, for: {dur} s }}");
+        }
+        let _ = writeln!(
+            s,
+            "    times: {}\n  - {{ mode: m0, for: {} s }}",
+            g.inner_times, g.phases[0].1
+        );
+        s
+    }
+
+    fn config() -> Config {
+        Config {
+            cases: 32,
+            rng_seed: RngSeed::Fixed(0x6a6f_756c),
+            failure_persistence: None,
+            ..Config::default()
+        }
+    }
+
+    proptest! {
+        #![proptest_config(config())]
+
+        #[test]
+        fn fast_agrees_with_reference(g in designs()) {
+            let t = text(&g);
+            let d = design(&t);
+            let pass: f64 = d.profile.iter().map(joulepath::model::Step::duration).sum();
+            let f = fast(&d);
+            // Keep the reference affordable in a debug build.
+            prop_assume!(f.runtime_s() / pass < 4000.0);
+            let e = exact(&d);
+            prop_assert_eq!(f.end.reason, e.end.reason, "\n{}", t);
+            prop_assert!(close(f.runtime_s(), e.runtime_s(), 2e-3), "{} vs {}\n{}", f.runtime_s(), e.runtime_s(), t);
+        }
+    }
+}

@@ -386,9 +386,10 @@ impl<'a> Sim<'a> {
         (s, vp)
     }
 
-    /// The operating point at the mean state of a step of `dt` starting at `start` (`start`
-    /// itself if that point does not solve): the step's current and its totals come from it, which
-    /// makes the stepping second-order (midpoint) accurate.
+    /// The operating point at the mean state of a step of `dt` starting at `start`: the step's
+    /// current and its totals come from it, which makes the stepping second-order (midpoint)
+    /// accurate. Where the mean state already meets an end condition (the step crosses it), the
+    /// start point is used, so that the crossing is found inside the step.
     fn mean_point(
         &self,
         mode: usize,
@@ -397,9 +398,10 @@ impl<'a> Sim<'a> {
         dt: f64,
     ) -> OperatingPoint {
         let (sm, vm) = self.mean_state(start.pack.current, rate, dt);
-        match self.solve(mode, sm, vm) {
-            Solution::Point(p) => p,
-            Solution::Collapse { .. } => start.clone(),
+        let sol = self.solve(mode, sm, vm);
+        match sol {
+            Solution::Point(p) if self.condition(&p).is_none() => p,
+            _ => start.clone(),
         }
     }
 
