@@ -5,6 +5,7 @@ mod util;
 mod cli;
 mod errors;
 mod examples;
+mod json;
 mod properties;
 mod reference;
 mod runtime;
