@@ -221,7 +221,7 @@ fn readme_design_and_commands_stay_true() {
     assert_eq!(
         cmds,
         [
-            "cargo run --release -- budget examples/handheld-meter.yaml",
+            "cargo run --release -- runtime examples/wearable-band.yaml",
             "cargo test"
         ]
     );

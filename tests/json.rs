@@ -133,8 +133,22 @@ struct TracePoint {
     current_a: f64,
 }
 
-const STATES: [&str; 6] = ["regulating", "dropout", "bypass", "on", "off", "undervoltage"];
-const REASONS: [&str; 6] = ["collapse", "cutoff", "undervoltage", "rail", "empty", "horizon"];
+const STATES: [&str; 6] = [
+    "regulating",
+    "dropout",
+    "bypass",
+    "on",
+    "off",
+    "undervoltage",
+];
+const REASONS: [&str; 6] = [
+    "collapse",
+    "cutoff",
+    "undervoltage",
+    "rail",
+    "empty",
+    "horizon",
+];
 const KINDS: [&str; 7] = [
     "pack_overcurrent",
     "stage_overcurrent",
@@ -157,11 +171,16 @@ fn run_on(file: &std::path::Path, args: &[&str]) -> String {
 fn budget_json_of_every_example_matches_the_contract() {
     for f in example_files() {
         let out = run_on(&f, &["budget"]);
-        let b: Budget = serde_json::from_str(&out).unwrap_or_else(|e| panic!("{}: {e}", f.display()));
+        let b: Budget =
+            serde_json::from_str(&out).unwrap_or_else(|e| panic!("{}: {e}", f.display()));
         assert!((0.0..=1.0).contains(&b.soc));
         for m in &b.modes {
             assert!(m.stages.iter().all(|s| STATES.contains(&s.state.as_str())));
-            assert!(m.violations.iter().all(|v| KINDS.contains(&v.kind.as_str()) && v.t_s.is_none()));
+            assert!(
+                m.violations
+                    .iter()
+                    .all(|v| KINDS.contains(&v.kind.as_str()) && v.t_s.is_none())
+            );
         }
     }
 }
@@ -170,10 +189,15 @@ fn budget_json_of_every_example_matches_the_contract() {
 fn runtime_json_of_every_example_matches_the_contract() {
     for f in example_files() {
         let out = run_on(&f, &["runtime", "--trace"]);
-        let r: Runtime = serde_json::from_str(&out).unwrap_or_else(|e| panic!("{}: {e}", f.display()));
+        let r: Runtime =
+            serde_json::from_str(&out).unwrap_or_else(|e| panic!("{}: {e}", f.display()));
         assert!(REASONS.contains(&r.end.reason.as_str()));
         assert!(r.runtime_s > 0.0 && r.battery.charge_ah > 0.0);
-        assert!(r.violations.iter().all(|v| KINDS.contains(&v.kind.as_str()) && v.t_s.is_some()));
+        assert!(
+            r.violations
+                .iter()
+                .all(|v| KINDS.contains(&v.kind.as_str()) && v.t_s.is_some())
+        );
         let trace = r.trace.expect("trace with --trace");
         assert!(!trace.is_empty());
         // Without --trace there is no `trace` key at all.
