@@ -231,3 +231,59 @@ fn readme_design_and_commands_stay_true() {
             .exists()
     );
 }
+
+#[test]
+fn runtime_table_speaks_plainly() {
+    let out = Test::new()
+        .design(&tree())
+        .args(&["runtime", "{file}"])
+        .expect_code(0);
+    let o = &out.stdout;
+    // Human units with hours in parentheses beyond two days; one plain sentence for the end.
+    let second = o.lines().nth(1).unwrap();
+    assert!(
+        second.starts_with("runtime ") && second.contains(" d (") && second.contains(" h)"),
+        "{second}"
+    );
+    assert!(o.contains("it stops because"), "{o}");
+    for frag in [
+        "ideal runtime",
+        "of it reached the loads",
+        "pack:",
+        "drawn, average",
+        "Tj max",
+        "Caution:",
+    ] {
+        assert!(o.contains(frag), "missing {frag:?} in\n{o}");
+    }
+}
+
+#[test]
+fn heat_names_the_biggest_waster_first() {
+    let out = Test::new()
+        .design(&tree())
+        .args(&["heat", "{file}"])
+        .expect_code(0);
+    let first = out.stdout.lines().next().unwrap();
+    assert!(
+        first.starts_with("`buck-3v3` wastes the most heat:"),
+        "{first}"
+    );
+    let v = Test::new()
+        .design(&tree())
+        .args(&["heat", "{file}", "--format", "json"])
+        .expect_code(0)
+        .json();
+    let rows = v["ranking"].as_array().unwrap();
+    assert_eq!(rows.len(), 3, "two stages and the pack");
+    let lost: Vec<f64> = rows
+        .iter()
+        .map(|r| r["loss_wh"].as_f64().unwrap())
+        .collect();
+    assert!(lost.windows(2).all(|w| w[0] >= w[1]), "ranked: {lost:?}");
+    let shares: f64 = rows
+        .iter()
+        .map(|r| r["share_of_losses"].as_f64().unwrap())
+        .sum();
+    assert!((shares - 1.0).abs() < 1e-9);
+}
