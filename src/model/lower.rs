@@ -234,7 +234,7 @@ impl Lower<'_> {
         let repeated = pts.iter().enumerate().find_map(|(i, a)| {
             pts[..i]
                 .iter()
-                .position(|b| b.0 == a.0)
+                .position(|b| b.0.total_cmp(&a.0).is_eq())
                 .map(|j| (j, i, a.0))
         });
         match Table::new(pts) {
@@ -985,11 +985,11 @@ impl Lower<'_> {
     }
 
     /// The rail called `name`: 0 for the battery, `k + 1` for stage `k`.
-    fn rail(&mut self, spec: &DesignSpec, name: &str, path: &str) -> Option<usize> {
+    fn rail(&mut self, spec: &DesignSpec, stage_ids: &HashMap<&str, usize>, name: &str, path: &str) -> Option<usize> {
         if name == BATTERY {
             return Some(0);
         }
-        if let Some(k) = spec.stages.iter().position(|s| s.id == name) {
+        if let Some(&k) = stage_ids.get(name) {
             return Some(k + 1);
         }
         let hint = if spec.loads.iter().any(|l| l.id == name) {
@@ -1008,10 +1008,11 @@ impl Lower<'_> {
     }
 
     fn tree(&mut self, spec: &DesignSpec) -> Option<(Tree, Vec<usize>, Vec<usize>)> {
+        let stage_ids = index_of(spec.stages.iter().map(|s| s.id.as_str()));
         let mut ok = true;
         let mut inputs = Vec::new();
         for (i, s) in spec.stages.iter().enumerate() {
-            match self.rail(spec, &s.input, &format!("stages[{i}].input")) {
+            match self.rail(spec, &stage_ids, &s.input, &format!("stages[{i}].input")) {
                 Some(r) if r == i + 1 => {
                     self.err(
                         &format!("stages[{i}].input"),
@@ -1026,7 +1027,7 @@ impl Lower<'_> {
         }
         let mut rails = Vec::new();
         for (i, l) in spec.loads.iter().enumerate() {
-            match self.rail(spec, &l.rail, &format!("loads[{i}].rail")) {
+            match self.rail(spec, &stage_ids, &l.rail, &format!("loads[{i}].rail")) {
                 Some(r) => rails.push(r),
                 None => ok = false,
             }
@@ -1069,23 +1070,25 @@ impl Lower<'_> {
             self.err("", "the design has no `modes`", Some("add at least one, e.g. `modes: { run: {} }` (loads then take their `default` state)".into()));
             return None;
         }
+        let load_ids = index_of(spec.loads.iter().map(|l| l.id.as_str()));
+        let stage_ids = index_of(spec.stages.iter().map(|s| s.id.as_str()));
+        // States are indexed as in the lowered load: file order, `off` excluded.
+        let defaults: Vec<Option<usize>> = spec
+            .loads
+            .iter()
+            .map(|l| {
+                let d = l.default.as_ref()?;
+                l.draw.keys().filter(|k| *k != "off").position(|s| s == d)
+            })
+            .collect();
         let mut out = Vec::new();
         let mut ok = true;
         for (name, entries) in &spec.modes {
-            let mut load_states: Vec<Option<usize>> = Vec::new();
-            for l in &spec.loads {
-                // States are indexed as in the lowered load: file order, `off` excluded.
-                let states: Vec<&String> = l.draw.keys().filter(|k| *k != "off").collect();
-                load_states.push(
-                    l.default
-                        .as_ref()
-                        .and_then(|d| states.iter().position(|s| *s == d)),
-                );
-            }
+            let mut load_states = defaults.clone();
             let mut stage_on = vec![true; spec.stages.len()];
             for (key, value) in entries.iter().flatten() {
                 let p = format!("modes.{name}.{key}");
-                if let Some(li) = spec.loads.iter().position(|l| &l.id == key) {
+                if let Some(&li) = load_ids.get(key.as_str()) {
                     let l = &spec.loads[li];
                     if value == "off" {
                         load_states[li] = None;
@@ -1102,7 +1105,7 @@ impl Lower<'_> {
                         self.unknown_state(&p, key, value, &named);
                         ok = false;
                     }
-                } else if let Some(si) = spec.stages.iter().position(|s| &s.id == key) {
+                } else if let Some(&si) = stage_ids.get(key.as_str()) {
                     match value.as_str() {
                         "off" => stage_on[si] = false,
                         "on" => stage_on[si] = true,
@@ -1298,6 +1301,15 @@ impl Lower<'_> {
             }
         }
     }
+}
+
+/// Position of each id (the first, where ids repeat: duplicates are reported elsewhere).
+fn index_of<'s>(ids: impl Iterator<Item = &'s str>) -> HashMap<&'s str, usize> {
+    let mut map = HashMap::new();
+    for (i, id) in ids.enumerate() {
+        map.entry(id).or_insert(i);
+    }
+    map
 }
 
 fn chemistry(c: Option<ChemistrySpec>) -> Chemistry {

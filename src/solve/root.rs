@@ -98,12 +98,24 @@ pub fn settle(v_open: f64, r: f64, demand: &mut dyn FnMut(f64) -> f64) -> Settle
         }
         let fv = f(v);
         if g(v, fv) >= 0.0 {
+            // The balance is at or just above v: try a bracket a few units in the last place
+            // wide before bisecting the whole step.
+            let up = v + (r * fv * 8.0 * FIXED_POINT_REL).max(8.0 * f64::EPSILON * v_open);
+            if up < v_upper {
+                let fu = f(up);
+                if g(up, fu) < 0.0 {
+                    return bisect(v_open, r, &mut f, v, up);
+                }
+            }
             return bisect(v_open, r, &mut f, v, v_upper);
         }
         v_upper = v;
         if fv - i <= FIXED_POINT_REL * fv {
             // Converged from below: a point a hair lower should already balance.
-            let probe = v_open - r * (fv * (1.0 + 8.0 * FIXED_POINT_REL) + f64::MIN_POSITIVE);
+            // The line current (v_open - V) / r loses digits when r I is small next to
+            // v_open: step down by at least a few units in the last place of v_open.
+            let margin = (r * fv * 8.0 * FIXED_POINT_REL).max(8.0 * f64::EPSILON * v_open);
+            let probe = v_open - r * fv - margin;
             if probe > 0.0 {
                 let fp = f(probe);
                 if g(probe, fp) >= 0.0 {

@@ -9,32 +9,49 @@ use yaml_rust2::scanner::Marker;
 
 use crate::error::Location;
 
-/// Line and column of every value (and every mapping key) in a document, by YAML path.
+/// Line and column of every value (and every mapping key) in a document, by YAML path. The
+/// index is built the first time a place is asked for: a valid design never pays for it.
 #[derive(Debug, Default, Clone)]
 pub struct SourceMap {
+    text: String,
+    index: std::cell::OnceCell<Index>,
+}
+
+#[derive(Debug, Default, Clone)]
+struct Index {
     values: HashMap<String, Location>,
     keys: HashMap<String, Location>,
 }
 
 impl SourceMap {
-    /// Index `text`; a document the position parser cannot read gives an empty map.
+    /// A map of `text`, indexed on first use; a document the position parser cannot read gives
+    /// no places.
     pub fn build(text: &str) -> Self {
-        let mut rec = Recorder::default();
-        let mut parser = Parser::new_from_str(text);
-        if parser.load(&mut rec, false).is_err() {
-            return SourceMap::default();
+        Self {
+            text: text.to_string(),
+            index: std::cell::OnceCell::new(),
         }
-        rec.map
+    }
+
+    fn index(&self) -> &Index {
+        self.index.get_or_init(|| {
+            let mut rec = Recorder::default();
+            let mut parser = Parser::new_from_str(&self.text);
+            if parser.load(&mut rec, false).is_err() {
+                return Index::default();
+            }
+            rec.map
+        })
     }
 
     /// Where the value at `path` starts.
     pub fn value(&self, path: &str) -> Option<Location> {
-        self.values.get(path).copied()
+        self.index().values.get(path).copied()
     }
 
     /// Where the key of the mapping entry at `path` is written (its value's place if unknown).
     pub fn key(&self, path: &str) -> Option<Location> {
-        self.keys.get(path).copied().or_else(|| self.value(path))
+        self.index().keys.get(path).copied().or_else(|| self.value(path))
     }
 
     /// The place of `path`, or of its nearest ancestor that has one.
@@ -58,7 +75,7 @@ enum Frame {
 #[derive(Default)]
 struct Recorder {
     stack: Vec<Frame>,
-    map: SourceMap,
+    map: Index,
 }
 
 fn loc(m: Marker) -> Location {
