@@ -985,7 +985,13 @@ impl Lower<'_> {
     }
 
     /// The rail called `name`: 0 for the battery, `k + 1` for stage `k`.
-    fn rail(&mut self, spec: &DesignSpec, stage_ids: &HashMap<&str, usize>, name: &str, path: &str) -> Option<usize> {
+    fn rail(
+        &mut self,
+        spec: &DesignSpec,
+        stage_ids: &HashMap<&str, usize>,
+        name: &str,
+        path: &str,
+    ) -> Option<usize> {
         if name == BATTERY {
             return Some(0);
         }

@@ -21,11 +21,14 @@ pub const STEP_MAX_DS_FAST: f64 = 0.005;
 /// The same for the chronological reference.
 pub const STEP_MAX_DS_EXACT: f64 = 0.0005;
 /// Largest fall in state of charge the fast solver skips at once (at mid-stretch rates).
-pub const SKIP_MAX_DS: f64 = 0.01;
+pub const SKIP_MAX_DS: f64 = 0.04;
 /// The same when a trace is kept (about 500 stretches over a full discharge).
 pub const SKIP_MAX_DS_TRACE: f64 = 0.002;
 /// Fewest passes worth skipping.
 pub const SKIP_MIN_PASSES: u64 = 3;
+/// A step whose pack voltage moves by less than this share takes its start point as its mean
+/// point (the energy error is of this order).
+pub const MEAN_POINT_REL: f64 = 1e-4;
 /// Bisection steps locating the end inside a step (2^-60 of the step).
 pub const END_BISECT_ITER: usize = 60;
 /// Stretches of state of charge in a trace (each keeps its first and its lowest point).

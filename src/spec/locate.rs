@@ -51,7 +51,11 @@ impl SourceMap {
 
     /// Where the key of the mapping entry at `path` is written (its value's place if unknown).
     pub fn key(&self, path: &str) -> Option<Location> {
-        self.index().keys.get(path).copied().or_else(|| self.value(path))
+        self.index()
+            .keys
+            .get(path)
+            .copied()
+            .or_else(|| self.value(path))
     }
 
     /// The place of `path`, or of its nearest ancestor that has one.
