@@ -42,7 +42,7 @@ fn main() {
     );
     verdicts.push(verdict(
         ms(fast_time) < COIN_TARGET_MS,
-        format!(
+        &format!(
             "coin-cell example in {:.2} ms (target < {COIN_TARGET_MS} ms)",
             ms(fast_time)
         ),
@@ -66,14 +66,14 @@ fn main() {
         );
         verdicts.push(verdict(
             diff.abs() <= AGREEMENT && reference.end.reason == fast.end.reason,
-            format!(
+            &format!(
                 "fast solver within {:.4} % of the reference, same end reason",
                 100.0 * diff.abs()
             ),
         ));
         verdicts.push(verdict(
             speedup >= SPEEDUP_TARGET,
-            format!("fast solver {speedup:.0} times faster than the reference (target >= {SPEEDUP_TARGET})"),
+            &format!("fast solver {speedup:.0} times faster than the reference (target >= {SPEEDUP_TARGET})"),
         ));
     }
 
@@ -103,14 +103,14 @@ fn main() {
         if n == 1000 {
             verdicts.push(verdict(
                 time.as_secs_f64() < TREE_TARGET_S,
-                format!("1,000-stage design with a three-phase cycle in {:.3} s (target < {TREE_TARGET_S} s)", time.as_secs_f64()),
+                &format!("1,000-stage design with a three-phase cycle in {:.3} s (target < {TREE_TARGET_S} s)", time.as_secs_f64()),
             ));
         }
     }
     let (small, big) = (per_stage[0].1, per_stage[per_stage.len() - 1].1);
     verdicts.push(verdict(
         big / small < 2.0,
-        format!(
+        &format!(
             "cost per stage at 1000 stages is {:.2} x that at 100 (linear: < 2)",
             big / small
         ),
@@ -146,6 +146,6 @@ fn ms(d: Duration) -> f64 {
     d.as_secs_f64() * 1e3
 }
 
-fn verdict(pass: bool, what: String) -> String {
+fn verdict(pass: bool, what: &str) -> String {
     format!("{}: {what}", if pass { "PASS" } else { "FAIL" })
 }
