@@ -70,6 +70,16 @@ impl Design {
         Self::from_spec(&parsed.spec, &parsed.source)
     }
 
+    /// Read and check a design file's text with `--set` overrides applied.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::Invalid`] with every problem found, overrides included.
+    pub fn from_text_with(text: &str, overrides: &[spec::Override]) -> Result<Self, Error> {
+        let parsed = spec::parse_with(text, overrides).map_err(Error::Invalid)?;
+        Self::from_spec(&parsed.spec, &parsed.source)
+    }
+
     /// Check a parsed design; `source` gives the places of values for messages.
     ///
     /// # Errors

@@ -2,6 +2,7 @@
 //! `std::io::Write`; the library itself never prints.
 
 pub mod budget;
+pub mod compare;
 pub mod heat;
 pub mod json;
 pub mod outline;

@@ -220,6 +220,8 @@ struct Ctx<'a> {
     max_ds: f64,
     /// [mode][stage]: whether something below the stage draws in that mode.
     draws_below: Vec<Vec<bool>>,
+    /// Each load's maximum supply.
+    v_max: Vec<Option<f64>>,
 }
 
 impl<'a> Ctx<'a> {
@@ -257,6 +259,7 @@ impl<'a> Ctx<'a> {
                 STEP_MAX_DS_FAST
             },
             draws_below,
+            v_max: d.loads.iter().map(|l| l.v_max).collect(),
         }
     }
 }
@@ -564,7 +567,7 @@ impl<'a> Sim<'a> {
             let rate = self.rate(i);
             let (s1, vp1) = self.evolve(i, rate, dt);
             if self.surely_clear(&p, i, s1, vp1) {
-                self.ledger.add_point(&pm, dt);
+                self.ledger.add_point(&pm, dt, &self.c.v_max);
                 self.t += dt;
                 self.s = s1;
                 self.vp = vp1;
@@ -590,7 +593,7 @@ impl<'a> Sim<'a> {
                         lo = mid;
                     }
                 }
-                self.ledger.add_point(&pm, hi);
+                self.ledger.add_point(&pm, hi, &self.c.v_max);
                 let (sh, vh) = self.evolve(i, rate, hi);
                 self.t += hi;
                 self.s = sh;
@@ -605,7 +608,7 @@ impl<'a> Sim<'a> {
                 self.stop(reason, Some(mode), subject);
                 return true;
             }
-            self.ledger.add_point(&pm, dt);
+            self.ledger.add_point(&pm, dt, &self.c.v_max);
             self.t += dt;
             self.s = s1;
             self.vp = vp1;

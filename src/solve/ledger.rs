@@ -1,7 +1,7 @@
 //! What a discharge run adds up: charge, energies per load, stage and the pack, peaks, and a
 //! decimated trace that keeps each stretch's lowest terminal voltage.
 
-use super::point::OperatingPoint;
+use super::point::{OperatingPoint, StageState};
 
 /// Running totals of a discharge (SI: C, J, W).
 #[derive(Debug, Clone, PartialEq)]
@@ -18,6 +18,25 @@ pub struct Ledger {
     pub stage_loss_j: Vec<f64>,
     /// Energy taken by each load, J.
     pub load_energy_j: Vec<f64>,
+    /// Energy each stage delivered at its output, J.
+    pub stage_out_j: Vec<f64>,
+    /// Time each stage spent in each state, s, indexed by [`state_index`].
+    pub stage_state_s: Vec<[f64; 6]>,
+    /// Time each drawing load's live rail was above its maximum supply, s.
+    pub load_high_s: Vec<f64>,
+}
+
+/// Position of a state in [`Ledger::stage_state_s`]: regulating, dropout, bypass, on, off,
+/// undervoltage.
+pub fn state_index(s: StageState) -> usize {
+    match s {
+        StageState::Regulating => 0,
+        StageState::Dropout => 1,
+        StageState::Bypass => 2,
+        StageState::On => 3,
+        StageState::Off => 4,
+        StageState::Undervoltage => 5,
+    }
 }
 
 impl Ledger {
@@ -30,20 +49,28 @@ impl Ledger {
             pack_loss_j: 0.0,
             stage_loss_j: vec![0.0; stages],
             load_energy_j: vec![0.0; loads],
+            stage_out_j: vec![0.0; stages],
+            stage_state_s: vec![[0.0; 6]; stages],
+            load_high_s: vec![0.0; loads],
         }
     }
 
-    /// Add operating point `p` held for `dt` seconds.
-    pub fn add_point(&mut self, p: &OperatingPoint, dt: f64) {
+    /// Add operating point `p` held for `dt` seconds; `v_max` gives each load's maximum supply.
+    pub fn add_point(&mut self, p: &OperatingPoint, dt: f64, v_max: &[Option<f64>]) {
         self.charge_c += p.pack.current * dt;
         self.energy_j += p.pack.power() * dt;
         self.ocv_energy_j += p.pack.ocv * p.pack.current * dt;
         self.pack_loss_j += p.pack.loss * dt;
-        for (acc, s) in self.stage_loss_j.iter_mut().zip(&p.stages) {
-            *acc += s.loss * dt;
+        for (k, s) in p.stages.iter().enumerate() {
+            self.stage_loss_j[k] += s.loss * dt;
+            self.stage_out_j[k] += s.vout * s.iout * dt;
+            self.stage_state_s[k][state_index(s.state)] += dt;
         }
-        for (acc, l) in self.load_energy_j.iter_mut().zip(&p.loads) {
-            *acc += l.power * dt;
+        for (l, lp) in p.loads.iter().enumerate() {
+            self.load_energy_j[l] += lp.power * dt;
+            if lp.live && v_max.get(l).copied().flatten().is_some_and(|m| lp.voltage > m) {
+                self.load_high_s[l] += dt;
+            }
         }
     }
 
@@ -57,6 +84,17 @@ impl Ledger {
             *a += k * b;
         }
         for (a, b) in self.load_energy_j.iter_mut().zip(&delta.load_energy_j) {
+            *a += k * b;
+        }
+        for (a, b) in self.stage_out_j.iter_mut().zip(&delta.stage_out_j) {
+            *a += k * b;
+        }
+        for (a, b) in self.stage_state_s.iter_mut().zip(&delta.stage_state_s) {
+            for (x, y) in a.iter_mut().zip(b) {
+                *x += k * y;
+            }
+        }
+        for (a, b) in self.load_high_s.iter_mut().zip(&delta.load_high_s) {
             *a += k * b;
         }
     }

@@ -15,6 +15,7 @@ use crate::error::Location;
 pub struct SourceMap {
     text: String,
     index: std::cell::OnceCell<Index>,
+    overridden: Vec<String>,
 }
 
 #[derive(Debug, Default, Clone)]
@@ -30,7 +31,20 @@ impl SourceMap {
         Self {
             text: text.to_string(),
             index: std::cell::OnceCell::new(),
+            overridden: Vec::new(),
         }
+    }
+
+    /// Mark values replaced by `--set` (index-form paths): they have no place in the file.
+    pub fn set_overridden(&mut self, paths: Vec<String>) {
+        self.overridden = paths;
+    }
+
+    /// Whether `path` lies in a value replaced by `--set`.
+    pub fn is_overridden(&self, path: &str) -> bool {
+        self.overridden.iter().any(|o| {
+            path == o || path.strip_prefix(o.as_str()).is_some_and(|r| r.starts_with(['.', '[']))
+        })
     }
 
     fn index(&self) -> &Index {
@@ -58,8 +72,12 @@ impl SourceMap {
             .or_else(|| self.value(path))
     }
 
-    /// The place of `path`, or of its nearest ancestor that has one.
+    /// The place of `path`, or of its nearest ancestor that has one (none for a value set on the
+    /// command line).
     pub fn nearest(&self, path: &str) -> Option<Location> {
+        if self.is_overridden(path) {
+            return None;
+        }
         let mut p = path;
         loop {
             if let Some(l) = self.value(p) {

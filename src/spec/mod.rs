@@ -4,6 +4,7 @@
 
 mod design;
 mod locate;
+mod overrides;
 mod qty;
 
 use indexmap::IndexMap;
@@ -15,6 +16,7 @@ pub use design::{
     PolarizationSpec, StageKindSpec, StageSpec, StepSpec, TemperatureRowSpec,
 };
 pub use locate::SourceMap;
+pub use overrides::Override;
 pub use qty::{Efficiency, Qty, ResistanceSpec, VinCurveSpec};
 
 use crate::error::{Diagnostic, Location, did_you_mean};
@@ -47,7 +49,25 @@ pub struct Parsed {
 /// assert_eq!(parsed.spec.loads[0].id, "l");
 /// ```
 pub fn parse(text: &str) -> Result<Parsed, Vec<Diagnostic>> {
-    let root: Value = match serde_yaml::from_str(text) {
+    parse_with(text, &[])
+}
+
+/// Read a design file's text with `--set` overrides applied first.
+///
+/// # Errors
+///
+/// As [`parse`], plus every override whose path does not exist.
+///
+/// # Examples
+///
+/// ```
+/// use joulepath::spec::{Override, parse_with};
+/// let text = "battery: { cell: c, parallel: 1 }\n";
+/// let p = parse_with(text, &[Override::parse("battery.parallel=3").unwrap()]).unwrap();
+/// assert_eq!(p.spec.battery.parallel.unwrap().text(), "3");
+/// ```
+pub fn parse_with(text: &str, overrides: &[Override]) -> Result<Parsed, Vec<Diagnostic>> {
+    let mut root: Value = match serde_yaml::from_str(text) {
         Ok(v) => v,
         Err(e) => {
             let location = e.location().map(|l| Location {
@@ -64,7 +84,19 @@ pub fn parse(text: &str) -> Result<Parsed, Vec<Diagnostic>> {
             ]);
         }
     };
-    let source = SourceMap::build(text);
+    let mut replaced = Vec::new();
+    let mut errors = Vec::new();
+    for o in overrides {
+        match overrides::apply(&mut root, o) {
+            Ok(path) => replaced.push(path),
+            Err(d) => errors.push(d),
+        }
+    }
+    if !errors.is_empty() {
+        return Err(errors);
+    }
+    let mut source = SourceMap::build(text);
+    source.set_overridden(replaced);
     let mut r = Reader {
         source: &source,
         diags: Vec::new(),
