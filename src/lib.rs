@@ -6,6 +6,7 @@
 //! (tables, JSON, CSV). The library never prints; reports write to any `std::io::Write`.
 
 pub mod error;
+pub mod fit;
 pub mod model;
 pub mod report;
 pub mod solve;

@@ -78,6 +78,18 @@ pub enum Command {
         #[arg(short = 'o', long = "output")]
         output: Option<PathBuf>,
     },
+    /// The built-in cell presets, or one of them in full.
+    Cells {
+        /// A preset to show in full: every parameter, its OCV curve and where its values come from.
+        name: Option<String>,
+        /// Output format (JSON and CSV give the summary: chemistry, nominal voltage, capacity,
+        /// energy, cutoff).
+        #[arg(long, value_enum, default_value_t = FormatArg::Table)]
+        format: FormatArg,
+        /// Write to this file instead of standard output.
+        #[arg(short = 'o', long = "output")]
+        output: Option<PathBuf>,
+    },
     /// Print the JSON Schema of the design file.
     Schema {
         /// Write to this file instead of standard output.

@@ -5,6 +5,8 @@ use std::path::{Path, PathBuf};
 
 use joulepath::Design;
 use joulepath::error::{Diagnostic, Error, did_you_mean};
+use joulepath::model::Preset;
+use joulepath::report::cells::{write_cell, write_cells};
 use joulepath::report::{
     Format, budget::write_budget, heat::write_heat, outline::write_outline, runtime::write_runtime,
 };
@@ -182,6 +184,29 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             let d = load(file)?;
             let result = joulepath::solve::run(&d, &run_options(&d, ra, false));
             write_heat(&mut buf, &d, &result, format(*f)).map_err(io_fail)?;
+            emit(&buf, output.as_deref())
+        }
+        Command::Cells {
+            name,
+            format: f,
+            output,
+        } => {
+            match name {
+                None => {
+                    let all = Preset::all().map_err(|e| Failure::Input(e.to_string()))?;
+                    write_cells(&mut buf, &all, format(*f)).map_err(io_fail)?;
+                }
+                Some(n) => {
+                    if Preset::text(n).is_none() {
+                        return Err(Failure::Usage(format!(
+                            "unknown cell preset `{n}` ({})",
+                            Preset::suggestion(n)
+                        )));
+                    }
+                    let p = Preset::load(n).map_err(|e| Failure::Input(e.to_string()))?;
+                    write_cell(&mut buf, &p, format(*f)).map_err(io_fail)?;
+                }
+            }
             emit(&buf, output.as_deref())
         }
         Command::Schema { output } => emit(

@@ -7,6 +7,7 @@ use super::curve::{Table, TableError};
 use super::load::{Draw, Load};
 use super::mode::{Mode, RepeatUntil, Step};
 use super::pack::{Cell, Chemistry, Pack};
+use super::presets::{self, Preset};
 use super::stage::{EffCurve, LossModel, Stage, StageKind};
 use super::{BATTERY, Design};
 use crate::error::{Diagnostic, did_you_mean};
@@ -30,6 +31,23 @@ pub(super) fn lower(spec: &DesignSpec, source: &SourceMap) -> Result<Design, Vec
         design.ok_or_else(Vec::new)
     } else {
         Err(lw.diags)
+    }
+}
+
+/// Check one cell alone (a built-in preset); paths start at the cell's keys (`.capacity`).
+pub(super) fn lone_cell(
+    name: &str,
+    spec: &CellSpec,
+    source: &SourceMap,
+) -> Result<Cell, Vec<Diagnostic>> {
+    let mut lw = Lower {
+        source,
+        diags: Vec::new(),
+    };
+    let cell = lw.cell(name, spec, "");
+    match cell {
+        Some(c) if lw.diags.is_empty() => Ok(c),
+        _ => Err(lw.diags),
     }
 }
 
@@ -144,17 +162,39 @@ impl Lower<'_> {
             cells.insert(name.as_str(), cell);
         }
         let cell = match &spec.battery.cell {
-            CellRef::Inline(c) => self.cell("inline", c, "battery.cell"),
+            CellRef::Inline(c) => {
+                let name = match &c.preset {
+                    Some(p) if given_keys(c).is_empty() => p.clone(),
+                    Some(p) => format!("{p}, modified"),
+                    None => "inline".to_string(),
+                };
+                self.cell(&name, c, "battery.cell")
+            }
+            // A key of `cells` first, else a built-in preset.
             CellRef::Name(n) => match cells.get(n.as_str()) {
                 Some(c) => c.clone(),
+                None if Preset::text(n).is_some() => {
+                    let c = CellSpec {
+                        preset: Some(n.clone()),
+                        ..CellSpec::default()
+                    };
+                    self.cell(n, &c, "battery.cell")
+                }
                 None => {
                     let names: Vec<&str> = spec.cells.keys().map(String::as_str).collect();
-                    let hint = match did_you_mean(n, names.iter().copied()) {
+                    let mut all = names.clone();
+                    for p in Preset::names() {
+                        all.push(p);
+                    }
+                    let hint = match did_you_mean(n, all.into_iter()) {
                         Some(s) => format!("did you mean `{s}`?"),
                         None if names.is_empty() => {
-                            "define it under `cells:` (capacity, ocv, resistance, cutoff) or write the cell inline".into()
+                            "define it under `cells:` (capacity, ocv, resistance, cutoff), write the cell inline, or name a built-in preset (`joulepath cells` lists them)".into()
                         }
-                        None => format!("the cells defined are {}", backticked(&names)),
+                        None => format!(
+                            "the cells defined are {}; `joulepath cells` lists the built-in presets",
+                            backticked(&names)
+                        ),
                     };
                     self.err("battery.cell", format!("unknown cell `{n}`"), Some(hint));
                     None
@@ -258,15 +298,58 @@ impl Lower<'_> {
         }
     }
 
+    /// A cell: a custom one, or a built-in preset with the keys `c` gives overriding its own.
     fn cell(&mut self, name: &str, c: &CellSpec, path: &str) -> Option<Cell> {
-        if let Some(p) = &c.preset {
-            self.err(
-                &format!("{path}.preset"),
-                format!("unknown cell preset `{p}`"),
-                Some("describe the cell with capacity, ocv, resistance and cutoff".into()),
-            );
-            return None;
+        let Some(p) = &c.preset else {
+            return self.custom_cell(name, c, path);
+        };
+        let base = match presets::spec(p) {
+            Some(Ok(base)) => base,
+            Some(Err(message)) => {
+                self.err(&format!("{path}.preset"), message, None);
+                return None;
+            }
+            None => {
+                self.err(
+                    &format!("{path}.preset"),
+                    format!("unknown cell preset `{p}`"),
+                    Some(Preset::suggestion(p)),
+                );
+                return None;
+            }
+        };
+        let merged = overlay(c, &base);
+        let before = self.diags.len();
+        let cell = self.custom_cell(name, &merged, path);
+        // A problem with a value the preset gave (a rule across keys, such as the cutoff against
+        // an overriding OCV table) says where that value came from.
+        let given = given_keys(c);
+        for d in &mut self.diags[before..] {
+            let key = d
+                .path()
+                .strip_prefix(path)
+                .unwrap_or("")
+                .trim_start_matches('.')
+                .split(['.', '['])
+                .next()
+                .unwrap_or("");
+            if !key.is_empty() && !given.contains(&key) {
+                *d = Diagnostic::new(
+                    d.path(),
+                    format!("{} (`{key}` comes from preset `{p}`)", d.message()),
+                )
+                .with_hint(match d.hint() {
+                    Some(h) => format!("{h}; give `{key}:` here to replace the preset's"),
+                    None => format!("give `{key}:` here to replace the preset's"),
+                })
+                .at(d.location());
+            }
         }
+        cell
+    }
+
+    /// A cell from its own keys (a custom cell, or a preset merged with its overrides).
+    fn custom_cell(&mut self, name: &str, c: &CellSpec, path: &str) -> Option<Cell> {
         let missing = |lw: &mut Self, key: &str, example: &str| {
             lw.err(
                 path,
@@ -1316,6 +1399,56 @@ fn index_of<'s>(ids: impl Iterator<Item = &'s str>) -> HashMap<&'s str, usize> {
         map.entry(id).or_insert(i);
     }
     map
+}
+
+/// The cell `over` on top of the preset `base`: every key `over` gives replaces the preset's
+/// (a table or the polarization branch as a whole).
+fn overlay(over: &CellSpec, base: &CellSpec) -> CellSpec {
+    let pick = |a: &Option<Qty>, b: &Option<Qty>| a.clone().or_else(|| b.clone());
+    CellSpec {
+        preset: None,
+        description: over
+            .description
+            .clone()
+            .or_else(|| base.description.clone()),
+        chemistry: over.chemistry.or(base.chemistry),
+        capacity: pick(&over.capacity, &base.capacity),
+        rated_current: pick(&over.rated_current, &base.rated_current),
+        ocv: over.ocv.clone().or_else(|| base.ocv.clone()),
+        resistance: over.resistance.clone().or_else(|| base.resistance.clone()),
+        polarization: over
+            .polarization
+            .clone()
+            .or_else(|| base.polarization.clone()),
+        peukert: pick(&over.peukert, &base.peukert),
+        cutoff: pick(&over.cutoff, &base.cutoff),
+        max_current: pick(&over.max_current, &base.max_current),
+        self_discharge: pick(&over.self_discharge, &base.self_discharge),
+        temperature: over
+            .temperature
+            .clone()
+            .or_else(|| base.temperature.clone()),
+    }
+}
+
+/// The physical keys a cell gives itself (not `preset` or `description`).
+fn given_keys(c: &CellSpec) -> Vec<&'static str> {
+    [
+        ("chemistry", c.chemistry.is_some()),
+        ("capacity", c.capacity.is_some()),
+        ("rated_current", c.rated_current.is_some()),
+        ("ocv", c.ocv.is_some()),
+        ("resistance", c.resistance.is_some()),
+        ("polarization", c.polarization.is_some()),
+        ("peukert", c.peukert.is_some()),
+        ("cutoff", c.cutoff.is_some()),
+        ("max_current", c.max_current.is_some()),
+        ("self_discharge", c.self_discharge.is_some()),
+        ("temperature", c.temperature.is_some()),
+    ]
+    .into_iter()
+    .filter_map(|(k, given)| given.then_some(k))
+    .collect()
 }
 
 fn chemistry(c: Option<ChemistrySpec>) -> Chemistry {

@@ -2,6 +2,7 @@
 //! `std::io::Write`; the library itself never prints.
 
 pub mod budget;
+pub mod cells;
 pub mod compare;
 pub mod heat;
 pub mod json;

@@ -66,6 +66,9 @@ pub struct CellSpec {
     /// A built-in preset this cell starts from; the other keys override it.
     #[serde(default)]
     pub preset: Option<String>,
+    /// One line saying what cell this is (shown by `joulepath cells`).
+    #[serde(default)]
+    pub description: Option<String>,
     /// Chemistry (default `other`).
     #[serde(default)]
     pub chemistry: Option<ChemistrySpec>,
@@ -99,6 +102,18 @@ pub struct CellSpec {
     /// Capacity and resistance factors against temperature.
     #[serde(default)]
     pub temperature: Option<Vec<TemperatureRowSpec>>,
+}
+
+impl CellSpec {
+    /// Read one cell from YAML text holding the keys of a `cells:` entry (how the built-in
+    /// presets are stored).
+    ///
+    /// # Errors
+    ///
+    /// The YAML parser's message, with its line and column, when the text is not such a cell.
+    pub fn from_yaml(text: &str) -> Result<Self, String> {
+        serde_yaml::from_str(text).map_err(|e| e.to_string())
+    }
 }
 
 /// The 1-RC polarization branch of a cell.

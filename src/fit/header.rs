@@ -1,0 +1,167 @@
+//! The header row of a curve file: which column is capacity, which is voltage, and their units.
+
+use super::FitError;
+
+/// A column of the CSV file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Column {
+    Capacity,
+    Voltage,
+}
+
+impl Column {
+    fn word(self) -> &'static str {
+        match self {
+            Column::Capacity => "capacity",
+            Column::Voltage => "voltage",
+        }
+    }
+
+    /// Units accepted and their factor to SI (coulombs, volts).
+    fn units(self) -> &'static [(&'static str, f64)] {
+        match self {
+            Column::Capacity => &[("Ah", 3600.0), ("mAh", 3.6)],
+            Column::Voltage => &[("V", 1.0), ("mV", 1e-3)],
+        }
+    }
+
+    fn other(self) -> Self {
+        match self {
+            Column::Capacity => Column::Voltage,
+            Column::Voltage => Column::Capacity,
+        }
+    }
+}
+
+/// The header to suggest in messages.
+pub(super) const HEADER_EXAMPLE: &str = "`capacity [mAh], voltage [V]`";
+
+/// The fields of a row with the 1-based column (in characters) where each starts.
+pub(super) fn split(row: &str, sep: char) -> Vec<(usize, &str)> {
+    let mut out = Vec::new();
+    let mut col = 1;
+    for field in row.split(sep) {
+        let lead = field.len() - field.trim_start().len();
+        out.push((col + field[..lead].chars().count(), field));
+        col += field.chars().count() + 1;
+    }
+    out
+}
+
+/// Reads the header: the index and SI scale of the capacity and of the voltage column.
+pub(super) fn header_columns(
+    header: &str,
+    line: usize,
+    sep: char,
+    name: &str,
+) -> Result<(usize, f64, usize, f64), FitError> {
+    let mut found: [Option<(usize, f64)>; 2] = [None, None];
+    if header.matches('[').count() > 1 && split(header, sep).len() == 1 {
+        return Err(FitError::new(
+            name,
+            "the header is one column: its names are not separated by commas",
+        )
+        .with_hint(format!("write the header as {HEADER_EXAMPLE}"))
+        .at(line, 1));
+    }
+    for (i, (col, field)) in split(header, sep).into_iter().enumerate() {
+        let cell = field.trim().trim_matches('"').trim();
+        let err =
+            |msg: String, hint: String| Err(FitError::new(name, msg).with_hint(hint).at(line, col));
+        let Some((word, rest)) = cell.split_once('[') else {
+            let what = if cell.is_empty() {
+                "is empty"
+            } else {
+                "has no unit in brackets"
+            };
+            return err(
+                format!("the header's column {} `{cell}` {what}", i + 1),
+                format!("name each column with its unit in square brackets: {HEADER_EXAMPLE}"),
+            );
+        };
+        let Some(unit) = rest.strip_suffix(']').map(str::trim) else {
+            return err(
+                format!(
+                    "the header's column {} `{cell}` does not end with `]`",
+                    i + 1
+                ),
+                format!("write the header as {HEADER_EXAMPLE}"),
+            );
+        };
+        let word = word.trim().to_lowercase();
+        let kind = match word.as_str() {
+            "capacity" => Column::Capacity,
+            "voltage" => Column::Voltage,
+            _ => {
+                return err(
+                    format!(
+                        "the header's column {} `{cell}` is neither capacity nor voltage; a curve file has exactly these two columns",
+                        i + 1
+                    ),
+                    format!("keep exactly two columns, {HEADER_EXAMPLE}, and remove any other"),
+                );
+            }
+        };
+        let Some(&(_, scale)) = kind.units().iter().find(|(u, _)| *u == unit) else {
+            return err(unknown_unit(kind, unit), unit_hint(kind));
+        };
+        let slot = &mut found[kind as usize];
+        if let Some((first, _)) = slot {
+            return err(
+                format!(
+                    "the header names {} twice, in columns {} and {}",
+                    kind.word(),
+                    *first + 1,
+                    i + 1
+                ),
+                format!("keep exactly two columns, {HEADER_EXAMPLE}"),
+            );
+        }
+        *slot = Some((i, scale));
+    }
+    match found {
+        [Some((c, cs)), Some((v, vs))] => Ok((c, cs, v, vs)),
+        _ => {
+            let missing = if found[0].is_none() {
+                "capacity"
+            } else {
+                "voltage"
+            };
+            Err(
+                FitError::new(name, format!("the header has no {missing} column"))
+                    .with_hint(format!("write the header as {HEADER_EXAMPLE}"))
+                    .at(line, 1),
+            )
+        }
+    }
+}
+
+fn unknown_unit(kind: Column, unit: &str) -> String {
+    if kind.other().units().iter().any(|(u, _)| *u == unit) {
+        format!(
+            "`{unit}` is a unit of {}, not of {}",
+            kind.other().word(),
+            kind.word()
+        )
+    } else if let Some((u, _)) = kind
+        .units()
+        .iter()
+        .find(|(u, _)| u.eq_ignore_ascii_case(unit))
+    {
+        format!(
+            "unknown unit `{unit}` for {}: did you mean `{u}`?",
+            kind.word()
+        )
+    } else {
+        format!("unknown unit `{unit}` for {}", kind.word())
+    }
+}
+
+fn unit_hint(kind: Column) -> String {
+    let names: Vec<String> = kind.units().iter().map(|(u, _)| format!("`{u}`")).collect();
+    format!(
+        "{} takes {} (prefixes are case-sensitive)",
+        kind.word(),
+        names.join(" or ")
+    )
+}

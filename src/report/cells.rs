@@ -1,0 +1,259 @@
+//! `joulepath cells`: the built-in cell presets, all of them in one table or one in full.
+
+use std::io::{self, Write};
+
+use serde::Serialize;
+
+use super::Format;
+use super::text::{Align, TextTable};
+use crate::model::{MONTH_S, Preset};
+use crate::units::{fmt_celsius, fmt_eng, fmt_percent, fmt_sig};
+
+/// Days in the year of the per-year self-discharge shown beside the monthly rate.
+const YEAR_DAYS: f64 = 365.25;
+
+/// `cells --format json` (DESIGN section 7).
+#[derive(Debug, Clone, Serialize)]
+pub struct CellsJson {
+    /// One entry per preset listed.
+    pub cells: Vec<CellJson>,
+}
+
+/// One preset in `cells --format json`.
+#[derive(Debug, Clone, Serialize)]
+pub struct CellJson {
+    /// Preset name.
+    pub name: String,
+    /// Chemistry, as written in design files.
+    pub chemistry: String,
+    /// Mean open-circuit voltage over 0..100 % SoC, V.
+    pub nominal_v: f64,
+    /// Rated capacity, Ah.
+    pub capacity_ah: f64,
+    /// Rated capacity x nominal voltage, Wh.
+    pub energy_wh: f64,
+    /// End-of-discharge voltage under load, V.
+    pub cutoff_v: f64,
+}
+
+impl CellJson {
+    /// The summary of a preset.
+    pub fn of(p: &Preset) -> Self {
+        Self {
+            name: p.name.to_string(),
+            chemistry: p.cell.chemistry.name().to_string(),
+            nominal_v: p.nominal_v(),
+            capacity_ah: p.capacity_ah(),
+            energy_wh: p.energy_wh(),
+            cutoff_v: p.cell.cutoff_v,
+        }
+    }
+}
+
+/// Write the list of presets: name, chemistry, nominal voltage, capacity, energy, cutoff.
+///
+/// # Examples
+///
+/// ```
+/// use joulepath::model::Preset;
+/// use joulepath::report::{Format, cells::write_cells};
+/// let mut out = Vec::new();
+/// write_cells(&mut out, &Preset::all().unwrap(), Format::Json).unwrap();
+/// let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
+/// assert_eq!(v["cells"][0]["name"], "alkaline-aa");
+/// ```
+pub fn write_cells(w: &mut dyn Write, presets: &[Preset], format: Format) -> io::Result<()> {
+    match format {
+        Format::Json => json(w, presets),
+        Format::Csv => csv(w, presets),
+        Format::Table => {
+            writeln!(w, "Built-in cell presets")?;
+            writeln!(w)?;
+            let mut t = TextTable::new(&[
+                ("name", Align::Left),
+                ("chemistry", Align::Left),
+                ("nominal", Align::Right),
+                ("capacity", Align::Right),
+                ("energy", Align::Right),
+                ("cutoff", Align::Right),
+            ]);
+            for p in presets {
+                t.row(vec![
+                    p.name.to_string(),
+                    p.cell.chemistry.name().to_string(),
+                    fmt_eng(p.nominal_v(), "V"),
+                    fmt_eng(p.capacity_ah(), "Ah"),
+                    fmt_eng(p.energy_wh(), "Wh"),
+                    fmt_eng(p.cell.cutoff_v, "V"),
+                ]);
+            }
+            t.write(w, "  ")?;
+            writeln!(w)?;
+            writeln!(
+                w,
+                "Values per cell. Nominal: the mean open-circuit voltage over 0..100 % state of charge;"
+            )?;
+            writeln!(
+                w,
+                "energy: capacity x nominal. `joulepath cells NAME` shows a preset in full; use one"
+            )?;
+            writeln!(
+                w,
+                "as `battery: {{ cell: NAME }}` or override its keys with `{{ preset: NAME, capacity: ... }}`."
+            )
+        }
+    }
+}
+
+/// Write one preset in full: every parameter with its unit, the OCV curve with the resistance at
+/// each of its points, and where the origins of the values are. JSON and CSV give the summary of
+/// [`write_cells`] with this one entry.
+pub fn write_cell(w: &mut dyn Write, p: &Preset, format: Format) -> io::Result<()> {
+    match format {
+        Format::Json => json(w, std::slice::from_ref(p)),
+        Format::Csv => csv(w, std::slice::from_ref(p)),
+        Format::Table => table(w, p),
+    }
+}
+
+fn json(w: &mut dyn Write, presets: &[Preset]) -> io::Result<()> {
+    let j = CellsJson {
+        cells: presets.iter().map(CellJson::of).collect(),
+    };
+    serde_json::to_writer_pretty(&mut *w, &j)?;
+    writeln!(w)
+}
+
+fn csv(w: &mut dyn Write, presets: &[Preset]) -> io::Result<()> {
+    writeln!(w, "name,chemistry,nominal_v,capacity_ah,energy_wh,cutoff_v")?;
+    for p in presets {
+        let c = CellJson::of(p);
+        writeln!(
+            w,
+            "{},{},{},{},{},{}",
+            c.name, c.chemistry, c.nominal_v, c.capacity_ah, c.energy_wh, c.cutoff_v
+        )?;
+    }
+    Ok(())
+}
+
+fn table(w: &mut dyn Write, p: &Preset) -> io::Result<()> {
+    let c = &p.cell;
+    writeln!(w, "{}: {}", p.name, p.description)?;
+    writeln!(w)?;
+    let (r_lo, r_hi) = c
+        .resistance
+        .points()
+        .fold((f64::INFINITY, 0.0_f64), |(lo, hi), (_, r)| {
+            (lo.min(r), hi.max(r))
+        });
+    let resistance = if r_hi > r_lo {
+        format!(
+            "{} to {}, by state of charge (below)",
+            fmt_eng(r_lo, "Ω"),
+            fmt_eng(r_hi, "Ω")
+        )
+    } else {
+        fmt_eng(r_lo, "Ω")
+    };
+    let polarization = c.polarization.map_or_else(
+        || "none".to_string(),
+        |(r, tau)| format!("{}, time constant {}", fmt_eng(r, "Ω"), fmt_eng(tau, "s")),
+    );
+    let per_month = c.self_discharge_per_s * MONTH_S;
+    let per_year = c.self_discharge_per_s * YEAR_DAYS * 86_400.0;
+    let temperature: Vec<String> = c
+        .temp_capacity
+        .points()
+        .map(|(t, f)| {
+            format!(
+                "{}: capacity {}, resistance {}",
+                fmt_celsius(t),
+                fmt_percent(f),
+                fmt_percent(c.temp_resistance.at(t))
+            )
+        })
+        .collect();
+    let mut t = TextTable::new(&[("", Align::Left), ("", Align::Left)]);
+    let mut row = |k: &str, v: String| t.row(vec![k.to_string(), v]);
+    row("chemistry", c.chemistry.name().to_string());
+    row(
+        "capacity",
+        format!(
+            "{}, rated at {}",
+            fmt_eng(p.capacity_ah(), "Ah"),
+            fmt_eng(c.rated_current_a, "A")
+        ),
+    );
+    row(
+        "nominal voltage",
+        format!(
+            "{} (mean open-circuit voltage over 0..100 %)",
+            fmt_eng(p.nominal_v(), "V")
+        ),
+    );
+    row(
+        "energy",
+        format!(
+            "{} (capacity x nominal voltage)",
+            fmt_eng(p.energy_wh(), "Wh")
+        ),
+    );
+    row(
+        "open circuit",
+        format!(
+            "{} full, {} empty",
+            fmt_eng(c.ocv.at(1.0), "V"),
+            fmt_eng(c.ocv.at(0.0), "V")
+        ),
+    );
+    row("cutoff", format!("{} under load", fmt_eng(c.cutoff_v, "V")));
+    row("resistance", resistance);
+    row("polarization", polarization);
+    row("Peukert exponent", fmt_sig(c.peukert, 3));
+    row(
+        "max current",
+        c.max_current_a.map_or_else(
+            || "no limit given".to_string(),
+            |i| format!("{} continuous", fmt_eng(i, "A")),
+        ),
+    );
+    row(
+        "self-discharge",
+        format!(
+            "{}/month ({}/year) of the rated capacity",
+            fmt_percent(per_month),
+            fmt_percent(per_year)
+        ),
+    );
+    for (i, line) in temperature.into_iter().enumerate() {
+        row(if i == 0 { "temperature" } else { "" }, line);
+    }
+    // The header row of this two-column list is blank: skip it.
+    let mut list = Vec::new();
+    t.write(&mut list, "  ")?;
+    let list = String::from_utf8_lossy(&list);
+    for line in list.lines().skip(1) {
+        writeln!(w, "{line}")?;
+    }
+    writeln!(w)?;
+    let mut curve = TextTable::new(&[
+        ("SoC", Align::Right),
+        ("OCV", Align::Right),
+        ("resistance", Align::Right),
+    ]);
+    for (s, v) in c.ocv.points().collect::<Vec<_>>().into_iter().rev() {
+        curve.row(vec![
+            fmt_percent(s),
+            fmt_eng(v, "V"),
+            fmt_eng(c.resistance.at(s), "Ω"),
+        ]);
+    }
+    curve.write(w, "  ")?;
+    writeln!(w)?;
+    writeln!(
+        w,
+        "The source and status of every value are given beside it in presets/{}.yaml.",
+        p.name
+    )
+}
