@@ -287,3 +287,189 @@ fn heat_names_the_biggest_waster_first() {
         .sum();
     assert!((shares - 1.0).abs() < 1e-9);
 }
+
+#[test]
+fn set_changes_exactly_the_named_value() {
+    // `--set` on budget: the pack doubled in parallel halves its resistance; nothing else moves.
+    let base = Test::new()
+        .design(&tree())
+        .args(&["budget", "{file}", "--format", "json"])
+        .expect_code(0)
+        .json();
+    let set = Test::new()
+        .design(&tree())
+        .args(&[
+            "budget",
+            "{file}",
+            "--format",
+            "json",
+            "--set",
+            "loads.led.draw.lit=30 mW",
+        ])
+        .expect_code(0)
+        .json();
+    let glow = |v: &serde_json::Value| v["modes"][1].clone();
+    assert!((glow(&set)["loads"][1]["power_w"].as_f64().unwrap() - 0.030).abs() < 1e-12);
+    assert!((glow(&base)["loads"][1]["power_w"].as_f64().unwrap() - 0.060).abs() < 1e-12);
+    // The other load and the other mode are untouched.
+    assert_eq!(glow(&set)["loads"][0], glow(&base)["loads"][0]);
+    assert_eq!(set["modes"][0], base["modes"][0]);
+    // A stage addressed by id, and a key the file leaves out.
+    let v = Test::new()
+        .design(&tree())
+        .args(&[
+            "budget",
+            "{file}",
+            "--format",
+            "json",
+            "--set",
+            "stages.buck-3v3.efficiency=80 %",
+            "--set",
+            "battery.parallel=2",
+        ])
+        .expect_code(0)
+        .json();
+    assert!((v["modes"][1]["stages"][0]["efficiency"].as_f64().unwrap() - 0.8).abs() < 0.01);
+}
+
+#[test]
+fn set_errors_have_the_file_quality() {
+    let out = Test::new()
+        .design(&tree())
+        .args(&["runtime", "{file}", "--set", "loads.leds.draw.lit=1 W"])
+        .expect_code(1);
+    assert!(
+        out.stderr.contains("no item `leds` in `loads`")
+            && out.stderr.contains("did you mean `led`?"),
+        "{}",
+        out.stderr
+    );
+    let out = Test::new()
+        .design(&tree())
+        .args(&["heat", "{file}", "--set", "loads.led.draw.lit=30"])
+        .expect_code(1);
+    assert!(
+        out.stderr.contains("loads[1].draw.lit") && out.stderr.contains("no unit"),
+        "{}",
+        out.stderr
+    );
+    Test::new()
+        .design(&tree())
+        .args(&["budget", "{file}", "--set", "battery.parallel"])
+        .expect_code(2);
+}
+
+#[test]
+fn compare_agrees_with_separate_runs() {
+    let t = Test::new().design(&tree());
+    let alone = t
+        .args(&["runtime", "{file}", "--format", "json"])
+        .expect_code(0)
+        .json();
+    let t = Test::new().design(&tree());
+    let doubled = t
+        .args(&[
+            "runtime",
+            "{file}",
+            "--format",
+            "json",
+            "--set",
+            "battery.parallel=2",
+        ])
+        .expect_code(0)
+        .json();
+    let t = Test::new().design(&tree());
+    let both = t
+        .args(&[
+            "compare",
+            "{file}",
+            "{file}",
+            "--set",
+            "battery.parallel=2",
+            "--format",
+            "json",
+        ])
+        .expect_code(0)
+        .json();
+    let d = both["designs"].as_array().unwrap();
+    assert_eq!(d.len(), 2);
+    assert_eq!(d[0]["runtime_s"], alone["runtime_s"]);
+    assert_eq!(d[1]["runtime_s"], doubled["runtime_s"]);
+    assert_eq!(d[0]["end"], alone["end"]);
+    // Twice the cells, about twice the runtime.
+    let ratio = d[1]["runtime_s"].as_f64().unwrap() / d[0]["runtime_s"].as_f64().unwrap();
+    assert!(ratio > 1.9 && ratio < 2.2, "{ratio}");
+    let table = Test::new()
+        .design(&tree())
+        .args(&["compare", "{file}", "{file}", "--set", "battery.parallel=2"])
+        .expect_code(0);
+    for frag in [
+        "comparing 2 designs",
+        "on runtime, B",
+        "on heat",
+        "on violations",
+        "Caution:",
+    ] {
+        assert!(
+            table.stdout.contains(frag),
+            "missing {frag:?}\n{}",
+            table.stdout
+        );
+    }
+    Test::new()
+        .design(&tree())
+        .args(&["compare", "{file}"])
+        .expect_code(2);
+}
+
+#[test]
+fn fit_cell_prints_a_cell_the_checker_accepts() {
+    let dir = crate::util::root().join("tests/data/fit");
+    let low = format!("120 mA:{}", dir.join("synthetic-120mA.csv").display());
+    let high = format!("600 mA:{}", dir.join("synthetic-600mA.csv").display());
+    let out = Test::new()
+        .args(&[
+            "fit-cell",
+            "--curve",
+            &low,
+            "--curve",
+            &high,
+            "--name",
+            "pouch-fit",
+        ])
+        .expect_code(0);
+    let yaml = &out.stdout;
+    assert!(yaml.contains("cells:\n  pouch-fit:\n"), "{yaml}");
+    assert!(
+        yaml.contains("residual"),
+        "the fit report follows the block: {yaml}"
+    );
+    // The printed block is a working `cells:` section.
+    let design = format!(
+        "{yaml}\nbattery: {{ cell: pouch-fit }}\nloads: [{{ id: l, rail: battery, draw: {{ on: 120 mA }} }}]\nmodes: {{ on: {{ l: on }} }}\nprofile: [{{ mode: on, for: 1 h }}]\n"
+    );
+    let d = joulepath::Design::from_text(&design).unwrap_or_else(|e| panic!("{e}\n{design}"));
+    assert_eq!(d.pack.cell.name, "pouch-fit");
+    let v = Test::new()
+        .args(&[
+            "fit-cell", "--curve", &low, "--curve", &high, "--format", "json",
+        ])
+        .expect_code(0)
+        .json();
+    assert!(
+        v["cell"]["ocv"].is_array() && v["report"].is_object(),
+        "{v}"
+    );
+    // One curve only, a bad CSV, a malformed --curve.
+    let out = Test::new()
+        .args(&["fit-cell", "--curve", &low])
+        .expect_code(1);
+    assert!(out.stderr.contains("two"), "{}", out.stderr);
+    let bad = format!("120 mA:{}", dir.join("no-units.csv").display());
+    Test::new()
+        .args(&["fit-cell", "--curve", &bad, "--curve", &high])
+        .expect_code(1);
+    Test::new()
+        .args(&["fit-cell", "--curve", "low.csv", "--curve", &high])
+        .expect_code(2);
+}

@@ -36,6 +36,10 @@ pub enum Command {
     Budget {
         /// The design file (YAML).
         file: PathBuf,
+        /// Override one value of the design, e.g. `--set battery.parallel=2` or
+        /// `--set loads.radio.draw.tx="90 mA"` (list items by id); may be repeated.
+        #[arg(long = "set", value_name = "PATH=VALUE")]
+        sets: Vec<String>,
         /// State of charge of the pack (default: the design's `battery.start`), e.g. `30%` or 0.3.
         #[arg(long, value_parser = parse_soc)]
         soc: Option<f64>,
@@ -53,6 +57,10 @@ pub enum Command {
     Runtime {
         /// The design file (YAML).
         file: PathBuf,
+        /// Override one value of the design, e.g. `--set battery.parallel=2` or
+        /// `--set loads.radio.draw.tx="90 mA"` (list items by id); may be repeated.
+        #[arg(long = "set", value_name = "PATH=VALUE")]
+        sets: Vec<String>,
         #[command(flatten)]
         run: RunArgs,
         /// Add a decimated time series (t, SoC, OCV, V, I) that keeps the pulses' lowest voltages.
@@ -69,6 +77,10 @@ pub enum Command {
     Heat {
         /// The design file (YAML).
         file: PathBuf,
+        /// Override one value of the design, e.g. `--set battery.parallel=2` or
+        /// `--set loads.radio.draw.tx="90 mA"` (list items by id); may be repeated.
+        #[arg(long = "set", value_name = "PATH=VALUE")]
+        sets: Vec<String>,
         #[command(flatten)]
         run: RunArgs,
         /// Output format.
@@ -84,6 +96,39 @@ pub enum Command {
         name: Option<String>,
         /// Output format (JSON and CSV give the summary: chemistry, nominal voltage, capacity,
         /// energy, cutoff).
+        #[arg(long, value_enum, default_value_t = FormatArg::Table)]
+        format: FormatArg,
+        /// Write to this file instead of standard output.
+        #[arg(short = 'o', long = "output")]
+        output: Option<PathBuf>,
+    },
+    /// The runtime analysis of several designs side by side, and which one wins.
+    ///
+    /// `compare FILE [--set PATH=VALUE]... FILE [--set PATH=VALUE]... [--format F] [-o OUT]
+    /// [--plot OUT.svg] [--ambient T] [--horizon D] [--exact]`: each `--set` applies to the file
+    /// before it, so one file can be compared with its variants.
+    Compare {
+        /// Design files, each followed by its own `--set` overrides, then options.
+        #[arg(trailing_var_arg = true, allow_hyphen_values = true, num_args = 1.., required = true)]
+        words: Vec<String>,
+    },
+    /// A cell fitted from datasheet discharge curves, printed as a `cells:` block.
+    FitCell {
+        /// A discharge curve at a constant current: `CURRENT:FILE`, e.g. `"200 mA:low.csv"`; the
+        /// CSV has a header naming each column's quantity and unit (`capacity [mAh]`,
+        /// `voltage [V]`). Two or more curves.
+        #[arg(long = "curve", value_name = "CURRENT:FILE", required = true)]
+        curves: Vec<String>,
+        /// Name of the fitted cell (default `fitted-cell`).
+        #[arg(long)]
+        name: Option<String>,
+        /// Current of the capacity rating (default the lowest curve current), e.g. `200 mA`.
+        #[arg(long)]
+        rated_current: Option<String>,
+        /// End-of-discharge voltage (default the lowest final voltage of the curves), e.g. `3.0 V`.
+        #[arg(long)]
+        cutoff: Option<String>,
+        /// Output format: table (YAML block and report) or json.
         #[arg(long, value_enum, default_value_t = FormatArg::Table)]
         format: FormatArg,
         /// Write to this file instead of standard output.
@@ -124,7 +169,7 @@ pub struct RunArgs {
     pub exact: bool,
 }
 
-fn parse_with(s: &str, dim: joulepath::units::Dim) -> Result<f64, String> {
+pub(super) fn parse_with(s: &str, dim: joulepath::units::Dim) -> Result<f64, String> {
     joulepath::units::parse_quantity(s, &[dim])
         .map(joulepath::units::Quantity::value)
         .map_err(|e| {
@@ -133,11 +178,11 @@ fn parse_with(s: &str, dim: joulepath::units::Dim) -> Result<f64, String> {
         })
 }
 
-fn parse_temperature(s: &str) -> Result<f64, String> {
+pub(super) fn parse_temperature(s: &str) -> Result<f64, String> {
     parse_with(s, joulepath::units::Dim::Temperature)
 }
 
-fn parse_duration(s: &str) -> Result<f64, String> {
+pub(super) fn parse_duration(s: &str) -> Result<f64, String> {
     let v = parse_with(s, joulepath::units::Dim::Time)?;
     if v > 0.0 {
         Ok(v)

@@ -7,12 +7,15 @@ use joulepath::Design;
 use joulepath::error::{Diagnostic, Error, did_you_mean};
 use joulepath::model::Preset;
 use joulepath::report::cells::{write_cell, write_cells};
+use joulepath::report::compare::{Entry, write_compare};
 use joulepath::report::{
     Format, budget::write_budget, heat::write_heat, outline::write_outline, runtime::write_runtime,
 };
 use joulepath::solve::budget;
+use joulepath::spec::Override;
 
-use super::args::{Args, Command, FormatArg, RunArgs};
+use super::args::{Args, Command, FormatArg, RunArgs, parse_with};
+use super::groups::{CompareArgs, parse_groups};
 use super::render::render_diagnostics;
 
 /// Why a command did not succeed.
@@ -62,8 +65,18 @@ fn read(path: &Path) -> Result<String, Failure> {
 }
 
 fn load(path: &Path) -> Result<Design, Failure> {
+    load_with(path, &[])
+}
+
+/// Read a design with `--set PATH=VALUE` overrides applied.
+fn load_with(path: &Path, sets: &[String]) -> Result<Design, Failure> {
     let text = read(path)?;
-    Design::from_text(&text).map_err(|e| match e {
+    let overrides = sets
+        .iter()
+        .map(|s| Override::parse(s))
+        .collect::<Result<Vec<_>, _>>()
+        .map_err(|d| Failure::Usage(format!("{} ({})", d.message(), d.hint().unwrap_or(""))))?;
+    Design::from_text_with(&text, &overrides).map_err(|e| match e {
         Error::Invalid(diagnostics) => Failure::Invalid {
             file: path.to_path_buf(),
             text,
@@ -131,12 +144,13 @@ pub fn run(args: &Args) -> Result<(), Failure> {
         }
         Command::Budget {
             file,
+            sets,
             soc,
             mode,
             format: f,
             output,
         } => {
-            let d = load(file)?;
+            let d = load_with(file, sets)?;
             let modes: Vec<usize> = match mode {
                 None => (0..d.modes.len()).collect(),
                 Some(name) => match d.mode_index(name) {
@@ -164,12 +178,13 @@ pub fn run(args: &Args) -> Result<(), Failure> {
         }
         Command::Runtime {
             file,
+            sets,
             run: ra,
             trace,
             format: f,
             output,
         } => {
-            let d = load(file)?;
+            let d = load_with(file, sets)?;
             let opt = run_options(&d, ra, *trace);
             let result = joulepath::solve::run(&d, &opt);
             write_runtime(&mut buf, &d, &result, format(*f), *trace).map_err(io_fail)?;
@@ -177,11 +192,12 @@ pub fn run(args: &Args) -> Result<(), Failure> {
         }
         Command::Heat {
             file,
+            sets,
             run: ra,
             format: f,
             output,
         } => {
-            let d = load(file)?;
+            let d = load_with(file, sets)?;
             let result = joulepath::solve::run(&d, &run_options(&d, ra, false));
             write_heat(&mut buf, &d, &result, format(*f)).map_err(io_fail)?;
             emit(&buf, output.as_deref())
@@ -209,9 +225,133 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             }
             emit(&buf, output.as_deref())
         }
+        Command::Compare { words } => {
+            let ca = parse_groups(words).map_err(Failure::Usage)?;
+            compare(&ca)
+        }
+        Command::FitCell {
+            curves,
+            name,
+            rated_current,
+            cutoff,
+            format: f,
+            output,
+        } => {
+            fit_cell(
+                curves,
+                name.as_deref(),
+                rated_current.as_deref(),
+                cutoff.as_deref(),
+                format(*f),
+                &mut buf,
+            )?;
+            emit(&buf, output.as_deref())
+        }
         Command::Schema { output } => emit(
             joulepath::spec::design_schema().as_bytes(),
             output.as_deref(),
         ),
+    }
+}
+
+fn compare(ca: &CompareArgs) -> Result<(), Failure> {
+    let mut designs = Vec::new();
+    for g in &ca.groups {
+        let d = load_with(&g.file, &g.sets)?;
+        let mut label = g.file.display().to_string();
+        for s in &g.sets {
+            label.push_str(&format!(" --set {s}"));
+        }
+        designs.push((label, d));
+    }
+    let runs: Vec<joulepath::solve::RunResult> = designs
+        .iter()
+        .map(|(_, d)| {
+            let ra = RunArgs {
+                ambient: ca.ambient,
+                horizon: ca.horizon,
+                exact: ca.exact,
+            };
+            joulepath::solve::run(d, &run_options(d, &ra, ca.plot.is_some()))
+        })
+        .collect();
+    let entries: Vec<Entry<'_>> = designs
+        .iter()
+        .zip(&runs)
+        .map(|((label, d), r)| Entry {
+            label: label.clone(),
+            design: d,
+            run: r,
+        })
+        .collect();
+    let mut buf = Vec::new();
+    write_compare(&mut buf, &entries, format(ca.format))
+        .map_err(|e| Failure::Input(format!("cannot write the output: {e}")))?;
+    emit(&buf, ca.output.as_deref())
+}
+
+fn fit_cell(
+    curves: &[String],
+    name: Option<&str>,
+    rated: Option<&str>,
+    cutoff: Option<&str>,
+    fmt: Format,
+    buf: &mut Vec<u8>,
+) -> Result<(), Failure> {
+    use joulepath::units::Dim;
+    let mut read_curves = Vec::new();
+    for c in curves {
+        let Some((current, file)) = c.split_once(':') else {
+            return Err(Failure::Usage(format!(
+                "`--curve {c}` is not CURRENT:FILE (for example `--curve \"200 mA:low.csv\"`)"
+            )));
+        };
+        let current_a = parse_with(current.trim(), Dim::Current)
+            .map_err(|e| Failure::Usage(format!("`--curve {c}`: {e}")))?;
+        let path = PathBuf::from(file.trim());
+        let text = read(&path)?;
+        let curve = joulepath::fit::read_curve(&text, current_a, &path.display().to_string())
+            .map_err(|e| Failure::Invalid {
+                file: path.clone(),
+                text: text.clone(),
+                diagnostics: vec![e.into()],
+            })?;
+        read_curves.push(curve);
+    }
+    let mut opts = joulepath::fit::FitOptions::default();
+    if let Some(r) = rated {
+        opts.rated_current_a = Some(parse_with(r, Dim::Current).map_err(Failure::Usage)?);
+    }
+    if let Some(v) = cutoff {
+        opts.cutoff_v = Some(parse_with(v, Dim::Voltage).map_err(Failure::Usage)?);
+    }
+    let fit = joulepath::fit::fit(&read_curves, &opts)
+        .map_err(|e| Failure::Input(render_fit_error(&e)))?;
+    let name = name.unwrap_or("fitted-cell");
+    let io_fail = |e: io::Error| Failure::Input(format!("cannot write the output: {e}"));
+    match fmt {
+        Format::Json => {
+            serde_json::to_writer_pretty(&mut *buf, &joulepath::fit::cell_json(&fit, name))
+                .map_err(|e| Failure::Input(e.to_string()))?;
+            writeln!(buf).map_err(io_fail)
+        }
+        _ => {
+            write!(buf, "{}", joulepath::fit::cell_yaml(&fit, name)).map_err(io_fail)?;
+            writeln!(buf).map_err(io_fail)?;
+            for line in joulepath::fit::report(&fit).to_string().lines() {
+                writeln!(buf, "# {line}").map_err(io_fail)?;
+            }
+            Ok(())
+        }
+    }
+}
+
+fn render_fit_error(e: &joulepath::fit::FitError) -> String {
+    let d: Diagnostic = e.clone().into();
+    let hint = d.hint().map(|h| format!(" ({h})")).unwrap_or_default();
+    if d.path().is_empty() {
+        format!("{}{hint}", d.message())
+    } else {
+        format!("{}: {}{hint}", d.path(), d.message())
     }
 }

@@ -27,7 +27,8 @@
 //! 3. Grid points outside the covered range are extrapolated (OCV linearly from the two nearest
 //!    fitted points, R held) and flagged; the OCV column is made non-decreasing (the checker's
 //!    rule) by the least-squares monotone fit, and adjusted points are flagged.
-//! 4. The cutoff is the highest of the curves' final voltages unless given.
+//! 4. The cutoff is the lowest of the curves' final voltages unless given, so that the fitted
+//!    cell delivers every curve's capacity.
 //!
 //! # Examples
 //!
@@ -75,7 +76,7 @@ use crate::model::Chemistry;
 pub struct FitOptions {
     /// Current of the capacity rating, A; default the lowest current of the curves.
     pub rated_current_a: Option<f64>,
-    /// End-of-discharge voltage, V; default the highest of the curves' final voltages.
+    /// End-of-discharge voltage, V; default the lowest of the curves' final voltages.
     pub cutoff_v: Option<f64>,
     /// Spacing of the SoC grid, as a fraction (0.005 to 0.5); default 0.05 (every 5 %).
     pub soc_step: f64,

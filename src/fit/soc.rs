@@ -147,9 +147,12 @@ pub fn fit(curves: &[Curve], opts: &FitOptions) -> Result<Fit, FitError> {
             "the fitted tables are not valid: SoC points repeat",
         ));
     };
-    let cutoff_v = opts
-        .cutoff_v
-        .unwrap_or_else(|| curves.iter().map(Curve::final_v).fold(1e-3, f64::max));
+    let cutoff_v = opts.cutoff_v.unwrap_or_else(|| {
+        curves
+            .iter()
+            .map(Curve::final_v)
+            .fold(f64::INFINITY, f64::min)
+    });
     // A millivolt of margin, so that the rounded values keep the cutoff below the full OCV.
     if cutoff_v + 1e-3 > ocv.at(1.0) {
         return Err(FitError::new(

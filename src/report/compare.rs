@@ -43,7 +43,7 @@ pub fn write_compare(w: &mut dyn Write, entries: &[Entry<'_>], format: Format) -
                     .iter()
                     .map(|e| {
                         let mut r = RuntimeJson::new(e.design, e.run, false);
-                        if e.label != e.design.title {
+                        if e.label.contains(" --set ") {
                             r.design = format!("{} [{}]", e.design.title, e.label);
                         }
                         r
@@ -87,11 +87,21 @@ fn write_table(w: &mut dyn Write, entries: &[Entry<'_>]) -> io::Result<()> {
             .ideal_runtime_s()
             .map_or_else(|| "—".into(), |i| fmt_percent(e.run.runtime_s() / i))
     }));
-    t.row(row("average pack current", &|e| fmt_eng(e.run.average_current_a(), "A")));
-    t.row(row("energy drawn", &|e| fmt_eng(e.run.ledger.energy_j / 3600.0, "Wh")));
-    t.row(row("lost in the pack", &|e| fmt_eng(e.run.ledger.pack_loss_j / 3600.0, "Wh")));
-    t.row(row("lost in stages", &|e| fmt_eng(e.run.ledger.stage_loss_total() / 3600.0, "Wh")));
-    t.row(row("biggest waster", &|e| biggest(e).map_or_else(|| "—".into(), |(id, _)| id)));
+    t.row(row("average pack current", &|e| {
+        fmt_eng(e.run.average_current_a(), "A")
+    }));
+    t.row(row("energy drawn", &|e| {
+        fmt_eng(e.run.ledger.energy_j / 3600.0, "Wh")
+    }));
+    t.row(row("lost in the pack", &|e| {
+        fmt_eng(e.run.ledger.pack_loss_j / 3600.0, "Wh")
+    }));
+    t.row(row("lost in stages", &|e| {
+        fmt_eng(e.run.ledger.stage_loss_total() / 3600.0, "Wh")
+    }));
+    t.row(row("biggest waster", &|e| {
+        biggest(e).map_or_else(|| "—".into(), |(id, _)| id)
+    }));
     t.row(row("violations", &|e| e.run.violations.len().to_string()));
     t.write(w, "  ")?;
 
@@ -139,7 +149,8 @@ fn write_table(w: &mut dyn Write, entries: &[Entry<'_>]) -> io::Result<()> {
 
 fn biggest(e: &Entry<'_>) -> Option<(String, f64)> {
     let l = &e.run.ledger;
-    let k = (0..e.design.stages.len()).max_by(|&a, &b| l.stage_loss_j[a].total_cmp(&l.stage_loss_j[b]))?;
+    let k = (0..e.design.stages.len())
+        .max_by(|&a, &b| l.stage_loss_j[a].total_cmp(&l.stage_loss_j[b]))?;
     Some((e.design.stages[k].id.clone(), l.stage_loss_j[k]))
 }
 
@@ -154,7 +165,11 @@ pub fn verdicts(entries: &[Entry<'_>]) -> Vec<String> {
         (0..entries.len())
             .max_by(|&a, &b| {
                 let (x, y) = (key(&entries[a]), key(&entries[b]));
-                if high { x.total_cmp(&y) } else { y.total_cmp(&x) }
+                if high {
+                    x.total_cmp(&y)
+                } else {
+                    y.total_cmp(&x)
+                }
             })
             .unwrap_or(0)
     };
@@ -179,13 +194,23 @@ pub fn verdicts(entries: &[Entry<'_>]) -> Vec<String> {
         others.join(", ")
     ));
     for (i, e) in entries.iter().enumerate() {
-        out.push(format!("{} stops because {}.", letter(i), end_sentence(e.design, e.run)));
+        out.push(format!(
+            "{} stops because {}.",
+            letter(i),
+            end_sentence(e.design, e.run)
+        ));
     }
     // Heat.
     let h = best(&|e| total_loss(e.run), false);
     let others: Vec<String> = (0..entries.len())
         .filter(|&i| i != h)
-        .map(|i| format!("{} in {}", fmt_eng(total_loss(entries[i].run) / 3600.0, "Wh"), letter(i)))
+        .map(|i| {
+            format!(
+                "{} in {}",
+                fmt_eng(total_loss(entries[i].run) / 3600.0, "Wh"),
+                letter(i)
+            )
+        })
         .collect();
     out.push(format!(
         "on heat, {} wastes least: {} lost in stages and pack against {}",
@@ -201,7 +226,12 @@ pub fn verdicts(entries: &[Entry<'_>]) -> Vec<String> {
         out.push(format!("on violations, they tie with {min} each"));
     } else {
         let kinds = |i: usize| {
-            let mut k: Vec<&str> = entries[i].run.violations.iter().map(|v| v.kind.name()).collect();
+            let mut k: Vec<&str> = entries[i]
+                .run
+                .violations
+                .iter()
+                .map(|v| v.kind.name())
+                .collect();
             k.dedup();
             k.join(", ")
         };
@@ -211,8 +241,16 @@ pub fn verdicts(entries: &[Entry<'_>]) -> Vec<String> {
             .collect();
         out.push(format!(
             "on violations, {} {} fewest: {min} against {}",
-            fewest.iter().map(|&i| name(i)).collect::<Vec<_>>().join(" and "),
-            if fewest.len() == 1 { "has the" } else { "have the" },
+            fewest
+                .iter()
+                .map(|&i| name(i))
+                .collect::<Vec<_>>()
+                .join(" and "),
+            if fewest.len() == 1 {
+                "has the"
+            } else {
+                "have the"
+            },
             worse.join(", ")
         ));
     }
@@ -232,14 +270,17 @@ fn facts(entries: &[Entry<'_>]) -> Vec<String> {
         let l = &e.run.ledger;
         for (k, st) in e.design.stages.iter().enumerate() {
             for (state, what) in [
-                (StageState::Bypass, "in bypass, passing the pack through instead of regulating"),
+                (
+                    StageState::Bypass,
+                    "in bypass, passing the pack through instead of regulating",
+                ),
                 (StageState::Dropout, "in dropout, below its setpoint"),
                 (StageState::Undervoltage, "locked out by undervoltage"),
             ] {
                 let share = l.stage_state_s[k][state_index(state)] / t;
                 if share >= 0.01 {
                     out.push(format!(
-                        "in {}, `{}` is {what} for {} of the runtime",
+                        "in {}, `{}` spends {} of the runtime {what}",
                         letter(i),
                         st.id,
                         fmt_percent(share)
@@ -264,7 +305,8 @@ fn facts(entries: &[Entry<'_>]) -> Vec<String> {
                     "in {}, the supply of `{}` is above its {} maximum for {} of the runtime",
                     letter(i),
                     load.id,
-                    load.v_max.map_or_else(|| "rated".into(), |v| fmt_eng(v, "V")),
+                    load.v_max
+                        .map_or_else(|| "rated".into(), |v| fmt_eng(v, "V")),
                     fmt_percent(share)
                 ));
             }
@@ -274,7 +316,10 @@ fn facts(entries: &[Entry<'_>]) -> Vec<String> {
 }
 
 fn write_csv(w: &mut dyn Write, entries: &[Entry<'_>]) -> io::Result<()> {
-    writeln!(w, "design,label,runtime_s,end_reason,end_soc,average_current_a,energy_wh,pack_loss_wh,stage_loss_wh,violations")?;
+    writeln!(
+        w,
+        "design,label,runtime_s,end_reason,end_soc,average_current_a,energy_wh,pack_loss_wh,stage_loss_wh,violations"
+    )?;
     for (i, e) in entries.iter().enumerate() {
         let l = &e.run.ledger;
         writeln!(
