@@ -5,7 +5,6 @@ pub mod budget;
 pub mod cells;
 pub mod compare;
 pub mod heat;
-pub mod html;
 pub mod json;
 pub mod outline;
 pub mod runtime;
