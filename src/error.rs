@@ -65,6 +65,17 @@ impl Diagnostic {
         self
     }
 
+    /// The same diagnostic at a 1-based line and column.
+    #[must_use]
+    pub fn at_line_col(self, line: usize, col: usize) -> Self {
+        self.at(Some(Location { line, col }))
+    }
+
+    /// The 1-based line, when the place is known.
+    pub fn line(&self) -> Option<usize> {
+        self.location.map(|l| l.line)
+    }
+
     /// The YAML path of the value concerned, e.g. `loads[1].draw.tx`.
     pub fn path(&self) -> &str {
         &self.path
@@ -102,6 +113,8 @@ impl fmt::Display for Diagnostic {
         Ok(())
     }
 }
+
+impl std::error::Error for Diagnostic {}
 
 /// The library's error: an invalid design (every problem found) or a failed write.
 #[derive(Debug)]

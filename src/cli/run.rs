@@ -347,7 +347,7 @@ fn fit_cell(
 }
 
 fn render_fit_error(e: &joulepath::fit::FitError) -> String {
-    let d: Diagnostic = e.clone().into();
+    let d: Diagnostic = e.clone();
     let hint = d.hint().map(|h| format!(" ({h})")).unwrap_or_default();
     if d.path().is_empty() {
         format!("{}{hint}", d.message())

@@ -188,7 +188,7 @@ pub fn read_curve(text: &str, current_a: f64, name: &str) -> Result<Curve, FitEr
                 ),
             )
             .with_hint("write one capacity and one voltage per row, separated like the header")
-            .at(line, 1));
+            .at_line_col(line, 1));
         }
         let cap = number(fields[cap_col], line, name)?;
         let v = number(fields[v_col], line, name)?;
@@ -199,14 +199,14 @@ pub fn read_curve(text: &str, current_a: f64, name: &str) -> Result<Curve, FitEr
                 format!("line {line}: the capacity `{cap_text}` is negative"),
             )
             .with_hint("the capacity column is the charge delivered since the start, from 0")
-            .at(line, fields[cap_col].0));
+            .at_line_col(line, fields[cap_col].0));
         }
         if v <= 0.0 {
             return Err(FitError::new(
                 name,
                 format!("line {line}: the voltage `{v_text}` is not above zero"),
             )
-            .at(line, fields[v_col].0));
+            .at_line_col(line, fields[v_col].0));
         }
         let q = cap * cap_scale;
         if !q.is_finite() {
@@ -214,7 +214,7 @@ pub fn read_curve(text: &str, current_a: f64, name: &str) -> Result<Curve, FitEr
                 name,
                 format!("line {line}: the capacity `{cap_text}` is out of range"),
             )
-            .at(line, fields[cap_col].0));
+            .at_line_col(line, fields[cap_col].0));
         }
         if let (Some(&(q_prev, _)), Some((prev_line, prev_text))) = (points.last(), previous) {
             if q <= q_prev {
@@ -225,7 +225,7 @@ pub fn read_curve(text: &str, current_a: f64, name: &str) -> Result<Curve, FitEr
                     ),
                 )
                 .with_hint("sort the rows by delivered capacity and remove repeated points")
-                .at(line, fields[cap_col].0));
+                .at_line_col(line, fields[cap_col].0));
             }
         }
         previous = Some((line, cap_text));
@@ -264,7 +264,7 @@ fn number((col, field): (usize, &str), line: usize, name: &str) -> Result<f64, F
                 format!("line {line}, column {col}: `{shown}` is not a number"),
             )
             .with_hint(hint)
-            .at(line, col))
+            .at_line_col(line, col))
         }
     }
 }

@@ -62,12 +62,15 @@ pub(super) fn header_columns(
             "the header is one column: its names are not separated by commas",
         )
         .with_hint(format!("write the header as {HEADER_EXAMPLE}"))
-        .at(line, 1));
+        .at_line_col(line, 1));
     }
     for (i, (col, field)) in split(header, sep).into_iter().enumerate() {
         let cell = field.trim().trim_matches('"').trim();
-        let err =
-            |msg: String, hint: String| Err(FitError::new(name, msg).with_hint(hint).at(line, col));
+        let err = |msg: String, hint: String| {
+            Err(FitError::new(name, msg)
+                .with_hint(hint)
+                .at_line_col(line, col))
+        };
         let Some((word, rest)) = cell.split_once('[') else {
             let what = if cell.is_empty() {
                 "is empty"
@@ -130,7 +133,7 @@ pub(super) fn header_columns(
             Err(
                 FitError::new(name, format!("the header has no {missing} column"))
                     .with_hint(format!("write the header as {HEADER_EXAMPLE}"))
-                    .at(line, 1),
+                    .at_line_col(line, 1),
             )
         }
     }

@@ -66,9 +66,7 @@ pub use output::{
 pub use peukert::{peukert_factor, peukert_from_capacities, peukert_from_times};
 pub use soc::fit;
 
-use std::fmt;
-
-use crate::error::{Diagnostic, Location};
+use crate::error::Diagnostic;
 use crate::model::Chemistry;
 
 /// Choices of the fit; [`FitOptions::default`] suits a typical datasheet.
@@ -95,87 +93,15 @@ impl Default for FitOptions {
     }
 }
 
-/// Why curves cannot be read or fitted: a message, a fix, and the file and line concerned.
+/// Why curves cannot be read or fitted: a [`Diagnostic`] whose path is the file or curve
+/// concerned (empty for the fit as a whole), with the line and column where one place is at
+/// fault.
 ///
 /// # Examples
 ///
 /// ```
 /// let e = joulepath::fit::read_curve("", 0.2, "low.csv").unwrap_err();
 /// assert!(e.message().contains("empty"));
-/// let d: joulepath::Diagnostic = e.into();
-/// assert_eq!(d.path(), "low.csv");
+/// assert_eq!(e.path(), "low.csv");
 /// ```
-#[derive(Debug, Clone, PartialEq, Eq)]
-pub struct FitError {
-    path: String,
-    message: String,
-    hint: Option<String>,
-    location: Option<Location>,
-}
-
-impl FitError {
-    /// An error about the file or curve `path` (empty when it concerns the whole fit).
-    pub fn new(path: impl Into<String>, message: impl Into<String>) -> Self {
-        Self {
-            path: path.into(),
-            message: message.into(),
-            hint: None,
-            location: None,
-        }
-    }
-
-    /// The same error with a fix to suggest.
-    #[must_use]
-    pub fn with_hint(mut self, hint: impl Into<String>) -> Self {
-        self.hint = Some(hint.into());
-        self
-    }
-
-    /// The same error at a 1-based line and column of the file.
-    #[must_use]
-    pub fn at(mut self, line: usize, col: usize) -> Self {
-        self.location = Some(Location { line, col });
-        self
-    }
-
-    /// The file or curve concerned (empty for the fit as a whole).
-    pub fn path(&self) -> &str {
-        &self.path
-    }
-
-    /// What is wrong, in one sentence starting in lower case.
-    pub fn message(&self) -> &str {
-        &self.message
-    }
-
-    /// How to fix it.
-    pub fn hint(&self) -> Option<&str> {
-        self.hint.as_deref()
-    }
-
-    /// The 1-based line of the file, where one line is at fault.
-    pub fn line(&self) -> Option<usize> {
-        self.location.map(|l| l.line)
-    }
-
-    /// Line and column, where one place is at fault.
-    pub fn location(&self) -> Option<Location> {
-        self.location
-    }
-}
-
-impl fmt::Display for FitError {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        fmt::Display::fmt(&Diagnostic::from(self.clone()), f)
-    }
-}
-
-impl std::error::Error for FitError {}
-
-impl From<FitError> for Diagnostic {
-    fn from(e: FitError) -> Self {
-        Diagnostic::new(e.path, e.message)
-            .with_hint_opt(e.hint)
-            .at(e.location)
-    }
-}
+pub type FitError = Diagnostic;
