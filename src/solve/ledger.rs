@@ -68,7 +68,13 @@ impl Ledger {
         }
         for (l, lp) in p.loads.iter().enumerate() {
             self.load_energy_j[l] += lp.power * dt;
-            if lp.live && v_max.get(l).copied().flatten().is_some_and(|m| lp.voltage > m) {
+            if lp.live
+                && v_max
+                    .get(l)
+                    .copied()
+                    .flatten()
+                    .is_some_and(|m| lp.voltage > m)
+            {
                 self.load_high_s[l] += dt;
             }
         }

@@ -43,7 +43,10 @@ impl SourceMap {
     /// Whether `path` lies in a value replaced by `--set`.
     pub fn is_overridden(&self, path: &str) -> bool {
         self.overridden.iter().any(|o| {
-            path == o || path.strip_prefix(o.as_str()).is_some_and(|r| r.starts_with(['.', '[']))
+            path == o
+                || path
+                    .strip_prefix(o.as_str())
+                    .is_some_and(|r| r.starts_with(['.', '[']))
         })
     }
 

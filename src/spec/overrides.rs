@@ -47,7 +47,8 @@ impl Override {
 /// Apply `o` to the document `root`; returns the index-form path of the value replaced (e.g.
 /// `stages[2].efficiency`), which the checker's messages use.
 pub(crate) fn apply(root: &mut Value, o: &Override) -> Result<String, Diagnostic> {
-    let value: Value = serde_yaml::from_str(&o.value).unwrap_or_else(|_| Value::String(o.value.clone()));
+    let value: Value =
+        serde_yaml::from_str(&o.value).unwrap_or_else(|_| Value::String(o.value.clone()));
     let segments: Vec<&str> = o.path.split('.').collect();
     let fail = |msg: String, hint: Option<String>| {
         Diagnostic::new(format!("--set {}", o.path), msg).with_hint_opt(hint)
@@ -57,7 +58,10 @@ pub(crate) fn apply(root: &mut Value, o: &Override) -> Result<String, Diagnostic
     for (n, seg) in segments.iter().enumerate() {
         let last = n + 1 == segments.len();
         if seg.is_empty() {
-            return Err(fail("the path has an empty part".into(), Some("separate names with single dots".into())));
+            return Err(fail(
+                "the path has an empty part".into(),
+                Some("separate names with single dots".into()),
+            ));
         }
         match node {
             Value::Mapping(map) => {
@@ -74,25 +78,37 @@ pub(crate) fn apply(root: &mut Value, o: &Override) -> Result<String, Diagnostic
                 node = map.get_mut(&key).expect("present");
             }
             Value::Sequence(items) => {
-                let by_id = items.iter().position(|it| {
-                    it.get("id").and_then(Value::as_str) == Some(*seg)
-                });
+                let by_id = items
+                    .iter()
+                    .position(|it| it.get("id").and_then(Value::as_str) == Some(*seg));
                 let pos = by_id.or_else(|| seg.parse::<usize>().ok().filter(|&i| i < items.len()));
                 let Some(i) = pos else {
-                    let ids: Vec<&str> = items.iter().filter_map(|it| it.get("id").and_then(Value::as_str)).collect();
+                    let ids: Vec<&str> = items
+                        .iter()
+                        .filter_map(|it| it.get("id").and_then(Value::as_str))
+                        .collect();
                     let hint = match did_you_mean(seg, ids.iter().copied()) {
                         Some(s) => format!("did you mean `{s}`?"),
-                        None if ids.is_empty() => format!("address items by position, 0 to {}", items.len().saturating_sub(1)),
+                        None if ids.is_empty() => format!(
+                            "address items by position, 0 to {}",
+                            items.len().saturating_sub(1)
+                        ),
                         None => format!("the ids here are {}", super::backticked(&ids)),
                     };
-                    return Err(fail(format!("no item `{seg}` in `{}`", prefix(&segments, n)), Some(hint)));
+                    return Err(fail(
+                        format!("no item `{seg}` in `{}`", prefix(&segments, n)),
+                        Some(hint),
+                    ));
                 };
                 index_path = format!("{index_path}[{i}]");
                 node = &mut items[i];
             }
             _ => {
                 return Err(fail(
-                    format!("`{}` holds a single value; it has no `{seg}`", prefix(&segments, n)),
+                    format!(
+                        "`{}` holds a single value; it has no `{seg}`",
+                        prefix(&segments, n)
+                    ),
                     Some(format!("set `{}` itself", prefix(&segments, n))),
                 ));
             }
@@ -102,7 +118,11 @@ pub(crate) fn apply(root: &mut Value, o: &Override) -> Result<String, Diagnostic
     Ok(index_path)
 }
 
-fn unknown(map: &Mapping, seg: &str, fail: &dyn Fn(String, Option<String>) -> Diagnostic) -> Diagnostic {
+fn unknown(
+    map: &Mapping,
+    seg: &str,
+    fail: &dyn Fn(String, Option<String>) -> Diagnostic,
+) -> Diagnostic {
     let keys: Vec<&str> = map.keys().filter_map(Value::as_str).collect();
     let hint = match did_you_mean(seg, keys.iter().copied()) {
         Some(s) => format!("did you mean `{s}`?"),
@@ -112,11 +132,19 @@ fn unknown(map: &Mapping, seg: &str, fail: &dyn Fn(String, Option<String>) -> Di
 }
 
 fn prefix(segments: &[&str], n: usize) -> String {
-    if n == 0 { "the design".into() } else { segments[..n].join(".") }
+    if n == 0 {
+        "the design".into()
+    } else {
+        segments[..n].join(".")
+    }
 }
 
 fn join(a: &str, b: &str) -> String {
-    if a.is_empty() { b.to_string() } else { format!("{a}.{b}") }
+    if a.is_empty() {
+        b.to_string()
+    } else {
+        format!("{a}.{b}")
+    }
 }
 
 #[cfg(test)]
@@ -137,13 +165,25 @@ mod tests {
     #[test]
     fn replaces_by_id_and_reports_the_index_path() {
         let mut v = doc();
-        assert_eq!(set(&mut v, "loads.radio.draw.tx=90 mA").unwrap(), "loads[0].draw.tx");
+        assert_eq!(
+            set(&mut v, "loads.radio.draw.tx=90 mA").unwrap(),
+            "loads[0].draw.tx"
+        );
         assert_eq!(v["loads"][0]["draw"]["tx"], Value::String("90 mA".into()));
-        assert_eq!(set(&mut v, "stages.boost.efficiency=88 %").unwrap(), "stages[0].efficiency");
-        assert_eq!(set(&mut v, "battery.parallel=2").unwrap(), "battery.parallel");
+        assert_eq!(
+            set(&mut v, "stages.boost.efficiency=88 %").unwrap(),
+            "stages[0].efficiency"
+        );
+        assert_eq!(
+            set(&mut v, "battery.parallel=2").unwrap(),
+            "battery.parallel"
+        );
         assert_eq!(v["battery"]["parallel"], Value::Number(2.into()));
         // By position too.
-        assert_eq!(set(&mut v, "stages.0.quiescent=5 µA").unwrap(), "stages[0].quiescent");
+        assert_eq!(
+            set(&mut v, "stages.0.quiescent=5 µA").unwrap(),
+            "stages[0].quiescent"
+        );
     }
 
     #[test]
