@@ -406,7 +406,7 @@ fn bad_csv_corpus() {
         assert!(e.message().contains(msg), "{file}: {e}");
         assert!(e.hint().is_some_and(|h| h.contains(hint)), "{file}: {e}");
         assert_eq!(e.line(), line, "{file}: {e}");
-        let d: joulepath::Diagnostic = e.into();
+        let d: joulepath::Diagnostic = e;
         assert_eq!(d.path(), file);
     }
 }

@@ -1,5 +1,6 @@
 //! Dispatch: read the design, call the library, write the output.
 
+use std::fmt::Write as _;
 use std::io::{self, Write};
 use std::path::{Path, PathBuf};
 
@@ -260,7 +261,7 @@ fn compare(ca: &CompareArgs) -> Result<(), Failure> {
         let d = load_with(&g.file, &g.sets)?;
         let mut label = g.file.display().to_string();
         for s in &g.sets {
-            label.push_str(&format!(" --set {s}"));
+            let _ = write!(label, " --set {s}");
         }
         designs.push((label, d));
     }
@@ -314,7 +315,7 @@ fn fit_cell(
             .map_err(|e| Failure::Invalid {
                 file: path.clone(),
                 text: text.clone(),
-                diagnostics: vec![e.into()],
+                diagnostics: vec![e],
             })?;
         read_curves.push(curve);
     }
