@@ -182,7 +182,18 @@ impl RunResult {
 /// assert!((r.runtime_s() - 36_000.0).abs() < 1e-6);
 /// ```
 pub fn run(design: &Design, opt: &RunOptions) -> RunResult {
-    let ctx = Ctx::new(design, *opt);
+    run_observed(design, opt, None)
+}
+
+/// [`run`], calling `progress` now and then with the share of the work done (0..1: the charge
+/// used so far, or the time run against the horizon), for a progress bar.
+pub fn run_observed(
+    design: &Design,
+    opt: &RunOptions,
+    progress: Option<&dyn Fn(f64)>,
+) -> RunResult {
+    let mut ctx = Ctx::new(design, *opt);
+    ctx.progress = progress;
     let mut sim = Sim::new(&ctx);
     let pass: f64 = design.profile.iter().map(Step::duration).sum();
     let stopped = sim.passes(&design.profile, pass, u64::MAX);
@@ -212,6 +223,7 @@ pub fn run(design: &Design, opt: &RunOptions) -> RunResult {
 /// What does not change during a run.
 struct Ctx<'a> {
     d: &'a Design,
+    progress: Option<&'a dyn Fn(f64)>,
     opt: RunOptions,
     q: f64,
     pol: Option<(f64, f64)>,
@@ -248,6 +260,7 @@ impl<'a> Ctx<'a> {
             .collect();
         Self {
             d,
+            progress: None,
             opt,
             q: d.pack.capacity_c(opt.ambient_c),
             pol: d.pack.polarization(opt.ambient_c),
@@ -721,6 +734,11 @@ impl<'a> Sim<'a> {
             }
             last = Some(Delta::between(&before, self, pass));
             done += 1;
+            if let Some(report) = self.c.progress {
+                let s0 = self.c.d.pack.start_soc;
+                let used = if s0 > 0.0 { 1.0 - self.s / s0 } else { 0.0 };
+                report(used.max(self.t / self.c.opt.horizon_s).clamp(0.0, 1.0));
+            }
         }
         false
     }

@@ -10,7 +10,7 @@ pub mod tolerance;
 
 pub use budget::{ModeBudget, budget};
 pub use check::{Violation, ViolationKind, junction_c, violations, violations_where};
-pub use discharge::{End, EndReason, Peak, RunOptions, RunResult, YEAR_S, run};
+pub use discharge::{End, EndReason, Peak, RunOptions, RunResult, YEAR_S, run, run_observed};
 pub use ledger::{Ledger, TracePoint, Tracer, state_index};
 pub use point::{
     LoadPoint, OperatingPoint, PackPoint, PackState, Solution, StagePoint, StageState, solve_point,
