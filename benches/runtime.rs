@@ -77,6 +77,51 @@ fn main() {
         ));
     }
 
+    // Every bundled example: the fast solver against the chronological reference.
+    if !quick {
+        println!();
+        let mut files: Vec<_> = std::fs::read_dir(format!("{root}/examples"))
+            .expect("examples/")
+            .filter_map(|e| e.ok().map(|e| e.path()))
+            .filter(|p| p.extension().is_some_and(|x| x == "yaml"))
+            .collect();
+        files.sort();
+        for f in files {
+            let d = Design::from_text(&std::fs::read_to_string(&f).expect("read"))
+                .expect("valid example");
+            let opt = RunOptions::for_design(&d);
+            let t = Instant::now();
+            let fast = run(&d, &opt);
+            let fast_time = t.elapsed();
+            let mut o = opt;
+            o.exact = true;
+            let t = Instant::now();
+            let reference = run(&d, &o);
+            let ref_time = t.elapsed();
+            let diff = (fast.runtime_s() - reference.runtime_s()) / reference.runtime_s();
+            let name = f
+                .file_name()
+                .map_or_else(String::new, |n| n.to_string_lossy().into_owned());
+            println!(
+                "{name}: fast {:.1} ms, reference {:.2} s, runtime {:.2} d vs {:.2} d ({:+.4} %), end {} / {}",
+                ms(fast_time),
+                ref_time.as_secs_f64(),
+                fast.runtime_s() / 86_400.0,
+                reference.runtime_s() / 86_400.0,
+                100.0 * diff,
+                fast.end.reason.name(),
+                reference.end.reason.name()
+            );
+            verdicts.push(verdict(
+                diff.abs() <= AGREEMENT && fast.end.reason == reference.end.reason,
+                &format!(
+                    "{name}: fast solver within {:.4} % of the reference, same end reason",
+                    100.0 * diff.abs()
+                ),
+            ));
+        }
+    }
+
     // Generated trees with a three-phase cycle.
     println!();
     println!(
