@@ -7,6 +7,7 @@ mod errors;
 mod examples;
 mod fit;
 mod json;
+mod plots;
 mod presets;
 mod properties;
 mod reference;

@@ -13,6 +13,17 @@ pub struct Args {
     pub command: Command,
 }
 
+/// What `plot` draws.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum PlotKind {
+    /// Pack voltage and open-circuit voltage against time, the cutoff, the end; SoC below.
+    Discharge,
+    /// Energy lost per stage and in the pack, ranked, split by mode.
+    Losses,
+    /// Each switching stage's efficiency against output current, with each mode's point.
+    Efficiency,
+}
+
 /// Output format.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum FormatArg {
@@ -134,6 +145,46 @@ pub enum Command {
         /// Write to this file instead of standard output.
         #[arg(short = 'o', long = "output")]
         output: Option<PathBuf>,
+    },
+    /// A picture of the discharge, the losses or the converters' efficiency (SVG or PNG, by the
+    /// output's extension).
+    Plot {
+        /// The design file (YAML).
+        file: PathBuf,
+        /// Override one value of the design (as for `runtime`); may be repeated.
+        #[arg(long = "set", value_name = "PATH=VALUE")]
+        sets: Vec<String>,
+        #[command(flatten)]
+        run: RunArgs,
+        /// What to draw.
+        #[arg(long, value_enum, default_value_t = PlotKind::Discharge)]
+        kind: PlotKind,
+        /// The picture to write: `.svg` or `.png`.
+        #[arg(short = 'o', long = "output", required = true)]
+        output: PathBuf,
+        /// Width in pixels.
+        #[arg(long, default_value_t = 1200)]
+        width: u32,
+        /// Height in pixels.
+        #[arg(long, default_value_t = 800)]
+        height: u32,
+    },
+    /// One self-contained HTML report: the tree, the budget of every mode, the runtime and its
+    /// end, the heat ranking, the violations, the pictures and the caution.
+    Report {
+        /// The design file (YAML).
+        file: PathBuf,
+        /// Override one value of the design; may be repeated.
+        #[arg(long = "set", value_name = "PATH=VALUE")]
+        sets: Vec<String>,
+        #[command(flatten)]
+        run: RunArgs,
+        /// State of charge of the budget tables (default: the design's `battery.start`).
+        #[arg(long, value_parser = parse_soc)]
+        soc: Option<f64>,
+        /// The HTML file to write.
+        #[arg(short = 'o', long = "output", required = true)]
+        output: PathBuf,
     },
     /// Print the JSON Schema of the design file.
     Schema {

@@ -2,6 +2,7 @@
 
 mod args;
 mod groups;
+mod pictures;
 mod render;
 mod run;
 

@@ -17,6 +17,7 @@ use joulepath::spec::Override;
 
 use super::args::{Args, Command, FormatArg, RunArgs, parse_with};
 use super::groups::{CompareArgs, parse_groups};
+use super::pictures::{compare_plot, plot_command, report_command, run_with_progress};
 use super::render::render_diagnostics;
 
 /// Why a command did not succeed.
@@ -187,7 +188,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
         } => {
             let d = load_with(file, sets)?;
             let opt = run_options(&d, ra, *trace);
-            let result = joulepath::solve::run(&d, &opt);
+            let result = run_with_progress(&d, &opt, "simulating");
             write_runtime(&mut buf, &d, &result, format(*f), *trace).map_err(io_fail)?;
             emit(&buf, output.as_deref())
         }
@@ -199,7 +200,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             output,
         } => {
             let d = load_with(file, sets)?;
-            let result = joulepath::solve::run(&d, &run_options(&d, ra, false));
+            let result = run_with_progress(&d, &run_options(&d, ra, false), "simulating");
             write_heat(&mut buf, &d, &result, format(*f)).map_err(io_fail)?;
             emit(&buf, output.as_deref())
         }
@@ -248,6 +249,36 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             )?;
             emit(&buf, output.as_deref())
         }
+        Command::Plot {
+            file,
+            sets,
+            run: ra,
+            kind,
+            output,
+            width,
+            height,
+        } => {
+            let d = load_with(file, sets)?;
+            let bytes = plot_command(
+                &d,
+                &run_options(&d, ra, true),
+                *kind,
+                output,
+                (*width, *height),
+            )?;
+            emit(&bytes, Some(output))
+        }
+        Command::Report {
+            file,
+            sets,
+            run: ra,
+            soc,
+            output,
+        } => {
+            let d = load_with(file, sets)?;
+            let bytes = report_command(&d, &run_options(&d, ra, true), *soc)?;
+            emit(&bytes, Some(output))
+        }
         Command::Schema { output } => emit(
             joulepath::spec::design_schema().as_bytes(),
             output.as_deref(),
@@ -265,15 +296,21 @@ fn compare(ca: &CompareArgs) -> Result<(), Failure> {
         }
         designs.push((label, d));
     }
+    let n = designs.len();
     let runs: Vec<joulepath::solve::RunResult> = designs
         .iter()
-        .map(|(_, d)| {
+        .enumerate()
+        .map(|(i, (_, d))| {
             let ra = RunArgs {
                 ambient: ca.ambient,
                 horizon: ca.horizon,
                 exact: ca.exact,
             };
-            joulepath::solve::run(d, &run_options(d, &ra, ca.plot.is_some()))
+            run_with_progress(
+                d,
+                &run_options(d, &ra, ca.plot.is_some()),
+                &format!("design {}/{n}", i + 1),
+            )
         })
         .collect();
     let entries: Vec<Entry<'_>> = designs
@@ -285,6 +322,14 @@ fn compare(ca: &CompareArgs) -> Result<(), Failure> {
             run: r,
         })
         .collect();
+    if let Some(path) = &ca.plot {
+        let curves: Vec<(&str, &Design, &joulepath::solve::RunResult)> = entries
+            .iter()
+            .map(|e| (e.label.as_str(), e.design, e.run))
+            .collect();
+        let bytes = compare_plot(&curves, path)?;
+        emit(&bytes, Some(path))?;
+    }
     let mut buf = Vec::new();
     write_compare(&mut buf, &entries, format(ca.format))
         .map_err(|e| Failure::Input(format!("cannot write the output: {e}")))?;

@@ -5,8 +5,10 @@ pub mod budget;
 pub mod cells;
 pub mod compare;
 pub mod heat;
+pub mod html;
 pub mod json;
 pub mod outline;
+pub mod plot;
 pub mod runtime;
 pub mod text;
 

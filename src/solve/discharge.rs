@@ -21,8 +21,8 @@ use super::check::{Violation, ViolationKind, violations_where};
 use super::ledger::{Ledger, TracePoint, Tracer};
 use super::point::{OperatingPoint, PackState, Solution, StageState, solve_point};
 use super::tolerance::{
-    END_BISECT_ITER, MEAN_POINT_REL, SKIP_MAX_DS, SKIP_MAX_DS_TRACE, SKIP_MIN_PASSES,
-    STEP_MAX_DS_EXACT, STEP_MAX_DS_FAST, TRACE_BUCKETS,
+    END_BISECT_ITER, MEAN_POINT_REL, SKIP_MAX_DS, SKIP_MIN_PASSES, STEP_MAX_DS_EXACT,
+    STEP_MAX_DS_FAST, TRACE_BUCKETS, TRACE_PROBES_PER_SKIP,
 };
 use crate::model::{Design, Step};
 
@@ -686,13 +686,7 @@ impl<'a> Sim<'a> {
     fn plan_skip(&self, delta: &Delta, remaining: u64, pass: f64) -> u64 {
         let to_horizon = ((self.c.opt.horizon_s - self.t) / pass).floor() - 1.0;
         let mut k = if delta.ds > 0.0 {
-            // A trace wants points all along the discharge: smaller skips.
-            let max_ds = if self.tracer.is_some() {
-                SKIP_MAX_DS_TRACE
-            } else {
-                SKIP_MAX_DS
-            };
-            let by_ds = (max_ds / delta.ds).floor();
+            let by_ds = (SKIP_MAX_DS / delta.ds).floor();
             let by_empty = (self.s / delta.ds).floor() - 2.0;
             by_ds.min(by_empty)
         } else if self.c.opt.exact || delta.ds < 0.0 {
@@ -769,7 +763,29 @@ impl<'a> Sim<'a> {
         if self.steps(steps, pass) {
             return self.finish_within(&base, steps, pass, &rates, k);
         }
-        Some((k + 1, Delta::between(&before, self, pass)))
+        let done = Delta::between(&before, self, pass);
+        self.trace_skipped(&base, steps, pass, k, &rates);
+        Some((k + 1, done))
+    }
+
+    /// With a trace, fill the skipped stretch: passes simulated at a few places inside it (from
+    /// `base`, at the rates used for the skip) give their points to the trace and nothing else,
+    /// so a run with a trace has exactly the result of one without.
+    fn trace_skipped(&mut self, base: &Sim<'a>, steps: &[Step], pass: f64, k: u64, rates: &Delta) {
+        if self.tracer.is_none() {
+            return;
+        }
+        let probes = TRACE_PROBES_PER_SKIP.min(k);
+        for j in 1..probes {
+            let mut probe = base.clone();
+            probe.advance(j * k / probes, pass, rates);
+            probe.steps(steps, pass);
+            if let (Some(mine), Some(theirs)) = (&mut self.tracer, &probe.tracer) {
+                for p in theirs.points() {
+                    mine.offer(p);
+                }
+            }
+        }
     }
 
     /// The product stopped during the pass after `kmax` skipped passes from `base`: find the

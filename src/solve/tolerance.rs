@@ -22,8 +22,9 @@ pub const STEP_MAX_DS_FAST: f64 = 0.005;
 pub const STEP_MAX_DS_EXACT: f64 = 0.0005;
 /// Largest fall in state of charge the fast solver skips at once (at mid-stretch rates).
 pub const SKIP_MAX_DS: f64 = 0.04;
-/// The same when a trace is kept (about 500 stretches over a full discharge).
-pub const SKIP_MAX_DS_TRACE: f64 = 0.002;
+/// Passes simulated inside each skipped stretch to give a trace its points there (they change
+/// nothing else).
+pub const TRACE_PROBES_PER_SKIP: u64 = 12;
 /// Fewest passes worth skipping.
 pub const SKIP_MIN_PASSES: u64 = 3;
 /// A step whose pack voltage moves by less than this share takes its start point as its mean

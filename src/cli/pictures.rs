@@ -1,0 +1,113 @@
+//! The picture commands (`plot`, `report`, `compare --plot`) and the progress bar of long runs.
+
+use std::cell::Cell;
+use std::io::{IsTerminal, Write};
+use std::path::Path;
+use std::time::{Duration, Instant};
+
+use joulepath::Design;
+use joulepath::report::plot::{self, PlotFormat, plot_format};
+use joulepath::solve::{RunOptions, RunResult, budget, run_observed};
+
+use super::args::PlotKind;
+use super::run::Failure;
+
+/// Run a discharge, with a progress bar on standard error when it is a terminal and the run
+/// takes a while (nothing at all otherwise).
+pub fn run_with_progress(d: &Design, opt: &RunOptions, what: &str) -> RunResult {
+    if !std::io::stderr().is_terminal() {
+        return joulepath::solve::run(d, opt);
+    }
+    let start = Instant::now();
+    let last = Cell::new(start);
+    let shown = Cell::new(false);
+    let report = |share: f64| {
+        let now = Instant::now();
+        if now - start < Duration::from_millis(300) || now - last.get() < Duration::from_millis(100)
+        {
+            return;
+        }
+        last.set(now);
+        shown.set(true);
+        let width = 30;
+        let filled = ((share * width as f64) as usize).min(width);
+        let mut err = std::io::stderr().lock();
+        let _ = write!(
+            err,
+            "\r{what} [{}{}] {:>3.0} %",
+            "#".repeat(filled),
+            ".".repeat(width - filled),
+            100.0 * share
+        );
+        let _ = err.flush();
+    };
+    let r = run_observed(d, opt, Some(&report));
+    if shown.get() {
+        let _ = write!(
+            std::io::stderr().lock(),
+            "\r{}\r",
+            " ".repeat(what.chars().count() + 40)
+        );
+    }
+    r
+}
+
+fn format_of(path: &Path) -> Result<PlotFormat, Failure> {
+    plot_format(path).ok_or_else(|| {
+        Failure::Usage(format!(
+            "cannot tell the picture format of `{}`: name it `.svg` or `.png`",
+            path.display()
+        ))
+    })
+}
+
+fn plot_fail(e: &plot::PlotError) -> Failure {
+    Failure::Input(format!("cannot draw the picture: {e}"))
+}
+
+/// `plot FILE --kind ... -o OUT`.
+pub fn plot_command(
+    d: &Design,
+    opt: &RunOptions,
+    kind: PlotKind,
+    output: &Path,
+    size: (u32, u32),
+) -> Result<Vec<u8>, Failure> {
+    let fmt = format_of(output)?;
+    let mut o = *opt;
+    o.trace = true;
+    let r = run_with_progress(d, &o, "simulating");
+    match kind {
+        PlotKind::Discharge => plot::discharge(d, &r, fmt, size),
+        PlotKind::Losses => plot::losses(d, &r, fmt, size),
+        PlotKind::Efficiency => {
+            let modes: Vec<usize> = (0..d.modes.len()).collect();
+            let b = budget(d, d.pack.start_soc, &modes);
+            plot::efficiency(d, &b, Some(&r), fmt, size)
+        }
+    }
+    .map_err(|e| plot_fail(&e))
+}
+
+/// `report FILE -o OUT.html`.
+pub fn report_command(d: &Design, opt: &RunOptions, soc: Option<f64>) -> Result<Vec<u8>, Failure> {
+    let mut o = *opt;
+    o.trace = true;
+    let r = run_with_progress(d, &o, "simulating");
+    let soc = soc.unwrap_or(d.pack.start_soc);
+    let modes: Vec<usize> = (0..d.modes.len()).collect();
+    let b = budget(d, soc, &modes);
+    let mut buf = Vec::new();
+    joulepath::report::html::write_html(&mut buf, d, &b, soc, &r)
+        .map_err(|e| Failure::Input(format!("cannot write the report: {e}")))?;
+    Ok(buf)
+}
+
+/// The discharge curves of compared designs on one chart.
+pub fn compare_plot(
+    entries: &[(&str, &Design, &RunResult)],
+    output: &Path,
+) -> Result<Vec<u8>, Failure> {
+    let fmt = format_of(output)?;
+    plot::compare_discharge(entries, fmt, (1200, 800)).map_err(|e| plot_fail(&e))
+}

@@ -1,0 +1,239 @@
+//! Several designs' discharges on one chart: the lowest terminal voltage of each stretch of their
+//! traces against time, their cutoffs and ends, and their states of charge below.
+
+use plotters::prelude::*;
+use plotters::style::text_anchor::{HPos, VPos};
+
+use super::discharge::{Px, at_time, box_of, boxed, header, overlaps, tick, volt_range};
+use super::style::{
+    Dash, GREY, MESH_BOLD, MESH_LIGHT, Shape, Swatch, TimeUnit, Type, label, legend, marker,
+    pixel_line, px, series, text,
+};
+use super::thin::lower_envelope;
+use super::{Canvas, Painter, PlotError, PlotFormat, render};
+use crate::model::Design;
+use crate::solve::RunResult;
+use crate::units::{fmt_duration, fmt_eng};
+
+/// The discharges of several designs on one chart, each with its label, colour, line pattern
+/// and marker shape: the lowest terminal voltage of each stretch of its trace, its cutoff, its
+/// end, and its state of charge in a second panel. Every run must have a trace.
+pub fn compare_discharge(
+    entries: &[(&str, &Design, &RunResult)],
+    format: PlotFormat,
+    size: (u32, u32),
+) -> Result<Vec<u8>, PlotError> {
+    if entries.is_empty() {
+        return Err(PlotError::Nothing("no designs to compare".into()));
+    }
+    if entries.iter().any(|(_, _, r)| r.trace.is_empty()) {
+        return Err(PlotError::NoTrace);
+    }
+    render(&Compare { entries }, format, size)
+}
+
+struct Compare<'a, 'b> {
+    entries: &'b [(&'a str, &'a Design, &'a RunResult)],
+}
+
+/// The pattern of entry `k` (solid, long dashes, medium dashes, ...; dots are too faint here).
+fn dash(k: usize) -> Dash {
+    [Dash::Solid, Dash::Long, Dash::Medium][k % 3]
+}
+
+/// Draw `pts` (data already in pixels) with entry `k`'s pattern.
+fn line<DB: DrawingBackend>(
+    root: &Canvas<DB>,
+    pts: Vec<(i32, i32)>,
+    k: usize,
+) -> Result<(), PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    pixel_line(root, pts, series(k), 2, dash(k))
+}
+
+impl Painter for Compare<'_, '_> {
+    fn paint<DB: DrawingBackend>(&self, root: &Canvas<DB>) -> Result<(), PlotError>
+    where
+        DB::ErrorType: 'static,
+    {
+        let e = self.entries;
+        let (w, h) = root.dim_in_pixel();
+        let ty = Type::for_width(w);
+        let pad = (ty.body * 1.2) as i32;
+        let t_end = e
+            .iter()
+            .map(|(_, _, r)| r.end.t_s.max(r.trace.last().map_or(0.0, |p| p.t_s)))
+            .fold(0.0, f64::max);
+        let unit = TimeUnit::for_span(t_end);
+        let lines: Vec<String> = e
+            .iter()
+            .map(|(name, d, r)| {
+                format!(
+                    "{name}: {}, runtime {}, ends on {}.",
+                    d.title,
+                    fmt_duration(r.end.t_s),
+                    r.end.reason.name()
+                )
+            })
+            .collect();
+        let mut y = header(root, "Discharge compared", &lines, ty, pad)?;
+        let mut keys: Vec<(Swatch, String)> = e
+            .iter()
+            .enumerate()
+            .map(|(k, (name, _, _))| (Swatch::Line(series(k), 2, dash(k)), (*name).to_string()))
+            .collect();
+        keys.push((
+            Swatch::Line(GREY, 1, Dash::Dots),
+            "cutoff (thin, same colour)".into(),
+        ));
+        keys.push((Swatch::Mark(Shape::Diamond, GREY, true), "end".into()));
+        y += legend(root, &keys, (pad, y), px(w) - 2 * pad, ty.body, false)?;
+        let note =
+            "Voltage: the lowest terminal voltage in each stretch of the run (pulses included).";
+        label(
+            root,
+            note,
+            (pad, y),
+            &text(ty.body, GREY, HPos::Left, VPos::Top),
+        )?;
+        y += (ty.body * 1.5) as i32;
+
+        let body = root.margin(y + 4, pad / 2, pad / 2, pad);
+        let body_h = px(h) - y - 4 - pad / 2;
+        let (top, bottom) = body.split_vertically(body_h * 62 / 100);
+        let mut v_min = f64::INFINITY;
+        let mut v_max = f64::NEG_INFINITY;
+        for (_, d, r) in e {
+            for p in &r.trace {
+                v_min = v_min.min(p.voltage);
+                v_max = v_max.max(p.voltage);
+            }
+            v_min = v_min.min(d.pack.cutoff_v());
+        }
+        let (v_lo, v_hi) = volt_range(v_min, v_max);
+        let x_hi = t_end / unit.seconds * 1.04;
+        let y_area = (ty.body * 4.0) as u32;
+        let mut vc = ChartBuilder::on(&top)
+            .margin_top(4)
+            .margin_right(pad)
+            .x_label_area_size((ty.body * 2.0) as u32)
+            .y_label_area_size(y_area)
+            .build_cartesian_2d(0.0..x_hi, v_lo..v_hi)?;
+        vc.configure_mesh()
+            .light_line_style(MESH_LIGHT)
+            .bold_line_style(MESH_BOLD)
+            .y_desc("lowest pack voltage (V)")
+            .axis_desc_style(("sans-serif", ty.axis))
+            .label_style(("sans-serif", ty.body))
+            .x_label_formatter(&|x| tick(*x))
+            .y_label_formatter(&|v| format!("{v:.2}"))
+            .draw()?;
+        let mut sc = ChartBuilder::on(&bottom)
+            .margin_top(6)
+            .margin_right(pad)
+            .x_label_area_size((ty.body * 3.4) as u32)
+            .y_label_area_size(y_area)
+            .build_cartesian_2d(0.0..x_hi, 0.0..100.0)?;
+        sc.configure_mesh()
+            .light_line_style(MESH_LIGHT)
+            .bold_line_style(MESH_BOLD)
+            .x_desc(unit.title())
+            .y_desc("state of charge (%)")
+            .axis_desc_style(("sans-serif", ty.axis))
+            .label_style(("sans-serif", ty.body))
+            .x_label_formatter(&|x| tick(*x))
+            .y_label_formatter(&|v| format!("{v:.0}"))
+            .y_labels(6)
+            .draw()?;
+        let buckets = (w / 3) as usize;
+        let r_mark = (ty.body * 0.45) as i32;
+        // Cutoffs closer than a fiftieth of the axis share one label.
+        let mut cutoffs: Vec<(f64, Vec<&str>, usize)> = Vec::new();
+        for (k, (name, d, r)) in e.iter().enumerate() {
+            let pass: f64 = d.profile.iter().map(crate::model::Step::duration).sum();
+            let env = lower_envelope(&r.trace, buckets, pass);
+            let v_px: Vec<(i32, i32)> = env
+                .iter()
+                .map(|p| vc.backend_coord(&(p.t_s / unit.seconds, p.voltage)))
+                .collect();
+            line(root, v_px, k)?;
+            let s_px: Vec<(i32, i32)> = env
+                .iter()
+                .map(|p| sc.backend_coord(&(p.t_s / unit.seconds, p.soc * 100.0)))
+                .collect();
+            line(root, s_px, k)?;
+            let cutoff = d.pack.cutoff_v();
+            let cl = vc.backend_coord(&(0.0, cutoff));
+            let cr = vc.backend_coord(&(x_hi, cutoff));
+            pixel_line(root, vec![cl, cr], series(k), 1, Dash::Dots)?;
+            match cutoffs
+                .iter_mut()
+                .find(|c| (c.0 - cutoff).abs() < 0.02 * (v_hi - v_lo))
+            {
+                Some(c) => c.1.push(name),
+                None => cutoffs.push((cutoff, vec![name], k)),
+            }
+        }
+        let mut placed: Vec<Px> = Vec::new();
+        let small = ty.scaled(0.9);
+        for (cutoff, names, k) in &cutoffs {
+            let at = vc.backend_coord(&(0.0, *cutoff));
+            let words = format!("cutoff {} ({})", fmt_eng(*cutoff, "V"), names.join(", "));
+            let rect = box_of(
+                root,
+                &words,
+                (at.0 + 6, at.1 - (small * 0.9) as i32),
+                small,
+                false,
+            );
+            root.draw(&Rectangle::new([rect.0, rect.1], WHITE.mix(0.85).filled()))?;
+            label(
+                root,
+                &words,
+                (rect.0.0 + 5, (rect.0.1 + rect.1.1) / 2),
+                &text(small, series(*k), HPos::Left, VPos::Center),
+            )?;
+            placed.push(rect);
+        }
+        let top = vc.backend_coord(&(0.0, v_hi)).1;
+        let step = (ty.body * 1.7) as i32;
+        for (k, (name, d, r)) in e.iter().enumerate() {
+            let cutoff = d.pack.cutoff_v();
+            let te = r.end.t_s / unit.seconds;
+            let v_end = at_time(&r.trace, r.end.t_s).map_or(cutoff, |p| p.voltage);
+            let mv = vc.backend_coord(&(te, v_end));
+            marker(root, mv, Shape::Diamond, r_mark, series(k), true)?;
+            let ms = sc.backend_coord(&(te, r.end.soc * 100.0));
+            marker(root, ms, Shape::Diamond, r_mark, series(k), true)?;
+            placed.push((
+                (mv.0 - r_mark - 2, mv.1 - r_mark - 2),
+                (mv.0 + r_mark + 2, mv.1 + r_mark + 2),
+            ));
+            let words = format!(
+                "{name}: {} ({})",
+                fmt_duration(r.end.t_s),
+                r.end.reason.name()
+            );
+            let right = mv.0 > px(w) / 2;
+            let dx = if right { -2 * r_mark } else { 2 * r_mark };
+            // Just above the marker, else higher, else below it: the first place that is free.
+            let bottom = vc.backend_coord(&(0.0, v_lo)).1;
+            let candidates = (2..12)
+                .map(|j| mv.1 - step * j / 2)
+                .chain((2..8).map(|j| mv.1 + step * j / 2))
+                .filter(|y| *y > top + step / 2 && *y < bottom - step / 2);
+            let mut y_at = mv.1 - step;
+            for y in candidates {
+                let rect = box_of(root, &words, (mv.0 + dx, y), ty.body, right);
+                if !placed.iter().any(|p| overlaps(*p, rect)) {
+                    y_at = y;
+                    break;
+                }
+            }
+            placed.push(boxed(root, &words, (mv.0 + dx, y_at), ty.body, right)?);
+        }
+        Ok(())
+    }
+}

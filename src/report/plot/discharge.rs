@@ -1,0 +1,379 @@
+//! The discharge picture: pack voltage (terminal and open-circuit) against time with the cutoff
+//! and the end, the state of charge below, and the long stretches of each mode shaded.
+
+use plotters::prelude::*;
+use plotters::style::text_anchor::{HPos, VPos};
+
+use super::profile::{Band, bands};
+use super::style::{
+    BLUE, Dash, GREEN, GREY, INK, MESH_BOLD, MESH_LIGHT, ORANGE, SKY, Shape, Swatch, TimeUnit,
+    Type, VERMILLION, end_words, fill, fit_lines, label, legend, marker, pixel_line, px, text,
+    text_width,
+};
+use super::thin::{decimate, lower_envelope};
+use super::{Canvas, Painter, PlotError, PlotFormat, render};
+use crate::model::Design;
+use crate::report::runtime::end_sentence;
+use crate::solve::{RunResult, TracePoint};
+use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent};
+
+/// Most trace points drawn as they are (more are decimated, keeping each bucket's minimum).
+pub(super) const MAX_POINTS: usize = 3000;
+
+/// The discharge of `run` (which must have been run with a trace): pack terminal voltage and
+/// open-circuit voltage against time, the lowest voltage of each stretch of the trace (pulses),
+/// the cutoff, the end with its reason, the state of charge in a second panel, and shaded bands
+/// for long stretches of one mode.
+pub fn discharge(
+    design: &Design,
+    run: &RunResult,
+    format: PlotFormat,
+    size: (u32, u32),
+) -> Result<Vec<u8>, PlotError> {
+    if run.trace.is_empty() {
+        return Err(PlotError::NoTrace);
+    }
+    render(&Discharge { design, run }, format, size)
+}
+
+struct Discharge<'a> {
+    design: &'a Design,
+    run: &'a RunResult,
+}
+
+/// Tick text: integers bare, others with up to three decimals.
+pub(super) fn tick(x: f64) -> String {
+    let s = format!("{x:.3}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" { "0".into() } else { s.to_string() }
+}
+
+/// Voltage axis limits covering `lo..hi` with a margin, at least 0.1 V tall.
+pub(super) fn volt_range(lo: f64, hi: f64) -> (f64, f64) {
+    let span = (hi - lo).max(0.1);
+    ((lo - 0.08 * span).max(0.0), hi + 0.08 * span)
+}
+
+/// The trace point closest in time to `t`.
+pub(super) fn at_time(trace: &[TracePoint], t: f64) -> Option<TracePoint> {
+    trace
+        .iter()
+        .min_by(|a, b| (a.t_s - t).abs().total_cmp(&(b.t_s - t).abs()))
+        .copied()
+}
+
+/// A rectangle in pixels: top left and bottom right.
+pub(super) type Px = ((i32, i32), (i32, i32));
+
+/// The box `boxed` would draw for `s` at `at`.
+pub(super) fn box_of<DB: DrawingBackend>(
+    root: &Canvas<DB>,
+    s: &str,
+    at: (i32, i32),
+    size: f64,
+    right: bool,
+) -> Px {
+    let w = text_width(root, s, size) + 10;
+    let h = (size * 1.5) as i32;
+    let x0 = if right { at.0 - w } else { at.0 };
+    let (x0, y0) = (x0.max(2), at.1 - h / 2);
+    ((x0, y0), (x0 + w, y0 + h))
+}
+
+/// Whether two pixel rectangles overlap (with a 2-pixel gap required).
+pub(super) fn overlaps(a: Px, b: Px) -> bool {
+    a.0.0 < b.1.0 + 2 && b.0.0 < a.1.0 + 2 && a.0.1 < b.1.1 + 2 && b.0.1 < a.1.1 + 2
+}
+
+/// Draw `text` in a white box with a thin border; `right` puts the box's right edge at `at.0`.
+/// Returns the box.
+pub(super) fn boxed<DB: DrawingBackend>(
+    root: &Canvas<DB>,
+    s: &str,
+    at: (i32, i32),
+    size: f64,
+    right: bool,
+) -> Result<Px, PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    let rect = box_of(root, s, at, size, right);
+    root.draw(&Rectangle::new([rect.0, rect.1], WHITE.mix(0.92).filled()))?;
+    root.draw(&Rectangle::new([rect.0, rect.1], GREY.stroke_width(1)))?;
+    label(
+        root,
+        s,
+        (rect.0.0 + 5, at.1),
+        &text(size, INK, HPos::Left, VPos::Center),
+    )?;
+    Ok(rect)
+}
+
+/// Title and wrapped sentences at the top; returns the y below them.
+pub(super) fn header<DB: DrawingBackend>(
+    root: &Canvas<DB>,
+    title: &str,
+    lines: &[String],
+    ty: Type,
+    pad: i32,
+) -> Result<i32, PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    let width = px(root.dim_in_pixel().0) - 2 * pad;
+    let mut y = pad;
+    for line in fit_lines(root, title, ty.title, width) {
+        label(
+            root,
+            &line,
+            (pad, y),
+            &text(ty.title, INK, HPos::Left, VPos::Top),
+        )?;
+        y += (ty.title * 1.3) as i32;
+    }
+    for sentence in lines {
+        for line in fit_lines(root, sentence, ty.body, width) {
+            label(
+                root,
+                &line,
+                (pad, y),
+                &text(ty.body, GREY, HPos::Left, VPos::Top),
+            )?;
+            y += (ty.body * 1.35) as i32;
+        }
+    }
+    Ok(y + (ty.body * 0.4) as i32)
+}
+
+/// Legend keys for `bands`, and each band's fill colour index.
+pub(super) fn band_keys(design: &Design, bands: &[Band]) -> (Vec<(Swatch, String)>, Vec<usize>) {
+    let mut kinds: Vec<(usize, bool)> = Vec::new();
+    let mut colour = Vec::with_capacity(bands.len());
+    for b in bands {
+        let k = (b.mode, b.cycling);
+        let i = kinds.iter().position(|x| *x == k).unwrap_or_else(|| {
+            kinds.push(k);
+            kinds.len() - 1
+        });
+        colour.push(i);
+    }
+    let keys = kinds
+        .iter()
+        .enumerate()
+        .map(|(i, &(m, cycling))| {
+            let name = &design.modes[m].name;
+            let words = if cycling {
+                format!("short cycles, mostly `{name}`")
+            } else {
+                format!("mode `{name}`")
+            };
+            (Swatch::Block(fill(i + 4), 0.22), words)
+        })
+        .collect();
+    (keys, colour)
+}
+
+impl Painter for Discharge<'_> {
+    fn paint<DB: DrawingBackend>(&self, root: &Canvas<DB>) -> Result<(), PlotError>
+    where
+        DB::ErrorType: 'static,
+    {
+        let (d, r) = (self.design, self.run);
+        let (w, h) = root.dim_in_pixel();
+        let ty = Type::for_width(w);
+        let pad = (ty.body * 1.2) as i32;
+        let t_end = r.end.t_s.max(r.trace.last().map_or(0.0, |p| p.t_s));
+        let unit = TimeUnit::for_span(t_end);
+        let trace = decimate(&r.trace, MAX_POINTS);
+        let pass: f64 = d.profile.iter().map(crate::model::Step::duration).sum();
+        let envelope = lower_envelope(&r.trace, (w / 3) as usize, pass);
+        let band_list = bands(d, r.end.t_s);
+        let (band_legend, band_colour) = band_keys(d, &band_list);
+
+        let sentence = format!(
+            "Runtime {} at {} ambient: it stops because {}.",
+            fmt_duration(r.end.t_s),
+            fmt_celsius(r.ambient_c),
+            end_sentence(d, r)
+        );
+        let mut y = header(
+            root,
+            &format!("Discharge: {}", d.title),
+            &[sentence],
+            ty,
+            pad,
+        )?;
+        let mut keys = vec![
+            (
+                Swatch::Line(SKY, 1, Dash::Solid),
+                "terminal voltage (traced points)".to_string(),
+            ),
+            (
+                Swatch::Line(BLUE, 3, Dash::Solid),
+                "lowest terminal voltage (pulses)".into(),
+            ),
+            (
+                Swatch::Line(ORANGE, 2, Dash::Long),
+                "open-circuit voltage".into(),
+            ),
+            (Swatch::Line(VERMILLION, 2, Dash::Medium), "cutoff".into()),
+            (
+                Swatch::Line(GREEN, 2, Dash::Solid),
+                "state of charge".into(),
+            ),
+            (Swatch::Mark(Shape::Diamond, INK, true), "end".into()),
+        ];
+        keys.extend(band_legend);
+        let width = px(w) - 2 * pad;
+        y += legend(root, &keys, (pad, y), width, ty.body, false)?;
+
+        let body = root.margin(y + 4, pad / 2, pad / 2, pad);
+        let body_h = px(h) - y - 4 - pad / 2;
+        let (top, bottom) = body.split_vertically(body_h * 62 / 100);
+        let v_min = r
+            .trace
+            .iter()
+            .map(|p| p.voltage)
+            .fold(f64::INFINITY, f64::min);
+        let v_max = r
+            .trace
+            .iter()
+            .map(|p| p.ocv.max(p.voltage))
+            .fold(f64::NEG_INFINITY, f64::max);
+        let cutoff = d.pack.cutoff_v();
+        let (v_lo, v_hi) = volt_range(v_min.min(cutoff), v_max);
+        let x_hi = t_end / unit.seconds * 1.04;
+        let y_area = (ty.body * 4.0) as u32;
+        let x_area = (ty.body * 2.0) as u32;
+
+        let mut vc = ChartBuilder::on(&top)
+            .margin_top(4)
+            .margin_right(pad)
+            .x_label_area_size(x_area)
+            .y_label_area_size(y_area)
+            .build_cartesian_2d(0.0..x_hi, v_lo..v_hi)?;
+        vc.configure_mesh()
+            .light_line_style(MESH_LIGHT)
+            .bold_line_style(MESH_BOLD)
+            .y_desc("pack voltage (V)")
+            .axis_desc_style(("sans-serif", ty.axis))
+            .label_style(("sans-serif", ty.body))
+            .x_label_formatter(&|x| tick(*x))
+            .y_label_formatter(&|v| format!("{v:.2}"))
+            .draw()?;
+        vc.draw_series(band_list.iter().zip(&band_colour).map(|(b, &c)| {
+            Rectangle::new(
+                [(b.t0 / unit.seconds, v_lo), (b.t1 / unit.seconds, v_hi)],
+                fill(c + 4).mix(0.22).filled(),
+            )
+        }))?;
+        let pts = |f: fn(&TracePoint) -> f64, list: &[TracePoint]| -> Vec<(f64, f64)> {
+            list.iter().map(|p| (p.t_s / unit.seconds, f(p))).collect()
+        };
+        vc.draw_series(LineSeries::new(
+            pts(|p| p.voltage, &trace),
+            SKY.stroke_width(1),
+        ))?;
+        vc.draw_series(LineSeries::new(
+            pts(|p| p.voltage, &envelope),
+            BLUE.stroke_width(3),
+        ))?;
+        vc.draw_series(DashedLineSeries::new(
+            pts(|p| p.ocv, &trace),
+            12,
+            6,
+            ORANGE.stroke_width(2),
+        ))?;
+        let cut_l = vc.backend_coord(&(0.0, cutoff));
+        let cut_r = vc.backend_coord(&(x_hi, cutoff));
+        pixel_line(root, vec![cut_l, cut_r], VERMILLION, 2, Dash::Medium)?;
+        label(
+            root,
+            &format!("cutoff {}", fmt_eng(cutoff, "V")),
+            (cut_l.0 + 6, cut_l.1 - 4),
+            &text(ty.body, VERMILLION, HPos::Left, VPos::Bottom),
+        )?;
+        // Band names where they fit, along the top of the voltage panel.
+        for b in &band_list {
+            let name = &d.modes[b.mode].name;
+            let l = vc.backend_coord(&(b.t0 / unit.seconds, v_hi));
+            let rr = vc.backend_coord(&(b.t1 / unit.seconds, v_hi));
+            if rr.0 - l.0 > text_width(root, name, ty.scaled(0.9)) + 8 {
+                let at = ((l.0 + rr.0) / 2, l.1 + 4);
+                label(
+                    root,
+                    name,
+                    at,
+                    &text(ty.scaled(0.9), GREY, HPos::Center, VPos::Top),
+                )?;
+            }
+        }
+
+        let mut sc = ChartBuilder::on(&bottom)
+            .margin_top(6)
+            .margin_right(pad)
+            .x_label_area_size((ty.body * 3.4) as u32)
+            .y_label_area_size(y_area)
+            .build_cartesian_2d(0.0..x_hi, 0.0..100.0)?;
+        sc.configure_mesh()
+            .light_line_style(MESH_LIGHT)
+            .bold_line_style(MESH_BOLD)
+            .x_desc(unit.title())
+            .y_desc("state of charge (%)")
+            .axis_desc_style(("sans-serif", ty.axis))
+            .label_style(("sans-serif", ty.body))
+            .x_label_formatter(&|x| tick(*x))
+            .y_label_formatter(&|v| format!("{v:.0}"))
+            .y_labels(6)
+            .draw()?;
+        sc.draw_series(band_list.iter().zip(&band_colour).map(|(b, &c)| {
+            Rectangle::new(
+                [(b.t0 / unit.seconds, 0.0), (b.t1 / unit.seconds, 100.0)],
+                fill(c + 4).mix(0.22).filled(),
+            )
+        }))?;
+        let soc: Vec<(f64, f64)> = trace
+            .iter()
+            .map(|p| (p.t_s / unit.seconds, p.soc * 100.0))
+            .collect();
+        sc.draw_series(AreaSeries::new(soc.clone(), 0.0, GREEN.mix(0.12)))?;
+        sc.draw_series(LineSeries::new(soc, GREEN.stroke_width(2)))?;
+
+        // The end: a vertical guide through both panels and a marker in each.
+        let te = r.end.t_s / unit.seconds;
+        let v_end = at_time(&r.trace, r.end.t_s).map_or(cutoff, |p| p.voltage);
+        let top_px = vc.backend_coord(&(te, v_hi));
+        let bottom_px = sc.backend_coord(&(te, 0.0));
+        pixel_line(root, vec![top_px, bottom_px], GREY, 1, Dash::Dots)?;
+        let mv = vc.backend_coord(&(te, v_end));
+        let ms = sc.backend_coord(&(te, r.end.soc * 100.0));
+        let r_mark = (ty.body * 0.45) as i32;
+        marker(root, mv, Shape::Diamond, r_mark, INK, true)?;
+        marker(root, ms, Shape::Diamond, r_mark, INK, true)?;
+        let mode = r
+            .end
+            .mode
+            .map_or_else(String::new, |m| format!(" in `{}`", d.modes[m].name));
+        let words = format!(
+            "end {}{mode}: {}",
+            fmt_duration(r.end.t_s),
+            end_words(d, &r.end)
+        );
+        let right = mv.0 > px(w) / 2;
+        let dx = if right { -2 * r_mark } else { 2 * r_mark };
+        let above = (ty.body * 1.6) as i32;
+        let ly = (mv.1 - above).max(top_px.1 + (ty.body * 2.2) as i32);
+        boxed(root, &words, (mv.0 + dx, ly), ty.body, right)?;
+        boxed(
+            root,
+            &format!("{} left", fmt_percent(r.end.soc)),
+            (
+                ms.0 + dx,
+                (ms.1 - above).max(sc.backend_coord(&(te, 100.0)).1 + ty.body as i32),
+            ),
+            ty.body,
+            right,
+        )?;
+        Ok(())
+    }
+}

@@ -1,0 +1,370 @@
+//! The losses picture: energy lost over the run in each stage and in the pack, ranked, each bar
+//! split by mode.
+//!
+//! The run's ledger gives each bar's length exactly. It does not say which mode the energy was
+//! lost in, so the split is an estimate: each mode's mean loss in each place (its operating point
+//! solved at a few states of charge along the run) times the time the profile gives that mode,
+//! scaled so that the parts add up to the ledger's total.
+
+use plotters::prelude::*;
+use plotters::style::text_anchor::{HPos, VPos};
+
+use super::discharge::{header, tick};
+use super::profile::mode_seconds;
+use super::style::{
+    GREY, INK, MESH_BOLD, Swatch, Type, fill, label, legend, nice_ceiling, px, text, text_width,
+};
+use super::{Canvas, Painter, PlotError, PlotFormat, render};
+use crate::model::Design;
+use crate::solve::{PackState, RunResult, Solution, solve_point};
+use crate::units::{fmt_duration, fmt_eng, fmt_percent};
+
+/// States of charge sampled along the run for each mode's mean loss.
+const SAMPLES: usize = 5;
+
+/// Energy lost over `run` in each stage and in the pack (horizontal bars, most first), each bar
+/// split by mode. The split is estimated from each mode's time share and its operating point
+/// along the run; the bar totals are the run's.
+pub fn losses(
+    design: &Design,
+    run: &RunResult,
+    format: PlotFormat,
+    size: (u32, u32),
+) -> Result<Vec<u8>, PlotError> {
+    let bars = split(design, run);
+    if bars.iter().all(|b| b.total_j <= 0.0) {
+        return Err(PlotError::Nothing(
+            "nothing was lost over the run: no losses to draw".into(),
+        ));
+    }
+    render(&Losses { design, run, bars }, format, size)
+}
+
+/// One bar: a place where energy is lost.
+#[derive(Debug, Clone)]
+struct Bar {
+    /// Stage id or `battery`.
+    name: String,
+    /// What it is.
+    what: String,
+    /// Total over the run, J.
+    total_j: f64,
+    /// Part lost in each mode, J (sums to `total_j`), or empty when no split was possible.
+    by_mode: Vec<f64>,
+}
+
+/// The bars, most loss first, with their estimated split by mode.
+fn split(d: &Design, r: &RunResult) -> Vec<Bar> {
+    let modes = d.modes.len();
+    let places = d.stages.len() + 1;
+    let seconds = mode_seconds(d, r.end.t_s);
+    let s0 = d.pack.start_soc;
+    let s1 = r.end.soc.clamp(0.0, s0);
+    // est[m][k]: estimated energy lost in place k during mode m (k = stages..., pack).
+    let mut est = vec![vec![0.0; places]; modes];
+    for (m, row) in est.iter_mut().enumerate() {
+        if seconds[m] <= 0.0 {
+            continue;
+        }
+        let mut sum = vec![0.0; places];
+        let mut n = 0.0;
+        for i in 0..SAMPLES {
+            let soc = s0 - (s0 - s1) * (i as f64 + 0.5) / SAMPLES as f64;
+            let at = PackState {
+                soc,
+                v_pol: None,
+                ambient_c: r.ambient_c,
+            };
+            if let Solution::Point(p) = solve_point(d, m, at) {
+                for (k, s) in p.stages.iter().enumerate() {
+                    sum[k] += s.loss;
+                }
+                sum[places - 1] += p.pack.loss;
+                n += 1.0;
+            }
+        }
+        if n > 0.0 {
+            for (e, s) in row.iter_mut().zip(&sum) {
+                *e = seconds[m] * s / n;
+            }
+        }
+    }
+    let l = &r.ledger;
+    let mut bars: Vec<Bar> = (0..places)
+        .map(|k| {
+            let (name, what, total_j) = if k + 1 == places {
+                ("battery".to_string(), "pack".to_string(), l.pack_loss_j)
+            } else {
+                let s = &d.stages[k];
+                (s.id.clone(), s.kind.name().to_string(), l.stage_loss_j[k])
+            };
+            let est_sum: f64 = est.iter().map(|row| row[k]).sum();
+            let by_mode = if est_sum > 0.0 {
+                est.iter().map(|row| total_j * row[k] / est_sum).collect()
+            } else {
+                Vec::new()
+            };
+            Bar {
+                name,
+                what,
+                total_j,
+                by_mode,
+            }
+        })
+        .collect();
+    bars.sort_by(|a, b| b.total_j.total_cmp(&a.total_j));
+    bars
+}
+
+/// Energy unit for a largest value of `max_j` joules: factor from J and symbol.
+fn energy_unit(max_j: f64) -> (f64, &'static str) {
+    let wh = max_j / 3600.0;
+    if wh >= 1.0 {
+        (1.0 / 3600.0, "Wh")
+    } else if wh >= 1e-3 {
+        (1e3 / 3600.0, "mWh")
+    } else {
+        (1e6 / 3600.0, "µWh")
+    }
+}
+
+struct Losses<'a> {
+    design: &'a Design,
+    run: &'a RunResult,
+    bars: Vec<Bar>,
+}
+
+impl Painter for Losses<'_> {
+    fn paint<DB: DrawingBackend>(&self, root: &Canvas<DB>) -> Result<(), PlotError>
+    where
+        DB::ErrorType: 'static,
+    {
+        let (d, r, bars) = (self.design, self.run, &self.bars);
+        let w = root.dim_in_pixel().0;
+        let ty = Type::for_width(w);
+        let pad = (ty.body * 1.2) as i32;
+        let total: f64 = bars.iter().map(|b| b.total_j).sum();
+        let drawn = r.ledger.ocv_energy_j;
+        let mut lines = vec![format!(
+            "Over the runtime of {}: {} of the energy drawn from the cells was lost on the way.",
+            fmt_duration(r.end.t_s),
+            if drawn > 0.0 {
+                fmt_percent(total / drawn)
+            } else {
+                "none".into()
+            }
+        )];
+        lines.push(
+            "Bar lengths are the run's totals; the split by mode is estimated from each mode's \
+             time share and its operating point along the run."
+                .into(),
+        );
+        let mut y = header(root, &format!("Energy lost: {}", d.title), &lines, ty, pad)?;
+        let used: Vec<usize> = (0..d.modes.len())
+            .filter(|&m| {
+                bars.iter()
+                    .any(|b| b.by_mode.get(m).is_some_and(|e| *e > 0.0))
+            })
+            .collect();
+        let mut keys: Vec<(Swatch, String)> = used
+            .iter()
+            .map(|&m| {
+                (
+                    Swatch::Block(fill(m), 0.85),
+                    format!("mode `{}`", d.modes[m].name),
+                )
+            })
+            .collect();
+        if bars.iter().any(|b| b.by_mode.is_empty() && b.total_j > 0.0) {
+            keys.push((
+                Swatch::Block(GREY, 0.35),
+                "not split (no operating point)".into(),
+            ));
+        }
+        y += legend(root, &keys, (pad, y), px(w) - 2 * pad, ty.body, false)?;
+
+        let (factor, symbol) = energy_unit(bars[0].total_j);
+        let x_hi = nice_ceiling(bars[0].total_j * factor * 1.22);
+        let n = bars.len();
+        let names: Vec<String> = bars
+            .iter()
+            .map(|b| format!("{} ({})", b.name, b.what))
+            .collect();
+        let name_w = names
+            .iter()
+            .map(|s| text_width(root, s, ty.body))
+            .max()
+            .unwrap_or(0)
+            + (ty.body * 1.2) as i32;
+        // The bars take the room down to a strip at the bottom that shows where all the energy
+        // drawn from the cells went (when the picture is tall enough for both).
+        let h = px(root.dim_in_pixel().1);
+        let split_h = (ty.body * 7.5) as i32;
+        let left = h - y - 4;
+        let bars_h = if left - split_h >= (ty.body * 12.0) as i32 {
+            left - split_h
+        } else {
+            left
+        };
+        let (area, rest) = root.margin(y + 4, 0, pad, pad).split_vertically(bars_h);
+        if bars_h < left {
+            destination(root, &rest, r, ty)?;
+        }
+        let area = area.margin(0, pad / 2, 0, 0);
+        let mut ch = ChartBuilder::on(&area)
+            .margin_right(pad)
+            .x_label_area_size((ty.body * 3.4) as u32)
+            .y_label_area_size(name_w.max(40) as u32)
+            .build_cartesian_2d(0.0..x_hi, 0.0..n as f64)?;
+        ch.configure_mesh()
+            .disable_y_mesh()
+            .y_labels(0)
+            .light_line_style(WHITE)
+            .bold_line_style(MESH_BOLD)
+            .x_desc(format!("energy lost over the run ({symbol})"))
+            .axis_desc_style(("sans-serif", ty.axis))
+            .label_style(("sans-serif", ty.body))
+            .x_label_formatter(&|x| tick(*x))
+            .draw()?;
+        // Bars fill the middle 64 % of their row, at most three lines of text thick; most loss
+        // on top.
+        let row_px = f64::from(ch.plotting_area().dim_in_pixel().1) / n as f64;
+        let half = (1.5 * ty.body / row_px).min(0.32);
+        for (rank, b) in bars.iter().enumerate() {
+            let row = (n - 1 - rank) as f64;
+            let (y0, y1) = (row + 0.5 - half, row + 0.5 + half);
+            let parts: Vec<(f64, RGBColor)> = if b.by_mode.is_empty() {
+                vec![(b.total_j, GREY)]
+            } else {
+                b.by_mode
+                    .iter()
+                    .enumerate()
+                    .map(|(m, e)| (*e, fill(m)))
+                    .collect()
+            };
+            let mut x = 0.0;
+            for (e, colour) in parts {
+                if e <= 0.0 {
+                    continue;
+                }
+                let x1 = x + e * factor;
+                ch.plotting_area()
+                    .draw(&Rectangle::new([(x, y0), (x1, y1)], colour.filled()))?;
+                ch.plotting_area()
+                    .draw(&Rectangle::new([(x, y0), (x1, y1)], WHITE.stroke_width(1)))?;
+                x = x1;
+            }
+            let mid = ch.backend_coord(&(x, row + 0.5));
+            let axis = ch.backend_coord(&(0.0, row + 0.5));
+            let share = if total > 0.0 { b.total_j / total } else { 0.0 };
+            let value = format!(
+                "{} ({} of losses)",
+                fmt_eng(b.total_j / 3600.0, "Wh"),
+                fmt_percent(share)
+            );
+            let body = text(ty.body, INK, HPos::Left, VPos::Center);
+            label(root, &value, (mid.0 + 6, mid.1), &body)?;
+            let name = text(ty.body, INK, HPos::Right, VPos::Center);
+            label(root, &names[rank], (axis.0 - 8, axis.1), &name)?;
+        }
+        Ok(())
+    }
+}
+
+/// One bar across the width: the energy drawn from the cells' open-circuit voltage, split into
+/// what reached the loads, what the stages lost and what the pack lost inside. Greys (told apart
+/// by lightness and named in place) keep it apart from the mode colours above.
+fn destination<DB: DrawingBackend>(
+    root: &Canvas<DB>,
+    area: &Canvas<DB>,
+    r: &RunResult,
+    ty: Type,
+) -> Result<(), PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    let l = &r.ledger;
+    let parts = [
+        (
+            l.load_energy_total(),
+            "to the loads",
+            RGBColor(222, 222, 222),
+            INK,
+        ),
+        (
+            l.stage_loss_total(),
+            "lost in stages",
+            RGBColor(90, 90, 90),
+            WHITE,
+        ),
+        (
+            l.pack_loss_j,
+            "lost in the pack",
+            RGBColor(160, 160, 160),
+            INK,
+        ),
+    ];
+    let total: f64 = parts.iter().map(|p| p.0).sum();
+    if total <= 0.0 {
+        return Ok(());
+    }
+    let ((x0, y0), (x1, _)) = {
+        let (xr, yr) = area.get_pixel_range();
+        ((xr.start, yr.start), (xr.end, yr.end))
+    };
+    let title = format!(
+        "Where the {} drawn from the cells went",
+        fmt_eng(total / 3600.0, "Wh")
+    );
+    let top = y0 + (ty.body * 1.5) as i32;
+    label(
+        root,
+        &title,
+        (x0, top),
+        &text(ty.axis, INK, HPos::Left, VPos::Bottom),
+    )?;
+    let (bar_top, bar_h) = (top + (ty.body * 0.6) as i32, (ty.body * 2.2) as i32);
+    let width = f64::from(x1 - x0);
+    let mut x = f64::from(x0);
+    let mut keys = Vec::new();
+    for (e, name, colour, ink) in parts {
+        let w = width * e / total;
+        let (a, b) = (x.round() as i32, (x + w).round() as i32);
+        if b > a {
+            root.draw(&Rectangle::new(
+                [(a, bar_top), (b, bar_top + bar_h)],
+                colour.filled(),
+            ))?;
+            let share = fmt_percent(e / total);
+            if b - a > text_width(root, &share, ty.body) + 8 {
+                label(
+                    root,
+                    &share,
+                    ((a + b) / 2, bar_top + bar_h / 2),
+                    &text(ty.body, ink, HPos::Center, VPos::Center),
+                )?;
+            }
+        }
+        if e <= 0.0 {
+            continue;
+        }
+        keys.push((
+            Swatch::Block(colour, 1.0),
+            format!(
+                "{name}: {} ({})",
+                fmt_eng(e / 3600.0, "Wh"),
+                fmt_percent(e / total)
+            ),
+        ));
+        x += w;
+    }
+    legend(
+        root,
+        &keys,
+        (x0, bar_top + bar_h + 6),
+        x1 - x0,
+        ty.body,
+        false,
+    )?;
+    Ok(())
+}

@@ -1,0 +1,102 @@
+//! Thinning a discharge trace for drawing, keeping what matters: the lowest voltages.
+
+use crate::solve::TracePoint;
+
+/// At most `max` points of `trace`: buckets of equal time, each keeping its first point and its
+/// lowest terminal voltage, in time order. Short traces come back whole.
+pub fn decimate(trace: &[TracePoint], max: usize) -> Vec<TracePoint> {
+    if trace.len() <= max.max(4) {
+        return trace.to_vec();
+    }
+    let t0 = trace[0].t_s;
+    let t1 = trace[trace.len() - 1].t_s;
+    let n = (max / 2).max(2);
+    let span = (t1 - t0).max(f64::MIN_POSITIVE);
+    let mut buckets: Vec<Option<(TracePoint, TracePoint)>> = vec![None; n];
+    for p in trace {
+        let b = (((p.t_s - t0) / span * n as f64) as usize).min(n - 1);
+        match &mut buckets[b] {
+            Some((_, low)) => {
+                if p.voltage < low.voltage {
+                    *low = *p;
+                }
+            }
+            slot @ None => *slot = Some((*p, *p)),
+        }
+    }
+    let mut out: Vec<TracePoint> = Vec::with_capacity(2 * n + 1);
+    for (first, low) in buckets.into_iter().flatten() {
+        out.push(first);
+        if low.t_s > first.t_s {
+            out.push(low);
+        }
+    }
+    let last = trace[trace.len() - 1];
+    if out.last().is_none_or(|p| p.t_s < last.t_s) {
+        out.push(last);
+    }
+    out
+}
+
+/// The lower envelope of the terminal voltage: `n` equal time buckets, each giving the lowest
+/// voltage within `period` seconds either side of it (at least the neighbouring buckets), at the
+/// time of the bucket's own lowest point. `period` is the longest stretch between the pulses that
+/// set the low points (one pass of the profile); without the window, a bucket that happens to hold
+/// no pulse would spike up to the resting voltage.
+pub fn lower_envelope(trace: &[TracePoint], n: usize, period: f64) -> Vec<TracePoint> {
+    if trace.len() < 3 || n < 3 {
+        return trace.to_vec();
+    }
+    let t0 = trace[0].t_s;
+    let span = (trace[trace.len() - 1].t_s - t0).max(f64::MIN_POSITIVE);
+    let width = span / n as f64;
+    let mut low: Vec<Option<TracePoint>> = vec![None; n];
+    for p in trace {
+        let b = (((p.t_s - t0) / width) as usize).min(n - 1);
+        if low[b].is_none_or(|l| p.voltage < l.voltage) {
+            low[b] = Some(*p);
+        }
+    }
+    let reach = ((period / width).ceil() as usize).clamp(1, 3);
+    (0..n)
+        .filter_map(|b| {
+            let own = low[b]?;
+            let lo = b.saturating_sub(reach);
+            let hi = (b + reach).min(n - 1);
+            let v = low[lo..=hi]
+                .iter()
+                .flatten()
+                .map(|p| p.voltage)
+                .fold(own.voltage, f64::min);
+            Some(TracePoint { voltage: v, ..own })
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn tp(t: f64, v: f64) -> TracePoint {
+        TracePoint {
+            t_s: t,
+            soc: 1.0,
+            ocv: 4.0,
+            voltage: v,
+            current: 0.0,
+        }
+    }
+
+    #[test]
+    fn decimation_keeps_every_buckets_minimum() {
+        let trace: Vec<TracePoint> = (0..10_000)
+            .map(|k| tp(f64::from(k), if k % 97 == 0 { 2.0 } else { 3.0 }))
+            .collect();
+        let d = decimate(&trace, 400);
+        assert!(d.len() <= 402);
+        let lows = d.iter().filter(|p| p.voltage < 2.5).count();
+        assert!(lows >= 100, "{lows} minima kept");
+        assert!(d.windows(2).all(|w| w[0].t_s < w[1].t_s));
+        assert!((d[d.len() - 1].t_s - 9999.0).abs() < 1e-9);
+    }
+}

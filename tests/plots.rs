@@ -1,0 +1,362 @@
+//! Pictures and the HTML report: SVG that parses and names its axes with units, the cutoff and
+//! the end; PNG of the asked size that is not blank; a self-contained HTML report.
+//!
+//! Set `JOULEPATH_PLOT_DIR` to a directory to also write every picture there for a look.
+
+use std::collections::HashSet;
+use std::path::Path;
+
+use joulepath::Design;
+use joulepath::report::html::write_html;
+use joulepath::report::plot::{
+    DEFAULT_SIZE, PlotError, PlotFormat, compare_discharge, discharge, efficiency, losses,
+    plot_format,
+};
+use joulepath::solve::{ModeBudget, RunOptions, RunResult, budget, run};
+
+use crate::util::{example_files, root};
+
+fn load(name: &str) -> Design {
+    let path = root().join("examples").join(name);
+    let text = std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+    Design::from_text(&text).unwrap_or_else(|e| panic!("{}: {e}", path.display()))
+}
+
+fn traced(d: &Design) -> RunResult {
+    run(
+        d,
+        &RunOptions {
+            trace: true,
+            ..RunOptions::for_design(d)
+        },
+    )
+}
+
+fn start_budget(d: &Design) -> Vec<ModeBudget> {
+    let all: Vec<usize> = (0..d.modes.len()).collect();
+    budget(d, d.pack.start_soc, &all)
+}
+
+/// Write `bytes` to `JOULEPATH_PLOT_DIR/name` when that variable is set.
+fn keep(name: &str, bytes: &[u8]) {
+    if let Some(dir) = std::env::var_os("JOULEPATH_PLOT_DIR") {
+        let dir = Path::new(&dir);
+        std::fs::create_dir_all(dir).expect("plot dir");
+        std::fs::write(dir.join(name), bytes).expect("write picture");
+    }
+}
+
+/// Every text node of an SVG document, which must parse as XML.
+fn svg_texts(bytes: &[u8]) -> Vec<String> {
+    let text = std::str::from_utf8(bytes).expect("SVG is UTF-8");
+    let doc =
+        roxmltree::Document::parse(text).unwrap_or_else(|e| panic!("SVG does not parse: {e}"));
+    assert_eq!(doc.root_element().tag_name().name(), "svg");
+    doc.descendants()
+        .filter(roxmltree::Node::is_text)
+        .filter_map(|n| n.text())
+        .map(|t| t.trim().to_string())
+        .filter(|t| !t.is_empty())
+        .collect()
+}
+
+fn has(texts: &[String], needle: &str) -> bool {
+    texts.iter().any(|t| t.contains(needle))
+}
+
+/// Decode a PNG: its size and how many distinct colours it uses.
+fn png_look(bytes: &[u8]) -> ((u32, u32), usize) {
+    let img = image::load_from_memory_with_format(bytes, image::ImageFormat::Png)
+        .expect("PNG decodes")
+        .to_rgb8();
+    let colours: HashSet<[u8; 3]> = img.pixels().map(|p| p.0).collect();
+    (img.dimensions(), colours.len())
+}
+
+#[test]
+fn formats_follow_the_extension() {
+    assert_eq!(plot_format(Path::new("a/b.svg")), Some(PlotFormat::Svg));
+    assert_eq!(plot_format(Path::new("b.Png")), Some(PlotFormat::Png));
+    assert_eq!(plot_format(Path::new("b.jpeg")), None);
+    assert_eq!(plot_format(Path::new("svg")), None);
+}
+
+#[test]
+fn discharge_svg_names_axes_cutoff_and_end() {
+    let d = load("coin-cell-tag.yaml");
+    let r = traced(&d);
+    let svg = discharge(&d, &r, PlotFormat::Svg, DEFAULT_SIZE).expect("discharge SVG");
+    keep("coin-discharge.svg", &svg);
+    let t = svg_texts(&svg);
+    for want in [
+        "pack voltage (V)",
+        "state of charge (%)",
+        "time from start (d, days)",
+        "cutoff 2.00 V",
+        "open-circuit voltage",
+        "lowest terminal voltage",
+        "cutoff: under load below 2.00 V",
+        "in `advertise`",
+        d.title.as_str(),
+    ] {
+        assert!(has(&t, want), "no `{want}` in the SVG texts {t:?}");
+    }
+    // The trace is drawn: a polyline with many points.
+    let s = String::from_utf8(svg).unwrap();
+    assert!(s.matches("<polyline").count() >= 3, "too few lines");
+}
+
+#[test]
+fn discharge_shades_long_mode_stretches() {
+    let d = load("wearable-band.yaml");
+    let r = traced(&d);
+    let svg = discharge(&d, &r, PlotFormat::Svg, DEFAULT_SIZE).expect("discharge SVG");
+    keep("wearable-discharge.svg", &svg);
+    let t = svg_texts(&svg);
+    assert!(has(&t, "short cycles, mostly `track`"), "{t:?}");
+    assert!(has(&t, "short cycles, mostly `rest`"), "{t:?}");
+    assert!(has(&t, "time from start (d, days)"));
+}
+
+#[test]
+fn discharge_needs_a_trace() {
+    let d = load("coin-cell-tag.yaml");
+    let r = run(&d, &RunOptions::for_design(&d));
+    assert_eq!(
+        discharge(&d, &r, PlotFormat::Svg, DEFAULT_SIZE),
+        Err(PlotError::NoTrace)
+    );
+    let r = traced(&d);
+    assert!(matches!(
+        discharge(&d, &r, PlotFormat::Png, (10, 10)),
+        Err(PlotError::Size(10, 10))
+    ));
+}
+
+#[test]
+fn losses_svg_ranks_places_and_says_the_split_is_estimated() {
+    let d = load("handheld-meter.yaml");
+    let r = traced(&d);
+    let svg = losses(&d, &r, PlotFormat::Svg, DEFAULT_SIZE).expect("losses SVG");
+    keep("meter-losses.svg", &svg);
+    let t = svg_texts(&svg);
+    for want in [
+        "energy lost over the run (Wh)",
+        "boost-3v3 (boost)",
+        "ldo-1v8 (linear)",
+        "battery (pack)",
+        "split by mode is estimated",
+        "mode `sleep`",
+        "of losses",
+    ] {
+        assert!(has(&t, want), "no `{want}` in {t:?}");
+    }
+}
+
+#[test]
+fn efficiency_svg_has_a_panel_per_switching_stage() {
+    let d = load("scanner-boost.yaml");
+    let r = traced(&d);
+    let svg = efficiency(
+        &d,
+        &start_budget(&d),
+        Some(&r),
+        PlotFormat::Svg,
+        DEFAULT_SIZE,
+    )
+    .expect("efficiency SVG");
+    keep("scanner-efficiency.svg", &svg);
+    let t = svg_texts(&svg);
+    for want in [
+        "output current (A, log scale)",
+        "efficiency (%)",
+        "`boost-3v3` boost to 3.30 V",
+        "mode `scan`",
+        "10 µA",
+    ] {
+        assert!(has(&t, want), "no `{want}` in {t:?}");
+    }
+    // No switching stage, nothing to draw.
+    let coin = load("coin-cell-tag.yaml");
+    assert!(matches!(
+        efficiency(
+            &coin,
+            &start_budget(&coin),
+            None,
+            PlotFormat::Svg,
+            DEFAULT_SIZE
+        ),
+        Err(PlotError::Nothing(_))
+    ));
+}
+
+/// Three switching stages (one on another through a switch) and a linear regulator.
+const THREE_CONVERTERS: &str = r"
+design: Three converters
+cells:
+  c: { capacity: 2 Ah, ocv: [[0 %, 3.3 V], [100 %, 4.2 V]], resistance: 0.1 ohm, cutoff: 3.0 V }
+battery: { cell: c }
+stages:
+  - { id: bb, kind: buck-boost, input: battery, output: 3.3 V, efficiency: 90 %, quiescent: 20 µA }
+  - { id: sw, kind: switch, input: bb, on_resistance: 0.1 ohm }
+  - id: core
+    kind: buck
+    input: sw
+    output: 1.2 V
+    loss: { drop: 0.05 V, resistance: 0.3 ohm }
+    quiescent: 5 µA
+  - id: hv
+    kind: boost
+    input: battery
+    output: 5 V
+    efficiency: [[1 mA, 70 %], [10 mA, 85 %], [100 mA, 90 %]]
+    quiescent: 40 µA
+  - { id: ldo, kind: linear, input: bb, output: 1.8 V }
+loads:
+  - { id: cpu, rail: core, draw: { run: 80 mA, idle: 50 µA }, default: idle }
+  - { id: led, rail: hv, draw: { on: 80 mA } }
+  - { id: adc, rail: ldo, draw: { on: 1 mA } }
+modes: { idle: {}, busy: { cpu: run, adc: on }, flash: { cpu: run, led: on } }
+profile:
+  - { mode: busy, for: 1 h }
+  - { mode: idle, for: 10 h }
+  - { mode: flash, for: 10 s }
+";
+
+#[test]
+fn efficiency_draws_one_panel_per_switching_stage() {
+    let d = Design::from_text(THREE_CONVERTERS).expect("design");
+    let r = traced(&d);
+    let b = start_budget(&d);
+    let svg = efficiency(&d, &b, Some(&r), PlotFormat::Svg, (1100, 800)).expect("SVG");
+    keep("three-efficiency.svg", &svg);
+    let t = svg_texts(&svg);
+    assert_eq!(
+        t.iter().filter(|x| x.as_str() == "efficiency (%)").count(),
+        3
+    );
+    // The buck behind the switch sees the buck-boost's 3.3 V; `hv` sees the pack.
+    assert!(has(&t, "`core` buck to 1.20 V, input 3.30 V"), "{t:?}");
+    assert!(has(&t, "`bb` buck-boost to 3.30 V, input"), "{t:?}");
+    assert!(has(&t, "table ends"), "{t:?}");
+    let png = efficiency(&d, &b, Some(&r), PlotFormat::Png, (1100, 800)).expect("PNG");
+    keep("three-efficiency.png", &png);
+    let losses_png = losses(&d, &r, PlotFormat::Png, (1000, 680)).expect("PNG");
+    keep("three-losses.png", &losses_png);
+    let discharge_png = discharge(&d, &r, PlotFormat::Png, (1000, 680)).expect("PNG");
+    keep("three-discharge.png", &discharge_png);
+}
+
+#[test]
+fn compare_svg_labels_every_design() {
+    let a = load("scanner-boost.yaml");
+    let b = load("scanner-buck-boost.yaml");
+    let (ra, rb) = (traced(&a), traced(&b));
+    let entries = [("boost", &a, &ra), ("buck-boost", &b, &rb)];
+    let svg = compare_discharge(&entries, PlotFormat::Svg, DEFAULT_SIZE).expect("compare SVG");
+    keep("scanner-compare.svg", &svg);
+    let t = svg_texts(&svg);
+    for want in [
+        "boost: Barcode scanner",
+        "buck-boost: Barcode scanner",
+        "lowest pack voltage (V)",
+        "state of charge (%)",
+        "cutoff 3.00 V",
+        "(cutoff)",
+    ] {
+        assert!(has(&t, want), "no `{want}` in {t:?}");
+    }
+}
+
+#[test]
+fn every_example_draws_every_picture_as_png_of_the_asked_size() {
+    for path in example_files() {
+        let name = path.file_stem().unwrap().to_string_lossy().to_string();
+        let text = std::fs::read_to_string(&path).unwrap();
+        let d = Design::from_text(&text).unwrap();
+        let r = traced(&d);
+        let size = (900, 620);
+        let mut pictures = vec![
+            ("discharge", discharge(&d, &r, PlotFormat::Png, size)),
+            ("losses", losses(&d, &r, PlotFormat::Png, size)),
+        ];
+        if d.stages.iter().any(|s| s.kind.is_switching()) {
+            let e = efficiency(&d, &start_budget(&d), Some(&r), PlotFormat::Png, size);
+            pictures.push(("efficiency", e));
+        }
+        for (kind, bytes) in pictures {
+            let bytes = bytes.unwrap_or_else(|e| panic!("{name} {kind}: {e}"));
+            keep(&format!("{name}-{kind}.png"), &bytes);
+            let (dims, colours) = png_look(&bytes);
+            assert_eq!(dims, size, "{name} {kind}");
+            // White paper, ink, grid greys and at least three series colours, antialiased.
+            assert!(colours > 20, "{name} {kind}: only {colours} colours");
+        }
+    }
+}
+
+#[test]
+fn svg_of_every_example_parses() {
+    for path in example_files() {
+        let text = std::fs::read_to_string(&path).unwrap();
+        let d = Design::from_text(&text).unwrap();
+        let r = traced(&d);
+        for bytes in [
+            discharge(&d, &r, PlotFormat::Svg, DEFAULT_SIZE).unwrap(),
+            losses(&d, &r, PlotFormat::Svg, DEFAULT_SIZE).unwrap(),
+        ] {
+            let t = svg_texts(&bytes);
+            assert!(!t.is_empty(), "{}", path.display());
+        }
+    }
+}
+
+#[test]
+fn compare_png_is_not_blank() {
+    let a = load("coin-cell-tag.yaml");
+    let b = load("wearable-band.yaml");
+    let c = load("field-logger.yaml");
+    let (ra, rb, rc) = (traced(&a), traced(&b), traced(&c));
+    let entries = [("tag", &a, &ra), ("band", &b, &rb), ("logger", &c, &rc)];
+    let bytes = compare_discharge(&entries, PlotFormat::Png, (1200, 800)).expect("compare PNG");
+    keep("three-compare.png", &bytes);
+    let (dims, colours) = png_look(&bytes);
+    assert_eq!(dims, (1200, 800));
+    assert!(colours > 20);
+}
+
+#[test]
+fn html_report_is_self_contained() {
+    let d = load("handheld-meter.yaml");
+    let r = traced(&d);
+    let b = start_budget(&d);
+    let mut out = Vec::new();
+    write_html(&mut out, &d, &b, d.pack.start_soc, &r).expect("html");
+    keep("meter-report.html", &out);
+    let html = String::from_utf8(out).expect("UTF-8");
+    assert!(html.starts_with("<!DOCTYPE html>"));
+    assert!(html.contains(&joulepath::units::fmt_duration(r.end.t_s)));
+    assert!(html.contains("the pack is empty"), "end sentence");
+    assert!(html.contains("Caution:"));
+    assert!(html.matches("<svg").count() >= 3, "three inline pictures");
+    assert!(html.contains("@media print"));
+    for (i, _) in html.match_indices("http") {
+        let rest = &html[i..];
+        assert!(
+            rest.starts_with("http://www.w3.org/2000/svg"),
+            "external reference at {}",
+            &rest[..rest.len().min(60)]
+        );
+    }
+    assert!(!html.contains("<script"));
+    assert!(!html.contains("<link"));
+    // Every mode's budget and the heat ranking.
+    for m in &d.modes {
+        assert!(
+            html.contains(&format!("<h3>Mode <code>{}</code>", m.name)),
+            "{}",
+            m.name
+        );
+    }
+    assert!(html.contains("ldo-1v8"));
+}
