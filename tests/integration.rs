@@ -2,6 +2,7 @@
 
 mod util;
 
+mod browser;
 mod cli;
 mod errors;
 mod examples;
