@@ -220,11 +220,16 @@ fn table(w: &mut dyn Write, p: &Preset) -> io::Result<()> {
     );
     row(
         "self-discharge",
-        format!(
-            "{}/month ({}/year) of the rated capacity",
-            fmt_percent(per_month),
-            fmt_percent(per_year)
-        ),
+        if per_year < 1.0 {
+            format!(
+                "{}/month ({}/year) of the rated capacity",
+                fmt_percent(per_month),
+                fmt_percent(per_year)
+            )
+        } else {
+            // A fast rate: the linear model empties the cell within the year.
+            format!("{}/month of the rated capacity", fmt_percent(per_month))
+        },
     );
     for (i, line) in temperature.into_iter().enumerate() {
         row(if i == 0 { "temperature" } else { "" }, line);
