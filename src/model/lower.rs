@@ -217,6 +217,10 @@ impl Lower<'_> {
             }
         }
         let profile = self.profile(spec, modes.as_deref());
+        let (tree, loads, mut modes) = (tree?.0, loads?, modes?);
+        for m in &mut modes {
+            m.rail_draws = rail_draws(&tree, &loads, &m.load_states);
+        }
         Some(Design {
             title: spec
                 .design
@@ -225,10 +229,10 @@ impl Lower<'_> {
             ambient_c: ambient_c?,
             pack: pack?,
             stages: stages?,
-            loads: loads?,
-            modes: modes?,
+            loads,
+            modes,
             profile: profile?,
-            tree: tree?.0,
+            tree,
         })
     }
 
@@ -1232,6 +1236,7 @@ impl Lower<'_> {
                 name: name.clone(),
                 load_states,
                 stage_on,
+                rail_draws: Vec::new(),
             });
         }
         ok.then_some(out)
@@ -1390,6 +1395,19 @@ impl Lower<'_> {
             }
         }
     }
+}
+
+/// For each rail, the draws of the loads on it that are not off in a mode: the solver's hot
+/// loop reads them from one short array per rail.
+fn rail_draws(tree: &Tree, loads: &[Load], states: &[Option<usize>]) -> Vec<Vec<Draw>> {
+    (0..tree.rails())
+        .map(|r| {
+            tree.loads_on(r)
+                .iter()
+                .filter_map(|&l| states[l].map(|s| loads[l].states[s].1))
+                .collect()
+        })
+        .collect()
 }
 
 /// Position of each id (the first, where ids repeat: duplicates are reported elsewhere).

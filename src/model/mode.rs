@@ -9,6 +9,9 @@ pub struct Mode {
     pub load_states: Vec<Option<usize>>,
     /// Whether each stage is enabled, by stage index.
     pub stage_on: Vec<bool>,
+    /// For each rail, the draws of its loads that are on in this mode (derived from
+    /// `load_states` when the design is checked).
+    pub rail_draws: Vec<Vec<super::Draw>>,
 }
 
 /// One item of the profile.

@@ -347,6 +347,16 @@ impl Walker<'_> {
     /// Current drawn from `rail` at voltage `v` by everything on it.
     fn rail_current(&self, rail: usize, v: f64, mut rec: Option<&mut Vec<Rec>>) -> f64 {
         let mut total = 0.0;
+        if rec.is_none() {
+            // The hot path: only the sum, from this mode's draws on the rail.
+            for d in &self.mode.rail_draws[rail] {
+                total += d.current(v);
+            }
+            for &k in self.d.tree.stages_on(rail) {
+                total += self.stage_input(k, v, None);
+            }
+            return total;
+        }
         for &l in self.d.tree.loads_on(rail) {
             let state = self.mode.load_states[l];
             let (i, p) = match state {
