@@ -4,7 +4,7 @@ use super::peukert_factor;
 use crate::model::{Cell, Chemistry, Table};
 
 /// One row of the fitted tables.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, serde::Serialize)]
 pub struct SocPoint {
     /// State of charge, 0..1.
     pub soc: f64,

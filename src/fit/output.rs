@@ -51,23 +51,6 @@ pub struct CurveReport {
     pub max_v: f64,
 }
 
-/// One row of the fitted tables in the report.
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct PointReport {
-    /// State of charge, 0..1.
-    pub soc: f64,
-    /// OCV, V.
-    pub ocv_v: f64,
-    /// Resistance, Ω.
-    pub resistance_ohm: f64,
-    /// Outside the range every curve covers.
-    pub extrapolated: bool,
-    /// A negative least-squares resistance held at 0.
-    pub resistance_clamped: bool,
-    /// OCV levelled to keep the table non-decreasing.
-    pub ocv_adjusted: bool,
-}
-
 /// How the fit went: the capacity law, coverage, residuals, each curve, each row, warnings.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct FitReport {
@@ -94,7 +77,7 @@ pub struct FitReport {
     /// Each curve.
     pub curves: Vec<CurveReport>,
     /// Each row of the tables.
-    pub table: Vec<PointReport>,
+    pub table: Vec<super::SocPoint>,
     /// Warnings, one sentence each.
     pub warnings: Vec<String>,
 }
@@ -139,18 +122,7 @@ pub fn report(fit: &Fit) -> FitReport {
                 max_v: c.residual.max_v,
             })
             .collect(),
-        table: fit
-            .table
-            .iter()
-            .map(|p| PointReport {
-                soc: p.soc,
-                ocv_v: p.ocv_v,
-                resistance_ohm: p.resistance_ohm,
-                extrapolated: p.extrapolated,
-                resistance_clamped: p.resistance_clamped,
-                ocv_adjusted: p.ocv_adjusted,
-            })
-            .collect(),
+        table: fit.table.clone(),
         warnings: fit.warnings.clone(),
     }
 }
