@@ -1,0 +1,422 @@
+//! Cells and the pack: tables against state of charge, presets and their overrides, the
+//! temperature table, series and parallel.
+
+#[allow(clippy::wildcard_imports)]
+use super::*;
+
+impl Lower<'_> {
+    pub(super) fn soc_table(
+        &mut self,
+        rows: &[Vec<Qty>],
+        path: &str,
+        dim: Dim,
+        bound: Bound,
+    ) -> Option<Table> {
+        let mut pts = Vec::new();
+        let mut ok = true;
+        for (i, row) in rows.iter().enumerate() {
+            let p = format!("{path}[{i}]");
+            if row.len() != 2 {
+                self.err(
+                    &p,
+                    format!("a row has {} values, not 2", row.len()),
+                    Some(format!("write each row as `[SoC, {}]`", dim.example())),
+                );
+                ok = false;
+                continue;
+            }
+            let s = self.fraction(&row[0], &format!("{p}[0]"), 0.0, true, 1.0);
+            let v = self.value(&row[1], &format!("{p}[1]"), dim, bound);
+            match (s, v) {
+                (Some(s), Some(v)) => pts.push((s, v)),
+                _ => ok = false,
+            }
+        }
+        if !ok {
+            return None;
+        }
+        let has = |x: f64| pts.iter().any(|p| (p.0 - x).abs() < 1e-12);
+        if !has(0.0) || !has(1.0) {
+            self.err(
+                path,
+                "a state-of-charge table needs a point at 0 % and one at 100 %".to_string(),
+                Some("add the missing end rows".into()),
+            );
+            return None;
+        }
+        let repeated = pts.iter().enumerate().find_map(|(i, a)| {
+            pts[..i]
+                .iter()
+                .position(|b| b.0.total_cmp(&a.0).is_eq())
+                .map(|j| (j, i, a.0))
+        });
+        match Table::new(pts) {
+            Ok(t) => Some(t),
+            Err(TableError::Repeated(_)) => {
+                let (j, i, soc) = repeated.unwrap_or((0, 0, 0.0));
+                self.err(
+                    &format!("{path}[{i}]"),
+                    format!(
+                        "rows {j} and {i} of the table both give the state of charge {}",
+                        fmt_percent(soc)
+                    ),
+                    Some("keep one row per SoC".into()),
+                );
+                None
+            }
+            Err(_) => {
+                self.err(path, "the table is empty", None);
+                None
+            }
+        }
+    }
+
+    /// A cell: a custom one, or a built-in preset with the keys `c` gives overriding its own.
+    pub(super) fn cell(&mut self, name: &str, c: &CellSpec, path: &str) -> Option<Cell> {
+        let Some(p) = &c.preset else {
+            return self.custom_cell(name, c, path);
+        };
+        let base = match presets::spec(p) {
+            Some(Ok(base)) => base,
+            Some(Err(message)) => {
+                self.err(&format!("{path}.preset"), message, None);
+                return None;
+            }
+            None => {
+                self.err(
+                    &format!("{path}.preset"),
+                    format!("unknown cell preset `{p}`"),
+                    Some(Preset::suggestion(p)),
+                );
+                return None;
+            }
+        };
+        let merged = overlay(c, &base);
+        let before = self.diags.len();
+        let cell = self.custom_cell(name, &merged, path);
+        // A problem with a value the preset gave (a rule across keys, such as the cutoff against
+        // an overriding OCV table) says where that value came from.
+        let given = given_keys(c);
+        for d in &mut self.diags[before..] {
+            let key = d
+                .path()
+                .strip_prefix(path)
+                .unwrap_or("")
+                .trim_start_matches('.')
+                .split(['.', '['])
+                .next()
+                .unwrap_or("");
+            if !key.is_empty() && !given.contains(&key) {
+                *d = Diagnostic::new(
+                    d.path(),
+                    format!("{} (`{key}` comes from preset `{p}`)", d.message()),
+                )
+                .with_hint(match d.hint() {
+                    Some(h) => format!("{h}; give `{key}:` here to replace the preset's"),
+                    None => format!("give `{key}:` here to replace the preset's"),
+                })
+                .at(d.location());
+            }
+        }
+        cell
+    }
+
+    /// A cell from its own keys (a custom cell, or a preset merged with its overrides).
+    pub(super) fn custom_cell(&mut self, name: &str, c: &CellSpec, path: &str) -> Option<Cell> {
+        let missing = |lw: &mut Self, key: &str, example: &str| {
+            lw.err(
+                path,
+                format!("cell `{name}` has no `{key}`"),
+                Some(format!("add `{key}: {example}`")),
+            );
+        };
+        let ocv = match &c.ocv {
+            Some(rows) => {
+                let t =
+                    self.soc_table(rows, &format!("{path}.ocv"), Dim::Voltage, Bound::AboveZero);
+                if let Some(t) = &t {
+                    if !t.is_non_decreasing() {
+                        self.err(
+                            &format!("{path}.ocv"),
+                            format!("the open-circuit voltage of cell `{name}` falls as the state of charge rises"),
+                            Some("check the rows for a typing error: OCV must not fall from one SoC to a higher one".into()),
+                        );
+                        return None;
+                    }
+                }
+                t
+            }
+            None => {
+                missing(self, "ocv", "[[0 %, 3.0 V], [100 %, 4.2 V]]");
+                None
+            }
+        };
+        let capacity = match &c.capacity {
+            Some(q) => {
+                match self.quantity(q, &format!("{path}.capacity"), &[Dim::Charge, Dim::Energy]) {
+                    Some(v) if v.value() > 0.0 => Some(v),
+                    Some(_) => {
+                        self.err(
+                            &format!("{path}.capacity"),
+                            "the capacity must be above zero",
+                            None,
+                        );
+                        None
+                    }
+                    None => None,
+                }
+            }
+            None => {
+                missing(self, "capacity", "600 mAh");
+                None
+            }
+        };
+        // A capacity in Wh becomes charge through the mean OCV over the full range.
+        let capacity_c = match (capacity, &ocv) {
+            (Some(q), _) if q.dim() == Dim::Charge => Some(q.value()),
+            (Some(q), Some(t)) => Some(q.value() / t.mean(0.0, 1.0)),
+            _ => None,
+        };
+        let resistance = match &c.resistance {
+            Some(ResistanceSpec::Constant(q)) => self
+                .value(
+                    q,
+                    &format!("{path}.resistance"),
+                    Dim::Resistance,
+                    Bound::AtLeastZero,
+                )
+                .map(Table::constant),
+            Some(ResistanceSpec::Table(rows)) => self.soc_table(
+                rows,
+                &format!("{path}.resistance"),
+                Dim::Resistance,
+                Bound::AtLeastZero,
+            ),
+            None => {
+                missing(self, "resistance", "150 mΩ");
+                None
+            }
+        };
+        let cutoff = match &c.cutoff {
+            Some(q) => self.value(q, &format!("{path}.cutoff"), Dim::Voltage, Bound::AboveZero),
+            None => {
+                missing(self, "cutoff", "3.0 V");
+                None
+            }
+        };
+        if let (Some(cut), Some(t)) = (cutoff, &ocv) {
+            if cut >= t.at(1.0) {
+                self.err(
+                    &format!("{path}.cutoff"),
+                    format!(
+                        "the cutoff {} is not below the full-charge OCV {}",
+                        fmt_eng(cut, "V"),
+                        fmt_eng(t.at(1.0), "V")
+                    ),
+                    Some("the cutoff is the end-of-discharge voltage under load".into()),
+                );
+            }
+        }
+        let rated = match (&c.rated_current, capacity_c) {
+            (Some(q), _) => self.value(
+                q,
+                &format!("{path}.rated_current"),
+                Dim::Current,
+                Bound::AboveZero,
+            ),
+            (None, Some(cap)) => Some(cap / (5.0 * 3600.0)),
+            (None, None) => None,
+        };
+        let polarization = match &c.polarization {
+            None => Some(None),
+            Some(p) => {
+                let r = self.value(
+                    &p.resistance,
+                    &format!("{path}.polarization.resistance"),
+                    Dim::Resistance,
+                    Bound::AtLeastZero,
+                );
+                let tau = self.value(
+                    &p.time_constant,
+                    &format!("{path}.polarization.time_constant"),
+                    Dim::Time,
+                    Bound::AboveZero,
+                );
+                r.zip(tau).map(Some)
+            }
+        };
+        let peukert = match &c.peukert {
+            None => Some(1.0),
+            Some(q) => match self.quantity(q, &format!("{path}.peukert"), &[Dim::Number]) {
+                Some(k) if (1.0..=2.0).contains(&k.value()) => Some(k.value()),
+                Some(_) => {
+                    self.err(
+                        &format!("{path}.peukert"),
+                        format!("the Peukert exponent `{}` is outside [1, 2]", q.text()),
+                        Some("typical values are 1.0 to 1.3; 1 means no rate effect".into()),
+                    );
+                    None
+                }
+                None => None,
+            },
+        };
+        let max_current = self.opt(
+            c.max_current.as_ref(),
+            &format!("{path}.max_current"),
+            Dim::Current,
+            Bound::AboveZero,
+        );
+        let self_discharge = self.opt(
+            c.self_discharge.as_ref(),
+            &format!("{path}.self_discharge"),
+            Dim::Rate,
+            Bound::AtLeastZero,
+        );
+        let temps = self.temperature(c, path);
+        let (temp_capacity, temp_resistance) = temps?;
+        Some(Cell {
+            name: name.to_string(),
+            chemistry: chemistry(c.chemistry),
+            capacity_c: capacity_c?,
+            rated_current_a: rated?,
+            ocv: ocv?,
+            resistance: resistance?,
+            polarization: polarization?,
+            peukert: peukert?,
+            cutoff_v: cutoff?,
+            max_current_a: max_current?,
+            self_discharge_per_s: self_discharge?.unwrap_or(0.0),
+            temp_capacity,
+            temp_resistance,
+        })
+    }
+
+    pub(super) fn temperature(&mut self, c: &CellSpec, path: &str) -> Option<(Table, Table)> {
+        let Some(rows) = &c.temperature else {
+            return Some((Table::constant(1.0), Table::constant(1.0)));
+        };
+        let mut cap = Vec::new();
+        let mut res = Vec::new();
+        let mut ok = true;
+        for (i, row) in rows.iter().enumerate() {
+            let p = format!("{path}.temperature[{i}]");
+            let at = self.value(&row.at, &format!("{p}.at"), Dim::Temperature, Bound::Any);
+            let cf = match &row.capacity {
+                None => Some(1.0),
+                Some(q) => self.fraction(q, &format!("{p}.capacity"), 0.0, false, 2.0),
+            };
+            let rf = match &row.resistance {
+                None => Some(1.0),
+                Some(q) => self.fraction(q, &format!("{p}.resistance"), 0.0, false, 100.0),
+            };
+            match (at, cf, rf) {
+                (Some(t), Some(cf), Some(rf)) => {
+                    cap.push((t, cf));
+                    res.push((t, rf));
+                }
+                _ => ok = false,
+            }
+        }
+        if !ok {
+            return None;
+        }
+        match (Table::new(cap), Table::new(res)) {
+            (Ok(a), Ok(b)) => Some((a, b)),
+            _ => {
+                self.err(
+                    &format!("{path}.temperature"),
+                    "the temperature table is empty or gives the same temperature twice",
+                    Some("keep one row per temperature".into()),
+                );
+                None
+            }
+        }
+    }
+
+    pub(super) fn pack(&mut self, spec: &DesignSpec, cell: Option<Cell>) -> Option<Pack> {
+        let b = &spec.battery;
+        let series = self.count(b.series.as_ref(), "battery.series", 1000);
+        let parallel = self.count(b.parallel.as_ref(), "battery.parallel", 1000);
+        let start = match &b.start {
+            None => Some(1.0),
+            Some(q) => self.fraction(q, "battery.start", 0.0, true, 1.0),
+        };
+        let (mut ac, mut ar) = (Some(1.0), Some(1.0));
+        if let Some(a) = &b.aging {
+            if let Some(q) = &a.capacity {
+                ac = self.fraction(q, "battery.aging.capacity", 0.0, false, 1.0);
+            }
+            if let Some(q) = &a.resistance {
+                ar = self.fraction(q, "battery.aging.resistance", 0.0, false, 100.0);
+            }
+        }
+        Some(Pack {
+            cell: cell?,
+            series: u32::try_from(series?).ok()?,
+            parallel: u32::try_from(parallel?).ok()?,
+            start_soc: start?,
+            aging_capacity: ac?,
+            aging_resistance: ar?,
+        })
+    }
+}
+
+fn overlay(over: &CellSpec, base: &CellSpec) -> CellSpec {
+    let pick = |a: &Option<Qty>, b: &Option<Qty>| a.clone().or_else(|| b.clone());
+    CellSpec {
+        preset: None,
+        description: over
+            .description
+            .clone()
+            .or_else(|| base.description.clone()),
+        chemistry: over.chemistry.or(base.chemistry),
+        capacity: pick(&over.capacity, &base.capacity),
+        rated_current: pick(&over.rated_current, &base.rated_current),
+        ocv: over.ocv.clone().or_else(|| base.ocv.clone()),
+        resistance: over.resistance.clone().or_else(|| base.resistance.clone()),
+        polarization: over
+            .polarization
+            .clone()
+            .or_else(|| base.polarization.clone()),
+        peukert: pick(&over.peukert, &base.peukert),
+        cutoff: pick(&over.cutoff, &base.cutoff),
+        max_current: pick(&over.max_current, &base.max_current),
+        self_discharge: pick(&over.self_discharge, &base.self_discharge),
+        temperature: over
+            .temperature
+            .clone()
+            .or_else(|| base.temperature.clone()),
+    }
+}
+
+pub(super) fn given_keys(c: &CellSpec) -> Vec<&'static str> {
+    [
+        ("chemistry", c.chemistry.is_some()),
+        ("capacity", c.capacity.is_some()),
+        ("rated_current", c.rated_current.is_some()),
+        ("ocv", c.ocv.is_some()),
+        ("resistance", c.resistance.is_some()),
+        ("polarization", c.polarization.is_some()),
+        ("peukert", c.peukert.is_some()),
+        ("cutoff", c.cutoff.is_some()),
+        ("max_current", c.max_current.is_some()),
+        ("self_discharge", c.self_discharge.is_some()),
+        ("temperature", c.temperature.is_some()),
+    ]
+    .into_iter()
+    .filter_map(|(k, given)| given.then_some(k))
+    .collect()
+}
+
+fn chemistry(c: Option<ChemistrySpec>) -> Chemistry {
+    match c.unwrap_or(ChemistrySpec::Other) {
+        ChemistrySpec::LiIon => Chemistry::LiIon,
+        ChemistrySpec::Lifepo4 => Chemistry::LiFePo4,
+        ChemistrySpec::Nimh => Chemistry::NiMh,
+        ChemistrySpec::Alkaline => Chemistry::Alkaline,
+        ChemistrySpec::LiMno2 => Chemistry::LiMnO2,
+        ChemistrySpec::LiSocl2 => Chemistry::LiSoCl2,
+        ChemistrySpec::LeadAcid => Chemistry::LeadAcid,
+        ChemistrySpec::Other => Chemistry::Other,
+    }
+}

@@ -1,0 +1,279 @@
+//! From the serde mirror to the checked model: quantities parsed, every rule of the design file
+//! checked, every problem gathered with its YAML path.
+
+mod cell;
+mod profile;
+mod stage;
+mod wiring;
+
+use cell::given_keys;
+
+use std::collections::HashMap;
+
+use super::curve::{Table, TableError};
+use super::load::{Draw, Load};
+use super::mode::{Mode, RepeatUntil, Step};
+use super::pack::{Cell, Chemistry, Pack};
+use super::presets::{self, Preset};
+use super::stage::{EffCurve, LossModel, Stage, StageKind};
+use super::{BATTERY, Design};
+use crate::error::{Diagnostic, did_you_mean};
+use crate::spec::{
+    CellRef, CellSpec, ChemistrySpec, DesignSpec, Efficiency, Qty, ResistanceSpec, SourceMap,
+    StageKindSpec, StageSpec, StepSpec, backticked,
+};
+use crate::tree::{MAX_DEPTH, Tree, TreeError};
+use crate::units::{Dim, Quantity, fmt_eng, fmt_percent, parse_quantity};
+
+/// Deepest nesting of `repeat` blocks.
+const MAX_REPEAT_NESTING: usize = 16;
+
+pub(super) fn lower(spec: &DesignSpec, source: &SourceMap) -> Result<Design, Vec<Diagnostic>> {
+    let mut lw = Lower {
+        source,
+        diags: Vec::new(),
+    };
+    let design = lw.design(spec);
+    if lw.diags.is_empty() {
+        design.ok_or_else(Vec::new)
+    } else {
+        Err(lw.diags)
+    }
+}
+
+/// Check one cell alone (a built-in preset); paths start at the cell's keys (`.capacity`).
+pub(super) fn lone_cell(
+    name: &str,
+    spec: &CellSpec,
+    source: &SourceMap,
+) -> Result<Cell, Vec<Diagnostic>> {
+    let mut lw = Lower {
+        source,
+        diags: Vec::new(),
+    };
+    let cell = lw.cell(name, spec, "");
+    match cell {
+        Some(c) if lw.diags.is_empty() => Ok(c),
+        _ => Err(lw.diags),
+    }
+}
+
+struct Lower<'a> {
+    source: &'a SourceMap,
+    diags: Vec<Diagnostic>,
+}
+
+/// A value's bounds for a check: (lowest, whether the lowest is allowed, highest).
+#[derive(Clone, Copy)]
+enum Bound {
+    AtLeastZero,
+    AboveZero,
+    Any,
+}
+
+impl Lower<'_> {
+    fn err(&mut self, path: &str, message: impl Into<String>, hint: Option<String>) {
+        let at = self.source.nearest(path);
+        self.diags
+            .push(Diagnostic::new(path, message).with_hint_opt(hint).at(at));
+    }
+
+    fn quantity(&mut self, q: &Qty, path: &str, dims: &[Dim]) -> Option<Quantity> {
+        match parse_quantity(q.text(), dims) {
+            Ok(v) => Some(v),
+            Err(e) => {
+                self.err(path, e.to_string(), e.hint());
+                None
+            }
+        }
+    }
+
+    /// A value of one dimension within a bound.
+    fn value(&mut self, q: &Qty, path: &str, dim: Dim, bound: Bound) -> Option<f64> {
+        let v = self.quantity(q, path, &[dim])?.value();
+        let ok = match bound {
+            Bound::AtLeastZero => v >= 0.0,
+            Bound::AboveZero => v > 0.0,
+            Bound::Any => true,
+        };
+        if ok {
+            Some(v)
+        } else {
+            let what = if matches!(bound, Bound::AtLeastZero) {
+                "cannot be negative"
+            } else {
+                "must be above zero"
+            };
+            self.err(
+                path,
+                format!("{} `{}` {what}", capital(dim.noun()), q.text()),
+                None,
+            );
+            None
+        }
+    }
+
+    fn opt(&mut self, q: Option<&Qty>, path: &str, dim: Dim, bound: Bound) -> Option<Option<f64>> {
+        match q {
+            None => Some(None),
+            Some(q) => self.value(q, path, dim, bound).map(Some),
+        }
+    }
+
+    /// A fraction in (lo, hi] (or [lo, hi] when `lo_closed`).
+    fn fraction(&mut self, q: &Qty, path: &str, lo: f64, lo_closed: bool, hi: f64) -> Option<f64> {
+        let v = self.quantity(q, path, &[Dim::Fraction])?.value();
+        let ok = (if lo_closed { v >= lo } else { v > lo }) && v <= hi;
+        if ok {
+            Some(v)
+        } else {
+            let open = if lo_closed { "[" } else { "(" };
+            self.err(
+                path,
+                format!(
+                    "`{}` is outside {open}{} %, {} %]",
+                    q.text(),
+                    lo * 100.0,
+                    hi * 100.0
+                ),
+                None,
+            );
+            None
+        }
+    }
+
+    fn count(&mut self, q: Option<&Qty>, path: &str, max: u64) -> Option<u64> {
+        let Some(q) = q else { return Some(1) };
+        let v = self.quantity(q, path, &[Dim::Number])?.value();
+        if v >= 1.0 && v.fract() == 0.0 && v <= max as f64 {
+            Some(v as u64)
+        } else {
+            self.err(
+                path,
+                format!("`{}` is not a whole number from 1 to {max}", q.text()),
+                None,
+            );
+            None
+        }
+    }
+
+    fn design(&mut self, spec: &DesignSpec) -> Option<Design> {
+        let ambient_c = match &spec.ambient {
+            None => Some(25.0),
+            Some(q) => self.value(q, "ambient", Dim::Temperature, Bound::Any),
+        };
+        // Every custom cell is checked, whether used or not.
+        let mut cells: HashMap<&str, Option<Cell>> = HashMap::new();
+        for (name, c) in &spec.cells {
+            let cell = self.cell(name, c, &format!("cells.{name}"));
+            cells.insert(name.as_str(), cell);
+        }
+        let cell = match &spec.battery.cell {
+            CellRef::Inline(c) => {
+                let name = match &c.preset {
+                    Some(p) if given_keys(c).is_empty() => p.clone(),
+                    Some(p) => format!("{p}, modified"),
+                    None => "inline".to_string(),
+                };
+                self.cell(&name, c, "battery.cell")
+            }
+            // A key of `cells` first, else a built-in preset.
+            CellRef::Name(n) => match cells.get(n.as_str()) {
+                Some(c) => c.clone(),
+                None if Preset::text(n).is_some() => {
+                    let c = CellSpec {
+                        preset: Some(n.clone()),
+                        ..CellSpec::default()
+                    };
+                    self.cell(n, &c, "battery.cell")
+                }
+                None => {
+                    let names: Vec<&str> = spec.cells.keys().map(String::as_str).collect();
+                    let mut all = names.clone();
+                    for p in Preset::names() {
+                        all.push(p);
+                    }
+                    let hint = match did_you_mean(n, all.into_iter()) {
+                        Some(s) => format!("did you mean `{s}`?"),
+                        None if names.is_empty() => {
+                            "define it under `cells:` (capacity, ocv, resistance, cutoff), write the cell inline, or name a built-in preset (`joulepath cells` lists them)".into()
+                        }
+                        None => format!(
+                            "the cells defined are {}; `joulepath cells` lists the built-in presets",
+                            backticked(&names)
+                        ),
+                    };
+                    self.err("battery.cell", format!("unknown cell `{n}`"), Some(hint));
+                    None
+                }
+            },
+        };
+        let pack = self.pack(spec, cell);
+        let stages = self.stages(&spec.stages);
+        let loads = self.loads(spec);
+        self.unique_ids(spec);
+        let tree = self.tree(spec);
+        let modes = self.modes(spec);
+        let (mut stages, mut loads) = (stages, loads);
+        if let (Some((_, inputs, rails)), Some(st), Some(ld)) = (&tree, &mut stages, &mut loads) {
+            for (s, &r) in st.iter_mut().zip(inputs) {
+                s.input = r;
+            }
+            for (l, &r) in ld.iter_mut().zip(rails) {
+                l.rail = r;
+            }
+        }
+        let profile = self.profile(spec, modes.as_deref());
+        let (tree, loads, mut modes) = (tree?.0, loads?, modes?);
+        for m in &mut modes {
+            m.rail_draws = rail_draws(&tree, &loads, &m.load_states);
+        }
+        Some(Design {
+            title: spec
+                .design
+                .clone()
+                .unwrap_or_else(|| "untitled design".into()),
+            ambient_c: ambient_c?,
+            pack: pack?,
+            stages: stages?,
+            loads,
+            modes,
+            profile: profile?,
+            tree,
+        })
+    }
+}
+
+/// For each rail, the draws of the loads on it that are not off in a mode: the solver's hot
+/// loop reads them from one short array per rail.
+fn rail_draws(tree: &Tree, loads: &[Load], states: &[Option<usize>]) -> Vec<Vec<Draw>> {
+    (0..tree.rails())
+        .map(|r| {
+            tree.loads_on(r)
+                .iter()
+                .filter_map(|&l| states[l].map(|s| loads[l].states[s].1))
+                .collect()
+        })
+        .collect()
+}
+
+/// Position of each id (the first, where ids repeat: duplicates are reported elsewhere).
+fn index_of<'s>(ids: impl Iterator<Item = &'s str>) -> HashMap<&'s str, usize> {
+    let mut map = HashMap::new();
+    for (i, id) in ids.enumerate() {
+        map.entry(id).or_insert(i);
+    }
+    map
+}
+
+/// The cell `over` on top of the preset `base`: every key `over` gives replaces the preset's
+/// (a table or the polarization branch as a whole).
+/// The physical keys a cell gives itself (not `preset` or `description`).
+fn capital(s: &str) -> String {
+    // "a voltage" -> "the voltage"; used as the subject of a sentence.
+    let rest = s
+        .strip_prefix("an ")
+        .or_else(|| s.strip_prefix("a "))
+        .unwrap_or(s);
+    format!("the {rest}")
+}

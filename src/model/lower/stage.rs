@@ -1,0 +1,371 @@
+//! Stages: setpoints, loss models and efficiency curves, the keys each kind takes.
+
+#[allow(clippy::wildcard_imports)]
+use super::*;
+
+impl Lower<'_> {
+    pub(super) fn range(
+        &mut self,
+        v: Option<&Vec<Qty>>,
+        path: &str,
+    ) -> Option<(Option<f64>, Option<f64>)> {
+        let Some(v) = v else {
+            return Some((None, None));
+        };
+        if v.len() != 2 {
+            self.err(
+                path,
+                format!("a range has {} values, not 2", v.len()),
+                Some("write `[min, max]`, e.g. `[1.7 V, 3.6 V]`".into()),
+            );
+            return None;
+        }
+        let lo = self.value(
+            &v[0],
+            &format!("{path}[0]"),
+            Dim::Voltage,
+            Bound::AtLeastZero,
+        );
+        let hi = self.value(&v[1], &format!("{path}[1]"), Dim::Voltage, Bound::AboveZero);
+        let (lo, hi) = (lo?, hi?);
+        if lo >= hi {
+            self.err(
+                path,
+                format!(
+                    "the minimum {} is not below the maximum {}",
+                    fmt_eng(lo, "V"),
+                    fmt_eng(hi, "V")
+                ),
+                Some("write `[min, max]`".into()),
+            );
+            return None;
+        }
+        Some((Some(lo), Some(hi)))
+    }
+
+    pub(super) fn stages(&mut self, specs: &[StageSpec]) -> Option<Vec<Stage>> {
+        let mut out = Vec::new();
+        let mut ok = true;
+        for (i, s) in specs.iter().enumerate() {
+            match self.stage(s, &format!("stages[{i}]")) {
+                Some(st) => out.push(st),
+                None => ok = false,
+            }
+        }
+        ok.then_some(out)
+    }
+
+    pub(super) fn not_for(
+        &mut self,
+        present: bool,
+        path: &str,
+        key: &str,
+        kind: &str,
+        which: &str,
+    ) {
+        if present {
+            self.err(
+                &format!("{path}.{key}"),
+                format!("`{key}` does not apply to a {kind} stage"),
+                Some(format!("`{key}` applies to {which}; remove it here")),
+            );
+        }
+    }
+
+    pub(super) fn stage(&mut self, s: &StageSpec, path: &str) -> Option<Stage> {
+        let kind = match s.kind {
+            StageKindSpec::Buck => StageKind::Buck,
+            StageKindSpec::Boost => StageKind::Boost,
+            StageKindSpec::BuckBoost => StageKind::BuckBoost,
+            StageKindSpec::Linear => StageKind::Linear,
+            StageKindSpec::Switch => StageKind::Switch,
+        };
+        let kn = kind.name();
+        let before = self.diags.len();
+        let setpoint = match (&s.output, kind) {
+            (Some(_), StageKind::Switch) => {
+                self.err(
+                    &format!("{path}.output"),
+                    "a switch has no setpoint: its output follows its input",
+                    Some("remove `output`".into()),
+                );
+                None
+            }
+            (None, StageKind::Switch) => Some(0.0),
+            (Some(q), _) => {
+                self.value(q, &format!("{path}.output"), Dim::Voltage, Bound::AboveZero)
+            }
+            (None, _) => {
+                self.err(
+                    path,
+                    format!("the {kn} stage `{}` has no `output` setpoint", s.id),
+                    Some("add e.g. `output: 3.3 V`".into()),
+                );
+                None
+            }
+        };
+        let loss = self.loss_model(s, kind, path);
+        let quiescent = self.opt(
+            s.quiescent.as_ref(),
+            &format!("{path}.quiescent"),
+            Dim::Current,
+            Bound::AtLeastZero,
+        );
+        let shutdown = self.opt(
+            s.shutdown.as_ref(),
+            &format!("{path}.shutdown"),
+            Dim::Current,
+            Bound::AtLeastZero,
+        );
+        let range = self.range(s.input_range.as_ref(), &format!("{path}.input_range"));
+        let max_out = self.opt(
+            s.max_output_current.as_ref(),
+            &format!("{path}.max_output_current"),
+            Dim::Current,
+            Bound::AboveZero,
+        );
+        let dropout_default = match kind {
+            StageKind::Linear => 0.2,
+            _ => 0.1,
+        };
+        let takes_dropout = matches!(kind, StageKind::Buck | StageKind::Linear);
+        self.not_for(
+            !takes_dropout && s.dropout.is_some(),
+            path,
+            "dropout",
+            kn,
+            "buck and linear stages",
+        );
+        self.not_for(
+            kind != StageKind::Boost && s.bypass_drop.is_some(),
+            path,
+            "bypass_drop",
+            kn,
+            "boost stages",
+        );
+        self.not_for(
+            kind != StageKind::Switch && s.on_resistance.is_some(),
+            path,
+            "on_resistance",
+            kn,
+            "switch stages",
+        );
+        let dropout = self.opt(
+            s.dropout.as_ref(),
+            &format!("{path}.dropout"),
+            Dim::Voltage,
+            Bound::AtLeastZero,
+        );
+        let bypass = self.opt(
+            s.bypass_drop.as_ref(),
+            &format!("{path}.bypass_drop"),
+            Dim::Voltage,
+            Bound::AtLeastZero,
+        );
+        let ron = match (&s.on_resistance, kind) {
+            (None, StageKind::Switch) => {
+                self.err(
+                    path,
+                    format!("the switch `{}` has no `on_resistance`", s.id),
+                    Some("add e.g. `on_resistance: 80 mΩ`".into()),
+                );
+                None
+            }
+            (q, _) => self.opt(
+                q.as_ref(),
+                &format!("{path}.on_resistance"),
+                Dim::Resistance,
+                Bound::AtLeastZero,
+            ),
+        };
+        let theta = self.opt(
+            s.theta_ja.as_ref(),
+            &format!("{path}.theta_ja"),
+            Dim::ThermalResistance,
+            Bound::AboveZero,
+        );
+        let tj_max = self.opt(
+            s.tj_max.as_ref(),
+            &format!("{path}.tj_max"),
+            Dim::Temperature,
+            Bound::Any,
+        );
+        if s.id.trim().is_empty() {
+            self.err(
+                &format!("{path}.id"),
+                "the id is empty",
+                Some("give the stage a short name such as `buck-3v3`".into()),
+            );
+        }
+        if self.diags.len() > before {
+            return None;
+        }
+        let (input_min, input_max) = range?;
+        Some(Stage {
+            id: s.id.clone(),
+            kind,
+            input: 0,
+            setpoint: setpoint?,
+            loss: loss?,
+            quiescent: quiescent?.unwrap_or(0.0),
+            shutdown: shutdown?.unwrap_or(0.0),
+            input_min,
+            input_max,
+            max_output_current: max_out?,
+            dropout: dropout?.unwrap_or(dropout_default),
+            bypass_drop: bypass?.unwrap_or(0.4),
+            on_resistance: ron?.unwrap_or(0.0),
+            theta_ja: theta?,
+            tj_max: tj_max?.unwrap_or(125.0),
+        })
+    }
+
+    pub(super) fn loss_model(
+        &mut self,
+        s: &StageSpec,
+        kind: StageKind,
+        path: &str,
+    ) -> Option<LossModel> {
+        if !kind.is_switching() {
+            for (present, key) in [
+                (s.efficiency.is_some(), "efficiency"),
+                (s.loss.is_some(), "loss"),
+            ] {
+                if present {
+                    self.err(
+                        &format!("{path}.{key}"),
+                        format!(
+                            "a {} stage takes no `{key}`: its loss follows from its currents",
+                            kind.name()
+                        ),
+                        Some(format!("remove `{key}`")),
+                    );
+                }
+            }
+            return Some(LossModel::None);
+        }
+        match (&s.efficiency, &s.loss) {
+            (Some(_), Some(_)) => {
+                self.err(
+                    path,
+                    format!(
+                        "the {} stage `{}` has both `efficiency` and `loss`",
+                        kind.name(),
+                        s.id
+                    ),
+                    Some("keep exactly one of `efficiency` and `loss`".into()),
+                );
+                None
+            }
+            (None, None) => {
+                self.err(
+                    path,
+                    format!("the {} stage `{}` has neither `efficiency` nor `loss`", kind.name(), s.id),
+                    Some("add `efficiency: 90 %`, an efficiency curve, or `loss: { drop: 0.05 V, resistance: 0.2 Ω }`".into()),
+                );
+                None
+            }
+            (None, Some(l)) => {
+                let drop = self.opt(
+                    l.drop.as_ref(),
+                    &format!("{path}.loss.drop"),
+                    Dim::Voltage,
+                    Bound::AtLeastZero,
+                );
+                let r = self.opt(
+                    l.resistance.as_ref(),
+                    &format!("{path}.loss.resistance"),
+                    Dim::Resistance,
+                    Bound::AtLeastZero,
+                );
+                Some(LossModel::Terms {
+                    drop: drop?.unwrap_or(0.0),
+                    resistance: r?.unwrap_or(0.0),
+                })
+            }
+            (Some(Efficiency::Constant(q)), None) => self
+                .fraction(q, &format!("{path}.efficiency"), 0.0, false, 1.0)
+                .map(LossModel::Constant),
+            (Some(Efficiency::Curve(rows)), None) => {
+                let c = self.curve(rows, &format!("{path}.efficiency"))?;
+                Some(LossModel::Curves(vec![(None, c)]))
+            }
+            (Some(Efficiency::PerVin(list)), None) => {
+                let mut curves = Vec::new();
+                for (i, vc) in list.iter().enumerate() {
+                    let p = format!("{path}.efficiency[{i}]");
+                    let v =
+                        self.value(&vc.vin, &format!("{p}.vin"), Dim::Voltage, Bound::AboveZero);
+                    let c = self.curve(&vc.curve, &format!("{p}.curve"));
+                    if let (Some(v), Some(c)) = (v, c) {
+                        curves.push((Some(v), c));
+                    }
+                }
+                if curves.len() != list.len() {
+                    return None;
+                }
+                if curves.is_empty() {
+                    self.err(
+                        &format!("{path}.efficiency"),
+                        "the list of efficiency curves is empty",
+                        None,
+                    );
+                    return None;
+                }
+                curves.sort_by(|a, b| a.0.unwrap_or(0.0).total_cmp(&b.0.unwrap_or(0.0)));
+                if curves.windows(2).any(|w| w[0].0 == w[1].0) {
+                    self.err(
+                        &format!("{path}.efficiency"),
+                        "two efficiency curves are at the same input voltage",
+                        Some("keep one curve per `vin`".into()),
+                    );
+                    return None;
+                }
+                Some(LossModel::Curves(curves))
+            }
+        }
+    }
+
+    pub(super) fn curve(&mut self, rows: &[Vec<Qty>], path: &str) -> Option<EffCurve> {
+        let mut pts = Vec::new();
+        let mut ok = true;
+        for (i, row) in rows.iter().enumerate() {
+            let p = format!("{path}[{i}]");
+            if row.len() != 2 {
+                self.err(
+                    &p,
+                    format!("a row has {} values, not 2", row.len()),
+                    Some(
+                        "write each row as `[output current, efficiency]`, e.g. `[10 mA, 84 %]`"
+                            .into(),
+                    ),
+                );
+                ok = false;
+                continue;
+            }
+            let i_out = self.value(&row[0], &format!("{p}[0]"), Dim::Current, Bound::AboveZero);
+            let eta = self.fraction(&row[1], &format!("{p}[1]"), 0.0, false, 1.0);
+            match (i_out, eta) {
+                (Some(a), Some(b)) => pts.push((a, b)),
+                _ => ok = false,
+            }
+        }
+        if !ok {
+            return None;
+        }
+        match EffCurve::new(&pts) {
+            Ok(c) => Some(c),
+            Err(e) => {
+                self.err(
+                    path,
+                    e,
+                    Some(
+                        "give each output current once, e.g. `[[1 mA, 72 %], [10 mA, 84 %]]`"
+                            .into(),
+                    ),
+                );
+                None
+            }
+        }
+    }
+}

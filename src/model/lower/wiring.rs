@@ -1,0 +1,314 @@
+//! Loads, ids, rails and the tree, and the modes that set load states and turn stages off.
+
+#[allow(clippy::wildcard_imports)]
+use super::*;
+
+impl Lower<'_> {
+    pub(super) fn loads(&mut self, spec: &DesignSpec) -> Option<Vec<Load>> {
+        let mut out = Vec::new();
+        let mut ok = true;
+        for (i, l) in spec.loads.iter().enumerate() {
+            let path = format!("loads[{i}]");
+            let before = self.diags.len();
+            let range = self.range(l.voltage_range.as_ref(), &format!("{path}.voltage_range"));
+            let mut states = Vec::new();
+            if l.draw.is_empty() {
+                self.err(
+                    &format!("{path}.draw"),
+                    format!("the load `{}` has no states", l.id),
+                    Some("add e.g. `draw: { run: 6 mA }`".into()),
+                );
+            }
+            for (name, q) in &l.draw {
+                let p = format!("{path}.draw.{name}");
+                if name == "off" {
+                    self.err(
+                        &p,
+                        "`off` is a state every load has, drawing nothing",
+                        Some("name this state differently".into()),
+                    );
+                    continue;
+                }
+                let Some(v) = self.quantity(q, &p, &[Dim::Current, Dim::Power, Dim::Resistance])
+                else {
+                    continue;
+                };
+                let draw = match v.dim() {
+                    Dim::Current => Draw::Current(v.value()),
+                    Dim::Power => Draw::Power(v.value()),
+                    _ => Draw::Resistance(v.value()),
+                };
+                let bad = match draw {
+                    Draw::Resistance(r) => r <= 0.0,
+                    Draw::Current(x) | Draw::Power(x) => x < 0.0,
+                };
+                if bad {
+                    self.err(
+                        &p,
+                        format!("the draw `{}` must be above zero", q.text()),
+                        None,
+                    );
+                    continue;
+                }
+                states.push((name.clone(), draw));
+            }
+            let default = match l.default.as_deref() {
+                None | Some("off") => None,
+                Some(d) => {
+                    let k = states.iter().position(|(n, _)| n == d);
+                    if k.is_none() {
+                        self.unknown_state(&format!("{path}.default"), &l.id, d, &states);
+                    }
+                    k
+                }
+            };
+            if l.id.trim().is_empty() {
+                self.err(
+                    &format!("{path}.id"),
+                    "the id is empty",
+                    Some("give the load a short name such as `mcu`".into()),
+                );
+            }
+            if self.diags.len() > before {
+                ok = false;
+                continue;
+            }
+            let (v_min, v_max) = range?;
+            out.push(Load {
+                id: l.id.clone(),
+                rail: 0,
+                v_min,
+                v_max,
+                states,
+                default,
+            });
+        }
+        ok.then_some(out)
+    }
+
+    pub(super) fn unknown_state(
+        &mut self,
+        path: &str,
+        load: &str,
+        state: &str,
+        states: &[(String, Draw)],
+    ) {
+        let names: Vec<&str> = states.iter().map(|s| s.0.as_str()).chain(["off"]).collect();
+        let hint = match did_you_mean(state, names.iter().copied()) {
+            Some(s) => format!(
+                "did you mean `{s}`? The states of `{load}` are {}",
+                backticked(&names)
+            ),
+            None => format!("the states of `{load}` are {}", backticked(&names)),
+        };
+        self.err(
+            path,
+            format!("the load `{load}` has no state `{state}`"),
+            Some(hint),
+        );
+    }
+
+    pub(super) fn unique_ids(&mut self, spec: &DesignSpec) {
+        let mut seen: HashMap<&str, String> = HashMap::new();
+        let ids = spec
+            .stages
+            .iter()
+            .enumerate()
+            .map(|(i, s)| (s.id.as_str(), format!("stages[{i}].id")))
+            .chain(
+                spec.loads
+                    .iter()
+                    .enumerate()
+                    .map(|(i, l)| (l.id.as_str(), format!("loads[{i}].id"))),
+            );
+        for (id, path) in ids {
+            if id == BATTERY {
+                self.err(
+                    &path,
+                    "`battery` is reserved for the pack's own rail",
+                    Some("choose another id".into()),
+                );
+            } else if let Some(first) = seen.get(id) {
+                let msg = format!("the id `{id}` is used twice (first at {first})");
+                self.err(
+                    &path,
+                    msg,
+                    Some("ids must be unique across stages and loads".into()),
+                );
+            } else {
+                seen.insert(id, path);
+            }
+        }
+    }
+
+    /// The rail called `name`: 0 for the battery, `k + 1` for stage `k`.
+    pub(super) fn rail(
+        &mut self,
+        spec: &DesignSpec,
+        stage_ids: &HashMap<&str, usize>,
+        name: &str,
+        path: &str,
+    ) -> Option<usize> {
+        if name == BATTERY {
+            return Some(0);
+        }
+        if let Some(&k) = stage_ids.get(name) {
+            return Some(k + 1);
+        }
+        let hint = if spec.loads.iter().any(|l| l.id == name) {
+            format!("`{name}` is a load; a rail is `battery` or a stage id")
+        } else {
+            let names: Vec<&str> = std::iter::once(BATTERY)
+                .chain(spec.stages.iter().map(|s| s.id.as_str()))
+                .collect();
+            match did_you_mean(name, names.iter().copied()) {
+                Some(s) => format!("did you mean `{s}`?"),
+                None => format!("the rails are {}", backticked(&names)),
+            }
+        };
+        self.err(path, format!("unknown rail `{name}`"), Some(hint));
+        None
+    }
+
+    pub(super) fn tree(&mut self, spec: &DesignSpec) -> Option<(Tree, Vec<usize>, Vec<usize>)> {
+        let stage_ids = index_of(spec.stages.iter().map(|s| s.id.as_str()));
+        let mut ok = true;
+        let mut inputs = Vec::new();
+        for (i, s) in spec.stages.iter().enumerate() {
+            match self.rail(spec, &stage_ids, &s.input, &format!("stages[{i}].input")) {
+                Some(r) if r == i + 1 => {
+                    self.err(
+                        &format!("stages[{i}].input"),
+                        format!("the stage `{}` feeds itself", s.id),
+                        Some("its input must be `battery` or another stage".into()),
+                    );
+                    ok = false;
+                }
+                Some(r) => inputs.push(r),
+                None => ok = false,
+            }
+        }
+        let mut rails = Vec::new();
+        for (i, l) in spec.loads.iter().enumerate() {
+            match self.rail(spec, &stage_ids, &l.rail, &format!("loads[{i}].rail")) {
+                Some(r) => rails.push(r),
+                None => ok = false,
+            }
+        }
+        if !ok {
+            return None;
+        }
+        match Tree::build(&inputs, &rails) {
+            Ok(t) => Some((t, inputs, rails)),
+            Err(errs) => {
+                for e in errs {
+                    match e {
+                        TreeError::Cycle(stages) => {
+                            let mut names: Vec<&str> =
+                                stages.iter().map(|&k| spec.stages[k].id.as_str()).collect();
+                            names.push(names[0]);
+                            self.err(
+                                &format!("stages[{}].input", stages[0]),
+                                format!("stages feed each other in a loop: {}", names.join(" -> ")),
+                                Some("every chain of stages must start at `battery`".into()),
+                            );
+                        }
+                        TreeError::TooDeep(k) => self.err(
+                            &format!("stages[{k}].input"),
+                            format!(
+                                "the chain of stages down to `{}` is deeper than {MAX_DEPTH}",
+                                spec.stages[k].id
+                            ),
+                            None,
+                        ),
+                    }
+                }
+                None
+            }
+        }
+    }
+
+    pub(super) fn modes(&mut self, spec: &DesignSpec) -> Option<Vec<Mode>> {
+        if spec.modes.is_empty() {
+            self.err("", "the design has no `modes`", Some("add at least one, e.g. `modes: { run: {} }` (loads then take their `default` state)".into()));
+            return None;
+        }
+        let load_ids = index_of(spec.loads.iter().map(|l| l.id.as_str()));
+        let stage_ids = index_of(spec.stages.iter().map(|s| s.id.as_str()));
+        // States are indexed as in the lowered load: file order, `off` excluded.
+        let defaults: Vec<Option<usize>> = spec
+            .loads
+            .iter()
+            .map(|l| {
+                let d = l.default.as_ref()?;
+                l.draw.keys().filter(|k| *k != "off").position(|s| s == d)
+            })
+            .collect();
+        let mut out = Vec::new();
+        let mut ok = true;
+        for (name, entries) in &spec.modes {
+            let mut load_states = defaults.clone();
+            let mut stage_on = vec![true; spec.stages.len()];
+            for (key, value) in entries.iter().flatten() {
+                let p = format!("modes.{name}.{key}");
+                if let Some(&li) = load_ids.get(key.as_str()) {
+                    let l = &spec.loads[li];
+                    if value == "off" {
+                        load_states[li] = None;
+                        continue;
+                    }
+                    let states: Vec<&String> = l.draw.keys().filter(|k| *k != "off").collect();
+                    if let Some(k) = states.iter().position(|s| *s == value) {
+                        load_states[li] = Some(k);
+                    } else {
+                        let named: Vec<(String, Draw)> = states
+                            .iter()
+                            .map(|s| ((*s).clone(), Draw::Current(0.0)))
+                            .collect();
+                        self.unknown_state(&p, key, value, &named);
+                        ok = false;
+                    }
+                } else if let Some(&si) = stage_ids.get(key.as_str()) {
+                    match value.as_str() {
+                        "off" => stage_on[si] = false,
+                        "on" => stage_on[si] = true,
+                        _ => {
+                            self.err(
+                                &p,
+                                format!("a stage is `on` or `off` in a mode, not `{value}`"),
+                                Some(format!("write `{key}: off` to turn the stage off")),
+                            );
+                            ok = false;
+                        }
+                    }
+                } else {
+                    let names: Vec<&str> = spec
+                        .loads
+                        .iter()
+                        .map(|l| l.id.as_str())
+                        .chain(spec.stages.iter().map(|s| s.id.as_str()))
+                        .collect();
+                    let hint = match did_you_mean(key, names.iter().copied()) {
+                        Some(s) => format!("did you mean `{s}`?"),
+                        None => {
+                            "a mode names loads (with a state) and stages (with `off`)".to_string()
+                        }
+                    };
+                    self.err(
+                        &p,
+                        format!("mode `{name}` names `{key}`, which is neither a load nor a stage"),
+                        Some(hint),
+                    );
+                    ok = false;
+                }
+            }
+            out.push(Mode {
+                name: name.clone(),
+                load_states,
+                stage_on,
+                rail_draws: Vec::new(),
+            });
+        }
+        ok.then_some(out)
+    }
+}
