@@ -4,7 +4,7 @@
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, VPos};
 
-use super::discharge::{Px, at_time, box_of, boxed, header, overlaps, tick, volt_range};
+use super::discharge::{Px, at_time, box_of, boxed, header, overlaps, soc_panel, tick, volt_range};
 use super::style::{
     Dash, GREY, MESH_BOLD, MESH_LIGHT, Shape, Swatch, TimeUnit, Type, label, legend, marker,
     pixel_line, px, series, text,
@@ -130,23 +130,7 @@ impl Painter for Compare<'_, '_> {
             .x_label_formatter(&|x| tick(*x))
             .y_label_formatter(&|v| format!("{v:.2}"))
             .draw()?;
-        let mut sc = ChartBuilder::on(&bottom)
-            .margin_top(6)
-            .margin_right(pad)
-            .x_label_area_size((ty.body * 3.4) as u32)
-            .y_label_area_size(y_area)
-            .build_cartesian_2d(0.0..x_hi, 0.0..100.0)?;
-        sc.configure_mesh()
-            .light_line_style(MESH_LIGHT)
-            .bold_line_style(MESH_BOLD)
-            .x_desc(unit.title())
-            .y_desc("state of charge (%)")
-            .axis_desc_style(("sans-serif", ty.axis))
-            .label_style(("sans-serif", ty.body))
-            .x_label_formatter(&|x| tick(*x))
-            .y_label_formatter(&|v| format!("{v:.0}"))
-            .y_labels(6)
-            .draw()?;
+        let sc = soc_panel(&bottom, x_hi, unit, ty, pad, y_area)?;
         let buckets = (w / 3) as usize;
         let r_mark = (ty.body * 0.45) as i32;
         // Cutoffs closer than a fiftieth of the axis share one label.

@@ -42,6 +42,42 @@ struct Discharge<'a> {
 }
 
 /// Tick text: integers bare, others with up to three decimals.
+/// The state-of-charge panel under a discharge chart: time in `unit` up to `x_hi`, 0..100 %.
+pub(super) fn soc_panel<DB: DrawingBackend>(
+    area: &Canvas<DB>,
+    x_hi: f64,
+    unit: TimeUnit,
+    ty: Type,
+    pad: i32,
+    y_area: u32,
+) -> Result<
+    ChartContext<
+        '_,
+        DB,
+        Cartesian2d<plotters::coord::types::RangedCoordf64, plotters::coord::types::RangedCoordf64>,
+    >,
+    PlotError,
+> {
+    let mut sc = ChartBuilder::on(area)
+        .margin_top(6)
+        .margin_right(pad)
+        .x_label_area_size((ty.body * 3.4) as u32)
+        .y_label_area_size(y_area)
+        .build_cartesian_2d(0.0..x_hi, 0.0..100.0)?;
+    sc.configure_mesh()
+        .light_line_style(MESH_LIGHT)
+        .bold_line_style(MESH_BOLD)
+        .x_desc(unit.title())
+        .y_desc("state of charge (%)")
+        .axis_desc_style(("sans-serif", ty.axis))
+        .label_style(("sans-serif", ty.body))
+        .x_label_formatter(&|x| tick(*x))
+        .y_label_formatter(&|v| format!("{v:.0}"))
+        .y_labels(6)
+        .draw()?;
+    Ok(sc)
+}
+
 pub(super) fn tick(x: f64) -> String {
     let s = format!("{x:.3}");
     let s = s.trim_end_matches('0').trim_end_matches('.');
@@ -309,23 +345,7 @@ impl Painter for Discharge<'_> {
             }
         }
 
-        let mut sc = ChartBuilder::on(&bottom)
-            .margin_top(6)
-            .margin_right(pad)
-            .x_label_area_size((ty.body * 3.4) as u32)
-            .y_label_area_size(y_area)
-            .build_cartesian_2d(0.0..x_hi, 0.0..100.0)?;
-        sc.configure_mesh()
-            .light_line_style(MESH_LIGHT)
-            .bold_line_style(MESH_BOLD)
-            .x_desc(unit.title())
-            .y_desc("state of charge (%)")
-            .axis_desc_style(("sans-serif", ty.axis))
-            .label_style(("sans-serif", ty.body))
-            .x_label_formatter(&|x| tick(*x))
-            .y_label_formatter(&|v| format!("{v:.0}"))
-            .y_labels(6)
-            .draw()?;
+        let mut sc = soc_panel(&bottom, x_hi, unit, ty, pad, y_area)?;
         sc.draw_series(band_list.iter().zip(&band_colour).map(|(b, &c)| {
             Rectangle::new(
                 [(b.t0 / unit.seconds, 0.0), (b.t1 / unit.seconds, 100.0)],
