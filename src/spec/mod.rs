@@ -3,13 +3,17 @@
 //! This is the only module that uses the YAML parser.
 
 mod design;
+mod fastyaml;
 mod locate;
+mod node;
 mod overrides;
 mod qty;
 
 use indexmap::IndexMap;
 use serde::de::DeserializeOwned;
 use serde_yaml::Value;
+
+use node::Node;
 
 pub use design::{
     AgingSpec, BatterySpec, CellRef, CellSpec, ChemistrySpec, DesignSpec, LoadSpec, LossSpec,
@@ -67,6 +71,15 @@ pub fn parse(text: &str) -> Result<Parsed, Vec<Diagnostic>> {
 /// assert_eq!(p.spec.battery.parallel.unwrap().text(), "3");
 /// ```
 pub fn parse_with(text: &str, overrides: &[Override]) -> Result<Parsed, Vec<Diagnostic>> {
+    // The fast reader where the file allows and nothing is overridden; else the full parser.
+    let fast = if overrides.is_empty() {
+        fastyaml::parse(text)
+    } else {
+        None
+    };
+    if let Some(root) = fast {
+        return read(text, root, Vec::new());
+    }
     let mut root: Value = match serde_yaml::from_str(text) {
         Ok(v) => v,
         Err(e) => {
@@ -95,6 +108,11 @@ pub fn parse_with(text: &str, overrides: &[Override]) -> Result<Parsed, Vec<Diag
     if !errors.is_empty() {
         return Err(errors);
     }
+    read(text, Node::from(root), replaced)
+}
+
+/// The serde types from the document tree; `replaced` are the paths `--set` gave.
+fn read(text: &str, root: Node<'_>, replaced: Vec<String>) -> Result<Parsed, Vec<Diagnostic>> {
     let mut source = SourceMap::build(text);
     source.set_overridden(replaced);
     let mut r = Reader {
@@ -124,7 +142,7 @@ impl Reader<'_> {
     }
 
     /// Deserialize one part, turning a serde error into a diagnostic at `path`.
-    fn part<T: DeserializeOwned>(&mut self, path: &str, v: &Value) -> Option<T> {
+    fn part<T: DeserializeOwned>(&mut self, path: &str, v: &Node<'_>) -> Option<T> {
         match T::deserialize(v) {
             Ok(t) => Some(t),
             Err(e) => {
@@ -134,7 +152,7 @@ impl Reader<'_> {
         }
     }
 
-    fn serde_error(&mut self, path: &str, msg: &str, v: &Value) {
+    fn serde_error(&mut self, path: &str, msg: &str, v: &Node<'_>) {
         if let Some(rest) = msg.strip_prefix("unknown field `") {
             let name = rest.split('`').next().unwrap_or("");
             let expected: Vec<&str> = rest
@@ -189,27 +207,24 @@ impl Reader<'_> {
         self.push(path, msg.to_string(), None);
     }
 
-    fn read_design(&mut self, root: Value) -> Option<DesignSpec> {
-        let Value::Mapping(map) = root else {
+    fn read_design(&mut self, root: Node<'_>) -> Option<DesignSpec> {
+        let Node::Map(map) = root else {
             self.push(
                 "",
                 format!(
                     "a design file is a mapping of `battery`, `stages`, `loads`, `modes` and `profile`, but this file holds {}",
-                    qty::describe(&root)
+                    root.describe()
                 ),
                 Some("see examples/ for a complete design".into()),
             );
             return None;
         };
-        let mut sections: IndexMap<String, Value> = IndexMap::new();
+        let mut sections: IndexMap<String, Node<'_>> = IndexMap::new();
         for (k, v) in map {
             let Some(key) = k.as_str().map(str::to_string) else {
                 self.push(
                     "",
-                    format!(
-                        "a top-level key must be a name, found {}",
-                        qty::describe(&k)
-                    ),
+                    format!("a top-level key must be a name, found {}", k.describe()),
                     None,
                 );
                 continue;
@@ -230,11 +245,11 @@ impl Reader<'_> {
             sections.insert(key, v);
         }
         let design = match sections.shift_remove("design") {
-            None | Some(Value::Null) => None,
+            None | Some(Node::Null) => None,
             Some(v) => self.part::<String>("design", &v),
         };
         let ambient = match sections.shift_remove("ambient") {
-            None | Some(Value::Null) => None,
+            None | Some(Node::Null) => None,
             Some(v) => self.part::<Qty>("ambient", &v),
         };
         let cells = self.map_section::<CellSpec>(&mut sections, "cells");
@@ -267,22 +282,28 @@ impl Reader<'_> {
 
     fn list_section<T: DeserializeOwned>(
         &mut self,
-        sections: &mut IndexMap<String, Value>,
+        sections: &mut IndexMap<String, Node<'_>>,
         name: &str,
     ) -> Vec<T> {
         match sections.shift_remove(name) {
-            None | Some(Value::Null) => Vec::new(),
-            Some(Value::Sequence(items)) => items
-                .into_iter()
-                .enumerate()
-                .filter_map(|(i, v)| self.part::<T>(&format!("{name}[{i}]"), &v))
-                .collect(),
+            None | Some(Node::Null) => Vec::new(),
+            Some(Node::Seq(items)) => {
+                let mut out = Vec::with_capacity(items.len());
+                for (i, v) in items.iter().enumerate() {
+                    match T::deserialize(v) {
+                        Ok(t) => out.push(t),
+                        // The item's path is written only for a message.
+                        Err(e) => self.serde_error(&format!("{name}[{i}]"), &e.to_string(), v),
+                    }
+                }
+                out
+            }
             Some(other) => {
                 self.push(
                     name,
                     format!(
                         "`{name}` must be a list (items starting with `- `), found {}",
-                        qty::describe(&other)
+                        other.describe()
                     ),
                     None,
                 );
@@ -293,21 +314,18 @@ impl Reader<'_> {
 
     fn map_section<T: DeserializeOwned>(
         &mut self,
-        sections: &mut IndexMap<String, Value>,
+        sections: &mut IndexMap<String, Node<'_>>,
         name: &str,
     ) -> IndexMap<String, T> {
         let mut out = IndexMap::new();
         match sections.shift_remove(name) {
-            None | Some(Value::Null) => {}
-            Some(Value::Mapping(m)) => {
+            None | Some(Node::Null) => {}
+            Some(Node::Map(m)) => {
                 for (k, v) in m {
                     let Some(key) = k.as_str().map(str::to_string) else {
                         self.push(
                             name,
-                            format!(
-                                "a name in `{name}` must be text, found {}",
-                                qty::describe(&k)
-                            ),
+                            format!("a name in `{name}` must be text, found {}", k.describe()),
                             None,
                         );
                         continue;
@@ -321,7 +339,7 @@ impl Reader<'_> {
                 name,
                 format!(
                     "`{name}` must be a mapping of names, found {}",
-                    qty::describe(&other)
+                    other.describe()
                 ),
                 None,
             ),
@@ -331,14 +349,14 @@ impl Reader<'_> {
 }
 
 /// The path, below `v`, of the first text value equal to `text` (`.kind`, `[2].chemistry`).
-fn value_path(v: &Value, text: &str) -> Option<String> {
+fn value_path(v: &Node<'_>, text: &str) -> Option<String> {
     match v {
-        Value::String(s) if s == text => Some(String::new()),
-        Value::Mapping(m) => m.iter().find_map(|(k, x)| {
+        Node::Str(s) if s == text => Some(String::new()),
+        Node::Map(m) => m.iter().find_map(|(k, x)| {
             let key = k.as_str()?;
             value_path(x, text).map(|p| format!(".{key}{p}"))
         }),
-        Value::Sequence(items) => items
+        Node::Seq(items) => items
             .iter()
             .enumerate()
             .find_map(|(i, x)| value_path(x, text).map(|p| format!("[{i}]{p}"))),
