@@ -29,13 +29,72 @@ fn scalar_text(v: &Value) -> Option<String> {
 
 impl<'de> Deserialize<'de> for Qty {
     fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
-        let v = Value::deserialize(d)?;
-        scalar_text(&v).map(Qty).ok_or_else(|| {
-            D::Error::custom(format!(
-                "expected a value with its unit such as `120 mA`, found {}",
-                describe(&v)
-            ))
-        })
+        d.deserialize_any(QtyVisitor)
+    }
+}
+
+/// Reads a quantity straight from text (one copy) or a number; anything else is described as
+/// [`describe`] does.
+struct QtyVisitor;
+
+impl QtyVisitor {
+    fn wrong<E: serde::de::Error>(found: &str) -> E {
+        E::custom(format!(
+            "expected a value with its unit such as `120 mA`, found {found}"
+        ))
+    }
+}
+
+impl<'de> serde::de::Visitor<'de> for QtyVisitor {
+    type Value = Qty;
+
+    fn expecting(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str("a value with its unit such as `120 mA`")
+    }
+
+    fn visit_str<E: serde::de::Error>(self, v: &str) -> Result<Qty, E> {
+        Ok(Qty(v.to_string()))
+    }
+
+    fn visit_string<E: serde::de::Error>(self, v: String) -> Result<Qty, E> {
+        Ok(Qty(v))
+    }
+
+    // Numbers read as the full parser's number type writes them (`1.0`, `1e300`, `.inf`).
+    fn visit_u64<E: serde::de::Error>(self, v: u64) -> Result<Qty, E> {
+        Ok(Qty(serde_yaml::Number::from(v).to_string()))
+    }
+
+    fn visit_i64<E: serde::de::Error>(self, v: i64) -> Result<Qty, E> {
+        Ok(Qty(serde_yaml::Number::from(v).to_string()))
+    }
+
+    fn visit_f64<E: serde::de::Error>(self, v: f64) -> Result<Qty, E> {
+        Ok(Qty(serde_yaml::Number::from(v).to_string()))
+    }
+
+    fn visit_bool<E: serde::de::Error>(self, v: bool) -> Result<Qty, E> {
+        Err(Self::wrong(&format!("`{v}`")))
+    }
+
+    fn visit_unit<E: serde::de::Error>(self) -> Result<Qty, E> {
+        Err(Self::wrong("nothing"))
+    }
+
+    fn visit_none<E: serde::de::Error>(self) -> Result<Qty, E> {
+        Err(Self::wrong("nothing"))
+    }
+
+    fn visit_seq<A: serde::de::SeqAccess<'de>>(self, _: A) -> Result<Qty, A::Error> {
+        Err(Self::wrong("a list"))
+    }
+
+    fn visit_map<A: serde::de::MapAccess<'de>>(self, _: A) -> Result<Qty, A::Error> {
+        Err(Self::wrong("a mapping"))
+    }
+
+    fn visit_enum<A: serde::de::EnumAccess<'de>>(self, _: A) -> Result<Qty, A::Error> {
+        Err(Self::wrong("a tagged value"))
     }
 }
 

@@ -40,9 +40,19 @@ fn split_number(s: &str) -> Option<(&str, &str)> {
     Some(s.split_at(i))
 }
 
-/// Trims the unit and removes blanks around `/` (`°C / W` reads as `°C/W`).
-fn normalize_unit(rest: &str) -> String {
-    rest.split('/').map(str::trim).collect::<Vec<_>>().join("/")
+/// Trims the unit and removes blanks around `/` (`°C / W` reads as `°C/W`); borrowed unless
+/// there are such blanks.
+fn normalize_unit(rest: &str) -> std::borrow::Cow<'_, str> {
+    let t = rest.trim();
+    if t.contains('/') && t.split('/').any(|part| part.trim() != part) {
+        t.split('/')
+            .map(str::trim)
+            .collect::<Vec<_>>()
+            .join("/")
+            .into()
+    } else {
+        t.into()
+    }
 }
 
 /// Parses `"<number> <unit>"` into a quantity of one of the `expected` kinds
@@ -128,7 +138,7 @@ pub fn parse_quantity(text: &str, expected: &[Dim]) -> Result<Quantity, UnitErro
             text: text.to_string(),
             number: number_text.to_string(),
             suggestion: suggest(&unit, expected),
-            unit,
+            unit: unit.into_owned(),
             expected: expected_vec(),
         }),
     }

@@ -9,6 +9,7 @@ mod wiring;
 use cell::given_keys;
 
 use std::collections::HashMap;
+use std::hash::{BuildHasherDefault, Hasher};
 
 use super::curve::{Table, TableError};
 use super::load::{Draw, Load};
@@ -24,6 +25,34 @@ use crate::spec::{
 };
 use crate::tree::{MAX_DEPTH, Tree, TreeError};
 use crate::units::{Dim, Quantity, fmt_eng, fmt_percent, parse_quantity};
+
+/// A hash map for ids, with a hasher much quicker than the default on short keys (the checker
+/// hashes every id of a design a few times; nothing here faces untrusted keys at scale).
+type FastMap<K, V> = HashMap<K, V, BuildHasherDefault<IdHasher>>;
+
+/// FNV-1a (Fowler, Noll, Vo), 64-bit: a byte at a time, enough for ids of a few characters.
+#[derive(Default)]
+struct IdHasher(u64);
+
+impl Hasher for IdHasher {
+    fn finish(&self) -> u64 {
+        self.0
+    }
+
+    fn write(&mut self, bytes: &[u8]) {
+        // Offset basis and prime of the 64-bit FNV-1a hash (published constants).
+        let mut h = if self.0 == 0 {
+            0xcbf2_9ce4_8422_2325
+        } else {
+            self.0
+        };
+        for &b in bytes {
+            h ^= u64::from(b);
+            h = h.wrapping_mul(0x0000_0100_0000_01b3);
+        }
+        self.0 = h;
+    }
+}
 
 /// Deepest nesting of `repeat` blocks.
 const MAX_REPEAT_NESTING: usize = 16;
@@ -212,8 +241,9 @@ impl Lower<'_> {
         let stages = self.stages(&spec.stages);
         let loads = self.loads(spec);
         self.unique_ids(spec);
-        let tree = self.tree(spec);
-        let modes = self.modes(spec);
+        let stage_ids = index_of(spec.stages.iter().map(|s| s.id.as_str()));
+        let tree = self.tree(spec, &stage_ids);
+        let modes = self.modes(spec, &stage_ids);
         let (mut stages, mut loads) = (stages, loads);
         if let (Some((_, inputs, rails)), Some(st), Some(ld)) = (&tree, &mut stages, &mut loads) {
             for (s, &r) in st.iter_mut().zip(inputs) {
@@ -258,8 +288,9 @@ fn rail_draws(tree: &Tree, loads: &[Load], states: &[Option<usize>]) -> Vec<Vec<
 }
 
 /// Position of each id (the first, where ids repeat: duplicates are reported elsewhere).
-fn index_of<'s>(ids: impl Iterator<Item = &'s str>) -> HashMap<&'s str, usize> {
-    let mut map = HashMap::new();
+fn index_of<'s>(ids: impl Iterator<Item = &'s str>) -> FastMap<&'s str, usize> {
+    let mut map = FastMap::default();
+    map.reserve(ids.size_hint().0);
     for (i, id) in ids.enumerate() {
         map.entry(id).or_insert(i);
     }

@@ -7,11 +7,12 @@ impl Lower<'_> {
     pub(super) fn range(
         &mut self,
         v: Option<&Vec<Qty>>,
-        path: &str,
+        path: &dyn Fn() -> String,
     ) -> Option<(Option<f64>, Option<f64>)> {
         let Some(v) = v else {
             return Some((None, None));
         };
+        let path = &path();
         if v.len() != 2 {
             self.err(
                 path,
@@ -117,7 +118,7 @@ impl Lower<'_> {
             Dim::Current,
             Bound::AtLeastZero,
         );
-        let range = self.range(s.input_range.as_ref(), &format!("{path}.input_range"));
+        let range = self.range(s.input_range.as_ref(), &|| format!("{path}.input_range"));
         let max_out = self.opt(
             s.max_output_current.as_ref(),
             &format!("{path}.max_output_current"),

@@ -5,33 +5,40 @@ use super::*;
 
 impl Lower<'_> {
     pub(super) fn loads(&mut self, spec: &DesignSpec) -> Option<Vec<Load>> {
-        let mut out = Vec::new();
+        let mut out = Vec::with_capacity(spec.loads.len());
         let mut ok = true;
         for (i, l) in spec.loads.iter().enumerate() {
-            let path = format!("loads[{i}]");
+            // Paths are written only for a message: ten thousand loads check in milliseconds.
+            let path = || format!("loads[{i}]");
             let before = self.diags.len();
-            let range = self.range(l.voltage_range.as_ref(), &format!("{path}.voltage_range"));
-            let mut states = Vec::new();
+            let range = self.range(l.voltage_range.as_ref(), &|| {
+                format!("loads[{i}].voltage_range")
+            });
+            let mut states = Vec::with_capacity(l.draw.len());
             if l.draw.is_empty() {
                 self.err(
-                    &format!("{path}.draw"),
+                    &format!("{}.draw", path()),
                     format!("the load `{}` has no states", l.id),
                     Some("add e.g. `draw: { run: 6 mA }`".into()),
                 );
             }
             for (name, q) in &l.draw {
-                let p = format!("{path}.draw.{name}");
+                let p = || format!("loads[{i}].draw.{name}");
                 if name == "off" {
                     self.err(
-                        &p,
+                        &p(),
                         "`off` is a state every load has, drawing nothing",
                         Some("name this state differently".into()),
                     );
                     continue;
                 }
-                let Some(v) = self.quantity(q, &p, &[Dim::Current, Dim::Power, Dim::Resistance])
-                else {
-                    continue;
+                let v = match parse_quantity(q.text(), &[Dim::Current, Dim::Power, Dim::Resistance])
+                {
+                    Ok(v) => v,
+                    Err(e) => {
+                        self.err(&p(), e.to_string(), e.hint());
+                        continue;
+                    }
                 };
                 let draw = match v.dim() {
                     Dim::Current => Draw::Current(v.value()),
@@ -44,7 +51,7 @@ impl Lower<'_> {
                 };
                 if bad {
                     self.err(
-                        &p,
+                        &p(),
                         format!("the draw `{}` must be above zero", q.text()),
                         None,
                     );
@@ -57,14 +64,14 @@ impl Lower<'_> {
                 Some(d) => {
                     let k = states.iter().position(|(n, _)| n == d);
                     if k.is_none() {
-                        self.unknown_state(&format!("{path}.default"), &l.id, d, &states);
+                        self.unknown_state(&format!("{}.default", path()), &l.id, d, &states);
                     }
                     k
                 }
             };
             if l.id.trim().is_empty() {
                 self.err(
-                    &format!("{path}.id"),
+                    &format!("{}.id", path()),
                     "the id is empty",
                     Some("give the load a short name such as `mcu`".into()),
                 );
@@ -109,34 +116,37 @@ impl Lower<'_> {
     }
 
     pub(super) fn unique_ids(&mut self, spec: &DesignSpec) {
-        let mut seen: HashMap<&str, String> = HashMap::new();
+        // Where an id is: (`stages` or `loads`, index); its path is written only for a message.
+        let mut seen: FastMap<&str, (&str, usize)> = FastMap::default();
+        seen.reserve(spec.stages.len() + spec.loads.len());
         let ids = spec
             .stages
             .iter()
             .enumerate()
-            .map(|(i, s)| (s.id.as_str(), format!("stages[{i}].id")))
+            .map(|(i, s)| (s.id.as_str(), ("stages", i)))
             .chain(
                 spec.loads
                     .iter()
                     .enumerate()
-                    .map(|(i, l)| (l.id.as_str(), format!("loads[{i}].id"))),
+                    .map(|(i, l)| (l.id.as_str(), ("loads", i))),
             );
-        for (id, path) in ids {
+        let at = |(list, i): (&str, usize)| format!("{list}[{i}].id");
+        for (id, place) in ids {
             if id == BATTERY {
                 self.err(
-                    &path,
+                    &at(place),
                     "`battery` is reserved for the pack's own rail",
                     Some("choose another id".into()),
                 );
-            } else if let Some(first) = seen.get(id) {
-                let msg = format!("the id `{id}` is used twice (first at {first})");
+            } else if let Some(&first) = seen.get(id) {
+                let msg = format!("the id `{id}` is used twice (first at {})", at(first));
                 self.err(
-                    &path,
+                    &at(place),
                     msg,
                     Some("ids must be unique across stages and loads".into()),
                 );
             } else {
-                seen.insert(id, path);
+                seen.insert(id, place);
             }
         }
     }
@@ -145,9 +155,9 @@ impl Lower<'_> {
     pub(super) fn rail(
         &mut self,
         spec: &DesignSpec,
-        stage_ids: &HashMap<&str, usize>,
+        stage_ids: &FastMap<&str, usize>,
         name: &str,
-        path: &str,
+        path: &dyn Fn() -> String,
     ) -> Option<usize> {
         if name == BATTERY {
             return Some(0);
@@ -166,16 +176,19 @@ impl Lower<'_> {
                 None => format!("the rails are {}", backticked(&names)),
             }
         };
-        self.err(path, format!("unknown rail `{name}`"), Some(hint));
+        self.err(&path(), format!("unknown rail `{name}`"), Some(hint));
         None
     }
 
-    pub(super) fn tree(&mut self, spec: &DesignSpec) -> Option<(Tree, Vec<usize>, Vec<usize>)> {
-        let stage_ids = index_of(spec.stages.iter().map(|s| s.id.as_str()));
+    pub(super) fn tree(
+        &mut self,
+        spec: &DesignSpec,
+        stage_ids: &FastMap<&str, usize>,
+    ) -> Option<(Tree, Vec<usize>, Vec<usize>)> {
         let mut ok = true;
-        let mut inputs = Vec::new();
+        let mut inputs = Vec::with_capacity(spec.stages.len());
         for (i, s) in spec.stages.iter().enumerate() {
-            match self.rail(spec, &stage_ids, &s.input, &format!("stages[{i}].input")) {
+            match self.rail(spec, stage_ids, &s.input, &|| format!("stages[{i}].input")) {
                 Some(r) if r == i + 1 => {
                     self.err(
                         &format!("stages[{i}].input"),
@@ -188,9 +201,9 @@ impl Lower<'_> {
                 None => ok = false,
             }
         }
-        let mut rails = Vec::new();
+        let mut rails = Vec::with_capacity(spec.loads.len());
         for (i, l) in spec.loads.iter().enumerate() {
-            match self.rail(spec, &stage_ids, &l.rail, &format!("loads[{i}].rail")) {
+            match self.rail(spec, stage_ids, &l.rail, &|| format!("loads[{i}].rail")) {
                 Some(r) => rails.push(r),
                 None => ok = false,
             }
@@ -228,13 +241,16 @@ impl Lower<'_> {
         }
     }
 
-    pub(super) fn modes(&mut self, spec: &DesignSpec) -> Option<Vec<Mode>> {
+    pub(super) fn modes(
+        &mut self,
+        spec: &DesignSpec,
+        stage_ids: &FastMap<&str, usize>,
+    ) -> Option<Vec<Mode>> {
         if spec.modes.is_empty() {
             self.err("", "the design has no `modes`", Some("add at least one, e.g. `modes: { run: {} }` (loads then take their `default` state)".into()));
             return None;
         }
         let load_ids = index_of(spec.loads.iter().map(|l| l.id.as_str()));
-        let stage_ids = index_of(spec.stages.iter().map(|s| s.id.as_str()));
         // States are indexed as in the lowered load: file order, `off` excluded.
         let defaults: Vec<Option<usize>> = spec
             .loads
@@ -250,22 +266,21 @@ impl Lower<'_> {
             let mut load_states = defaults.clone();
             let mut stage_on = vec![true; spec.stages.len()];
             for (key, value) in entries.iter().flatten() {
-                let p = format!("modes.{name}.{key}");
+                // Written only for a message.
+                let p = || format!("modes.{name}.{key}");
                 if let Some(&li) = load_ids.get(key.as_str()) {
                     let l = &spec.loads[li];
                     if value == "off" {
                         load_states[li] = None;
                         continue;
                     }
-                    let states: Vec<&String> = l.draw.keys().filter(|k| *k != "off").collect();
-                    if let Some(k) = states.iter().position(|s| *s == value) {
+                    let states = || l.draw.keys().filter(|k| *k != "off");
+                    if let Some(k) = states().position(|s| s == value) {
                         load_states[li] = Some(k);
                     } else {
-                        let named: Vec<(String, Draw)> = states
-                            .iter()
-                            .map(|s| ((*s).clone(), Draw::Current(0.0)))
-                            .collect();
-                        self.unknown_state(&p, key, value, &named);
+                        let named: Vec<(String, Draw)> =
+                            states().map(|s| (s.clone(), Draw::Current(0.0))).collect();
+                        self.unknown_state(&p(), key, value, &named);
                         ok = false;
                     }
                 } else if let Some(&si) = stage_ids.get(key.as_str()) {
@@ -274,7 +289,7 @@ impl Lower<'_> {
                         "on" => stage_on[si] = true,
                         _ => {
                             self.err(
-                                &p,
+                                &p(),
                                 format!("a stage is `on` or `off` in a mode, not `{value}`"),
                                 Some(format!("write `{key}: off` to turn the stage off")),
                             );
@@ -295,7 +310,7 @@ impl Lower<'_> {
                         }
                     };
                     self.err(
-                        &p,
+                        &p(),
                         format!("mode `{name}` names `{key}`, which is neither a load nor a stage"),
                         Some(hint),
                     );
