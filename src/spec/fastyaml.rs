@@ -45,15 +45,25 @@ pub(crate) fn parse(text: &str) -> Option<Node<'_>> {
 /// No tabs, carriage returns, other control characters, byte-order marks or the line breaks
 /// YAML knows beyond `\n`: the subset's lines and columns are then plain.
 fn plain_characters(text: &str) -> bool {
-    let ascii_ok = text
-        .bytes()
-        .all(|b| b == b'\n' || (0x20..0x7f).contains(&b) || b >= 0x80);
-    ascii_ok
-        && (text.is_ascii()
-            || !text.chars().any(|c| {
-                ('\u{7f}'..='\u{9f}').contains(&c)
-                    || matches!(c, '\u{2028}' | '\u{2029}' | '\u{feff}')
-            }))
+    let b = text.as_bytes();
+    let mut i = 0;
+    while i < b.len() {
+        match b[i] {
+            b'\n' | 0x20..=0x7e => {}
+            // U+0080 to U+009F (C1 controls, NEL among them).
+            0xc2 if matches!(b.get(i + 1), Some(0x80..=0x9f)) => return false,
+            // U+2028 and U+2029, line and paragraph separators.
+            0xe2 if b.get(i + 1) == Some(&0x80) && matches!(b.get(i + 2), Some(0xa8 | 0xa9)) => {
+                return false;
+            }
+            // U+FEFF, the byte-order mark.
+            0xef if b.get(i + 1) == Some(&0xbb) && b.get(i + 2) == Some(&0xbf) => return false,
+            0x80..=0xff => {}
+            _ => return false,
+        }
+        i += 1;
+    }
+    true
 }
 
 #[derive(Clone, Copy)]
@@ -573,6 +583,11 @@ profile:
             "- - 1\n",
             "? a\n: b\n",
             "a: !tag b\n",
+            "a: b\u{85}c\n",
+            "\u{feff}a: 1\n",
+            "a: b\u{2028}c\n",
+            "a: b\u{7f}\n",
+            "a: b\r\n",
             "",
         ] {
             assert!(parse(text).is_none(), "{text:?}");
