@@ -49,7 +49,6 @@ fn plain_characters(text: &str) -> bool {
     let mut i = 0;
     while i < b.len() {
         match b[i] {
-            b'\n' | 0x20..=0x7e => {}
             // U+0080 to U+009F (C1 controls, NEL among them).
             0xc2 if matches!(b.get(i + 1), Some(0x80..=0x9f)) => return false,
             // U+2028 and U+2029, line and paragraph separators.
@@ -58,7 +57,8 @@ fn plain_characters(text: &str) -> bool {
             }
             // U+FEFF, the byte-order mark.
             0xef if b.get(i + 1) == Some(&0xbb) && b.get(i + 2) == Some(&0xbf) => return false,
-            0x80..=0xff => {}
+            // Printable ASCII and the bytes of other characters.
+            b'\n' | 0x20..=0x7e | 0x80..=0xff => {}
             _ => return false,
         }
         i += 1;
