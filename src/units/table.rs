@@ -141,6 +141,7 @@ pub(super) fn apply_exp10(x: f64, exp: i32) -> f64 {
 }
 
 /// Result of looking a unit spelling up in the table.
+#[derive(Clone, Copy)]
 pub(super) enum Lookup {
     /// A known unit, with the power of ten of its prefix (0 without one).
     Found(&'static UnitDef, i32),
@@ -150,7 +151,37 @@ pub(super) enum Lookup {
     Unknown,
 }
 
+/// Looks a unit spelling up: one hash lookup in an index of every spelling with and without
+/// prefix, built on first use (a design has tens of thousands of quantities).
 pub(super) fn lookup(unit: &str) -> Lookup {
+    static INDEX: std::sync::OnceLock<std::collections::HashMap<String, Lookup>> =
+        std::sync::OnceLock::new();
+    let index = INDEX.get_or_init(|| {
+        let mut map = std::collections::HashMap::new();
+        for def in UNITS {
+            map.entry(def.spelling.to_string())
+                .or_insert(Lookup::Found(def, 0));
+        }
+        // Prefixes in table order, as the scan below tries them.
+        for &(prefix, exp) in PREFIXES {
+            for def in UNITS {
+                let found = if def.prefixable {
+                    Lookup::Found(def, exp)
+                } else {
+                    Lookup::NoPrefix(prefix, def)
+                };
+                map.entry(format!("{prefix}{}", def.spelling))
+                    .or_insert(found);
+            }
+        }
+        map
+    });
+    index.get(unit).copied().unwrap_or(Lookup::Unknown)
+}
+
+/// The same lookup by scanning the tables: the definition the index is checked against.
+#[cfg(test)]
+fn lookup_by_scan(unit: &str) -> Lookup {
     if let Some(def) = UNITS.iter().find(|d| d.spelling == unit) {
         return Lookup::Found(def, 0);
     }
@@ -225,6 +256,33 @@ pub(super) fn suggest(unit: &str, expected: &[Dim]) -> Option<String> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// What a lookup found, comparable.
+    fn key(l: Lookup) -> (u8, &'static str, &'static str, i32) {
+        match l {
+            Lookup::Found(d, e) => (0, d.spelling, "", e),
+            Lookup::NoPrefix(p, d) => (1, d.spelling, p, 0),
+            Lookup::Unknown => (2, "", "", 0),
+        }
+    }
+
+    #[test]
+    fn the_index_finds_what_the_scan_finds() {
+        let mut texts: Vec<String> = spellings(&[]);
+        for def in UNITS {
+            for (p, _) in PREFIXES {
+                texts.push(format!("{p}{}", def.spelling));
+                texts.push(format!("{p}{p}{}", def.spelling));
+            }
+            texts.push(def.spelling.to_lowercase());
+            texts.push(def.spelling.to_uppercase());
+        }
+        texts.extend(NEAR_MISSES.iter().map(|(m, _)| (*m).to_string()));
+        texts.extend(["", "m", "µ", "x", "mAh", "kWh", "mK", "m%"].map(String::from));
+        for t in &texts {
+            assert_eq!(key(lookup(t)), key(lookup_by_scan(t)), "`{t}`");
+        }
+    }
 
     #[test]
     fn every_spelling_is_unambiguous() {
