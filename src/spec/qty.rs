@@ -8,6 +8,8 @@ use schemars::{JsonSchema, Schema, SchemaGenerator, json_schema};
 use serde::{Deserialize, Deserializer, de::Error as _};
 use serde_yaml::Value;
 
+use super::node::Node;
+
 /// A quantity as written: `"120 mA"`, or a plain number where one is allowed.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct Qty(pub String);
@@ -34,7 +36,7 @@ impl<'de> Deserialize<'de> for Qty {
 }
 
 /// Reads a quantity straight from text (one copy) or a number; anything else is described as
-/// [`describe`] does.
+/// `Node::describe` does.
 struct QtyVisitor;
 
 impl QtyVisitor {
@@ -113,19 +115,6 @@ impl JsonSchema for Qty {
     }
 }
 
-/// A short description of a YAML value for messages.
-pub(crate) fn describe(v: &Value) -> String {
-    match v {
-        Value::Null => "nothing".into(),
-        Value::Bool(b) => format!("`{b}`"),
-        Value::Number(n) => format!("the number `{n}`"),
-        Value::String(s) => format!("the text `{s}`"),
-        Value::Sequence(_) => "a list".into(),
-        Value::Mapping(_) => "a mapping".into(),
-        Value::Tagged(_) => "a tagged value".into(),
-    }
-}
-
 /// One efficiency curve measured at an input voltage.
 #[derive(Debug, Clone, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
@@ -156,7 +145,7 @@ impl<'de> Deserialize<'de> for Efficiency {
         let Value::Sequence(items) = &v else {
             return Err(D::Error::custom(format!(
                 "expected `90 %`, a curve `[[1 mA, 72 %], ...]` or curves per input voltage, found {}",
-                describe(&v)
+                Node::from(v).describe()
             )));
         };
         if items.iter().any(Value::is_mapping) {
@@ -211,7 +200,7 @@ impl<'de> Deserialize<'de> for ResistanceSpec {
         }
         Err(D::Error::custom(format!(
             "expected a resistance such as `150 mΩ` or a table `[[SoC, R], ...]`, found {}",
-            describe(&v)
+            Node::from(v).describe()
         )))
     }
 }
