@@ -141,12 +141,17 @@ impl Reader<'_> {
         );
     }
 
-    /// Deserialize one part, turning a serde error into a diagnostic at `path`.
-    fn part<T: DeserializeOwned>(&mut self, path: &str, v: &Node<'_>) -> Option<T> {
+    /// Deserialize one part, turning a serde error into a diagnostic at `path` (written only
+    /// then: a list of ten thousand items reads without formatting ten thousand paths).
+    fn part<T: DeserializeOwned>(
+        &mut self,
+        path: impl FnOnce() -> String,
+        v: &Node<'_>,
+    ) -> Option<T> {
         match T::deserialize(v) {
             Ok(t) => Some(t),
             Err(e) => {
-                self.serde_error(path, &e.to_string(), v);
+                self.serde_error(&path(), &e.to_string(), v);
                 None
             }
         }
@@ -246,15 +251,15 @@ impl Reader<'_> {
         }
         let design = match sections.shift_remove("design") {
             None | Some(Node::Null) => None,
-            Some(v) => self.part::<String>("design", &v),
+            Some(v) => self.part::<String>(|| "design".into(), &v),
         };
         let ambient = match sections.shift_remove("ambient") {
             None | Some(Node::Null) => None,
-            Some(v) => self.part::<Qty>("ambient", &v),
+            Some(v) => self.part::<Qty>(|| "ambient".into(), &v),
         };
         let cells = self.map_section::<CellSpec>(&mut sections, "cells");
         let battery = match sections.shift_remove("battery") {
-            Some(v) => self.part::<BatterySpec>("battery", &v),
+            Some(v) => self.part::<BatterySpec>(|| "battery".into(), &v),
             None => {
                 self.push(
                     "",
@@ -287,17 +292,11 @@ impl Reader<'_> {
     ) -> Vec<T> {
         match sections.shift_remove(name) {
             None | Some(Node::Null) => Vec::new(),
-            Some(Node::Seq(items)) => {
-                let mut out = Vec::with_capacity(items.len());
-                for (i, v) in items.iter().enumerate() {
-                    match T::deserialize(v) {
-                        Ok(t) => out.push(t),
-                        // The item's path is written only for a message.
-                        Err(e) => self.serde_error(&format!("{name}[{i}]"), &e.to_string(), v),
-                    }
-                }
-                out
-            }
+            Some(Node::Seq(items)) => items
+                .iter()
+                .enumerate()
+                .filter_map(|(i, v)| self.part::<T>(|| format!("{name}[{i}]"), v))
+                .collect(),
             Some(other) => {
                 self.push(
                     name,
@@ -330,7 +329,7 @@ impl Reader<'_> {
                         );
                         continue;
                     };
-                    if let Some(t) = self.part::<T>(&format!("{name}.{key}"), &v) {
+                    if let Some(t) = self.part::<T>(|| format!("{name}.{key}"), &v) {
                         out.insert(key, t);
                     }
                 }
