@@ -153,7 +153,11 @@ impl Lower<'_> {
         };
         let capacity = match &c.capacity {
             Some(q) => {
-                match self.quantity(q, &format!("{path}.capacity"), &[Dim::Charge, Dim::Energy]) {
+                match self.quantity(
+                    q,
+                    || format!("{path}.capacity"),
+                    &[Dim::Charge, Dim::Energy],
+                ) {
                     Some(v) if v.value() > 0.0 => Some(v),
                     Some(_) => {
                         self.err(
@@ -247,7 +251,7 @@ impl Lower<'_> {
         };
         let peukert = match &c.peukert {
             None => Some(1.0),
-            Some(q) => match self.quantity(q, &format!("{path}.peukert"), &[Dim::Number]) {
+            Some(q) => match self.quantity(q, || format!("{path}.peukert"), &[Dim::Number]) {
                 Some(k) if (1.0..=2.0).contains(&k.value()) => Some(k.value()),
                 Some(_) => {
                     self.err(

@@ -119,11 +119,17 @@ impl Lower<'_> {
             .push(Diagnostic::new(path, message).with_hint_opt(hint).at(at));
     }
 
-    fn quantity(&mut self, q: &Qty, path: &str, dims: &[Dim]) -> Option<Quantity> {
+    /// A quantity of one of `dims`; `path` is written only for a message.
+    fn quantity(
+        &mut self,
+        q: &Qty,
+        path: impl FnOnce() -> String,
+        dims: &[Dim],
+    ) -> Option<Quantity> {
         match parse_quantity(q.text(), dims) {
             Ok(v) => Some(v),
             Err(e) => {
-                self.err(path, e.to_string(), e.hint());
+                self.err(&path(), e.to_string(), e.hint());
                 None
             }
         }
@@ -131,7 +137,7 @@ impl Lower<'_> {
 
     /// A value of one dimension within a bound.
     fn value(&mut self, q: &Qty, path: &str, dim: Dim, bound: Bound) -> Option<f64> {
-        let v = self.quantity(q, path, &[dim])?.value();
+        let v = self.quantity(q, || path.to_string(), &[dim])?.value();
         let ok = match bound {
             Bound::AtLeastZero => v >= 0.0,
             Bound::AboveZero => v > 0.0,
@@ -163,7 +169,9 @@ impl Lower<'_> {
 
     /// A fraction in (lo, hi] (or [lo, hi] when `lo_closed`).
     fn fraction(&mut self, q: &Qty, path: &str, lo: f64, lo_closed: bool, hi: f64) -> Option<f64> {
-        let v = self.quantity(q, path, &[Dim::Fraction])?.value();
+        let v = self
+            .quantity(q, || path.to_string(), &[Dim::Fraction])?
+            .value();
         let ok = (if lo_closed { v >= lo } else { v > lo }) && v <= hi;
         if ok {
             Some(v)
@@ -185,7 +193,9 @@ impl Lower<'_> {
 
     fn count(&mut self, q: Option<&Qty>, path: &str, max: u64) -> Option<u64> {
         let Some(q) = q else { return Some(1) };
-        let v = self.quantity(q, path, &[Dim::Number])?.value();
+        let v = self
+            .quantity(q, || path.to_string(), &[Dim::Number])?
+            .value();
         if v >= 1.0 && v.fract() == 0.0 && v <= max as f64 {
             Some(v as u64)
         } else {

@@ -32,13 +32,9 @@ impl Lower<'_> {
                     );
                     continue;
                 }
-                let v = match parse_quantity(q.text(), &[Dim::Current, Dim::Power, Dim::Resistance])
-                {
-                    Ok(v) => v,
-                    Err(e) => {
-                        self.err(&p(), e.to_string(), e.hint());
-                        continue;
-                    }
+                let Some(v) = self.quantity(q, p, &[Dim::Current, Dim::Power, Dim::Resistance])
+                else {
+                    continue;
                 };
                 let draw = match v.dim() {
                     Dim::Current => Draw::Current(v.value()),
