@@ -7,6 +7,7 @@
 
 pub mod error;
 pub mod fit;
+mod hash;
 pub mod model;
 pub mod report;
 pub mod solve;

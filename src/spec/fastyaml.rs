@@ -9,11 +9,11 @@
 //! the same result on every file both accept.
 
 use std::borrow::Cow;
-use std::collections::HashSet;
 
 use serde_yaml::Value;
 
 use super::node::Node;
+use crate::hash::FastSet;
 
 /// Read `text` if it lies in the subset; `None` where the full parser must decide.
 pub(crate) fn parse(text: &str) -> Option<Node<'_>> {
@@ -136,7 +136,7 @@ impl<'a> Reader<'a> {
         // Room for a load's or a stage's usual keys without growing twice.
         let mut map = Keys {
             entries: Vec::with_capacity(8),
-            seen: HashSet::new(),
+            seen: FastSet::default(),
         };
         while let Some(line) = self.current() {
             if line.indent < indent {
@@ -457,7 +457,7 @@ impl<'a> Flow<'a> {
 struct Keys<'a> {
     entries: Vec<(Node<'a>, Node<'a>)>,
     /// For long mappings (a mode naming thousands of loads): the keys seen.
-    seen: HashSet<Cow<'a, str>>,
+    seen: FastSet<Cow<'a, str>>,
 }
 
 impl<'a> Keys<'a> {

@@ -1,6 +1,7 @@
 //! The table of accepted unit spellings, prefix handling and spelling suggestions.
 
 use super::dim::Dim;
+use crate::hash::FastMap;
 
 const DAY: f64 = 86_400.0;
 const WEEK: f64 = 7.0 * DAY;
@@ -154,10 +155,9 @@ pub(super) enum Lookup {
 /// Looks a unit spelling up: one hash lookup in an index of every spelling with and without
 /// prefix, built on first use (a design has tens of thousands of quantities).
 pub(super) fn lookup(unit: &str) -> Lookup {
-    static INDEX: std::sync::OnceLock<std::collections::HashMap<String, Lookup>> =
-        std::sync::OnceLock::new();
+    static INDEX: std::sync::OnceLock<FastMap<String, Lookup>> = std::sync::OnceLock::new();
     let index = INDEX.get_or_init(|| {
-        let mut map = std::collections::HashMap::new();
+        let mut map = FastMap::default();
         for def in UNITS {
             map.entry(def.spelling.to_string())
                 .or_insert(Lookup::Found(def, 0));

@@ -9,7 +9,6 @@ mod wiring;
 use cell::given_keys;
 
 use std::collections::HashMap;
-use std::hash::{BuildHasherDefault, Hasher};
 
 use super::curve::{Table, TableError};
 use super::load::{Draw, Load};
@@ -19,52 +18,13 @@ use super::presets::{self, Preset};
 use super::stage::{EffCurve, LossModel, Stage, StageKind};
 use super::{BATTERY, Design};
 use crate::error::{Diagnostic, did_you_mean};
+use crate::hash::FastMap;
 use crate::spec::{
     CellRef, CellSpec, ChemistrySpec, DesignSpec, Efficiency, Qty, ResistanceSpec, SourceMap,
     StageKindSpec, StageSpec, StepSpec, backticked,
 };
 use crate::tree::{MAX_DEPTH, Tree, TreeError};
 use crate::units::{Dim, Quantity, fmt_eng, fmt_percent, parse_quantity};
-
-/// A hash map for ids, with a hasher much quicker than the default on short keys (the checker
-/// hashes every id of a design a few times; a design file is the user's own, so resistance to
-/// crafted collisions is not needed).
-type FastMap<K, V> = HashMap<K, V, BuildHasherDefault<IdHasher>>;
-
-/// A multiply-rotate hash taken eight bytes at a time (the scheme of the Rust compiler's own
-/// "Fx" hasher): ids such as `load-000123` hash in a few steps.
-#[derive(Default)]
-struct IdHasher(u64);
-
-impl IdHasher {
-    /// Multiplier of the Fx scheme (from memory); any odd constant with well-mixed bits works.
-    const K: u64 = 0x517c_c1b7_2722_0a95;
-
-    fn add(&mut self, word: u64) {
-        self.0 = (self.0.rotate_left(5) ^ word).wrapping_mul(Self::K);
-    }
-}
-
-impl Hasher for IdHasher {
-    fn finish(&self) -> u64 {
-        self.0
-    }
-
-    fn write(&mut self, bytes: &[u8]) {
-        let mut chunks = bytes.chunks_exact(8);
-        for c in &mut chunks {
-            let mut w = [0u8; 8];
-            w.copy_from_slice(c);
-            self.add(u64::from_le_bytes(w));
-        }
-        let rest = chunks.remainder();
-        if !rest.is_empty() {
-            let mut w = [0u8; 8];
-            w[..rest.len()].copy_from_slice(rest);
-            self.add(u64::from_le_bytes(w));
-        }
-    }
-}
 
 /// Deepest nesting of `repeat` blocks.
 const MAX_REPEAT_NESTING: usize = 16;
