@@ -25,8 +25,8 @@ impl Lower<'_> {
                 ok = false;
                 continue;
             }
-            let s = self.fraction(&row[0], &format!("{p}[0]"), 0.0, true, 1.0);
-            let v = self.value(&row[1], &format!("{p}[1]"), dim, bound);
+            let s = self.fraction(&row[0], format_args!("{p}[0]"), 0.0, true, 1.0);
+            let v = self.value(&row[1], format_args!("{p}[1]"), dim, bound);
             match (s, v) {
                 (Some(s), Some(v)) => pts.push((s, v)),
                 _ => ok = false,
@@ -155,7 +155,7 @@ impl Lower<'_> {
             Some(q) => {
                 match self.quantity(
                     q,
-                    || format!("{path}.capacity"),
+                    format_args!("{path}.capacity"),
                     &[Dim::Charge, Dim::Energy],
                 ) {
                     Some(v) if v.value() > 0.0 => Some(v),
@@ -185,7 +185,7 @@ impl Lower<'_> {
             Some(ResistanceSpec::Constant(q)) => self
                 .value(
                     q,
-                    &format!("{path}.resistance"),
+                    format_args!("{path}.resistance"),
                     Dim::Resistance,
                     Bound::AtLeastZero,
                 )
@@ -202,7 +202,12 @@ impl Lower<'_> {
             }
         };
         let cutoff = match &c.cutoff {
-            Some(q) => self.value(q, &format!("{path}.cutoff"), Dim::Voltage, Bound::AboveZero),
+            Some(q) => self.value(
+                q,
+                format_args!("{path}.cutoff"),
+                Dim::Voltage,
+                Bound::AboveZero,
+            ),
             None => {
                 missing(self, "cutoff", "3.0 V");
                 None
@@ -224,7 +229,7 @@ impl Lower<'_> {
         let rated = match (&c.rated_current, capacity_c) {
             (Some(q), _) => self.value(
                 q,
-                &format!("{path}.rated_current"),
+                format_args!("{path}.rated_current"),
                 Dim::Current,
                 Bound::AboveZero,
             ),
@@ -236,13 +241,13 @@ impl Lower<'_> {
             Some(p) => {
                 let r = self.value(
                     &p.resistance,
-                    &format!("{path}.polarization.resistance"),
+                    format_args!("{path}.polarization.resistance"),
                     Dim::Resistance,
                     Bound::AtLeastZero,
                 );
                 let tau = self.value(
                     &p.time_constant,
-                    &format!("{path}.polarization.time_constant"),
+                    format_args!("{path}.polarization.time_constant"),
                     Dim::Time,
                     Bound::AboveZero,
                 );
@@ -251,7 +256,7 @@ impl Lower<'_> {
         };
         let peukert = match &c.peukert {
             None => Some(1.0),
-            Some(q) => match self.quantity(q, || format!("{path}.peukert"), &[Dim::Number]) {
+            Some(q) => match self.quantity(q, format_args!("{path}.peukert"), &[Dim::Number]) {
                 Some(k) if (1.0..=2.0).contains(&k.value()) => Some(k.value()),
                 Some(_) => {
                     self.err(
@@ -266,13 +271,13 @@ impl Lower<'_> {
         };
         let max_current = self.opt(
             c.max_current.as_ref(),
-            &format!("{path}.max_current"),
+            format_args!("{path}.max_current"),
             Dim::Current,
             Bound::AboveZero,
         );
         let self_discharge = self.opt(
             c.self_discharge.as_ref(),
-            &format!("{path}.self_discharge"),
+            format_args!("{path}.self_discharge"),
             Dim::Rate,
             Bound::AtLeastZero,
         );
@@ -304,14 +309,19 @@ impl Lower<'_> {
         let mut ok = true;
         for (i, row) in rows.iter().enumerate() {
             let p = format!("{path}.temperature[{i}]");
-            let at = self.value(&row.at, &format!("{p}.at"), Dim::Temperature, Bound::Any);
+            let at = self.value(
+                &row.at,
+                format_args!("{p}.at"),
+                Dim::Temperature,
+                Bound::Any,
+            );
             let cf = match &row.capacity {
                 None => Some(1.0),
-                Some(q) => self.fraction(q, &format!("{p}.capacity"), 0.0, false, 2.0),
+                Some(q) => self.fraction(q, format_args!("{p}.capacity"), 0.0, false, 2.0),
             };
             let rf = match &row.resistance {
                 None => Some(1.0),
-                Some(q) => self.fraction(q, &format!("{p}.resistance"), 0.0, false, 100.0),
+                Some(q) => self.fraction(q, format_args!("{p}.resistance"), 0.0, false, 100.0),
             };
             match (at, cf, rf) {
                 (Some(t), Some(cf), Some(rf)) => {

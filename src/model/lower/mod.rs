@@ -9,6 +9,7 @@ mod wiring;
 use cell::given_keys;
 
 use std::collections::HashMap;
+use std::fmt::Display;
 
 use super::curve::{Table, TableError};
 use super::load::{Draw, Load};
@@ -79,25 +80,21 @@ impl Lower<'_> {
             .push(Diagnostic::new(path, message).with_hint_opt(hint).at(at));
     }
 
-    /// A quantity of one of `dims`; `path` is written only for a message.
-    fn quantity(
-        &mut self,
-        q: &Qty,
-        path: impl FnOnce() -> String,
-        dims: &[Dim],
-    ) -> Option<Quantity> {
+    /// A quantity of one of `dims`. Here and in the checks below, `path` is written out only for
+    /// a message (pass `format_args!`): a valid design of thousands of stages formats none.
+    fn quantity(&mut self, q: &Qty, path: impl Display, dims: &[Dim]) -> Option<Quantity> {
         match parse_quantity(q.text(), dims) {
             Ok(v) => Some(v),
             Err(e) => {
-                self.err(&path(), e.to_string(), e.hint());
+                self.err(&path.to_string(), e.to_string(), e.hint());
                 None
             }
         }
     }
 
     /// A value of one dimension within a bound.
-    fn value(&mut self, q: &Qty, path: &str, dim: Dim, bound: Bound) -> Option<f64> {
-        let v = self.quantity(q, || path.to_string(), &[dim])?.value();
+    fn value(&mut self, q: &Qty, path: impl Display, dim: Dim, bound: Bound) -> Option<f64> {
+        let v = self.quantity(q, &path, &[dim])?.value();
         let ok = match bound {
             Bound::AtLeastZero => v >= 0.0,
             Bound::AboveZero => v > 0.0,
@@ -112,7 +109,7 @@ impl Lower<'_> {
                 "must be above zero"
             };
             self.err(
-                path,
+                &path.to_string(),
                 format!("{} `{}` {what}", capital(dim.noun()), q.text()),
                 None,
             );
@@ -120,7 +117,13 @@ impl Lower<'_> {
         }
     }
 
-    fn opt(&mut self, q: Option<&Qty>, path: &str, dim: Dim, bound: Bound) -> Option<Option<f64>> {
+    fn opt(
+        &mut self,
+        q: Option<&Qty>,
+        path: impl Display,
+        dim: Dim,
+        bound: Bound,
+    ) -> Option<Option<f64>> {
         match q {
             None => Some(None),
             Some(q) => self.value(q, path, dim, bound).map(Some),
@@ -128,17 +131,22 @@ impl Lower<'_> {
     }
 
     /// A fraction in (lo, hi] (or [lo, hi] when `lo_closed`).
-    fn fraction(&mut self, q: &Qty, path: &str, lo: f64, lo_closed: bool, hi: f64) -> Option<f64> {
-        let v = self
-            .quantity(q, || path.to_string(), &[Dim::Fraction])?
-            .value();
+    fn fraction(
+        &mut self,
+        q: &Qty,
+        path: impl Display,
+        lo: f64,
+        lo_closed: bool,
+        hi: f64,
+    ) -> Option<f64> {
+        let v = self.quantity(q, &path, &[Dim::Fraction])?.value();
         let ok = (if lo_closed { v >= lo } else { v > lo }) && v <= hi;
         if ok {
             Some(v)
         } else {
             let open = if lo_closed { "[" } else { "(" };
             self.err(
-                path,
+                &path.to_string(),
                 format!(
                     "`{}` is outside {open}{} %, {} %]",
                     q.text(),
@@ -151,16 +159,14 @@ impl Lower<'_> {
         }
     }
 
-    fn count(&mut self, q: Option<&Qty>, path: &str, max: u64) -> Option<u64> {
+    fn count(&mut self, q: Option<&Qty>, path: impl Display, max: u64) -> Option<u64> {
         let Some(q) = q else { return Some(1) };
-        let v = self
-            .quantity(q, || path.to_string(), &[Dim::Number])?
-            .value();
+        let v = self.quantity(q, &path, &[Dim::Number])?.value();
         if v >= 1.0 && v.fract() == 0.0 && v <= max as f64 {
             Some(v as u64)
         } else {
             self.err(
-                path,
+                &path.to_string(),
                 format!("`{}` is not a whole number from 1 to {max}", q.text()),
                 None,
             );

@@ -157,7 +157,7 @@ impl Lower<'_> {
                         .duration(q, &format!("{path}.for"))
                         .map(RepeatUntil::Seconds),
                     (None, Some(q)) => self
-                        .count(Some(q), &format!("{path}.times"), 1_000_000_000)
+                        .count(Some(q), format_args!("{path}.times"), 1_000_000_000)
                         .map(RepeatUntil::Times),
                 };
                 Some(Step::Repeat {

@@ -7,15 +7,14 @@ impl Lower<'_> {
     pub(super) fn range(
         &mut self,
         v: Option<&Vec<Qty>>,
-        path: &dyn Fn() -> String,
+        path: impl Display,
     ) -> Option<(Option<f64>, Option<f64>)> {
         let Some(v) = v else {
             return Some((None, None));
         };
-        let path = &path();
         if v.len() != 2 {
             self.err(
-                path,
+                &path.to_string(),
                 format!("a range has {} values, not 2", v.len()),
                 Some("write `[min, max]`, e.g. `[1.7 V, 3.6 V]`".into()),
             );
@@ -23,15 +22,20 @@ impl Lower<'_> {
         }
         let lo = self.value(
             &v[0],
-            &format!("{path}[0]"),
+            format_args!("{path}[0]"),
             Dim::Voltage,
             Bound::AtLeastZero,
         );
-        let hi = self.value(&v[1], &format!("{path}[1]"), Dim::Voltage, Bound::AboveZero);
+        let hi = self.value(
+            &v[1],
+            format_args!("{path}[1]"),
+            Dim::Voltage,
+            Bound::AboveZero,
+        );
         let (lo, hi) = (lo?, hi?);
         if lo >= hi {
             self.err(
-                path,
+                &path.to_string(),
                 format!(
                     "the minimum {} is not below the maximum {}",
                     fmt_eng(lo, "V"),
@@ -93,9 +97,12 @@ impl Lower<'_> {
                 None
             }
             (None, StageKind::Switch) => Some(0.0),
-            (Some(q), _) => {
-                self.value(q, &format!("{path}.output"), Dim::Voltage, Bound::AboveZero)
-            }
+            (Some(q), _) => self.value(
+                q,
+                format_args!("{path}.output"),
+                Dim::Voltage,
+                Bound::AboveZero,
+            ),
             (None, _) => {
                 self.err(
                     path,
@@ -108,20 +115,20 @@ impl Lower<'_> {
         let loss = self.loss_model(s, kind, path);
         let quiescent = self.opt(
             s.quiescent.as_ref(),
-            &format!("{path}.quiescent"),
+            format_args!("{path}.quiescent"),
             Dim::Current,
             Bound::AtLeastZero,
         );
         let shutdown = self.opt(
             s.shutdown.as_ref(),
-            &format!("{path}.shutdown"),
+            format_args!("{path}.shutdown"),
             Dim::Current,
             Bound::AtLeastZero,
         );
-        let range = self.range(s.input_range.as_ref(), &|| format!("{path}.input_range"));
+        let range = self.range(s.input_range.as_ref(), format_args!("{path}.input_range"));
         let max_out = self.opt(
             s.max_output_current.as_ref(),
-            &format!("{path}.max_output_current"),
+            format_args!("{path}.max_output_current"),
             Dim::Current,
             Bound::AboveZero,
         );
@@ -153,13 +160,13 @@ impl Lower<'_> {
         );
         let dropout = self.opt(
             s.dropout.as_ref(),
-            &format!("{path}.dropout"),
+            format_args!("{path}.dropout"),
             Dim::Voltage,
             Bound::AtLeastZero,
         );
         let bypass = self.opt(
             s.bypass_drop.as_ref(),
-            &format!("{path}.bypass_drop"),
+            format_args!("{path}.bypass_drop"),
             Dim::Voltage,
             Bound::AtLeastZero,
         );
@@ -174,20 +181,20 @@ impl Lower<'_> {
             }
             (q, _) => self.opt(
                 q.as_ref(),
-                &format!("{path}.on_resistance"),
+                format_args!("{path}.on_resistance"),
                 Dim::Resistance,
                 Bound::AtLeastZero,
             ),
         };
         let theta = self.opt(
             s.theta_ja.as_ref(),
-            &format!("{path}.theta_ja"),
+            format_args!("{path}.theta_ja"),
             Dim::ThermalResistance,
             Bound::AboveZero,
         );
         let tj_max = self.opt(
             s.tj_max.as_ref(),
-            &format!("{path}.tj_max"),
+            format_args!("{path}.tj_max"),
             Dim::Temperature,
             Bound::Any,
         );
@@ -269,13 +276,13 @@ impl Lower<'_> {
             (None, Some(l)) => {
                 let drop = self.opt(
                     l.drop.as_ref(),
-                    &format!("{path}.loss.drop"),
+                    format_args!("{path}.loss.drop"),
                     Dim::Voltage,
                     Bound::AtLeastZero,
                 );
                 let r = self.opt(
                     l.resistance.as_ref(),
-                    &format!("{path}.loss.resistance"),
+                    format_args!("{path}.loss.resistance"),
                     Dim::Resistance,
                     Bound::AtLeastZero,
                 );
@@ -285,7 +292,7 @@ impl Lower<'_> {
                 })
             }
             (Some(Efficiency::Constant(q)), None) => self
-                .fraction(q, &format!("{path}.efficiency"), 0.0, false, 1.0)
+                .fraction(q, format_args!("{path}.efficiency"), 0.0, false, 1.0)
                 .map(LossModel::Constant),
             (Some(Efficiency::Curve(rows)), None) => {
                 let c = self.curve(rows, &format!("{path}.efficiency"))?;
@@ -295,8 +302,12 @@ impl Lower<'_> {
                 let mut curves = Vec::new();
                 for (i, vc) in list.iter().enumerate() {
                     let p = format!("{path}.efficiency[{i}]");
-                    let v =
-                        self.value(&vc.vin, &format!("{p}.vin"), Dim::Voltage, Bound::AboveZero);
+                    let v = self.value(
+                        &vc.vin,
+                        format_args!("{p}.vin"),
+                        Dim::Voltage,
+                        Bound::AboveZero,
+                    );
                     let c = self.curve(&vc.curve, &format!("{p}.curve"));
                     if let (Some(v), Some(c)) = (v, c) {
                         curves.push((Some(v), c));
@@ -331,10 +342,9 @@ impl Lower<'_> {
         let mut pts = Vec::new();
         let mut ok = true;
         for (i, row) in rows.iter().enumerate() {
-            let p = format!("{path}[{i}]");
             if row.len() != 2 {
                 self.err(
-                    &p,
+                    &format!("{path}[{i}]"),
                     format!("a row has {} values, not 2", row.len()),
                     Some(
                         "write each row as `[output current, efficiency]`, e.g. `[10 mA, 84 %]`"
@@ -344,8 +354,13 @@ impl Lower<'_> {
                 ok = false;
                 continue;
             }
-            let i_out = self.value(&row[0], &format!("{p}[0]"), Dim::Current, Bound::AboveZero);
-            let eta = self.fraction(&row[1], &format!("{p}[1]"), 0.0, false, 1.0);
+            let i_out = self.value(
+                &row[0],
+                format_args!("{path}[{i}][0]"),
+                Dim::Current,
+                Bound::AboveZero,
+            );
+            let eta = self.fraction(&row[1], format_args!("{path}[{i}][1]"), 0.0, false, 1.0);
             match (i_out, eta) {
                 (Some(a), Some(b)) => pts.push((a, b)),
                 _ => ok = false,

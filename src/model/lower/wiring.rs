@@ -11,9 +11,10 @@ impl Lower<'_> {
             // Paths are written only for a message: ten thousand loads check in milliseconds.
             let path = || format!("loads[{i}]");
             let before = self.diags.len();
-            let range = self.range(l.voltage_range.as_ref(), &|| {
-                format!("loads[{i}].voltage_range")
-            });
+            let range = self.range(
+                l.voltage_range.as_ref(),
+                format_args!("loads[{i}].voltage_range"),
+            );
             let mut states = Vec::with_capacity(l.draw.len());
             if l.draw.is_empty() {
                 self.err(
@@ -32,8 +33,11 @@ impl Lower<'_> {
                     );
                     continue;
                 }
-                let Some(v) = self.quantity(q, p, &[Dim::Current, Dim::Power, Dim::Resistance])
-                else {
+                let Some(v) = self.quantity(
+                    q,
+                    format_args!("loads[{i}].draw.{name}"),
+                    &[Dim::Current, Dim::Power, Dim::Resistance],
+                ) else {
                     continue;
                 };
                 let draw = match v.dim() {
@@ -153,7 +157,7 @@ impl Lower<'_> {
         spec: &DesignSpec,
         stage_ids: &FastMap<&str, usize>,
         name: &str,
-        path: &dyn Fn() -> String,
+        path: impl Display,
     ) -> Option<usize> {
         if name == BATTERY {
             return Some(0);
@@ -172,7 +176,11 @@ impl Lower<'_> {
                 None => format!("the rails are {}", backticked(&names)),
             }
         };
-        self.err(&path(), format!("unknown rail `{name}`"), Some(hint));
+        self.err(
+            &path.to_string(),
+            format!("unknown rail `{name}`"),
+            Some(hint),
+        );
         None
     }
 
@@ -184,7 +192,7 @@ impl Lower<'_> {
         let mut ok = true;
         let mut inputs = Vec::with_capacity(spec.stages.len());
         for (i, s) in spec.stages.iter().enumerate() {
-            match self.rail(spec, stage_ids, &s.input, &|| format!("stages[{i}].input")) {
+            match self.rail(spec, stage_ids, &s.input, format_args!("stages[{i}].input")) {
                 Some(r) if r == i + 1 => {
                     self.err(
                         &format!("stages[{i}].input"),
@@ -199,7 +207,7 @@ impl Lower<'_> {
         }
         let mut rails = Vec::with_capacity(spec.loads.len());
         for (i, l) in spec.loads.iter().enumerate() {
-            match self.rail(spec, stage_ids, &l.rail, &|| format!("loads[{i}].rail")) {
+            match self.rail(spec, stage_ids, &l.rail, format_args!("loads[{i}].rail")) {
                 Some(r) => rails.push(r),
                 None => ok = false,
             }
