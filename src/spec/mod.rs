@@ -145,13 +145,13 @@ impl Reader<'_> {
     /// then: a list of ten thousand items reads without formatting ten thousand paths).
     fn part<T: DeserializeOwned>(
         &mut self,
-        path: impl FnOnce() -> String,
+        path: impl std::fmt::Display,
         v: &Node<'_>,
     ) -> Option<T> {
         match T::deserialize(v) {
             Ok(t) => Some(t),
             Err(e) => {
-                self.serde_error(&path(), &e.to_string(), v);
+                self.serde_error(&path.to_string(), &e.to_string(), v);
                 None
             }
         }
@@ -251,15 +251,15 @@ impl Reader<'_> {
         }
         let design = match sections.shift_remove("design") {
             None | Some(Node::Null) => None,
-            Some(v) => self.part::<String>(|| "design".into(), &v),
+            Some(v) => self.part::<String>("design", &v),
         };
         let ambient = match sections.shift_remove("ambient") {
             None | Some(Node::Null) => None,
-            Some(v) => self.part::<Qty>(|| "ambient".into(), &v),
+            Some(v) => self.part::<Qty>("ambient", &v),
         };
         let cells = self.map_section::<CellSpec>(&mut sections, "cells");
         let battery = match sections.shift_remove("battery") {
-            Some(v) => self.part::<BatterySpec>(|| "battery".into(), &v),
+            Some(v) => self.part::<BatterySpec>("battery", &v),
             None => {
                 self.push(
                     "",
@@ -295,7 +295,7 @@ impl Reader<'_> {
             Some(Node::Seq(items)) => items
                 .iter()
                 .enumerate()
-                .filter_map(|(i, v)| self.part::<T>(|| format!("{name}[{i}]"), v))
+                .filter_map(|(i, v)| self.part::<T>(format_args!("{name}[{i}]"), v))
                 .collect(),
             Some(other) => {
                 self.push(
@@ -329,7 +329,7 @@ impl Reader<'_> {
                         );
                         continue;
                     };
-                    if let Some(t) = self.part::<T>(|| format!("{name}.{key}"), &v) {
+                    if let Some(t) = self.part::<T>(format_args!("{name}.{key}"), &v) {
                         out.insert(key, t);
                     }
                 }
