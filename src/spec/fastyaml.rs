@@ -2,11 +2,12 @@
 //! and sequences, one-line flow collections, plain and simply quoted scalars, comments.
 //!
 //! It builds the same tree the full parser's value converts to ([`Node`]), with text borrowed
-//! from the file, many times faster: that matters for generated designs of thousands of stages. Anything outside the subset (anchors, tags,
-//! block scalars, multi-line scalars or flow collections, escapes, tabs, several documents, ...)
-//! and anything that might be an error makes it give up (`None`); the caller then runs the full
-//! parser, which also gives the error messages. A differential test holds the two readers to
-//! the same result on every file both accept.
+//! from the file, many times faster: that matters for generated designs of thousands of stages.
+//! Anything outside the subset (anchors, tags, block scalars, multi-line scalars or flow
+//! collections, escapes, tabs, several documents, ...) and anything that might be an error makes
+//! it give up (`None`); the caller then runs the full parser, which also gives the error
+//! messages. A differential test holds the two readers to the same result on every file both
+//! accept.
 
 use std::borrow::Cow;
 
@@ -463,28 +464,22 @@ struct Keys<'a> {
 impl<'a> Keys<'a> {
     fn insert(&mut self, key: Node<'a>, value: Node<'a>) -> Option<()> {
         const SHORT: usize = 12;
-        let Node::Str(k) = &key else {
-            // A number, boolean or null as a key (rare): compared with every key.
-            if self.entries.iter().any(|(e, _)| *e == key) {
-                return None;
+        let repeated = match &key {
+            Node::Str(k) if self.entries.len() >= SHORT => {
+                if self.seen.is_empty() {
+                    self.seen = self
+                        .entries
+                        .iter()
+                        .filter_map(|(e, _)| match e {
+                            Node::Str(k) => Some(k.clone()),
+                            _ => None,
+                        })
+                        .collect();
+                }
+                !self.seen.insert(k.clone())
             }
-            self.entries.push((key, value));
-            return Some(());
-        };
-        let repeated = if self.entries.len() < SHORT {
-            self.entries.iter().any(|(e, _)| e.as_str() == Some(k))
-        } else {
-            if self.seen.is_empty() {
-                self.seen = self
-                    .entries
-                    .iter()
-                    .filter_map(|(e, _)| match e {
-                        Node::Str(k) => Some(k.clone()),
-                        _ => None,
-                    })
-                    .collect();
-            }
-            !self.seen.insert(k.clone())
+            // Short mappings, and keys that are numbers, booleans or null (rare).
+            _ => self.entries.iter().any(|(e, _)| *e == key),
         };
         if repeated {
             return None;
@@ -596,6 +591,32 @@ profile:
         ] {
             assert!(parse(text).is_none(), "{text:?}");
             assert!(agrees(text));
+        }
+    }
+
+    /// Long mappings check repeated keys through a set: still declined, as in short ones.
+    #[test]
+    fn a_repeated_key_in_a_long_mapping_is_declined() {
+        let keys: Vec<String> = (0..20).map(|i| format!("k{i}")).collect();
+        let block = |extra: &[&str]| -> String {
+            let all = keys.iter().map(String::as_str).chain(extra.iter().copied());
+            all.map(|k| format!("{k}: 1"))
+                .collect::<Vec<_>>()
+                .join("\n")
+                + "\n"
+        };
+        let flow = |extra: &[&str]| -> String {
+            let all = keys.iter().map(String::as_str).chain(extra.iter().copied());
+            let entries: Vec<String> = all.map(|k| format!("{k}: 1")).collect();
+            format!("m: {{ {} }}\n", entries.join(", "))
+        };
+        for text in [block(&[]), flow(&[])] {
+            assert!(parse(&text).is_some() && agrees(&text), "{text}");
+        }
+        for repeat in ["k3", "k19"] {
+            for text in [block(&[repeat]), flow(&[repeat])] {
+                assert!(parse(&text).is_none(), "{text}");
+            }
         }
     }
 
