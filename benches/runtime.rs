@@ -32,7 +32,7 @@ fn main() {
         std::fs::read_to_string(format!("{root}/examples/coin-cell-tag.yaml")).expect("example");
     let d = Design::from_text(&text).expect("valid example");
     let opt = RunOptions::for_design(&d);
-    let (fast_time, fast) = median(15, || run(&d, &opt));
+    let (fast_time, fast) = median(15, || run(&d, &opt).expect("fast run"));
     println!(
         "coin-cell tag, fast solver: {:.2} ms per run, runtime {:.1} d, end {} at {:.2} % SoC",
         ms(fast_time),
@@ -50,10 +50,9 @@ fn main() {
     if quick {
         println!("(chronological reference skipped: --quick)");
     } else {
-        let mut o = opt;
-        o.exact = true;
+        let o = RunOptions::reference(&d);
         let t = Instant::now();
-        let reference = run(&d, &o);
+        let reference = run(&d, &o).expect("reference run");
         let ref_time = t.elapsed();
         let diff = (fast.runtime_s() - reference.runtime_s()) / reference.runtime_s();
         let speedup = ref_time.as_secs_f64() / fast_time.as_secs_f64();
@@ -91,12 +90,11 @@ fn main() {
                 .expect("valid example");
             let opt = RunOptions::for_design(&d);
             let t = Instant::now();
-            let fast = run(&d, &opt);
+            let fast = run(&d, &opt).expect("fast run");
             let fast_time = t.elapsed();
-            let mut o = opt;
-            o.exact = true;
+            let o = RunOptions::reference(&d);
             let t = Instant::now();
-            let reference = run(&d, &o);
+            let reference = run(&d, &o).expect("reference run");
             let ref_time = t.elapsed();
             let diff = (fast.runtime_s() - reference.runtime_s()) / reference.runtime_s();
             let name = f
@@ -135,7 +133,7 @@ fn main() {
         let d = Design::from_text(&text).expect("generated design is valid");
         let parse = t.elapsed();
         let opt = RunOptions::for_design(&d);
-        let (time, r) = median(3, || run(&d, &opt));
+        let (time, r) = median(3, || run(&d, &opt).expect("fast run"));
         println!(
             "{n:>7} {:>7} {:>12.1} {:>12.3} {:>14.2} {:>10}",
             10 * n,

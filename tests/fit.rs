@@ -237,7 +237,7 @@ fn fitted_cell_runs_as_long_as_its_rated_curve() {
     let t = truth();
     let f = fit(&curves(&t, &[0.12, 0.6], 100), &FitOptions::default()).unwrap();
     let d = design(&cell_yaml(&f, "c"), "c", "120 mA");
-    let r = run(&d, &RunOptions::for_design(&d));
+    let r = run(&d, &RunOptions::for_design(&d)).unwrap();
     assert!(
         close(r.runtime_s(), 5.0 * 3600.0, 0.005),
         "{}",

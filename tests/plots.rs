@@ -30,6 +30,7 @@ fn traced(d: &Design) -> RunResult {
             ..RunOptions::for_design(d)
         },
     )
+    .expect("the run gives a result")
 }
 
 fn start_budget(d: &Design) -> Vec<ModeBudget> {
@@ -121,7 +122,7 @@ fn discharge_shades_long_mode_stretches() {
 #[test]
 fn discharge_needs_a_trace() {
     let d = load("coin-cell-tag.yaml");
-    let r = run(&d, &RunOptions::for_design(&d));
+    let r = run(&d, &RunOptions::for_design(&d)).unwrap();
     assert_eq!(
         discharge(&d, &r, PlotFormat::Svg, DEFAULT_SIZE),
         Err(PlotError::NoTrace)

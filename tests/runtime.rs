@@ -12,13 +12,11 @@ fn design(text: &str) -> Design {
 }
 
 fn fast(d: &Design) -> RunResult {
-    run(d, &RunOptions::for_design(d))
+    run(d, &RunOptions::for_design(d)).expect("the run gives a result")
 }
 
 fn exact(d: &Design) -> RunResult {
-    let mut o = RunOptions::for_design(d);
-    o.exact = true;
-    run(d, &o)
+    run(d, &RunOptions::reference(d)).expect("the reference gives a result")
 }
 
 /// Energy drawn from the open-circuit voltage = load energy + stage losses + pack loss.
@@ -146,7 +144,7 @@ fn temperature_derates_capacity() {
     // overrides the design's ambient.
     let mut o = RunOptions::for_design(&d);
     o.ambient_c = -40.0;
-    assert!(close(run(&d, &o).runtime_s(), 12.0 * 3600.0, 1e-9));
+    assert!(close(run(&d, &o).unwrap().runtime_s(), 12.0 * 3600.0, 1e-9));
     let out = Test::new()
         .design(
             &std::fs::read_to_string(crate::util::root().join("examples/field-logger.yaml"))

@@ -13,10 +13,12 @@ use super::args::PlotKind;
 use super::run::Failure;
 
 /// Run a discharge, with a progress bar on standard error when it is a terminal and the run
-/// takes a while (nothing at all otherwise).
-pub fn run_with_progress(d: &Design, opt: &RunOptions, what: &str) -> RunResult {
+/// takes a while (nothing at all otherwise). A run that cannot give a result (values beyond
+/// what the models compute with, or too much work) is an input failure (exit 1).
+pub fn run_with_progress(d: &Design, opt: &RunOptions, what: &str) -> Result<RunResult, Failure> {
+    let fail = |e: joulepath::solve::RunError| Failure::Input(format!("`{}`: {e}", d.title));
     if !std::io::stderr().is_terminal() {
-        return joulepath::solve::run(d, opt);
+        return joulepath::solve::run(d, opt).map_err(fail);
     }
     let start = Instant::now();
     let last = Cell::new(start);
@@ -49,7 +51,7 @@ pub fn run_with_progress(d: &Design, opt: &RunOptions, what: &str) -> RunResult 
             " ".repeat(what.chars().count() + 40)
         );
     }
-    r
+    r.map_err(fail)
 }
 
 fn format_of(path: &Path) -> Result<PlotFormat, Failure> {
@@ -76,7 +78,7 @@ pub fn plot_command(
     let fmt = format_of(output)?;
     let mut o = *opt;
     o.trace = true;
-    let r = run_with_progress(d, &o, "simulating");
+    let r = run_with_progress(d, &o, "simulating")?;
     match kind {
         PlotKind::Discharge => plot::discharge(d, &r, fmt, size),
         PlotKind::Losses => plot::losses(d, &r, fmt, size),
@@ -93,7 +95,7 @@ pub fn plot_command(
 pub fn report_command(d: &Design, opt: &RunOptions, soc: Option<f64>) -> Result<Vec<u8>, Failure> {
     let mut o = *opt;
     o.trace = true;
-    let r = run_with_progress(d, &o, "simulating");
+    let r = run_with_progress(d, &o, "simulating")?;
     let soc = soc.unwrap_or(d.pack.start_soc);
     let modes: Vec<usize> = (0..d.modes.len()).collect();
     let b = budget(d, soc, &modes);

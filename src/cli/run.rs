@@ -129,7 +129,13 @@ fn run_options(d: &Design, a: &RunArgs, trace: bool) -> joulepath::solve::RunOpt
     if let Some(h) = a.horizon {
         o.horizon_s = h;
     }
-    o.exact = a.exact;
+    if a.exact {
+        o = joulepath::solve::RunOptions {
+            ambient_c: o.ambient_c,
+            horizon_s: o.horizon_s,
+            ..joulepath::solve::RunOptions::reference(d)
+        };
+    }
     o.trace = trace;
     o
 }
@@ -188,7 +194,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
         } => {
             let d = load_with(file, sets)?;
             let opt = run_options(&d, ra, *trace);
-            let result = run_with_progress(&d, &opt, "simulating");
+            let result = run_with_progress(&d, &opt, "simulating")?;
             write_runtime(&mut buf, &d, &result, format(*f), *trace).map_err(io_fail)?;
             emit(&buf, output.as_deref())
         }
@@ -200,7 +206,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             output,
         } => {
             let d = load_with(file, sets)?;
-            let result = run_with_progress(&d, &run_options(&d, ra, false), "simulating");
+            let result = run_with_progress(&d, &run_options(&d, ra, false), "simulating")?;
             write_heat(&mut buf, &d, &result, format(*f)).map_err(io_fail)?;
             emit(&buf, output.as_deref())
         }
@@ -312,7 +318,7 @@ fn compare(ca: &CompareArgs) -> Result<(), Failure> {
                 &format!("design {}/{n}", i + 1),
             )
         })
-        .collect();
+        .collect::<Result<_, _>>()?;
     let entries: Vec<Entry<'_>> = designs
         .iter()
         .zip(&runs)

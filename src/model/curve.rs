@@ -69,6 +69,10 @@ impl Table {
     /// The value at `x`.
     pub fn at(&self, x: f64) -> f64 {
         let n = self.xs.len();
+        if x.is_nan() {
+            // No place in the table: the caller sees NaN and refuses it.
+            return f64::NAN;
+        }
         if x <= self.xs[0] {
             return self.ys[0];
         }
@@ -137,6 +141,13 @@ mod tests {
         ] {
             assert!(close(t.at(x), y), "interp({x}) = {} not {y}", t.at(x));
         }
+    }
+
+    #[test]
+    fn nan_lookup_is_nan_not_a_panic() {
+        let t = Table::new(vec![(0.0, 3.0), (0.5, 3.7), (1.0, 4.2)]).unwrap();
+        assert!(t.at(f64::NAN).is_nan());
+        assert!(t.mean(0.0, f64::NAN).is_nan());
     }
 
     #[test]

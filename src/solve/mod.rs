@@ -6,13 +6,17 @@ mod discharge;
 mod ledger;
 mod point;
 mod root;
+mod sum2;
 pub mod tolerance;
 
 pub use budget::{ModeBudget, budget};
 pub use check::{Violation, ViolationKind, junction_c, violations, violations_where};
-pub use discharge::{End, EndReason, Peak, RunOptions, RunResult, YEAR_S, run, run_observed};
+pub use discharge::{
+    End, EndReason, MAX_HORIZON_S, Peak, RunError, RunOptions, RunResult, YEAR_S, run, run_observed,
+};
 pub use ledger::{Ledger, TracePoint, Tracer, state_index};
 pub use point::{
     LoadPoint, OperatingPoint, PackPoint, PackState, Solution, StagePoint, StageState, solve_point,
 };
 pub use root::{Settle, settle};
+pub use sum2::Sum2;

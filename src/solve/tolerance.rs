@@ -25,6 +25,11 @@ pub const SKIP_MAX_DS: f64 = 0.04;
 /// Passes simulated inside each skipped stretch to give a trace its points there (they change
 /// nothing else).
 pub const TRACE_PROBES_PER_SKIP: u64 = 12;
+/// Error control of a skipped stretch: the largest relative difference between the fall in state
+/// of charge of the pass at its start and of the pass in its middle; beyond it the stretch is
+/// halved. With the rates nearly linear over the stretch, the mid-stretch rate is second-order
+/// accurate (the midpoint rule).
+pub const SKIP_RATE_REL: f64 = 0.01;
 /// Fewest passes worth skipping.
 pub const SKIP_MIN_PASSES: u64 = 3;
 /// A step whose pack voltage moves by less than this share takes its start point as its mean
@@ -34,3 +39,10 @@ pub const MEAN_POINT_REL: f64 = 1e-4;
 pub const END_BISECT_ITER: usize = 60;
 /// Stretches of state of charge in a trace (each keeps its first and its lowest point).
 pub const TRACE_BUCKETS: usize = 800;
+/// Work limit of a fast run, in node solves (an operating point of a tree of n stages and loads
+/// costs 1 + n). A bundled example needs under 1e5; at about 0.1-0.5 µs per node solve this
+/// bounds a run to a few seconds whatever the design.
+pub const WORK_LIMIT_FAST: u64 = 20_000_000;
+/// Work limit of the chronological reference (it executes every pass: a year of 10 s cycles is
+/// millions of solves).
+pub const WORK_LIMIT_EXACT: u64 = 20_000_000_000;

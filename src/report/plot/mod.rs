@@ -17,7 +17,7 @@
 //! profile: [{ mode: run, for: 1 h }]
 //! "#;
 //! let d = joulepath::Design::from_text(text).unwrap();
-//! let r = run(&d, &RunOptions { trace: true, ..RunOptions::for_design(&d) });
+//! let r = run(&d, &RunOptions { trace: true, ..RunOptions::for_design(&d) }).unwrap();
 //! let svg = discharge(&d, &r, PlotFormat::Svg, (900, 600)).unwrap();
 //! assert!(String::from_utf8(svg).unwrap().contains("cutoff"));
 //! ```

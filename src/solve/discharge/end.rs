@@ -11,8 +11,8 @@ impl Sim<'_> {
         let pack = &self.c.d.pack;
         let t = self.c.opt.ambient_c;
         let i = p.pack.current;
-        (pack.ocv(s) - pack.ocv(self.s)).abs()
-            + (pack.r0(s, t) - pack.r0(self.s, t)).abs() * i
+        (pack.ocv(s) - pack.ocv(self.soc())).abs()
+            + (pack.r0(s, t) - pack.r0(self.soc(), t)).abs() * i
             + (vp - self.vp).abs()
     }
 
@@ -46,7 +46,7 @@ impl Sim<'_> {
             return false;
         }
         let v_open = p.pack.ocv - self.vp;
-        let r0 = self.c.d.pack.r0(self.s, self.c.opt.ambient_c);
+        let r0 = self.c.d.pack.r0(self.soc(), self.c.opt.ambient_c);
         let sag = self.pack_shift(p, s1, vp1) + (i - p.pack.current).abs() * r0;
         p.pack.voltage > 0.6 * v_open && 4.0 * sag < self.voltage_margin(p)
     }

@@ -18,19 +18,26 @@
 mod end;
 mod skip;
 
+use std::cell::{Cell, RefCell};
 use std::collections::HashSet;
+use std::fmt;
 
 use super::check::{Violation, ViolationKind, violations_where};
 use super::ledger::{Ledger, TracePoint, Tracer};
 use super::point::{OperatingPoint, PackState, Solution, StageState, solve_point};
+use super::sum2::Sum2;
 use super::tolerance::{
     END_BISECT_ITER, MEAN_POINT_REL, SKIP_MAX_DS, SKIP_MIN_PASSES, STEP_MAX_DS_EXACT,
-    STEP_MAX_DS_FAST, TRACE_BUCKETS, TRACE_PROBES_PER_SKIP,
+    STEP_MAX_DS_FAST, TRACE_BUCKETS, TRACE_PROBES_PER_SKIP, WORK_LIMIT_EXACT, WORK_LIMIT_FAST,
 };
 use crate::model::{Design, Step};
 
 /// A year of 365.25 days, s.
 pub const YEAR_S: f64 = 365.25 * 86_400.0;
+
+/// The longest horizon a run accepts: 1,000 years (20 years is the default; no product's
+/// battery outlives a millennium, and the bound keeps every pass count and time in range).
+pub const MAX_HORIZON_S: f64 = 1000.0 * YEAR_S;
 
 /// How to run a discharge.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -43,6 +50,10 @@ pub struct RunOptions {
     pub exact: bool,
     /// Keep a decimated trace.
     pub trace: bool,
+    /// Most work the run may do, in node solves (one operating point of a tree of n stages and
+    /// loads costs 1 + n); past it the run stops with [`RunError::WorkLimit`]. This bounds the
+    /// time of every run whatever the design.
+    pub work_limit: u64,
 }
 
 impl RunOptions {
@@ -53,9 +64,78 @@ impl RunOptions {
             horizon_s: 20.0 * YEAR_S,
             exact: false,
             trace: false,
+            work_limit: WORK_LIMIT_FAST,
+        }
+    }
+
+    /// The chronological reference for `design` (every pass executed), with its larger work
+    /// limit.
+    pub fn reference(design: &Design) -> Self {
+        Self {
+            exact: true,
+            work_limit: WORK_LIMIT_EXACT,
+            ..Self::for_design(design)
         }
     }
 }
+
+/// Why a run gave no result.
+#[derive(Debug, Clone, PartialEq)]
+#[non_exhaustive]
+pub enum RunError {
+    /// The options are out of range: a horizon that is not a positive duration up to
+    /// [`MAX_HORIZON_S`], or an ambient that is not a finite temperature above absolute zero.
+    Options {
+        /// Which option.
+        option: &'static str,
+        /// Its value (SI).
+        value: f64,
+    },
+    /// A quantity of the simulation became NaN or infinite: the design's values are beyond what
+    /// the models can compute with (the checker bounds them; a library caller may not have).
+    NonFinite {
+        /// What became non-finite.
+        what: &'static str,
+        /// Time, s.
+        t_s: f64,
+        /// Mode then.
+        mode: usize,
+    },
+    /// The run needed more work than [`RunOptions::work_limit`].
+    WorkLimit {
+        /// The limit, node solves.
+        limit: u64,
+        /// Simulated time reached, s.
+        t_s: f64,
+    },
+}
+
+impl fmt::Display for RunError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            RunError::Options { option, value } => write!(
+                f,
+                "the {option} {value} is out of range: give a horizon above zero and at most 1000 \
+                 years, and an ambient between -273.15 °C and 1000 °C"
+            ),
+            RunError::NonFinite { what, t_s, .. } => write!(
+                f,
+                "the simulation stopped at t = {t_s:.6e} s because the {what} became infinite or \
+                 not a number: some value of the design is beyond what the models can compute \
+                 with; check the magnitudes of capacities, currents, voltages and resistances"
+            ),
+            RunError::WorkLimit { limit, t_s } => write!(
+                f,
+                "the simulation gave up at t = {t_s:.6e} s after {limit} solved operating points \
+                 of the tree's nodes: the profile's steps are too short against the time the \
+                 product runs; lengthen the shortest steps, put them in a `repeat` block, or \
+                 shorten the horizon"
+            ),
+        }
+    }
+}
+
+impl std::error::Error for RunError {}
 
 /// Why the product stopped.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -179,39 +259,71 @@ impl RunResult {
 /// profile: [{ mode: run, for: 1 h }]
 /// "#;
 /// let d = joulepath::Design::from_text(text).unwrap();
-/// let r = run(&d, &RunOptions::for_design(&d));
+/// let r = run(&d, &RunOptions::for_design(&d)).unwrap();
 /// // Constant current: runtime = Q / I = 3600 C / 0.1 A.
 /// assert_eq!(r.end.reason, EndReason::Empty);
 /// assert!((r.runtime_s() - 36_000.0).abs() < 1e-6);
 /// ```
-pub fn run(design: &Design, opt: &RunOptions) -> RunResult {
+///
+/// # Errors
+///
+/// [`RunError`] when the options are out of range, a quantity of the simulation stops being
+/// finite, or the run needs more work than `opt.work_limit`.
+pub fn run(design: &Design, opt: &RunOptions) -> Result<RunResult, RunError> {
     run_observed(design, opt, None)
 }
 
 /// [`run`], calling `progress` now and then with the share of the work done (0..1: the charge
 /// used so far, or the time run against the horizon), for a progress bar.
+///
+/// # Errors
+///
+/// As [`run`].
 pub fn run_observed(
     design: &Design,
     opt: &RunOptions,
     progress: Option<&dyn Fn(f64)>,
-) -> RunResult {
+) -> Result<RunResult, RunError> {
+    if !(opt.horizon_s > 0.0 && opt.horizon_s <= MAX_HORIZON_S) {
+        return Err(RunError::Options {
+            option: "horizon",
+            value: opt.horizon_s,
+        });
+    }
+    if !(opt.ambient_c >= -273.15 && opt.ambient_c <= 1000.0) {
+        return Err(RunError::Options {
+            option: "ambient",
+            value: opt.ambient_c,
+        });
+    }
     let mut ctx = Ctx::new(design, *opt);
     ctx.progress = progress;
     let mut sim = Sim::new(&ctx);
     let pass: f64 = design.profile.iter().map(Step::duration).sum();
-    let stopped = sim.passes(&design.profile, pass, u64::MAX);
-    debug_assert!(stopped);
+    let stopped = sim.passes(&design.profile, pass, f64::INFINITY);
+    if let Some(e) = ctx.fault.borrow_mut().take() {
+        return Err(e);
+    }
+    if !stopped {
+        // Every pass ran and the product still runs: only possible when the profile's pass
+        // has no duration left, which the checker forbids.
+        return Err(RunError::NonFinite {
+            what: "profile duration",
+            t_s: sim.t.value(),
+            mode: 0,
+        });
+    }
     let end = sim.end.clone().unwrap_or(End {
         reason: EndReason::Horizon,
-        t_s: sim.t,
-        soc: sim.s,
+        t_s: sim.t.value(),
+        soc: sim.soc(),
         mode: None,
         subject: "battery".into(),
     });
     let pack = &design.pack;
     let s0 = pack.start_soc;
     let stored = ctx.q * f64::from(pack.series) * pack.cell.ocv.mean(0.0, s0) * s0;
-    RunResult {
+    Ok(RunResult {
         end,
         ledger: sim.ledger,
         peaks: sim.peaks,
@@ -220,7 +332,7 @@ pub fn run_observed(
         ambient_c: opt.ambient_c,
         capacity_c: ctx.q,
         stored_energy_j: stored,
-    }
+    })
 }
 
 /// What does not change during a run.
@@ -237,6 +349,11 @@ struct Ctx<'a> {
     draws_below: Vec<Vec<bool>>,
     /// Each load's maximum supply.
     v_max: Vec<Option<f64>>,
+    /// Work done so far (node solves, shared by every probe of the run) and its cost per solve.
+    work: Cell<u64>,
+    solve_cost: u64,
+    /// Why the run cannot go on; once set, every step stops at once.
+    fault: RefCell<Option<RunError>>,
 }
 
 impl<'a> Ctx<'a> {
@@ -276,7 +393,22 @@ impl<'a> Ctx<'a> {
             },
             draws_below,
             v_max: d.loads.iter().map(|l| l.v_max).collect(),
+            work: Cell::new(0),
+            solve_cost: 1 + (d.stages.len() + d.loads.len()) as u64,
+            fault: RefCell::new(None),
         }
+    }
+
+    /// Record why the run stops without a result (the first reason wins).
+    fn fail(&self, e: RunError) {
+        let mut f = self.fault.borrow_mut();
+        if f.is_none() {
+            *f = Some(e);
+        }
+    }
+
+    fn failed(&self) -> bool {
+        self.fault.borrow().is_some()
     }
 }
 
@@ -284,8 +416,9 @@ impl<'a> Ctx<'a> {
 #[derive(Clone)]
 struct Sim<'a> {
     c: &'a Ctx<'a>,
-    t: f64,
-    s: f64,
+    /// Time and state of charge, each a compensated sum so that steps of any length add up.
+    t: Sum2,
+    s: Sum2,
     vp: f64,
     ledger: Ledger,
     peaks: Vec<Peak>,
@@ -306,25 +439,21 @@ struct Delta {
     ledger: Ledger,
 }
 
-struct Mark {
-    s: f64,
-    vp: f64,
-    ledger: Ledger,
-}
-
 impl Delta {
-    fn between(before: &Mark, after: &Sim, pass: f64) -> Self {
+    /// The changes of a pass of length `pass` that started at (`s0`, `vp0`) and ended in
+    /// `after`, with `ledger` the pass's own totals.
+    fn of(s0: Sum2, vp0: f64, after: &Sim, pass: f64, ledger: Ledger) -> Self {
         let decay = after.c.pol.map_or(0.0, |(_, tau)| (-pass / tau).exp());
-        let b = after.vp - decay * before.vp;
+        let b = after.vp - decay * vp0;
         Self {
-            ds: before.s - after.s,
+            ds: s0.minus(after.s),
             decay,
             vp_star: if decay < 1.0 {
                 b / (1.0 - decay)
             } else {
                 after.vp
             },
-            ledger: after.ledger.since(&before.ledger),
+            ledger,
         }
     }
 }
@@ -334,8 +463,8 @@ impl<'a> Sim<'a> {
         let d = c.d;
         Self {
             c,
-            t: 0.0,
-            s: d.pack.start_soc,
+            t: Sum2::new(0.0),
+            s: Sum2::new(d.pack.start_soc),
             vp: 0.0,
             ledger: Ledger::new(d.stages.len(), d.loads.len()),
             peaks: vec![
@@ -355,15 +484,31 @@ impl<'a> Sim<'a> {
         }
     }
 
-    fn mark(&self) -> Mark {
-        Mark {
-            s: self.s,
-            vp: self.vp,
-            ledger: self.ledger.clone(),
-        }
+    /// State of charge now.
+    fn soc(&self) -> f64 {
+        self.s.value()
+    }
+
+    /// Time now, s.
+    fn now(&self) -> f64 {
+        self.t.value()
+    }
+
+    /// Run one pass of `steps` (`pass` seconds) with its own ledger, so that its totals are
+    /// exact however small against the run's; `None` if the product stopped in it.
+    fn run_pass(&mut self, steps: &[Step], pass: f64) -> Option<Delta> {
+        let (s0, vp0) = (self.s, self.vp);
+        let fresh = Ledger::new(self.c.d.stages.len(), self.c.d.loads.len());
+        let total = std::mem::replace(&mut self.ledger, fresh);
+        let stopped = self.steps(steps, pass);
+        let local = std::mem::replace(&mut self.ledger, total);
+        self.ledger.add_scaled(&local, 1.0);
+        (!stopped).then(|| Delta::of(s0, vp0, self, pass, local))
     }
 
     fn solve(&self, mode: usize, s: f64, vp: f64) -> Solution {
+        let c = self.c;
+        c.work.set(c.work.get().saturating_add(c.solve_cost));
         let at = PackState {
             soc: s.max(0.0),
             v_pol: Some(vp),
@@ -380,7 +525,7 @@ impl<'a> Sim<'a> {
 
     /// State after holding current `i` (at SoC rate `rate` per second) for `dt`.
     fn evolve(&self, i: f64, rate: f64, dt: f64) -> (f64, f64) {
-        let s = self.s - rate * dt;
+        let s = self.soc() - rate * dt;
         let vp = match self.c.pol {
             Some((r1, tau)) => {
                 let e = (-dt / tau).exp();
@@ -394,7 +539,7 @@ impl<'a> Sim<'a> {
     /// The mean state over a step of `dt` at current `i`: SoC at mid-step and the exact time
     /// average of the exponential polarization voltage.
     fn mean_state(&self, i: f64, rate: f64, dt: f64) -> (f64, f64) {
-        let s = self.s - 0.5 * rate * dt;
+        let s = self.soc() - 0.5 * rate * dt;
         let vp = match self.c.pol {
             Some((r1, tau)) if dt > 0.0 => {
                 let inf = i * r1;
@@ -437,8 +582,8 @@ impl<'a> Sim<'a> {
     fn stop(&mut self, reason: EndReason, mode: Option<usize>, subject: String) {
         self.end = Some(End {
             reason,
-            t_s: self.t,
-            soc: self.s.max(0.0),
+            t_s: self.now(),
+            soc: self.soc().max(0.0),
             mode,
             subject,
         });
@@ -471,12 +616,60 @@ impl<'a> Sim<'a> {
             !seen.contains(&(k, s.to_string()))
         });
         for mut v in found {
-            v.t_s = Some(self.t);
+            v.t_s = Some(self.now());
             if self.seen.insert((v.kind, v.subject.clone())) {
                 self.violations.push(v);
             }
         }
-        self.offer_trace(p, self.t, self.s);
+        self.offer_trace(p, self.now(), self.soc());
+    }
+
+    /// Whether the run must stop without a result: a fault already recorded, the work limit
+    /// reached, or a non-finite state. Records the reason.
+    fn halted(&self, mode: usize) -> bool {
+        let c = self.c;
+        if c.failed() {
+            return true;
+        }
+        if c.work.get() > c.opt.work_limit {
+            c.fail(RunError::WorkLimit {
+                limit: c.opt.work_limit,
+                t_s: self.now(),
+            });
+            return true;
+        }
+        let what = if !self.soc().is_finite() {
+            "state of charge"
+        } else if !self.vp.is_finite() {
+            "polarization voltage"
+        } else if !self.now().is_finite() {
+            "time"
+        } else {
+            return false;
+        };
+        c.fail(RunError::NonFinite {
+            what,
+            t_s: self.now(),
+            mode,
+        });
+        true
+    }
+
+    /// Refuse a non-finite pack current or rate of discharge (true: the run halts).
+    fn refuse_non_finite(&self, mode: usize, i: f64, rate: f64) -> bool {
+        if i.is_finite() && rate.is_finite() {
+            return false;
+        }
+        self.c.fail(RunError::NonFinite {
+            what: if i.is_finite() {
+                "rate of discharge"
+            } else {
+                "pack current"
+            },
+            t_s: self.now(),
+            mode,
+        });
+        true
     }
 
     /// Hold `mode` for `dur` seconds; true if the product stopped.
@@ -484,10 +677,13 @@ impl<'a> Sim<'a> {
         let mut left = dur;
         let mut next: Option<Solution> = None;
         while left > 1e-12 * dur {
+            if self.halted(mode) {
+                return true;
+            }
             let sol = next
                 .take()
-                .unwrap_or_else(|| self.solve(mode, self.s, self.vp));
-            if let Some((reason, subject)) = self.verdict(&sol, self.s) {
+                .unwrap_or_else(|| self.solve(mode, self.soc(), self.vp));
+            if let Some((reason, subject)) = self.verdict(&sol, self.soc()) {
                 if let Solution::Point(p) = &sol {
                     self.observe(p);
                 }
@@ -497,21 +693,27 @@ impl<'a> Sim<'a> {
             let Solution::Point(p) = sol else { return true };
             self.observe(&p);
             let rate0 = self.rate(p.pack.current);
-            let mut dt = left.min(self.c.opt.horizon_s - self.t);
+            if self.refuse_non_finite(mode, p.pack.current, rate0) {
+                return true;
+            }
+            let mut dt = left.min(self.c.opt.horizon_s - self.now());
             if rate0 > 0.0 {
                 dt = dt.min(self.c.max_ds / rate0);
             }
             let pm = self.mean_point(mode, &p, rate0, dt);
             let i = pm.pack.current;
             let rate = self.rate(i);
+            if self.refuse_non_finite(mode, i, rate) {
+                return true;
+            }
             let (s1, vp1) = self.evolve(i, rate, dt);
             if self.surely_clear(&p, i, s1, vp1) {
                 self.ledger.add_point(&pm, dt, &self.c.v_max);
-                self.t += dt;
-                self.s = s1;
+                self.t.add(dt);
+                self.s.add(-rate * dt);
                 self.vp = vp1;
                 left -= dt;
-                if self.t >= self.c.opt.horizon_s * (1.0 - 1e-15) {
+                if self.now() >= self.c.opt.horizon_s * (1.0 - 1e-15) {
                     self.stop(EndReason::Horizon, Some(mode), "battery".into());
                     return true;
                 }
@@ -534,12 +736,12 @@ impl<'a> Sim<'a> {
                 }
                 self.ledger.add_point(&pm, hi, &self.c.v_max);
                 let (sh, vh) = self.evolve(i, rate, hi);
-                self.t += hi;
-                self.s = sh;
+                self.t.add(hi);
+                self.s.add(-rate * hi);
                 self.vp = vh;
                 let sol = self.solve(mode, sh, vh);
                 if let Solution::Point(q) = &sol {
-                    self.offer_trace(q, self.t, sh);
+                    self.offer_trace(q, self.now(), sh);
                 }
                 let (reason, subject) = self
                     .verdict(&sol, sh)
@@ -548,14 +750,14 @@ impl<'a> Sim<'a> {
                 return true;
             }
             self.ledger.add_point(&pm, dt, &self.c.v_max);
-            self.t += dt;
-            self.s = s1;
+            self.t.add(dt);
+            self.s.add(-rate * dt);
             self.vp = vp1;
             left -= dt;
             if let Solution::Point(q) = &end_sol {
-                self.offer_trace(q, self.t, s1);
+                self.offer_trace(q, self.now(), s1);
             }
-            if self.t >= self.c.opt.horizon_s * (1.0 - 1e-15) {
+            if self.now() >= self.c.opt.horizon_s * (1.0 - 1e-15) {
                 self.stop(EndReason::Horizon, Some(mode), "battery".into());
                 return true;
             }
@@ -584,10 +786,12 @@ impl<'a> Sim<'a> {
                     let total = st.duration().min(left);
                     let n = ((total / pass) * (1.0 + 1e-12)).floor();
                     let tail = (total - n * pass).max(0.0);
-                    if self.passes(inner, pass, n as u64) {
+                    if self.passes(inner, pass, n) {
                         return true;
                     }
-                    if tail > 1e-9 * pass && self.steps(inner, tail) {
+                    // The last pass, cut short where the block's duration ends (however short
+                    // against a pass: a block shorter than its body runs part of one pass).
+                    if tail > 1e-12 * total && self.steps(inner, tail) {
                         return true;
                     }
                     left -= total;

@@ -1,112 +1,140 @@
-//! The fast solver's pass skipping: after an exact pass, many passes at once at mid-stretch
-//! rates, the polarization relaxed toward its periodic value, and the stopping pass found by
-//! bisection on the number of skipped passes.
+//! The fast solver's pass skipping, with error control: after an exact pass, many passes at once
+//! at the rates of a pass simulated in the middle of the stretch (second order in the state of
+//! charge), the polarization relaxed toward its periodic value. The stretch is halved until the
+//! middle pass's rates agree with the rates at its start (so the rates are nearly linear over
+//! it), and whenever the pass after it (or the middle pass) stops the product, so that the last
+//! passes before the end are always executed exactly. Pass counts are `f64` (whole numbers):
+//! a profile of nanosecond steps may need more passes than a `u64` holds.
 
 #[allow(clippy::wildcard_imports)]
 use super::*;
+use crate::solve::tolerance::SKIP_RATE_REL;
 
 impl<'a> Sim<'a> {
     /// Advance `k` passes of length `pass` at the rates of `delta`.
-    pub(super) fn advance(&mut self, k: u64, pass: f64, delta: &Delta) {
-        let kf = k as f64;
-        self.t += kf * pass;
-        self.s -= kf * delta.ds;
-        self.ledger.add_scaled(&delta.ledger, kf);
+    pub(super) fn advance(&mut self, k: f64, pass: f64, delta: &Delta) {
+        self.t.add(k * pass);
+        self.s.add(-k * delta.ds);
+        self.ledger.add_scaled(&delta.ledger, k);
         // Polarization relaxes toward its periodic value over the skipped passes.
-        let decay = delta.decay.powf(kf);
+        let decay = delta.decay.powf(k);
         self.vp = delta.vp_star + (self.vp - delta.vp_star) * decay;
     }
 
-    /// How many passes the fast solver may skip after a pass that changed things by `delta`.
-    pub(super) fn plan_skip(&self, delta: &Delta, remaining: u64, pass: f64) -> u64 {
-        let to_horizon = ((self.c.opt.horizon_s - self.t) / pass).floor() - 1.0;
+    /// How many passes the fast solver may skip after a pass that changed things by `delta`,
+    /// with `remaining` passes of the block left.
+    pub(super) fn plan_skip(&self, delta: &Delta, remaining: f64, pass: f64) -> f64 {
+        let to_horizon = ((self.c.opt.horizon_s - self.now()) / pass).floor() - 1.0;
         let mut k = if delta.ds > 0.0 {
             let by_ds = (SKIP_MAX_DS / delta.ds).floor();
-            let by_empty = (self.s / delta.ds).floor() - 2.0;
+            let by_empty = (self.soc() / delta.ds).floor() - 2.0;
             by_ds.min(by_empty)
         } else if self.c.opt.exact || delta.ds < 0.0 {
-            return 0;
+            return 0.0;
         } else {
             // Nothing changes from pass to pass: skip to the horizon.
             f64::INFINITY
         };
-        k = k.min(to_horizon).min(remaining.saturating_sub(1) as f64);
+        k = k.min(to_horizon).min(remaining - 1.0);
         if k.is_finite() && k > 0.0 {
-            k as u64
+            k.floor()
         } else {
-            0
+            0.0
         }
     }
 
-    /// Execute `n` passes of `steps` (each `pass` seconds); true if the product stopped.
-    pub(super) fn passes(&mut self, steps: &[Step], pass: f64, n: u64) -> bool {
-        let mut done = 0u64;
+    /// Execute `n` passes (a whole number, possibly infinite) of `steps`, each `pass` seconds;
+    /// true if the product stopped.
+    pub(super) fn passes(&mut self, steps: &[Step], pass: f64, n: f64) -> bool {
+        let mut done = 0.0;
         let mut last: Option<Delta> = None;
+        // Passes within which a skip found the product stopping (from the current state).
+        let mut stop_within: Option<f64> = None;
         while done < n {
             if let Some(delta) = last.as_ref() {
-                let k = self.plan_skip(delta, n - done, pass);
+                let mut k = self.plan_skip(delta, n - done, pass);
+                if let Some(c) = stop_within {
+                    k = k.min(c);
+                }
                 let allowed = !self.c.opt.exact || delta.ds == 0.0;
-                if allowed && k >= SKIP_MIN_PASSES {
-                    match self.skip(steps, pass, k, delta) {
+                if allowed && k >= SKIP_MIN_PASSES as f64 {
+                    let mut found = None;
+                    match self.skip(steps, pass, k, delta, &mut found) {
                         None => return true,
                         Some((j, d)) => {
                             done += j;
                             last = Some(d);
+                            stop_within =
+                                found.or(stop_within).map(|c| c - j).filter(|&c| c >= 1.0);
                             continue;
                         }
                     }
                 }
             }
-            let before = self.mark();
-            if self.steps(steps, pass) {
+            let Some(delta) = self.run_pass(steps, pass) else {
                 return true;
-            }
-            last = Some(Delta::between(&before, self, pass));
-            done += 1;
+            };
+            last = Some(delta);
+            done += 1.0;
+            stop_within = stop_within.map(|c| c - 1.0).filter(|&c| c >= 1.0);
             if let Some(report) = self.c.progress {
                 let s0 = self.c.d.pack.start_soc;
-                let used = if s0 > 0.0 { 1.0 - self.s / s0 } else { 0.0 };
-                report(used.max(self.t / self.c.opt.horizon_s).clamp(0.0, 1.0));
+                let used = if s0 > 0.0 { 1.0 - self.soc() / s0 } else { 0.0 };
+                report(used.max(self.now() / self.c.opt.horizon_s).clamp(0.0, 1.0));
             }
         }
         false
     }
 
-    /// Skip `k` passes then execute one; `None` if the product stopped, else the passes done and
-    /// the last pass's changes.
+    /// Skip at most `k` passes, then execute one; `None` if the product stopped, else the passes
+    /// done and the last pass's changes. `delta` holds the rates at the start of the stretch.
+    ///
+    /// The stretch is halved (and the middle pass simulated again) while
+    /// - the middle pass's fall in state of charge differs from the start's by more than
+    ///   [`SKIP_RATE_REL`] (the rates bend too much for one mid-stretch rate), or
+    /// - the middle pass, or the pass after the stretch, stops the product; `stop_within` then
+    ///   records within how many passes of the start the product stops, for the caller's next
+    ///   stretches.
+    ///
+    /// Below [`SKIP_MIN_PASSES`] the pass is executed exactly.
     pub(super) fn skip(
         &mut self,
         steps: &[Step],
         pass: f64,
-        k: u64,
+        mut k: f64,
         delta: &Delta,
-    ) -> Option<(u64, Delta)> {
-        let base = self.clone();
-        // Rates of a pass in the middle of the stretch (second-order in SoC).
-        let h = k / 2;
-        let mut mid = base.clone();
-        mid.advance(h, pass, delta);
-        let mm = mid.mark();
-        if mid.steps(steps, pass) {
-            return self.finish_within(&base, steps, pass, delta, h);
-        }
-        let rates = Delta::between(&mm, &mid, pass);
-        if rates.ds.is_nan() || (rates.ds <= 0.0 && delta.ds > 0.0) {
-            // A pass in the middle that gains charge cannot be extrapolated: go pass by pass.
-            let before = self.mark();
-            if self.steps(steps, pass) {
-                return None;
+        stop_within: &mut Option<f64>,
+    ) -> Option<(f64, Delta)> {
+        let min = SKIP_MIN_PASSES as f64;
+        while k >= min && !self.c.failed() {
+            let h = (k / 2.0).floor();
+            let mut mid = self.clone();
+            mid.advance(h, pass, delta);
+            let Some(rates) = mid.run_pass(steps, pass) else {
+                *stop_within = Some(h + 1.0);
+                k = h;
+                continue;
+            };
+            if rates.ds.is_nan() || (rates.ds <= 0.0 && delta.ds > 0.0) {
+                // A pass in the middle that gains charge cannot be extrapolated: pass by pass.
+                break;
             }
-            return Some((1, Delta::between(&before, self, pass)));
+            if (rates.ds - delta.ds).abs() > SKIP_RATE_REL * delta.ds.abs() {
+                k = h;
+                continue;
+            }
+            let mut trial = self.clone();
+            trial.advance(k, pass, &rates);
+            let Some(done) = trial.run_pass(steps, pass) else {
+                *stop_within = Some(k + 1.0);
+                k = h;
+                continue;
+            };
+            trial.trace_skipped(self, steps, pass, k, &rates);
+            *self = trial;
+            return Some((k + 1.0, done));
         }
-        self.advance(k, pass, &rates);
-        let before = self.mark();
-        if self.steps(steps, pass) {
-            return self.finish_within(&base, steps, pass, &rates, k);
-        }
-        let done = Delta::between(&before, self, pass);
-        self.trace_skipped(&base, steps, pass, k, &rates);
-        Some((k + 1, done))
+        self.run_pass(steps, pass).map(|d| (1.0, d))
     }
 
     /// With a trace, fill the skipped stretch: passes simulated at a few places inside it (from
@@ -117,55 +145,24 @@ impl<'a> Sim<'a> {
         base: &Sim<'a>,
         steps: &[Step],
         pass: f64,
-        k: u64,
+        k: f64,
         rates: &Delta,
     ) {
         if self.tracer.is_none() {
             return;
         }
-        let probes = TRACE_PROBES_PER_SKIP.min(k);
-        for j in 1..probes {
+        let probes = (TRACE_PROBES_PER_SKIP as f64).min(k);
+        let mut j = 1.0;
+        while j < probes {
             let mut probe = base.clone();
-            probe.advance(j * k / probes, pass, rates);
+            probe.advance((j * k / probes).floor(), pass, rates);
             probe.steps(steps, pass);
             if let (Some(mine), Some(theirs)) = (&mut self.tracer, &probe.tracer) {
                 for p in theirs.points() {
                     mine.offer(p);
                 }
             }
+            j += 1.0;
         }
-    }
-
-    /// The product stopped during the pass after `kmax` skipped passes from `base`: find the
-    /// first pass that stops it and execute it exactly.
-    pub(super) fn finish_within(
-        &mut self,
-        base: &Sim<'a>,
-        steps: &[Step],
-        pass: f64,
-        delta: &Delta,
-        kmax: u64,
-    ) -> Option<(u64, Delta)> {
-        let stops = |j: u64| {
-            let mut probe = base.clone();
-            probe.advance(j, pass, delta);
-            probe.steps(steps, pass)
-        };
-        let (mut lo, mut hi) = (0u64, kmax);
-        while lo < hi {
-            let m = lo + (hi - lo) / 2;
-            if stops(m) {
-                hi = m;
-            } else {
-                lo = m + 1;
-            }
-        }
-        *self = base.clone();
-        self.advance(lo, pass, delta);
-        let before = self.mark();
-        if self.steps(steps, pass) {
-            return None;
-        }
-        Some((lo + 1, Delta::between(&before, self, pass)))
     }
 }
