@@ -49,7 +49,7 @@ impl Sum2 {
             self.lo = lo;
         } else {
             // Overflow or NaN: keep the plain sum so the caller sees it.
-            self.hi = self.hi + x;
+            self.hi += x;
             self.lo = 0.0;
         }
     }

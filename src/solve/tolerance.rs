@@ -25,11 +25,11 @@ pub const SKIP_MAX_DS: f64 = 0.04;
 /// Passes simulated inside each skipped stretch to give a trace its points there (they change
 /// nothing else).
 pub const TRACE_PROBES_PER_SKIP: u64 = 12;
-/// Error control of a skipped stretch: the largest relative difference between the fall in state
-/// of charge of the pass at its start and of the pass in its middle; beyond it the stretch is
-/// halved. With the rates nearly linear over the stretch, the mid-stretch rate is second-order
-/// accurate (the midpoint rule).
-pub const SKIP_RATE_REL: f64 = 0.01;
+/// Error control of a skipped stretch: the largest difference between Simpson's rule and the
+/// midpoint rule over the stretch, k |r0 - 2 rm + rk| / 6, as a share of the stretch's fall in
+/// state of charge (k rm); beyond it the stretch is halved. The stretch is then taken at
+/// Simpson's rates, whose own error is of higher order.
+pub const SKIP_REL_ERR: f64 = 2e-4;
 /// Fewest passes worth skipping.
 pub const SKIP_MIN_PASSES: u64 = 3;
 /// A step whose pack voltage moves by less than this share takes its start point as its mean

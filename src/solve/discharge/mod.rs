@@ -440,6 +440,21 @@ struct Delta {
 }
 
 impl Delta {
+    /// Simpson's weighting of the rates at the start, middle and end of a stretch:
+    /// (a + 4 m + b) / 6; polarization as in the middle.
+    fn simpson(a: &Delta, m: &Delta, b: &Delta) -> Delta {
+        let mut ledger = m.ledger.clone();
+        ledger.add_scaled(&m.ledger, -1.0 / 3.0);
+        ledger.add_scaled(&a.ledger, 1.0 / 6.0);
+        ledger.add_scaled(&b.ledger, 1.0 / 6.0);
+        Delta {
+            ds: (a.ds + 4.0 * m.ds + b.ds) / 6.0,
+            decay: m.decay,
+            vp_star: m.vp_star,
+            ledger,
+        }
+    }
+
     /// The changes of a pass of length `pass` that started at (`s0`, `vp0`) and ended in
     /// `after`, with `ledger` the pass's own totals.
     fn of(s0: Sum2, vp0: f64, after: &Sim, pass: f64, ledger: Ledger) -> Self {

@@ -1,14 +1,14 @@
 //! The fast solver's pass skipping, with error control: after an exact pass, many passes at once
 //! at the rates of a pass simulated in the middle of the stretch (second order in the state of
-//! charge), the polarization relaxed toward its periodic value. The stretch is halved until the
-//! middle pass's rates agree with the rates at its start (so the rates are nearly linear over
-//! it), and whenever the pass after it (or the middle pass) stops the product, so that the last
-//! passes before the end are always executed exactly. Pass counts are `f64` (whole numbers):
+//! charge), the polarization relaxed toward its periodic value, then at Simpson's rates from the
+//! passes at its start, middle and end. The stretch is halved while Simpson and the midpoint rule
+//! differ by more than a set share, and whenever a simulated pass stops the product, so that the
+//! last passes before the end are always executed exactly. Pass counts are `f64` (whole numbers):
 //! a profile of nanosecond steps may need more passes than a `u64` holds.
 
 #[allow(clippy::wildcard_imports)]
 use super::*;
-use crate::solve::tolerance::SKIP_RATE_REL;
+use crate::solve::tolerance::SKIP_REL_ERR;
 
 impl<'a> Sim<'a> {
     /// Advance `k` passes of length `pass` at the rates of `delta`.
@@ -89,12 +89,14 @@ impl<'a> Sim<'a> {
     /// Skip at most `k` passes, then execute one; `None` if the product stopped, else the passes
     /// done and the last pass's changes. `delta` holds the rates at the start of the stretch.
     ///
-    /// The stretch is halved (and the middle pass simulated again) while
-    /// - the middle pass's fall in state of charge differs from the start's by more than
-    ///   [`SKIP_RATE_REL`] (the rates bend too much for one mid-stretch rate), or
-    /// - the middle pass, or the pass after the stretch, stops the product; `stop_within` then
-    ///   records within how many passes of the start the product stops, for the caller's next
-    ///   stretches.
+    /// The rates of a pass in the middle of the stretch carry the state to its end, where a pass
+    /// is simulated too. With the rates at start, middle and end, Simpson's rule gives the
+    /// stretch's totals, and the difference from the midpoint rule, k |r0 - 2 rm + rk| / 6,
+    /// estimates the error; beyond [`SKIP_REL_ERR`] of the stretch's fall in state of charge the
+    /// stretch is halved. It is halved too whenever a simulated pass stops the product;
+    /// `stop_within` then records within how many passes of the start the product stops, so the
+    /// caller's next stretches end before it and the last passes run exactly. The accepted
+    /// stretch is advanced at Simpson's rates and the pass after it executed.
     ///
     /// Below [`SKIP_MIN_PASSES`] the pass is executed exactly.
     pub(super) fn skip(
@@ -110,19 +112,28 @@ impl<'a> Sim<'a> {
             let h = (k / 2.0).floor();
             let mut mid = self.clone();
             mid.advance(h, pass, delta);
-            let Some(rates) = mid.run_pass(steps, pass) else {
+            let Some(rm) = mid.run_pass(steps, pass) else {
                 *stop_within = Some(h + 1.0);
                 k = h;
                 continue;
             };
-            if rates.ds.is_nan() || (rates.ds <= 0.0 && delta.ds > 0.0) {
+            if rm.ds.is_nan() || (rm.ds <= 0.0 && delta.ds > 0.0) {
                 // A pass in the middle that gains charge cannot be extrapolated: pass by pass.
                 break;
             }
-            if (rates.ds - delta.ds).abs() > SKIP_RATE_REL * delta.ds.abs() {
+            let mut probe = self.clone();
+            probe.advance(k, pass, &rm);
+            let Some(rk) = probe.run_pass(steps, pass) else {
+                *stop_within = Some(k + 1.0);
+                k = h;
+                continue;
+            };
+            let bend = (delta.ds - 2.0 * rm.ds + rk.ds).abs() / 6.0;
+            if bend.is_nan() || bend > SKIP_REL_ERR * rm.ds.abs() {
                 k = h;
                 continue;
             }
+            let rates = Delta::simpson(delta, &rm, &rk);
             let mut trial = self.clone();
             trial.advance(k, pass, &rates);
             let Some(done) = trial.run_pass(steps, pass) else {
