@@ -471,8 +471,9 @@ mod agreement {
 
     /// A pulsed design that ends near the pack's power limit: a constant-power burst between
     /// `frac` 0.5 and 1.1 of the maximum power the cell gives at its empty OCV (V^2 / 4R, maximum
-    /// power transfer), an OCV curve that falls steeply over its last percent, and a start state
-    /// of charge anywhere from 3 % to full.
+    /// power transfer), an OCV curve that falls steeply over its last 3 %, a start state of
+    /// charge anywhere from 3 % to full, and runs from tens to tens of thousands of passes (the
+    /// fast solver skips from 2000 on).
     #[derive(Debug, Clone)]
     struct Edge {
         start: f64,
@@ -484,6 +485,7 @@ mod agreement {
         sleep_s: f64,
         cut: f64,
         stage: bool,
+        mah: f64,
     }
 
     fn edges() -> impl Strategy<Value = Edge> {
@@ -496,9 +498,10 @@ mod agreement {
             (2.0f64..60.0, 0.5f64..8.0),
             0.0f64..0.3,
             any::<bool>(),
+            0.5f64..30.0,
         )
             .prop_map(
-                |(start, frac, r, steep, pol, (burst_ms, sleep_s), cut, stage)| Edge {
+                |(start, frac, r, steep, pol, (burst_ms, sleep_s), cut, stage, mah)| Edge {
                     start,
                     frac,
                     r,
@@ -508,6 +511,7 @@ mod agreement {
                     sleep_s,
                     cut,
                     stage,
+                    mah,
                 },
             )
     }
@@ -519,7 +523,8 @@ mod agreement {
         let p_max = lo * lo / (4.0 * g.r);
         let p = g.frac * p_max;
         let mut s = format!(
-            "cells:\n  c:\n    capacity: 0.5 mAh\n    ocv: [[0 %, {lo} V], [3 %, {knee} V], [100 %, 3.0 V]]\n    resistance: {} Ω\n    cutoff: {} V\n",
+            "cells:\n  c:\n    capacity: {} mAh\n    ocv: [[0 %, {lo} V], [3 %, {knee} V], [100 %, 3.0 V]]\n    resistance: {} Ω\n    cutoff: {} V\n",
+            g.mah,
             g.r,
             1.0 + g.cut
         );
@@ -551,9 +556,12 @@ mod agreement {
     }
 
     fn edge_config() -> Config {
+        // `JOULEPATH_AGREEMENT_CASES=2000` and a seed in `JOULEPATH_AGREEMENT_SEED` for a longer
+        // search than CI's.
+        let env = |k: &str| std::env::var(k).ok().and_then(|v| v.parse::<u64>().ok());
         Config {
-            cases: 48,
-            rng_seed: RngSeed::Fixed(0x6564_6765),
+            cases: env("JOULEPATH_AGREEMENT_CASES").map_or(48, |c| c as u32),
+            rng_seed: RngSeed::Fixed(env("JOULEPATH_AGREEMENT_SEED").unwrap_or(0x6564_6765)),
             failure_persistence: None,
             ..Config::default()
         }

@@ -28,7 +28,8 @@ use super::point::{OperatingPoint, PackState, Solution, StageState, solve_point}
 use super::sum2::Sum2;
 use super::tolerance::{
     END_BISECT_ITER, MEAN_POINT_REL, SKIP_MAX_DS, SKIP_MIN_PASSES, STEP_MAX_DS_EXACT,
-    STEP_MAX_DS_FAST, TRACE_BUCKETS, TRACE_PROBES_PER_SKIP, WORK_LIMIT_EXACT, WORK_LIMIT_FAST,
+    STEP_MAX_DS_FAST, STEP_MAX_DVP_EXACT, STEP_MAX_DVP_FAST, TRACE_BUCKETS, TRACE_PROBES_PER_SKIP,
+    WORK_LIMIT_EXACT, WORK_LIMIT_FAST,
 };
 use crate::model::{Design, Step};
 
@@ -344,7 +345,9 @@ struct Ctx<'a> {
     pol: Option<(f64, f64)>,
     i_self: f64,
     cutoff: f64,
-    max_ds: f64,
+    /// Whether steps are as fine as the reference's: always in the reference, and in the fast
+    /// solver once the run is found to last few passes (each pass then weighs in the runtime).
+    fine: Cell<bool>,
     /// [mode][stage]: whether something below the stage draws in that mode.
     draws_below: Vec<Vec<bool>>,
     /// Each load's maximum supply.
@@ -386,16 +389,30 @@ impl<'a> Ctx<'a> {
             pol: d.pack.polarization(opt.ambient_c),
             i_self: d.pack.self_discharge_a(),
             cutoff: d.pack.cutoff_v(),
-            max_ds: if opt.exact {
-                STEP_MAX_DS_EXACT
-            } else {
-                STEP_MAX_DS_FAST
-            },
+            fine: Cell::new(opt.exact),
             draws_below,
             v_max: d.loads.iter().map(|l| l.v_max).collect(),
             work: Cell::new(0),
             solve_cost: 1 + (d.stages.len() + d.loads.len()) as u64,
             fault: RefCell::new(None),
+        }
+    }
+
+    /// Largest fall in state of charge within one held step.
+    fn max_ds(&self) -> f64 {
+        if self.fine.get() {
+            STEP_MAX_DS_EXACT
+        } else {
+            STEP_MAX_DS_FAST
+        }
+    }
+
+    /// Largest move of the polarization voltage within one step, as a share of the pack voltage.
+    fn max_dvp(&self) -> f64 {
+        if self.fine.get() {
+            STEP_MAX_DVP_EXACT
+        } else {
+            STEP_MAX_DVP_FAST
         }
     }
 
@@ -440,17 +457,17 @@ struct Delta {
 }
 
 impl Delta {
-    /// Simpson's weighting of the rates at the start, middle and end of a stretch:
-    /// (a + 4 m + b) / 6; polarization as in the middle.
-    fn simpson(a: &Delta, m: &Delta, b: &Delta) -> Delta {
-        let mut ledger = m.ledger.clone();
-        ledger.add_scaled(&m.ledger, -1.0 / 3.0);
-        ledger.add_scaled(&a.ledger, 1.0 / 6.0);
-        ledger.add_scaled(&b.ledger, 1.0 / 6.0);
+    /// The weighted sum of three passes' changes (weights summing to 1); polarization as in the
+    /// last (the end of a stretch, where the state lands).
+    fn blend(parts: [(f64, &Delta); 3]) -> Delta {
+        let mut ledger = parts[1].1.ledger.clone();
+        ledger.add_scaled(&parts[1].1.ledger, parts[1].0 - 1.0);
+        ledger.add_scaled(&parts[0].1.ledger, parts[0].0);
+        ledger.add_scaled(&parts[2].1.ledger, parts[2].0);
         Delta {
-            ds: (a.ds + 4.0 * m.ds + b.ds) / 6.0,
-            decay: m.decay,
-            vp_star: m.vp_star,
+            ds: parts.iter().map(|(w, d)| w * d.ds).sum(),
+            decay: parts[2].1.decay,
+            vp_star: parts[2].1.vp_star,
             ledger,
         }
     }
@@ -579,7 +596,7 @@ impl<'a> Sim<'a> {
         let (sm, vm) = self.mean_state(start.pack.current, rate, dt);
         // A step so short that the pack barely moves: the start point is the mean point (the
         // reference always solves the mean state).
-        let rel = if self.c.opt.exact {
+        let rel = if self.c.fine.get() {
             0.0
         } else {
             MEAN_POINT_REL
@@ -637,6 +654,22 @@ impl<'a> Sim<'a> {
             }
         }
         self.offer_trace(p, self.now(), self.soc());
+    }
+
+    /// The longest step from `p` over which the polarization voltage moves by at most
+    /// `max_dvp` of the pack voltage: with V_p relaxing toward I R1, the change over dt is
+    /// |I R1 - V_p| (1 - e^(-dt / tau)). A strong, fast polarization branch under a pulse is then
+    /// followed in several steps rather than one held current.
+    fn polarization_step(&self, p: &OperatingPoint) -> f64 {
+        let Some((r1, tau)) = self.c.pol else {
+            return f64::INFINITY;
+        };
+        let gap = (p.pack.current * r1 - self.vp).abs();
+        let allowed = self.c.max_dvp() * p.pack.voltage.abs();
+        if gap <= allowed || !(gap.is_finite() && allowed > 0.0) {
+            return f64::INFINITY;
+        }
+        -tau * (-allowed / gap).ln_1p()
     }
 
     /// Whether the run must stop without a result: a fault already recorded, the work limit
@@ -713,8 +746,9 @@ impl<'a> Sim<'a> {
             }
             let mut dt = left.min(self.c.opt.horizon_s - self.now());
             if rate0 > 0.0 {
-                dt = dt.min(self.c.max_ds / rate0);
+                dt = dt.min(self.c.max_ds() / rate0);
             }
+            dt = dt.min(self.polarization_step(&p));
             let pm = self.mean_point(mode, &p, rate0, dt);
             let i = pm.pack.current;
             let rate = self.rate(i);

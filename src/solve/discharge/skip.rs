@@ -8,7 +8,7 @@
 
 #[allow(clippy::wildcard_imports)]
 use super::*;
-use crate::solve::tolerance::SKIP_REL_ERR;
+use crate::solve::tolerance::{SKIP_MIN_RUN_PASSES, SKIP_REL_ERR};
 
 impl<'a> Sim<'a> {
     /// Advance `k` passes of length `pass` at the rates of `delta`.
@@ -26,6 +26,14 @@ impl<'a> Sim<'a> {
     pub(super) fn plan_skip(&self, delta: &Delta, remaining: f64, pass: f64) -> f64 {
         let to_horizon = ((self.c.opt.horizon_s - self.now()) / pass).floor() - 1.0;
         let mut k = if delta.ds > 0.0 {
+            // A run of few passes is executed pass by pass with the reference's steps: its end
+            // falls on a pass, and one pass more or less would be more than the 0.2 % the fast
+            // solver promises.
+            let run_passes = self.now() / pass + self.soc() / delta.ds;
+            if run_passes < SKIP_MIN_RUN_PASSES {
+                self.c.fine.set(true);
+                return 0.0;
+            }
             let by_ds = (SKIP_MAX_DS / delta.ds).floor();
             let by_empty = (self.soc() / delta.ds).floor() - 2.0;
             by_ds.min(by_empty)
@@ -90,10 +98,10 @@ impl<'a> Sim<'a> {
     /// done and the last pass's changes. `delta` holds the rates at the start of the stretch.
     ///
     /// The rates of a pass in the middle of the stretch carry the state to its end, where a pass
-    /// is simulated too. With the rates at start, middle and end, Simpson's rule gives the
-    /// stretch's totals, and the difference from the midpoint rule, k |r0 - 2 rm + rk| / 6,
-    /// estimates the error; beyond [`SKIP_REL_ERR`] of the stretch's fall in state of charge the
-    /// stretch is halved. It is halved too whenever a simulated pass stops the product;
+    /// is simulated too. The pass before the stretch, the middle one and the one after it give
+    /// the rates at three places; the stretch is taken at the mean of the parabola through them
+    /// ([`stretch_weights`]), and the parabola's departure from a straight line estimates the
+    /// error: beyond [`SKIP_REL_ERR`] of a pass's fall in state of charge the stretch is halved. It is halved too whenever a simulated pass stops the product;
     /// `stop_within` then records within how many passes of the start the product stops, so the
     /// caller's next stretches end before it and the last passes run exactly. The accepted
     /// stretch is advanced at Simpson's rates and the pass after it executed.
@@ -108,11 +116,25 @@ impl<'a> Sim<'a> {
         stop_within: &mut Option<f64>,
     ) -> Option<(f64, Delta)> {
         let min = SKIP_MIN_PASSES as f64;
+        // The start node: the pass before the stretch (at -1/2), or, when its polarization was
+        // still far from periodic, the first pass run again from the periodic value (at 1/2).
+        let mut x0 = -0.5;
+        let mut first = delta.clone();
+        if self.c.pol.is_some() && (self.vp - delta.vp_star).abs() > 1e-3 * delta.vp_star.abs() {
+            let mut again = self.clone();
+            again.vp = delta.vp_star;
+            if let Some(r) = again.run_pass(steps, pass) {
+                first = r;
+                x0 = 0.5;
+            }
+        }
+        let delta = &first;
         while k >= min && !self.c.failed() {
             let h = (k / 2.0).floor();
             let mut mid = self.clone();
             mid.advance(h, pass, delta);
-            let Some(rm) = mid.run_pass(steps, pass) else {
+            let start_mid = mid.clone();
+            let Some(mut rm) = mid.run_pass(steps, pass) else {
                 *stop_within = Some(h + 1.0);
                 k = h;
                 continue;
@@ -121,19 +143,36 @@ impl<'a> Sim<'a> {
                 // A pass in the middle that gains charge cannot be extrapolated: pass by pass.
                 break;
             }
+            if self.c.pol.is_some() && (rm.vp_star - start_mid.vp).abs() > 1e-3 * rm.vp_star.abs() {
+                // The middle pass started from the periodic polarization of the start's currents;
+                // near the power limit the current is steep in V_p, so run it again from its own
+                // periodic value.
+                let mut again = start_mid;
+                again.vp = rm.vp_star;
+                let Some(r) = again.run_pass(steps, pass) else {
+                    *stop_within = Some(h + 1.0);
+                    k = h;
+                    continue;
+                };
+                rm = r;
+            }
+            // The end pass starts from the periodic polarization extrapolated along the stretch.
+            let mut toward_end = rm.clone();
+            toward_end.vp_star = rm.vp_star + (rm.vp_star - delta.vp_star) * (k - h) / (h + 1.0);
             let mut probe = self.clone();
             probe.advance(k, pass, &rm);
+            probe.vp += (toward_end.vp_star - rm.vp_star) * (1.0 - rm.decay.powf(k));
             let Some(rk) = probe.run_pass(steps, pass) else {
                 *stop_within = Some(k + 1.0);
                 k = h;
                 continue;
             };
-            let bend = (delta.ds - 2.0 * rm.ds + rk.ds).abs() / 6.0;
+            let (w, bend) = stretch_weights(x0, h, k, [delta.ds, rm.ds, rk.ds]);
             if bend.is_nan() || bend > SKIP_REL_ERR * rm.ds.abs() {
                 k = h;
                 continue;
             }
-            let rates = Delta::simpson(delta, &rm, &rk);
+            let rates = Delta::blend([(w[0], delta), (w[1], &rm), (w[2], &rk)]);
             let mut trial = self.clone();
             trial.advance(k, pass, &rates);
             let Some(done) = trial.run_pass(steps, pass) else {
@@ -174,6 +213,57 @@ impl<'a> Sim<'a> {
                 }
             }
             j += 1.0;
+        }
+    }
+}
+
+/// Weights of the passes at the start (before the stretch at `x0` = -1/2, or its first at 1/2),
+/// in the middle (at `h`) and after (at `k`) a stretch of passes 0..k for the stretch's mean
+/// rate, and the size of the curvature term in it.
+///
+/// # Formula
+///
+/// Pass j covers [j, j + 1] and its changes are the rate at its middle, so the nodes are
+/// x = x0, h + 1/2, k + 1/2. The mean over [0, k] of the parabola through them is
+/// sum_i w_i r_i with w_i the mean of the Lagrange basis polynomial L_i over [0, k] (Simpson's
+/// rule on the quadratic L_i, exact). The curvature term is that mean minus the mean of the
+/// straight line through the outer nodes.
+fn stretch_weights(x0: f64, h: f64, k: f64, r: [f64; 3]) -> ([f64; 3], f64) {
+    let x = [x0, h + 0.5, k + 0.5];
+    let basis = |i: usize, t: f64| {
+        let (a, b) = ((i + 1) % 3, (i + 2) % 3);
+        (t - x[a]) * (t - x[b]) / ((x[i] - x[a]) * (x[i] - x[b]))
+    };
+    let mean = |i: usize| (basis(i, 0.0) + 4.0 * basis(i, 0.5 * k) + basis(i, k)) / 6.0;
+    let w = [mean(0), mean(1), mean(2)];
+    let quad: f64 = w.iter().zip(&r).map(|(w, r)| w * r).sum();
+    let line = r[0] + (r[2] - r[0]) * (0.5 * k - x[0]) / (x[2] - x[0]);
+    (w, (quad - line).abs())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::stretch_weights;
+
+    #[test]
+    fn stretch_weights_integrate_quadratics_exactly() {
+        // The mean over [0, k] of 2 + 3x - 0.1x^2 is 2 + 3k/2 - 0.1k^2/3.
+        let f = |x: f64| 2.0 + 3.0 * x - 0.1 * x * x;
+        for (h, k) in [(1.0, 3.0), (5.0, 11.0), (500.0, 1000.0)] {
+            let r = [f(-0.5), f(h + 0.5), f(k + 0.5)];
+            let (w, bend) = stretch_weights(-0.5, h, k, r);
+            let mean: f64 = w.iter().zip(&r).map(|(w, r)| w * r).sum();
+            let want = 2.0 + 1.5 * k - 0.1 * k * k / 3.0;
+            assert!(
+                (mean - want).abs() < 1e-9 * want.abs(),
+                "{h} {k}: {mean} vs {want}"
+            );
+            assert!((w.iter().sum::<f64>() - 1.0).abs() < 1e-12);
+            assert!(bend > 0.0);
+            // A straight line has no curvature term.
+            let g = |x: f64| 1.0 + 0.5 * x;
+            let (_, flat) = stretch_weights(0.5, h, k, [g(0.5), g(h + 0.5), g(k + 0.5)]);
+            assert!(flat < 1e-9 * g(k), "{flat}");
         }
     }
 }
