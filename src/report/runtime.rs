@@ -215,19 +215,11 @@ pub fn energy_sentences(r: &RunResult) -> Vec<String> {
         fmt_eng(r.average_power_w(), "W"),
     )];
     if let Some(share) = l.load_share_of_cell_energy() {
-        let mut s = format!(
+        out.push(format!(
             "the loads took {}: {} of the energy from the cells",
             wh(l.load_energy_total()),
             fmt_percent(share)
-        );
-        if r.stored_energy_j > 0.0 {
-            s.push_str(&format!(
-                " and {} of the {} stored, which also counts what stayed in the cells",
-                fmt_percent(l.load_energy_total() / r.stored_energy_j),
-                wh(r.stored_energy_j)
-            ));
-        }
-        out.push(s);
+        ));
     }
     out
 }
