@@ -97,13 +97,19 @@ fn csv_quotes_ids_with_commas() {
     let peak = column(&h, "peak_mode");
     assert!(rows.iter().any(|r| r[peak] == "glow, bright"), "{rows:?}");
     // compare: the title holds a comma.
-    let (h, rows) = csv_of(&d, &["compare", "{file}", "{file}", "--set", "battery.parallel=2"]);
+    let (h, rows) = csv_of(
+        &d,
+        &["compare", "{file}", "{file}", "--set", "battery.parallel=2"],
+    );
     let title = column(&h, "title");
     assert!(rows.iter().all(|r| r[title] == "Lamp, with a comma"));
     assert_eq!(rows.len(), 2);
     // The trace parses too, five numbers a row.
     let (h, rows) = csv_of(&d, &["runtime", "{file}", "--trace"]);
-    assert_eq!(h, ["t_s", "soc", "open_circuit_v", "voltage_v", "current_a"]);
+    assert_eq!(
+        h,
+        ["t_s", "soc", "open_circuit_v", "voltage_v", "current_a"]
+    );
     assert!(rows.len() > 10);
     assert!(rows.iter().flatten().all(|x| x.parse::<f64>().is_ok()));
 }
@@ -122,13 +128,21 @@ fn runtime_csv_carries_the_runtime_and_the_end() {
         .find(|r| r[column(&h, "element")] == "run")
         .expect("a run row");
     let num = |name: &str| run[column(&h, name)].parse::<f64>().unwrap();
-    assert!(close(num("runtime_s"), v["runtime_s"].as_f64().unwrap(), 1e-12));
+    assert!(close(
+        num("runtime_s"),
+        v["runtime_s"].as_f64().unwrap(),
+        1e-12
+    ));
     assert!(close(
         num("ideal_runtime_s"),
         v["ideal_runtime_s"].as_f64().unwrap(),
         1e-12
     ));
-    assert!(close(num("end_soc"), v["end"]["soc"].as_f64().unwrap(), 1e-12));
+    assert!(close(
+        num("end_soc"),
+        v["end"]["soc"].as_f64().unwrap(),
+        1e-12
+    ));
     assert_eq!(run[column(&h, "end_reason")], v["end"]["reason"]);
     assert_eq!(run[column(&h, "end_subject")], v["end"]["subject"]);
     assert_eq!(run[column(&h, "end_mode")], v["end"]["mode"]);
@@ -163,8 +177,9 @@ fn runtime_trace_in_a_table_says_where_the_trace_is() {
         .len();
     let flat = table.split_whitespace().collect::<Vec<_>>().join(" ");
     assert!(
-        flat.contains(&format!("the trace ({points} points) is not shown in a table"))
-            && flat.contains("`--trace --format csv`")
+        flat.contains(&format!(
+            "the trace ({points} points) is not shown in a table"
+        )) && flat.contains("`--trace --format csv`")
             && flat.contains("`--trace --format json`"),
         "{table}"
     );
@@ -182,7 +197,15 @@ fn fit_cell_csv_is_a_table_of_the_fitted_cell() {
     let dir = crate::util::root().join("tests/data/fit");
     let low = format!("120 mA:{}", dir.join("synthetic-120mA.csv").display());
     let high = format!("600 mA:{}", dir.join("synthetic-600mA.csv").display());
-    let args = ["fit-cell", "--curve", &low, "--curve", &high, "--name", "pouch, fit"];
+    let args = [
+        "fit-cell",
+        "--curve",
+        &low,
+        "--curve",
+        &high,
+        "--name",
+        "pouch, fit",
+    ];
     let out = Test::new()
         .args(&[&args[..], &["--format", "csv"]].concat())
         .expect_code(0)
@@ -206,7 +229,11 @@ fn fit_cell_csv_is_a_table_of_the_fitted_cell() {
             assert!(close(x, t[key].as_f64().unwrap(), 1e-12), "{col}");
         }
         let cap: f64 = r[column(&h, "capacity_ah")].parse().unwrap();
-        assert!(close(cap, v["report"]["capacity_ah"].as_f64().unwrap(), 1e-12));
+        assert!(close(
+            cap,
+            v["report"]["capacity_ah"].as_f64().unwrap(),
+            1e-12
+        ));
     }
 }
 
@@ -237,7 +264,11 @@ fn energy_from_the_cells_means_the_same_in_runtime_and_heat() {
     assert!(close(cell, terminal + pack_loss, 1e-9));
     assert!(pack_loss > 0.0 && cell > terminal);
     assert!(close(hj["cell_energy_wh"].as_f64().unwrap(), cell, 1e-12));
-    assert!(close(hj["terminal_energy_wh"].as_f64().unwrap(), terminal, 1e-12));
+    assert!(close(
+        hj["terminal_energy_wh"].as_f64().unwrap(),
+        terminal,
+        1e-12
+    ));
     for row in hj["ranking"].as_array().unwrap() {
         let share = row["share_of_cell_energy"].as_f64().unwrap();
         assert!(close(share * cell, row["loss_wh"].as_f64().unwrap(), 1e-9));
@@ -260,7 +291,10 @@ fn energy_from_the_cells_means_the_same_in_runtime_and_heat() {
     let of_cells = format!("{} of the energy from the cells", fmt_percent(loads / cell));
     assert!(flat.contains(&of_cells), "{of_cells:?} in\n{rt}");
     let ideal = rj["runtime_s"].as_f64().unwrap() / rj["ideal_runtime_s"].as_f64().unwrap();
-    let of_stored = format!("{} of the stored energy reached the loads", fmt_percent(ideal));
+    let of_stored = format!(
+        "{} of the stored energy reached the loads",
+        fmt_percent(ideal)
+    );
     assert!(flat.contains(&of_stored), "{of_stored:?} in\n{rt}");
     assert!(!flat.contains("of it reached the loads"));
 }
@@ -306,7 +340,9 @@ fn bypass_share_is_given_of_the_on_time_too() {
     // On one hour in 24 (the last day may be cut short), in bypass all that time.
     assert!((on / t - 1.0 / 24.0).abs() < 0.005, "{on} of {t}");
     assert!(close(bypass, on, 1e-9), "{bypass} vs {on}");
-    assert!(s["dropout_s"].as_f64().unwrap() == 0.0 && s["undervoltage_s"].as_f64().unwrap() == 0.0);
+    assert!(
+        s["dropout_s"].as_f64().unwrap() == 0.0 && s["undervoltage_s"].as_f64().unwrap() == 0.0
+    );
     let sensor = &v["loads"][0];
     assert!(close(sensor["on_s"].as_f64().unwrap(), on, 1e-9));
     assert!(close(sensor["above_max_s"].as_f64().unwrap(), on, 1e-9));
@@ -321,7 +357,8 @@ fn bypass_share_is_given_of_the_on_time_too() {
     let flat = table.split_whitespace().collect::<Vec<_>>().join(" ");
     let runtime_share = fmt_percent(on / t);
     for want in [
-        "`boost-3v3` is in bypass, passing the pack through instead of regulating, for ".to_string(),
+        "`boost-3v3` is in bypass, passing the pack through instead of regulating, for "
+            .to_string(),
         format!("100 % of the time it is on, {runtime_share} of the runtime"),
         "the supply of `sensor` is above its 3.40 V maximum".to_string(),
     ] {
@@ -336,7 +373,9 @@ fn bypass_share_is_given_of_the_on_time_too() {
     let flat = cmp.split_whitespace().collect::<Vec<_>>().join(" ");
     assert!(
         flat.contains("in A, `boost-3v3` is in bypass")
-            && flat.contains(&format!("100 % of the time it is on, {runtime_share} of the runtime")),
+            && flat.contains(&format!(
+                "100 % of the time it is on, {runtime_share} of the runtime"
+            )),
         "{cmp}"
     );
 }
@@ -374,14 +413,20 @@ fn compare_calls_runtimes_within_one_percent_equal() {
         ) && flat.contains("(0.4 % shorter)"),
         "{out}"
     );
-    assert!(!flat.contains("on runtime, B") && !flat.contains("wins"), "{out}");
+    assert!(
+        !flat.contains("on runtime, B") && !flat.contains("wins"),
+        "{out}"
+    );
     // 5 % apart: a winner.
     let t = Test::new().design(&steady("1000 mAh"));
     let far = format!("{}/far.yaml", t.dir().display());
     std::fs::write(&far, steady("1050 mAh")).unwrap();
     let out = t.args(&["compare", "{file}", &far]).expect_code(0).stdout;
     let flat = out.split_whitespace().collect::<Vec<_>>().join(" ");
-    assert!(flat.contains("on runtime, B (") && flat.contains(" wins: "), "{out}");
+    assert!(
+        flat.contains("on runtime, B (") && flat.contains(" wins: "),
+        "{out}"
+    );
     assert!(flat.contains("(4.8 % shorter)"), "{out}");
 }
 
@@ -399,5 +444,8 @@ fn compare_with_three_designs_names_the_tied_leaders() {
         flat.contains(" and B (") && flat.contains("lead, equal within the model's accuracy"),
         "{out}"
     );
-    assert!(flat.contains("for C (") && flat.contains("% shorter)"), "{out}");
+    assert!(
+        flat.contains("for C (") && flat.contains("% shorter)"),
+        "{out}"
+    );
 }

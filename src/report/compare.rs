@@ -335,7 +335,11 @@ fn ranked(
     }
     format!(
         "{topic}, {} {}, equal within the model's accuracy (less than {limit} apart): {}; against {}",
-        equal.iter().map(|&i| name(i)).collect::<Vec<_>>().join(" and "),
+        equal
+            .iter()
+            .map(|&i| name(i))
+            .collect::<Vec<_>>()
+            .join(" and "),
         words.lead,
         each(&equal),
         each(&behind)

@@ -253,7 +253,8 @@ pub fn write_heat(w: &mut dyn Write, d: &Design, r: &RunResult, format: Format) 
     }
 }
 
-fn capitalize(s: &str) -> String {
+/// `s` with its first letter in upper case.
+pub(crate) fn capitalize(s: &str) -> String {
     let mut c = s.chars();
     match c.next() {
         Some(f) => f.to_uppercase().collect::<String>() + c.as_str(),

@@ -26,7 +26,8 @@ pub trait CsvRow: Serialize {
 /// ```
 pub fn write_rows<T: CsvRow>(w: &mut dyn Write, rows: &[T]) -> io::Result<()> {
     debug_assert!(
-        rows.first().is_none_or(|r| header_of(r) == T::HEADER.join(",")),
+        rows.first()
+            .is_none_or(|r| header_of(r) == T::HEADER.join(",")),
         "CsvRow::HEADER differs from the serialised field names"
     );
     let mut out = csv::WriterBuilder::new()

@@ -87,10 +87,10 @@ impl Ledger {
             }
             self.load_on_s[l] += dt;
             if v_max
-                    .get(l)
-                    .copied()
-                    .flatten()
-                    .is_some_and(|m| lp.voltage > m)
+                .get(l)
+                .copied()
+                .flatten()
+                .is_some_and(|m| lp.voltage > m)
             {
                 self.load_high_s[l] += dt;
             }
