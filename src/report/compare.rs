@@ -303,7 +303,7 @@ fn ranked(
     let each = |v: &[usize]| {
         v.iter()
             .map(|&i| {
-                if i == b {
+                if i == b || !gap(i).is_finite() {
                     format!("{} for {}", value(i), letter(i))
                 } else {
                     format!(
