@@ -13,5 +13,6 @@ mod plots;
 mod presets;
 mod properties;
 mod reference;
+mod reports;
 mod runtime;
 mod schema;

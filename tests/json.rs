@@ -100,6 +100,7 @@ struct End {
 struct RunBattery {
     charge_ah: f64,
     energy_wh: f64,
+    cell_energy_wh: f64,
     average_current_a: f64,
     average_power_w: f64,
     loss_wh: f64,
@@ -114,6 +115,10 @@ struct RunStage {
     peak_loss_w: f64,
     peak_mode: Option<String>,
     max_junction_c: Option<f64>,
+    on_s: f64,
+    dropout_s: f64,
+    bypass_s: f64,
+    undervoltage_s: f64,
 }
 
 #[derive(Deserialize)]
@@ -121,6 +126,8 @@ struct RunStage {
 struct RunLoad {
     id: String,
     energy_wh: f64,
+    on_s: f64,
+    above_max_s: f64,
 }
 
 #[derive(Deserialize)]
@@ -198,6 +205,25 @@ fn runtime_json_of_every_example_matches_the_contract() {
                 .iter()
                 .all(|v| KINDS.contains(&v.kind.as_str()) && v.t_s.is_some())
         );
+        // The energy from the cells is the energy at the terminals plus the pack's loss.
+        let b = &r.battery;
+        assert!(
+            (b.cell_energy_wh - (b.energy_wh + b.loss_wh)).abs() <= 1e-9 * b.cell_energy_wh,
+            "{}: {} vs {} + {}",
+            f.display(),
+            b.cell_energy_wh,
+            b.energy_wh,
+            b.loss_wh
+        );
+        // Times in a state fit within the time on, which fits within the runtime.
+        let slack = 1e-9 * r.runtime_s;
+        for s in &r.stages {
+            assert!(s.on_s <= r.runtime_s + slack, "{}: {}", f.display(), s.id);
+            assert!(s.dropout_s + s.bypass_s + s.undervoltage_s <= s.on_s + slack);
+        }
+        for l in &r.loads {
+            assert!(l.above_max_s <= l.on_s + slack && l.on_s <= r.runtime_s + slack);
+        }
         let trace = r.trace.expect("trace with --trace");
         assert!(!trace.is_empty());
         // Without --trace there is no `trace` key at all.

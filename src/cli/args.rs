@@ -74,7 +74,8 @@ pub enum Command {
         sets: Vec<String>,
         #[command(flatten)]
         run: RunArgs,
-        /// Add a decimated time series (t, SoC, OCV, V, I) that keeps the pulses' lowest voltages.
+        /// Add a decimated time series (t, SoC, OCV, V, I) that keeps the pulses' lowest voltages:
+        /// with `--format json` beside the result, with `--format csv` alone (a table leaves it out).
         #[arg(long)]
         trace: bool,
         /// Output format.
@@ -139,7 +140,8 @@ pub enum Command {
         /// End-of-discharge voltage (default the lowest final voltage of the curves), e.g. `3.0 V`.
         #[arg(long)]
         cutoff: Option<String>,
-        /// Output format: table (YAML block and report) or json.
+        /// Output format: table (YAML block and report), json (the cell and the report) or csv
+        /// (the fitted table, a row per state of charge).
         #[arg(long, value_enum, default_value_t = FormatArg::Table)]
         format: FormatArg,
         /// Write to this file instead of standard output.

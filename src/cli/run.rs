@@ -387,7 +387,8 @@ fn fit_cell(
                 .map_err(|e| Failure::Input(e.to_string()))?;
             writeln!(buf).map_err(io_fail)
         }
-        _ => {
+        Format::Csv => joulepath::fit::write_cell_csv(buf, &fit, name).map_err(io_fail),
+        Format::Table => {
             write!(buf, "{}", joulepath::fit::cell_yaml(&fit, name)).map_err(io_fail)?;
             writeln!(buf).map_err(io_fail)?;
             for line in joulepath::fit::report(&fit).to_string().lines() {

@@ -60,7 +60,10 @@ mod soc;
 
 pub use curve::{Curve, read_curve};
 pub use fitted::{CurveFit, Fit, Residual, SocPoint};
-pub use output::{CellEntry, CurveReport, FitJson, FitReport, cell_json, cell_yaml, report};
+pub use output::{
+    CellEntry, CurveReport, FitCsvRow, FitJson, FitReport, cell_csv_rows, cell_json, cell_yaml,
+    report, write_cell_csv,
+};
 pub use peukert::{peukert_factor, peukert_from_capacities, peukert_from_times};
 pub use soc::fit;
 

@@ -1,10 +1,12 @@
 //! The fitted cell as a `cells:` YAML block and as JSON, and the fit report.
 
 use std::fmt::{self, Write as _};
+use std::io;
 
 use serde::Serialize;
 
 use super::Fit;
+use crate::report::rows::{CsvRow, write_rows};
 use crate::units::{fmt_eng, fmt_percent, fmt_sig};
 
 /// The mapping of one cell under `cells: NAME:`, with every value written as in a design file.
@@ -263,6 +265,75 @@ pub fn cell_json(fit: &Fit, name: &str) -> FitJson {
         cell: entry(fit),
         report: report(fit),
     }
+}
+
+/// One row of `fit-cell --format csv`: one SoC point of the fitted tables, with the cell's
+/// scalar values repeated on every row so that the file describes the whole cell.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct FitCsvRow {
+    /// Cell name (the key under `cells:`).
+    pub name: String,
+    /// State of charge, 0..1.
+    pub soc: f64,
+    /// Open-circuit voltage, V.
+    pub ocv_v: f64,
+    /// Ohmic resistance, Ω.
+    pub resistance_ohm: f64,
+    /// Outside the SoC range every curve covers (OCV extrapolated, resistance held).
+    pub extrapolated: bool,
+    /// The OCV was levelled to keep the table non-decreasing.
+    pub ocv_levelled: bool,
+    /// The resistance was negative and is held at 0.
+    pub resistance_clamped: bool,
+    /// Rated capacity, Ah.
+    pub capacity_ah: f64,
+    /// Current of the rating, A.
+    pub rated_current_a: f64,
+    /// Peukert exponent.
+    pub peukert: f64,
+    /// Cutoff, V.
+    pub cutoff_v: f64,
+}
+
+impl CsvRow for FitCsvRow {
+    const HEADER: &'static [&'static str] = &[
+        "name",
+        "soc",
+        "ocv_v",
+        "resistance_ohm",
+        "extrapolated",
+        "ocv_levelled",
+        "resistance_clamped",
+        "capacity_ah",
+        "rated_current_a",
+        "peukert",
+        "cutoff_v",
+    ];
+}
+
+/// The rows of `fit-cell --format csv`, one per SoC point, unrounded.
+pub fn cell_csv_rows(fit: &Fit, name: &str) -> Vec<FitCsvRow> {
+    fit.table
+        .iter()
+        .map(|p| FitCsvRow {
+            name: name.to_string(),
+            soc: p.soc,
+            ocv_v: p.ocv_v,
+            resistance_ohm: p.resistance_ohm,
+            extrapolated: p.extrapolated,
+            ocv_levelled: p.ocv_adjusted,
+            resistance_clamped: p.resistance_clamped,
+            capacity_ah: fit.capacity_c / 3600.0,
+            rated_current_a: fit.rated_current_a,
+            peukert: fit.peukert,
+            cutoff_v: fit.cutoff_v,
+        })
+        .collect()
+}
+
+/// Write the fitted cell as CSV (see [`FitCsvRow`]).
+pub fn write_cell_csv(w: &mut dyn io::Write, fit: &Fit, name: &str) -> io::Result<()> {
+    write_rows(w, &cell_csv_rows(fit, name))
 }
 
 impl fmt::Display for FitReport {

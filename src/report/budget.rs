@@ -2,7 +2,10 @@
 
 use std::io::{self, Write};
 
+use serde::Serialize;
+
 use super::json::BudgetJson;
+use super::rows::{CsvRow, write_rows};
 use super::text::{Align, TextTable};
 use super::{CAUTION, Format, wrap};
 use crate::model::Design;
@@ -22,7 +25,7 @@ pub fn write_budget(
             serde_json::to_writer_pretty(&mut *w, &BudgetJson::new(d, soc, modes))?;
             writeln!(w)
         }
-        Format::Csv => write_csv(w, d, modes),
+        Format::Csv => write_rows(w, &budget_csv_rows(d, modes)),
         Format::Table => write_table(w, d, soc, modes),
     }
 }
@@ -147,76 +150,125 @@ fn write_table(w: &mut dyn Write, d: &Design, soc: f64, modes: &[ModeBudget]) ->
     Ok(())
 }
 
-/// CSV cell: numbers as they are, text quoted when it needs it.
-fn csv_text(s: &str) -> String {
-    if s.contains([',', '"', '\n']) {
-        format!("\"{}\"", s.replace('"', "\"\""))
-    } else {
-        s.to_string()
-    }
+/// One row of `budget --format csv`: the pack, a stage or a load in one mode. A load's supply
+/// voltage and current are in `vin_v` and `iin_a`. The pack's row
+/// holds its open-circuit voltage in `vin_v`, its current in `iin_a` and `iout_a`, its terminal
+/// voltage in `vout_v`, its terminal power in `power_w` and its internal loss in `loss_w`.
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct BudgetCsvRow {
+    /// Mode name.
+    pub mode: String,
+    /// `battery`, `stage` or `load`.
+    pub element: &'static str,
+    /// `battery`, the stage id or the load id.
+    pub id: String,
+    /// `pack`, the stage kind or `load`.
+    pub kind: String,
+    /// Stage state, load state, or for the pack `ok`, `below_cutoff` or `collapse`.
+    pub state: String,
+    /// Input voltage, V.
+    pub vin_v: Option<f64>,
+    /// Input current, A.
+    pub iin_a: Option<f64>,
+    /// Output voltage, V.
+    pub vout_v: Option<f64>,
+    /// Output current, A.
+    pub iout_a: Option<f64>,
+    /// Output power, W.
+    pub power_w: Option<f64>,
+    /// Loss, W.
+    pub loss_w: Option<f64>,
+    /// P_out / P_in.
+    pub efficiency: Option<f64>,
+    /// Junction temperature, °C.
+    pub junction_c: Option<f64>,
 }
 
-fn num(x: Option<f64>) -> String {
-    x.map_or_else(String::new, |v| format!("{v}"))
+impl CsvRow for BudgetCsvRow {
+    const HEADER: &'static [&'static str] = &[
+        "mode",
+        "element",
+        "id",
+        "kind",
+        "state",
+        "vin_v",
+        "iin_a",
+        "vout_v",
+        "iout_a",
+        "power_w",
+        "loss_w",
+        "efficiency",
+        "junction_c",
+    ];
 }
 
-fn write_csv(w: &mut dyn Write, d: &Design, modes: &[ModeBudget]) -> io::Result<()> {
-    writeln!(
-        w,
-        "mode,element,id,kind,state,vin_v,iin_a,vout_v,iout_a,power_w,loss_w,efficiency,junction_c"
-    )?;
+/// The rows of `budget --format csv`.
+pub fn budget_csv_rows(d: &Design, modes: &[ModeBudget]) -> Vec<BudgetCsvRow> {
+    let mut rows = Vec::new();
     for m in modes {
-        let mode = csv_text(&d.modes[m.mode].name);
+        let mode = d.modes[m.mode].name.clone();
+        let pack = |state: &str| BudgetCsvRow {
+            mode: mode.clone(),
+            element: "battery",
+            id: "battery".into(),
+            kind: "pack".into(),
+            state: state.into(),
+            ..BudgetCsvRow::default()
+        };
         let p = match &m.solution {
             Solution::Collapse { ocv, .. } => {
-                writeln!(w, "{mode},battery,battery,pack,collapse,{ocv},,,,,,,")?;
+                rows.push(BudgetCsvRow {
+                    vin_v: Some(*ocv),
+                    ..pack("collapse")
+                });
                 continue;
             }
             Solution::Point(p) => p,
         };
-        writeln!(
-            w,
-            "{mode},battery,battery,pack,{},{},{},{},{},{},{},,",
-            if p.pack.voltage < d.pack.cutoff_v() {
-                "below_cutoff"
-            } else {
-                "ok"
-            },
-            p.pack.ocv,
-            p.pack.current,
-            p.pack.voltage,
-            p.pack.current,
-            p.pack.power(),
-            p.pack.loss
-        )?;
+        let state = if p.pack.voltage < d.pack.cutoff_v() {
+            "below_cutoff"
+        } else {
+            "ok"
+        };
+        rows.push(BudgetCsvRow {
+            vin_v: Some(p.pack.ocv),
+            iin_a: Some(p.pack.current),
+            vout_v: Some(p.pack.voltage),
+            iout_a: Some(p.pack.current),
+            power_w: Some(p.pack.power()),
+            loss_w: Some(p.pack.loss),
+            ..pack(state)
+        });
         for (k, (s, sp)) in d.stages.iter().zip(&p.stages).enumerate() {
-            writeln!(
-                w,
-                "{mode},stage,{},{},{},{},{},{},{},{},{},{},{}",
-                csv_text(&s.id),
-                s.kind.name(),
-                sp.state.name(),
-                sp.vin,
-                sp.iin,
-                sp.vout,
-                sp.iout,
-                sp.vout * sp.iout,
-                sp.loss,
-                num(sp.efficiency()),
-                num(junction_c(d, k, sp.loss, d.ambient_c))
-            )?;
+            rows.push(BudgetCsvRow {
+                mode: mode.clone(),
+                element: "stage",
+                id: s.id.clone(),
+                kind: s.kind.name().into(),
+                state: sp.state.name().into(),
+                vin_v: Some(sp.vin),
+                iin_a: Some(sp.iin),
+                vout_v: Some(sp.vout),
+                iout_a: Some(sp.iout),
+                power_w: Some(sp.vout * sp.iout),
+                loss_w: Some(sp.loss),
+                efficiency: sp.efficiency(),
+                junction_c: junction_c(d, k, sp.loss, d.ambient_c),
+            });
         }
         for (l, lp) in d.loads.iter().zip(&p.loads) {
-            writeln!(
-                w,
-                "{mode},load,{},load,{},{},{},,,{},,,",
-                csv_text(&l.id),
-                csv_text(l.state_name(lp.state)),
-                lp.voltage,
-                lp.current,
-                lp.power
-            )?;
+            rows.push(BudgetCsvRow {
+                mode: mode.clone(),
+                element: "load",
+                id: l.id.clone(),
+                kind: "load".into(),
+                state: l.state_name(lp.state).into(),
+                vin_v: Some(lp.voltage),
+                iin_a: Some(lp.current),
+                power_w: Some(lp.power),
+                ..BudgetCsvRow::default()
+            });
         }
     }
-    Ok(())
+    rows
 }

@@ -5,6 +5,7 @@ use std::io::{self, Write};
 use serde::Serialize;
 
 use super::Format;
+use super::rows::{CsvRow, write_rows};
 use super::text::{Align, TextTable};
 use crate::model::{MONTH_S, Preset};
 use crate::units::{fmt_celsius, fmt_eng, fmt_percent, fmt_sig};
@@ -124,17 +125,20 @@ fn json(w: &mut dyn Write, presets: &[Preset]) -> io::Result<()> {
     writeln!(w)
 }
 
+impl CsvRow for CellJson {
+    const HEADER: &'static [&'static str] = &[
+        "name",
+        "chemistry",
+        "nominal_v",
+        "capacity_ah",
+        "energy_wh",
+        "cutoff_v",
+    ];
+}
+
 fn csv(w: &mut dyn Write, presets: &[Preset]) -> io::Result<()> {
-    writeln!(w, "name,chemistry,nominal_v,capacity_ah,energy_wh,cutoff_v")?;
-    for p in presets {
-        let c = CellJson::of(p);
-        writeln!(
-            w,
-            "{},{},{},{},{},{}",
-            c.name, c.chemistry, c.nominal_v, c.capacity_ah, c.energy_wh, c.cutoff_v
-        )?;
-    }
-    Ok(())
+    let rows: Vec<CellJson> = presets.iter().map(CellJson::of).collect();
+    write_rows(w, &rows)
 }
 
 fn table(w: &mut dyn Write, p: &Preset) -> io::Result<()> {

@@ -6,12 +6,20 @@ use std::io::{self, Write};
 use serde::Serialize;
 
 use super::json::RuntimeJson;
-use super::runtime::end_sentence;
+use super::rows::{CsvRow, write_rows};
+use super::runtime::{end_sentence, regulation_facts};
 use super::text::{Align, TextTable};
 use super::{CAUTION, Format, wrap};
 use crate::model::Design;
-use crate::solve::{RunResult, StageState, state_index};
+use crate::solve::RunResult;
 use crate::units::{fmt_duration, fmt_eng, fmt_percent};
+
+/// Relative difference below which two designs are called equal rather than one declared the
+/// winner (runtime, and energy lost): 1 %. The model's own uncertainty is of this order: the
+/// fast solver is held to 0.2 % of the chronological simulation, and datasheet values,
+/// efficiency curves and fitted cells carry more than that, so a smaller difference is not
+/// evidence that one design is better.
+pub const EQUAL_WITHIN: f64 = 0.01;
 
 /// One design of a comparison: its label (file and overrides), the design and its run.
 pub struct Entry<'a> {
@@ -90,8 +98,11 @@ fn write_table(w: &mut dyn Write, entries: &[Entry<'_>]) -> io::Result<()> {
     t.row(row("average pack current", &|e| {
         fmt_eng(e.run.average_current_a(), "A")
     }));
-    t.row(row("energy drawn", &|e| {
-        fmt_eng(e.run.ledger.energy_j / 3600.0, "Wh")
+    t.row(row("energy from the cells", &|e| {
+        fmt_eng(e.run.ledger.cell_energy_j() / 3600.0, "Wh")
+    }));
+    t.row(row("at the pack terminals", &|e| {
+        fmt_eng(e.run.ledger.terminal_energy_j() / 3600.0, "Wh")
     }));
     t.row(row("lost in the pack", &|e| {
         fmt_eng(e.run.ledger.pack_loss_j / 3600.0, "Wh")
@@ -175,23 +186,25 @@ pub fn verdicts(entries: &[Entry<'_>]) -> Vec<String> {
     };
     // Runtime.
     let r = best(&|e| e.run.runtime_s(), true);
-    let others: Vec<String> = (0..entries.len())
-        .filter(|&i| i != r)
-        .map(|i| {
-            let ti = entries[i].run.runtime_s();
-            format!(
-                "{} for {} ({:+.1} %)",
-                fmt_duration(ti),
-                letter(i),
-                100.0 * (entries[r].run.runtime_s() / ti - 1.0)
-            )
-        })
-        .collect();
-    out.push(format!(
-        "on runtime, {} wins: {} against {}",
-        name(r),
-        fmt_duration(entries[r].run.runtime_s()),
-        others.join(", ")
+    let runtime = |i: usize| entries[i].run.runtime_s();
+    out.push(ranked(
+        "on runtime",
+        r,
+        &|i| fmt_duration(runtime(i)),
+        &|i| {
+            if runtime(r) > 0.0 {
+                1.0 - runtime(i) / runtime(r)
+            } else {
+                0.0
+            }
+        },
+        &name,
+        &RankWords {
+            wins: "wins",
+            lead: "lead",
+            worse: "shorter",
+        },
+        entries.len(),
     ));
     for (i, e) in entries.iter().enumerate() {
         out.push(format!(
@@ -202,21 +215,27 @@ pub fn verdicts(entries: &[Entry<'_>]) -> Vec<String> {
     }
     // Heat.
     let h = best(&|e| total_loss(e.run), false);
-    let others: Vec<String> = (0..entries.len())
-        .filter(|&i| i != h)
-        .map(|i| {
-            format!(
-                "{} in {}",
-                fmt_eng(total_loss(entries[i].run) / 3600.0, "Wh"),
-                letter(i)
-            )
-        })
-        .collect();
-    out.push(format!(
-        "on heat, {} wastes least: {} lost in stages and pack against {}",
-        name(h),
-        fmt_eng(total_loss(entries[h].run) / 3600.0, "Wh"),
-        others.join(", ")
+    let lost = |i: usize| total_loss(entries[i].run);
+    out.push(ranked(
+        "on heat (energy lost in stages and pack)",
+        h,
+        &|i| fmt_eng(lost(i) / 3600.0, "Wh"),
+        &|i| {
+            if lost(h) > 0.0 {
+                lost(i) / lost(h) - 1.0
+            } else if lost(i) > 0.0 {
+                f64::INFINITY
+            } else {
+                0.0
+            }
+        },
+        &name,
+        &RankWords {
+            wins: "wastes least",
+            lead: "waste least",
+            worse: "more",
+        },
+        entries.len(),
     ));
     // Violations.
     let counts: Vec<usize> = entries.iter().map(|e| e.run.violations.len()).collect();
@@ -258,35 +277,89 @@ pub fn verdicts(entries: &[Entry<'_>]) -> Vec<String> {
     out
 }
 
-/// Facts that explain the differences: stages out of regulation, rails above a load's maximum,
-/// average converter efficiency.
+/// The verbs of a ranking: one design ahead, or several equal at the head.
+struct RankWords {
+    wins: &'static str,
+    lead: &'static str,
+    /// How a trailing design compares with the best (`shorter`, `more`).
+    worse: &'static str,
+}
+
+/// One ranking sentence. `gap(i)` is how far design `i` trails the best one `b`, as a fraction of
+/// the best's figure (0 for the best). Designs within [`EQUAL_WITHIN`] of the best are equal to it; when every design is,
+/// none wins.
+fn ranked(
+    topic: &str,
+    b: usize,
+    value: &dyn Fn(usize) -> String,
+    gap: &dyn Fn(usize) -> f64,
+    name: &dyn Fn(usize) -> String,
+    words: &RankWords,
+    n: usize,
+) -> String {
+    let limit = fmt_percent(EQUAL_WITHIN);
+    let (equal, behind): (Vec<usize>, Vec<usize>) = (0..n).partition(|&i| gap(i) < EQUAL_WITHIN);
+    // Each design's figure, and for all but the best how far it trails, e.g. `0.3 % shorter`.
+    let each = |v: &[usize]| {
+        v.iter()
+            .map(|&i| {
+                if i == b || !gap(i).is_finite() {
+                    format!("{} for {}", value(i), letter(i))
+                } else {
+                    format!(
+                        "{} for {} ({:.1} % {})",
+                        value(i),
+                        letter(i),
+                        100.0 * gap(i),
+                        words.worse
+                    )
+                }
+            })
+            .collect::<Vec<_>>()
+            .join(", ")
+    };
+    if behind.is_empty() {
+        return format!(
+            "{topic}, the designs are equal within the model's accuracy (they differ by less than {limit}): {}",
+            each(&equal)
+        );
+    }
+    if equal.len() == 1 {
+        return format!(
+            "{topic}, {} {}: {} against {}",
+            name(b),
+            words.wins,
+            value(b),
+            each(&behind)
+        );
+    }
+    format!(
+        "{topic}, {} {}, equal within the model's accuracy (less than {limit} apart): {}; against {}",
+        equal
+            .iter()
+            .map(|&i| name(i))
+            .collect::<Vec<_>>()
+            .join(" and "),
+        words.lead,
+        each(&equal),
+        each(&behind)
+    )
+}
+
+/// Facts that explain the differences: stages out of regulation, rails above a load's maximum
+/// (each as a share of the runtime and of the time the stage or load is on), average converter
+/// efficiency.
 fn facts(entries: &[Entry<'_>]) -> Vec<String> {
     let mut out = Vec::new();
     for (i, e) in entries.iter().enumerate() {
-        let t = e.run.runtime_s();
-        if t <= 0.0 {
+        if e.run.runtime_s() <= 0.0 {
             continue;
+        }
+        for f in regulation_facts(e.design, e.run) {
+            out.push(format!("in {}, {}", letter(i), f.sentence()));
         }
         let l = &e.run.ledger;
         for (k, st) in e.design.stages.iter().enumerate() {
-            for (state, what) in [
-                (
-                    StageState::Bypass,
-                    "in bypass, passing the pack through instead of regulating",
-                ),
-                (StageState::Dropout, "in dropout, below its setpoint"),
-                (StageState::Undervoltage, "locked out by undervoltage"),
-            ] {
-                let share = l.stage_state_s[k][state_index(state)] / t;
-                if share >= 0.01 {
-                    out.push(format!(
-                        "in {}, `{}` spends {} of the runtime {what}",
-                        letter(i),
-                        st.id,
-                        fmt_percent(share)
-                    ));
-                }
-            }
             let (o, loss) = (l.stage_out_j[k], l.stage_loss_j[k]);
             if st.kind.is_switching() && o > 0.0 {
                 out.push(format!(
@@ -298,44 +371,77 @@ fn facts(entries: &[Entry<'_>]) -> Vec<String> {
                 ));
             }
         }
-        for (k, load) in e.design.loads.iter().enumerate() {
-            let share = l.load_high_s[k] / t;
-            if share >= 0.001 {
-                out.push(format!(
-                    "in {}, the supply of `{}` is above its {} maximum for {} of the runtime",
-                    letter(i),
-                    load.id,
-                    load.v_max
-                        .map_or_else(|| "rated".into(), |v| fmt_eng(v, "V")),
-                    fmt_percent(share)
-                ));
-            }
-        }
     }
     out
 }
 
+/// One row of `compare --format csv`: one design.
+#[derive(Debug, Clone, Serialize)]
+pub struct CompareCsvRow {
+    /// Its letter in the comparison (A, B, ...).
+    pub design: String,
+    /// The file and its `--set` overrides.
+    pub label: String,
+    /// The design's title.
+    pub title: String,
+    /// Runtime, s.
+    pub runtime_s: f64,
+    /// Why it stopped.
+    pub end_reason: &'static str,
+    /// State of charge then, 0..1.
+    pub end_soc: f64,
+    /// Mean pack current, A.
+    pub average_current_a: f64,
+    /// Energy at the pack terminals, Wh.
+    pub energy_wh: f64,
+    /// Energy from the cells (terminals + the pack's internal loss), Wh.
+    pub cell_energy_wh: f64,
+    /// The pack's internal loss, Wh.
+    pub pack_loss_wh: f64,
+    /// Loss in all stages, Wh.
+    pub stage_loss_wh: f64,
+    /// Number of violations.
+    pub violations: usize,
+}
+
+impl CsvRow for CompareCsvRow {
+    const HEADER: &'static [&'static str] = &[
+        "design",
+        "label",
+        "title",
+        "runtime_s",
+        "end_reason",
+        "end_soc",
+        "average_current_a",
+        "energy_wh",
+        "cell_energy_wh",
+        "pack_loss_wh",
+        "stage_loss_wh",
+        "violations",
+    ];
+}
+
 fn write_csv(w: &mut dyn Write, entries: &[Entry<'_>]) -> io::Result<()> {
-    writeln!(
-        w,
-        "design,label,runtime_s,end_reason,end_soc,average_current_a,energy_wh,pack_loss_wh,stage_loss_wh,violations"
-    )?;
-    for (i, e) in entries.iter().enumerate() {
-        let l = &e.run.ledger;
-        writeln!(
-            w,
-            "{},\"{}\",{},{},{},{},{},{},{},{}",
-            letter(i),
-            e.label.replace('"', "\"\""),
-            e.run.runtime_s(),
-            e.run.end.reason.name(),
-            e.run.end.soc,
-            e.run.average_current_a(),
-            l.energy_j / 3600.0,
-            l.pack_loss_j / 3600.0,
-            l.stage_loss_total() / 3600.0,
-            e.run.violations.len()
-        )?;
-    }
-    Ok(())
+    let rows: Vec<CompareCsvRow> = entries
+        .iter()
+        .enumerate()
+        .map(|(i, e)| {
+            let l = &e.run.ledger;
+            CompareCsvRow {
+                design: letter(i),
+                label: e.label.clone(),
+                title: e.design.title.clone(),
+                runtime_s: e.run.runtime_s(),
+                end_reason: e.run.end.reason.name(),
+                end_soc: e.run.end.soc,
+                average_current_a: e.run.average_current_a(),
+                energy_wh: l.terminal_energy_j() / 3600.0,
+                cell_energy_wh: l.cell_energy_j() / 3600.0,
+                pack_loss_wh: l.pack_loss_j / 3600.0,
+                stage_loss_wh: l.stage_loss_total() / 3600.0,
+                violations: e.run.violations.len(),
+            }
+        })
+        .collect();
+    write_rows(w, &rows)
 }

@@ -6,6 +6,7 @@ use std::io::{self, Write};
 
 use serde::Serialize;
 
+use super::rows::{CsvRow, write_rows};
 use super::text::{Align, TextTable};
 use super::{CAUTION, Format, wrap};
 use crate::model::Design;
@@ -23,8 +24,9 @@ pub struct HeatRow {
     pub loss_wh: f64,
     /// Share of all losses (stages and pack), 0..1.
     pub share_of_losses: f64,
-    /// Share of the energy drawn from the cells' open-circuit voltage, 0..1.
-    pub share_of_drawn: f64,
+    /// Share of the energy from the cells (open-circuit voltage x current, the pack's internal
+    /// loss included), 0..1.
+    pub share_of_cell_energy: f64,
     /// Highest loss in any phase, W (for the pack: the mean; its peak is not tracked).
     pub peak_loss_w: Option<f64>,
     /// That phase's mode.
@@ -40,15 +42,57 @@ pub struct HeatJson {
     pub design: String,
     /// Runtime, s.
     pub runtime_s: f64,
+    /// Energy from the cells over the run, Wh: the energy at the pack terminals plus the pack's
+    /// internal loss (the base of `share_of_cell_energy`).
+    pub cell_energy_wh: f64,
+    /// Energy at the pack terminals over the run, Wh.
+    pub terminal_energy_wh: f64,
     /// Ranked, most heat first.
     pub ranking: Vec<HeatRow>,
+}
+
+/// One row of `heat --format csv`: a [`HeatRow`] with its rank.
+#[derive(Debug, Clone, Serialize)]
+pub struct HeatCsvRow {
+    /// 1 for the biggest waster.
+    pub rank: usize,
+    /// `battery` or the stage id.
+    pub id: String,
+    /// `pack` or the stage kind.
+    pub kind: String,
+    /// Energy lost, Wh.
+    pub loss_wh: f64,
+    /// Share of all losses, 0..1.
+    pub share_of_losses: f64,
+    /// Share of the energy from the cells, 0..1.
+    pub share_of_cell_energy: f64,
+    /// Highest loss in any phase, W.
+    pub peak_loss_w: Option<f64>,
+    /// That phase's mode.
+    pub peak_mode: Option<String>,
+    /// Highest junction temperature, °C.
+    pub max_junction_c: Option<f64>,
+}
+
+impl CsvRow for HeatCsvRow {
+    const HEADER: &'static [&'static str] = &[
+        "rank",
+        "id",
+        "kind",
+        "loss_wh",
+        "share_of_losses",
+        "share_of_cell_energy",
+        "peak_loss_w",
+        "peak_mode",
+        "max_junction_c",
+    ];
 }
 
 /// The ranking of a run: stages and the pack, most energy lost first.
 pub fn heat_ranking(d: &Design, r: &RunResult) -> Vec<HeatRow> {
     let l = &r.ledger;
     let total = l.stage_loss_total() + l.pack_loss_j;
-    let drawn = l.ocv_energy_j;
+    let from_cells = l.cell_energy_j();
     let share = |x: f64, of: f64| if of > 0.0 { x / of } else { 0.0 };
     let mut rows: Vec<HeatRow> = d
         .stages
@@ -59,7 +103,7 @@ pub fn heat_ranking(d: &Design, r: &RunResult) -> Vec<HeatRow> {
             kind: s.kind.name().into(),
             loss_wh: l.stage_loss_j[k] / 3600.0,
             share_of_losses: share(l.stage_loss_j[k], total),
-            share_of_drawn: share(l.stage_loss_j[k], drawn),
+            share_of_cell_energy: share(l.stage_loss_j[k], from_cells),
             peak_loss_w: Some(r.peaks[k].loss_w),
             peak_mode: r.peaks[k].mode.map(|m| d.modes[m].name.clone()),
             max_junction_c: junction_c(d, k, r.peaks[k].loss_w, r.ambient_c),
@@ -70,7 +114,7 @@ pub fn heat_ranking(d: &Design, r: &RunResult) -> Vec<HeatRow> {
         kind: "pack".into(),
         loss_wh: l.pack_loss_j / 3600.0,
         share_of_losses: share(l.pack_loss_j, total),
-        share_of_drawn: share(l.pack_loss_j, drawn),
+        share_of_cell_energy: share(l.pack_loss_j, from_cells),
         peak_loss_w: None,
         peak_mode: None,
         max_junction_c: None,
@@ -91,11 +135,11 @@ pub fn heat_sentence(d: &Design, r: &RunResult, rows: &[HeatRow]) -> String {
         ),
         (Some(s), pack) => {
             let mut text = format!(
-                "`{}` wastes the most heat: {} over the {runtime} runtime, {} of all losses and {} of the energy drawn",
+                "`{}` wastes the most heat: {} over the {runtime} runtime, {} of all losses and {} of the energy from the cells",
                 s.id,
                 fmt_eng(s.loss_wh, "Wh"),
                 fmt_percent(s.share_of_losses),
-                fmt_percent(s.share_of_drawn)
+                fmt_percent(s.share_of_cell_energy)
             );
             if let (Some(tj), Some(st)) = (s.max_junction_c, d.stages.iter().find(|x| x.id == s.id))
             {
@@ -127,33 +171,30 @@ pub fn write_heat(w: &mut dyn Write, d: &Design, r: &RunResult, format: Format) 
             let j = HeatJson {
                 design: d.title.clone(),
                 runtime_s: r.runtime_s(),
+                cell_energy_wh: r.ledger.cell_energy_j() / 3600.0,
+                terminal_energy_wh: r.ledger.terminal_energy_j() / 3600.0,
                 ranking: rows,
             };
             serde_json::to_writer_pretty(&mut *w, &j)?;
             writeln!(w)
         }
         Format::Csv => {
-            writeln!(
-                w,
-                "rank,id,kind,loss_wh,share_of_losses,share_of_drawn,peak_loss_w,peak_mode,max_junction_c"
-            )?;
-            for (i, x) in rows.iter().enumerate() {
-                let opt = |v: Option<f64>| v.map_or_else(String::new, |v| v.to_string());
-                writeln!(
-                    w,
-                    "{},{},{},{},{},{},{},{},{}",
-                    i + 1,
-                    x.id,
-                    x.kind,
-                    x.loss_wh,
-                    x.share_of_losses,
-                    x.share_of_drawn,
-                    opt(x.peak_loss_w),
-                    x.peak_mode.clone().unwrap_or_default(),
-                    opt(x.max_junction_c)
-                )?;
-            }
-            Ok(())
+            let rows: Vec<HeatCsvRow> = rows
+                .into_iter()
+                .enumerate()
+                .map(|(i, x)| HeatCsvRow {
+                    rank: i + 1,
+                    id: x.id,
+                    kind: x.kind,
+                    loss_wh: x.loss_wh,
+                    share_of_losses: x.share_of_losses,
+                    share_of_cell_energy: x.share_of_cell_energy,
+                    peak_loss_w: x.peak_loss_w,
+                    peak_mode: x.peak_mode,
+                    max_junction_c: x.max_junction_c,
+                })
+                .collect();
+            write_rows(w, &rows)
         }
         Format::Table => {
             for line in wrap(&format!("{}.", capitalize(&heat_sentence(d, r, &rows))), 96) {
@@ -166,7 +207,7 @@ pub fn write_heat(w: &mut dyn Write, d: &Design, r: &RunResult, format: Format) 
                 ("kind", Align::Left),
                 ("lost", Align::Right),
                 ("of losses", Align::Right),
-                ("of drawn", Align::Right),
+                ("of cell energy", Align::Right),
                 ("peak", Align::Right),
                 ("in mode", Align::Left),
                 ("Tj max", Align::Right),
@@ -178,7 +219,7 @@ pub fn write_heat(w: &mut dyn Write, d: &Design, r: &RunResult, format: Format) 
                     x.kind.clone(),
                     fmt_eng(x.loss_wh, "Wh"),
                     fmt_percent(x.share_of_losses),
-                    fmt_percent(x.share_of_drawn),
+                    fmt_percent(x.share_of_cell_energy),
                     x.peak_loss_w
                         .map_or_else(|| "—".into(), |v| fmt_eng(v, "W")),
                     x.peak_mode.clone().unwrap_or_else(|| "—".into()),
@@ -194,6 +235,16 @@ pub fn write_heat(w: &mut dyn Write, d: &Design, r: &RunResult, format: Format) 
                 fmt_duration(r.runtime_s()),
                 fmt_celsius(r.ambient_c)
             )?;
+            let l = &r.ledger;
+            let note = format!(
+                "Energy from the cells: {} (open-circuit voltage x current: {} at the pack terminals and {} lost inside the pack); \"of cell energy\" is a share of it.",
+                fmt_eng(l.cell_energy_j() / 3600.0, "Wh"),
+                fmt_eng(l.terminal_energy_j() / 3600.0, "Wh"),
+                fmt_eng(l.pack_loss_j / 3600.0, "Wh")
+            );
+            for line in wrap(&note, 96) {
+                writeln!(w, "{line}")?;
+            }
             for line in wrap(CAUTION, 96) {
                 writeln!(w, "{line}")?;
             }
@@ -202,7 +253,8 @@ pub fn write_heat(w: &mut dyn Write, d: &Design, r: &RunResult, format: Format) 
     }
 }
 
-fn capitalize(s: &str) -> String {
+/// `s` with its first letter in upper case.
+pub(crate) fn capitalize(s: &str) -> String {
     let mut c = s.chars();
     match c.next() {
         Some(f) => f.to_uppercase().collect::<String>() + c.as_str(),

@@ -6,10 +6,10 @@ use std::fmt::Write as _;
 use std::io::{self, Write};
 
 use super::CAUTION;
-use super::heat::{heat_ranking, heat_sentence};
+use super::heat::{capitalize, heat_ranking, heat_sentence};
 use super::outline::write_outline;
 use super::plot::{self, PlotFormat};
-use super::runtime::end_sentence;
+use super::runtime::{end_sentence, energy_sentences};
 use crate::model::Design;
 use crate::solve::{ModeBudget, RunResult, Solution, junction_c};
 use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent};
@@ -240,21 +240,15 @@ fn runtime_section(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<(
     if let Some(ideal) = r.ideal_runtime_s() {
         writeln!(
             w,
-            "<p>Ideal runtime {} (the stored energy at the loads' mean power): {} of it reached the loads.</p>",
+            "<p>Ideal runtime {} (the stored energy at the loads' mean power): {} of the stored energy reached the loads.</p>",
             esc(&fmt_duration(ideal)),
             esc(&fmt_percent(t / ideal))
         )?;
     }
     let l = &r.ledger;
-    writeln!(
-        w,
-        "<p>Pack: {} and {} drawn, average {} and {}, {} lost inside.</p>",
-        esc(&fmt_eng(l.charge_c / 3600.0, "Ah")),
-        esc(&fmt_eng(l.energy_j / 3600.0, "Wh")),
-        esc(&fmt_eng(r.average_current_a(), "A")),
-        esc(&fmt_eng(r.average_power_w(), "W")),
-        esc(&fmt_eng(l.pack_loss_j / 3600.0, "Wh"))
-    )?;
+    for sentence in energy_sentences(r) {
+        writeln!(w, "<p>{}.</p>", prose(&capitalize(&sentence)))?;
+    }
     if !d.loads.is_empty() {
         let total = l.load_energy_total();
         let rows: Vec<Vec<String>> = d

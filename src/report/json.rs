@@ -4,7 +4,9 @@
 use serde::Serialize;
 
 use crate::model::Design;
-use crate::solve::{ModeBudget, RunResult, Solution, Violation, junction_c};
+use crate::solve::{
+    ModeBudget, RunResult, Solution, StageState, TracePoint, Violation, junction_c,
+};
 
 /// `budget --format json`.
 #[derive(Debug, Serialize)]
@@ -232,8 +234,11 @@ pub struct EndJson {
 pub struct RunBatteryJson {
     /// Integral of the pack current.
     pub charge_ah: f64,
-    /// Energy delivered at the terminals.
+    /// Energy at the pack terminals (terminal voltage x current).
     pub energy_wh: f64,
+    /// Energy from the cells (open-circuit voltage x current): the energy at the terminals plus
+    /// the pack's internal loss.
+    pub cell_energy_wh: f64,
     /// Mean current.
     pub average_current_a: f64,
     /// Mean terminal power.
@@ -257,6 +262,14 @@ pub struct RunStageJson {
     pub peak_mode: Option<String>,
     /// Highest junction temperature (null without theta_ja).
     pub max_junction_c: Option<f64>,
+    /// Time the stage was on (any state but `off`).
+    pub on_s: f64,
+    /// Time in dropout.
+    pub dropout_s: f64,
+    /// Time in bypass.
+    pub bypass_s: f64,
+    /// Time locked out by undervoltage.
+    pub undervoltage_s: f64,
 }
 
 /// Load totals of a run.
@@ -266,6 +279,10 @@ pub struct RunLoadJson {
     pub id: String,
     /// Energy taken.
     pub energy_wh: f64,
+    /// Time the load was on (its rail live, its state not `off`).
+    pub on_s: f64,
+    /// Time it was on with its supply above its maximum.
+    pub above_max_s: f64,
 }
 
 /// One trace point.
@@ -301,7 +318,8 @@ impl RuntimeJson {
             },
             battery: RunBatteryJson {
                 charge_ah: r.ledger.charge_c / 3600.0,
-                energy_wh: wh(r.ledger.energy_j),
+                energy_wh: wh(r.ledger.terminal_energy_j()),
+                cell_energy_wh: wh(r.ledger.cell_energy_j()),
                 average_current_a: r.average_current_a(),
                 average_power_w: r.average_power_w(),
                 loss_wh: wh(r.ledger.pack_loss_j),
@@ -321,6 +339,10 @@ impl RuntimeJson {
                     peak_loss_w: r.peaks[k].loss_w,
                     peak_mode: mode_name(r.peaks[k].mode),
                     max_junction_c: junction_c(d, k, r.peaks[k].loss_w, r.ambient_c),
+                    on_s: r.ledger.stage_on_s(k),
+                    dropout_s: r.ledger.stage_time_s(k, StageState::Dropout),
+                    bypass_s: r.ledger.stage_time_s(k, StageState::Bypass),
+                    undervoltage_s: r.ledger.stage_time_s(k, StageState::Undervoltage),
                 })
                 .collect(),
             loads: d
@@ -330,21 +352,24 @@ impl RuntimeJson {
                 .map(|(l, load)| RunLoadJson {
                     id: load.id.clone(),
                     energy_wh: wh(r.ledger.load_energy_j[l]),
+                    on_s: r.ledger.load_on_s[l],
+                    above_max_s: r.ledger.load_high_s[l],
                 })
                 .collect(),
             violations: r.violations.iter().map(ViolationJson::from).collect(),
-            trace: with_trace.then(|| {
-                r.trace
-                    .iter()
-                    .map(|p| TraceJson {
-                        t_s: p.t_s,
-                        soc: p.soc,
-                        open_circuit_v: p.ocv,
-                        voltage_v: p.voltage,
-                        current_a: p.current,
-                    })
-                    .collect()
-            }),
+            trace: with_trace.then(|| r.trace.iter().map(TraceJson::from).collect()),
+        }
+    }
+}
+
+impl From<&TracePoint> for TraceJson {
+    fn from(p: &TracePoint) -> Self {
+        Self {
+            t_s: p.t_s,
+            soc: p.soc,
+            open_circuit_v: p.ocv,
+            voltage_v: p.voltage,
+            current_a: p.current,
         }
     }
 }

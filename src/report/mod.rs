@@ -9,6 +9,7 @@ pub mod html;
 pub mod json;
 pub mod outline;
 pub mod plot;
+pub mod rows;
 pub mod runtime;
 pub mod text;
 

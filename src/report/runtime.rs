@@ -2,12 +2,19 @@
 
 use std::io::{self, Write};
 
-use super::json::RuntimeJson;
+use serde::Serialize;
+
+use super::json::{RuntimeJson, TraceJson};
+use super::rows::{CsvRow, write_rows};
 use super::text::{Align, TextTable};
 use super::{CAUTION, Format, wrap};
 use crate::model::Design;
-use crate::solve::{EndReason, RunResult, junction_c};
+use crate::solve::{EndReason, RunResult, StageState, junction_c};
 use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent};
+
+/// Least share of its on-time a stage spends out of regulation, or a load above its maximum
+/// supply, for the reports to state it (smaller shares are noise of the averaging).
+pub const FACT_SHARE: f64 = 0.01;
 
 /// Write the result of a run in `format`; with `trace`, JSON adds the trace and CSV is the trace.
 pub fn write_runtime(
@@ -22,9 +29,9 @@ pub fn write_runtime(
             serde_json::to_writer_pretty(&mut *w, &RuntimeJson::new(d, r, trace))?;
             writeln!(w)
         }
-        Format::Csv if trace => write_trace_csv(w, r),
-        Format::Csv => write_csv(w, d, r),
-        Format::Table => write_table(w, d, r),
+        Format::Csv if trace => write_rows(w, &trace_rows(r)),
+        Format::Csv => write_rows(w, &runtime_csv_rows(d, r)),
+        Format::Table => write_table(w, d, r, trace),
     }
 }
 
@@ -75,7 +82,7 @@ pub fn end_sentence(d: &Design, r: &RunResult) -> String {
     }
 }
 
-fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<()> {
+fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult, trace: bool) -> io::Result<()> {
     let t = r.runtime_s();
     writeln!(w, "{}", d.title)?;
     writeln!(
@@ -88,24 +95,24 @@ fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<()> {
         writeln!(w, "{line}")?;
     }
     if let Some(ideal) = r.ideal_runtime_s() {
-        writeln!(
-            w,
-            "ideal runtime {} (the stored energy at the loads' mean power): {} of it reached the loads",
-            fmt_duration(ideal),
-            fmt_percent(t / ideal)
-        )?;
+        for line in wrap(
+            &format!(
+                "ideal runtime {} (the stored energy at the loads' mean power): {} of the stored energy reached the loads",
+                fmt_duration(ideal),
+                fmt_percent(t / ideal)
+            ),
+            96,
+        ) {
+            writeln!(w, "{line}")?;
+        }
     }
     let l = &r.ledger;
     writeln!(w)?;
-    writeln!(
-        w,
-        "pack: {} and {} drawn, average {} and {}, {} lost inside",
-        fmt_eng(l.charge_c / 3600.0, "Ah"),
-        fmt_eng(l.energy_j / 3600.0, "Wh"),
-        fmt_eng(r.average_current_a(), "A"),
-        fmt_eng(r.average_power_w(), "W"),
-        fmt_eng(l.pack_loss_j / 3600.0, "Wh")
-    )?;
+    for sentence in energy_sentences(r) {
+        for line in wrap(&sentence, 96) {
+            writeln!(w, "{line}")?;
+        }
+    }
     if !d.loads.is_empty() {
         let total = l.load_energy_total();
         let mut tl = TextTable::new(&[
@@ -156,6 +163,16 @@ fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<()> {
         writeln!(w)?;
         ts.write(w, "  ")?;
     }
+    let facts = regulation_facts(d, r);
+    if !facts.is_empty() {
+        writeln!(w)?;
+        writeln!(w, "out of regulation or above a load's maximum:")?;
+        for f in &facts {
+            for (i, line) in wrap(&f.sentence(), 92).iter().enumerate() {
+                writeln!(w, "{}{line}", if i == 0 { "  - " } else { "    " })?;
+            }
+        }
+    }
     if !r.violations.is_empty() {
         writeln!(w)?;
         writeln!(w, "violations (each at the time it first happened):")?;
@@ -170,6 +187,12 @@ fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<()> {
             )?;
         }
     }
+    if trace {
+        writeln!(w)?;
+        for line in wrap(&trace_note(r), 96) {
+            writeln!(w, "{line}")?;
+        }
+    }
     writeln!(w)?;
     for line in wrap(CAUTION, 96) {
         writeln!(w, "{line}")?;
@@ -177,47 +200,279 @@ fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<()> {
     Ok(())
 }
 
-fn write_csv(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<()> {
-    let t = r.runtime_s();
+/// Where the energy went, in the names every report uses: the energy from the cells (open-circuit
+/// voltage x current, the pack's internal loss included) and the energy at the pack terminals.
+pub fn energy_sentences(r: &RunResult) -> Vec<String> {
     let l = &r.ledger;
-    writeln!(
-        w,
-        "element,id,energy_wh,loss_wh,average_loss_w,peak_loss_w,peak_mode,max_junction_c"
-    )?;
-    writeln!(
-        w,
-        "battery,battery,{},{},{},,,",
-        l.energy_j / 3600.0,
-        l.pack_loss_j / 3600.0,
-        if t > 0.0 { l.pack_loss_j / t } else { 0.0 }
-    )?;
-    for (k, s) in d.stages.iter().enumerate() {
-        let p = r.peaks[k];
-        writeln!(
-            w,
-            "stage,{},,{},{},{},{},{}",
-            s.id,
-            l.stage_loss_j[k] / 3600.0,
-            if t > 0.0 { l.stage_loss_j[k] / t } else { 0.0 },
-            p.loss_w,
-            p.mode.map_or_else(String::new, |m| d.modes[m].name.clone()),
-            junction_c(d, k, p.loss_w, r.ambient_c).map_or_else(String::new, |v| v.to_string())
-        )?;
+    let wh = |j: f64| fmt_eng(j / 3600.0, "Wh");
+    let mut out = vec![format!(
+        "pack: {} drawn; {} from the cells, of which {} lost inside the pack and {} at the pack terminals; average {} and {} at the terminals",
+        fmt_eng(l.charge_c / 3600.0, "Ah"),
+        wh(l.cell_energy_j()),
+        wh(l.pack_loss_j),
+        wh(l.terminal_energy_j()),
+        fmt_eng(r.average_current_a(), "A"),
+        fmt_eng(r.average_power_w(), "W"),
+    )];
+    if let Some(share) = l.load_share_of_cell_energy() {
+        out.push(format!(
+            "the loads took {}: {} of the energy from the cells",
+            wh(l.load_energy_total()),
+            fmt_percent(share)
+        ));
     }
-    for (k, load) in d.loads.iter().enumerate() {
-        writeln!(w, "load,{},{},,,,,", load.id, l.load_energy_j[k] / 3600.0)?;
-    }
-    Ok(())
+    out
 }
 
-fn write_trace_csv(w: &mut dyn Write, r: &RunResult) -> io::Result<()> {
-    writeln!(w, "t_s,soc,open_circuit_v,voltage_v,current_a")?;
-    for p in &r.trace {
-        writeln!(
-            w,
-            "{},{},{},{},{}",
-            p.t_s, p.soc, p.ocv, p.voltage, p.current
-        )?;
+/// What the table says when `--trace` was given: the trace is in JSON and CSV only.
+fn trace_note(r: &RunResult) -> String {
+    format!(
+        "the trace ({} points) is not shown in a table: use `--trace --format csv` for the trace alone or `--trace --format json` for the result with its trace",
+        r.trace.len()
+    )
+}
+
+/// What a fact is about: a stage's state, or a load's supply above its maximum.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum FactKind {
+    /// A stage in this state (dropout, bypass or undervoltage).
+    Stage(StageState),
+    /// A load's live rail above its maximum supply while the load is on.
+    AboveMax,
+}
+
+/// A stage out of regulation, or a load supplied above its maximum, for a share of the run.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Fact {
+    /// What.
+    pub kind: FactKind,
+    /// The stage or load id.
+    pub id: String,
+    /// The load's maximum supply, V (for [`FactKind::AboveMax`]).
+    pub v_max: Option<f64>,
+    /// Time in that condition, s.
+    pub time_s: f64,
+    /// Share of the runtime, 0..1.
+    pub of_runtime: f64,
+    /// Share of the time the stage or load was on, 0..1.
+    pub of_on_time: f64,
+}
+
+impl Fact {
+    /// The fact in words, with its share of the runtime and of the on-time.
+    pub fn sentence(&self) -> String {
+        let what = match self.kind {
+            FactKind::Stage(StageState::Bypass) => format!(
+                "`{}` is in bypass, passing the pack through instead of regulating,",
+                self.id
+            ),
+            FactKind::Stage(StageState::Dropout) => {
+                format!("`{}` is in dropout, below its setpoint,", self.id)
+            }
+            FactKind::Stage(_) => format!("`{}` is locked out by undervoltage", self.id),
+            FactKind::AboveMax => format!(
+                "the supply of `{}` is above its {} maximum",
+                self.id,
+                self.v_max
+                    .map_or_else(|| "rated".into(), |v| fmt_eng(v, "V"))
+            ),
+        };
+        format!(
+            "{what} for {}: {} of the time it is on, {} of the runtime",
+            fmt_duration(self.time_s),
+            fmt_percent(self.of_on_time),
+            fmt_percent(self.of_runtime)
+        )
     }
-    Ok(())
+}
+
+/// Every stage in dropout, bypass or undervoltage, and every load above its maximum supply, for
+/// at least [`FACT_SHARE`] of the time it was on; each with its share of the runtime and of its
+/// on-time (a stage on for 3.5 % of the runtime and in bypass all that time is in bypass 100 % of
+/// its on-time).
+pub fn regulation_facts(d: &Design, r: &RunResult) -> Vec<Fact> {
+    let t = r.runtime_s();
+    let l = &r.ledger;
+    let mut out = Vec::new();
+    if t <= 0.0 {
+        return out;
+    }
+    let mut push = |kind, id: &str, v_max, time_s: f64, on_s: f64| {
+        if on_s > 0.0 && time_s / on_s >= FACT_SHARE {
+            out.push(Fact {
+                kind,
+                id: id.to_string(),
+                v_max,
+                time_s,
+                of_runtime: time_s / t,
+                of_on_time: (time_s / on_s).min(1.0),
+            });
+        }
+    };
+    for (k, st) in d.stages.iter().enumerate() {
+        for state in [
+            StageState::Bypass,
+            StageState::Dropout,
+            StageState::Undervoltage,
+        ] {
+            push(
+                FactKind::Stage(state),
+                &st.id,
+                None,
+                l.stage_time_s(k, state),
+                l.stage_on_s(k),
+            );
+        }
+    }
+    for (k, load) in d.loads.iter().enumerate() {
+        push(
+            FactKind::AboveMax,
+            &load.id,
+            load.v_max,
+            l.load_high_s[k],
+            l.load_on_s[k],
+        );
+    }
+    out
+}
+
+/// One row of `runtime --format csv`: the run (`element` `run`: runtime and end), the pack, a
+/// stage or a load. Fields that do not apply to the element are empty.
+#[derive(Debug, Clone, Default, Serialize)]
+pub struct RuntimeCsvRow {
+    /// `run`, `battery`, `stage` or `load`.
+    pub element: &'static str,
+    /// `battery`, the stage id or the load id (empty for the run).
+    pub id: String,
+    /// Runtime, s.
+    pub runtime_s: Option<f64>,
+    /// Stored energy over the loads' mean power, s.
+    pub ideal_runtime_s: Option<f64>,
+    /// Why the product stopped.
+    pub end_reason: Option<&'static str>,
+    /// State of charge then, 0..1.
+    pub end_soc: Option<f64>,
+    /// Mode then.
+    pub end_mode: Option<String>,
+    /// `battery`, a stage id or a load id.
+    pub end_subject: Option<String>,
+    /// Pack: integral of the current, Ah.
+    pub charge_ah: Option<f64>,
+    /// Pack: energy at the terminals; load: energy taken, Wh.
+    pub energy_wh: Option<f64>,
+    /// Pack: energy from the cells (terminals + internal loss), Wh.
+    pub cell_energy_wh: Option<f64>,
+    /// Energy lost, Wh.
+    pub loss_wh: Option<f64>,
+    /// Mean loss over the run, W.
+    pub average_loss_w: Option<f64>,
+    /// Highest loss in any phase, W.
+    pub peak_loss_w: Option<f64>,
+    /// That phase's mode.
+    pub peak_mode: Option<String>,
+    /// Highest junction temperature, °C.
+    pub max_junction_c: Option<f64>,
+    /// Time the stage or load was on, s.
+    pub on_s: Option<f64>,
+    /// Time the stage was in dropout, s.
+    pub dropout_s: Option<f64>,
+    /// Time the stage was in bypass, s.
+    pub bypass_s: Option<f64>,
+    /// Time the stage was locked out by undervoltage, s.
+    pub undervoltage_s: Option<f64>,
+    /// Time the load was on with its supply above its maximum, s.
+    pub above_max_s: Option<f64>,
+}
+
+impl CsvRow for RuntimeCsvRow {
+    const HEADER: &'static [&'static str] = &[
+        "element",
+        "id",
+        "runtime_s",
+        "ideal_runtime_s",
+        "end_reason",
+        "end_soc",
+        "end_mode",
+        "end_subject",
+        "charge_ah",
+        "energy_wh",
+        "cell_energy_wh",
+        "loss_wh",
+        "average_loss_w",
+        "peak_loss_w",
+        "peak_mode",
+        "max_junction_c",
+        "on_s",
+        "dropout_s",
+        "bypass_s",
+        "undervoltage_s",
+        "above_max_s",
+    ];
+}
+
+/// The rows of `runtime --format csv`: the run, the pack, each stage, each load.
+pub fn runtime_csv_rows(d: &Design, r: &RunResult) -> Vec<RuntimeCsvRow> {
+    let t = r.runtime_s();
+    let l = &r.ledger;
+    let per_s = |j: f64| if t > 0.0 { j / t } else { 0.0 };
+    let mut rows = vec![
+        RuntimeCsvRow {
+            element: "run",
+            runtime_s: Some(t),
+            ideal_runtime_s: r.ideal_runtime_s(),
+            end_reason: Some(r.end.reason.name()),
+            end_soc: Some(r.end.soc),
+            end_mode: r.end.mode.map(|m| d.modes[m].name.clone()),
+            end_subject: Some(r.end.subject.clone()),
+            ..RuntimeCsvRow::default()
+        },
+        RuntimeCsvRow {
+            element: "battery",
+            id: "battery".into(),
+            charge_ah: Some(l.charge_c / 3600.0),
+            energy_wh: Some(l.terminal_energy_j() / 3600.0),
+            cell_energy_wh: Some(l.cell_energy_j() / 3600.0),
+            loss_wh: Some(l.pack_loss_j / 3600.0),
+            average_loss_w: Some(per_s(l.pack_loss_j)),
+            ..RuntimeCsvRow::default()
+        },
+    ];
+    for (k, s) in d.stages.iter().enumerate() {
+        let p = r.peaks[k];
+        rows.push(RuntimeCsvRow {
+            element: "stage",
+            id: s.id.clone(),
+            loss_wh: Some(l.stage_loss_j[k] / 3600.0),
+            average_loss_w: Some(per_s(l.stage_loss_j[k])),
+            peak_loss_w: Some(p.loss_w),
+            peak_mode: p.mode.map(|m| d.modes[m].name.clone()),
+            max_junction_c: junction_c(d, k, p.loss_w, r.ambient_c),
+            on_s: Some(l.stage_on_s(k)),
+            dropout_s: Some(l.stage_time_s(k, StageState::Dropout)),
+            bypass_s: Some(l.stage_time_s(k, StageState::Bypass)),
+            undervoltage_s: Some(l.stage_time_s(k, StageState::Undervoltage)),
+            ..RuntimeCsvRow::default()
+        });
+    }
+    for (k, load) in d.loads.iter().enumerate() {
+        rows.push(RuntimeCsvRow {
+            element: "load",
+            id: load.id.clone(),
+            energy_wh: Some(l.load_energy_j[k] / 3600.0),
+            on_s: Some(l.load_on_s[k]),
+            above_max_s: Some(l.load_high_s[k]),
+            ..RuntimeCsvRow::default()
+        });
+    }
+    rows
+}
+
+impl CsvRow for TraceJson {
+    const HEADER: &'static [&'static str] =
+        &["t_s", "soc", "open_circuit_v", "voltage_v", "current_a"];
+}
+
+/// The rows of `runtime --trace --format csv`: the decimated trace.
+pub fn trace_rows(r: &RunResult) -> Vec<TraceJson> {
+    r.trace.iter().map(TraceJson::from).collect()
 }

@@ -1,5 +1,14 @@
 //! What a discharge run adds up: charge, energies per load, stage and the pack, peaks, and a
 //! decimated trace that keeps each stretch's lowest terminal voltage.
+//!
+//! Two energies leave the pack, and every report names them the same way:
+//! - the **energy from the cells**, the integral of open-circuit voltage x current
+//!   ([`Ledger::cell_energy_j`]): what the cells give up, the pack's internal loss included;
+//! - the **energy at the pack terminals**, the integral of terminal voltage x current
+//!   ([`Ledger::terminal_energy_j`]): what reaches the tree (JSON `battery.energy_wh`).
+//!
+//! The energy from the cells = the energy at the terminals + the pack's internal loss; it is
+//! also what the loads took plus every stage's loss plus the pack's loss.
 
 use super::point::{OperatingPoint, StageState};
 
@@ -8,9 +17,11 @@ use super::point::{OperatingPoint, StageState};
 pub struct Ledger {
     /// Integral of the pack current, C.
     pub charge_c: f64,
-    /// Integral of terminal power, J (what the pack delivers to the tree).
+    /// Energy at the pack terminals: integral of terminal voltage x current, J (what the pack
+    /// delivers to the tree).
     pub energy_j: f64,
-    /// Integral of OCV x current, J (drawn from the pack's open-circuit voltage).
+    /// Energy from the cells: integral of open-circuit voltage x current, J (the energy at the
+    /// terminals plus the pack's internal loss).
     pub ocv_energy_j: f64,
     /// Internal loss of the pack, J.
     pub pack_loss_j: f64,
@@ -22,7 +33,9 @@ pub struct Ledger {
     pub stage_out_j: Vec<f64>,
     /// Time each stage spent in each state, s, indexed by [`state_index`].
     pub stage_state_s: Vec<[f64; 6]>,
-    /// Time each drawing load's live rail was above its maximum supply, s.
+    /// Time each load was on (its rail live, its state not `off`), s.
+    pub load_on_s: Vec<f64>,
+    /// Time each load was on with its rail above its maximum supply, s.
     pub load_high_s: Vec<f64>,
 }
 
@@ -51,6 +64,7 @@ impl Ledger {
             load_energy_j: vec![0.0; loads],
             stage_out_j: vec![0.0; stages],
             stage_state_s: vec![[0.0; 6]; stages],
+            load_on_s: vec![0.0; loads],
             load_high_s: vec![0.0; loads],
         }
     }
@@ -68,12 +82,15 @@ impl Ledger {
         }
         for (l, lp) in p.loads.iter().enumerate() {
             self.load_energy_j[l] += lp.power * dt;
-            if lp.live
-                && v_max
-                    .get(l)
-                    .copied()
-                    .flatten()
-                    .is_some_and(|m| lp.voltage > m)
+            if !lp.live || lp.state.is_none() {
+                continue;
+            }
+            self.load_on_s[l] += dt;
+            if v_max
+                .get(l)
+                .copied()
+                .flatten()
+                .is_some_and(|m| lp.voltage > m)
             {
                 self.load_high_s[l] += dt;
             }
@@ -100,6 +117,9 @@ impl Ledger {
                 *x += k * y;
             }
         }
+        for (a, b) in self.load_on_s.iter_mut().zip(&delta.load_on_s) {
+            *a += k * b;
+        }
         for (a, b) in self.load_high_s.iter_mut().zip(&delta.load_high_s) {
             *a += k * b;
         }
@@ -121,6 +141,40 @@ impl Ledger {
     /// Energy lost in all stages, J.
     pub fn stage_loss_total(&self) -> f64 {
         self.stage_loss_j.iter().sum()
+    }
+
+    /// Energy from the cells, J: open-circuit voltage x current over the run, which is the
+    /// energy at the terminals plus the pack's internal loss. Reports call it "from the cells".
+    pub fn cell_energy_j(&self) -> f64 {
+        self.ocv_energy_j
+    }
+
+    /// Energy at the pack terminals, J: terminal voltage x current over the run (JSON
+    /// `battery.energy_wh`). Reports call it "at the pack terminals".
+    pub fn terminal_energy_j(&self) -> f64 {
+        self.energy_j
+    }
+
+    /// Share of the energy from the cells that reached the loads, 0..1 (`None` when the cells
+    /// gave nothing).
+    pub fn load_share_of_cell_energy(&self) -> Option<f64> {
+        let from_cells = self.cell_energy_j();
+        (from_cells > 0.0).then(|| self.load_energy_total() / from_cells)
+    }
+
+    /// Time stage `k` was on, s: every state but `off` (a stage in undervoltage lockout is
+    /// enabled, so it counts).
+    pub fn stage_on_s(&self, k: usize) -> f64 {
+        let off = state_index(StageState::Off);
+        (self.stage_state_s[k].iter().enumerate())
+            .filter(|&(i, _)| i != off)
+            .map(|(_, s)| s)
+            .sum()
+    }
+
+    /// Time stage `k` spent in `state`, s.
+    pub fn stage_time_s(&self, k: usize, state: StageState) -> f64 {
+        self.stage_state_s[k][state_index(state)]
     }
 }
 
