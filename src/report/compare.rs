@@ -8,7 +8,7 @@ use serde::Serialize;
 use super::json::RuntimeJson;
 use super::runtime::end_sentence;
 use super::text::{Align, TextTable};
-use super::{CAUTION, Format, wrap};
+use super::{Format, caution_for, warnings, wrap, write_warnings};
 use crate::model::Design;
 use crate::solve::{RunResult, StageState, state_index};
 use crate::units::{fmt_duration, fmt_eng, fmt_percent};
@@ -141,7 +141,14 @@ fn write_table(w: &mut dyn Write, entries: &[Entry<'_>]) -> io::Result<()> {
         }
     }
     writeln!(w)?;
-    for line in wrap(CAUTION, 96) {
+    for (i, e) in entries.iter().enumerate() {
+        let found: Vec<String> = warnings(e.design, e.run.ambient_c)
+            .into_iter()
+            .map(|x| format!("in {}, {x}", letter(i)))
+            .collect();
+        write_warnings(w, &found, 96)?;
+    }
+    for line in wrap(&caution_for(entries.iter().map(|e| e.design)), 96) {
         writeln!(w, "{line}")?;
     }
     Ok(())

@@ -4,7 +4,7 @@ use std::io::{self, Write};
 
 use super::json::RuntimeJson;
 use super::text::{Align, TextTable};
-use super::{CAUTION, Format, wrap};
+use super::{Format, caution_for, warnings, wrap, write_warnings};
 use crate::model::Design;
 use crate::solve::{EndReason, RunResult, junction_c};
 use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent};
@@ -171,7 +171,8 @@ fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<()> {
         }
     }
     writeln!(w)?;
-    for line in wrap(CAUTION, 96) {
+    write_warnings(w, &warnings(d, r.ambient_c), 96)?;
+    for line in wrap(&caution_for([d]), 96) {
         writeln!(w, "{line}")?;
     }
     Ok(())
