@@ -138,8 +138,13 @@ fn run_options(d: &Design, a: &RunArgs, trace: bool) -> joulepath::solve::RunOpt
 /// carry them in their text), so that a reader of the file still sees them.
 fn warn_beside(d: &Design, ambient_c: f64, f: FormatArg) {
     if !matches!(f, FormatArg::Table) {
-        let _ = write_warnings(&mut io::stderr().lock(), &warnings(d, ambient_c), 96);
+        warn(d, ambient_c);
     }
+}
+
+/// Print the warnings about a design on standard error.
+fn warn(d: &Design, ambient_c: f64) {
+    let _ = write_warnings(&mut io::stderr().lock(), &warnings(d, ambient_c), 96);
 }
 
 /// Run the command line.
@@ -271,9 +276,11 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             height,
         } => {
             let d = load_with(file, sets)?;
+            let opt = run_options(&d, ra, true);
+            warn(&d, opt.ambient_c);
             let bytes = plot_command(
                 &d,
-                &run_options(&d, ra, true),
+                &opt,
                 *kind,
                 output,
                 (*width, *height),
@@ -345,6 +352,9 @@ fn compare(ca: &CompareArgs) -> Result<(), Failure> {
     let mut buf = Vec::new();
     write_compare(&mut buf, &entries, format(ca.format))
         .map_err(|e| Failure::Input(format!("cannot write the output: {e}")))?;
+    for e in &entries {
+        warn_beside(e.design, e.run.ambient_c, ca.format);
+    }
     emit(&buf, ca.output.as_deref())
 }
 
