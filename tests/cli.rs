@@ -555,7 +555,10 @@ fn an_ambient_outside_the_cell_temperature_table_warns() {
             .args(&[command, "{file}"])
             .expect_code(0);
         let o = flat(&out.stdout);
-        assert!(o.contains(warning), "{command}: missing the warning in\n{o}");
+        assert!(
+            o.contains(warning),
+            "{command}: missing the warning in\n{o}"
+        );
         assert!(o.contains("add a row at -50.0 °C"), "{o}");
     }
     // JSON stays clean; the warning goes to standard error.

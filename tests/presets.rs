@@ -693,8 +693,18 @@ fn cells_json_nominal_is_the_designated_voltage_of_the_chemistry() {
         Chemistry::LeadAcid,
     ] {
         let n = Nominal::of(chemistry).unwrap();
-        close(chemistry.name(), n.volts, designated(chemistry.name()), 1e-12);
-        assert!(n.source.contains("IEC"), "{}: {}", chemistry.name(), n.source);
+        close(
+            chemistry.name(),
+            n.volts,
+            designated(chemistry.name()),
+            1e-12,
+        );
+        assert!(
+            n.source.contains("IEC"),
+            "{}: {}",
+            chemistry.name(),
+            n.source
+        );
     }
     assert!(Nominal::of(Chemistry::Other).is_none());
 }
@@ -741,21 +751,47 @@ fn every_preset_has_temperature_rows_at_most_15_c_apart_over_its_rated_range() {
             );
         }
         // 25 °C is the reference of every other value: both factors exactly 1 there.
-        close(&format!("{name} capacity at 25 °C"), c.temp_capacity.at(25.0), 1.0, 1e-12);
-        close(&format!("{name} R at 25 °C"), c.temp_resistance.at(25.0), 1.0, 1e-12);
+        close(
+            &format!("{name} capacity at 25 °C"),
+            c.temp_capacity.at(25.0),
+            1.0,
+            1e-12,
+        );
+        close(
+            &format!("{name} R at 25 °C"),
+            c.temp_resistance.at(25.0),
+            1.0,
+            1e-12,
+        );
         // Colder is never better: capacity does not rise and resistance does not fall as the
         // cell cools (from memory, true of every chemistry here).
         let res: Vec<(f64, f64)> = c.temp_resistance.points().collect();
         for w in res.windows(2) {
-            assert!(w[0].1 >= w[1].1, "{name}: resistance rises with temperature at {w:?}");
+            assert!(
+                w[0].1 >= w[1].1,
+                "{name}: resistance rises with temperature at {w:?}"
+            );
         }
         for w in rows.windows(2).filter(|w| w[1].0 <= 25.0) {
-            assert!(w[0].1 <= w[1].1, "{name}: capacity falls as it warms at {w:?}");
+            assert!(
+                w[0].1 <= w[1].1,
+                "{name}: capacity falls as it warms at {w:?}"
+            );
         }
     }
     // The case of the issue: alkaline-aa at 15 °C within 10 % of its room-temperature capacity
     // and 30 % of its resistance (from memory, typical of the chemistry's datasheet curves).
     let aa = preset("alkaline-aa").cell;
-    within("alkaline-aa capacity at 15 °C", aa.temp_capacity.at(15.0), 0.9, 1.0);
-    within("alkaline-aa R at 15 °C", aa.temp_resistance.at(15.0), 1.0, 1.3);
+    within(
+        "alkaline-aa capacity at 15 °C",
+        aa.temp_capacity.at(15.0),
+        0.9,
+        1.0,
+    );
+    within(
+        "alkaline-aa R at 15 °C",
+        aa.temp_resistance.at(15.0),
+        1.0,
+        1.3,
+    );
 }

@@ -10,7 +10,8 @@ use joulepath::model::Preset;
 use joulepath::report::cells::{write_cell, write_cells};
 use joulepath::report::compare::{Entry, write_compare};
 use joulepath::report::{
-    Format, budget::write_budget, warnings, write_warnings, heat::write_heat, outline::write_outline, runtime::write_runtime,
+    Format, budget::write_budget, heat::write_heat, outline::write_outline, runtime::write_runtime,
+    warnings, write_warnings,
 };
 use joulepath::solve::budget;
 use joulepath::spec::Override;
@@ -278,13 +279,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             let d = load_with(file, sets)?;
             let opt = run_options(&d, ra, true);
             warn(&d, opt.ambient_c);
-            let bytes = plot_command(
-                &d,
-                &opt,
-                *kind,
-                output,
-                (*width, *height),
-            )?;
+            let bytes = plot_command(&d, &opt, *kind, output, (*width, *height))?;
             emit(&bytes, Some(output))
         }
         Command::Report {

@@ -5,11 +5,11 @@
 use std::fmt::Write as _;
 use std::io::{self, Write};
 
-use super::{caution_for, warnings};
 use super::heat::{heat_ranking, heat_sentence};
 use super::outline::write_outline;
 use super::plot::{self, PlotFormat};
 use super::runtime::end_sentence;
+use super::{caution_for, warnings};
 use crate::model::Design;
 use crate::solve::{ModeBudget, RunResult, Solution, junction_c};
 use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent};

@@ -94,10 +94,7 @@ and keep sparks away (IEC 60896 for stationary batteries, and local codes).",
 
 /// The caution for the cells of `designs`.
 pub fn caution_for<'a>(designs: impl IntoIterator<Item = &'a Design>) -> String {
-    let chemistries: Vec<Chemistry> = designs
-        .into_iter()
-        .map(|d| d.pack.cell.chemistry)
-        .collect();
+    let chemistries: Vec<Chemistry> = designs.into_iter().map(|d| d.pack.cell.chemistry).collect();
     caution(&chemistries)
 }
 
@@ -156,7 +153,10 @@ uncertain; add a row at {} to the cell's `temperature` table",
 /// Those of the writer.
 pub fn write_warnings(w: &mut dyn Write, warnings: &[String], width: usize) -> io::Result<()> {
     for warning in warnings {
-        for (i, line) in wrap(&format!("warning: {warning}"), width).iter().enumerate() {
+        for (i, line) in wrap(&format!("warning: {warning}"), width)
+            .iter()
+            .enumerate()
+        {
             writeln!(w, "{}{line}", if i == 0 { "" } else { "  " })?;
         }
     }
