@@ -578,6 +578,16 @@ fn an_ambient_outside_the_cell_temperature_table_warns() {
         "{}",
         out.stdout
     );
+    // The HTML report carries it beside the caution.
+    let t = Test::new()
+        .design(&on_preset("alkaline-aa", "-50 °C"))
+        .args(&["report", "{file}", "-o", "r.html"]);
+    t.expect_code(0);
+    let html = std::fs::read_to_string(t.dir().join("r.html")).unwrap();
+    assert!(
+        html.contains("Warning: the ambient -50.0 °C is below the temperature table"),
+        "no warning in the HTML report"
+    );
     // Inside the table: no warning.
     let out = Test::new()
         .design(&on_preset("alkaline-aa", "-35 °C"))
