@@ -475,3 +475,126 @@ fn fit_cell_prints_a_cell_the_checker_accepts() {
         .args(&["fit-cell", "--curve", "low.csv", "--curve", &high])
         .expect_code(2);
 }
+
+/// A one-load design on the preset `cell` at `ambient`.
+fn on_preset(cell: &str, ambient: &str) -> String {
+    format!(
+        "design: Test beacon on a preset cell
+ambient: {ambient}
+battery: {{ cell: {cell}, series: 2 }}
+loads:
+  - {{ id: beacon, rail: battery, draw: {{ blink: 20 mA }} }}
+modes: {{ on: {{ beacon: blink }} }}
+profile: [{{ mode: on, for: 1 h }}]
+"
+    )
+}
+
+#[test]
+fn the_caution_follows_the_chemistry_of_the_cells() {
+    // Issue 10, item 20: the lithium caution was printed for alkaline and NiMH designs. The
+    // standards named: IEC 62133-2 (portable lithium cells), IEC 60086-5 (safety of primary
+    // cells with aqueous electrolyte: alkaline), IEC 62133-1 (portable nickel cells).
+    let caution = |cell: &str, command: &str| {
+        let out = Test::new()
+            .design(&on_preset(cell, "25 °C"))
+            .args(&[command, "{file}"])
+            .expect_code(0);
+        // Compared with line breaks removed: the caution is wrapped.
+        out.stdout.split_whitespace().collect::<Vec<_>>().join(" ")
+    };
+    let always = [
+        "Caution: these are estimates from models and datasheet values",
+        "defer to the cell maker's limits, safety standards and local codes",
+    ];
+    for command in ["runtime", "budget", "heat"] {
+        let alkaline = caution("alkaline-aa", command);
+        let nimh = caution("nimh-aa", command);
+        let lithium = caution("li-ion-18650", command);
+        for o in [&alkaline, &nimh, &lithium] {
+            for frag in always {
+                assert!(o.contains(frag), "{command}: missing {frag:?} in\n{o}");
+            }
+        }
+        for o in [&alkaline, &nimh] {
+            assert!(
+                !o.contains("Lithium") && !o.contains("IEC 62133-2"),
+                "{command}: lithium caution for a cell without lithium:\n{o}"
+            );
+        }
+        assert!(
+            alkaline.contains("do not recharge them") && alkaline.contains("IEC 60086-5"),
+            "{alkaline}"
+        );
+        assert!(nimh.contains("IEC 62133-1"), "{nimh}");
+        assert!(
+            lithium.contains("Lithium cells can overheat, vent or ignite")
+                && lithium.contains("IEC 62133-2")
+                && !lithium.contains("IEC 60086-5"),
+            "{lithium}"
+        );
+    }
+    // A comparison names every chemistry it shows.
+    let t = Test::new().design(&on_preset("alkaline-aa", "25 °C"));
+    std::fs::write(t.dir().join("b.yaml"), on_preset("li-mno2-cr2032", "25 °C")).unwrap();
+    let out = t.args(&["compare", "{file}", "b.yaml"]).expect_code(0);
+    let o = out.stdout.split_whitespace().collect::<Vec<_>>().join(" ");
+    for frag in ["IEC 60086-5", "IEC 62133-2", "IEC 60086-4"] {
+        assert!(o.contains(frag), "missing {frag:?} in\n{o}");
+    }
+}
+
+#[test]
+fn an_ambient_outside_the_cell_temperature_table_warns() {
+    // Issue 10, item 19: outside its table a cell's factors are held at the nearest row; the
+    // user is told instead of the clamp being silent. alkaline-aa's table spans -40..55 °C.
+    let warning = "warning: the ambient -50.0 °C is below the temperature table of cell \
+                   `alkaline-aa` (-40.0 °C to 55.0 °C)";
+    let flat = |s: &str| s.split_whitespace().collect::<Vec<_>>().join(" ");
+    for command in ["check", "runtime", "budget", "heat"] {
+        let out = Test::new()
+            .design(&on_preset("alkaline-aa", "-50 °C"))
+            .args(&[command, "{file}"])
+            .expect_code(0);
+        let o = flat(&out.stdout);
+        assert!(
+            o.contains(warning),
+            "{command}: missing the warning in\n{o}"
+        );
+        assert!(o.contains("add a row at -50.0 °C"), "{o}");
+    }
+    // JSON stays clean; the warning goes to standard error.
+    let out = Test::new()
+        .design(&on_preset("alkaline-aa", "-50 °C"))
+        .args(&["runtime", "{file}", "--format", "json"])
+        .expect_code(0);
+    assert!(out.json()["runtime_s"].as_f64().unwrap() > 0.0);
+    assert!(flat(&out.stderr).contains(warning), "{}", out.stderr);
+    // `--ambient` is what counts, above the table as well.
+    let out = Test::new()
+        .design(&on_preset("alkaline-aa", "20 °C"))
+        .args(&["runtime", "{file}", "--ambient", "70 °C"])
+        .expect_code(0);
+    assert!(
+        flat(&out.stdout).contains("warning: the ambient 70.0 °C is above the temperature table"),
+        "{}",
+        out.stdout
+    );
+    // The HTML report carries it beside the caution.
+    let t = Test::new()
+        .design(&on_preset("alkaline-aa", "-50 °C"))
+        .args(&["report", "{file}", "-o", "r.html"]);
+    t.expect_code(0);
+    let html = std::fs::read_to_string(t.dir().join("r.html")).unwrap();
+    assert!(
+        html.contains("Warning: the ambient -50.0 °C is below the temperature table"),
+        "no warning in the HTML report"
+    );
+    // Inside the table: no warning.
+    let out = Test::new()
+        .design(&on_preset("alkaline-aa", "-35 °C"))
+        .args(&["runtime", "{file}"])
+        .expect_code(0);
+    assert!(!out.stdout.contains("warning:"), "{}", out.stdout);
+    assert!(out.stderr.is_empty(), "{}", out.stderr);
+}

@@ -106,8 +106,8 @@ pub enum Command {
     Cells {
         /// A preset to show in full: every parameter, its OCV curve and where its values come from.
         name: Option<String>,
-        /// Output format (JSON and CSV give the summary: chemistry, nominal voltage, capacity,
-        /// energy, cutoff).
+        /// Output format (JSON and CSV give the summary: chemistry, designated nominal voltage,
+        /// mean open-circuit voltage, capacity, energy, cutoff).
         #[arg(long, value_enum, default_value_t = FormatArg::Table)]
         format: FormatArg,
         /// Write to this file instead of standard output.

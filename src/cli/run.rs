@@ -11,6 +11,7 @@ use joulepath::report::cells::{write_cell, write_cells};
 use joulepath::report::compare::{Entry, write_compare};
 use joulepath::report::{
     Format, budget::write_budget, heat::write_heat, outline::write_outline, runtime::write_runtime,
+    warnings, write_warnings,
 };
 use joulepath::solve::budget;
 use joulepath::spec::Override;
@@ -140,6 +141,19 @@ fn run_options(d: &Design, a: &RunArgs, trace: bool) -> joulepath::solve::RunOpt
     o
 }
 
+/// Print the warnings about a design on standard error when the output is JSON or CSV (tables
+/// carry them in their text), so that a reader of the file still sees them.
+fn warn_beside(d: &Design, ambient_c: f64, f: FormatArg) {
+    if !matches!(f, FormatArg::Table) {
+        warn(d, ambient_c);
+    }
+}
+
+/// Print the warnings about a design on standard error.
+fn warn(d: &Design, ambient_c: f64) {
+    let _ = write_warnings(&mut io::stderr().lock(), &warnings(d, ambient_c), 96);
+}
+
 /// Run the command line.
 pub fn run(args: &Args) -> Result<(), Failure> {
     let mut buf: Vec<u8> = Vec::new();
@@ -148,6 +162,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
         Command::Check { file } => {
             let d = load(file)?;
             write_outline(&mut buf, &d).map_err(io_fail)?;
+            write_warnings(&mut buf, &warnings(&d, d.ambient_c), 96).map_err(io_fail)?;
             emit(&buf, None)
         }
         Command::Budget {
@@ -182,6 +197,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             let soc = soc.unwrap_or(d.pack.start_soc);
             let result = budget(&d, soc, &modes);
             write_budget(&mut buf, &d, soc, &result, format(*f)).map_err(io_fail)?;
+            warn_beside(&d, d.ambient_c, *f);
             emit(&buf, output.as_deref())
         }
         Command::Runtime {
@@ -196,6 +212,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             let opt = run_options(&d, ra, *trace);
             let result = run_with_progress(&d, &opt, "simulating")?;
             write_runtime(&mut buf, &d, &result, format(*f), *trace).map_err(io_fail)?;
+            warn_beside(&d, result.ambient_c, *f);
             emit(&buf, output.as_deref())
         }
         Command::Heat {
@@ -208,6 +225,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             let d = load_with(file, sets)?;
             let result = run_with_progress(&d, &run_options(&d, ra, false), "simulating")?;
             write_heat(&mut buf, &d, &result, format(*f)).map_err(io_fail)?;
+            warn_beside(&d, result.ambient_c, *f);
             emit(&buf, output.as_deref())
         }
         Command::Cells {
@@ -265,13 +283,9 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             height,
         } => {
             let d = load_with(file, sets)?;
-            let bytes = plot_command(
-                &d,
-                &run_options(&d, ra, true),
-                *kind,
-                output,
-                (*width, *height),
-            )?;
+            let opt = run_options(&d, ra, true);
+            warn(&d, opt.ambient_c);
+            let bytes = plot_command(&d, &opt, *kind, output, (*width, *height))?;
             emit(&bytes, Some(output))
         }
         Command::Report {
@@ -339,6 +353,9 @@ fn compare(ca: &CompareArgs) -> Result<(), Failure> {
     let mut buf = Vec::new();
     write_compare(&mut buf, &entries, format(ca.format))
         .map_err(|e| Failure::Input(format!("cannot write the output: {e}")))?;
+    for e in &entries {
+        warn_beside(e.design, e.run.ambient_c, ca.format);
+    }
     emit(&buf, ca.output.as_deref())
 }
 

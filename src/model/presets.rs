@@ -4,7 +4,7 @@
 //! so their values pass the same checks.
 
 use super::lower;
-use super::pack::Cell;
+use super::pack::{Cell, Chemistry};
 use crate::error::{Diagnostic, Error, did_you_mean};
 use crate::spec::{CellSpec, SourceMap, backticked};
 
@@ -131,8 +131,15 @@ impl Preset {
         Self::names().map(Self::load).collect()
     }
 
-    /// Nominal voltage: the mean open-circuit voltage over 0..100 % SoC, V.
+    /// Nominal voltage: the designated voltage of the cell's chemistry ([`Nominal::of`]), or the
+    /// mean open-circuit voltage for a chemistry without one, V.
     pub fn nominal_v(&self) -> f64 {
+        Nominal::of(self.cell.chemistry).map_or_else(|| self.mean_ocv_v(), |n| n.volts)
+    }
+
+    /// The mean open-circuit voltage over 0..100 % SoC, V: the energy the cell holds per unit
+    /// of charge.
+    pub fn mean_ocv_v(&self) -> f64 {
         self.cell.ocv.mean(0.0, 1.0)
     }
 
@@ -141,9 +148,48 @@ impl Preset {
         self.cell.capacity_c / 3600.0
     }
 
-    /// Energy: rated capacity x nominal voltage, Wh.
+    /// Energy as cells are rated: rated capacity x nominal voltage, Wh.
     pub fn energy_wh(&self) -> f64 {
         self.capacity_ah() * self.nominal_v()
+    }
+}
+
+/// The designated nominal voltage of a chemistry: the voltage the standards give the system (or
+/// the trade marks cells with where the standard leaves it to the maker), not a measured mean.
+///
+/// # Examples
+///
+/// ```
+/// use joulepath::model::{Chemistry, Nominal};
+/// assert_eq!(Nominal::of(Chemistry::Alkaline).unwrap().volts, 1.5);
+/// assert!(Nominal::of(Chemistry::Other).is_none());
+/// ```
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Nominal {
+    /// The designated voltage per cell, V.
+    pub volts: f64,
+    /// Where it comes from, in a few words.
+    pub source: &'static str,
+}
+
+impl Nominal {
+    /// The designated nominal voltage of `chemistry`; `None` for `other`.
+    pub fn of(chemistry: Chemistry) -> Option<Self> {
+        // Status of each value, as the team's reference list gives it (../shared/REFERENCES.md):
+        // system letters L 1.5 V and C 3.0 V [C19, confirmed], E 3.6 V [C19, from memory];
+        // NiMH 1.2 V and lead-acid 2.0 V per cell [C21, confirmed; the standards' numbers are
+        // from memory]; Li-ion 3.6 V and LiFePO4 3.2 V [C21, from memory / common practice].
+        let (volts, source) = match chemistry {
+            Chemistry::Alkaline => (1.5, "IEC 60086-1, system L"),
+            Chemistry::LiMnO2 => (3.0, "IEC 60086-1, system C"),
+            Chemistry::LiSoCl2 => (3.6, "IEC 60086-1, system E"),
+            Chemistry::NiMh => (1.2, "IEC 61951-2"),
+            Chemistry::LiIon => (3.6, "IEC 61960-3; makers mark 3.6 to 3.7 V"),
+            Chemistry::LiFePo4 => (3.2, "IEC 61960-3; makers mark 3.2 V"),
+            Chemistry::LeadAcid => (2.0, "IEC 60896-11 and IEC 61056-1"),
+            Chemistry::Other => return None,
+        };
+        Some(Self { volts, source })
     }
 }
 

@@ -7,7 +7,7 @@ use serde::Serialize;
 use super::json::BudgetJson;
 use super::rows::{CsvRow, write_rows};
 use super::text::{Align, TextTable};
-use super::{CAUTION, Format, wrap};
+use super::{Format, caution_for, warnings, wrap, write_warnings};
 use crate::model::Design;
 use crate::solve::{ModeBudget, Solution, junction_c};
 use crate::units::{fmt_celsius, fmt_eng, fmt_percent};
@@ -144,7 +144,8 @@ fn write_table(w: &mut dyn Write, d: &Design, soc: f64, modes: &[ModeBudget]) ->
         }
     }
     writeln!(w)?;
-    for line in wrap(CAUTION, 96) {
+    write_warnings(w, &warnings(d, d.ambient_c), 96)?;
+    for line in wrap(&caution_for([d]), 96) {
         writeln!(w, "{line}")?;
     }
     Ok(())

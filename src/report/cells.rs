@@ -7,7 +7,7 @@ use serde::Serialize;
 use super::Format;
 use super::rows::{CsvRow, write_rows};
 use super::text::{Align, TextTable};
-use crate::model::{MONTH_S, Preset};
+use crate::model::{MONTH_S, Nominal, Preset};
 use crate::units::{fmt_celsius, fmt_eng, fmt_percent, fmt_sig};
 
 /// Days in the year of the per-year self-discharge shown beside the monthly rate.
@@ -27,8 +27,10 @@ pub struct CellJson {
     pub name: String,
     /// Chemistry, as written in design files.
     pub chemistry: String,
-    /// Mean open-circuit voltage over 0..100 % SoC, V.
+    /// Designated nominal voltage of the chemistry (IEC 60086-1, IEC 61960-3, ...), V.
     pub nominal_v: f64,
+    /// Mean open-circuit voltage over 0..100 % SoC, V.
+    pub mean_ocv_v: f64,
     /// Rated capacity, Ah.
     pub capacity_ah: f64,
     /// Rated capacity x nominal voltage, Wh.
@@ -44,6 +46,7 @@ impl CellJson {
             name: p.name.to_string(),
             chemistry: p.cell.chemistry.name().to_string(),
             nominal_v: p.nominal_v(),
+            mean_ocv_v: p.mean_ocv_v(),
             capacity_ah: p.capacity_ah(),
             energy_wh: p.energy_wh(),
             cutoff_v: p.cell.cutoff_v,
@@ -51,7 +54,8 @@ impl CellJson {
     }
 }
 
-/// Write the list of presets: name, chemistry, nominal voltage, capacity, energy, cutoff.
+/// Write the list of presets: name, chemistry, designated nominal voltage, mean open-circuit
+/// voltage, capacity, energy, cutoff.
 ///
 /// # Examples
 ///
@@ -74,6 +78,7 @@ pub fn write_cells(w: &mut dyn Write, presets: &[Preset], format: Format) -> io:
                 ("name", Align::Left),
                 ("chemistry", Align::Left),
                 ("nominal", Align::Right),
+                ("mean OCV", Align::Right),
                 ("capacity", Align::Right),
                 ("energy", Align::Right),
                 ("cutoff", Align::Right),
@@ -83,6 +88,7 @@ pub fn write_cells(w: &mut dyn Write, presets: &[Preset], format: Format) -> io:
                     p.name.to_string(),
                     p.cell.chemistry.name().to_string(),
                     fmt_eng(p.nominal_v(), "V"),
+                    fmt_eng(p.mean_ocv_v(), "V"),
                     fmt_eng(p.capacity_ah(), "Ah"),
                     fmt_eng(p.energy_wh(), "Wh"),
                     fmt_eng(p.cell.cutoff_v, "V"),
@@ -90,18 +96,17 @@ pub fn write_cells(w: &mut dyn Write, presets: &[Preset], format: Format) -> io:
             }
             t.write(w, "  ")?;
             writeln!(w)?;
-            writeln!(
-                w,
-                "Values per cell. Nominal: the mean open-circuit voltage over 0..100 % state of charge;"
-            )?;
-            writeln!(
-                w,
-                "energy: capacity x nominal. `joulepath cells NAME` shows a preset in full; use one"
-            )?;
-            writeln!(
-                w,
-                "as `battery: {{ cell: NAME }}` or override its keys with `{{ preset: NAME, capacity: ... }}`."
-            )
+            for line in [
+                "Values per cell. Nominal: the designated voltage of the chemistry (IEC 60086-1 for",
+                "primary cells, IEC 61951-2 for NiMH, IEC 61960-3 for lithium-ion); mean OCV: the mean",
+                "open-circuit voltage over 0..100 % state of charge, which the simulation uses; energy:",
+                "capacity x nominal, as cells are rated. `joulepath cells NAME` shows a preset in full;",
+                "use one as `battery: { cell: NAME }` or override its keys with",
+                "`{ preset: NAME, capacity: ... }`.",
+            ] {
+                writeln!(w, "{line}")?;
+            }
+            Ok(())
         }
     }
 }
@@ -191,16 +196,29 @@ fn table(w: &mut dyn Write, p: &Preset) -> io::Result<()> {
     );
     row(
         "nominal voltage",
+        Nominal::of(c.chemistry).map_or_else(
+            || {
+                format!(
+                    "{} (no designated voltage: the mean open-circuit voltage)",
+                    fmt_eng(p.nominal_v(), "V")
+                )
+            },
+            |n| format!("{} (designated: {})", fmt_eng(n.volts, "V"), n.source),
+        ),
+    );
+    row(
+        "mean OCV",
         format!(
             "{} (mean open-circuit voltage over 0..100 %)",
-            fmt_eng(p.nominal_v(), "V")
+            fmt_eng(p.mean_ocv_v(), "V")
         ),
     );
     row(
         "energy",
         format!(
-            "{} (capacity x nominal voltage)",
-            fmt_eng(p.energy_wh(), "Wh")
+            "{} (capacity x nominal voltage); {} at the mean open-circuit voltage",
+            fmt_eng(p.energy_wh(), "Wh"),
+            fmt_eng(p.capacity_ah() * p.mean_ocv_v(), "Wh")
         ),
     );
     row(

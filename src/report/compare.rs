@@ -9,7 +9,7 @@ use super::json::RuntimeJson;
 use super::rows::{CsvRow, write_rows};
 use super::runtime::{end_sentence, regulation_facts};
 use super::text::{Align, TextTable};
-use super::{CAUTION, Format, wrap};
+use super::{Format, caution_for, warnings, wrap, write_warnings};
 use crate::model::Design;
 use crate::solve::RunResult;
 use crate::units::{fmt_duration, fmt_eng, fmt_percent};
@@ -152,7 +152,14 @@ fn write_table(w: &mut dyn Write, entries: &[Entry<'_>]) -> io::Result<()> {
         }
     }
     writeln!(w)?;
-    for line in wrap(CAUTION, 96) {
+    for (i, e) in entries.iter().enumerate() {
+        let found: Vec<String> = warnings(e.design, e.run.ambient_c)
+            .into_iter()
+            .map(|x| format!("in {}, {x}", letter(i)))
+            .collect();
+        write_warnings(w, &found, 96)?;
+    }
+    for line in wrap(&caution_for(entries.iter().map(|e| e.design)), 96) {
         writeln!(w, "{line}")?;
     }
     Ok(())

@@ -8,7 +8,7 @@ use serde::Serialize;
 
 use super::rows::{CsvRow, write_rows};
 use super::text::{Align, TextTable};
-use super::{CAUTION, Format, wrap};
+use super::{Format, caution_for, warnings, wrap, write_warnings};
 use crate::model::Design;
 use crate::solve::{RunResult, junction_c};
 use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent};
@@ -245,7 +245,8 @@ pub fn write_heat(w: &mut dyn Write, d: &Design, r: &RunResult, format: Format) 
             for line in wrap(&note, 96) {
                 writeln!(w, "{line}")?;
             }
-            for line in wrap(CAUTION, 96) {
+            write_warnings(w, &warnings(d, r.ambient_c), 96)?;
+            for line in wrap(&caution_for([d]), 96) {
                 writeln!(w, "{line}")?;
             }
             Ok(())

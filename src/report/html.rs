@@ -5,11 +5,11 @@
 use std::fmt::Write as _;
 use std::io::{self, Write};
 
-use super::CAUTION;
 use super::heat::{capitalize, heat_ranking, heat_sentence};
 use super::outline::write_outline;
 use super::plot::{self, PlotFormat};
 use super::runtime::{end_sentence, energy_sentences};
+use super::{caution_for, warnings};
 use crate::model::Design;
 use crate::solve::{ModeBudget, RunResult, Solution, junction_c};
 use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent};
@@ -219,8 +219,15 @@ pub fn write_html(
     )?;
     writeln!(
         w,
-        "<section id=\"caution\" class=\"first\">\n<h2>Caution</h2>\n<p class=\"caution\">{}</p>\n</section>",
-        esc(CAUTION)
+        "<section id=\"caution\" class=\"first\">\n<h2>Caution</h2>"
+    )?;
+    for warning in warnings(d, r.ambient_c) {
+        writeln!(w, "<p class=\"alert\">Warning: {}</p>", esc(&warning))?;
+    }
+    writeln!(
+        w,
+        "<p class=\"caution\">{}</p>\n</section>",
+        esc(&caution_for([d]))
     )?;
     writeln!(w, "</body>\n</html>")
 }

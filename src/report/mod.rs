@@ -13,6 +13,11 @@ pub mod rows;
 pub mod runtime;
 pub mod text;
 
+use std::io::{self, Write};
+
+use crate::model::{Chemistry, Design};
+use crate::units::fmt_celsius;
+
 /// Output format of a report.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Format {
@@ -24,12 +29,140 @@ pub enum Format {
     Csv,
 }
 
-/// The caution shown with results (DESIGN section 9).
-pub const CAUTION: &str = "Caution: these are estimates from models and datasheet values; confirm them on the real \
-hardware with measurements. Lithium cells can overheat, vent or ignite when shorted, \
-over-discharged, overcharged or loaded beyond their limits: respect the cell maker's limits, \
-the applicable safety standards (for example IEC 62133-2 for portable lithium cells) and local \
-codes. Junction temperatures from theta_ja are estimates for a standard test board.";
+/// The opening of every caution (DESIGN section 9): what the numbers are worth.
+const CAUTION_GENERAL: &str = "Caution: these are estimates from models and datasheet values; \
+confirm them on the real hardware with measurements.";
+
+/// The closing of every caution: whose word counts, and how far the thermal estimate goes.
+const CAUTION_CLOSING: &str = "In every case, defer to the cell maker's limits, safety standards \
+and local codes. Junction temperatures from theta_ja are estimates for a standard test board.";
+
+/// The caution shown with results (DESIGN section 9), for the cell chemistries of the designs
+/// shown: the general part always, then one sentence per kind of cell among `chemistries`, then
+/// the closing part always.
+///
+/// # Examples
+///
+/// ```
+/// use joulepath::model::Chemistry;
+/// use joulepath::report::caution;
+/// let alkaline = caution(&[Chemistry::Alkaline]);
+/// assert!(alkaline.contains("IEC 60086-5") && !alkaline.contains("Lithium"));
+/// assert!(caution(&[Chemistry::LiIon]).contains("IEC 62133-2"));
+/// ```
+pub fn caution(chemistries: &[Chemistry]) -> String {
+    let has = |f: fn(Chemistry) -> bool| chemistries.iter().any(|c| f(*c));
+    let mut parts = vec![CAUTION_GENERAL];
+    if has(Chemistry::is_lithium) {
+        parts.push(
+            "Lithium cells can overheat, vent or ignite when shorted, over-discharged, \
+overcharged or loaded beyond their limits (IEC 62133-2 covers portable rechargeable lithium \
+cells).",
+        );
+    }
+    if has(|c| matches!(c, Chemistry::LiMnO2 | Chemistry::LiSoCl2)) {
+        parts.push(
+            "Primary lithium cells must never be charged, not even by a reverse current through \
+a parallel string (IEC 60086-4 covers their safety).",
+        );
+    }
+    if has(|c| c == Chemistry::Alkaline) {
+        parts.push(
+            "Alkaline cells are primary: do not recharge them. Exhausted, reversed or \
+deeply discharged cells can leak caustic electrolyte, so remove them from a product that is \
+stored (IEC 60086-5 covers their safety).",
+        );
+    }
+    if has(|c| c == Chemistry::NiMh) {
+        parts.push(
+            "NiMH cells heat up and vent when overcharged or charged too fast: charge them only \
+with a charger that ends the charge for this chemistry (IEC 62133-1 covers portable nickel \
+cells).",
+        );
+    }
+    if has(|c| c == Chemistry::LeadAcid) {
+        parts.push(
+            "Lead-acid batteries give off hydrogen while they charge: ventilate their enclosure \
+and keep sparks away (IEC 60896 for stationary batteries, and local codes).",
+        );
+    }
+    if has(|c| c == Chemistry::Other) {
+        parts.push("For cells of any other chemistry, read the maker's safety instructions.");
+    }
+    parts.push(CAUTION_CLOSING);
+    parts.join(" ")
+}
+
+/// The caution for the cells of `designs`.
+pub fn caution_for<'a>(designs: impl IntoIterator<Item = &'a Design>) -> String {
+    let chemistries: Vec<Chemistry> = designs.into_iter().map(|d| d.pack.cell.chemistry).collect();
+    caution(&chemistries)
+}
+
+/// Warnings about a design run at `ambient_c`, one sentence each: the ambient outside the
+/// temperature table of the cell, where the factors are held at the nearest row instead of
+/// following the chemistry. A table of one row (or none) applies everywhere and gives no warning.
+///
+/// # Examples
+///
+/// ```
+/// let text = r#"
+/// battery: { cell: alkaline-aa }
+/// loads: [{ id: lamp, rail: battery, draw: { on: 10 mA } }]
+/// modes: { lit: { lamp: on } }
+/// profile: [{ mode: lit, for: 1 h }]
+/// "#;
+/// let d = joulepath::Design::from_text(text).unwrap();
+/// assert!(joulepath::report::warnings(&d, 25.0).is_empty());
+/// assert!(joulepath::report::warnings(&d, -55.0)[0].contains("below"));
+/// ```
+pub fn warnings(d: &Design, ambient_c: f64) -> Vec<String> {
+    let cell = &d.pack.cell;
+    let table = &cell.temp_capacity;
+    let mut out = Vec::new();
+    if table.points().count() < 2 {
+        return out;
+    }
+    let (lo, hi) = table.x_range();
+    let side = if ambient_c < lo {
+        Some(("below", lo))
+    } else if ambient_c > hi {
+        Some(("above", hi))
+    } else {
+        None
+    };
+    if let Some((side, edge)) = side {
+        out.push(format!(
+            "the ambient {} is {side} the temperature table of cell `{}` ({} to {}): its \
+capacity and resistance factors are held at their {} values, so the results there are \
+uncertain; add a row at {} to the cell's `temperature` table",
+            fmt_celsius(ambient_c),
+            cell.name,
+            fmt_celsius(lo),
+            fmt_celsius(hi),
+            fmt_celsius(edge),
+            fmt_celsius(ambient_c),
+        ));
+    }
+    out
+}
+
+/// Write each of `warnings` as a `warning: ` paragraph wrapped at `width` columns.
+///
+/// # Errors
+///
+/// Those of the writer.
+pub fn write_warnings(w: &mut dyn Write, warnings: &[String], width: usize) -> io::Result<()> {
+    for warning in warnings {
+        for (i, line) in wrap(&format!("warning: {warning}"), width)
+            .iter()
+            .enumerate()
+        {
+            writeln!(w, "{}{line}", if i == 0 { "" } else { "  " })?;
+        }
+    }
+    Ok(())
+}
 
 /// Wrap `text` at `width` columns, never separating a number from its unit.
 pub fn wrap(text: &str, width: usize) -> Vec<String> {

@@ -7,7 +7,7 @@ use serde::Serialize;
 use super::json::{RuntimeJson, TraceJson};
 use super::rows::{CsvRow, write_rows};
 use super::text::{Align, TextTable};
-use super::{CAUTION, Format, wrap};
+use super::{Format, caution_for, warnings, wrap, write_warnings};
 use crate::model::Design;
 use crate::solve::{EndReason, RunResult, StageState, junction_c};
 use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent};
@@ -194,7 +194,8 @@ fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult, trace: bool) -> io:
         }
     }
     writeln!(w)?;
-    for line in wrap(CAUTION, 96) {
+    write_warnings(w, &warnings(d, r.ambient_c), 96)?;
+    for line in wrap(&caution_for([d]), 96) {
         writeln!(w, "{line}")?;
     }
     Ok(())
