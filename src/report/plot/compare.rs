@@ -242,7 +242,7 @@ impl Painter for Compare<'_, '_> {
                 (mv.0 + r_mark + 2, mv.1 + r_mark + 2),
             ));
             let words = format!(
-                "{}: {} ({})",
+                "{}: {}, {}",
                 letter(k),
                 fmt_duration(r.end.t_s),
                 r.end.reason.name()
