@@ -23,9 +23,9 @@ const BAND_ALPHA: f64 = 0.45;
 /// Most trace points drawn as they are (more are decimated, keeping each bucket's minimum).
 pub(super) const MAX_POINTS: usize = 3000;
 
-/// The discharge of `run` (which must have been run with a trace): pack terminal voltage and
-/// open-circuit voltage against time, the lowest voltage of each stretch of the trace (pulses),
-/// the cutoff, the end with its reason, the state of charge in a second panel, and shaded bands
+/// The discharge of `run` (which must have been run with a trace): the band the pack terminal
+/// voltage moves in (lowest to highest near each time), the lowest voltage of each stretch of
+/// the trace (pulses) as dots, the open-circuit voltage against time, the cutoff, the end with its reason, the state of charge in a second panel, and shaded bands
 /// for long stretches of one mode.
 pub fn discharge(
     design: &Design,
