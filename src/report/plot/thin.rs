@@ -178,12 +178,13 @@ mod tests {
         let band = voltage_band(&trace, 20, 100.0);
         assert_eq!(band.len(), 20);
         assert!(
-            band.iter().all(|s| s.high == 3.0 && s.low == 2.0),
+            band.iter()
+                .all(|s| (s.high - 3.0).abs() < 1e-12 && (s.low - 2.0).abs() < 1e-12),
             "{band:?}"
         );
         let lows = bucket_minima(&trace, 10);
         assert_eq!(lows.len(), 10);
-        assert!(lows.iter().all(|p| p.voltage == 2.0));
+        assert!(lows.iter().all(|p| (p.voltage - 2.0).abs() < 1e-12));
         assert!(lows.windows(2).all(|w| w[1].t_s - w[0].t_s > 99.0));
     }
 }
