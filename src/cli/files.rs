@@ -75,21 +75,25 @@ fn read_bounded(path: &Path, limit: u64) -> Result<String, Failure> {
     if meta.len() > limit {
         return Err(too_big(&format!("{} bytes", meta.len())));
     }
-    let mut bytes = Vec::with_capacity(usize::try_from(meta.len()).unwrap_or(0));
-    file.take(limit + 1)
-        .read_to_end(&mut bytes)
-        .map_err(|e| fail(&e))?;
-    if bytes.len() as u64 > limit {
+    let Some(bytes) = read_capped(file, meta.len(), limit).map_err(|e| fail(&e))? else {
         return Err(too_big(&format!(
             "more than {mib} MiB (it grew while being read)"
         )));
-    }
+    };
     String::from_utf8(bytes).map_err(|e| {
         Failure::Input(format!(
             "cannot read `{shown}`: byte {} is not UTF-8 text; save the file as UTF-8",
             e.utf8_error().valid_up_to() + 1
         ))
     })
+}
+
+/// All of `reader` if it holds at most `limit` bytes (`None` if more): never more than
+/// `limit + 1` bytes are read, whatever the reader (a file that grows, a device that never ends).
+fn read_capped(reader: impl Read, expected: u64, limit: u64) -> io::Result<Option<Vec<u8>>> {
+    let mut bytes = Vec::with_capacity(usize::try_from(expected.min(limit)).unwrap_or(0));
+    reader.take(limit + 1).read_to_end(&mut bytes)?;
+    Ok((bytes.len() as u64 <= limit).then_some(bytes))
 }
 
 /// Write `bytes` to standard output. A reader that stops early (`| head`) is not an error.
@@ -185,7 +189,15 @@ mod tests {
     use super::*;
 
     #[test]
-    fn a_file_that_grows_past_the_limit_is_refused() {
+    fn a_reader_that_never_ends_is_cut_one_byte_past_the_limit() {
+        // `io::repeat` never ends, like a file that keeps growing while it is read.
+        assert_eq!(read_capped(io::repeat(b'x'), 0, 1000).unwrap(), None);
+        let small = read_capped(&b"abc"[..], 3, 3).unwrap();
+        assert_eq!(small.as_deref(), Some(&b"abc"[..]));
+    }
+
+    #[test]
+    fn a_file_above_the_limit_is_refused_and_one_at_it_read() {
         let dir = tempfile::tempdir().unwrap();
         let p = dir.path().join("a.yaml");
         fs::write(&p, "x".repeat(100)).unwrap();
