@@ -433,6 +433,11 @@ fn compare_png_is_not_blank() {
     let (dims, colours) = png_look(&bytes);
     assert_eq!(dims, (1200, 800));
     assert!(colours > 20);
+    // Long titles wrap inside the picture, at any size.
+    margins_blank(&bytes, 3).unwrap();
+    let small = compare_discharge(&entries, PlotFormat::Png, (640, 480)).expect("compare PNG");
+    keep("three-compare-640x480.png", &small);
+    margins_blank(&small, 3).unwrap();
 }
 
 #[test]

@@ -9,7 +9,7 @@ use super::style::{
     Dash, GREY, INK, MESH_BOLD, MESH_LIGHT, Shape, Swatch, TimeUnit, Type, fit_lines, label,
     legend, marker, pixel_line, px, series, text,
 };
-use super::thin::lower_envelope;
+use super::thin::{bucket_minima, lower_envelope, mark_count};
 use super::{Canvas, Painter, PlotError, PlotFormat, render};
 use crate::model::Design;
 use crate::solve::RunResult;
@@ -17,7 +17,7 @@ use crate::units::{fmt_duration, fmt_eng};
 
 /// The discharges of several designs on one chart, each with its letter (A, B, C, ... as in
 /// `compare`'s table), colour, line pattern and marker shape: the lowest terminal voltage of each
-/// stretch of its trace, its cutoff, its end, and its state of charge in a second panel. The
+/// stretch of its trace (as marks), its cutoff, its end, and its state of charge in a second panel. The
 /// legend names each design by its title, and also by its source (the `&str` of its entry,
 /// usually the file it was read from) when titles repeat. Every run must have a trace.
 pub fn compare_discharge(
@@ -100,6 +100,7 @@ impl Painter for Compare<'_, '_> {
             .fold(0.0, f64::max);
         let unit = TimeUnit::for_span(t_end);
         let names = series_names(e);
+        let dot = (ty.body * 0.16).round().max(2.0) as i32;
         let mut y = header(root, "Discharge compared", &[], ty, pad)?;
         // One row per design (wrapped when long): its line, letter, name, runtime and end.
         let sample = (ty.body * 2.2) as i32;
@@ -115,6 +116,14 @@ impl Painter for Compare<'_, '_> {
             );
             let cy = y + row_h / 2;
             line(root, vec![(pad, cy), (pad + sample, cy)], k)?;
+            marker(
+                root,
+                (pad + sample / 2, cy),
+                Shape::nth(k),
+                dot,
+                series(k),
+                true,
+            )?;
             for (i, part) in fit_lines(root, &words, ty.body, px(w) - 2 * pad - sample - 6)
                 .iter()
                 .enumerate()
@@ -136,8 +145,8 @@ impl Painter for Compare<'_, '_> {
             (Swatch::Mark(Shape::Diamond, GREY, true), "end".into()),
         ];
         y += legend(root, &keys, (pad, y), px(w) - 2 * pad, ty.body, false)?;
-        let note =
-            "Voltage: the lowest terminal voltage in each stretch of the run (pulses included).";
+        let note = "Marks: the lowest terminal voltage in each stretch of the run (the pulses); \
+                    lines: the state of charge.";
         label(
             root,
             note,
@@ -184,11 +193,13 @@ impl Painter for Compare<'_, '_> {
         for (k, (_, d, r)) in e.iter().enumerate() {
             let pass: f64 = d.profile.iter().map(crate::model::Step::duration).sum();
             let env = lower_envelope(&r.trace, buckets, pass);
-            let v_px: Vec<(i32, i32)> = env
-                .iter()
-                .map(|p| vc.backend_coord(&(p.t_s / unit.seconds, p.voltage)))
-                .collect();
-            line(root, v_px, k)?;
+            // The lowest voltages as marks, not a line: between pulses the pack is higher.
+            let span = r.trace.last().map_or(0.0, |p| p.t_s);
+            let most = (f64::from(w / 12) * span / t_end.max(1e-9)) as usize;
+            for p in bucket_minima(&r.trace, mark_count(most, span, pass)) {
+                let at = vc.backend_coord(&(p.t_s / unit.seconds, p.voltage));
+                marker(root, at, Shape::nth(k), dot, series(k), true)?;
+            }
             let s_px: Vec<(i32, i32)> = env
                 .iter()
                 .map(|p| sc.backend_coord(&(p.t_s / unit.seconds, p.soc * 100.0)))

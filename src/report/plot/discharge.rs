@@ -10,7 +10,7 @@ use super::style::{
     Type, VERMILLION, end_words, fill, fit_lines, label, legend, marker, pixel_line, px, text,
     text_width,
 };
-use super::thin::{bucket_minima, decimate, voltage_band};
+use super::thin::{bucket_minima, decimate, mark_count, voltage_band};
 use super::{Canvas, Painter, PlotError, PlotFormat, render};
 use crate::model::Design;
 use crate::report::runtime::end_sentence;
@@ -226,7 +226,8 @@ impl Painter for Discharge<'_> {
         let trace = decimate(&r.trace, MAX_POINTS);
         let pass: f64 = d.profile.iter().map(crate::model::Step::duration).sum();
         let band = voltage_band(&r.trace, (w / 3) as usize, pass);
-        let minima = bucket_minima(&r.trace, (w / 9) as usize);
+        let span = r.trace.last().map_or(0.0, |p| p.t_s);
+        let minima = bucket_minima(&r.trace, mark_count((w / 9) as usize, span, pass));
         let band_list = bands(d, r.end.t_s);
         let (band_legend, band_colour) = band_keys(d, &band_list);
 

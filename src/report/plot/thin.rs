@@ -125,6 +125,18 @@ pub fn voltage_band(trace: &[TracePoint], n: usize, period: f64) -> Vec<Span> {
         .collect()
 }
 
+/// How many buckets of [`bucket_minima`] to take over a trace `span` seconds long: `most`, but
+/// none shorter than one pass of the profile (`pass` seconds), so that each holds a pulse, and
+/// at least 8.
+pub fn mark_count(most: usize, span: f64, pass: f64) -> usize {
+    let passes = if pass > 0.0 {
+        span / pass
+    } else {
+        f64::INFINITY
+    };
+    most.min(passes.floor().max(8.0) as usize)
+}
+
 /// The lowest point of each of `n` equal time buckets that holds a point, in time order.
 pub fn bucket_minima(trace: &[TracePoint], n: usize) -> Vec<TracePoint> {
     if trace.is_empty() || n == 0 {
