@@ -103,7 +103,7 @@ pub fn write_stdout(bytes: &[u8]) -> Result<(), Failure> {
         Ok(()) => Ok(()),
         Err(e) if e.kind() == io::ErrorKind::BrokenPipe => Ok(()),
         Err(e) => Err(Failure::Input(format!(
-            "cannot write the output: {e}; write to a file with `-o` instead"
+            "cannot write to standard output: {e}; check where it is redirected"
         ))),
     }
 }
