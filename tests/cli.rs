@@ -598,3 +598,209 @@ fn an_ambient_outside_the_cell_temperature_table_warns() {
     assert!(!out.stdout.contains("warning:"), "{}", out.stdout);
     assert!(out.stderr.is_empty(), "{}", out.stderr);
 }
+
+/// Whether `path` is a character device (Unix); false elsewhere or when it does not exist.
+fn is_char_device(path: &str) -> bool {
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::FileTypeExt;
+        std::fs::metadata(path).is_ok_and(|m| m.file_type().is_char_device())
+    }
+    #[cfg(not(unix))]
+    {
+        let _ = path;
+        false
+    }
+}
+
+#[test]
+fn output_onto_a_full_device_fails_and_keeps_the_device() {
+    // `/dev/full` refuses every write with "no space left on device" (Linux); it must be
+    // written to, not replaced by a regular file.
+    if !is_char_device("/dev/full") {
+        return;
+    }
+    let out = Test::new()
+        .design(&tree())
+        .args(&["budget", "{file}", "-o", "/dev/full"])
+        .expect_code(1);
+    assert!(
+        out.stderr.contains("cannot write `/dev/full`") && out.stderr.contains("space"),
+        "{}",
+        out.stderr
+    );
+    assert!(is_char_device("/dev/full"), "/dev/full was replaced");
+    assert!(!std::path::Path::new("/dev/.full.partial").exists());
+}
+
+#[cfg(unix)]
+#[test]
+fn output_through_a_symlink_writes_its_target_and_keeps_the_link() {
+    let t = Test::new().design(&tree()).args(&[
+        "budget",
+        "{file}",
+        "--format",
+        "json",
+        "-o",
+        "link.json",
+    ]);
+    std::fs::create_dir(t.dir().join("real")).unwrap();
+    std::fs::write(t.dir().join("real/out.json"), "old").unwrap();
+    std::os::unix::fs::symlink("real/out.json", t.dir().join("link.json")).unwrap();
+    t.expect_code(0);
+    let link = std::fs::symlink_metadata(t.dir().join("link.json")).unwrap();
+    assert!(link.file_type().is_symlink(), "the link was replaced");
+    let text = std::fs::read_to_string(t.dir().join("real/out.json")).unwrap();
+    let v: serde_json::Value = serde_json::from_str(&text).unwrap();
+    assert_eq!(v["modes"].as_array().unwrap().len(), 2);
+    // The temporary file lived beside the target and is gone.
+    assert!(!t.dir().join("real/.out.json.partial").exists());
+    assert!(!t.dir().join(".link.json.partial").exists());
+}
+
+#[cfg(unix)]
+#[test]
+fn a_failed_output_write_leaves_no_partial_file_and_the_old_file_whole() {
+    // A file-size limit of one block makes the write fail part way (EFBIG); the shell ignores
+    // SIGXFSZ so that the program sees the error instead of being killed (an ignored signal
+    // stays ignored across exec).
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("schema.json"), "old").unwrap();
+    let out = std::process::Command::new("sh")
+        .arg("-c")
+        .arg("trap '' XFSZ; ulimit -f 1; exec \"$0\" schema -o schema.json")
+        .arg(env!("CARGO_BIN_EXE_joulepath"))
+        .current_dir(dir.path())
+        .output()
+        .unwrap();
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(1), "{stderr}");
+    assert!(stderr.contains("cannot write `schema.json`"), "{stderr}");
+    assert!(!dir.path().join(".schema.json.partial").exists());
+    assert_eq!(
+        std::fs::read_to_string(dir.path().join("schema.json")).unwrap(),
+        "old"
+    );
+}
+
+#[test]
+fn inputs_that_are_not_regular_files_are_refused() {
+    // `/dev/zero` never ends: reading it whole once grew the process to 21 GB.
+    if std::path::Path::new("/dev/zero").exists() {
+        let out = Test::new().args(&["check", "/dev/zero"]).expect_code(1);
+        assert!(
+            out.stderr.contains("`/dev/zero`") && out.stderr.contains("not a regular file"),
+            "{}",
+            out.stderr
+        );
+        let out = Test::new()
+            .args(&[
+                "fit-cell",
+                "--curve",
+                "100 mA:/dev/zero",
+                "--curve",
+                "1 A:/dev/zero",
+            ])
+            .expect_code(1);
+        assert!(out.stderr.contains("not a regular file"), "{}", out.stderr);
+    }
+    let t = Test::new().args(&["runtime", "."]);
+    let out = t.expect_code(1);
+    assert!(out.stderr.contains("a directory"), "{}", out.stderr);
+}
+
+#[test]
+fn inputs_above_64_mib_are_refused_unread() {
+    let t = Test::new().args(&["check", "big.yaml"]);
+    // A sparse file: 65 MiB long, nothing written.
+    let f = std::fs::File::create(t.dir().join("big.yaml")).unwrap();
+    f.set_len(65 * 1024 * 1024).unwrap();
+    let out = t.expect_code(1);
+    assert!(
+        out.stderr.contains("68157440 bytes") && out.stderr.contains("64 MiB"),
+        "{}",
+        out.stderr
+    );
+    // The same for a discharge curve.
+    let curve = t.dir().join("big.yaml").display().to_string();
+    let out = Test::new()
+        .args(&[
+            "fit-cell",
+            "--curve",
+            &format!("100 mA:{curve}"),
+            "--curve",
+            &format!("1 A:{curve}"),
+        ])
+        .expect_code(1);
+    assert!(out.stderr.contains("64 MiB"), "{}", out.stderr);
+}
+
+#[test]
+fn set_variants_show_their_overrides_in_every_title() {
+    let tag = "[battery.parallel=2, loads.led.draw.lit=30 mW]";
+    let sets = [
+        "--set",
+        "battery.parallel=2",
+        "--set",
+        "loads.led.draw.lit=30 mW",
+    ];
+    let with = |args: &[&str]| -> Vec<String> {
+        let mut v: Vec<String> = args.iter().map(|s| (*s).to_string()).collect();
+        v.extend(sets.iter().map(|s| (*s).to_string()));
+        v
+    };
+    let run = |args: Vec<String>| {
+        let refs: Vec<&str> = args.iter().map(String::as_str).collect();
+        let t = Test::new().design(&tree()).args(&refs);
+        let out = t.expect_code(0);
+        let file = |n: &str| std::fs::read_to_string(t.dir().join(n)).unwrap_or_default();
+        (out, file("p.svg"), file("r.html"))
+    };
+    let title = format!("Test lamp, one lithium-ion cell, buck to 3.3 V {tag}");
+    let (out, _, _) = run(with(&["runtime", "{file}"]));
+    assert!(
+        out.stdout.starts_with(&format!("{title}\n")),
+        "{}",
+        out.stdout
+    );
+    let (out, _, _) = run(with(&["runtime", "{file}", "--format", "json"]));
+    assert_eq!(out.json()["design"], title.as_str());
+    let (out, _, _) = run(with(&["heat", "{file}", "--format", "json"]));
+    assert_eq!(out.json()["design"], title.as_str());
+    let (out, _, _) = run(with(&["budget", "{file}", "--format", "json"]));
+    assert_eq!(out.json()["design"], title.as_str());
+    let (_, svg, _) = run(with(&["plot", "{file}", "-o", "p.svg"]));
+    assert!(
+        svg.contains("[battery.parallel=2,"),
+        "no overrides in the picture"
+    );
+    let (_, _, html) = run(with(&["report", "{file}", "-o", "r.html"]));
+    assert!(
+        html.contains(&format!("<h1>{title}</h1>")),
+        "no overrides in the report's heading"
+    );
+    // Without overrides the title is the file's; compare tells the variant from the base.
+    let (out, _, _) = run(vec!["runtime".into(), "{file}".into()]);
+    assert!(
+        out.stdout
+            .starts_with("Test lamp, one lithium-ion cell, buck to 3.3 V\n")
+    );
+    let (out, _, _) = run(vec![
+        "compare".into(),
+        "{file}".into(),
+        "{file}".into(),
+        "--set".into(),
+        "battery.parallel=2".into(),
+        "--format".into(),
+        "json".into(),
+    ]);
+    let v = out.json();
+    assert_eq!(
+        v["designs"][0]["design"],
+        "Test lamp, one lithium-ion cell, buck to 3.3 V"
+    );
+    assert_eq!(
+        v["designs"][1]["design"],
+        "Test lamp, one lithium-ion cell, buck to 3.3 V [battery.parallel=2]"
+    );
+}

@@ -92,7 +92,7 @@ fn discharge_svg_names_axes_cutoff_and_end() {
     for want in [
         "pack voltage (V)",
         "state of charge (%)",
-        "time from start (d, days)",
+        "time from start (d)",
         "cutoff 2.00 V",
         "open-circuit voltage",
         "lowest terminal voltage",
@@ -116,7 +116,7 @@ fn discharge_shades_long_mode_stretches() {
     let t = svg_texts(&svg);
     assert!(has(&t, "short cycles, mostly `track`"), "{t:?}");
     assert!(has(&t, "short cycles, mostly `rest`"), "{t:?}");
-    assert!(has(&t, "time from start (d, days)"));
+    assert!(has(&t, "time from start (d)"));
 }
 
 #[test]
@@ -258,14 +258,124 @@ fn compare_svg_labels_every_design() {
     keep("scanner-compare.svg", &svg);
     let t = svg_texts(&svg);
     for want in [
-        "boost: Barcode scanner",
-        "buck-boost: Barcode scanner",
+        "A: Barcode scanner, 3 x NiMH AA, boost to 3.3 V, runtime",
+        "B: Barcode scanner, 3 x NiMH AA, buck-boost to 3.3 V, runtime",
         "lowest pack voltage (V)",
         "state of charge (%)",
-        "cutoff 3.00 V",
-        "(cutoff)",
+        "cutoff 3.00 V (A, B)",
+        ", cutoff",
     ] {
         assert!(has(&t, want), "no `{want}` in {t:?}");
+    }
+}
+
+#[test]
+fn compare_plot_names_designs_by_title_and_by_file_only_when_titles_repeat() {
+    let a = load("scanner-boost.yaml");
+    let b = load("scanner-buck-boost.yaml");
+    let (ra, rb) = (traced(&a), traced(&b));
+    let (pa, pb) = (
+        "/some/long/directory/of/designs/scanner-boost.yaml",
+        "/some/long/directory/of/designs/scanner-buck-boost.yaml",
+    );
+    // Different titles: the titles name the series; the paths appear nowhere.
+    let svg = compare_discharge(
+        &[(pa, &a, &ra), (pb, &b, &rb)],
+        PlotFormat::Svg,
+        DEFAULT_SIZE,
+    )
+    .expect("compare SVG");
+    let t = svg_texts(&svg);
+    assert!(has(&t, &format!("A: {}", a.title)), "{t:?}");
+    assert!(has(&t, &format!("B: {}", b.title)), "{t:?}");
+    assert!(!has(&t, "/some/long/directory"), "{t:?}");
+    // The same title twice: letters and titles, and the legend says which file is which.
+    let svg = compare_discharge(
+        &[(pa, &a, &ra), ("copy.yaml", &a, &ra)],
+        PlotFormat::Svg,
+        (1400, 800),
+    )
+    .expect("compare SVG");
+    keep("repeated-titles-compare.svg", &svg);
+    let t = svg_texts(&svg);
+    assert!(has(&t, &format!("A: {} ({pa})", a.title)), "{t:?}");
+    assert!(has(&t, &format!("B: {} (copy.yaml)", a.title)), "{t:?}");
+}
+
+#[test]
+fn time_axis_names_its_unit_once() {
+    let d = load("coin-cell-tag.yaml");
+    let r = traced(&d);
+    let svg = discharge(&d, &r, PlotFormat::Svg, DEFAULT_SIZE).expect("discharge SVG");
+    let t = svg_texts(&svg);
+    assert!(t.iter().any(|x| x == "time from start (d)"), "{t:?}");
+    assert!(!has(&t, "days)"), "{t:?}");
+}
+
+#[test]
+fn discharge_draws_pulse_minima_as_dots_and_the_voltage_as_a_band() {
+    // The tag sleeps between radio bursts: its terminal voltage spends nearly all its time near
+    // the open-circuit voltage. A line through the lowest points would suggest it sits low.
+    let d = load("coin-cell-tag.yaml");
+    let r = traced(&d);
+    let svg = discharge(&d, &r, PlotFormat::Svg, DEFAULT_SIZE).expect("discharge SVG");
+    keep("coin-band-discharge.svg", &svg);
+    let t = svg_texts(&svg);
+    assert!(has(&t, "terminal voltage, lowest to highest"), "{t:?}");
+    assert!(has(&t, "lowest terminal voltage (pulses)"), "{t:?}");
+    let s = String::from_utf8(svg).unwrap();
+    // Plotters writes a filled circle as `<circle`, a filled polygon as `<polygon`.
+    let dots = s.matches("<circle").count();
+    assert!(dots >= 50, "{dots} dots for the pulse minima");
+    assert!(s.contains("<polygon"), "no band");
+    // No thick line: the old trace of minima was a polyline of width 3.
+    assert!(
+        !s.contains("stroke-width=\"3\""),
+        "a thick line is still drawn"
+    );
+}
+
+/// Whether a band `edge` pixels wide along every side of a picture is blank paper: text or a
+/// line that reaches the edge has been cut off.
+fn margins_blank(bytes: &[u8], edge: u32) -> Result<(), String> {
+    let img = image::load_from_memory_with_format(bytes, image::ImageFormat::Png)
+        .expect("PNG decodes")
+        .to_rgb8();
+    let (w, h) = img.dimensions();
+    for (x, y, p) in img.enumerate_pixels() {
+        let near = x < edge || y < edge || x >= w - edge || y >= h - edge;
+        if near && p.0.iter().any(|c| *c < 235) {
+            return Err(format!("ink at ({x}, {y}) of {w} x {h}"));
+        }
+    }
+    Ok(())
+}
+
+#[test]
+fn no_picture_is_clipped_at_its_edges() {
+    // Found by looking: the wearable band's losses at 640 x 480 cut its longest bar's words
+    // ("64.1 mWh (81.9 % of loss") at the right edge, and its legend touched the bottom.
+    for path in example_files() {
+        let name = path.file_stem().unwrap().to_string_lossy().to_string();
+        let d = Design::from_text(&std::fs::read_to_string(&path).unwrap()).unwrap();
+        let r = traced(&d);
+        for size in [(640, 480), (1200, 800)] {
+            let mut pictures = vec![
+                ("discharge", discharge(&d, &r, PlotFormat::Png, size)),
+                ("losses", losses(&d, &r, PlotFormat::Png, size)),
+            ];
+            if d.stages.iter().any(|s| s.kind.is_switching()) {
+                let e = efficiency(&d, &start_budget(&d), Some(&r), PlotFormat::Png, size);
+                pictures.push(("efficiency", e));
+            }
+            for (kind, bytes) in pictures {
+                let bytes = bytes.unwrap();
+                keep(&format!("{name}-{kind}-{}x{}.png", size.0, size.1), &bytes);
+                if let Err(e) = margins_blank(&bytes, 3) {
+                    panic!("{name} {kind} at {size:?}: {e}");
+                }
+            }
+        }
     }
 }
 
@@ -324,6 +434,11 @@ fn compare_png_is_not_blank() {
     let (dims, colours) = png_look(&bytes);
     assert_eq!(dims, (1200, 800));
     assert!(colours > 20);
+    // Long titles wrap inside the picture, at any size.
+    margins_blank(&bytes, 3).unwrap();
+    let small = compare_discharge(&entries, PlotFormat::Png, (640, 480)).expect("compare PNG");
+    keep("three-compare-640x480.png", &small);
+    margins_blank(&small, 3).unwrap();
 }
 
 #[test]

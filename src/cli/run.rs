@@ -63,8 +63,7 @@ impl Failure {
 }
 
 fn read(path: &Path) -> Result<String, Failure> {
-    std::fs::read_to_string(path)
-        .map_err(|e| Failure::Input(format!("cannot read `{}`: {e}", path.display())))
+    super::files::read_input(path)
 }
 
 fn load(path: &Path) -> Result<Design, Failure> {
@@ -79,14 +78,24 @@ fn load_with(path: &Path, sets: &[String]) -> Result<Design, Failure> {
         .map(|s| Override::parse(s))
         .collect::<Result<Vec<_>, _>>()
         .map_err(|d| Failure::Usage(format!("{} ({})", d.message(), d.hint().unwrap_or(""))))?;
-    Design::from_text_with(&text, &overrides).map_err(|e| match e {
+    let mut d = Design::from_text_with(&text, &overrides).map_err(|e| match e {
         Error::Invalid(diagnostics) => Failure::Invalid {
             file: path.to_path_buf(),
             text,
             diagnostics,
         },
         other => Failure::Input(other.to_string()),
-    })
+    })?;
+    // A variant says what was changed wherever its title is shown (tables, JSON `design`,
+    // pictures, the report), so that variants of one file can be told apart.
+    if !overrides.is_empty() {
+        let changes: Vec<String> = overrides
+            .iter()
+            .map(|o| format!("{}={}", o.path, o.value))
+            .collect();
+        d.title = format!("{} [{}]", d.title, changes.join(", "));
+    }
+    Ok(d)
 }
 
 fn format(f: FormatArg) -> Format {
@@ -100,25 +109,8 @@ fn format(f: FormatArg) -> Format {
 /// Write `bytes` to `out`, or standard output; a file is written whole or not at all.
 fn emit(bytes: &[u8], out: Option<&Path>) -> Result<(), Failure> {
     match out {
-        None => match io::stdout().lock().write_all(bytes) {
-            Ok(()) => Ok(()),
-            // A reader that stops early (`| head`) is not an error.
-            Err(e) if e.kind() == io::ErrorKind::BrokenPipe => Ok(()),
-            Err(e) => Err(Failure::Input(format!("cannot write the output: {e}"))),
-        },
-        Some(path) => {
-            let name = path
-                .file_name()
-                .map_or_else(|| "out".into(), |n| n.to_string_lossy().into_owned());
-            let tmp = path.with_file_name(format!(".{name}.partial"));
-            let fail =
-                |e: io::Error| Failure::Input(format!("cannot write `{}`: {e}", path.display()));
-            std::fs::write(&tmp, bytes).map_err(fail)?;
-            std::fs::rename(&tmp, path).map_err(|e| {
-                let _ = std::fs::remove_file(&tmp);
-                fail(e)
-            })
-        }
+        None => super::files::write_stdout(bytes),
+        Some(path) => super::files::write_output(bytes, path),
     }
 }
 
@@ -343,9 +335,17 @@ fn compare(ca: &CompareArgs) -> Result<(), Failure> {
         })
         .collect();
     if let Some(path) = &ca.plot {
+        // The picture names designs by title (which carries any overrides), and by file as
+        // given when titles repeat.
+        let files: Vec<String> = ca
+            .groups
+            .iter()
+            .map(|g| g.file.display().to_string())
+            .collect();
         let curves: Vec<(&str, &Design, &joulepath::solve::RunResult)> = entries
             .iter()
-            .map(|e| (e.label.as_str(), e.design, e.run))
+            .zip(&files)
+            .map(|(e, f)| (f.as_str(), e.design, e.run))
             .collect();
         let bytes = compare_plot(&curves, path)?;
         emit(&bytes, Some(path))?;

@@ -49,13 +49,7 @@ pub fn write_compare(w: &mut dyn Write, entries: &[Entry<'_>], format: Format) -
             let j = CompareJson {
                 designs: entries
                     .iter()
-                    .map(|e| {
-                        let mut r = RuntimeJson::new(e.design, e.run, false);
-                        if e.label.contains(" --set ") {
-                            r.design = format!("{} [{}]", e.design.title, e.label);
-                        }
-                        r
-                    })
+                    .map(|e| RuntimeJson::new(e.design, e.run, false))
                     .collect(),
             };
             serde_json::to_writer_pretty(&mut *w, &j)?;

@@ -6,18 +6,20 @@ use plotters::style::text_anchor::{HPos, VPos};
 
 use super::discharge::{Px, at_time, box_of, boxed, header, overlaps, soc_panel, tick, volt_range};
 use super::style::{
-    Dash, GREY, MESH_BOLD, MESH_LIGHT, Shape, Swatch, TimeUnit, Type, label, legend, marker,
-    pixel_line, px, series, text,
+    Dash, GREY, INK, MESH_BOLD, MESH_LIGHT, Shape, Swatch, TimeUnit, Type, fit_lines, label,
+    legend, marker, pixel_line, px, series, text,
 };
-use super::thin::lower_envelope;
+use super::thin::{bucket_minima, lower_envelope, mark_count};
 use super::{Canvas, Painter, PlotError, PlotFormat, render};
 use crate::model::Design;
 use crate::solve::RunResult;
 use crate::units::{fmt_duration, fmt_eng};
 
-/// The discharges of several designs on one chart, each with its label, colour, line pattern
-/// and marker shape: the lowest terminal voltage of each stretch of its trace, its cutoff, its
-/// end, and its state of charge in a second panel. Every run must have a trace.
+/// The discharges of several designs on one chart, each with its letter (A, B, C, ... as in
+/// `compare`'s table), colour, line pattern and marker shape: the lowest terminal voltage of each
+/// stretch of its trace (as marks), its cutoff, its end, and its state of charge in a second panel. The
+/// legend names each design by its title, and also by its source (the `&str` of its entry,
+/// usually the file it was read from) when titles repeat. Every run must have a trace.
 pub fn compare_discharge(
     entries: &[(&str, &Design, &RunResult)],
     format: PlotFormat,
@@ -34,6 +36,36 @@ pub fn compare_discharge(
 
 struct Compare<'a, 'b> {
     entries: &'b [(&'a str, &'a Design, &'a RunResult)],
+}
+
+/// The letter of entry `k`: A, B, C, ... (then AA, AB, ... past Z).
+pub(super) fn letter(k: usize) -> String {
+    let a = |i: usize| char::from(b'A' + u8::try_from(i % 26).unwrap_or(0));
+    if k < 26 {
+        a(k).to_string()
+    } else {
+        format!("{}{}", a(k / 26 - 1), a(k))
+    }
+}
+
+/// A row index as a pixel multiplier.
+fn px_of(i: usize) -> i32 {
+    i32::try_from(i).unwrap_or(i32::MAX)
+}
+
+/// What the legend calls each design: its title, or its title and source when titles repeat.
+pub(super) fn series_names(entries: &[(&str, &Design, &RunResult)]) -> Vec<String> {
+    let repeated = |t: &str| entries.iter().filter(|(_, d, _)| d.title == t).count() > 1;
+    entries
+        .iter()
+        .map(|(source, d, _)| {
+            if repeated(&d.title) {
+                format!("{} ({source})", d.title)
+            } else {
+                d.title.clone()
+            }
+        })
+        .collect()
 }
 
 /// The pattern of entry `k` (solid, long dashes, medium dashes, ...; dots are too faint here).
@@ -67,31 +99,54 @@ impl Painter for Compare<'_, '_> {
             .map(|(_, _, r)| r.end.t_s.max(r.trace.last().map_or(0.0, |p| p.t_s)))
             .fold(0.0, f64::max);
         let unit = TimeUnit::for_span(t_end);
-        let lines: Vec<String> = e
-            .iter()
-            .map(|(name, d, r)| {
-                format!(
-                    "{name}: {}, runtime {}, ends on {}.",
-                    d.title,
-                    fmt_duration(r.end.t_s),
-                    r.end.reason.name()
-                )
-            })
-            .collect();
-        let mut y = header(root, "Discharge compared", &lines, ty, pad)?;
-        let mut keys: Vec<(Swatch, String)> = e
-            .iter()
-            .enumerate()
-            .map(|(k, (name, _, _))| (Swatch::Line(series(k), 2, dash(k)), (*name).to_string()))
-            .collect();
-        keys.push((
-            Swatch::Line(GREY, 1, Dash::Dots),
-            "cutoff (thin, same colour)".into(),
-        ));
-        keys.push((Swatch::Mark(Shape::Diamond, GREY, true), "end".into()));
+        let names = series_names(e);
+        let dot = (ty.body * 0.16).round().max(2.0) as i32;
+        let mut y = header(root, "Discharge compared", &[], ty, pad)?;
+        // One row per design (wrapped when long): its line, letter, name, runtime and end.
+        let sample = (ty.body * 2.2) as i32;
+        let row_h = (ty.body * 1.45) as i32;
+        let style = text(ty.body, INK, HPos::Left, VPos::Center);
+        for (k, (_, _, r)) in e.iter().enumerate() {
+            let words = format!(
+                "{}: {}, runtime {}, ends on {}",
+                letter(k),
+                names[k],
+                fmt_duration(r.end.t_s),
+                r.end.reason.name()
+            );
+            let cy = y + row_h / 2;
+            line(root, vec![(pad, cy), (pad + sample, cy)], k)?;
+            marker(
+                root,
+                (pad + sample / 2, cy),
+                Shape::nth(k),
+                dot,
+                series(k),
+                true,
+            )?;
+            for (i, part) in fit_lines(root, &words, ty.body, px(w) - 2 * pad - sample - 6)
+                .iter()
+                .enumerate()
+            {
+                label(
+                    root,
+                    part,
+                    (pad + sample + 6, cy + row_h * px_of(i)),
+                    &style,
+                )?;
+                y += row_h;
+            }
+        }
+        let keys = [
+            (
+                Swatch::Line(GREY, 1, Dash::Dots),
+                "cutoff (thin, same colour)".to_string(),
+            ),
+            (Swatch::Mark(Shape::Diamond, GREY, true), "end".into()),
+        ];
         y += legend(root, &keys, (pad, y), px(w) - 2 * pad, ty.body, false)?;
-        let note =
-            "Voltage: the lowest terminal voltage in each stretch of the run (pulses included).";
+        let note = "Marks: the lowest terminal voltage in each stretch of the run (the pulses); \
+                    lines: the state of charge.";
         label(
             root,
             note,
@@ -134,15 +189,17 @@ impl Painter for Compare<'_, '_> {
         let buckets = (w / 3) as usize;
         let r_mark = (ty.body * 0.45) as i32;
         // Cutoffs closer than a fiftieth of the axis share one label.
-        let mut cutoffs: Vec<(f64, Vec<&str>, usize)> = Vec::new();
-        for (k, (name, d, r)) in e.iter().enumerate() {
+        let mut cutoffs: Vec<(f64, Vec<String>, usize)> = Vec::new();
+        for (k, (_, d, r)) in e.iter().enumerate() {
             let pass: f64 = d.profile.iter().map(crate::model::Step::duration).sum();
             let env = lower_envelope(&r.trace, buckets, pass);
-            let v_px: Vec<(i32, i32)> = env
-                .iter()
-                .map(|p| vc.backend_coord(&(p.t_s / unit.seconds, p.voltage)))
-                .collect();
-            line(root, v_px, k)?;
+            // The lowest voltages as marks, not a line: between pulses the pack is higher.
+            let span = r.trace.last().map_or(0.0, |p| p.t_s);
+            let most = (f64::from(w / 12) * span / t_end.max(1e-9)) as usize;
+            for p in bucket_minima(&r.trace, mark_count(most, span, pass)) {
+                let at = vc.backend_coord(&(p.t_s / unit.seconds, p.voltage));
+                marker(root, at, Shape::nth(k), dot, series(k), true)?;
+            }
             let s_px: Vec<(i32, i32)> = env
                 .iter()
                 .map(|p| sc.backend_coord(&(p.t_s / unit.seconds, p.soc * 100.0)))
@@ -156,8 +213,8 @@ impl Painter for Compare<'_, '_> {
                 .iter_mut()
                 .find(|c| (c.0 - cutoff).abs() < 0.02 * (v_hi - v_lo))
             {
-                Some(c) => c.1.push(name),
-                None => cutoffs.push((cutoff, vec![name], k)),
+                Some(c) => c.1.push(letter(k)),
+                None => cutoffs.push((cutoff, vec![letter(k)], k)),
             }
         }
         let mut placed: Vec<Px> = Vec::new();
@@ -183,7 +240,7 @@ impl Painter for Compare<'_, '_> {
         }
         let top = vc.backend_coord(&(0.0, v_hi)).1;
         let step = (ty.body * 1.7) as i32;
-        for (k, (name, d, r)) in e.iter().enumerate() {
+        for (k, (_, d, r)) in e.iter().enumerate() {
             let cutoff = d.pack.cutoff_v();
             let te = r.end.t_s / unit.seconds;
             let v_end = at_time(&r.trace, r.end.t_s).map_or(cutoff, |p| p.voltage);
@@ -196,7 +253,8 @@ impl Painter for Compare<'_, '_> {
                 (mv.0 + r_mark + 2, mv.1 + r_mark + 2),
             ));
             let words = format!(
-                "{name}: {} ({})",
+                "{}: {}, {}",
+                letter(k),
                 fmt_duration(r.end.t_s),
                 r.end.reason.name()
             );

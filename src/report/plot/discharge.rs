@@ -10,19 +10,22 @@ use super::style::{
     Type, VERMILLION, end_words, fill, fit_lines, label, legend, marker, pixel_line, px, text,
     text_width,
 };
-use super::thin::{decimate, lower_envelope};
+use super::thin::{bucket_minima, decimate, mark_count, voltage_band};
 use super::{Canvas, Painter, PlotError, PlotFormat, render};
 use crate::model::Design;
 use crate::report::runtime::end_sentence;
 use crate::solve::{RunResult, TracePoint};
 use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent};
 
+/// Opacity of the terminal-voltage band.
+const BAND_ALPHA: f64 = 0.45;
+
 /// Most trace points drawn as they are (more are decimated, keeping each bucket's minimum).
 pub(super) const MAX_POINTS: usize = 3000;
 
-/// The discharge of `run` (which must have been run with a trace): pack terminal voltage and
-/// open-circuit voltage against time, the lowest voltage of each stretch of the trace (pulses),
-/// the cutoff, the end with its reason, the state of charge in a second panel, and shaded bands
+/// The discharge of `run` (which must have been run with a trace): the band the pack terminal
+/// voltage moves in (lowest to highest near each time), the lowest voltage of each stretch of
+/// the trace (pulses) as dots, the open-circuit voltage against time, the cutoff, the end with its reason, the state of charge in a second panel, and shaded bands
 /// for long stretches of one mode.
 pub fn discharge(
     design: &Design,
@@ -222,7 +225,9 @@ impl Painter for Discharge<'_> {
         let unit = TimeUnit::for_span(t_end);
         let trace = decimate(&r.trace, MAX_POINTS);
         let pass: f64 = d.profile.iter().map(crate::model::Step::duration).sum();
-        let envelope = lower_envelope(&r.trace, (w / 3) as usize, pass);
+        let band = voltage_band(&r.trace, (w / 3) as usize, pass);
+        let span = r.trace.last().map_or(0.0, |p| p.t_s);
+        let minima = bucket_minima(&r.trace, mark_count((w / 9) as usize, span, pass));
         let band_list = bands(d, r.end.t_s);
         let (band_legend, band_colour) = band_keys(d, &band_list);
 
@@ -241,11 +246,11 @@ impl Painter for Discharge<'_> {
         )?;
         let mut keys = vec![
             (
-                Swatch::Line(SKY, 1, Dash::Solid),
-                "terminal voltage (traced points)".to_string(),
+                Swatch::Block(SKY, BAND_ALPHA),
+                "terminal voltage, lowest to highest".to_string(),
             ),
             (
-                Swatch::Line(BLUE, 3, Dash::Solid),
+                Swatch::Mark(Shape::Circle, BLUE, true),
                 "lowest terminal voltage (pulses)".into(),
             ),
             (
@@ -306,14 +311,27 @@ impl Painter for Discharge<'_> {
         let pts = |f: fn(&TracePoint) -> f64, list: &[TracePoint]| -> Vec<(f64, f64)> {
             list.iter().map(|p| (p.t_s / unit.seconds, f(p))).collect()
         };
-        vc.draw_series(LineSeries::new(
-            pts(|p| p.voltage, &trace),
-            SKY.stroke_width(1),
-        ))?;
-        vc.draw_series(LineSeries::new(
-            pts(|p| p.voltage, &envelope),
-            BLUE.stroke_width(3),
-        ))?;
+        // The terminal voltage as a band from its lowest to its highest value near each time,
+        // and the lowest points (the pulses) as dots: a line through the lowest points would
+        // suggest the pack sits that low between pulses.
+        let outline: Vec<(f64, f64)> = band
+            .iter()
+            .map(|s| (s.t_s / unit.seconds, s.high))
+            .chain(band.iter().rev().map(|s| (s.t_s / unit.seconds, s.low)))
+            .collect();
+        vc.draw_series(std::iter::once(Polygon::new(
+            outline.clone(),
+            SKY.mix(BAND_ALPHA).filled(),
+        )))?;
+        let mut ring = outline;
+        ring.extend(ring.first().copied());
+        vc.draw_series(std::iter::once(PathElement::new(ring, SKY.stroke_width(1))))?;
+        let dot = (ty.body / 6.0).round().max(2.0) as i32;
+        vc.draw_series(
+            minima
+                .iter()
+                .map(|p| Circle::new((p.t_s / unit.seconds, p.voltage), dot, BLUE.filled())),
+        )?;
         vc.draw_series(DashedLineSeries::new(
             pts(|p| p.ocv, &trace),
             12,

@@ -184,7 +184,6 @@ impl Painter for Losses<'_> {
         y += legend(root, &keys, (pad, y), px(w) - 2 * pad, ty.body, false)?;
 
         let (factor, symbol) = energy_unit(bars[0].total_j);
-        let x_hi = nice_ceiling(bars[0].total_j * factor * 1.22);
         let n = bars.len();
         let names: Vec<String> = bars
             .iter()
@@ -196,10 +195,14 @@ impl Painter for Losses<'_> {
             .max()
             .unwrap_or(0)
             + (ty.body * 1.2) as i32;
+        let values: Vec<String> = bars.iter().map(|b| value_words(b, total)).collect();
+        // The plotting width: the canvas less the side margins, the names and the right margin.
+        let plot_w = px(w) - 3 * pad - name_w.max(40);
+        let x_hi = axis_end(root, bars, &values, factor, plot_w, pad, ty.body);
         // The bars take the room down to a strip at the bottom that shows where all the energy
         // drawn from the cells went (when the picture is tall enough for both).
         let h = px(root.dim_in_pixel().1);
-        let split_h = (ty.body * 7.5) as i32;
+        let split_h = destination_height(root, r, ty, px(w) - 2 * pad)?;
         let left = h - y - 4;
         let bars_h = if left - split_h >= (ty.body * 12.0) as i32 {
             left - split_h
@@ -256,14 +259,23 @@ impl Painter for Losses<'_> {
             }
             let mid = ch.backend_coord(&(x, row + 0.5));
             let axis = ch.backend_coord(&(0.0, row + 0.5));
-            let share = if total > 0.0 { b.total_j / total } else { 0.0 };
-            let value = format!(
-                "{} ({} of losses)",
-                fmt_eng(b.total_j / 3600.0, "Wh"),
-                fmt_percent(share)
-            );
-            let body = text(ty.body, INK, HPos::Left, VPos::Center);
-            label(root, &value, (mid.0 + 6, mid.1), &body)?;
+            // The value right of the bar; where the canvas is too narrow for it, the energy
+            // alone, and else the energy inside the bar's end.
+            let room = px(w) - pad / 2 - (mid.0 + 6);
+            let energy = fmt_eng(b.total_j / 3600.0, "Wh");
+            let (value, at, anchor, ink) = if text_width(root, &values[rank], ty.body) <= room {
+                (values[rank].as_str(), mid.0 + 6, HPos::Left, INK)
+            } else if text_width(root, &energy, ty.body) <= room {
+                (energy.as_str(), mid.0 + 6, HPos::Left, INK)
+            } else {
+                (energy.as_str(), mid.0 - 6, HPos::Right, WHITE)
+            };
+            label(
+                root,
+                value,
+                (at, mid.1),
+                &text(ty.body, ink, anchor, VPos::Center),
+            )?;
             let name = text(ty.body, INK, HPos::Right, VPos::Center);
             label(root, &names[rank], (axis.0 - 8, axis.1), &name)?;
         }
@@ -271,20 +283,45 @@ impl Painter for Losses<'_> {
     }
 }
 
-/// One bar across the width: the energy drawn from the cells' open-circuit voltage, split into
-/// what reached the loads, what the stages lost and what the pack lost inside. Greys (told apart
-/// by lightness and named in place) keep it apart from the mode colours above.
-fn destination<DB: DrawingBackend>(
+/// The words beside a bar: its energy and its share of all losses.
+fn value_words(b: &Bar, total: f64) -> String {
+    let share = if total > 0.0 { b.total_j / total } else { 0.0 };
+    format!(
+        "{} ({} of losses)",
+        fmt_eng(b.total_j / 3600.0, "Wh"),
+        fmt_percent(share)
+    )
+}
+
+/// The end of the energy axis: a round number at least 5 % past the longest bar, and far enough
+/// that every bar's words fit between its end and the canvas's right edge, `plot_w` pixels of
+/// plot wide with `pad` to the right of it. Bars keep at least 40 % of the width; words that
+/// still do not fit are shortened where they are drawn.
+fn axis_end<DB: DrawingBackend>(
     root: &Canvas<DB>,
-    area: &Canvas<DB>,
-    r: &RunResult,
-    ty: Type,
-) -> Result<(), PlotError>
-where
-    DB::ErrorType: 'static,
-{
+    bars: &[Bar],
+    values: &[String],
+    factor: f64,
+    plot_w: i32,
+    pad: i32,
+    size: f64,
+) -> f64 {
+    let longest = bars[0].total_j * factor;
+    let plot_w = f64::from(plot_w.max(1));
+    let mut end = longest * 1.05;
+    for (b, words) in bars.iter().zip(values) {
+        // Pixels left for the bar once its words, their gap and half the margin are taken.
+        let room = plot_w + f64::from(pad) - f64::from(text_width(root, words, size) + 6);
+        let room = room.max(0.4 * plot_w);
+        end = end.max(b.total_j * factor * plot_w / room);
+    }
+    nice_ceiling(end.min(longest / 0.4))
+}
+
+/// Where the energy drawn from the cells went: energy, name, fill and text colour of each part.
+fn destination_parts(r: &RunResult) -> [(f64, &'static str, RGBColor, RGBColor); 3] {
     let l = &r.ledger;
-    let parts = [
+    [
         (
             l.load_energy_total(),
             "to the loads",
@@ -303,7 +340,57 @@ where
             RGBColor(160, 160, 160),
             INK,
         ),
-    ];
+    ]
+}
+
+/// The legend under the destination bar: each part that is not empty, with its energy and share.
+fn destination_keys(parts: &[(f64, &str, RGBColor, RGBColor)]) -> Vec<(Swatch, String)> {
+    let total: f64 = parts.iter().map(|p| p.0).sum();
+    parts
+        .iter()
+        .filter(|p| p.0 > 0.0)
+        .map(|&(e, name, colour, _)| {
+            (
+                Swatch::Block(colour, 1.0),
+                format!(
+                    "{name}: {} ({})",
+                    fmt_eng(e / 3600.0, "Wh"),
+                    fmt_percent(e / total)
+                ),
+            )
+        })
+        .collect()
+}
+
+/// The height the destination strip needs `width` pixels wide: its title, its bar, its legend
+/// (on as many rows as it takes) and a margin below.
+fn destination_height<DB: DrawingBackend>(
+    root: &Canvas<DB>,
+    r: &RunResult,
+    ty: Type,
+    width: i32,
+) -> Result<i32, PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    let keys = destination_keys(&destination_parts(r));
+    let rows = legend(root, &keys, (0, 0), width, ty.body, true)?;
+    Ok((ty.body * 4.3) as i32 + 6 + rows + (ty.body * 0.6) as i32)
+}
+
+/// One bar across the width: the energy drawn from the cells' open-circuit voltage, split into
+/// what reached the loads, what the stages lost and what the pack lost inside. Greys (told apart
+/// by lightness and named in place) keep it apart from the mode colours above.
+fn destination<DB: DrawingBackend>(
+    root: &Canvas<DB>,
+    area: &Canvas<DB>,
+    r: &RunResult,
+    ty: Type,
+) -> Result<(), PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    let parts = destination_parts(r);
     let total: f64 = parts.iter().map(|p| p.0).sum();
     if total <= 0.0 {
         return Ok(());
@@ -326,8 +413,7 @@ where
     let (bar_top, bar_h) = (top + (ty.body * 0.6) as i32, (ty.body * 2.2) as i32);
     let width = f64::from(x1 - x0);
     let mut x = f64::from(x0);
-    let mut keys = Vec::new();
-    for (e, name, colour, ink) in parts {
+    for (e, _, colour, ink) in parts {
         let w = width * e / total;
         let (a, b) = (x.round() as i32, (x + w).round() as i32);
         if b > a {
@@ -345,19 +431,9 @@ where
                 )?;
             }
         }
-        if e <= 0.0 {
-            continue;
-        }
-        keys.push((
-            Swatch::Block(colour, 1.0),
-            format!(
-                "{name}: {} ({})",
-                fmt_eng(e / 3600.0, "Wh"),
-                fmt_percent(e / total)
-            ),
-        ));
         x += w;
     }
+    let keys = destination_keys(&parts);
     legend(
         root,
         &keys,

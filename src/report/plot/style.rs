@@ -347,8 +347,6 @@ pub struct TimeUnit {
     pub seconds: f64,
     /// Symbol on the axis.
     pub symbol: &'static str,
-    /// Word in the axis title.
-    pub word: &'static str,
 }
 
 impl TimeUnit {
@@ -358,32 +356,28 @@ impl TimeUnit {
             TimeUnit {
                 seconds: 1.0,
                 symbol: "s",
-                word: "seconds",
             }
         } else if span_s < 2.0 * 3600.0 {
             TimeUnit {
                 seconds: 60.0,
                 symbol: "min",
-                word: "minutes",
             }
         } else if span_s < 3.0 * 86_400.0 {
             TimeUnit {
                 seconds: 3600.0,
                 symbol: "h",
-                word: "hours",
             }
         } else {
             TimeUnit {
                 seconds: 86_400.0,
                 symbol: "d",
-                word: "days",
             }
         }
     }
 
-    /// The axis title.
+    /// The axis title, with the unit's symbol as every other axis has it.
     pub fn title(self) -> String {
-        format!("time from start ({}, {})", self.symbol, self.word)
+        format!("time from start ({})", self.symbol)
     }
 }
 
