@@ -747,3 +747,84 @@ fn the_binary_survives_mutated_files() {
         }
     }
 }
+
+// ---------------------------------------------------------------------------------------------
+// Bounds on the input itself.
+
+/// The head of a valid design, for files whose profile is generated.
+const DEEP_HEAD: &str = "cells:
+  c: { capacity: 1 Ah, ocv: [[0 %, 3 V], [100 %, 4 V]], resistance: 0.1 ohm, cutoff: 3 V }
+battery: { cell: c }
+loads: [{ id: l, rail: battery, draw: { on: 1 mA } }]
+modes: { m: { l: on } }
+";
+
+/// Nesting tens of thousands of levels deep (brackets, or `repeat` blocks in flow and block
+/// style) is refused before any reader recurses into it: exit 1 with the place, quickly, where
+/// it used to overflow the stack (and the full parser took quadratic time).
+#[test]
+fn deep_nesting_is_refused_quickly_with_its_place() {
+    let mut block = format!("{DEEP_HEAD}profile:\n");
+    for i in 0..8000 {
+        let pad = "  ".repeat(i + 1);
+        block.push_str(&format!("{pad}- times: 2\n{pad}  repeat:\n"));
+    }
+    block.push_str(&format!("{}- {{ mode: m, for: 1 s }}\n", "  ".repeat(8002)));
+    let cases = [
+        (
+            format!("design: {}{}\n", "[".repeat(40_000), "]".repeat(40_000)),
+            "1:108",
+        ),
+        (
+            format!("design: {}{}\n", "[".repeat(160_000), "]".repeat(160_000)),
+            "1:108",
+        ),
+        (
+            format!(
+                "{DEEP_HEAD}profile: {}[{{ mode: m, for: 1 s }}]{}\n",
+                "[{ times: 2, repeat: ".repeat(8000),
+                "}]".repeat(8000)
+            ),
+            "6:",
+        ),
+        (block, "105:103"),
+    ];
+    for (text, at) in &cases {
+        let start = std::time::Instant::now();
+        let t = Test::new().design(text).args(&["check", "{file}"]);
+        let out = t.expect_code(1);
+        let file = t.file().display().to_string();
+        assert!(
+            start.elapsed().as_secs_f64() < 5.0,
+            "took {:?}",
+            start.elapsed()
+        );
+        assert!(
+            out.stderr
+                .contains("the file is nested too deep: more than 100 levels"),
+            "{}",
+            out.stderr
+        );
+        assert!(
+            out.stderr.contains(&format!("error: {file}:{at}")),
+            "{at}: {}",
+            out.stderr
+        );
+        assert!(out.stderr.contains("fix: "), "{}", out.stderr);
+        // The library says the same without the binary.
+        let e = Design::from_text(text).expect_err("too deep");
+        assert!(e.to_string().contains("nested too deep"), "{e}");
+    }
+    // A `--set` value nested as deep is refused too.
+    let out = Test::new()
+        .design(&format!("{DEEP_HEAD}profile: [{{ mode: m, for: 1 s }}]\n"))
+        .args(&[
+            "budget",
+            "{file}",
+            "--set",
+            &format!("design={}", "[".repeat(40_000)),
+        ])
+        .run();
+    assert!(out.code == 1 || out.code == 2, "{}", out.stderr);
+    assert!(out.stderr.contains("nested too deep"), "{}", out.stderr);
+}

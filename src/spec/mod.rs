@@ -2,6 +2,7 @@
 //! every structural problem of a file is reported at once, each with its YAML path and place.
 //! This is the only module that uses the YAML parser.
 
+mod depth;
 mod design;
 mod fastyaml;
 mod locate;
@@ -71,6 +72,10 @@ pub fn parse(text: &str) -> Result<Parsed, Vec<Diagnostic>> {
 /// assert_eq!(p.spec.battery.parallel.unwrap().text(), "3");
 /// ```
 pub fn parse_with(text: &str, overrides: &[Override]) -> Result<Parsed, Vec<Diagnostic>> {
+    // Bounded before any reader recurses into it.
+    if let Some(d) = depth::check(text) {
+        return Err(vec![d]);
+    }
     // The fast reader where the file allows and nothing is overridden; else the full parser.
     let fast = if overrides.is_empty() {
         fastyaml::parse(text)

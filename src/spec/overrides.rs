@@ -47,6 +47,16 @@ impl Override {
 /// Apply `o` to the document `root`; returns the index-form path of the value replaced (e.g.
 /// `stages[2].efficiency`), which the checker's messages use.
 pub(crate) fn apply(root: &mut Value, o: &Override) -> Result<String, Diagnostic> {
+    if super::depth::check(&o.value).is_some() {
+        return Err(Diagnostic::new(
+            format!("--set {}", o.path),
+            format!(
+                "the value is nested too deep: more than {} levels of lists and mappings",
+                super::depth::MAX_DEPTH
+            ),
+        )
+        .with_hint("give a plain value such as `90 mA` or a short list such as `[1 V, 3 V]`"));
+    }
     let value: Value =
         serde_yaml::from_str(&o.value).unwrap_or_else(|_| Value::String(o.value.clone()));
     let segments: Vec<&str> = o.path.split('.').collect();
