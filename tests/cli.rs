@@ -473,3 +473,36 @@ fn fit_cell_prints_a_cell_the_checker_accepts() {
         .args(&["fit-cell", "--curve", "low.csv", "--curve", &high])
         .expect_code(2);
 }
+
+/// Command-line quantities are held to the same physical ranges as the design's: an ambient
+/// below absolute zero or in Fahrenheit, and an absurd fit-cell current, are usage errors with a
+/// fix (exit 2), never a run.
+#[test]
+fn command_line_quantities_are_physical() {
+    let runtime = |ambient: &str| {
+        Test::new()
+            .design(&tree())
+            .args(&["runtime", "{file}", "--ambient", ambient])
+            .expect_code(2)
+    };
+    let out = runtime("-300 °C");
+    assert!(out.stderr.contains("below absolute zero"), "{}", out.stderr);
+    let out = runtime("1e6 °C");
+    assert!(out.stderr.contains("above 200 °C"), "{}", out.stderr);
+    let out = runtime("77 °F");
+    assert!(
+        out.stderr
+            .contains("Fahrenheit is not accepted: 77 °F is 25 °C; write `25 °C`"),
+        "{}",
+        out.stderr
+    );
+    assert!(!out.stderr.contains("`77 °C`"), "{}", out.stderr);
+    assert!(out.stdout.is_empty());
+    let dir = crate::util::root().join("tests/data/fit");
+    let high = format!("600 mA:{}", dir.join("synthetic-600mA.csv").display());
+    let absurd = format!("1e308 A:{}", dir.join("synthetic-120mA.csv").display());
+    let out = Test::new()
+        .args(&["fit-cell", "--curve", &absurd, "--curve", &high])
+        .expect_code(2);
+    assert!(out.stderr.contains("above 10 kA"), "{}", out.stderr);
+}

@@ -25,7 +25,7 @@ use crate::spec::{
     StageKindSpec, StageSpec, StepSpec, backticked,
 };
 use crate::tree::{MAX_DEPTH, Tree, TreeError};
-use crate::units::{Dim, Quantity, fmt_eng, fmt_percent, parse_quantity};
+use crate::units::{Dim, Quantity, fmt_eng, fmt_percent, parse_quantity, physical};
 
 /// Deepest nesting of `repeat` blocks.
 const MAX_REPEAT_NESTING: usize = 16;
@@ -84,7 +84,13 @@ impl Lower<'_> {
     /// a message (pass `format_args!`): a valid design of thousands of stages formats none.
     fn quantity(&mut self, q: &Qty, path: impl Display, dims: &[Dim]) -> Option<Quantity> {
         match parse_quantity(q.text(), dims) {
-            Ok(v) => Some(v),
+            Ok(v) => match physical(v, q.text()) {
+                Ok(()) => Some(v),
+                Err(e) => {
+                    self.err(&path.to_string(), e.message(), Some(e.hint().to_string()));
+                    None
+                }
+            },
             Err(e) => {
                 self.err(&path.to_string(), e.to_string(), e.hint());
                 None
