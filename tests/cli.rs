@@ -506,3 +506,36 @@ fn command_line_quantities_are_physical() {
         .expect_code(2);
     assert!(out.stderr.contains("above 10 kA"), "{}", out.stderr);
 }
+
+/// `--set` into an optional block the file leaves out (`battery.aging`) creates the block, as a
+/// left-out key is created: the aged pack runs shorter, in proportion to its capacity.
+#[test]
+fn set_creates_an_optional_block_the_file_leaves_out() {
+    let runtime = |sets: &[&str]| {
+        let mut args = vec!["runtime", "{file}", "--format", "json"];
+        for s in sets {
+            args.extend(["--set", s]);
+        }
+        Test::new()
+            .design(&tree())
+            .args(&args)
+            .expect_code(0)
+            .json()["runtime_s"]
+            .as_f64()
+            .unwrap()
+    };
+    let new = runtime(&[]);
+    let aged = runtime(&["battery.aging.capacity=80 %"]);
+    let ratio = aged / new;
+    assert!((0.7..0.9).contains(&ratio), "{aged} / {new} = {ratio}");
+    // A misspelt block is still an error naming what is there.
+    let out = Test::new()
+        .design(&tree())
+        .args(&["runtime", "{file}", "--set", "battery.agign.capacity=80 %"])
+        .expect_code(1);
+    assert!(
+        out.stderr.contains("there is no `agign` here"),
+        "{}",
+        out.stderr
+    );
+}
