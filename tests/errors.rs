@@ -215,6 +215,23 @@ fn the_library_agrees_with_the_binary_on_the_corpus() {
                 f.display()
             );
             assert!(!m.ends_with('.'), "{}: {m}", f.display());
+            // Every problem says how to fix it.
+            assert!(
+                d.hint().is_some_and(|h| !h.is_empty()),
+                "{}: no fix for {m:?}",
+                f.display()
+            );
+            // In plain words: none of the deserializer's own terms.
+            for jargon in [
+                "invalid type",
+                "unit value",
+                "struct ",
+                "Spec",
+                "sequence",
+                "Value::",
+            ] {
+                assert!(!m.contains(jargon), "{}: {m}", f.display());
+            }
         }
     }
 }

@@ -9,6 +9,7 @@ mod locate;
 mod node;
 mod overrides;
 mod qty;
+mod words;
 
 use indexmap::IndexMap;
 use serde::de::DeserializeOwned;
@@ -214,7 +215,23 @@ impl Reader<'_> {
             self.push(&at, format!("unknown value `{name}`"), Some(hint));
             return;
         }
-        self.push(path, msg.to_string(), None);
+        // A nested reader's prefix (`efficiency curve: ...`) before a message handled above.
+        if let Some((_, rest)) = msg.split_once(": ") {
+            if ["unknown field `", "missing field `", "unknown variant `"]
+                .iter()
+                .any(|p| rest.starts_with(p))
+            {
+                return self.serde_error(path, rest, v);
+            }
+        }
+        match words::reword(path, msg, v) {
+            Some(w) => self.push(&format!("{path}{}", w.below), w.message, Some(w.hint)),
+            None => self.push(
+                path,
+                msg.to_string(),
+                Some("see examples/ for the shape of each part of a design".into()),
+            ),
+        }
     }
 
     fn read_design(&mut self, root: Node<'_>) -> Option<DesignSpec> {
@@ -235,7 +252,7 @@ impl Reader<'_> {
                 self.push(
                     "",
                     format!("a top-level key must be a name, found {}", k.describe()),
-                    None,
+                    Some(format!("the top-level keys are {}", backticked(&TOP_KEYS))),
                 );
                 continue;
             };
@@ -309,7 +326,9 @@ impl Reader<'_> {
                         "`{name}` must be a list (items starting with `- `), found {}",
                         other.describe()
                     ),
-                    None,
+                    Some(format!(
+                        "write each item of `{name}` on a line starting with `- `"
+                    )),
                 );
                 Vec::new()
             }
@@ -330,7 +349,10 @@ impl Reader<'_> {
                         self.push(
                             name,
                             format!("a name in `{name}` must be text, found {}", k.describe()),
-                            None,
+                            Some(
+                                "use a name such as `sleep`; quote it if it looks like a number"
+                                    .into(),
+                            ),
                         );
                         continue;
                     };
@@ -345,7 +367,9 @@ impl Reader<'_> {
                     "`{name}` must be a mapping of names, found {}",
                     other.describe()
                 ),
-                None,
+                Some(format!(
+                    "write each entry of `{name}` as `NAME: ...` on its own indented line"
+                )),
             ),
         }
         out

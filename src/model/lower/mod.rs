@@ -109,15 +109,15 @@ impl Lower<'_> {
         if ok {
             Some(v)
         } else {
-            let what = if matches!(bound, Bound::AtLeastZero) {
-                "cannot be negative"
+            let (what, fix) = if matches!(bound, Bound::AtLeastZero) {
+                ("cannot be negative", "give zero or a positive value")
             } else {
-                "must be above zero"
+                ("must be above zero", "give a value above zero")
             };
             self.err(
                 &path.to_string(),
                 format!("{} `{}` {what}", capital(dim.noun()), q.text()),
-                None,
+                Some(format!("{fix}, such as `{}`", dim.example())),
             );
             None
         }
@@ -159,7 +159,12 @@ impl Lower<'_> {
                     lo * 100.0,
                     hi * 100.0
                 ),
-                None,
+                Some(format!(
+                    "give a value {} {} % and at most {} %, as a percentage or a fraction of one",
+                    if lo_closed { "from" } else { "above" },
+                    lo * 100.0,
+                    hi * 100.0
+                )),
             );
             None
         }
@@ -174,7 +179,7 @@ impl Lower<'_> {
             self.err(
                 &path.to_string(),
                 format!("`{}` is not a whole number from 1 to {max}", q.text()),
-                None,
+                Some(format!("give a whole number from 1 to {max}, such as `2`")),
             );
             None
         }

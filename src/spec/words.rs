@@ -1,0 +1,225 @@
+//! The deserializer's messages in plain words: `invalid type: unit value, expected struct
+//! CellSpec` becomes "`cell` is empty: it needs a cell name or a cell mapping", with a fix, at
+//! the key that holds the wrong value.
+
+use super::node::Node;
+
+/// A shape problem in words: where (below the item the deserializer read), what, and the fix.
+pub(super) struct Worded {
+    /// The path below the item, such as `.rail` (empty for the item itself).
+    pub below: String,
+    pub message: String,
+    pub hint: String,
+}
+
+/// `msg` (a deserializer's message about the value `v` at `path`) in plain words, or `None` when
+/// it is not one of the shapes known here.
+pub(super) fn reword(path: &str, msg: &str, v: &Node<'_>) -> Option<Worded> {
+    let (found, expected) = if let Some(rest) =
+        after(msg, "invalid type: ").or_else(|| after(msg, "invalid value: "))
+    {
+        let (f, e) = rest.split_once(", expected ")?;
+        (found_words(f), e.to_string())
+    } else {
+        let rest = after(msg, "expected ")?;
+        let (e, f) = rest.rsplit_once(", found ")?;
+        (f.to_string(), e.to_string())
+    };
+    let below = locate(v, &found).unwrap_or_default();
+    let full = format!("{path}{below}");
+    let key = last_key(&full);
+    let (noun, hint) = expected_words(&expected, key);
+    let message = if found == "nothing" {
+        format!("`{key}` is empty: it needs {noun}")
+    } else {
+        format!("`{key}` must be {noun}, not {found}")
+    };
+    Some(Worded {
+        below,
+        message,
+        hint,
+    })
+}
+
+/// The text after the first `pat` in `msg`.
+fn after<'m>(msg: &'m str, pat: &str) -> Option<&'m str> {
+    msg.find(pat).map(|i| &msg[i + pat.len()..])
+}
+
+/// The last key of a path (`battery.cell` -> `cell`, `stages[2]` -> `stages[2]`).
+fn last_key(path: &str) -> &str {
+    let key = path.rsplit('.').next().unwrap_or(path);
+    if key.is_empty() { "the file" } else { key }
+}
+
+/// serde's description of a value found, in the words of [`Node::describe`].
+fn found_words(f: &str) -> String {
+    let f = f.trim();
+    if f == "unit value" {
+        return "nothing".into();
+    }
+    if let Some(s) = f.strip_prefix("string ") {
+        return format!("the text `{}`", s.trim_matches('"'));
+    }
+    for (serde, words) in [
+        ("integer ", "the number "),
+        ("floating point ", "the number "),
+    ] {
+        if let Some(n) = f.strip_prefix(serde) {
+            return format!("{words}{n}");
+        }
+    }
+    if let Some(b) = f.strip_prefix("boolean ") {
+        return b.to_string();
+    }
+    match f {
+        "sequence" => "a list".into(),
+        "map" => "a mapping".into(),
+        "enum" => "a tagged value".into(),
+        other => other.to_string(),
+    }
+}
+
+/// What is expected, as a noun and a fix.
+fn expected_words(e: &str, key: &str) -> (String, String) {
+    let pair = |n: &str, h: &str| (n.to_string(), h.to_string());
+    match e.trim() {
+        "struct StageSpec" => pair(
+            "a stage (a mapping of its keys)",
+            "write the stage as `{ id: buck-3v3, kind: buck, input: battery, output: 3.3 V, efficiency: 90 % }`",
+        ),
+        "struct LoadSpec" => pair(
+            "a load (a mapping of its keys)",
+            "write the load as `{ id: mcu, rail: battery, draw: { run: 6 mA } }`",
+        ),
+        "struct StepSpec" => pair(
+            "a profile step",
+            "write the step as `{ mode: NAME, for: 1 h }` or `{ repeat: [...], times: N }`",
+        ),
+        "struct BatterySpec" => pair("the pack's mapping", "write `battery: { cell: NAME }`"),
+        "struct CellSpec" => pair(
+            "a cell mapping",
+            "give the cell's keys (`capacity`, `ocv`, `resistance`, `cutoff`) or `preset: NAME`",
+        ),
+        "struct PolarizationSpec" => pair(
+            "a polarization branch",
+            "write `{ resistance: 60 mΩ, time_constant: 20 s }`",
+        ),
+        "struct AgingSpec" => pair(
+            "aging factors",
+            "write `{ capacity: 90 %, resistance: 130 % }`",
+        ),
+        "struct TemperatureRowSpec" => pair(
+            "a temperature row",
+            "write `{ at: -20 °C, capacity: 55 %, resistance: 300 % }`",
+        ),
+        "struct VinCurveSpec" => pair(
+            "an efficiency curve at an input voltage",
+            "write `{ vin: 3 V, curve: [[1 mA, 75 %], [100 mA, 90 %]] }`",
+        ),
+        "struct LossSpec" => pair("loss terms", "write `{ drop: 0.05 V, resistance: 0.25 Ω }`"),
+        "a string" if key == "design" => pair("a title", "write a one-line title"),
+        "a string" => pair("a name", "write a name, such as `mcu` or `battery`"),
+        "a sequence" => pair(
+            "a list",
+            "write the items in brackets, `[a, b]`, or on lines starting with `- `",
+        ),
+        "a map" => pair(
+            "a mapping",
+            "write the entries as `{ key: value }` or on indented `key: value` lines",
+        ),
+        "a value with its unit such as `120 mA`" => pair(
+            "a value with its unit",
+            "write a number and its unit, such as `120 mA`",
+        ),
+        e if e.contains("cell name") => pair(
+            "a cell name or a cell mapping",
+            "give a preset name (`joulepath cells` lists them), a key of `cells`, or a cell mapping",
+        ),
+        e if e.contains("enum") || e.contains("tag") => match key {
+            "kind" => pair(
+                "a stage kind",
+                "write one of `buck`, `boost`, `buck-boost`, `linear` or `switch`",
+            ),
+            "chemistry" => pair(
+                "a chemistry",
+                "write one of `li-ion`, `lifepo4`, `nimh`, `alkaline`, `li-mno2`, `li-socl2`, `lead-acid` or `other`",
+            ),
+            _ => pair("a name", "write one of the names allowed here"),
+        },
+        other => (other.to_string(), format!("write {other} here")),
+    }
+}
+
+/// The path below `v` of the first value the words `found` describe (none for lists and
+/// mappings, which the words do not tell apart).
+fn locate(v: &Node<'_>, found: &str) -> Option<String> {
+    if matches!(found, "a list" | "a mapping") {
+        return None;
+    }
+    if v.describe() == found {
+        return Some(String::new());
+    }
+    match v {
+        Node::Map(m) => m.iter().find_map(|(k, x)| {
+            let key = k.as_str()?;
+            locate(x, found).map(|p| format!(".{key}{p}"))
+        }),
+        Node::Seq(items) => items
+            .iter()
+            .enumerate()
+            .find_map(|(i, x)| locate(x, found).map(|p| format!("[{i}]{p}"))),
+        _ => None,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::spec::parse;
+
+    /// The messages of a broken file, joined.
+    fn messages(text: &str) -> String {
+        let ds = parse(text).expect_err(text);
+        ds.iter()
+            .map(|d| format!("{}: {} ({})", d.path(), d.message(), d.hint().unwrap_or("")))
+            .collect::<Vec<_>>()
+            .join("\n")
+    }
+
+    #[test]
+    fn shapes_are_said_in_plain_words() {
+        for (text, want) in [
+            (
+                "battery: { cell: }\n",
+                "battery.cell: `cell` is empty: it needs a cell name or a cell mapping (give a preset name",
+            ),
+            (
+                "battery: { cell: c }\nloads: [{ id: a, rail: , draw: { on: 1 mA } }]\n",
+                "loads[0].rail: `rail` is empty: it needs a name",
+            ),
+            (
+                "battery: { cell: c }\nstages: [abc]\n",
+                "stages[0]: `stages[0]` must be a stage (a mapping of its keys), not the text `abc`",
+            ),
+            (
+                "battery: { cell: c, aging: 5 }\n",
+                "battery.aging: `aging` must be aging factors, not the number `5`",
+            ),
+            (
+                "battery: { cell: c }\nprofile: [5]\n",
+                "profile[0]: `profile[0]` must be a profile step, not the number `5`",
+            ),
+            (
+                "battery: { cell: c }\nstages: [{ id: s, kind: 5, input: battery }]\n",
+                "stages[0].kind: `kind` must be a stage kind, not the number `5` (write one of `buck`",
+            ),
+        ] {
+            let m = messages(text);
+            assert!(m.contains(want), "{text}\n{m}");
+            for jargon in ["invalid type", "unit value", "struct", "Spec", "sequence"] {
+                assert!(!m.contains(jargon), "{text}\n{m}");
+            }
+        }
+    }
+}
