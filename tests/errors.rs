@@ -845,3 +845,41 @@ fn deep_nesting_is_refused_quickly_with_its_place() {
     assert!(out.code == 1 || out.code == 2, "{}", out.stderr);
     assert!(out.stderr.contains("nested too deep"), "{}", out.stderr);
 }
+
+/// A byte-order mark is read past (places stay right), and a file that is not UTF-8 is refused
+/// with the place of its first bad byte and the fix, like any other problem of the file.
+#[test]
+fn byte_order_marks_and_other_encodings() {
+    let body = base_body();
+    let with_bom = format!("\u{feff}{body}");
+    Test::new()
+        .design(&with_bom)
+        .args(&["check", "{file}"])
+        .expect_code(0);
+    let broken = format!("\u{feff}{}", body.replacen("for: ", "for: -", 1));
+    let t = Test::new().design(&broken).args(&["check", "{file}"]);
+    let out = t.expect_code(1);
+    let file = t.file().display().to_string();
+    assert!(
+        has_place(out.stderr.lines().next().unwrap_or(""), &file),
+        "{}",
+        out.stderr
+    );
+    assert!(out.stderr.contains("cannot be negative"), "{}", out.stderr);
+    // Latin-1 text: `°` is the single byte 0xB0.
+    let t = Test::new();
+    let path = t.dir().join("latin1.yaml");
+    let mut bytes = b"design: Latin-1 sensor tag\nambient: 25 ".to_vec();
+    bytes.push(0xb0);
+    bytes.extend_from_slice(b"C\n");
+    std::fs::write(&path, &bytes).expect("write");
+    let shown = path.display().to_string();
+    let out = t.args(&["check", &shown]).expect_code(1);
+    for frag in [
+        format!("error: {shown}:2:13: the file is not UTF-8 text: byte 0xB0 at line 2, column 13"),
+        "fix: save the file as UTF-8".to_string(),
+        format!("1 problem in {shown}; nothing was computed"),
+    ] {
+        assert!(out.stderr.contains(&frag), "no {frag:?} in\n{}", out.stderr);
+    }
+}

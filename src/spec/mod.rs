@@ -73,6 +73,8 @@ pub fn parse(text: &str) -> Result<Parsed, Vec<Diagnostic>> {
 /// assert_eq!(p.spec.battery.parallel.unwrap().text(), "3");
 /// ```
 pub fn parse_with(text: &str, overrides: &[Override]) -> Result<Parsed, Vec<Diagnostic>> {
+    // A byte-order mark is no part of the text (an editor's "UTF-8 with BOM").
+    let text = text.strip_prefix('\u{feff}').unwrap_or(text);
     // Bounded before any reader recurses into it.
     if let Some(d) = depth::check(text) {
         return Err(vec![d]);
@@ -94,6 +96,9 @@ pub fn parse_with(text: &str, overrides: &[Override]) -> Result<Parsed, Vec<Diag
                 col: l.column(),
             });
             let msg = e.to_string();
+            if msg.contains("more than one document") {
+                return Err(vec![second_document(text)]);
+            }
             // serde_yaml appends " at line L column C"; the place is shown separately.
             let msg = msg.split(" at line ").next().unwrap_or(&msg).to_string();
             return Err(vec![
@@ -115,6 +120,55 @@ pub fn parse_with(text: &str, overrides: &[Override]) -> Result<Parsed, Vec<Diag
         return Err(errors);
     }
     read(text, Node::from(root), replaced)
+}
+
+/// Where a text the full parser reads as several documents starts its second: a `---` or
+/// `...` line, or else the first line indented less than the first line of the file.
+fn second_document(text: &str) -> Diagnostic {
+    let content = |l: &&str| {
+        let t = l.trim_start_matches(' ');
+        !t.is_empty() && !t.starts_with('#')
+    };
+    let lines: Vec<&str> = text.split('\n').map(|l| l.trim_end_matches('\r')).collect();
+    let first = lines.iter().position(|l| content(l));
+    let indent = |l: &str| l.len() - l.trim_start_matches(' ').len();
+    let marker = lines
+        .iter()
+        .enumerate()
+        .skip(first.map_or(0, |f| f + 1))
+        .find(|(_, l)| l.starts_with("---") || l.starts_with("..."));
+    if let Some((n, l)) = marker {
+        return Diagnostic::new(
+            "",
+            format!(
+                "the file holds more than one YAML document: line {} starts another with `{}`",
+                n + 1,
+                &l[..3]
+            ),
+        )
+        .with_hint("a design is one document: remove that line, or split the file in two")
+        .at_line_col(n + 1, 1);
+    }
+    let Some(f) = first else {
+        return Diagnostic::new("", "the file holds more than one YAML document")
+            .with_hint("a design is one document: keep one");
+    };
+    let i0 = indent(lines[f]);
+    match lines.iter().enumerate().skip(f + 1).find(|(_, l)| content(l) && indent(l) < i0) {
+        Some((n, l)) => Diagnostic::new(
+            "",
+            format!(
+                "line {} is indented less than the first line (line {}, indented {i0} spaces), so the file reads as two documents",
+                n + 1,
+                f + 1
+            ),
+        )
+        .with_hint("start the top-level keys at the first column, each alike")
+        .at_line_col(n + 1, indent(l) + 1),
+        None => Diagnostic::new("", "the file holds more than one YAML document")
+            .with_hint("a design is one document: keep one")
+            .at_line_col(f + 1, 1),
+    }
 }
 
 /// The serde types from the document tree; `replaced` are the paths `--set` gave.
