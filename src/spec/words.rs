@@ -175,7 +175,6 @@ fn locate(v: &Node<'_>, found: &str) -> Option<String> {
 
 #[cfg(test)]
 mod tests {
-    use super::*;
     use crate::spec::parse;
 
     /// The messages of a broken file, joined.
