@@ -3,6 +3,7 @@
 //! the key that holds the wrong value.
 
 use super::node::Node;
+use crate::error::Diagnostic;
 
 /// A shape problem in words: where (below the item the deserializer read), what, and the fix.
 pub(super) struct Worded {
@@ -170,6 +171,141 @@ fn locate(v: &Node<'_>, found: &str) -> Option<String> {
             .enumerate()
             .find_map(|(i, x)| locate(x, found).map(|p| format!("[{i}]{p}"))),
         _ => None,
+    }
+}
+
+/// The path below `v` of the first mapping that has the key `key`.
+pub(super) fn map_with_key(v: &Node<'_>, key: &str) -> Option<String> {
+    match v {
+        Node::Map(m) => {
+            if m.iter().any(|(k, _)| k.as_str() == Some(key)) {
+                return Some(String::new());
+            }
+            m.iter().find_map(|(k, x)| {
+                let name = k.as_str()?;
+                map_with_key(x, key).map(|p| format!(".{name}{p}"))
+            })
+        }
+        Node::Seq(items) => items
+            .iter()
+            .enumerate()
+            .find_map(|(i, x)| map_with_key(x, key).map(|p| format!("[{i}]{p}"))),
+        _ => None,
+    }
+}
+
+/// The steps of a path below a node: `.key` and `[i]`.
+fn steps(below: &str) -> Vec<&str> {
+    below
+        .split_inclusive(['.', '['])
+        .map(|s| s.trim_end_matches(['.', '[']).trim_end_matches(']'))
+        .filter(|s| !s.is_empty())
+        .collect()
+}
+
+/// One step down from `v`: a key of a mapping or an index of a list.
+fn child<'v, 'n>(v: &'v Node<'n>, step: &str) -> Option<&'v Node<'n>> {
+    match v {
+        Node::Map(m) => m
+            .iter()
+            .find(|(k, _)| k.as_str() == Some(step))
+            .map(|(_, x)| x),
+        Node::Seq(items) => items.get(step.parse::<usize>().ok()?),
+        _ => None,
+    }
+}
+
+/// The node at the path `below` of `v`.
+pub(super) fn node_at<'v, 'n>(v: &'v Node<'n>, below: &str) -> Option<&'v Node<'n>> {
+    steps(below).into_iter().try_fold(v, child)
+}
+
+/// A copy of `v` whose mapping at `below` lacks the keys `keys`.
+pub(super) fn without_keys<'n>(v: &Node<'n>, below: &str, keys: &[String]) -> Node<'n> {
+    fn go<'n>(v: &Node<'n>, steps: &[&str], keys: &[String]) -> Node<'n> {
+        match (v, steps.split_first()) {
+            (Node::Map(m), None) => Node::Map(
+                m.iter()
+                    .filter(|(k, _)| !k.as_str().is_some_and(|k| keys.iter().any(|x| x == k)))
+                    .cloned()
+                    .collect(),
+            ),
+            (Node::Map(m), Some((step, rest))) => Node::Map(
+                m.iter()
+                    .map(|(k, x)| {
+                        if k.as_str() == Some(step) {
+                            (k.clone(), go(x, rest, keys))
+                        } else {
+                            (k.clone(), x.clone())
+                        }
+                    })
+                    .collect(),
+            ),
+            (Node::Seq(items), Some((step, rest))) => Node::Seq(
+                items
+                    .iter()
+                    .enumerate()
+                    .map(|(i, x)| {
+                        if step.parse::<usize>().ok() == Some(i) {
+                            go(x, rest, keys)
+                        } else {
+                            x.clone()
+                        }
+                    })
+                    .collect(),
+            ),
+            (other, _) => other.clone(),
+        }
+    }
+    go(v, &steps(below), keys)
+}
+
+/// Where a text the full parser reads as several documents starts its second: a `---` or
+/// `...` line, or else the first line indented less than the first line of the file.
+pub(super) fn second_document(text: &str) -> Diagnostic {
+    let content = |l: &&str| {
+        let t = l.trim_start_matches(' ');
+        !t.is_empty() && !t.starts_with('#')
+    };
+    let lines: Vec<&str> = text.split('\n').map(|l| l.trim_end_matches('\r')).collect();
+    let first = lines.iter().position(|l| content(l));
+    let indent = |l: &str| l.len() - l.trim_start_matches(' ').len();
+    let marker = lines
+        .iter()
+        .enumerate()
+        .skip(first.map_or(0, |f| f + 1))
+        .find(|(_, l)| l.starts_with("---") || l.starts_with("..."));
+    if let Some((n, l)) = marker {
+        return Diagnostic::new(
+            "",
+            format!(
+                "the file holds more than one YAML document: line {} starts another with `{}`",
+                n + 1,
+                &l[..3]
+            ),
+        )
+        .with_hint("a design is one document: remove that line, or split the file in two")
+        .at_line_col(n + 1, 1);
+    }
+    let Some(f) = first else {
+        return Diagnostic::new("", "the file holds more than one YAML document")
+            .with_hint("a design is one document: keep one");
+    };
+    let i0 = indent(lines[f]);
+    match lines.iter().enumerate().skip(f + 1).find(|(_, l)| content(l) && indent(l) < i0) {
+        Some((n, l)) => Diagnostic::new(
+            "",
+            format!(
+                "line {} is indented less than the first line (line {}, indented {i0} spaces), so the file reads as two documents",
+                n + 1,
+                f + 1
+            ),
+        )
+        .with_hint("start the top-level keys at the first column, each alike")
+        .at_line_col(n + 1, indent(l) + 1),
+        None => Diagnostic::new("", "the file holds more than one YAML document")
+            .with_hint("a design is one document: keep one")
+            .at_line_col(f + 1, 1),
     }
 }
 
