@@ -784,9 +784,13 @@ fn deep_nesting_is_refused_quickly_with_its_place() {
     let mut block = format!("{DEEP_HEAD}profile:\n");
     for i in 0..8000 {
         let pad = "  ".repeat(i + 1);
-        block.push_str(&format!("{pad}- times: 2\n{pad}  repeat:\n"));
+        block += &pad;
+        block += "- times: 2\n";
+        block += &pad;
+        block += "  repeat:\n";
     }
-    block.push_str(&format!("{}- {{ mode: m, for: 1 s }}\n", "  ".repeat(8002)));
+    block += &"  ".repeat(8002);
+    block += "- { mode: m, for: 1 s }\n";
     let cases = [
         (
             format!("design: {}{}\n", "[".repeat(40_000), "]".repeat(40_000)),

@@ -221,12 +221,15 @@ mod tests {
         let mut text = String::from("profile:\n");
         for i in 0..200 {
             let pad = "  ".repeat(i + 1);
-            text.push_str(&format!("{pad}- times: 2\n{pad}  repeat:\n"));
+            text += &pad;
+            text += "- times: 2\n";
+            text += &pad;
+            text += "  repeat:\n";
         }
         let at = depth_error(&text).unwrap();
         assert_eq!(at.line, 100);
         // `- - - x` on one line counts each level.
-        let dashes = format!("a: 1\nb:\n{}x\n", "- ".repeat(200));
+        let dashes = ["a: 1\nb:\n", &"- ".repeat(200), "x\n"].concat();
         assert_eq!(depth_error(&dashes).map(|l| l.line), Some(3));
     }
 }

@@ -268,7 +268,7 @@ pub(super) fn second_document(text: &str) -> Diagnostic {
         !t.is_empty() && !t.starts_with('#')
     };
     let lines: Vec<&str> = text.split('\n').map(|l| l.trim_end_matches('\r')).collect();
-    let first = lines.iter().position(|l| content(l));
+    let first = lines.iter().position(&content);
     let indent = |l: &str| l.len() - l.trim_start_matches(' ').len();
     let marker = lines
         .iter()
