@@ -1,9 +1,12 @@
 //! The deserializer's messages in plain words: `invalid type: unit value, expected struct
 //! CellSpec` becomes "`cell` is empty: it needs a cell name or a cell mapping", with a fix, at
-//! the key that holds the wrong value.
+//! the key that holds the wrong value. Every unknown key of a mapping is reported (the
+//! deserializer stops at the first), and a text the full parser reads as several documents is
+//! told where the second starts.
 
 use super::node::Node;
-use crate::error::Diagnostic;
+use super::{Reader, backticked, value_path};
+use crate::error::{Diagnostic, did_you_mean};
 
 /// A shape problem in words: where (below the item the deserializer read), what, and the fix.
 pub(super) struct Worded {
@@ -171,6 +174,133 @@ fn locate(v: &Node<'_>, found: &str) -> Option<String> {
             .enumerate()
             .find_map(|(i, x)| locate(x, found).map(|p| format!("[{i}]{p}"))),
         _ => None,
+    }
+}
+
+impl Reader<'_> {
+    /// When `msg` names an unknown key of a mapping inside `v`, report every unknown key of that
+    /// mapping and return `v` without them.
+    pub(super) fn unknown_keys<'n>(
+        &mut self,
+        path: &str,
+        msg: &str,
+        v: &Node<'n>,
+    ) -> Option<Node<'n>> {
+        let rest = msg.find("unknown field `").map(|i| &msg[i + 15..])?;
+        let name = rest.split('`').next().unwrap_or("");
+        let expected: Vec<&str> = rest
+            .split("expected one of ")
+            .nth(1)
+            .or_else(|| rest.split("expected ").nth(1))
+            .map(|s| s.split(", ").map(|w| w.trim_matches('`')).collect())
+            .unwrap_or_default();
+        let below = map_with_key(v, name)?;
+        let map_path = format!("{path}{below}");
+        let mut unknown = Vec::new();
+        if let Some(Node::Map(m)) = node_at(v, &below) {
+            for (k, _) in m {
+                if let Some(k) = k.as_str() {
+                    if !expected.contains(&k) {
+                        unknown.push(k.to_string());
+                    }
+                }
+            }
+        }
+        for k in &unknown {
+            let key_path = if map_path.is_empty() {
+                k.clone()
+            } else {
+                format!("{map_path}.{k}")
+            };
+            let hint = match did_you_mean(k, expected.iter().copied()) {
+                Some(s) => {
+                    self.misspelt.push((map_path.clone(), s.to_string()));
+                    format!("did you mean `{s}`?")
+                }
+                None => format!("the keys allowed here are {}", backticked(&expected)),
+            };
+            let location = self
+                .source
+                .key(&key_path)
+                .or(self.source.nearest(&map_path));
+            self.diags.push(
+                Diagnostic::new(key_path, format!("unknown key `{k}`"))
+                    .with_hint(hint)
+                    .at(location),
+            );
+        }
+        Some(without_keys(v, &below, &unknown))
+    }
+
+    pub(super) fn serde_error(&mut self, path: &str, msg: &str, v: &Node<'_>) {
+        if let Some(rest) = msg.strip_prefix("unknown field `") {
+            let name = rest.split('`').next().unwrap_or("");
+            let expected: Vec<&str> = rest
+                .split("expected one of ")
+                .nth(1)
+                .or_else(|| rest.split("expected ").nth(1))
+                .map(|s| s.split(", ").map(|w| w.trim_matches('`')).collect())
+                .unwrap_or_default();
+            let key_path = if path.is_empty() {
+                name.to_string()
+            } else {
+                format!("{path}.{name}")
+            };
+            let hint = match did_you_mean(name, expected.iter().copied()) {
+                Some(s) => format!("did you mean `{s}`?"),
+                None => format!("the keys allowed here are {}", backticked(&expected)),
+            };
+            let location = self.source.key(&key_path).or(self.source.nearest(path));
+            self.diags.push(
+                Diagnostic::new(key_path, format!("unknown key `{name}`"))
+                    .with_hint(hint)
+                    .at(location),
+            );
+            return;
+        }
+        if let Some(rest) = msg.strip_prefix("missing field `") {
+            let name = rest.split('`').next().unwrap_or("");
+            self.push(
+                path,
+                format!("`{name}` is missing"),
+                Some(format!("add `{name}:` here")),
+            );
+            return;
+        }
+        if let Some(rest) = msg.strip_prefix("unknown variant `") {
+            let name = rest.split('`').next().unwrap_or("");
+            let expected: Vec<&str> = rest
+                .split("expected one of ")
+                .nth(1)
+                .or_else(|| rest.split("expected ").nth(1))
+                .map(|s| s.split(", ").map(|w| w.trim_matches('`')).collect())
+                .unwrap_or_default();
+            let hint = match did_you_mean(name, expected.iter().copied()) {
+                Some(s) => format!("did you mean `{s}`?"),
+                None => format!("use one of {}", backticked(&expected)),
+            };
+            // Name the key holding the value (`stages[0].kind`), not only the item.
+            let at = value_path(v, name).map_or_else(|| path.to_string(), |p| format!("{path}{p}"));
+            self.push(&at, format!("unknown value `{name}`"), Some(hint));
+            return;
+        }
+        // A nested reader's prefix (`efficiency curve: ...`) before a message handled above.
+        if let Some((_, rest)) = msg.split_once(": ") {
+            if ["unknown field `", "missing field `", "unknown variant `"]
+                .iter()
+                .any(|p| rest.starts_with(p))
+            {
+                return self.serde_error(path, rest, v);
+            }
+        }
+        match reword(path, msg, v) {
+            Some(w) => self.push(&format!("{path}{}", w.below), w.message, Some(w.hint)),
+            None => self.push(
+                path,
+                msg.to_string(),
+                Some("see examples/ for the shape of each part of a design".into()),
+            ),
+        }
     }
 }
 
