@@ -804,3 +804,69 @@ fn set_variants_show_their_overrides_in_every_title() {
         "Test lamp, one lithium-ion cell, buck to 3.3 V [battery.parallel=2]"
     );
 }
+
+/// Command-line quantities are held to the same physical ranges as the design's: an ambient
+/// below absolute zero or in Fahrenheit, and an absurd fit-cell current, are usage errors with a
+/// fix (exit 2), never a run.
+#[test]
+fn command_line_quantities_are_physical() {
+    let runtime = |ambient: &str| {
+        Test::new()
+            .design(&tree())
+            .args(&["runtime", "{file}", "--ambient", ambient])
+            .expect_code(2)
+    };
+    let out = runtime("-300 °C");
+    assert!(out.stderr.contains("below absolute zero"), "{}", out.stderr);
+    let out = runtime("1e6 °C");
+    assert!(out.stderr.contains("above 200 °C"), "{}", out.stderr);
+    let out = runtime("77 °F");
+    assert!(
+        out.stderr
+            .contains("Fahrenheit is not accepted: 77 °F is 25 °C; write `25 °C`"),
+        "{}",
+        out.stderr
+    );
+    assert!(!out.stderr.contains("`77 °C`"), "{}", out.stderr);
+    assert!(out.stdout.is_empty());
+    let dir = crate::util::root().join("tests/data/fit");
+    let high = format!("600 mA:{}", dir.join("synthetic-600mA.csv").display());
+    let absurd = format!("1e308 A:{}", dir.join("synthetic-120mA.csv").display());
+    let out = Test::new()
+        .args(&["fit-cell", "--curve", &absurd, "--curve", &high])
+        .expect_code(2);
+    assert!(out.stderr.contains("above 10 kA"), "{}", out.stderr);
+}
+
+/// `--set` into an optional block the file leaves out (`battery.aging`) creates the block, as a
+/// left-out key is created: the aged pack runs shorter, in proportion to its capacity.
+#[test]
+fn set_creates_an_optional_block_the_file_leaves_out() {
+    let runtime = |sets: &[&str]| {
+        let mut args = vec!["runtime", "{file}", "--format", "json"];
+        for s in sets {
+            args.extend(["--set", s]);
+        }
+        Test::new()
+            .design(&tree())
+            .args(&args)
+            .expect_code(0)
+            .json()["runtime_s"]
+            .as_f64()
+            .unwrap()
+    };
+    let new = runtime(&[]);
+    let aged = runtime(&["battery.aging.capacity=80 %"]);
+    let ratio = aged / new;
+    assert!((0.7..0.9).contains(&ratio), "{aged} / {new} = {ratio}");
+    // A misspelt block is still an error naming what is there.
+    let out = Test::new()
+        .design(&tree())
+        .args(&["runtime", "{file}", "--set", "battery.agign.capacity=80 %"])
+        .expect_code(1);
+    assert!(
+        out.stderr.contains("there is no `agign` here"),
+        "{}",
+        out.stderr
+    );
+}

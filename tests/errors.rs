@@ -215,6 +215,23 @@ fn the_library_agrees_with_the_binary_on_the_corpus() {
                 f.display()
             );
             assert!(!m.ends_with('.'), "{}: {m}", f.display());
+            // Every problem says how to fix it.
+            assert!(
+                d.hint().is_some_and(|h| !h.is_empty()),
+                "{}: no fix for {m:?}",
+                f.display()
+            );
+            // In plain words: none of the deserializer's own terms.
+            for jargon in [
+                "invalid type",
+                "unit value",
+                "struct ",
+                "Spec",
+                "sequence",
+                "Value::",
+            ] {
+                assert!(!m.contains(jargon), "{}: {m}", f.display());
+            }
         }
     }
 }
@@ -745,5 +762,129 @@ fn the_binary_survives_mutated_files() {
                 );
             }
         }
+    }
+}
+
+// ---------------------------------------------------------------------------------------------
+// Bounds on the input itself.
+
+/// The head of a valid design, for files whose profile is generated.
+const DEEP_HEAD: &str = "cells:
+  c: { capacity: 1 Ah, ocv: [[0 %, 3 V], [100 %, 4 V]], resistance: 0.1 ohm, cutoff: 3 V }
+battery: { cell: c }
+loads: [{ id: l, rail: battery, draw: { on: 1 mA } }]
+modes: { m: { l: on } }
+";
+
+/// Nesting tens of thousands of levels deep (brackets, or `repeat` blocks in flow and block
+/// style) is refused before any reader recurses into it: exit 1 with the place, quickly, where
+/// it used to overflow the stack (and the full parser took quadratic time).
+#[test]
+fn deep_nesting_is_refused_quickly_with_its_place() {
+    let mut block = format!("{DEEP_HEAD}profile:\n");
+    // 2,000 levels: a block-style file this deep is 8 MB (8,000 would pass the 64 MiB read limit).
+    for i in 0..2000 {
+        let pad = "  ".repeat(i + 1);
+        block += &pad;
+        block += "- times: 2\n";
+        block += &pad;
+        block += "  repeat:\n";
+    }
+    block += &"  ".repeat(2002);
+    block += "- { mode: m, for: 1 s }\n";
+    let cases = [
+        (
+            format!("design: {}{}\n", "[".repeat(40_000), "]".repeat(40_000)),
+            "1:108",
+        ),
+        (
+            format!("design: {}{}\n", "[".repeat(160_000), "]".repeat(160_000)),
+            "1:108",
+        ),
+        (
+            format!(
+                "{DEEP_HEAD}profile: {}[{{ mode: m, for: 1 s }}]{}\n",
+                "[{ times: 2, repeat: ".repeat(8000),
+                "}]".repeat(8000)
+            ),
+            "6:",
+        ),
+        (block, "105:103"),
+    ];
+    for (text, at) in &cases {
+        let start = std::time::Instant::now();
+        let t = Test::new().design(text).args(&["check", "{file}"]);
+        let out = t.expect_code(1);
+        let file = t.file().display().to_string();
+        assert!(
+            start.elapsed().as_secs_f64() < 5.0,
+            "took {:?}",
+            start.elapsed()
+        );
+        assert!(
+            out.stderr
+                .contains("the file is nested too deep: more than 100 levels"),
+            "{}",
+            out.stderr
+        );
+        assert!(
+            out.stderr.contains(&format!("error: {file}:{at}")),
+            "{at}: {}",
+            out.stderr
+        );
+        assert!(out.stderr.contains("fix: "), "{}", out.stderr);
+        // The library says the same without the binary.
+        let e = Design::from_text(text).expect_err("too deep");
+        assert!(e.to_string().contains("nested too deep"), "{e}");
+    }
+    // A `--set` value nested as deep is refused too.
+    let out = Test::new()
+        .design(&format!("{DEEP_HEAD}profile: [{{ mode: m, for: 1 s }}]\n"))
+        .args(&[
+            "budget",
+            "{file}",
+            "--set",
+            &format!("design={}", "[".repeat(40_000)),
+        ])
+        .run();
+    assert!(out.code == 1 || out.code == 2, "{}", out.stderr);
+    assert!(out.stderr.contains("nested too deep"), "{}", out.stderr);
+}
+
+/// A byte-order mark is read past (places stay right), and a file that is not UTF-8 is refused
+/// with the place of its first bad byte and the fix, like any other problem of the file.
+#[test]
+fn byte_order_marks_and_other_encodings() {
+    let body = base_body();
+    let with_bom = format!("\u{feff}{body}");
+    Test::new()
+        .design(&with_bom)
+        .args(&["check", "{file}"])
+        .expect_code(0);
+    let broken = format!("\u{feff}{}", body.replacen("for: ", "for: -", 1));
+    let t = Test::new().design(&broken).args(&["check", "{file}"]);
+    let out = t.expect_code(1);
+    let file = t.file().display().to_string();
+    assert!(
+        has_place(out.stderr.lines().next().unwrap_or(""), &file),
+        "{}",
+        out.stderr
+    );
+    assert!(out.stderr.contains("cannot be negative"), "{}", out.stderr);
+    // Latin-1 text: `°` is the single byte 0xB0.
+    let t = Test::new();
+    let path = t.dir().join("latin1.yaml");
+    let mut bytes = b"design: Latin-1 sensor tag\nambient: 25 ".to_vec();
+    bytes.push(0xb0);
+    bytes.extend_from_slice(b"C\n");
+    std::fs::write(&path, &bytes).expect("write");
+    let shown = path.display().to_string();
+    let out = t.args(&["check", &shown]).expect_code(1);
+    for frag in [
+        format!("error: {shown}:2:13: the file is not UTF-8 text: byte 0xB0 at line 2, column 13"),
+        "fix: save the file as UTF-8".to_string(),
+        format!("1 problem in {shown}; nothing was computed"),
+    ] {
+        assert!(out.stderr.contains(&frag), "no {frag:?} in\n{}", out.stderr);
     }
 }

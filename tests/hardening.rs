@@ -57,9 +57,16 @@ fn a_repeat_shorter_than_its_body_runs_part_of_it() {
 
 #[test]
 fn a_huge_step_inside_a_short_repeat_is_cut_to_the_block() {
+    // The checker allows steps up to 100 years (beyond, the message states the bound).
     let text = one_amp_hour(
         "1 mA",
         "[{ repeat: [{ mode: run, for: 1e300 s }], for: 1 h }]",
+    );
+    let e = Design::from_text(&text).unwrap_err().to_string();
+    assert!(e.contains("100 y"), "{e}");
+    let text = one_amp_hour(
+        "1 mA",
+        "[{ repeat: [{ mode: run, for: 100 y }], for: 1 h }]",
     );
     let r = fast(&text).unwrap();
     assert_eq!(r.end.reason, EndReason::Empty);
@@ -67,13 +74,25 @@ fn a_huge_step_inside_a_short_repeat_is_cut_to_the_block() {
 }
 
 #[test]
-fn passes_beyond_a_u64_count_are_skipped() {
-    // 1e-20 s steps: 3.6e26 passes to empty, more than a u64 holds.
-    let text = one_amp_hour("1 mA", "[{ mode: run, for: 1e-20 s }]");
+fn nanosecond_passes_run_to_the_horizon_exactly() {
+    // 1 ns steps at 100 nA: 6.3e17 passes in the 20-year horizon, the SoC falling by 2.8e-20 a
+    // pass. At the horizon the charge drawn is I t (the run used to end at once or never).
+    let text = one_amp_hour("100 nA", "[{ mode: run, for: 1 ns }]");
     let start = Instant::now();
     let r = fast(&text).unwrap();
-    assert!(close(r.runtime_s(), 3.6e6, 1e-6), "{}", r.runtime_s());
+    let horizon = 20.0 * joulepath::solve::YEAR_S;
+    assert_eq!(r.end.reason, EndReason::Horizon);
+    assert!(close(r.runtime_s(), horizon, 1e-9), "{}", r.runtime_s());
+    assert!(
+        close(1.0 - r.end.soc, 1e-7 * horizon / 3600.0, 1e-6),
+        "{}",
+        r.end.soc
+    );
     assert!(start.elapsed() < Duration::from_secs(10));
+    // Shorter than a nanosecond is refused by the checker, with the bound.
+    let tiny = one_amp_hour("1 mA", "[{ mode: run, for: 1e-20 s }]");
+    let e = Design::from_text(&tiny).unwrap_err().to_string();
+    assert!(e.contains("1 ns"), "{e}");
 }
 
 #[test]
@@ -93,12 +112,13 @@ fn a_horizon_beyond_a_thousand_years_is_refused() {
     o.horizon_s = joulepath::solve::MAX_HORIZON_S;
     let r = run(&d, &o).unwrap();
     assert_eq!(r.end.reason, EndReason::Horizon);
+    // The command line bounds it tighter, at 100 years, as a usage error.
     let out = Test::new()
         .design(&text)
         .args(&["runtime", "{file}", "--horizon", "1e30 y"])
         .run();
-    assert_eq!(out.code, 1, "{}", out.stderr);
-    assert!(out.stderr.contains("1000 years"), "{}", out.stderr);
+    assert_eq!(out.code, 2, "{}", out.stderr);
+    assert!(out.stderr.contains("100 y"), "{}", out.stderr);
 }
 
 #[test]

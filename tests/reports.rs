@@ -102,7 +102,14 @@ fn csv_quotes_ids_with_commas() {
         &["compare", "{file}", "{file}", "--set", "battery.parallel=2"],
     );
     let title = column(&h, "title");
-    assert!(rows.iter().all(|r| r[title] == "Lamp, with a comma"));
+    let titles: Vec<&str> = rows.iter().map(|r| r[title].as_str()).collect();
+    assert_eq!(
+        titles,
+        [
+            "Lamp, with a comma",
+            "Lamp, with a comma [battery.parallel=2]"
+        ]
+    );
     assert_eq!(rows.len(), 2);
     // The trace parses too, five numbers a row.
     let (h, rows) = csv_of(&d, &["runtime", "{file}", "--trace"]);

@@ -223,12 +223,12 @@ pub struct RunArgs {
 }
 
 pub(super) fn parse_with(s: &str, dim: joulepath::units::Dim) -> Result<f64, String> {
-    joulepath::units::parse_quantity(s, &[dim])
-        .map(joulepath::units::Quantity::value)
-        .map_err(|e| {
-            let hint = e.hint().map(|h| format!(" ({h})")).unwrap_or_default();
-            format!("{e}{hint}")
-        })
+    let q = joulepath::units::parse_quantity(s, &[dim]).map_err(|e| {
+        let hint = e.hint().map(|h| format!(" ({h})")).unwrap_or_default();
+        format!("{e}{hint}")
+    })?;
+    joulepath::units::physical(q, s).map_err(|e| e.to_string())?;
+    Ok(q.value())
 }
 
 pub(super) fn parse_temperature(s: &str) -> Result<f64, String> {

@@ -50,12 +50,12 @@ fn kind_words(t: fs::FileType) -> &'static str {
 
 /// Read the text of the input file `path`: a regular file of at most [`READ_LIMIT`] bytes, in
 /// UTF-8.
-pub fn read_input(path: &Path) -> Result<String, Failure> {
+pub fn read_input(path: &Path) -> Result<Vec<u8>, Failure> {
     read_bounded(path, READ_LIMIT)
 }
 
 /// [`read_input`] with any limit (tests use a small one).
-fn read_bounded(path: &Path, limit: u64) -> Result<String, Failure> {
+fn read_bounded(path: &Path, limit: u64) -> Result<Vec<u8>, Failure> {
     let shown = path.display();
     let fail = |e: &io::Error| Failure::Input(format!("cannot read `{shown}`: {e}"));
     let file = File::open(path).map_err(|e| fail(&e))?;
@@ -80,12 +80,7 @@ fn read_bounded(path: &Path, limit: u64) -> Result<String, Failure> {
             "more than {mib} MiB (it grew while being read)"
         )));
     };
-    String::from_utf8(bytes).map_err(|e| {
-        Failure::Input(format!(
-            "cannot read `{shown}`: byte {} is not UTF-8 text; save the file as UTF-8",
-            e.utf8_error().valid_up_to() + 1
-        ))
-    })
+    Ok(bytes)
 }
 
 /// All of `reader` if it holds at most `limit` bytes (`None` if more): never more than

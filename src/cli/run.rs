@@ -63,7 +63,32 @@ impl Failure {
 }
 
 fn read(path: &Path) -> Result<String, Failure> {
-    super::files::read_input(path)
+    // Bounded, regular files only; then the text must be UTF-8, with the place of the first
+    // byte that is not.
+    let bytes = super::files::read_input(path)?;
+    String::from_utf8(bytes).map_err(|e| {
+        // The place of the first byte that is not UTF-8, as line and column of the text before.
+        let bytes = e.as_bytes();
+        let at = e.utf8_error().valid_up_to();
+        let before = String::from_utf8_lossy(&bytes[..at]);
+        let line = before.matches('\n').count() + 1;
+        let col = before.rsplit('\n').next().map_or(0, |l| l.chars().count()) + 1;
+        Failure::Invalid {
+            file: path.to_path_buf(),
+            text: String::from_utf8_lossy(bytes).into_owned(),
+            diagnostics: vec![
+                Diagnostic::new(
+                    "",
+                    format!(
+                        "the file is not UTF-8 text: byte 0x{:02X} at line {line}, column {col} is not a character",
+                        bytes[at]
+                    ),
+                )
+                .with_hint("save the file as UTF-8 (in most editors under Save As or Encoding)")
+                .at_line_col(line, col),
+            ],
+        }
+    })
 }
 
 fn load(path: &Path) -> Result<Design, Failure> {

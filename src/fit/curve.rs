@@ -110,8 +110,21 @@ impl Curve {
     }
 }
 
+/// The rise of voltage from one row to the next still read as digitizing noise, relative to the
+/// row before (common practice, no source); more is a typing error or rows out of order.
+const RISE_TOLERANCE: f64 = 0.005;
+
+/// The greatest discharge current of a curve, A (the physical range of a current in a design).
+const MAX_CURRENT_A: f64 = 1e4;
+
 fn check_current(name: &str, current_a: f64) -> Result<(), FitError> {
-    if current_a.is_finite() && current_a > 0.0 {
+    if current_a.is_finite() && current_a > MAX_CURRENT_A {
+        Err(FitError::new(
+            name,
+            format!("the discharge current {current_a} A is above 10 kA, the most accepted"),
+        )
+        .with_hint("check the number and its unit prefix, such as `200 mA`"))
+    } else if current_a.is_finite() && current_a > 0.0 {
         Ok(())
     } else {
         Err(FitError::new(
@@ -146,7 +159,8 @@ fn check_count(name: &str, n: usize) -> Result<(), FitError> {
 /// With the line (and column) at fault and a fix: an empty file, a header column without a unit,
 /// an unknown unit or column, a missing, repeated or extra column, a row with the wrong number of
 /// values, a value that is not a number, a negative capacity or a voltage not above zero, a
-/// capacity that does not increase from row to row, fewer than 5 rows, a current not above zero.
+/// capacity that does not increase from row to row, a voltage that rises from one row to the next
+/// by more than 0.5 %, fewer than 5 rows, a current not above zero or above 10 kA.
 ///
 /// # Examples
 ///
@@ -226,6 +240,18 @@ pub fn read_curve(text: &str, current_a: f64, name: &str) -> Result<Curve, FitEr
                 )
                 .with_hint("sort the rows by delivered capacity and remove repeated points")
                 .at_line_col(line, fields[cap_col].0));
+            }
+        }
+        if let (Some(&(_, v_prev)), Some((prev_line, _))) = (points.last(), previous) {
+            if v * v_scale > v_prev * (1.0 + RISE_TOLERANCE) {
+                return Err(FitError::new(
+                    name,
+                    format!(
+                        "line {line}: the voltage `{v_text}` is above the voltage of line {prev_line}; a discharge curve's voltage must not rise as charge is drawn"
+                    ),
+                )
+                .with_hint("check the row for a typing error and the order of the rows (rises within 0.5 %, digitizing noise, are accepted)")
+                .at_line_col(line, fields[v_col].0));
             }
         }
         previous = Some((line, cap_text));
@@ -341,6 +367,20 @@ mod tests {
         assert!(e.message().contains("negative"), "{e}");
         let e = read_curve("capacity [mAh], voltage [V]\n1, 0\n", 0.1, "f.csv").unwrap_err();
         assert!(e.message().contains("not above zero"), "{e}");
+        let e = read_curve(
+            "capacity [mAh], voltage [V]\n0, 4.0\n100, 3.9\n200, 4.1\n",
+            0.1,
+            "f.csv",
+        )
+        .unwrap_err();
+        assert!(
+            e.message()
+                .contains("line 4: the voltage `4.1` is above the voltage of line 3"),
+            "{e}"
+        );
+        assert_eq!(e.location().map(|l| (l.line, l.col)), Some((4, 6)));
+        let e = read_curve("capacity [mAh], voltage [V]\n0, 4\n", 1e308, "f.csv").unwrap_err();
+        assert!(e.message().contains("above 10 kA"), "{e}");
         let e = read_curve("capacity [mAh]\n", 0.1, "f.csv").unwrap_err();
         assert!(e.message().contains("no voltage column"), "{e}");
     }

@@ -68,8 +68,7 @@ impl Design {
     /// assert!((d.pack.ocv(0.5) - 3.5).abs() < 1e-12);
     /// ```
     pub fn from_text(text: &str) -> Result<Self, Error> {
-        let parsed = spec::parse(text).map_err(Error::Invalid)?;
-        Self::from_spec(&parsed.spec, &parsed.source)
+        Self::from_text_with(text, &[])
     }
 
     /// Read and check a design file's text with `--set` overrides applied.
@@ -78,8 +77,15 @@ impl Design {
     ///
     /// [`Error::Invalid`] with every problem found, overrides included.
     pub fn from_text_with(text: &str, overrides: &[spec::Override]) -> Result<Self, Error> {
-        let parsed = spec::parse_with(text, overrides).map_err(Error::Invalid)?;
-        Self::from_spec(&parsed.spec, &parsed.source)
+        match spec::parse_partial(text, overrides) {
+            Ok(parsed) => Self::from_spec(&parsed.spec, &parsed.source),
+            // The checker looks at what could be read, so that every problem is reported at once.
+            Err((mut diags, Some(partial))) => {
+                diags.extend(lower::partial(&partial));
+                Err(Error::Invalid(diags))
+            }
+            Err((diags, None)) => Err(Error::Invalid(diags)),
+        }
     }
 
     /// Check a parsed design; `source` gives the places of values for messages.

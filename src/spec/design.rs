@@ -158,9 +158,10 @@ impl<'de> Deserialize<'de> for CellRef {
             serde_yaml::Value::Mapping(_) => serde_yaml::from_value(v)
                 .map(|c| CellRef::Inline(Box::new(c)))
                 .map_err(serde::de::Error::custom),
-            _ => Err(serde::de::Error::custom(
-                "expected a cell name or an inline cell mapping",
-            )),
+            other => Err(serde::de::Error::custom(format!(
+                "expected a cell name or an inline cell mapping, found {}",
+                super::node::Node::from(other).describe()
+            ))),
         }
     }
 }

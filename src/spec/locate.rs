@@ -52,12 +52,20 @@ impl SourceMap {
 
     fn index(&self) -> &Index {
         self.index.get_or_init(|| {
-            let mut rec = Recorder::default();
-            let mut parser = Parser::new_from_str(&self.text);
-            if parser.load(&mut rec, false).is_err() {
-                return Index::default();
+            let (mut index, whole) = index_of(&self.text);
+            if !whole {
+                // The position parser is stricter than the reader (a tab after `key:`): what it
+                // read before stopping stands, and a copy with every tab a space (one character
+                // each, so columns stay) gives the places after.
+                let (more, _) = index_of(&self.text.replace('\t', " "));
+                for (path, at) in more.values {
+                    index.values.entry(path).or_insert(at);
+                }
+                for (path, at) in more.keys {
+                    index.keys.entry(path).or_insert(at);
+                }
             }
-            rec.map
+            index
         })
     }
 
@@ -90,6 +98,13 @@ impl SourceMap {
             p = &p[..cut];
         }
     }
+}
+
+/// The places the position parser finds in `text`, and whether it read the whole text.
+fn index_of(text: &str) -> (Index, bool) {
+    let mut rec = Recorder::default();
+    let whole = Parser::new_from_str(text).load(&mut rec, false).is_ok();
+    (rec.map, whole)
 }
 
 enum Frame {
@@ -208,8 +223,21 @@ mod tests {
     }
 
     #[test]
-    fn unreadable_text_gives_an_empty_map() {
+    fn unreadable_text_keeps_the_places_before_its_error() {
         let m = SourceMap::build("a: [1, 2\n");
-        assert_eq!(m.value("a"), None);
+        assert_eq!(m.value("a"), Some(Location { line: 1, col: 4 }));
+        assert_eq!(m.value("b"), None);
+    }
+
+    #[test]
+    fn places_survive_a_tab_the_position_parser_refuses() {
+        // The reader takes a tab after `key:`; the position parser stops there.
+        let m = SourceMap::build("design:\tx\nb: 1\nc: [1, 2]\n");
+        assert_eq!(m.value("b"), Some(Location { line: 2, col: 4 }));
+        assert_eq!(m.value("c[1]"), Some(Location { line: 3, col: 8 }));
+        assert_eq!(m.value("design"), Some(Location { line: 1, col: 9 }));
+        // A long key does not stop it.
+        let long = format!("{}: 1\nb: 1\n", "k".repeat(1024));
+        assert_eq!(SourceMap::build(&long).value("b").map(|l| l.line), Some(2));
     }
 }

@@ -2,12 +2,14 @@
 //! every structural problem of a file is reported at once, each with its YAML path and place.
 //! This is the only module that uses the YAML parser.
 
+mod depth;
 mod design;
 mod fastyaml;
 mod locate;
 mod node;
 mod overrides;
 mod qty;
+mod words;
 
 use indexmap::IndexMap;
 use serde::de::DeserializeOwned;
@@ -56,6 +58,85 @@ pub fn parse(text: &str) -> Result<Parsed, Vec<Diagnostic>> {
     parse_with(text, &[])
 }
 
+/// What a file with structural problems still holds, for the checker to look at too: every
+/// part that could be read, and what could not.
+#[derive(Debug, Clone)]
+pub struct Partial {
+    /// The parts that could be read (a pack that could not be read is an empty placeholder).
+    pub spec: DesignSpec,
+    /// Line and column of every value, by YAML path.
+    pub source: SourceMap,
+    /// Names of the parts that could not be read: ids of stages and loads, names of cells and
+    /// modes, and sections (`battery`, `profile`, ...). A checker message about them follows
+    /// from a problem already reported.
+    pub broken: Vec<String>,
+    /// For each list section, the index in the file of each item that was read.
+    pub kept: Vec<(&'static str, Vec<usize>)>,
+    /// Keys misspelt, as (path of their mapping, key meant): the checker's words about the
+    /// key meant there follow from the misspelling.
+    pub misspelt: Vec<(String, String)>,
+}
+
+/// As [`parse_with`], and on failure also what could be read.
+///
+/// # Errors
+///
+/// Every structural problem found, and the parts read despite them (none when the text is not
+/// YAML at all).
+pub fn parse_partial(
+    text: &str,
+    overrides: &[Override],
+) -> Result<Parsed, (Vec<Diagnostic>, Option<Box<Partial>>)> {
+    // A byte-order mark is no part of the text (an editor's "UTF-8 with BOM").
+    let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+    // Bounded before any reader recurses into it.
+    if let Some(d) = depth::check(text) {
+        return Err((vec![d], None));
+    }
+    // The fast reader where the file allows and nothing is overridden; else the full parser.
+    let fast = if overrides.is_empty() {
+        fastyaml::parse(text)
+    } else {
+        None
+    };
+    if let Some(root) = fast {
+        return read(text, root, Vec::new());
+    }
+    let mut root: Value = match serde_yaml::from_str(text) {
+        Ok(v) => v,
+        Err(e) => return Err((vec![syntax_error(text, &e)], None)),
+    };
+    let mut replaced = Vec::new();
+    let mut errors = Vec::new();
+    for o in overrides {
+        match overrides::apply(&mut root, o) {
+            Ok(path) => replaced.push(path),
+            Err(d) => errors.push(d),
+        }
+    }
+    if !errors.is_empty() {
+        return Err((errors, None));
+    }
+    read(text, Node::from(root), replaced)
+}
+
+/// The full parser's syntax error, in words, at its place.
+fn syntax_error(text: &str, e: &serde_yaml::Error) -> Diagnostic {
+    let location = e.location().map(|l| Location {
+        line: l.line(),
+        col: l.column(),
+    });
+    let msg = e.to_string();
+    if msg.contains("more than one document") {
+        return words::second_document(text);
+    }
+    // serde_yaml appends " at line L column C"; the place is shown separately.
+    let msg = msg.split(" at line ").next().unwrap_or(&msg).to_string();
+    Diagnostic::new("", format!("the file is not valid YAML: {msg}"))
+        .with_hint("check the indentation and the brackets near that place")
+        .at(location)
+}
+
 /// Read a design file's text with `--set` overrides applied first.
 ///
 /// # Errors
@@ -71,67 +152,66 @@ pub fn parse(text: &str) -> Result<Parsed, Vec<Diagnostic>> {
 /// assert_eq!(p.spec.battery.parallel.unwrap().text(), "3");
 /// ```
 pub fn parse_with(text: &str, overrides: &[Override]) -> Result<Parsed, Vec<Diagnostic>> {
-    // The fast reader where the file allows and nothing is overridden; else the full parser.
-    let fast = if overrides.is_empty() {
-        fastyaml::parse(text)
-    } else {
-        None
-    };
-    if let Some(root) = fast {
-        return read(text, root, Vec::new());
-    }
-    let mut root: Value = match serde_yaml::from_str(text) {
-        Ok(v) => v,
-        Err(e) => {
-            let location = e.location().map(|l| Location {
-                line: l.line(),
-                col: l.column(),
-            });
-            let msg = e.to_string();
-            // serde_yaml appends " at line L column C"; the place is shown separately.
-            let msg = msg.split(" at line ").next().unwrap_or(&msg).to_string();
-            return Err(vec![
-                Diagnostic::new("", format!("the file is not valid YAML: {msg}"))
-                    .with_hint("check the indentation and the brackets near that place")
-                    .at(location),
-            ]);
-        }
-    };
-    let mut replaced = Vec::new();
-    let mut errors = Vec::new();
-    for o in overrides {
-        match overrides::apply(&mut root, o) {
-            Ok(path) => replaced.push(path),
-            Err(d) => errors.push(d),
-        }
-    }
-    if !errors.is_empty() {
-        return Err(errors);
-    }
-    read(text, Node::from(root), replaced)
+    parse_partial(text, overrides).map_err(|(d, _)| d)
 }
 
 /// The serde types from the document tree; `replaced` are the paths `--set` gave.
-fn read(text: &str, root: Node<'_>, replaced: Vec<String>) -> Result<Parsed, Vec<Diagnostic>> {
+fn read(
+    text: &str,
+    root: Node<'_>,
+    replaced: Vec<String>,
+) -> Result<Parsed, (Vec<Diagnostic>, Option<Box<Partial>>)> {
     let mut source = SourceMap::build(text);
     source.set_overridden(replaced);
     let mut r = Reader {
         source: &source,
         diags: Vec::new(),
+        broken: Vec::new(),
+        kept: Vec::new(),
+        misspelt: Vec::new(),
     };
     let spec = r.read_design(root);
+    let Reader {
+        diags,
+        broken,
+        kept,
+        misspelt,
+        ..
+    } = r;
     match spec {
-        Some(spec) if r.diags.is_empty() => Ok(Parsed { spec, source }),
-        _ => Err(r.diags),
+        Some(spec) if diags.is_empty() => Ok(Parsed { spec, source }),
+        Some(spec) => Err((
+            diags,
+            Some(Box::new(Partial {
+                spec,
+                source,
+                broken,
+                kept,
+                misspelt,
+            })),
+        )),
+        None => Err((diags, None)),
     }
 }
 
 struct Reader<'a> {
     source: &'a SourceMap,
     diags: Vec<Diagnostic>,
+    /// What could not be read (see [`Partial::broken`]).
+    broken: Vec<String>,
+    /// The file index of every item read, per list section.
+    kept: Vec<(&'static str, Vec<usize>)>,
+    /// See [`Partial::misspelt`].
+    misspelt: Vec<(String, String)>,
 }
 
 impl Reader<'_> {
+    /// A problem that leaves the whole section `name` unread.
+    fn push_broken(&mut self, name: &str, message: String, hint: Option<String>) {
+        self.broken.push(name.to_string());
+        self.push(name, message, hint);
+    }
+
     fn push(&mut self, path: &str, message: String, hint: Option<String>) {
         let location = self.source.nearest(path);
         self.diags.push(
@@ -148,68 +228,36 @@ impl Reader<'_> {
         path: impl std::fmt::Display,
         v: &Node<'_>,
     ) -> Option<T> {
-        match T::deserialize(v) {
-            Ok(t) => Some(t),
-            Err(e) => {
-                self.serde_error(&path.to_string(), &e.to_string(), v);
-                None
+        let e = match T::deserialize(v) {
+            Ok(t) => return Some(t),
+            Err(e) => e.to_string(),
+        };
+        let path = path.to_string();
+        // Every unknown key of a mapping is reported, not only the first; without them the
+        // part is read again so that its other problems are found and it reaches the checker.
+        let mut msg = e;
+        let mut cleaned: Option<Node<'_>> = None;
+        for _ in 0..8 {
+            let at = cleaned.as_ref().unwrap_or(v);
+            let Some(next) = self.unknown_keys(&path, &msg, at) else {
+                break;
+            };
+            match T::deserialize(&next) {
+                Ok(t) => return Some(t),
+                Err(e) => msg = e.to_string(),
+            }
+            cleaned = Some(next);
+        }
+        let at = cleaned.as_ref().unwrap_or(v);
+        self.serde_error(&path, &msg, at);
+        // Checker messages about this item follow from the problem just reported.
+        if let Node::Map(m) = at {
+            let id = m.iter().find(|(k, _)| k.as_str() == Some("id"));
+            if let Some(id) = id.and_then(|(_, x)| x.as_str()) {
+                self.broken.push(id.to_string());
             }
         }
-    }
-
-    fn serde_error(&mut self, path: &str, msg: &str, v: &Node<'_>) {
-        if let Some(rest) = msg.strip_prefix("unknown field `") {
-            let name = rest.split('`').next().unwrap_or("");
-            let expected: Vec<&str> = rest
-                .split("expected one of ")
-                .nth(1)
-                .or_else(|| rest.split("expected ").nth(1))
-                .map(|s| s.split(", ").map(|w| w.trim_matches('`')).collect())
-                .unwrap_or_default();
-            let key_path = if path.is_empty() {
-                name.to_string()
-            } else {
-                format!("{path}.{name}")
-            };
-            let hint = match did_you_mean(name, expected.iter().copied()) {
-                Some(s) => format!("did you mean `{s}`?"),
-                None => format!("the keys allowed here are {}", backticked(&expected)),
-            };
-            let location = self.source.key(&key_path).or(self.source.nearest(path));
-            self.diags.push(
-                Diagnostic::new(key_path, format!("unknown key `{name}`"))
-                    .with_hint(hint)
-                    .at(location),
-            );
-            return;
-        }
-        if let Some(rest) = msg.strip_prefix("missing field `") {
-            let name = rest.split('`').next().unwrap_or("");
-            self.push(
-                path,
-                format!("`{name}` is missing"),
-                Some(format!("add `{name}:` here")),
-            );
-            return;
-        }
-        if let Some(rest) = msg.strip_prefix("unknown variant `") {
-            let name = rest.split('`').next().unwrap_or("");
-            let expected: Vec<&str> = rest
-                .split("expected one of ")
-                .nth(1)
-                .or_else(|| rest.split("expected ").nth(1))
-                .map(|s| s.split(", ").map(|w| w.trim_matches('`')).collect())
-                .unwrap_or_default();
-            let hint = match did_you_mean(name, expected.iter().copied()) {
-                Some(s) => format!("did you mean `{s}`?"),
-                None => format!("use one of {}", backticked(&expected)),
-            };
-            // Name the key holding the value (`stages[0].kind`), not only the item.
-            let at = value_path(v, name).map_or_else(|| path.to_string(), |p| format!("{path}{p}"));
-            self.push(&at, format!("unknown value `{name}`"), Some(hint));
-            return;
-        }
-        self.push(path, msg.to_string(), None);
+        None
     }
 
     fn read_design(&mut self, root: Node<'_>) -> Option<DesignSpec> {
@@ -230,13 +278,17 @@ impl Reader<'_> {
                 self.push(
                     "",
                     format!("a top-level key must be a name, found {}", k.describe()),
-                    None,
+                    Some(format!("the top-level keys are {}", backticked(&TOP_KEYS))),
                 );
                 continue;
             };
             if !TOP_KEYS.contains(&key.as_str()) {
                 let hint = match did_you_mean(&key, TOP_KEYS.iter().copied()) {
-                    Some(s) => format!("did you mean `{s}`?"),
+                    Some(s) => {
+                        // The section meant is as good as missing.
+                        self.broken.push(s.to_string());
+                        format!("did you mean `{s}`?")
+                    }
                     None => format!("the top-level keys are {}", backticked(&TOP_KEYS)),
                 };
                 let location = self.source.key(&key);
@@ -260,6 +312,7 @@ impl Reader<'_> {
         let cells = self.map_section::<CellSpec>(&mut sections, "cells");
         let battery = match sections.shift_remove("battery") {
             Some(v) => self.part::<BatterySpec>("battery", &v),
+            None if self.broken.iter().any(|b| b == "battery") => None,
             None => {
                 self.push(
                     "",
@@ -277,7 +330,17 @@ impl Reader<'_> {
             design,
             ambient,
             cells,
-            battery: battery?,
+            battery: battery.unwrap_or_else(|| {
+                // A placeholder: the checker's words about it are left out (see `Partial`).
+                self.broken.push("battery".into());
+                BatterySpec {
+                    cell: CellRef::Name(String::new()),
+                    series: None,
+                    parallel: None,
+                    start: None,
+                    aging: None,
+                }
+            }),
             stages,
             loads,
             modes,
@@ -288,23 +351,36 @@ impl Reader<'_> {
     fn list_section<T: DeserializeOwned>(
         &mut self,
         sections: &mut IndexMap<String, Node<'_>>,
-        name: &str,
+        name: &'static str,
     ) -> Vec<T> {
         match sections.shift_remove(name) {
             None | Some(Node::Null) => Vec::new(),
-            Some(Node::Seq(items)) => items
-                .iter()
-                .enumerate()
-                .filter_map(|(i, v)| self.part::<T>(format_args!("{name}[{i}]"), v))
-                .collect(),
+            Some(Node::Seq(items)) => {
+                let mut out = Vec::with_capacity(items.len());
+                let mut kept = Vec::new();
+                for (i, v) in items.iter().enumerate() {
+                    if let Some(t) = self.part::<T>(format_args!("{name}[{i}]"), v) {
+                        out.push(t);
+                        kept.push(i);
+                    }
+                }
+                if kept.len() < items.len() {
+                    self.broken.push(name.to_string());
+                    self.kept.push((name, kept));
+                }
+                out
+            }
             Some(other) => {
+                self.broken.push(name.to_string());
                 self.push(
                     name,
                     format!(
                         "`{name}` must be a list (items starting with `- `), found {}",
                         other.describe()
                     ),
-                    None,
+                    Some(format!(
+                        "write each item of `{name}` on a line starting with `- `"
+                    )),
                 );
                 Vec::new()
             }
@@ -325,22 +401,30 @@ impl Reader<'_> {
                         self.push(
                             name,
                             format!("a name in `{name}` must be text, found {}", k.describe()),
-                            None,
+                            Some(
+                                "use a name such as `sleep`; quote it if it looks like a number"
+                                    .into(),
+                            ),
                         );
                         continue;
                     };
-                    if let Some(t) = self.part::<T>(format_args!("{name}.{key}"), &v) {
-                        out.insert(key, t);
+                    match self.part::<T>(format_args!("{name}.{key}"), &v) {
+                        Some(t) => {
+                            out.insert(key, t);
+                        }
+                        None => self.broken.push(key),
                     }
                 }
             }
-            Some(other) => self.push(
+            Some(other) => self.push_broken(
                 name,
                 format!(
                     "`{name}` must be a mapping of names, found {}",
                     other.describe()
                 ),
-                None,
+                Some(format!(
+                    "write each entry of `{name}` as `NAME: ...` on its own indented line"
+                )),
             ),
         }
         out

@@ -44,9 +44,23 @@ impl Override {
     }
 }
 
+/// The optional blocks of a design (mappings of keys with defaults) that `--set` creates when
+/// the file leaves them out: `battery.aging`, a cell's `polarization`, a stage's `loss`.
+const OPTIONAL_BLOCKS: [&str; 3] = ["aging", "polarization", "loss"];
+
 /// Apply `o` to the document `root`; returns the index-form path of the value replaced (e.g.
 /// `stages[2].efficiency`), which the checker's messages use.
 pub(crate) fn apply(root: &mut Value, o: &Override) -> Result<String, Diagnostic> {
+    if super::depth::check(&o.value).is_some() {
+        return Err(Diagnostic::new(
+            format!("--set {}", o.path),
+            format!(
+                "the value is nested too deep: more than {} levels of lists and mappings",
+                super::depth::MAX_DEPTH
+            ),
+        )
+        .with_hint("give a plain value such as `90 mA` or a short list such as `[1 V, 3 V]`"));
+    }
     let value: Value =
         serde_yaml::from_str(&o.value).unwrap_or_else(|_| Value::String(o.value.clone()));
     let segments: Vec<&str> = o.path.split('.').collect();
@@ -63,6 +77,10 @@ pub(crate) fn apply(root: &mut Value, o: &Override) -> Result<String, Diagnostic
                 Some("separate names with single dots".into()),
             ));
         }
+        // A block written empty (`aging:`) takes keys like one left out.
+        if node.is_null() {
+            *node = Value::Mapping(Mapping::new());
+        }
         match node {
             Value::Mapping(map) => {
                 let key = Value::String((*seg).to_string());
@@ -70,6 +88,9 @@ pub(crate) fn apply(root: &mut Value, o: &Override) -> Result<String, Diagnostic
                     if last {
                         // A key the file leaves out (a default) may be set; the checker judges it.
                         map.insert(key.clone(), Value::Null);
+                    } else if OPTIONAL_BLOCKS.contains(seg) {
+                        // An optional block the file leaves out is created to hold the value.
+                        map.insert(key.clone(), Value::Mapping(Mapping::new()));
                     } else {
                         return Err(unknown(map, seg, &fail));
                     }
@@ -179,6 +200,15 @@ mod tests {
             "battery.parallel"
         );
         assert_eq!(v["battery"]["parallel"], Value::Number(2.into()));
+        // An optional block the file leaves out is created, as a left-out key is.
+        assert_eq!(
+            set(&mut v, "battery.aging.capacity=80 %").unwrap(),
+            "battery.aging.capacity"
+        );
+        assert_eq!(
+            v["battery"]["aging"]["capacity"],
+            Value::String("80 %".into())
+        );
         // By position too.
         assert_eq!(
             set(&mut v, "stages.0.quiescent=5 µA").unwrap(),
@@ -193,6 +223,8 @@ mod tests {
         assert_eq!(e.hint(), Some("did you mean `radio`?"));
         let e = set(&mut v, "baterry.parallel=2").unwrap_err();
         assert_eq!(e.hint(), Some("did you mean `battery`?"));
+        let e = set(&mut v, "battery.agign.capacity=80 %").unwrap_err();
+        assert_eq!(e.message(), "there is no `agign` here");
         let e = set(&mut v, "battery.cell.x=2").unwrap_err();
         assert!(e.message().contains("single value"), "{}", e.message());
     }

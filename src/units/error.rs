@@ -149,6 +149,16 @@ impl fmt::Display for UnitError {
 
 impl std::error::Error for UnitError {}
 
+/// Whether `unit` is a spelling of degrees Fahrenheit where a temperature is expected.
+fn fahrenheit(unit: &str, expected: &[Dim]) -> bool {
+    let temperature = expected.is_empty() || expected.contains(&Dim::Temperature);
+    temperature
+        && matches!(
+            unit,
+            "°F" | "ºF" | "\u{2109}" | "F" | "degF" | "deg F" | "°f" | "fahrenheit" | "Fahrenheit"
+        )
+}
+
 impl UnitError {
     /// A short suggestion telling the user how to fix the value.
     pub fn hint(&self) -> Option<String> {
@@ -172,6 +182,18 @@ impl UnitError {
                 suggestion,
                 expected,
             } => match suggestion {
+                _ if fahrenheit(unit, expected) => {
+                    let c = number
+                        .parse::<f64>()
+                        .map(|f| ((f - 32.0) * 5.0 / 9.0 * 100.0).round() / 100.0);
+                    match c {
+                        Ok(c) if c.is_finite() => format!(
+                            "Fahrenheit is not accepted: {number} °F is {c} °C; write `{c} °C`"
+                        ),
+                        _ => "Fahrenheit is not accepted; give the temperature in `°C` or `K`"
+                            .to_string(),
+                    }
+                }
                 Some(s) => format!("did you mean `{s}`? write `{number} {s}`"),
                 None if unit.starts_with(',') => format!(
                     "use `.` as the decimal separator: `{}`",
@@ -304,6 +326,15 @@ mod tests {
         );
         assert!(matches!(e, UnitError::UnknownUnit { suggestion: Some(ref s), .. } if s == "mA"));
         fails("3 v", &[Dim::Voltage], &[], &["`V`"]);
+        // Fahrenheit: the conversion, not a guess at `°C` with the same number.
+        let e = fails(
+            "77 °F",
+            &[Dim::Temperature],
+            &["`°F`"],
+            &["Fahrenheit is not accepted: 77 °F is 25 °C", "`25 °C`"],
+        );
+        assert!(!e.hint().unwrap_or_default().contains("`77 °C`"));
+        fails("-40 degF", &[Dim::Temperature], &[], &["-40 °F is -40 °C"]);
         fails("1200 mAH", &[Dim::Charge], &[], &["`mAh`"]);
         fails("10 KOHM", &[Dim::Resistance], &[], &["`10 kohm`"]);
         fails("85 DEGC", &[Dim::Temperature], &[], &["`degC`"]);

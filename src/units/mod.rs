@@ -15,12 +15,14 @@
 //! The formatting helpers ([`fmt_eng`], [`fmt_duration`], ...) turn SI values
 //! back into short, readable text for reports.
 
+mod bounds;
 mod dim;
 mod error;
 mod format;
 mod parse;
 mod table;
 
+pub use bounds::{ABSOLUTE_ZERO_C, MAX_TEMPERATURE_C, OutOfRange, physical};
 pub use dim::{Dim, Quantity};
 pub use error::UnitError;
 pub use format::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent, fmt_sig};

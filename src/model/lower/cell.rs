@@ -65,7 +65,14 @@ impl Lower<'_> {
                 None
             }
             Err(_) => {
-                self.err(path, "the table is empty", None);
+                self.err(
+                    path,
+                    "the table is empty",
+                    Some(format!(
+                        "give rows `[SoC, {}]` from 0 % to 100 %",
+                        dim.example()
+                    )),
+                );
                 None
             }
         }
@@ -163,7 +170,7 @@ impl Lower<'_> {
                         self.err(
                             &format!("{path}.capacity"),
                             "the capacity must be above zero",
-                            None,
+                            Some("give the rated capacity, such as `600 mAh` or `2.2 Wh`".into()),
                         );
                         None
                     }

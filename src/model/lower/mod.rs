@@ -21,11 +21,11 @@ use super::{BATTERY, Design};
 use crate::error::{Diagnostic, did_you_mean};
 use crate::hash::FastMap;
 use crate::spec::{
-    CellRef, CellSpec, ChemistrySpec, DesignSpec, Efficiency, Qty, ResistanceSpec, SourceMap,
-    StageKindSpec, StageSpec, StepSpec, backticked,
+    CellRef, CellSpec, ChemistrySpec, DesignSpec, Efficiency, Partial, Qty, ResistanceSpec,
+    SourceMap, StageKindSpec, StageSpec, StepSpec, backticked,
 };
 use crate::tree::{MAX_DEPTH, Tree, TreeError};
-use crate::units::{Dim, Quantity, fmt_eng, fmt_percent, parse_quantity};
+use crate::units::{Dim, Quantity, fmt_eng, fmt_percent, parse_quantity, physical};
 
 /// Deepest nesting of `repeat` blocks.
 const MAX_REPEAT_NESTING: usize = 16;
@@ -41,6 +41,54 @@ pub(super) fn lower(spec: &DesignSpec, source: &SourceMap) -> Result<Design, Vec
     } else {
         Err(lw.diags)
     }
+}
+
+/// The checker's problems with the readable parts of a file that has structural problems too:
+/// none that follows from a part that could not be read, and each at its place in the file.
+pub(super) fn partial(p: &Partial) -> Vec<Diagnostic> {
+    let Err(diags) = lower(&p.spec, &p.source) else {
+        return Vec::new();
+    };
+    let follows = |d: &Diagnostic| {
+        let path = d.path();
+        let named = d.message().split('`').skip(1).step_by(2);
+        p.broken.iter().any(|b| {
+            path == b
+                || (b == "battery" && path.starts_with("battery"))
+                || named.clone().any(|n| n == b)
+        }) || p
+            .misspelt
+            .iter()
+            .any(|(at, key)| path.starts_with(at.as_str()) && named.clone().any(|n| n == key))
+    };
+    diags
+        .into_iter()
+        .map(|d| {
+            // Items dropped from a list shift the later ones: give each its index in the file.
+            for (section, kept) in &p.kept {
+                let Some(rest) = d
+                    .path()
+                    .strip_prefix(section)
+                    .and_then(|r| r.strip_prefix('['))
+                else {
+                    continue;
+                };
+                let Some((k, tail)) = rest.split_once(']') else {
+                    continue;
+                };
+                let Some(&i) = k.parse::<usize>().ok().and_then(|k| kept.get(k)) else {
+                    continue;
+                };
+                let path = format!("{section}[{i}]{tail}");
+                let at = p.source.nearest(&path);
+                return Diagnostic::new(path, d.message())
+                    .with_hint_opt(d.hint().map(str::to_string))
+                    .at(at);
+            }
+            d
+        })
+        .filter(|d| !follows(d))
+        .collect()
 }
 
 /// Check one cell alone (a built-in preset); paths start at the cell's keys (`.capacity`).
@@ -84,7 +132,13 @@ impl Lower<'_> {
     /// a message (pass `format_args!`): a valid design of thousands of stages formats none.
     fn quantity(&mut self, q: &Qty, path: impl Display, dims: &[Dim]) -> Option<Quantity> {
         match parse_quantity(q.text(), dims) {
-            Ok(v) => Some(v),
+            Ok(v) => match physical(v, q.text()) {
+                Ok(()) => Some(v),
+                Err(e) => {
+                    self.err(&path.to_string(), e.message(), Some(e.hint().to_string()));
+                    None
+                }
+            },
             Err(e) => {
                 self.err(&path.to_string(), e.to_string(), e.hint());
                 None
@@ -103,15 +157,15 @@ impl Lower<'_> {
         if ok {
             Some(v)
         } else {
-            let what = if matches!(bound, Bound::AtLeastZero) {
-                "cannot be negative"
+            let (what, fix) = if matches!(bound, Bound::AtLeastZero) {
+                ("cannot be negative", "give zero or a positive value")
             } else {
-                "must be above zero"
+                ("must be above zero", "give a value above zero")
             };
             self.err(
                 &path.to_string(),
                 format!("{} `{}` {what}", capital(dim.noun()), q.text()),
-                None,
+                Some(format!("{fix}, such as `{}`", dim.example())),
             );
             None
         }
@@ -153,7 +207,12 @@ impl Lower<'_> {
                     lo * 100.0,
                     hi * 100.0
                 ),
-                None,
+                Some(format!(
+                    "give a value {} {} % and at most {} %, as a percentage or a fraction of one",
+                    if lo_closed { "from" } else { "above" },
+                    lo * 100.0,
+                    hi * 100.0
+                )),
             );
             None
         }
@@ -168,7 +227,7 @@ impl Lower<'_> {
             self.err(
                 &path.to_string(),
                 format!("`{}` is not a whole number from 1 to {max}", q.text()),
-                None,
+                Some(format!("give a whole number from 1 to {max}, such as `2`")),
             );
             None
         }

@@ -123,7 +123,7 @@ impl Lower<'_> {
                     self.err(
                         path,
                         format!("`repeat` blocks are nested deeper than {MAX_REPEAT_NESTING}"),
-                        None,
+                        Some("merge inner blocks into their parent: a block of blocks repeats the whole sequence".into()),
                     );
                     return None;
                 }

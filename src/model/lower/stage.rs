@@ -320,7 +320,7 @@ impl Lower<'_> {
                     self.err(
                         &format!("{path}.efficiency"),
                         "the list of efficiency curves is empty",
-                        None,
+                        Some("give at least one `{ vin: 3 V, curve: [[1 mA, 75 %], [100 mA, 90 %]] }`, or a constant such as `90 %`".into()),
                     );
                     return None;
                 }

@@ -53,7 +53,7 @@ impl Lower<'_> {
                     self.err(
                         &p(),
                         format!("the draw `{}` must be above zero", q.text()),
-                        None,
+                        Some("give a current, power or resistance above zero, such as `6 mA`; for no draw leave the state out and use `off`".into()),
                     );
                     continue;
                 }
@@ -236,7 +236,10 @@ impl Lower<'_> {
                                 "the chain of stages down to `{}` is deeper than {MAX_DEPTH}",
                                 spec.stages[k].id
                             ),
-                            None,
+                            Some(
+                                "feed some of the stages from `battery` or from a stage higher up"
+                                    .into(),
+                            ),
                         ),
                     }
                 }
