@@ -51,9 +51,9 @@ pub struct RunOptions {
     pub exact: bool,
     /// Keep a decimated trace.
     pub trace: bool,
-    /// Most work the run may do, in node solves (one operating point of a tree of n stages and
-    /// loads costs 1 + n); past it the run stops with [`RunError::WorkLimit`]. This bounds the
-    /// time of every run whatever the design.
+    /// Most operating points the run may solve (every probe and bisection step counts); past it
+    /// the run stops with [`RunError::WorkLimit`]. With the tree's size bounded by the input
+    /// file's, this bounds the time of every run whatever the design.
     pub work_limit: u64,
 }
 
@@ -104,7 +104,7 @@ pub enum RunError {
     },
     /// The run needed more work than [`RunOptions::work_limit`].
     WorkLimit {
-        /// The limit, node solves.
+        /// The limit, operating points.
         limit: u64,
         /// Simulated time reached, s.
         t_s: f64,
@@ -127,8 +127,8 @@ impl fmt::Display for RunError {
             ),
             RunError::WorkLimit { limit, t_s } => write!(
                 f,
-                "the simulation gave up at t = {t_s:.6e} s after {limit} solved operating points \
-                 of the tree's nodes: the profile's steps are too short against the time the \
+                "the simulation gave up at t = {t_s:.6e} s after {limit} solved operating points: \
+                 the profile's steps are too short against the time the \
                  product runs; lengthen the shortest steps, put them in a `repeat` block, or \
                  shorten the horizon"
             ),
@@ -352,9 +352,8 @@ struct Ctx<'a> {
     draws_below: Vec<Vec<bool>>,
     /// Each load's maximum supply.
     v_max: Vec<Option<f64>>,
-    /// Work done so far (node solves, shared by every probe of the run) and its cost per solve.
+    /// Operating points solved so far, shared by every probe of the run.
     work: Cell<u64>,
-    solve_cost: u64,
     /// Why the run cannot go on; once set, every step stops at once.
     fault: RefCell<Option<RunError>>,
 }
@@ -393,7 +392,6 @@ impl<'a> Ctx<'a> {
             draws_below,
             v_max: d.loads.iter().map(|l| l.v_max).collect(),
             work: Cell::new(0),
-            solve_cost: 1 + (d.stages.len() + d.loads.len()) as u64,
             fault: RefCell::new(None),
         }
     }
@@ -540,7 +538,7 @@ impl<'a> Sim<'a> {
 
     fn solve(&self, mode: usize, s: f64, vp: f64) -> Solution {
         let c = self.c;
-        c.work.set(c.work.get().saturating_add(c.solve_cost));
+        c.work.set(c.work.get().saturating_add(1));
         let at = PackState {
             soc: s.max(0.0),
             v_pol: Some(vp),
