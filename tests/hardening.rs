@@ -201,3 +201,25 @@ fn fast_solver_holds_its_promise_from_a_low_start() {
         );
     }
 }
+
+#[test]
+fn a_trace_neither_changes_a_nested_run_nor_exhausts_its_work() {
+    // Three nested repeat blocks started at 30 %: the trace probes of skipped stretches used to
+    // probe again inside every probe, and the run with a trace stopped at the work limit.
+    let text =
+        std::fs::read_to_string(crate::util::root().join("examples/coin-cell-tag.yaml")).unwrap();
+    let set = [joulepath::spec::Override::parse("battery.start=30%").unwrap()];
+    let d = Design::from_text_with(&text, &set).unwrap();
+    let plain = run(&d, &RunOptions::for_design(&d)).unwrap();
+    let traced = run(
+        &d,
+        &RunOptions {
+            trace: true,
+            ..RunOptions::for_design(&d)
+        },
+    )
+    .unwrap();
+    assert!(!traced.trace.is_empty());
+    assert_eq!(plain.end, traced.end);
+    assert!(close(traced.ledger.charge_c, plain.ledger.charge_c, 1e-12));
+}

@@ -440,6 +440,10 @@ struct Sim<'a> {
     violations: Vec<Violation>,
     seen: HashSet<(ViolationKind, String)>,
     tracer: Option<Tracer>,
+    /// A trace probe: it only gives points to the trace, does not probe again inside its skips
+    /// and its solves do not count toward the work limit (they are at most a fixed multiple of
+    /// the run's own).
+    trace_probe: bool,
     end: Option<End>,
 }
 
@@ -510,6 +514,7 @@ impl<'a> Sim<'a> {
                 .opt
                 .trace
                 .then(|| Tracer::new(d.pack.start_soc, TRACE_BUCKETS)),
+            trace_probe: false,
             end: None,
         }
     }
@@ -538,7 +543,9 @@ impl<'a> Sim<'a> {
 
     fn solve(&self, mode: usize, s: f64, vp: f64) -> Solution {
         let c = self.c;
-        c.work.set(c.work.get().saturating_add(1));
+        if !self.trace_probe {
+            c.work.set(c.work.get().saturating_add(1));
+        }
         let at = PackState {
             soc: s.max(0.0),
             v_pol: Some(vp),

@@ -23,7 +23,7 @@ impl<'a> Sim<'a> {
 
     /// How many passes the fast solver may skip after a pass that changed things by `delta`,
     /// with `remaining` passes of the block left.
-    pub(super) fn plan_skip(&self, delta: &Delta, remaining: f64, pass: f64) -> f64 {
+    pub(super) fn plan_skip(&self, delta: &Delta, remaining: f64, pass: f64, leaf: bool) -> f64 {
         let to_horizon = ((self.c.opt.horizon_s - self.now()) / pass).floor() - 1.0;
         let mut k = if delta.ds > 0.0 {
             // A run of few passes is executed pass by pass with the reference's steps: its end
@@ -31,7 +31,11 @@ impl<'a> Sim<'a> {
             // solver promises.
             let run_passes = self.now() / pass + self.soc() / delta.ds;
             if run_passes < SKIP_MIN_RUN_PASSES {
-                self.c.fine.set(true);
+                // Where the passes hold repeat blocks, those skip on their own and the end
+                // falls on one of their passes: fine steps are for the innermost blocks.
+                if leaf {
+                    self.c.fine.set(true);
+                }
                 return 0.0;
             }
             let by_ds = (SKIP_MAX_DS / delta.ds).floor();
@@ -54,13 +58,14 @@ impl<'a> Sim<'a> {
     /// Execute `n` passes (a whole number, possibly infinite) of `steps`, each `pass` seconds;
     /// true if the product stopped.
     pub(super) fn passes(&mut self, steps: &[Step], pass: f64, n: f64) -> bool {
+        let leaf = !steps.iter().any(|s| matches!(s, Step::Repeat { .. }));
         let mut done = 0.0;
         let mut last: Option<Delta> = None;
         // Passes within which a skip found the product stopping (from the current state).
         let mut stop_within: Option<f64> = None;
         while done < n {
             if let Some(delta) = last.as_ref() {
-                let mut k = self.plan_skip(delta, n - done, pass);
+                let mut k = self.plan_skip(delta, n - done, pass, leaf);
                 if let Some(c) = stop_within {
                     k = k.min(c);
                 }
@@ -198,13 +203,14 @@ impl<'a> Sim<'a> {
         k: f64,
         rates: &Delta,
     ) {
-        if self.tracer.is_none() {
+        if self.tracer.is_none() || self.trace_probe {
             return;
         }
         let probes = (TRACE_PROBES_PER_SKIP as f64).min(k);
         let mut j = 1.0;
         while j < probes {
             let mut probe = base.clone();
+            probe.trace_probe = true;
             probe.advance((j * k / probes).floor(), pass, rates);
             probe.steps(steps, pass);
             if let (Some(mine), Some(theirs)) = (&mut self.tracer, &probe.tracer) {
