@@ -461,9 +461,10 @@ mod agreement {
     }
 
     fn config() -> Config {
+        let env = |k: &str| std::env::var(k).ok().and_then(|v| v.parse::<u64>().ok());
         Config {
-            cases: 32,
-            rng_seed: RngSeed::Fixed(0x6a6f_756c),
+            cases: env("JOULEPATH_AGREEMENT_CASES").map_or(32, |c| c as u32),
+            rng_seed: RngSeed::Fixed(env("JOULEPATH_AGREEMENT_SEED").unwrap_or(0x6a6f_756c)),
             failure_persistence: None,
             ..Config::default()
         }

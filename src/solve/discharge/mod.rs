@@ -444,6 +444,9 @@ struct Sim<'a> {
     /// and its solves do not count toward the work limit (they are at most a fixed multiple of
     /// the run's own).
     trace_probe: bool,
+    /// A pass simulated to measure a skipped stretch's rates: an end it meets only tells the
+    /// skip where the end lies.
+    speculative: bool,
     end: Option<End>,
 }
 
@@ -515,6 +518,7 @@ impl<'a> Sim<'a> {
                 .trace
                 .then(|| Tracer::new(d.pack.start_soc, TRACE_BUCKETS)),
             trace_probe: false,
+            speculative: false,
             end: None,
         }
     }
@@ -774,6 +778,12 @@ impl<'a> Sim<'a> {
                 continue;
             }
             let end_sol = self.solve(mode, s1, vp1);
+            if !self.speculative && !self.c.fine.get() && self.verdict(&end_sol, s1).is_some() {
+                // The end lies in this step: from here on, steps as fine as the reference's,
+                // so that the instant is found as it would be there. The step is taken again.
+                self.c.fine.set(true);
+                continue;
+            }
             if self.verdict(&end_sol, s1).is_some() {
                 let (mut lo, mut hi) = (0.0, dt);
                 for _ in 0..END_BISECT_ITER {

@@ -128,6 +128,7 @@ impl<'a> Sim<'a> {
         let mut first = delta.clone();
         if self.c.pol.is_some() && (self.vp - delta.vp_star).abs() > 1e-3 * delta.vp_star.abs() {
             let mut again = self.clone();
+            again.speculative = true;
             again.vp = delta.vp_star;
             if let Some(r) = again.run_pass(steps, pass) {
                 first = r;
@@ -138,6 +139,7 @@ impl<'a> Sim<'a> {
         while k >= min && !self.c.failed() {
             let h = (k / 2.0).floor();
             let mut mid = self.clone();
+            mid.speculative = true;
             mid.advance(h, pass, delta);
             let start_mid = mid.clone();
             let Some(mut rm) = mid.run_pass(steps, pass) else {
@@ -166,6 +168,7 @@ impl<'a> Sim<'a> {
             let mut toward_end = rm.clone();
             toward_end.vp_star = rm.vp_star + (rm.vp_star - delta.vp_star) * (k - h) / (h + 1.0);
             let mut probe = self.clone();
+            probe.speculative = true;
             probe.advance(k, pass, &rm);
             probe.vp += (toward_end.vp_star - rm.vp_star) * (1.0 - rm.decay.powf(k));
             let Some(rk) = probe.run_pass(steps, pass) else {
@@ -186,6 +189,7 @@ impl<'a> Sim<'a> {
             probe.ledger.add_scaled(&rates.ledger, k);
             probe.ledger.add_scaled(&rm.ledger, -k);
             probe.trace_skipped(self, steps, pass, k, &rates);
+            probe.speculative = self.speculative;
             *self = probe;
             return Some((k + 1.0, rk));
         }
