@@ -543,12 +543,16 @@ fn ten_thousand_mutated_designs_neither_panic_nor_hang() {
     let (mut checked, mut ran) = (0usize, 0usize);
     let mut over: Vec<String> = Vec::new();
     for _ in 0..total {
-        let Ok((i, outcome, took)) = results.recv_timeout(BOUND + Duration::from_secs(5)) else {
+        let wait = BOUND + Duration::from_secs(5);
+        let Ok((i, outcome, took)) = results.recv_timeout(wait) else {
             let stuck: Vec<usize> = busy.lock().unwrap().iter().flatten().copied().collect();
             for &i in &stuck {
                 save(&format!("hang-{i}.yaml"), &all[i].1);
             }
-            panic!("mutants {stuck:?} did not end within {BOUND:?}; saved under target/fuzz/");
+            panic!(
+                "no mutant ended for {wait:?}: mutants {stuck:?} ran over the {BOUND:?} bound; \
+                 saved under target/fuzz/"
+            );
         };
         let (seed, text) = &all[i];
         match outcome {
