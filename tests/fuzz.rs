@@ -758,12 +758,12 @@ fn extreme() -> impl Strategy<Value = Extreme> {
         (
             magnitude(1e-3, 1e6),
             magnitude(0.5, 4.0),
-            // Flat (1e-12 V span) to steep (1 kV span) OCV tables.
+            // Flat (zero or 1e-12 V span) to steep (500 V span) OCV tables, and one past f64's end.
             prop_oneof![
                 1 => Just(0.0),
                 1 => Just(1e-12),
                 6 => 0.01f64..2.0,
-                1 => Just(1e3),
+                2 => Just(500.0),
                 1 => Just(1e308)
             ],
             magnitude(0.0, 100.0),
@@ -780,7 +780,16 @@ fn extreme() -> impl Strategy<Value = Extreme> {
                 ],
             )),
             1u32..4,
-            prop_oneof![Just(1.0), Just(1e-300), Just(1e-12), Just(0.0), 0.0f64..1.0],
+            // Start SoC: full, the least accepted above zero (0.01 %), zero, below the
+            // bound, or anywhere.
+            prop_oneof![
+                1 => Just(1.0),
+                2 => Just(1e-4),
+                1 => Just(0.0),
+                1 => Just(1e-300),
+                1 => Just(1e-12),
+                3 => 0.0f64..1.0
+            ],
         ),
         (
             magnitude(0.0, 1.0),
