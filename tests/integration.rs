@@ -7,6 +7,7 @@ mod cli;
 mod errors;
 mod examples;
 mod fit;
+mod fuzz;
 mod hardening;
 mod json;
 mod plots;
