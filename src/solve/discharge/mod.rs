@@ -458,6 +458,10 @@ struct Delta {
     /// currents every pass, V_p(end) = a V_p(start) + b, so V* = b / (1 - a).
     decay: f64,
     vp_star: f64,
+    /// -T / tau (0 without polarization) and the pass's offset b, for the polarization after k
+    /// passes without cancellation when tau is far longer than a pass.
+    ln_decay: f64,
+    offset: f64,
     ledger: Ledger,
 }
 
@@ -473,6 +477,8 @@ impl Delta {
             ds: parts.iter().map(|(w, d)| w * d.ds).sum(),
             decay: parts[2].1.decay,
             vp_star: parts[2].1.vp_star,
+            ln_decay: parts[2].1.ln_decay,
+            offset: parts[2].1.offset,
             ledger,
         }
     }
@@ -480,11 +486,14 @@ impl Delta {
     /// The changes of a pass of length `pass` that started at (`s0`, `vp0`) and ended in
     /// `after`, with `ledger` the pass's own totals.
     fn of(s0: Sum2, vp0: f64, after: &Sim, pass: f64, ledger: Ledger) -> Self {
-        let decay = after.c.pol.map_or(0.0, |(_, tau)| (-pass / tau).exp());
+        let ln_decay = after.c.pol.map_or(f64::NEG_INFINITY, |(_, tau)| -pass / tau);
+        let decay = ln_decay.exp();
         let b = after.vp - decay * vp0;
         Self {
             ds: s0.minus(after.s),
             decay,
+            ln_decay,
+            offset: b,
             vp_star: if decay < 1.0 {
                 b / (1.0 - decay)
             } else {
@@ -669,10 +678,16 @@ impl<'a> Sim<'a> {
     /// `max_dvp` of the pack voltage: with V_p relaxing toward I R1, the change over dt is
     /// |I R1 - V_p| (1 - e^(-dt / tau)). A strong, fast polarization branch under a pulse is then
     /// followed in several steps rather than one held current.
-    fn polarization_step(&self, p: &OperatingPoint) -> f64 {
+    ///
+    /// A time constant far below the step (`dt` over 20 tau) is not followed: the transient is a
+    /// small part of the step, and the step's mean polarization already averages it.
+    fn polarization_step(&self, p: &OperatingPoint, dt: f64) -> f64 {
         let Some((r1, tau)) = self.c.pol else {
             return f64::INFINITY;
         };
+        if dt > 20.0 * tau {
+            return f64::INFINITY;
+        }
         let gap = (p.pack.current * r1 - self.vp).abs();
         let allowed = self.c.max_dvp() * p.pack.voltage.abs();
         if gap <= allowed || !(gap.is_finite() && allowed > 0.0) {
@@ -757,7 +772,7 @@ impl<'a> Sim<'a> {
             if rate0 > 0.0 {
                 dt = dt.min(self.c.max_ds() / rate0);
             }
-            dt = dt.min(self.polarization_step(&p));
+            dt = dt.min(self.polarization_step(&p, dt));
             let pm = self.mean_point(mode, &p, rate0, dt);
             let i = pm.pack.current;
             let rate = self.rate(i);

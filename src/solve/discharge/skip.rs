@@ -17,8 +17,16 @@ impl<'a> Sim<'a> {
         self.s.add(-k * delta.ds);
         self.ledger.add_scaled(&delta.ledger, k);
         // Polarization relaxes toward its periodic value over the skipped passes.
-        let decay = delta.decay.powf(k);
-        self.vp = delta.vp_star + (self.vp - delta.vp_star) * decay;
+        // V_p(k) = a^k V_p + b (1 - a^k) / (1 - a), a = e^(-T / tau): the geometric sum with
+        // expm1, exact also when tau is years and a is 1 to within rounding.
+        let (l, b) = (delta.ln_decay, delta.offset);
+        self.vp = if l == f64::NEG_INFINITY {
+            b
+        } else if l == 0.0 {
+            self.vp + k * b
+        } else {
+            (k * l).exp() * self.vp + b * (k * l).exp_m1() / l.exp_m1()
+        };
     }
 
     /// How many passes the fast solver may skip after a pass that changed things by `delta`,
@@ -126,7 +134,12 @@ impl<'a> Sim<'a> {
         // still far from periodic, the first pass run again from the periodic value (at 1/2).
         let mut x0 = -0.5;
         let mut first = delta.clone();
-        if self.c.pol.is_some() && (self.vp - delta.vp_star).abs() > 1e-3 * delta.vp_star.abs() {
+        // (Only where the polarization settles within a pass or two; a slower one is followed by
+        // the nodes themselves.)
+        if self.c.pol.is_some()
+            && delta.decay < 0.5
+            && (self.vp - delta.vp_star).abs() > 1e-3 * delta.vp_star.abs()
+        {
             let mut again = self.clone();
             again.speculative = true;
             again.vp = delta.vp_star;
@@ -151,7 +164,11 @@ impl<'a> Sim<'a> {
                 // A pass in the middle that gains charge cannot be extrapolated: pass by pass.
                 break;
             }
-            if self.c.pol.is_some() && (rm.vp_star - start_mid.vp).abs() > 1e-3 * rm.vp_star.abs() {
+            let settled = |d: &Delta, n: f64| (n * d.ln_decay).exp() < 0.05;
+            if self.c.pol.is_some()
+                && settled(&rm, h)
+                && (rm.vp_star - start_mid.vp).abs() > 1e-3 * rm.vp_star.abs()
+            {
                 // The middle pass started from the periodic polarization of the start's currents;
                 // near the power limit the current is steep in V_p, so run it again from its own
                 // periodic value.
@@ -170,7 +187,9 @@ impl<'a> Sim<'a> {
             let mut probe = self.clone();
             probe.speculative = true;
             probe.advance(k, pass, &rm);
-            probe.vp += (toward_end.vp_star - rm.vp_star) * (1.0 - rm.decay.powf(k));
+            if settled(&rm, k) {
+                probe.vp += (toward_end.vp_star - rm.vp_star) * (1.0 - rm.decay.powf(k));
+            }
             let Some(rk) = probe.run_pass(steps, pass) else {
                 *stop_within = Some(k + 1.0);
                 k = h;
