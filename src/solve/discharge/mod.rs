@@ -1,19 +1,21 @@
 //! The discharge: the profile executed from the start state, repeated until the product stops
 //! (DESIGN section 6).
 //!
-//! Within a phase the pack current is held at the operating point of the phase's start, so the
-//! polarization voltage has its exact exponential update and the state of charge falls linearly;
-//! long phases are cut into sub-steps small in state of charge. After each (sub-)step the
-//! operating point at its end state is solved and the end conditions checked; when one holds,
-//! the first failing instant inside the step is found by bisection.
+//! Within a phase a step holds the pack current of the operating point at the step's mean state
+//! (mid-step SoC, time-averaged polarization), so the polarization voltage has its exact
+//! exponential update and the state of charge falls linearly; steps are cut small in state of
+//! charge and in the polarization's move. After each step the operating point at its end state
+//! is solved and the end conditions checked; when one holds, the first failing instant inside
+//! the step is found by bisection.
 //!
 //! Two solvers share this machinery. The chronological reference (`exact`) executes every pass of
-//! every repeat block. The fast solver, after one exact pass of a block, skips many passes at once
-//! at the rates of a pass simulated at the middle of the skipped stretch (quasi-static averaging
-//! over SoC), with the polarization relaxed toward its periodic value (one pass maps V_p to
-//! a V_p + b with a = e^(-T/tau), so the periodic value is b / (1 - a)); it then executes the next
-//! pass exactly. If that pass stops the product, the first stopping pass is found by bisection on
-//! the number of skipped passes and executed exactly.
+//! every repeat block. The fast solver executes a pass, then skips stretches of passes at rates
+//! taken from passes simulated at the stretch's start, middle and end, with the polarization at
+//! its periodic value (one pass maps V_p to a V_p + b with a = e^(-T/tau), so the periodic value
+//! is b / (1 - a)), and executes the pass after each stretch. A stretch is halved where those
+//! rates bend too much and wherever a simulated pass stops the product, so the last passes before
+//! the end are executed; a run of few passes is executed pass by pass at the reference's step
+//! sizes (`skip.rs`).
 
 mod end;
 mod skip;
