@@ -707,6 +707,16 @@ fn inputs_that_are_not_regular_files_are_refused() {
     let t = Test::new().args(&["runtime", "."]);
     let out = t.expect_code(1);
     assert!(out.stderr.contains("a directory"), "{}", out.stderr);
+    // A named pipe: opening it would wait for a writer, so its kind is checked first.
+    let t = Test::new().args(&["check", "pipe.yaml"]);
+    let made = std::process::Command::new("mkfifo")
+        .arg(t.dir().join("pipe.yaml"))
+        .status()
+        .is_ok_and(|s| s.success());
+    if made {
+        let out = t.expect_code(1);
+        assert!(out.stderr.contains("not a regular file"), "{}", out.stderr);
+    }
 }
 
 #[test]

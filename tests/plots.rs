@@ -154,6 +154,35 @@ fn losses_svg_ranks_places_and_says_the_split_is_estimated() {
     }
 }
 
+/// The losses picture names the energies as the runtime and heat tables do: the energy from the
+/// cells (open-circuit voltage x current) and the loads' share of it, with the same figures.
+#[test]
+fn losses_picture_speaks_of_the_energy_from_the_cells_as_the_tables_do() {
+    use joulepath::units::{fmt_eng, fmt_percent};
+    for name in ["wearable-band.yaml", "handheld-meter.yaml"] {
+        let d = load(name);
+        let r = traced(&d);
+        let svg = losses(&d, &r, PlotFormat::Svg, DEFAULT_SIZE).expect("losses SVG");
+        let t = svg_texts(&svg);
+        let l = &r.ledger;
+        let from_cells = fmt_eng(l.cell_energy_j() / 3600.0, "Wh");
+        let loads = format!(
+            "to the loads: {} ({} of the energy from the cells)",
+            fmt_eng(l.load_energy_total() / 3600.0, "Wh"),
+            fmt_percent(l.load_share_of_cell_energy().unwrap())
+        );
+        let lost = fmt_percent((l.stage_loss_total() + l.pack_loss_j) / l.cell_energy_j());
+        for want in [
+            format!("Where the energy from the cells ({from_cells}) went"),
+            loads,
+            format!("{lost} of the energy from the cells was lost on the way"),
+        ] {
+            assert!(has(&t, &want), "{name}: no `{want}` in {t:?}");
+        }
+        assert!(!has(&t, "drawn from the cells"), "{name}: old wording");
+    }
+}
+
 #[test]
 fn efficiency_svg_has_a_panel_per_switching_stage() {
     let d = load("scanner-boost.yaml");

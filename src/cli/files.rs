@@ -58,6 +58,14 @@ pub fn read_input(path: &Path) -> Result<Vec<u8>, Failure> {
 fn read_bounded(path: &Path, limit: u64) -> Result<Vec<u8>, Failure> {
     let shown = path.display();
     let fail = |e: &io::Error| Failure::Input(format!("cannot read `{shown}`: {e}"));
+    // The kind is checked before opening: opening a named pipe waits for a writer.
+    let before = std::fs::metadata(path).map_err(|e| fail(&e))?;
+    if !before.is_file() {
+        return Err(Failure::Input(format!(
+            "cannot read `{shown}`: it is {}, not a regular file; save the input to a file and give that file's path",
+            kind_words(before.file_type())
+        )));
+    }
     let file = File::open(path).map_err(|e| fail(&e))?;
     let meta = file.metadata().map_err(|e| fail(&e))?;
     if !meta.is_file() {

@@ -135,6 +135,7 @@ impl CsvRow for CellJson {
         "name",
         "chemistry",
         "nominal_v",
+        "mean_ocv_v",
         "capacity_ah",
         "energy_wh",
         "cutoff_v",
@@ -283,4 +284,24 @@ fn table(w: &mut dyn Write, p: &Preset) -> io::Result<()> {
         "The source and status of every value are given beside it in presets/{}.yaml.",
         p.name
     )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn cells_csv_has_a_header_for_every_field() {
+        // The header once lacked `mean_ocv_v`, and `cells --format csv` failed on every row.
+        let presets = Preset::all().unwrap();
+        let mut out = Vec::new();
+        write_cells(&mut out, &presets, Format::Csv).unwrap();
+        let text = String::from_utf8(out).unwrap();
+        let mut lines = text.lines();
+        assert_eq!(
+            lines.next(),
+            Some("name,chemistry,nominal_v,mean_ocv_v,capacity_ah,energy_wh,cutoff_v")
+        );
+        assert_eq!(lines.count(), presets.len());
+    }
 }

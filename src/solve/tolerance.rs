@@ -15,8 +15,8 @@ pub const BISECT_MAX_ITER: usize = 200;
 /// Relative energy-balance error allowed at one operating point (DESIGN section 5).
 pub const ENERGY_BALANCE_REL: f64 = 1e-9;
 
-/// Largest fall in state of charge within one held step of the fast solver (the current is held
-/// at the step's start value; 0.5 % keeps the runtime within 0.2 % of the reference).
+/// Largest fall in state of charge within one held step of the fast solver (the current is that
+/// of the step's mean state; 0.5 % keeps the runtime within 0.2 % of the reference).
 pub const STEP_MAX_DS_FAST: f64 = 0.005;
 /// The same for the chronological reference.
 pub const STEP_MAX_DS_EXACT: f64 = 0.0005;
@@ -25,15 +25,16 @@ pub const STEP_MAX_DS_EXACT: f64 = 0.0005;
 pub const STEP_MAX_DVP_FAST: f64 = 0.01;
 /// The same for the chronological reference.
 pub const STEP_MAX_DVP_EXACT: f64 = 0.001;
-/// Largest fall in state of charge the fast solver skips at once (at mid-stretch rates).
+/// Largest fall in state of charge the fast solver skips at once.
 pub const SKIP_MAX_DS: f64 = 0.04;
 /// Passes simulated inside each skipped stretch to give a trace its points there (they change
 /// nothing else).
 pub const TRACE_PROBES_PER_SKIP: u64 = 12;
-/// Error control of a skipped stretch: the largest difference between Simpson's rule and the
-/// midpoint rule over the stretch, k |r0 - 2 rm + rk| / 6, as a share of the stretch's fall in
-/// state of charge (k rm); beyond it the stretch is halved. The stretch is then taken at
-/// Simpson's rates, whose own error is of higher order.
+/// Error control of a skipped stretch: the departure of the parabola through the start, middle
+/// and end passes' rates from the straight line through the outer two (the difference of their
+/// means over the stretch), as a share of the middle pass's fall in state of charge; beyond it
+/// the stretch is halved. The stretch is then taken at the parabola's mean, whose own error is
+/// of higher order.
 pub const SKIP_REL_ERR: f64 = 2e-4;
 /// Fewest passes a run must be estimated to last (passes so far plus state of charge over the
 /// last pass's fall) for the fast solver to skip any: the end falls on a pass, and with fewer

@@ -144,12 +144,12 @@ impl Painter for Losses<'_> {
         let ty = Type::for_width(w);
         let pad = (ty.body * 1.2) as i32;
         let total: f64 = bars.iter().map(|b| b.total_j).sum();
-        let drawn = r.ledger.ocv_energy_j;
+        let from_cells = r.ledger.cell_energy_j();
         let mut lines = vec![format!(
-            "Over the runtime of {}: {} of the energy drawn from the cells was lost on the way.",
+            "Over the runtime of {}: {} of the energy from the cells was lost on the way.",
             fmt_duration(r.end.t_s),
-            if drawn > 0.0 {
-                fmt_percent(total / drawn)
+            if from_cells > 0.0 {
+                fmt_percent(total / from_cells)
             } else {
                 "none".into()
             }
@@ -200,7 +200,7 @@ impl Painter for Losses<'_> {
         let plot_w = px(w) - 3 * pad - name_w.max(40);
         let x_hi = axis_end(root, bars, &values, factor, plot_w, pad, ty.body);
         // The bars take the room down to a strip at the bottom that shows where all the energy
-        // drawn from the cells went (when the picture is tall enough for both).
+        // from the cells went (when the picture is tall enough for both).
         let h = px(root.dim_in_pixel().1);
         let split_h = destination_height(root, r, ty, px(w) - 2 * pad)?;
         let left = h - y - 4;
@@ -318,24 +318,41 @@ fn axis_end<DB: DrawingBackend>(
     nice_ceiling(end.min(longest / 0.4))
 }
 
-/// Where the energy drawn from the cells went: energy, name, fill and text colour of each part.
-fn destination_parts(r: &RunResult) -> [(f64, &'static str, RGBColor, RGBColor); 3] {
+/// One part of the energy from the cells: energy (J), its share of the energy from the cells,
+/// name, fill and text colour.
+type Part = (f64, f64, &'static str, RGBColor, RGBColor);
+
+/// Where the energy from the cells went ([`crate::solve::Ledger::cell_energy_j`], the figure
+/// the runtime and heat tables give): to the loads (their share as
+/// [`crate::solve::Ledger::load_share_of_cell_energy`]), lost in the stages, lost in the pack.
+fn destination_parts(r: &RunResult) -> [Part; 3] {
     let l = &r.ledger;
+    let from_cells = l.cell_energy_j();
+    let share = |e: f64| {
+        if from_cells > 0.0 {
+            e / from_cells
+        } else {
+            0.0
+        }
+    };
     [
         (
             l.load_energy_total(),
+            l.load_share_of_cell_energy().unwrap_or(0.0),
             "to the loads",
             RGBColor(222, 222, 222),
             INK,
         ),
         (
             l.stage_loss_total(),
+            share(l.stage_loss_total()),
             "lost in stages",
             RGBColor(90, 90, 90),
             WHITE,
         ),
         (
             l.pack_loss_j,
+            share(l.pack_loss_j),
             "lost in the pack",
             RGBColor(160, 160, 160),
             INK,
@@ -343,19 +360,25 @@ fn destination_parts(r: &RunResult) -> [(f64, &'static str, RGBColor, RGBColor);
     ]
 }
 
-/// The legend under the destination bar: each part that is not empty, with its energy and share.
-fn destination_keys(parts: &[(f64, &str, RGBColor, RGBColor)]) -> Vec<(Swatch, String)> {
-    let total: f64 = parts.iter().map(|p| p.0).sum();
+/// The legend under the destination bar: each part that is not empty, with its energy and its
+/// share of the energy from the cells (said in full on the first).
+fn destination_keys(parts: &[Part]) -> Vec<(Swatch, String)> {
     parts
         .iter()
         .filter(|p| p.0 > 0.0)
-        .map(|&(e, name, colour, _)| {
+        .enumerate()
+        .map(|(i, &(e, share, name, colour, _))| {
+            let of = if i == 0 {
+                " of the energy from the cells"
+            } else {
+                ""
+            };
             (
                 Swatch::Block(colour, 1.0),
                 format!(
-                    "{name}: {} ({})",
+                    "{name}: {} ({}{of})",
                     fmt_eng(e / 3600.0, "Wh"),
-                    fmt_percent(e / total)
+                    fmt_percent(share)
                 ),
             )
         })
@@ -378,9 +401,10 @@ where
     Ok((ty.body * 4.3) as i32 + 6 + rows + (ty.body * 0.6) as i32)
 }
 
-/// One bar across the width: the energy drawn from the cells' open-circuit voltage, split into
-/// what reached the loads, what the stages lost and what the pack lost inside. Greys (told apart
-/// by lightness and named in place) keep it apart from the mode colours above.
+/// One bar across the width: the energy from the cells (open-circuit voltage x current), split
+/// into what reached the loads, what the stages lost and what the pack lost inside, each part as
+/// wide as its share. Greys (told apart by lightness and named in place) keep it apart from the
+/// mode colours above.
 fn destination<DB: DrawingBackend>(
     root: &Canvas<DB>,
     area: &Canvas<DB>,
@@ -391,17 +415,20 @@ where
     DB::ErrorType: 'static,
 {
     let parts = destination_parts(r);
-    let total: f64 = parts.iter().map(|p| p.0).sum();
-    if total <= 0.0 {
+    let from_cells = r.ledger.cell_energy_j();
+    if from_cells <= 0.0 {
         return Ok(());
     }
+    // The parts add up to the energy from the cells (the run's energy balance); the bar is
+    // drawn to their sum so that rounding leaves no gap at its end.
+    let shares: f64 = parts.iter().map(|p| p.1).sum();
     let ((x0, y0), (x1, _)) = {
         let (xr, yr) = area.get_pixel_range();
         ((xr.start, yr.start), (xr.end, yr.end))
     };
     let title = format!(
-        "Where the {} drawn from the cells went",
-        fmt_eng(total / 3600.0, "Wh")
+        "Where the energy from the cells ({}) went",
+        fmt_eng(from_cells / 3600.0, "Wh")
     );
     let top = y0 + (ty.body * 1.5) as i32;
     label(
@@ -413,15 +440,19 @@ where
     let (bar_top, bar_h) = (top + (ty.body * 0.6) as i32, (ty.body * 2.2) as i32);
     let width = f64::from(x1 - x0);
     let mut x = f64::from(x0);
-    for (e, _, colour, ink) in parts {
-        let w = width * e / total;
+    for (_, part, _, colour, ink) in parts {
+        let w = if shares > 0.0 {
+            width * part / shares
+        } else {
+            0.0
+        };
         let (a, b) = (x.round() as i32, (x + w).round() as i32);
         if b > a {
             root.draw(&Rectangle::new(
                 [(a, bar_top), (b, bar_top + bar_h)],
                 colour.filled(),
             ))?;
-            let share = fmt_percent(e / total);
+            let share = fmt_percent(part);
             if b - a > text_width(root, &share, ty.body) + 8 {
                 label(
                     root,

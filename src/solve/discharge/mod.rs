@@ -1,19 +1,21 @@
 //! The discharge: the profile executed from the start state, repeated until the product stops
 //! (DESIGN section 6).
 //!
-//! Within a phase the pack current is held at the operating point of the phase's start, so the
-//! polarization voltage has its exact exponential update and the state of charge falls linearly;
-//! long phases are cut into sub-steps small in state of charge. After each (sub-)step the
-//! operating point at its end state is solved and the end conditions checked; when one holds,
-//! the first failing instant inside the step is found by bisection.
+//! Within a phase a step holds the pack current of the operating point at the step's mean state
+//! (mid-step SoC, time-averaged polarization), so the polarization voltage has its exact
+//! exponential update and the state of charge falls linearly; steps are cut small in state of
+//! charge and in the polarization's move. After each step the operating point at its end state
+//! is solved and the end conditions checked; when one holds, the first failing instant inside
+//! the step is found by bisection.
 //!
 //! Two solvers share this machinery. The chronological reference (`exact`) executes every pass of
-//! every repeat block. The fast solver, after one exact pass of a block, skips many passes at once
-//! at the rates of a pass simulated at the middle of the skipped stretch (quasi-static averaging
-//! over SoC), with the polarization relaxed toward its periodic value (one pass maps V_p to
-//! a V_p + b with a = e^(-T/tau), so the periodic value is b / (1 - a)); it then executes the next
-//! pass exactly. If that pass stops the product, the first stopping pass is found by bisection on
-//! the number of skipped passes and executed exactly.
+//! every repeat block. The fast solver executes a pass, then skips stretches of passes at rates
+//! taken from passes simulated at the stretch's start, middle and end, with the polarization at
+//! its periodic value (one pass maps V_p to a V_p + b with a = e^(-T/tau), so the periodic value
+//! is b / (1 - a)), and executes the pass after each stretch. A stretch is halved where those
+//! rates bend too much and wherever a simulated pass stops the product, so the last passes before
+//! the end are executed; a run of few passes is executed pass by pass at the reference's step
+//! sizes (`skip.rs`).
 
 mod end;
 mod skip;
@@ -117,7 +119,7 @@ impl fmt::Display for RunError {
             RunError::Options { option, value } => write!(
                 f,
                 "the {option} {value} is out of range: give a horizon above zero and at most 1000 \
-                 years, and an ambient between -273.15 °C and 1000 °C"
+                 years, and an ambient between -273.15 °C and 200 °C"
             ),
             RunError::NonFinite { what, t_s, .. } => write!(
                 f,
@@ -291,7 +293,7 @@ pub fn run_observed(
             value: opt.horizon_s,
         });
     }
-    if !(opt.ambient_c >= -273.15 && opt.ambient_c <= 1000.0) {
+    if !(opt.ambient_c >= -273.15 && opt.ambient_c <= 200.0) {
         return Err(RunError::Options {
             option: "ambient",
             value: opt.ambient_c,
@@ -486,7 +488,10 @@ impl Delta {
     /// The changes of a pass of length `pass` that started at (`s0`, `vp0`) and ended in
     /// `after`, with `ledger` the pass's own totals.
     fn of(s0: Sum2, vp0: f64, after: &Sim, pass: f64, ledger: Ledger) -> Self {
-        let ln_decay = after.c.pol.map_or(f64::NEG_INFINITY, |(_, tau)| -pass / tau);
+        let ln_decay = after
+            .c
+            .pol
+            .map_or(f64::NEG_INFINITY, |(_, tau)| -pass / tau);
         let decay = ln_decay.exp();
         let b = after.vp - decay * vp0;
         Self {

@@ -1,10 +1,10 @@
 //! The fast solver's pass skipping, with error control: after an exact pass, many passes at once
-//! at the rates of a pass simulated in the middle of the stretch (second order in the state of
-//! charge), the polarization relaxed toward its periodic value, then at Simpson's rates from the
-//! passes at its start, middle and end. The stretch is halved while Simpson and the midpoint rule
-//! differ by more than a set share, and whenever a simulated pass stops the product, so that the
-//! last passes before the end are always executed exactly. Pass counts are `f64` (whole numbers):
-//! a profile of nanosecond steps may need more passes than a `u64` holds.
+//! at the mean rates of the parabola through passes simulated at the stretch's start, middle and
+//! end (polarization at its periodic value at each), then the next pass executed. The stretch is
+//! halved while the parabola departs from a straight line by more than a set share, and whenever
+//! a simulated pass stops the product, so that the last passes before the end are always
+//! executed exactly. Pass counts are `f64` (whole numbers): a profile of nanosecond steps may need
+//! more passes than a `u64` holds.
 
 #[allow(clippy::wildcard_imports)]
 use super::*;
