@@ -29,6 +29,13 @@ impl<'a> Sim<'a> {
         };
     }
 
+    /// Whether a run that stops within `within` passes of `pass` seconds from now lasts fewer than
+    /// [`SKIP_MIN_RUN_PASSES`] in all: its end falls on a pass and one pass weighs more than the
+    /// 0.2 % promised, so it is run pass by pass from here.
+    pub(super) fn ends_soon(&self, pass: f64, within: f64) -> bool {
+        self.now() / pass + within < SKIP_MIN_RUN_PASSES
+    }
+
     /// How many passes the fast solver may skip after a pass that changed things by `delta`,
     /// with `remaining` passes of the block left.
     pub(super) fn plan_skip(&self, delta: &Delta, remaining: f64, pass: f64, leaf: bool) -> f64 {
@@ -76,6 +83,13 @@ impl<'a> Sim<'a> {
                 let mut k = self.plan_skip(delta, n - done, pass, leaf);
                 if let Some(c) = stop_within {
                     k = k.min(c);
+                    if self.ends_soon(pass, c) {
+                        // Few passes in all: the rest pass by pass (see `plan_skip`).
+                        k = 0.0;
+                        if leaf {
+                            self.c.fine.set(true);
+                        }
+                    }
                 }
                 let allowed = !self.c.opt.exact || delta.ds == 0.0;
                 if allowed && k >= SKIP_MIN_PASSES as f64 {
@@ -157,6 +171,9 @@ impl<'a> Sim<'a> {
             let start_mid = mid.clone();
             let Some(mut rm) = mid.run_pass(steps, pass) else {
                 *stop_within = Some(h + 1.0);
+                if self.ends_soon(pass, h + 1.0) {
+                    break;
+                }
                 k = h;
                 continue;
             };
@@ -176,6 +193,9 @@ impl<'a> Sim<'a> {
                 again.vp = rm.vp_star;
                 let Some(r) = again.run_pass(steps, pass) else {
                     *stop_within = Some(h + 1.0);
+                    if self.ends_soon(pass, h + 1.0) {
+                        break;
+                    }
                     k = h;
                     continue;
                 };
@@ -192,6 +212,9 @@ impl<'a> Sim<'a> {
             }
             let Some(rk) = probe.run_pass(steps, pass) else {
                 *stop_within = Some(k + 1.0);
+                if self.ends_soon(pass, k + 1.0) {
+                    break;
+                }
                 k = h;
                 continue;
             };
