@@ -128,11 +128,12 @@ impl<'a> Sim<'a> {
     /// is simulated too. The pass before the stretch, the middle one and the one after it give
     /// the rates at three places; the stretch is taken at the mean of the parabola through them
     /// ([`stretch_weights`]), and the parabola's departure from a straight line estimates the
-    /// error: beyond [`SKIP_REL_ERR`] of a pass's fall in state of charge the stretch is halved. It is halved too whenever a simulated pass stops the product;
-    /// `stop_within` then records within how many passes of the start the product stops, so the
-    /// caller's next stretches end before it and the last passes run exactly. The accepted
-    /// stretch ends with the end pass, its state moved from the middle's rates to the
-    /// parabola's.
+    /// error: beyond [`SKIP_REL_ERR`] of a pass's fall in state of charge the stretch is
+    /// halved. It is halved too whenever a simulated pass stops the product; `stop_within` then
+    /// records within how many passes of the start the product stops, so the caller's next
+    /// stretches end before it and the last passes run exactly (all of them, when the run is
+    /// short in passes: [`Sim::ends_soon`]). The accepted stretch ends with the end pass, its
+    /// state moved from the middle's rates to the parabola's.
     ///
     /// Below [`SKIP_MIN_PASSES`] the pass is executed exactly.
     pub(super) fn skip(
