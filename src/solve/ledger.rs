@@ -125,14 +125,6 @@ impl Ledger {
         }
     }
 
-    /// `self - earlier`.
-    #[must_use]
-    pub fn since(&self, earlier: &Ledger) -> Ledger {
-        let mut d = self.clone();
-        d.add_scaled(earlier, -1.0);
-        d
-    }
-
     /// Energy taken by all loads, J.
     pub fn load_energy_total(&self) -> f64 {
         self.load_energy_j.iter().sum()

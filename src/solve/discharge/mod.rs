@@ -798,13 +798,13 @@ impl<'a> Sim<'a> {
                 continue;
             }
             let end_sol = self.solve(mode, s1, vp1);
-            if !self.speculative && !self.c.fine.get() && self.verdict(&end_sol, s1).is_some() {
-                // The end lies in this step: from here on, steps as fine as the reference's,
-                // so that the instant is found as it would be there. The step is taken again.
-                self.c.fine.set(true);
-                continue;
-            }
             if self.verdict(&end_sol, s1).is_some() {
+                if !self.speculative && !self.c.fine.get() {
+                    // The end lies in this step: from here on, steps as fine as the reference's,
+                    // so that the instant is found as it would be there. The step is taken again.
+                    self.c.fine.set(true);
+                    continue;
+                }
                 let (mut lo, mut hi) = (0.0, dt);
                 for _ in 0..END_BISECT_ITER {
                     let mid = 0.5 * (lo + hi);

@@ -36,23 +36,42 @@ impl<'a> Sim<'a> {
         self.now() / pass + within < SKIP_MIN_RUN_PASSES
     }
 
+    /// Record that a simulated pass stopped the product within `within` passes; true if that
+    /// makes the run short enough to go pass by pass from here ([`Sim::ends_soon`]).
+    fn stop_found(&self, stop_within: &mut Option<f64>, pass: f64, within: f64) -> bool {
+        *stop_within = Some(within);
+        self.ends_soon(pass, within)
+    }
+
     /// How many passes the fast solver may skip after a pass that changed things by `delta`,
-    /// with `remaining` passes of the block left.
-    pub(super) fn plan_skip(&self, delta: &Delta, remaining: f64, pass: f64, leaf: bool) -> f64 {
+    /// with `remaining` passes of the block left and, if a skip found it, the product stopping
+    /// within `stop_within` passes.
+    pub(super) fn plan_skip(
+        &self,
+        delta: &Delta,
+        remaining: f64,
+        pass: f64,
+        leaf: bool,
+        stop_within: Option<f64>,
+    ) -> f64 {
+        // A run of few passes (to empty at the last pass's fall, or to the stop a skip found) is
+        // executed pass by pass with the reference's steps: its end falls on a pass, and one
+        // pass more or less would be more than the 0.2 % the fast solver promises.
+        let to_empty = if delta.ds > 0.0 {
+            self.soc() / delta.ds
+        } else {
+            f64::INFINITY
+        };
+        if self.ends_soon(pass, to_empty.min(stop_within.unwrap_or(f64::INFINITY))) {
+            // Where the passes hold repeat blocks, those skip on their own and the end falls on
+            // one of their passes: fine steps are for the innermost blocks.
+            if leaf {
+                self.c.fine.set(true);
+            }
+            return 0.0;
+        }
         let to_horizon = ((self.c.opt.horizon_s - self.now()) / pass).floor() - 1.0;
         let mut k = if delta.ds > 0.0 {
-            // A run of few passes is executed pass by pass with the reference's steps: its end
-            // falls on a pass, and one pass more or less would be more than the 0.2 % the fast
-            // solver promises.
-            let run_passes = self.now() / pass + self.soc() / delta.ds;
-            if run_passes < SKIP_MIN_RUN_PASSES {
-                // Where the passes hold repeat blocks, those skip on their own and the end
-                // falls on one of their passes: fine steps are for the innermost blocks.
-                if leaf {
-                    self.c.fine.set(true);
-                }
-                return 0.0;
-            }
             let by_ds = (SKIP_MAX_DS / delta.ds).floor();
             let by_empty = (self.soc() / delta.ds).floor() - 2.0;
             by_ds.min(by_empty)
@@ -62,7 +81,10 @@ impl<'a> Sim<'a> {
             // Nothing changes from pass to pass: skip to the horizon.
             f64::INFINITY
         };
-        k = k.min(to_horizon).min(remaining - 1.0);
+        k = k
+            .min(to_horizon)
+            .min(remaining - 1.0)
+            .min(stop_within.unwrap_or(f64::INFINITY));
         if k.is_finite() && k > 0.0 {
             k.floor()
         } else {
@@ -80,17 +102,7 @@ impl<'a> Sim<'a> {
         let mut stop_within: Option<f64> = None;
         while done < n {
             if let Some(delta) = last.as_ref() {
-                let mut k = self.plan_skip(delta, n - done, pass, leaf);
-                if let Some(c) = stop_within {
-                    k = k.min(c);
-                    if self.ends_soon(pass, c) {
-                        // Few passes in all: the rest pass by pass (see `plan_skip`).
-                        k = 0.0;
-                        if leaf {
-                            self.c.fine.set(true);
-                        }
-                    }
-                }
+                let k = self.plan_skip(delta, n - done, pass, leaf, stop_within);
                 let allowed = !self.c.opt.exact || delta.ds == 0.0;
                 if allowed && k >= SKIP_MIN_PASSES as f64 {
                     let mut found = None;
@@ -171,8 +183,7 @@ impl<'a> Sim<'a> {
             mid.advance(h, pass, delta);
             let start_mid = mid.clone();
             let Some(mut rm) = mid.run_pass(steps, pass) else {
-                *stop_within = Some(h + 1.0);
-                if self.ends_soon(pass, h + 1.0) {
+                if self.stop_found(stop_within, pass, h + 1.0) {
                     break;
                 }
                 k = h;
@@ -193,8 +204,7 @@ impl<'a> Sim<'a> {
                 let mut again = start_mid;
                 again.vp = rm.vp_star;
                 let Some(r) = again.run_pass(steps, pass) else {
-                    *stop_within = Some(h + 1.0);
-                    if self.ends_soon(pass, h + 1.0) {
+                    if self.stop_found(stop_within, pass, h + 1.0) {
                         break;
                     }
                     k = h;
@@ -212,8 +222,7 @@ impl<'a> Sim<'a> {
                 probe.vp += (toward_end.vp_star - rm.vp_star) * (1.0 - rm.decay.powf(k));
             }
             let Some(rk) = probe.run_pass(steps, pass) else {
-                *stop_within = Some(k + 1.0);
-                if self.ends_soon(pass, k + 1.0) {
+                if self.stop_found(stop_within, pass, k + 1.0) {
                     break;
                 }
                 k = h;
