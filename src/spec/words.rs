@@ -161,18 +161,24 @@ fn locate(v: &Node<'_>, found: &str) -> Option<String> {
     if matches!(found, "a list" | "a mapping") {
         return None;
     }
-    if v.describe() == found {
+    path_to(v, &|n| n.describe() == found)
+}
+
+/// The path from `v` to the first node (itself, then its children in order, depth first) that
+/// `hit` accepts: `""` for `v` itself, else `.key` and `[i]` parts.
+fn path_to(v: &Node<'_>, hit: &dyn Fn(&Node<'_>) -> bool) -> Option<String> {
+    if hit(v) {
         return Some(String::new());
     }
     match v {
         Node::Map(m) => m.iter().find_map(|(k, x)| {
             let key = k.as_str()?;
-            locate(x, found).map(|p| format!(".{key}{p}"))
+            path_to(x, hit).map(|p| format!(".{key}{p}"))
         }),
         Node::Seq(items) => items
             .iter()
             .enumerate()
-            .find_map(|(i, x)| locate(x, found).map(|p| format!("[{i}]{p}"))),
+            .find_map(|(i, x)| path_to(x, hit).map(|p| format!("[{i}]{p}"))),
         _ => None,
     }
 }
@@ -306,22 +312,10 @@ impl Reader<'_> {
 
 /// The path below `v` of the first mapping that has the key `key`.
 pub(super) fn map_with_key(v: &Node<'_>, key: &str) -> Option<String> {
-    match v {
-        Node::Map(m) => {
-            if m.iter().any(|(k, _)| k.as_str() == Some(key)) {
-                return Some(String::new());
-            }
-            m.iter().find_map(|(k, x)| {
-                let name = k.as_str()?;
-                map_with_key(x, key).map(|p| format!(".{name}{p}"))
-            })
-        }
-        Node::Seq(items) => items
-            .iter()
-            .enumerate()
-            .find_map(|(i, x)| map_with_key(x, key).map(|p| format!("[{i}]{p}"))),
-        _ => None,
-    }
+    path_to(
+        v,
+        &|n| matches!(n, Node::Map(m) if m.iter().any(|(k, _)| k.as_str() == Some(key))),
+    )
 }
 
 /// The steps of a path below a node: `.key` and `[i]`.
