@@ -12,6 +12,7 @@ pub mod model;
 pub mod report;
 pub mod solve;
 pub mod spec;
+pub mod spread;
 pub mod tree;
 pub mod units;
 

@@ -102,6 +102,37 @@ pub enum Command {
         #[arg(short = 'o', long = "output")]
         output: Option<PathBuf>,
     },
+    /// Runtime across units: a Monte Carlo over the design's `tolerances:` (percentiles, the
+    /// share reaching a target, why units stop, what moves the runtime most, the corners).
+    Spread {
+        /// The design file (YAML), with a `tolerances:` block.
+        file: PathBuf,
+        /// Override one value of the design (as for `runtime`); may be repeated.
+        #[arg(long = "set", value_name = "PATH=VALUE")]
+        sets: Vec<String>,
+        #[command(flatten)]
+        run: RunArgs,
+        /// Number of simulated units.
+        #[arg(long, default_value_t = 1000, value_parser = clap::value_parser!(u32).range(1..=1_000_000))]
+        samples: u32,
+        /// Seed of the random draws: the same seed gives the same numbers on any machine and
+        /// any number of cores.
+        #[arg(long, default_value_t = 1)]
+        seed: u64,
+        /// The life every unit should reach, e.g. `2 y` or `90 d`: the share that does is shown.
+        #[arg(long, value_parser = parse_duration)]
+        target: Option<f64>,
+        /// Also run the worst and best case: every value at the bound that shortens (resp.
+        /// lengthens) the runtime.
+        #[arg(long)]
+        corners: bool,
+        /// Output format (CSV: one row per simulated unit, its runtime, end and values).
+        #[arg(long, value_enum, default_value_t = FormatArg::Table)]
+        format: FormatArg,
+        /// Write to this file instead of standard output.
+        #[arg(short = 'o', long = "output")]
+        output: Option<PathBuf>,
+    },
     /// The built-in cell presets, or one of them in full.
     Cells {
         /// A preset to show in full: every parameter, its OCV curve and where its values come from.

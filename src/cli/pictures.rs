@@ -54,6 +54,51 @@ pub fn run_with_progress(d: &Design, opt: &RunOptions, what: &str) -> Result<Run
     r.map_err(fail)
 }
 
+/// A spread, with a progress bar of the units simulated on a terminal.
+pub fn spread_with_progress(
+    d: &Design,
+    opts: &joulepath::spread::SpreadOptions,
+) -> Result<joulepath::spread::Spread, Failure> {
+    let fail = |e: joulepath::spread::SpreadError| match e {
+        joulepath::spread::SpreadError::NoTolerances => {
+            Failure::Usage(format!("`{}`: {e}", d.title))
+        }
+        _ => Failure::Input(format!("`{}`: {e}", d.title)),
+    };
+    if !std::io::stderr().is_terminal() {
+        return joulepath::spread::spread(d, opts).map_err(fail);
+    }
+    let start = Instant::now();
+    let last = std::sync::Mutex::new(start);
+    let shown = std::sync::atomic::AtomicBool::new(false);
+    let total = opts.samples;
+    let report = |done: usize| {
+        let now = Instant::now();
+        let Ok(mut l) = last.try_lock() else { return };
+        if now - start < Duration::from_millis(300) || now - *l < Duration::from_millis(100) {
+            return;
+        }
+        *l = now;
+        shown.store(true, std::sync::atomic::Ordering::Relaxed);
+        let width = 30;
+        let share = done as f64 / total as f64;
+        let filled = ((share * width as f64) as usize).min(width);
+        let mut err = std::io::stderr().lock();
+        let _ = write!(
+            err,
+            "\runits [{}{}] {done}/{total}",
+            "#".repeat(filled),
+            ".".repeat(width - filled),
+        );
+        let _ = err.flush();
+    };
+    let r = joulepath::spread::spread_observed(d, opts, &report);
+    if shown.load(std::sync::atomic::Ordering::Relaxed) {
+        let _ = write!(std::io::stderr().lock(), "\r{}\r", " ".repeat(60));
+    }
+    r.map_err(fail)
+}
+
 fn format_of(path: &Path) -> Result<PlotFormat, Failure> {
     plot_format(path).ok_or_else(|| {
         Failure::Usage(format!(

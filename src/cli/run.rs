@@ -11,14 +11,16 @@ use joulepath::report::cells::{write_cell, write_cells};
 use joulepath::report::compare::{Entry, write_compare};
 use joulepath::report::{
     Format, budget::write_budget, heat::write_heat, outline::write_outline, runtime::write_runtime,
-    warnings, write_warnings,
+    spread::write_spread, warnings, write_warnings,
 };
 use joulepath::solve::budget;
 use joulepath::spec::Override;
 
 use super::args::{Args, Command, FormatArg, RunArgs, parse_with};
 use super::groups::{CompareArgs, parse_groups};
-use super::pictures::{compare_plot, plot_command, report_command, run_with_progress};
+use super::pictures::{
+    compare_plot, plot_command, report_command, run_with_progress, spread_with_progress,
+};
 use super::render::render_diagnostics;
 
 /// Why a command did not succeed.
@@ -245,6 +247,23 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             warn_beside(&d, result.ambient_c, *f);
             emit(&buf, output.as_deref())
         }
+        Command::Spread {
+            file,
+            sets,
+            run: ra,
+            samples,
+            seed,
+            target,
+            corners,
+            format: f,
+            output,
+        } => {
+            let d = load_with(file, sets)?;
+            let sp = spread_command(d, ra, *samples as usize, *seed, *target, *corners)?;
+            write_spread(&mut buf, &sp.0, &sp.1, format(*f)).map_err(io_fail)?;
+            warn_beside(&sp.0, sp.0.ambient_c, *f);
+            emit(&buf, output.as_deref())
+        }
         Command::Cells {
             name,
             format: f,
@@ -321,6 +340,38 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             output.as_deref(),
         ),
     }
+}
+
+/// The spread of a design: `--ambient` moves the design's own ambient (each unit runs at its
+/// own when the ambient varies).
+fn spread_command(
+    mut d: Design,
+    ra: &RunArgs,
+    samples: usize,
+    seed: u64,
+    target: Option<f64>,
+    corners: bool,
+) -> Result<(Design, joulepath::spread::Spread), Failure> {
+    if let Some(t) = ra.ambient {
+        if d.tolerances
+            .iter()
+            .any(|t| t.knob == joulepath::model::Knob::Ambient)
+        {
+            return Err(Failure::Usage(
+                "the ambient varies in the design's `tolerances:`, so `--ambient` cannot fix it; move its centre with `--set ambient=...` instead".into(),
+            ));
+        }
+        d.ambient_c = t;
+    }
+    let opts = joulepath::spread::SpreadOptions {
+        samples,
+        seed,
+        target_s: target,
+        corners,
+        run: run_options(&d, ra, false),
+    };
+    let sp = spread_with_progress(&d, &opts)?;
+    Ok((d, sp))
 }
 
 fn compare(ca: &CompareArgs) -> Result<(), Failure> {

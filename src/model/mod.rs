@@ -9,6 +9,7 @@ mod mode;
 mod pack;
 mod presets;
 mod stage;
+mod tolerance;
 
 pub use curve::{Table, TableError};
 pub use load::{Draw, Load};
@@ -16,6 +17,7 @@ pub use mode::{Mode, RepeatUntil, Step};
 pub use pack::{Cell, Chemistry, MONTH_S, Pack};
 pub use presets::{Nominal, PRESETS, Preset};
 pub use stage::{EffCurve, LossModel, Stage, StageKind};
+pub use tolerance::{Dist, Knob, Range, Tolerance};
 
 use crate::error::Error;
 use crate::spec::{self, DesignSpec, SourceMap};
@@ -43,6 +45,8 @@ pub struct Design {
     pub profile: Vec<Step>,
     /// The tree.
     pub tree: Tree,
+    /// The values that spread from unit to unit (`tolerances:`), in file order.
+    pub tolerances: Vec<Tolerance>,
 }
 
 impl Design {

@@ -6,6 +6,7 @@ use schemars::JsonSchema;
 use serde::Deserialize;
 
 use super::qty::{Efficiency, Qty, ResistanceSpec};
+use super::tolerance::ToleranceSpec;
 
 /// A whole design file.
 #[derive(Debug, Clone, Deserialize, JsonSchema)]
@@ -35,6 +36,10 @@ pub struct DesignSpec {
     /// How the product spends its time, repeated until it stops.
     #[serde(default)]
     pub profile: Vec<StepSpec>,
+    /// How values spread from unit to unit, by path (`loads.radio.draw.tx: ±5 %`): what
+    /// `spread` samples and `size` takes the percentile over.
+    #[serde(default)]
+    pub tolerances: IndexMap<String, ToleranceSpec>,
 }
 
 /// Cell chemistry.

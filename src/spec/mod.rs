@@ -9,6 +9,7 @@ mod locate;
 mod node;
 mod overrides;
 mod qty;
+mod tolerance;
 mod words;
 
 use indexmap::IndexMap;
@@ -24,11 +25,20 @@ pub use design::{
 pub use locate::SourceMap;
 pub use overrides::Override;
 pub use qty::{Efficiency, Qty, ResistanceSpec, VinCurveSpec};
+pub use tolerance::{ToleranceSpec, band_text};
 
 use crate::error::{Diagnostic, Location, did_you_mean};
 
-const TOP_KEYS: [&str; 8] = [
-    "design", "ambient", "cells", "battery", "stages", "loads", "modes", "profile",
+const TOP_KEYS: [&str; 9] = [
+    "design",
+    "ambient",
+    "cells",
+    "battery",
+    "stages",
+    "loads",
+    "modes",
+    "profile",
+    "tolerances",
 ];
 
 /// A parsed design file and the places of its values.
@@ -326,6 +336,7 @@ impl Reader<'_> {
         let loads = self.list_section::<LoadSpec>(&mut sections, "loads");
         let modes = self.map_section::<Option<IndexMap<String, String>>>(&mut sections, "modes");
         let profile = self.list_section::<StepSpec>(&mut sections, "profile");
+        let tolerances = self.map_section::<ToleranceSpec>(&mut sections, "tolerances");
         Some(DesignSpec {
             design,
             ambient,
@@ -345,6 +356,7 @@ impl Reader<'_> {
             loads,
             modes,
             profile,
+            tolerances,
         })
     }
 

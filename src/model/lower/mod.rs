@@ -4,6 +4,7 @@
 mod cell;
 mod profile;
 mod stage;
+mod tolerance;
 mod wiring;
 
 use cell::given_keys;
@@ -305,7 +306,7 @@ impl Lower<'_> {
         for m in &mut modes {
             m.rail_draws = rail_draws(&tree, &loads, &m.load_states);
         }
-        Some(Design {
+        let mut design = Design {
             title: spec
                 .design
                 .clone()
@@ -317,7 +318,17 @@ impl Lower<'_> {
             modes,
             profile: profile?,
             tree,
-        })
+            tolerances: Vec::new(),
+        };
+        design.tolerances = self.tolerances(spec, &design)?;
+        Some(design)
+    }
+}
+
+/// The modes' per-rail draws again, after a load's draw changed.
+pub(crate) fn refresh_draws(d: &mut Design) {
+    for m in &mut d.modes {
+        m.rail_draws = rail_draws(&d.tree, &d.loads, &m.load_states);
     }
 }
 

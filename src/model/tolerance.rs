@@ -1,0 +1,431 @@
+//! Tolerances of a checked design: which value varies from unit to unit ([`Knob`]), how
+//! ([`Dist`]), and within which physical range a drawn value must stay.
+
+use super::Design;
+use super::curve::Table;
+use super::load::Draw;
+use super::mode::{RepeatUntil, Step};
+use super::stage::LossModel;
+use crate::units::Dim;
+
+/// How a value spreads, in SI units.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Dist {
+    /// Normal with this mean and standard deviation, truncated at three standard deviations
+    /// (a part outside its band is screened out).
+    Normal {
+        /// Mean.
+        mean: f64,
+        /// Standard deviation.
+        sigma: f64,
+    },
+    /// Uniform between two bounds.
+    Uniform {
+        /// Lower bound.
+        lo: f64,
+        /// Upper bound.
+        hi: f64,
+    },
+    /// One of these values, each as likely.
+    Pick(Vec<f64>),
+}
+
+impl Dist {
+    /// The bounds a one-at-a-time swing takes: mean ± 3 sigma for a normal spread (the band of
+    /// a `±` tolerance; common practice, no source), the bounds of a uniform one, the least and
+    /// greatest choice of a pick.
+    pub fn swing_bounds(&self) -> (f64, f64) {
+        match self {
+            Dist::Normal { mean, sigma } => (mean - 3.0 * sigma, mean + 3.0 * sigma),
+            Dist::Uniform { lo, hi } => (*lo, *hi),
+            Dist::Pick(v) => (
+                v.iter().copied().fold(f64::INFINITY, f64::min),
+                v.iter().copied().fold(f64::NEG_INFINITY, f64::max),
+            ),
+        }
+    }
+
+    /// The mean of the distribution.
+    pub fn mean(&self) -> f64 {
+        match self {
+            Dist::Normal { mean, .. } => *mean,
+            Dist::Uniform { lo, hi } => 0.5 * (lo + hi),
+            Dist::Pick(v) => v.iter().sum::<f64>() / v.len() as f64,
+        }
+    }
+}
+
+/// The physical range of a varied value: a drawn value outside it is drawn again (or, after
+/// many tries, clipped to it).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Range {
+    /// Least value.
+    pub lo: f64,
+    /// Whether the least value itself is allowed.
+    pub lo_closed: bool,
+    /// Greatest value (allowed).
+    pub hi: f64,
+    /// Whether values are whole numbers (counts of cells or passes).
+    pub whole: bool,
+}
+
+impl Range {
+    const fn new(lo: f64, lo_closed: bool, hi: f64) -> Self {
+        Self {
+            lo,
+            lo_closed,
+            hi,
+            whole: false,
+        }
+    }
+
+    /// Whether `v` lies in the range.
+    pub fn contains(&self, v: f64) -> bool {
+        v.is_finite() && (v > self.lo || (self.lo_closed && v >= self.lo)) && v <= self.hi
+    }
+
+    /// `v` moved into the range (an open lower end is approached to within a millionth of
+    /// `scale`, the design's value).
+    pub fn clip(&self, v: f64, scale: f64) -> f64 {
+        let lo = if self.lo_closed {
+            self.lo
+        } else {
+            self.lo + 1e-6 * scale.abs().max(f64::MIN_POSITIVE)
+        };
+        let v = if v.is_nan() { lo } else { v };
+        let v = v.clamp(lo, self.hi.max(lo));
+        if self.whole {
+            v.round().max(lo.ceil())
+        } else {
+            v
+        }
+    }
+}
+
+const NON_NEGATIVE: Range = Range::new(0.0, true, f64::MAX);
+const POSITIVE: Range = Range::new(0.0, false, f64::MAX);
+const FRACTION: Range = Range::new(0.0, false, 1.0);
+const FRACTION_CLOSED: Range = Range::new(0.0, true, 1.0);
+const COUNT: Range = Range {
+    lo: 1.0,
+    lo_closed: true,
+    hi: 1000.0,
+    whole: true,
+};
+
+/// One value of a checked design that a tolerance varies.
+#[derive(Debug, Clone, PartialEq)]
+#[non_exhaustive]
+pub enum Knob {
+    /// The ambient temperature, °C.
+    Ambient,
+    /// The cell's capacity, C.
+    CellCapacity,
+    /// The cell's resistance at 50 % SoC, Ω: a table is scaled as a whole.
+    CellResistance,
+    /// The cell's self-discharge, per second.
+    CellSelfDischarge,
+    /// The cell's Peukert exponent.
+    CellPeukert,
+    /// The cell's cutoff voltage, V.
+    CellCutoff,
+    /// The cell's rated current, A.
+    CellRatedCurrent,
+    /// The polarization branch's resistance, Ω.
+    CellPolarizationR,
+    /// The polarization branch's time constant, s.
+    CellPolarizationTau,
+    /// Cells in series.
+    Series,
+    /// Strings in parallel.
+    Parallel,
+    /// State of charge at the start.
+    StartSoc,
+    /// Capacity left after aging.
+    AgingCapacity,
+    /// Resistance factor of aging.
+    AgingResistance,
+    /// A stage's output voltage, V.
+    StageOutput(usize),
+    /// A stage's quiescent current, A.
+    StageQuiescent(usize),
+    /// A stage's shutdown current, A.
+    StageShutdown(usize),
+    /// A stage's constant efficiency.
+    StageEfficiency(usize),
+    /// A stage's dropout voltage, V.
+    StageDropout(usize),
+    /// A stage's bypass drop, V.
+    StageBypassDrop(usize),
+    /// A stage's on-resistance, Ω.
+    StageOnResistance(usize),
+    /// A stage's junction-to-ambient thermal resistance, K/W.
+    StageThetaJa(usize),
+    /// A stage's proportional loss term, V.
+    StageLossDrop(usize),
+    /// A stage's conduction loss term, Ω.
+    StageLossResistance(usize),
+    /// What a load draws in one state: (load, state).
+    LoadDraw(usize, usize),
+    /// The duration of a profile item (a step or a repeat block), by its indices down the
+    /// nesting of `repeat` blocks.
+    StepFor(Vec<usize>),
+    /// The number of passes of a repeat block, by its indices.
+    RepeatTimes(Vec<usize>),
+}
+
+impl Knob {
+    /// The kind of value, for reading a tolerance's text.
+    pub fn dim(&self, d: &Design) -> Dim {
+        match self {
+            Knob::Ambient => Dim::Temperature,
+            Knob::CellCapacity => Dim::Charge,
+            Knob::CellResistance
+            | Knob::CellPolarizationR
+            | Knob::StageOnResistance(_)
+            | Knob::StageLossResistance(_) => Dim::Resistance,
+            Knob::CellSelfDischarge => Dim::Rate,
+            Knob::CellPeukert
+            | Knob::Series
+            | Knob::Parallel
+            | Knob::AgingResistance
+            | Knob::RepeatTimes(_) => Dim::Number,
+            Knob::CellCutoff
+            | Knob::StageOutput(_)
+            | Knob::StageDropout(_)
+            | Knob::StageBypassDrop(_)
+            | Knob::StageLossDrop(_) => Dim::Voltage,
+            Knob::CellRatedCurrent | Knob::StageQuiescent(_) | Knob::StageShutdown(_) => {
+                Dim::Current
+            }
+            Knob::CellPolarizationTau | Knob::StepFor(_) => Dim::Time,
+            Knob::StartSoc | Knob::AgingCapacity | Knob::StageEfficiency(_) => Dim::Fraction,
+            Knob::StageThetaJa(_) => Dim::ThermalResistance,
+            Knob::LoadDraw(l, s) => match d.loads[*l].states[*s].1 {
+                Draw::Current(_) => Dim::Current,
+                Draw::Power(_) => Dim::Power,
+                Draw::Resistance(_) => Dim::Resistance,
+            },
+        }
+    }
+
+    /// The physical range of the value.
+    pub fn range(&self) -> Range {
+        match self {
+            Knob::Ambient => Range::new(-273.15, false, 200.0),
+            Knob::CellPeukert | Knob::AgingResistance => Range::new(1.0, true, 10.0),
+            Knob::Series | Knob::Parallel | Knob::RepeatTimes(_) => COUNT,
+            Knob::StartSoc => FRACTION_CLOSED,
+            Knob::AgingCapacity | Knob::StageEfficiency(_) => FRACTION,
+            Knob::CellCapacity
+            | Knob::CellPolarizationTau
+            | Knob::StageOutput(_)
+            | Knob::StageThetaJa(_)
+            | Knob::CellRatedCurrent
+            | Knob::StepFor(_) => POSITIVE,
+            _ => NON_NEGATIVE,
+        }
+    }
+
+    /// The value in `d`, SI.
+    pub fn get(&self, d: &Design) -> f64 {
+        let c = &d.pack.cell;
+        match self {
+            Knob::Ambient => d.ambient_c,
+            Knob::CellCapacity => c.capacity_c,
+            Knob::CellResistance => c.resistance.at(0.5),
+            Knob::CellSelfDischarge => c.self_discharge_per_s,
+            Knob::CellPeukert => c.peukert,
+            Knob::CellCutoff => c.cutoff_v,
+            Knob::CellRatedCurrent => c.rated_current_a,
+            Knob::CellPolarizationR => c.polarization.map_or(f64::NAN, |p| p.0),
+            Knob::CellPolarizationTau => c.polarization.map_or(f64::NAN, |p| p.1),
+            Knob::Series => f64::from(d.pack.series),
+            Knob::Parallel => f64::from(d.pack.parallel),
+            Knob::StartSoc => d.pack.start_soc,
+            Knob::AgingCapacity => d.pack.aging_capacity,
+            Knob::AgingResistance => d.pack.aging_resistance,
+            Knob::StageOutput(i) => d.stages[*i].setpoint,
+            Knob::StageQuiescent(i) => d.stages[*i].quiescent,
+            Knob::StageShutdown(i) => d.stages[*i].shutdown,
+            Knob::StageEfficiency(i) => match d.stages[*i].loss {
+                LossModel::Constant(e) => e,
+                _ => f64::NAN,
+            },
+            Knob::StageDropout(i) => d.stages[*i].dropout,
+            Knob::StageBypassDrop(i) => d.stages[*i].bypass_drop,
+            Knob::StageOnResistance(i) => d.stages[*i].on_resistance,
+            Knob::StageThetaJa(i) => d.stages[*i].theta_ja.unwrap_or(f64::NAN),
+            Knob::StageLossDrop(i) => match d.stages[*i].loss {
+                LossModel::Terms { drop, .. } => drop,
+                _ => f64::NAN,
+            },
+            Knob::StageLossResistance(i) => match d.stages[*i].loss {
+                LossModel::Terms { resistance, .. } => resistance,
+                _ => f64::NAN,
+            },
+            Knob::LoadDraw(l, s) => match d.loads[*l].states[*s].1 {
+                Draw::Current(x) | Draw::Power(x) | Draw::Resistance(x) => x,
+            },
+            Knob::StepFor(at) => match step(&d.profile, at) {
+                Some(Step::Hold { seconds, .. }) => *seconds,
+                Some(Step::Repeat {
+                    until: RepeatUntil::Seconds(s),
+                    ..
+                }) => *s,
+                _ => f64::NAN,
+            },
+            Knob::RepeatTimes(at) => match step(&d.profile, at) {
+                Some(Step::Repeat {
+                    until: RepeatUntil::Times(n),
+                    ..
+                }) => *n as f64,
+                _ => f64::NAN,
+            },
+        }
+    }
+
+    /// Set the value in `d` to `v` (SI, within [`Knob::range`]). A load's draw also updates the
+    /// modes' per-rail draws, so the design stays consistent.
+    pub fn set(&self, d: &mut Design, v: f64) {
+        let c = &mut d.pack.cell;
+        match self {
+            Knob::Ambient => d.ambient_c = v,
+            Knob::CellCapacity => c.capacity_c = v,
+            Knob::CellResistance => {
+                let now = c.resistance.at(0.5);
+                if now > 0.0 {
+                    let k = v / now;
+                    if let Ok(t) =
+                        Table::new(c.resistance.points().map(|(x, y)| (x, y * k)).collect())
+                    {
+                        c.resistance = t;
+                    }
+                } else {
+                    c.resistance = Table::constant(v);
+                }
+            }
+            Knob::CellSelfDischarge => c.self_discharge_per_s = v,
+            Knob::CellPeukert => c.peukert = v,
+            Knob::CellCutoff => c.cutoff_v = v,
+            Knob::CellRatedCurrent => c.rated_current_a = v,
+            Knob::CellPolarizationR => {
+                if let Some(p) = &mut c.polarization {
+                    p.0 = v;
+                }
+            }
+            Knob::CellPolarizationTau => {
+                if let Some(p) = &mut c.polarization {
+                    p.1 = v;
+                }
+            }
+            Knob::Series => d.pack.series = whole(v),
+            Knob::Parallel => d.pack.parallel = whole(v),
+            Knob::StartSoc => d.pack.start_soc = v,
+            Knob::AgingCapacity => d.pack.aging_capacity = v,
+            Knob::AgingResistance => d.pack.aging_resistance = v,
+            Knob::StageOutput(i) => d.stages[*i].setpoint = v,
+            Knob::StageQuiescent(i) => d.stages[*i].quiescent = v,
+            Knob::StageShutdown(i) => d.stages[*i].shutdown = v,
+            Knob::StageEfficiency(i) => d.stages[*i].loss = LossModel::Constant(v),
+            Knob::StageDropout(i) => d.stages[*i].dropout = v,
+            Knob::StageBypassDrop(i) => d.stages[*i].bypass_drop = v,
+            Knob::StageOnResistance(i) => d.stages[*i].on_resistance = v,
+            Knob::StageThetaJa(i) => d.stages[*i].theta_ja = Some(v),
+            Knob::StageLossDrop(i) => {
+                if let LossModel::Terms { drop, .. } = &mut d.stages[*i].loss {
+                    *drop = v;
+                }
+            }
+            Knob::StageLossResistance(i) => {
+                if let LossModel::Terms { resistance, .. } = &mut d.stages[*i].loss {
+                    *resistance = v;
+                }
+            }
+            Knob::LoadDraw(l, s) => {
+                let draw = &mut d.loads[*l].states[*s].1;
+                *draw = match *draw {
+                    Draw::Current(_) => Draw::Current(v),
+                    Draw::Power(_) => Draw::Power(v),
+                    Draw::Resistance(_) => Draw::Resistance(v),
+                };
+                super::lower::refresh_draws(d);
+            }
+            Knob::StepFor(at) => match step_mut(&mut d.profile, at) {
+                Some(Step::Hold { seconds, .. }) => *seconds = v,
+                Some(Step::Repeat {
+                    until: RepeatUntil::Seconds(s),
+                    ..
+                }) => *s = v,
+                _ => {}
+            },
+            Knob::RepeatTimes(at) => {
+                if let Some(Step::Repeat {
+                    until: RepeatUntil::Times(n),
+                    ..
+                }) = step_mut(&mut d.profile, at)
+                {
+                    *n = u64::from(whole(v));
+                }
+            }
+        }
+    }
+}
+
+fn whole(v: f64) -> u32 {
+    v.round().clamp(1.0, 1000.0) as u32
+}
+
+/// The profile item at `at` (indices down the nesting of repeat blocks).
+pub(super) fn step<'a>(profile: &'a [Step], at: &[usize]) -> Option<&'a Step> {
+    let (&first, rest) = at.split_first()?;
+    let s = profile.get(first)?;
+    if rest.is_empty() {
+        return Some(s);
+    }
+    match s {
+        Step::Repeat { steps, .. } => step(steps, rest),
+        Step::Hold { .. } => None,
+    }
+}
+
+fn step_mut<'a>(profile: &'a mut [Step], at: &[usize]) -> Option<&'a mut Step> {
+    let (&first, rest) = at.split_first()?;
+    let s = profile.get_mut(first)?;
+    if rest.is_empty() {
+        return Some(s);
+    }
+    match s {
+        Step::Repeat { steps, .. } => step_mut(steps, rest),
+        Step::Hold { .. } => None,
+    }
+}
+
+/// One value of a design that spreads from unit to unit.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Tolerance {
+    /// The path as written in `tolerances:`.
+    pub path: String,
+    /// The value varied.
+    pub knob: Knob,
+    /// How it spreads (SI).
+    pub dist: Dist,
+    /// The design's own value (SI).
+    pub nominal: f64,
+}
+
+impl Tolerance {
+    /// The bounds of the one-at-a-time swing, within the value's physical range.
+    pub fn swing_bounds(&self) -> (f64, f64) {
+        let (lo, hi) = self.dist.swing_bounds();
+        let r = self.knob.range();
+        let fit = |v: f64| {
+            if r.contains(v) {
+                v
+            } else {
+                r.clip(v, self.nominal)
+            }
+        };
+        (fit(lo), fit(hi))
+    }
+}
