@@ -215,12 +215,12 @@ fn tolerances_are_read_into_knobs_and_spreads() {
         }
     );
     assert_eq!(t[2].knob, Knob::LoadDraw(2, 0));
-    // ±10 % of 24 mA is three standard deviations.
+    // ±10 % of 35 mA is three standard deviations.
     assert_eq!(
         t[2].dist,
         Dist::Normal {
-            mean: 0.045,
-            sigma: 0.045 * 0.1 / 3.0
+            mean: 0.035,
+            sigma: 0.035 * 0.1 / 3.0
         }
     );
     assert_eq!(t[4].knob, Knob::Ambient);

@@ -2,7 +2,10 @@
 
 use std::io::{self, Write};
 
-use crate::model::{Design, Draw, LossModel, RepeatUntil, Stage, StageKind, Step};
+use super::spread::fmt_value;
+use crate::model::{
+    Design, Dist, Draw, Knob, LossModel, RepeatUntil, Stage, StageKind, Step, Tolerance,
+};
 use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent};
 
 /// Write the outline of `design`: the pack, then each rail with its loads and stages, then the
@@ -35,7 +38,48 @@ pub fn write_outline(w: &mut dyn Write, d: &Design) -> io::Result<()> {
         steps(d, &d.profile),
         fmt_duration(cycle)
     )?;
+    if !d.tolerances.is_empty() {
+        writeln!(
+            w,
+            "tolerances: {} values vary from unit to unit (`joulepath spread` samples them)",
+            d.tolerances.len()
+        )?;
+        for t in &d.tolerances {
+            writeln!(w, "  {}  {}", t.path, spread_text(d, t))?;
+        }
+    }
     Ok(())
+}
+
+/// How a value spreads, in words: `normal 45.0 mA ± 4.50 mA (3 sigma)`, `uniform 600 nA..1.20 µA`,
+/// `one of 2.00 min, 5.00 min`.
+pub fn spread_text(d: &Design, t: &Tolerance) -> String {
+    let v = |x: f64| fmt_value(d, &t.knob, x);
+    match &t.dist {
+        Dist::Normal { mean, sigma } => {
+            let band = fmt_value(d, &t.knob, mean + 3.0 * sigma);
+            let lo = fmt_value(d, &t.knob, mean - 3.0 * sigma);
+            format!(
+                "normal around {}, sigma {}: {lo}..{band} (3 sigma)",
+                v(*mean),
+                sigma_text(d, t, *sigma)
+            )
+        }
+        Dist::Uniform { lo, hi } => format!("uniform {}..{}", v(*lo), v(*hi)),
+        Dist::Pick(c) => {
+            let all: Vec<String> = c.iter().map(|x| v(*x)).collect();
+            format!("one of {}", all.join(", "))
+        }
+    }
+}
+
+/// A standard deviation in the value's unit (a temperature difference in kelvin, not °C).
+fn sigma_text(d: &Design, t: &Tolerance, sigma: f64) -> String {
+    if t.knob == Knob::Ambient {
+        format!("{} K", crate::units::fmt_sig(sigma, 3))
+    } else {
+        fmt_value(d, &t.knob, sigma)
+    }
 }
 
 fn rail(w: &mut dyn Write, d: &Design, r: usize, prefix: &str) -> io::Result<()> {
