@@ -124,6 +124,8 @@ pub enum Error {
     Invalid(Vec<Diagnostic>),
     /// Writing a report failed.
     Io(std::io::Error),
+    /// The design is valid but its discharge gives no result.
+    Run(crate::solve::RunError),
 }
 
 impl Error {
@@ -131,7 +133,7 @@ impl Error {
     pub fn diagnostics(&self) -> &[Diagnostic] {
         match self {
             Error::Invalid(d) => d,
-            Error::Io(_) => &[],
+            Error::Io(_) | Error::Run(_) => &[],
         }
     }
 
@@ -154,11 +156,18 @@ impl fmt::Display for Error {
                 Ok(())
             }
             Error::Io(e) => write!(f, "cannot write the output: {e}"),
+            Error::Run(e) => write!(f, "{e}"),
         }
     }
 }
 
 impl std::error::Error for Error {}
+
+impl From<crate::solve::RunError> for Error {
+    fn from(e: crate::solve::RunError) -> Self {
+        Error::Run(e)
+    }
+}
 
 impl From<std::io::Error> for Error {
     fn from(e: std::io::Error) -> Self {
