@@ -5,10 +5,8 @@ mod cli;
 
 use std::process::ExitCode;
 
-use clap::Parser;
-
 fn main() -> ExitCode {
-    let args = cli::Args::parse();
+    let args = cli::parse();
     match cli::run(&args) {
         Ok(()) => ExitCode::SUCCESS,
         Err(failure) => {

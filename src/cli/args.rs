@@ -4,6 +4,8 @@ use std::path::PathBuf;
 
 use clap::{Parser, Subcommand, ValueEnum};
 
+use super::groups::Group;
+
 /// Battery runtime, pack current and heat per stage of a product's power tree.
 #[derive(Debug, Parser)]
 #[command(name = "joulepath", version, about, long_about = None)]
@@ -147,13 +149,30 @@ pub enum Command {
     },
     /// The runtime analysis of several designs side by side, and which one wins.
     ///
-    /// `compare FILE [--set PATH=VALUE]... FILE [--set PATH=VALUE]... [--format F] [-o OUT]
-    /// [--plot OUT.svg] [--ambient T] [--horizon D] [--exact]`: each `--set` applies to the file
-    /// before it, so one file can be compared with its variants.
+    /// Each `--set` applies to the file before it (one before every file applies to all), so one
+    /// file can be compared with its variants: `compare a.yaml a.yaml --set battery.parallel=2`.
     Compare {
-        /// Design files, each followed by its own `--set` overrides, then options.
-        #[arg(trailing_var_arg = true, allow_hyphen_values = true, num_args = 1.., required = true)]
-        words: Vec<String>,
+        /// The design files, each optionally followed by its own `--set` overrides.
+        #[arg(required = true, num_args = 1..)]
+        files: Vec<PathBuf>,
+        /// Override one value of the design file before it; may be repeated.
+        #[arg(long = "set", value_name = "PATH=VALUE")]
+        sets: Vec<String>,
+        #[command(flatten)]
+        run: RunArgs,
+        /// A chart of every design's discharge (SVG or PNG, by the extension).
+        #[arg(long)]
+        plot: Option<PathBuf>,
+        /// Output format.
+        #[arg(long, value_enum, default_value_t = FormatArg::Table)]
+        format: FormatArg,
+        /// Write to this file instead of standard output.
+        #[arg(short = 'o', long = "output")]
+        output: Option<PathBuf>,
+        /// The files with their own overrides, from where each `--set` stands on the command line
+        /// (filled in by `cli::parse`).
+        #[arg(skip)]
+        groups: Vec<Group>,
     },
     /// A cell fitted from datasheet discharge curves, printed as a `cells:` block.
     FitCell {

@@ -1,148 +1,131 @@
-//! The arguments of `compare`: designs, each optionally followed by its own `--set` overrides,
-//! and options that apply to all of them.
+//! `compare`'s designs: each file with the `--set` overrides that follow it on the command line,
+//! from the positions clap records for every value.
 
 use std::path::PathBuf;
 
-use super::args::FormatArg;
+use clap::ArgMatches;
 
 /// One design to compare: a file and the overrides that make a variant of it.
-#[derive(Debug, Clone, PartialEq, Eq)]
+#[derive(Debug, Clone, PartialEq, Eq, Default)]
 pub struct Group {
     /// The design file.
     pub file: PathBuf,
-    /// `PATH=VALUE` overrides, in order.
+    /// `PATH=VALUE` overrides, in order: those given before every file first.
     pub sets: Vec<String>,
+    /// How many of `sets` were given before every file (shared by all designs).
+    pub shared: usize,
 }
 
-/// Everything `compare` was given.
-#[derive(Debug, Clone, PartialEq)]
-pub struct CompareArgs {
-    /// The designs, in order.
-    pub groups: Vec<Group>,
-    /// Output format.
-    pub format: FormatArg,
-    /// Output file.
-    pub output: Option<PathBuf>,
-    /// Ambient override, °C.
-    pub ambient: Option<f64>,
-    /// Horizon, s.
-    pub horizon: Option<f64>,
-    /// The chronological reference solver.
-    pub exact: bool,
-    /// A chart of all the discharge curves.
-    pub plot: Option<PathBuf>,
+/// Group `compare`'s files with the `--set` values that follow each; a `--set` before any file
+/// applies to every design.
+pub fn groups(m: &ArgMatches) -> Vec<Group> {
+    let indexed =
+        |id: &str| -> Vec<usize> { m.indices_of(id).map(Iterator::collect).unwrap_or_default() };
+    let files: Vec<PathBuf> = m
+        .get_many::<PathBuf>("files")
+        .map(|v| v.cloned().collect())
+        .unwrap_or_default();
+    let sets: Vec<String> = m
+        .get_many::<String>("sets")
+        .map(|v| v.cloned().collect())
+        .unwrap_or_default();
+    let (file_at, set_at) = (indexed("files"), indexed("sets"));
+    let shared: Vec<String> = sets
+        .iter()
+        .zip(&set_at)
+        .filter(|(_, i)| file_at.first().is_none_or(|f| *i < f))
+        .map(|(s, _)| s.clone())
+        .collect();
+    files
+        .iter()
+        .enumerate()
+        .map(|(k, file)| {
+            let (from, to) = (
+                file_at[k],
+                file_at.get(k + 1).copied().unwrap_or(usize::MAX),
+            );
+            let mut own = shared.clone();
+            own.extend(
+                sets.iter()
+                    .zip(&set_at)
+                    .filter(|(_, i)| **i > from && **i < to)
+                    .map(|(s, _)| s.clone()),
+            );
+            Group {
+                file: file.clone(),
+                sets: own,
+                shared: shared.len(),
+            }
+        })
+        .collect()
 }
 
-/// Read the words after `compare`: `FILE [--set P=V]... FILE [--set P=V]... [options]`.
-/// A `--set` before any file applies to every design.
-pub fn parse_groups(words: &[String]) -> Result<CompareArgs, String> {
-    let mut out = CompareArgs {
-        groups: Vec::new(),
-        format: FormatArg::Table,
-        output: None,
-        ambient: None,
-        horizon: None,
-        exact: false,
-        plot: None,
-    };
-    let mut shared_sets: Vec<String> = Vec::new();
-    let mut i = 0;
-    let value = |i: usize, flag: &str| -> Result<String, String> {
-        words
-            .get(i + 1)
-            .cloned()
-            .ok_or_else(|| format!("`{flag}` needs a value"))
-    };
-    while i < words.len() {
-        let w = words[i].as_str();
-        let (flag, inline) = match w.split_once('=') {
-            Some((f, v)) if f.starts_with("--") => (f, Some(v.to_string())),
-            _ => (w, None),
-        };
-        let take = |i: &mut usize| -> Result<String, String> {
-            if let Some(v) = &inline {
-                Ok(v.clone())
-            } else {
-                let v = value(*i, flag)?;
-                *i += 1;
-                Ok(v)
-            }
-        };
-        match flag {
-            "--set" => {
-                let v = take(&mut i)?;
-                match out.groups.last_mut() {
-                    Some(g) => g.sets.push(v),
-                    None => shared_sets.push(v),
-                }
-            }
-            "--format" => {
-                out.format = match take(&mut i)?.as_str() {
-                    "table" => FormatArg::Table,
-                    "json" => FormatArg::Json,
-                    "csv" => FormatArg::Csv,
-                    other => {
-                        return Err(format!("unknown format `{other}` (use table, json or csv)"));
-                    }
-                };
-            }
-            "-o" | "--output" => out.output = Some(PathBuf::from(take(&mut i)?)),
-            "--plot" => out.plot = Some(PathBuf::from(take(&mut i)?)),
-            "--ambient" => out.ambient = Some(super::args::parse_temperature(&take(&mut i)?)?),
-            "--horizon" => out.horizon = Some(super::args::parse_duration(&take(&mut i)?)?),
-            "--exact" => out.exact = true,
-            f if f.starts_with('-')
-                && f.len() > 1
-                && !f.starts_with("-.")
-                && f.parse::<f64>().is_err() =>
-            {
-                return Err(format!(
-                    "unknown option `{f}` for compare (options: --set, --format, -o, --plot, --ambient, --horizon, --exact)"
-                ));
-            }
-            _ => out.groups.push(Group {
-                file: PathBuf::from(w),
-                sets: shared_sets.clone(),
-            }),
-        }
-        i += 1;
-    }
-    match out.groups.len() {
+/// Whether the groups make a comparison: two or more designs, or one file with a variant.
+pub fn check(groups: &[Group]) -> Result<(), String> {
+    match groups.len() {
         0 => Err("compare needs at least one design file (and a second file, or `--set` variants)".into()),
-        1 if out.groups[0].sets.len() == shared_sets.len() => Err(
+        1 if groups[0].sets.len() == groups[0].shared => Err(
             "compare needs two or more designs: give another file, or the same file again with `--set PATH=VALUE`"
                 .into(),
         ),
-        _ => Ok(out),
+        _ => Ok(()),
     }
 }
 
 #[cfg(test)]
 mod tests {
-    use super::*;
+    use clap::{CommandFactory, FromArgMatches};
 
-    fn words(s: &str) -> Vec<String> {
-        s.split_whitespace().map(str::to_string).collect()
+    use super::super::args::{Args, Command};
+
+    fn parse(line: &str) -> Args {
+        let words = std::iter::once("joulepath").chain(line.split_whitespace());
+        let m = Args::command().try_get_matches_from(words).expect("parses");
+        let mut a = Args::from_arg_matches(&m).expect("args");
+        if let (Command::Compare { groups, .. }, Some((_, sub))) = (&mut a.command, m.subcommand())
+        {
+            *groups = super::groups(sub);
+        }
+        a
     }
 
     #[test]
     fn groups_take_their_own_sets() {
-        let a = parse_groups(&words(
-            "a.yaml b.yaml --set battery.parallel=2 --format json a.yaml --set=x=1",
-        ))
-        .unwrap();
-        assert_eq!(a.groups.len(), 3);
-        assert!(a.groups[0].sets.is_empty());
-        assert_eq!(a.groups[1].sets, ["battery.parallel=2"]);
-        assert_eq!(a.groups[2].sets, ["x=1"]);
-        assert_eq!(a.format, FormatArg::Json);
+        let a =
+            parse("compare a.yaml b.yaml --set battery.parallel=2 --format json a.yaml --set=x=1");
+        let Command::Compare { groups, format, .. } = a.command else {
+            panic!("compare")
+        };
+        assert_eq!(groups.len(), 3);
+        assert!(groups[0].sets.is_empty());
+        assert_eq!(groups[1].sets, ["battery.parallel=2"]);
+        assert_eq!(groups[2].sets, ["x=1"]);
+        assert_eq!(format, super::super::args::FormatArg::Json);
+    }
+
+    #[test]
+    fn a_set_before_the_files_applies_to_all() {
+        let a = parse("compare --set ambient=0degC a.yaml b.yaml --set x=1");
+        let Command::Compare { groups, .. } = a.command else {
+            panic!("compare")
+        };
+        assert_eq!(groups[0].sets, ["ambient=0degC"]);
+        assert_eq!(groups[1].sets, ["ambient=0degC", "x=1"]);
     }
 
     #[test]
     fn one_design_needs_a_variant() {
-        assert!(parse_groups(&words("a.yaml")).is_err());
-        assert!(parse_groups(&words("a.yaml a.yaml --set battery.parallel=2")).is_ok());
-        assert!(parse_groups(&words("a.yaml b.yaml --bogus")).is_err());
-        assert!(parse_groups(&words("a.yaml b.yaml --format")).is_err());
+        let g = |line: &str| {
+            let Command::Compare { groups, .. } = parse(line).command else {
+                panic!("compare")
+            };
+            super::check(&groups)
+        };
+        assert!(g("compare a.yaml").is_err());
+        assert!(g("compare a.yaml a.yaml --set battery.parallel=2").is_ok());
+        let words = ["joulepath", "compare", "a.yaml", "b.yaml", "--bogus"];
+        assert!(Args::command().try_get_matches_from(words).is_err());
+        let words = ["joulepath", "compare", "a.yaml", "b.yaml", "--format"];
+        assert!(Args::command().try_get_matches_from(words).is_err());
     }
 }

@@ -17,7 +17,7 @@ use joulepath::solve::budget;
 use joulepath::spec::Override;
 
 use super::args::{Args, Command, FormatArg, RunArgs, parse_with};
-use super::groups::{CompareArgs, parse_groups};
+use super::groups::{Group, check as check_groups};
 use super::pictures::{
     compare_plot, plot_command, report_command, run_with_progress, spread_with_progress,
 };
@@ -287,9 +287,16 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             }
             emit(&buf, output.as_deref())
         }
-        Command::Compare { words } => {
-            let ca = parse_groups(words).map_err(Failure::Usage)?;
-            compare(&ca)
+        Command::Compare {
+            run: ra,
+            plot,
+            format: f,
+            output,
+            groups,
+            ..
+        } => {
+            check_groups(groups).map_err(Failure::Usage)?;
+            compare(groups, ra, plot.as_deref(), *f, output.as_deref())
         }
         Command::FitCell {
             curves,
@@ -374,9 +381,15 @@ fn spread_command(
     Ok((d, sp))
 }
 
-fn compare(ca: &CompareArgs) -> Result<(), Failure> {
+fn compare(
+    groups: &[Group],
+    ra: &RunArgs,
+    plot: Option<&Path>,
+    f: FormatArg,
+    output: Option<&Path>,
+) -> Result<(), Failure> {
     let mut designs = Vec::new();
-    for g in &ca.groups {
+    for g in groups {
         let d = load_with(&g.file, &g.sets)?;
         let mut label = g.file.display().to_string();
         for s in &g.sets {
@@ -389,14 +402,9 @@ fn compare(ca: &CompareArgs) -> Result<(), Failure> {
         .iter()
         .enumerate()
         .map(|(i, (_, d))| {
-            let ra = RunArgs {
-                ambient: ca.ambient,
-                horizon: ca.horizon,
-                exact: ca.exact,
-            };
             run_with_progress(
                 d,
-                &run_options(d, &ra, ca.plot.is_some()),
+                &run_options(d, ra, plot.is_some()),
                 &format!("design {}/{n}", i + 1),
             )
         })
@@ -410,11 +418,10 @@ fn compare(ca: &CompareArgs) -> Result<(), Failure> {
             run: r,
         })
         .collect();
-    if let Some(path) = &ca.plot {
+    if let Some(path) = plot {
         // The picture names designs by title (which carries any overrides), and by file as
         // given when titles repeat.
-        let files: Vec<String> = ca
-            .groups
+        let files: Vec<String> = groups
             .iter()
             .map(|g| g.file.display().to_string())
             .collect();
@@ -427,12 +434,12 @@ fn compare(ca: &CompareArgs) -> Result<(), Failure> {
         emit(&bytes, Some(path))?;
     }
     let mut buf = Vec::new();
-    write_compare(&mut buf, &entries, format(ca.format))
+    write_compare(&mut buf, &entries, format(f))
         .map_err(|e| Failure::Input(format!("cannot write the output: {e}")))?;
     for e in &entries {
-        warn_beside(e.design, e.run.ambient_c, ca.format);
+        warn_beside(e.design, e.run.ambient_c, f);
     }
-    emit(&buf, ca.output.as_deref())
+    emit(&buf, output)
 }
 
 fn fit_cell(
