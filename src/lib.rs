@@ -3,13 +3,15 @@
 //!
 //! Data flows one way: text -> [`spec`] (serde mirror) -> [`model`] (checked physics) +
 //! [`tree`] (the graph and its walk order) -> [`solve`] (operating points) -> [`report`]
-//! (tables, JSON, CSV). The library never prints; reports write to any `std::io::Write`.
+//! (tables, JSON, CSV); [`size`] tries packs against a target runtime. The library never
+//! prints; reports write to any `std::io::Write`.
 
 pub mod error;
 pub mod fit;
 mod hash;
 pub mod model;
 pub mod report;
+pub mod size;
 pub mod solve;
 pub mod spec;
 pub mod tree;

@@ -11,6 +11,7 @@ pub mod outline;
 pub mod plot;
 pub mod rows;
 pub mod runtime;
+pub mod size;
 pub mod text;
 
 use std::io::{self, Write};
