@@ -17,3 +17,4 @@ mod reference;
 mod reports;
 mod runtime;
 mod schema;
+mod size;

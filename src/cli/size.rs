@@ -31,11 +31,12 @@ pub fn size_command(a: &SizeArgs) -> Result<(), Failure> {
     };
     // The design as given must pass the checker, with every problem listed as `check` does.
     let design = Design::from_text_with(&text, &overrides).map_err(|e| invalid(e, &text))?;
-    let parsed = spec::parse_with(&text, &overrides)
-        .map_err(|d| invalid(Error::Invalid(d), &text))?;
+    let parsed =
+        spec::parse_with(&text, &overrides).map_err(|d| invalid(Error::Invalid(d), &text))?;
     let mut opts = SizeOptions::new(a.target);
     opts.percentile = a.percentile;
-    opts.cells = (!a.cells.is_empty()).then(|| a.cells.iter().map(|c| c.trim().to_string()).collect());
+    opts.cells =
+        (!a.cells.is_empty()).then(|| a.cells.iter().map(|c| c.trim().to_string()).collect());
     opts.series = a.series;
     opts.parallel = a.parallel;
     opts.rank_by = match a.by {

@@ -274,8 +274,7 @@ fn write_table(w: &mut dyn Write, s: &Sizing) -> io::Result<()> {
                 _ => "does not fit".into(),
             },
             run.map_or_else(dash, |r| end_words(r.end).to_string()),
-            c.charge_c
-                .map_or_else(dash, |q| fmt_eng(q / 3600.0, "Ah")),
+            c.charge_c.map_or_else(dash, |q| fmt_eng(q / 3600.0, "Ah")),
             c.energy_j.map_or_else(dash, |e| fmt_eng(e / 3600.0, "Wh")),
             row.note.unwrap_or_default(),
         ]);
@@ -283,9 +282,15 @@ fn write_table(w: &mut dyn Write, s: &Sizing) -> io::Result<()> {
     t.write(w, "  ")?;
     if !s.capacity.is_empty() {
         writeln!(w)?;
-        writeln!(w, "least capacity of the design's own cells at the design's pack:")?;
+        writeln!(
+            w,
+            "least capacity of the design's own cells at the design's pack:"
+        )?;
         for c in &s.capacity {
-            for (i, line) in wrap(&capacity_sentence(c, o.target_s), 92).iter().enumerate() {
+            for (i, line) in wrap(&capacity_sentence(c, o.target_s), 92)
+                .iter()
+                .enumerate()
+            {
                 writeln!(w, "{}{line}", if i == 0 { "  - " } else { "    " })?;
             }
         }

@@ -7,7 +7,9 @@
 //! width is under [`REL_TOL`] of its top, at most [`MAX_ITERATIONS`] times. A cell that keeps
 //! `rated_current` unset has it follow the capacity (capacity / 5 h), as it would in a file.
 
-use super::{CandidateRun, CellOrigin, SizeOptions, candidate_runtime, end_words, fit_problem, with_pack};
+use super::{
+    CandidateRun, CellOrigin, SizeOptions, candidate_runtime, end_words, fit_problem, with_pack,
+};
 use crate::model::Design;
 use crate::spec::{CellRef, DesignSpec, Qty, SourceMap};
 use crate::units::{fmt_duration, fmt_eng};
@@ -105,17 +107,19 @@ pub fn least_capacity(
     let mut try_at = |capacity_c: f64, out: &mut CapacitySearch| -> Result<CandidateRun, String> {
         out.runs += 1;
         progress(out.runs as usize);
-        let d = Design::from_spec(&with_capacity(&base, cell, capacity_c), source).map_err(|e| {
-            e.diagnostics()
-                .first()
-                .map_or_else(String::new, |d| d.message().to_string())
-        })?;
+        let d =
+            Design::from_spec(&with_capacity(&base, cell, capacity_c), source).map_err(|e| {
+                e.diagnostics()
+                    .first()
+                    .map_or_else(String::new, |d| d.message().to_string())
+            })?;
         if let Some(m) = fit_problem(&d) {
             return Err(m);
         }
         candidate_runtime(&d, opts).map_err(|e| e.to_string())
     };
-    let meets = |r: &Result<CandidateRun, String>| r.as_ref().is_ok_and(|r| r.runtime_s >= opts.target_s);
+    let meets =
+        |r: &Result<CandidateRun, String>| r.as_ref().is_ok_and(|r| r.runtime_s >= opts.target_s);
     let first = try_at(given, &mut out);
     let (mut lo, mut hi, mut best) = if meets(&first) {
         (0.0, given, first.ok())
@@ -145,7 +149,10 @@ pub fn least_capacity(
                     fmt_duration(r.runtime_s),
                     end_words(r.end)
                 ),
-                Err(m) => format!("no capacity up to {} gives a run: {m}", fmt_eng(lo / 3600.0, "Ah")),
+                Err(m) => format!(
+                    "no capacity up to {} gives a run: {m}",
+                    fmt_eng(lo / 3600.0, "Ah")
+                ),
             });
             return out;
         };

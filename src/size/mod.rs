@@ -91,9 +91,7 @@ impl SizeOptions {
         if let Some(t) = self.ambient_c {
             o.ambient_c = t;
         }
-        o.horizon_s = (1.5 * self.target_s)
-            .max(20.0 * YEAR_S)
-            .min(MAX_HORIZON_S);
+        o.horizon_s = (1.5 * self.target_s).max(20.0 * YEAR_S).min(MAX_HORIZON_S);
         o
     }
 }
@@ -255,7 +253,10 @@ impl Sizing {
             .iter()
             .filter(|c| c.run().is_some())
             .max_by(|a, b| {
-                let (ra, rb) = (a.run().map_or(0.0, |r| r.runtime_s), b.run().map_or(0.0, |r| r.runtime_s));
+                let (ra, rb) = (
+                    a.run().map_or(0.0, |r| r.runtime_s),
+                    b.run().map_or(0.0, |r| r.runtime_s),
+                );
                 ra.total_cmp(&rb)
             })
     }
@@ -374,7 +375,10 @@ impl fmt::Display for SizeError {
 impl std::error::Error for SizeError {}
 
 /// The cells a sizing tries: (name, origin), the presets first.
-fn candidate_cells(spec: &DesignSpec, opts: &SizeOptions) -> Result<Vec<(String, CellOrigin)>, SizeError> {
+fn candidate_cells(
+    spec: &DesignSpec,
+    opts: &SizeOptions,
+) -> Result<Vec<(String, CellOrigin)>, SizeError> {
     let mut own: Vec<String> = spec.cells.keys().cloned().collect();
     if matches!(spec.battery.cell, CellRef::Inline(_)) {
         own.push("inline".to_string());
@@ -425,7 +429,13 @@ fn candidate_cells(spec: &DesignSpec, opts: &SizeOptions) -> Result<Vec<(String,
 }
 
 /// The design's spec with the pack replaced: `cell` in `series` x `parallel`.
-pub(crate) fn with_pack(spec: &DesignSpec, cell: &str, origin: CellOrigin, series: u32, parallel: u32) -> DesignSpec {
+pub(crate) fn with_pack(
+    spec: &DesignSpec,
+    cell: &str,
+    origin: CellOrigin,
+    series: u32,
+    parallel: u32,
+) -> DesignSpec {
     let mut s = spec.clone();
     s.battery.cell = match origin {
         // Inline, so that a key of `cells:` with a preset's name cannot shadow the preset.
@@ -533,7 +543,11 @@ fn fill_pack(c: &mut Candidate, d: &Design) {
 /// assert_eq!(s.candidates.len(), 4);
 /// assert_eq!(s.best().unwrap().label(), "alkaline-aaa 1S2P");
 /// ```
-pub fn size(spec: &DesignSpec, source: &SourceMap, opts: &SizeOptions) -> Result<Sizing, SizeError> {
+pub fn size(
+    spec: &DesignSpec,
+    source: &SourceMap,
+    opts: &SizeOptions,
+) -> Result<Sizing, SizeError> {
     size_observed(spec, source, opts, &mut |_, _| {})
 }
 
@@ -560,7 +574,8 @@ pub fn size_observed(
     if count > MAX_CANDIDATES {
         return Err(SizeError::TooMany { count });
     }
-    let own: Vec<&(String, CellOrigin)> = cells.iter().filter(|c| c.1 == CellOrigin::Design).collect();
+    let own: Vec<&(String, CellOrigin)> =
+        cells.iter().filter(|c| c.1 == CellOrigin::Design).collect();
     let total = count + own.len() * capacity::RUNS_ESTIMATE;
     let mut done = 0;
     let mut candidates = Vec::with_capacity(count);
@@ -585,7 +600,9 @@ pub fn size_observed(
                 let s = with_pack(spec, cell, *origin, series, parallel);
                 c.outcome = match Design::from_spec(&s, source) {
                     Err(e) => Outcome::Refused(short(
-                        e.diagnostics().first().map_or("refused by the checker", |d| d.message()),
+                        e.diagnostics()
+                            .first()
+                            .map_or("refused by the checker", |d| d.message()),
                     )),
                     Ok(d) => {
                         fill_pack(&mut c, &d);
@@ -665,8 +682,9 @@ fn fill_refused(candidates: &mut [Candidate]) {
     }
 }
 
-/// Rank: meets the target, then short, then no result or refused; within each, by the metric
-/// (unknown last), then by the other metric, then the longer runtime, then fewer cells.
+/// Rank: meets the target, then short, then no result, then refused; within each, by the metric
+/// (unknown last), then by the other metric, then fewer cells (lighter for one cell whose mass
+/// is unknown), then the longer runtime.
 fn rank(candidates: &mut [Candidate], opts: &SizeOptions) {
     let group = |c: &Candidate| match &c.outcome {
         Outcome::Ran(r) if r.runtime_s >= opts.target_s => 0,
@@ -684,12 +702,12 @@ fn rank(candidates: &mut [Candidate], opts: &SizeOptions) {
             .cmp(&group(b))
             .then(key(a, opts.rank_by).total_cmp(&key(b, opts.rank_by)))
             .then(key(a, other).total_cmp(&key(b, other)))
+            .then((a.series * a.parallel).cmp(&(b.series * b.parallel)))
             .then({
                 let ra = a.run().map_or(0.0, |r| r.runtime_s);
                 let rb = b.run().map_or(0.0, |r| r.runtime_s);
                 rb.total_cmp(&ra)
             })
-            .then((a.series * a.parallel).cmp(&(b.series * b.parallel)))
     });
 }
 
