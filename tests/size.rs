@@ -118,7 +118,11 @@ fn candidates_rank_by_the_mass_of_their_cells() {
     opts.series = (1, 1);
     opts.parallel = (1, 2);
     let s = size(&p.spec, &p.source, &opts).unwrap();
-    let labels: Vec<String> = s.candidates.iter().map(|c| c.label()).collect();
+    let labels: Vec<String> = s
+        .candidates
+        .iter()
+        .map(joulepath::size::Candidate::label)
+        .collect();
     // AAA 1S2P and AA 1S1P weigh the same 23 g: the smaller volume ranks first (2 x 10.5 mm x
     // 44.5 mm against 14.5 mm x 50.5 mm cylinders). The custom cell gives no mass: last.
     assert_eq!(

@@ -91,7 +91,7 @@ impl SizeOptions {
         if let Some(t) = self.ambient_c {
             o.ambient_c = t;
         }
-        o.horizon_s = (1.5 * self.target_s).max(20.0 * YEAR_S).min(MAX_HORIZON_S);
+        o.horizon_s = (1.5 * self.target_s).clamp(20.0 * YEAR_S, MAX_HORIZON_S);
         o
     }
 }
