@@ -264,7 +264,10 @@ fn presets_give_mass_and_size() {
     let cr = joulepath::model::Preset::load("li-mno2-cr2032").unwrap();
     let v = cr.cell.size.unwrap().volume_m3();
     assert!((v - std::f64::consts::PI * 0.020 * 0.020 * 0.0032 / 4.0).abs() < 1e-15);
-    assert_eq!(cr.cell.size.unwrap().describe(), "20 × 3.2 mm");
+    assert_eq!(
+        cr.cell.size.unwrap().describe(),
+        "20 × 3.2 mm (diameter × height)"
+    );
 }
 
 #[test]

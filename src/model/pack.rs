@@ -94,7 +94,7 @@ pub struct Cell {
 /// let aa = CellSize::Cylinder { diameter_m: 0.0145, height_m: 0.0505 };
 /// // V = pi d^2 h / 4 (volume of a right circular cylinder).
 /// assert!((aa.volume_m3() - 8.339e-6).abs() < 1e-9);
-/// assert_eq!(aa.describe(), "14.5 × 50.5 mm");
+/// assert_eq!(aa.describe(), "14.5 × 50.5 mm (diameter × height)");
 /// ```
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum CellSize {
@@ -132,7 +132,7 @@ impl CellSize {
         }
     }
 
-    /// The size in millimetres: `14.5 × 50.5 mm` (diameter × height) or `35 × 30 × 5 mm`.
+    /// The size in millimetres, saying which is which: `14.5 × 50.5 mm (diameter × height)`.
     pub fn describe(self) -> String {
         // Tenths of a millimetre, as cell drawings give them.
         let mm = |m: f64| {
@@ -143,12 +143,21 @@ impl CellSize {
             CellSize::Cylinder {
                 diameter_m,
                 height_m,
-            } => format!("{} × {} mm", mm(diameter_m), mm(height_m)),
+            } => format!(
+                "{} × {} mm (diameter × height)",
+                mm(diameter_m),
+                mm(height_m)
+            ),
             CellSize::Box {
                 length_m,
                 width_m,
                 height_m,
-            } => format!("{} × {} × {} mm", mm(length_m), mm(width_m), mm(height_m)),
+            } => format!(
+                "{} × {} × {} mm (length × width × height)",
+                mm(length_m),
+                mm(width_m),
+                mm(height_m)
+            ),
         }
     }
 }

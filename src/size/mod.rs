@@ -535,13 +535,16 @@ fn fill_pack(c: &mut Candidate, d: &Design) {
 /// profile: [{ mode: lit, for: 1 h }]
 /// "#;
 /// let parsed = joulepath::spec::parse(text).unwrap();
-/// let mut opts = SizeOptions::new(300.0 * 3600.0);
+/// // 10 mA for 200 h is 2 Ah (Q = I t): one AAA (1.2 Ah) falls short, two in parallel
+/// // (2.4 Ah, 23 g) and one AA (2.5 Ah, 23 g) last; the two AAA take less room.
+/// let mut opts = SizeOptions::new(200.0 * 3600.0);
 /// opts.cells = Some(vec!["alkaline-aa".into(), "alkaline-aaa".into()]);
 /// opts.series = (1, 1);
 /// opts.parallel = (1, 2);
 /// let s = size(&parsed.spec, &parsed.source, &opts).unwrap();
 /// assert_eq!(s.candidates.len(), 4);
 /// assert_eq!(s.best().unwrap().label(), "alkaline-aaa 1S2P");
+/// assert!(!s.candidates[3].meets(opts.target_s));
 /// ```
 pub fn size(
     spec: &DesignSpec,
