@@ -3,7 +3,7 @@
 //!
 //! Data flows one way: text -> [`spec`] (serde mirror) -> [`model`] (checked physics) +
 //! [`tree`] (the graph and its walk order) -> [`solve`] (operating points) -> [`report`]
-//! (tables, JSON, CSV). The library never prints; reports write to any `std::io::Write`.
+//! (tables, JSON, CSV); [`size`] tries packs against a target runtime. The library never prints; reports write to any `std::io::Write`.
 //!
 //! The one call for most uses is [`run_text`]: a design file's text in, its checked model and
 //! its discharge out. [`spread::spread`] runs the same design across its units' tolerances.
@@ -31,6 +31,7 @@ pub mod fit;
 mod hash;
 pub mod model;
 pub mod report;
+pub mod size;
 pub mod solve;
 pub mod spec;
 pub mod spread;

@@ -17,4 +17,5 @@ mod reference;
 mod reports;
 mod runtime;
 mod schema;
+mod size;
 mod spread;

@@ -238,6 +238,9 @@ pub enum Command {
         #[arg(short = 'o', long = "output", required = true)]
         output: PathBuf,
     },
+    /// The lightest (or smallest) pack that keeps the design running for a target time: every
+    /// cell in every count in series and parallel, ranked.
+    Size(SizeArgs),
     /// Print the JSON Schema of the design file.
     Schema {
         /// Write to this file instead of standard output.
@@ -291,5 +294,96 @@ pub(super) fn parse_duration(s: &str) -> Result<f64, String> {
         Ok(v)
     } else {
         Err(format!("`{s}` is not a duration above zero"))
+    }
+}
+
+// ---- `size` ----------------------------------------------------------------------------------
+
+/// What `size` ranks the packs by.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum RankArg {
+    /// The mass of the pack's cells.
+    Mass,
+    /// The volume of the pack's cells.
+    Volume,
+}
+
+/// The arguments of `size`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct SizeArgs {
+    /// The design file (YAML).
+    pub file: PathBuf,
+    /// The runtime a pack must reach, e.g. `2 y`, `90 d`, `500 h`.
+    #[arg(long, value_parser = parse_duration, required = true)]
+    pub target: f64,
+    /// For a design with tolerances: the percentile of the runtime that must reach the target.
+    #[arg(long, default_value_t = 5.0, value_parser = parse_percentile)]
+    pub percentile: f64,
+    /// For a design with tolerances: simulated units per candidate pack.
+    #[arg(long, default_value_t = 200, value_parser = clap::value_parser!(u32).range(1..=100_000))]
+    pub samples: u32,
+    /// For a design with tolerances: seed of the random draws.
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+    /// The cells to try, comma-separated: presets and the design's own cells (default: every
+    /// preset and every cell of the design).
+    #[arg(long, value_delimiter = ',')]
+    pub cells: Vec<String>,
+    /// Counts in series to try: `1..4` or a single count such as `2`.
+    #[arg(long, default_value = "1..4", value_parser = parse_count_range)]
+    pub series: (u32, u32),
+    /// Counts in parallel to try: `1..6` or a single count such as `1`.
+    #[arg(long, default_value = "1..6", value_parser = parse_count_range)]
+    pub parallel: (u32, u32),
+    /// Rank by the mass or the volume of the cells.
+    #[arg(long = "by", value_enum, default_value_t = RankArg::Mass)]
+    pub by: RankArg,
+    /// Ambient temperature instead of the design's, e.g. `-10 °C`.
+    #[arg(long, value_parser = parse_temperature, allow_hyphen_values = true)]
+    pub ambient: Option<f64>,
+    /// Override one value of the design before sizing; may be repeated.
+    #[arg(long = "set", value_name = "PATH=VALUE")]
+    pub sets: Vec<String>,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = FormatArg::Table)]
+    pub format: FormatArg,
+    /// Write to this file instead of standard output.
+    #[arg(short = 'o', long = "output")]
+    pub output: Option<PathBuf>,
+}
+
+/// The most cells in series or in parallel a range may name (the checker's own limit).
+pub const MAX_COUNT: u32 = 1000;
+
+/// A range of counts: `1..4` (also `1..=4`) or one count `2`, from 1 to [`MAX_COUNT`].
+pub(super) fn parse_count_range(s: &str) -> Result<(u32, u32), String> {
+    let t = s.trim();
+    let (a, b) = match t.split_once("..") {
+        Some((a, b)) => (a.trim(), b.trim_start_matches('=').trim()),
+        None => (t, t),
+    };
+    let count = |x: &str| -> Result<u32, String> {
+        match x.parse::<u32>() {
+            Ok(n) if (1..=MAX_COUNT).contains(&n) => Ok(n),
+            _ => Err(format!(
+                "`{s}` is not a range of whole counts from 1 to {MAX_COUNT}: write `1..4` or a single count such as `2`"
+            )),
+        }
+    };
+    let (lo, hi) = (count(a)?, count(b)?);
+    if lo > hi {
+        return Err(format!(
+            "the range `{s}` runs backwards: write the lower count first, such as `{hi}..{lo}`"
+        ));
+    }
+    Ok((lo, hi))
+}
+
+fn parse_percentile(s: &str) -> Result<f64, String> {
+    match s.trim().trim_end_matches('%').trim().parse::<f64>() {
+        Ok(p) if p > 0.0 && p < 100.0 => Ok(p),
+        _ => Err(format!(
+            "`{s}` is not a percentile above 0 and below 100, such as `5`"
+        )),
     }
 }

@@ -6,6 +6,7 @@ mod groups;
 mod pictures;
 mod render;
 mod run;
+mod size;
 
 pub use args::Args;
 pub use run::run;

@@ -64,7 +64,7 @@ impl Failure {
     }
 }
 
-fn read(path: &Path) -> Result<String, Failure> {
+pub(super) fn read(path: &Path) -> Result<String, Failure> {
     // Bounded, regular files only; then the text must be UTF-8, with the place of the first
     // byte that is not.
     let bytes = super::files::read_input(path)?;
@@ -125,7 +125,7 @@ fn load_with(path: &Path, sets: &[String]) -> Result<Design, Failure> {
     Ok(d)
 }
 
-fn format(f: FormatArg) -> Format {
+pub(super) fn format(f: FormatArg) -> Format {
     match f {
         FormatArg::Table => Format::Table,
         FormatArg::Json => Format::Json,
@@ -134,7 +134,7 @@ fn format(f: FormatArg) -> Format {
 }
 
 /// Write `bytes` to `out`, or standard output; a file is written whole or not at all.
-fn emit(bytes: &[u8], out: Option<&Path>) -> Result<(), Failure> {
+pub(super) fn emit(bytes: &[u8], out: Option<&Path>) -> Result<(), Failure> {
     match out {
         None => super::files::write_stdout(bytes),
         Some(path) => super::files::write_output(bytes, path),
@@ -342,6 +342,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             let bytes = report_command(&d, &run_options(&d, ra, true), *soc)?;
             emit(&bytes, Some(output))
         }
+        Command::Size(a) => super::size::size_command(a),
         Command::Schema { output } => emit(
             joulepath::spec::design_schema().as_bytes(),
             output.as_deref(),

@@ -135,6 +135,8 @@ impl Fit {
             self_discharge_per_s: 0.0,
             temp_capacity: Table::constant(1.0),
             temp_resistance: Table::constant(1.0),
+            mass_kg: None,
+            size: None,
         }
     }
 

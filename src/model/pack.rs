@@ -79,6 +79,87 @@ pub struct Cell {
     pub temp_capacity: Table,
     /// Resistance factor against temperature (°C).
     pub temp_resistance: Table,
+    /// Mass of one cell, kg (unknown when the cell does not give it).
+    pub mass_kg: Option<f64>,
+    /// Outer size of one cell (unknown when the cell does not give it).
+    pub size: Option<CellSize>,
+}
+
+/// The outer size of a cell.
+///
+/// # Examples
+///
+/// ```
+/// use joulepath::model::CellSize;
+/// let aa = CellSize::Cylinder { diameter_m: 0.0145, height_m: 0.0505 };
+/// // V = pi d^2 h / 4 (volume of a right circular cylinder).
+/// assert!((aa.volume_m3() - 8.339e-6).abs() < 1e-9);
+/// assert_eq!(aa.describe(), "14.5 × 50.5 mm (diameter × height)");
+/// ```
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum CellSize {
+    /// A cylinder (round cells and coin cells): diameter and height, m.
+    Cylinder {
+        /// Diameter, m.
+        diameter_m: f64,
+        /// Height, m.
+        height_m: f64,
+    },
+    /// A box (pouch and prismatic cells): length, width and height, m.
+    Box {
+        /// Length, m.
+        length_m: f64,
+        /// Width, m.
+        width_m: f64,
+        /// Height (thickness), m.
+        height_m: f64,
+    },
+}
+
+impl CellSize {
+    /// The cell's own volume, m³: pi d² h / 4 for a cylinder, L W H for a box.
+    pub fn volume_m3(self) -> f64 {
+        match self {
+            CellSize::Cylinder {
+                diameter_m,
+                height_m,
+            } => std::f64::consts::PI * diameter_m * diameter_m * height_m / 4.0,
+            CellSize::Box {
+                length_m,
+                width_m,
+                height_m,
+            } => length_m * width_m * height_m,
+        }
+    }
+
+    /// The size in millimetres, saying which is which: `14.5 × 50.5 mm (diameter × height)`.
+    pub fn describe(self) -> String {
+        // Tenths of a millimetre, as cell drawings give them.
+        let mm = |m: f64| {
+            let t = format!("{:.1}", m * 1e3);
+            t.strip_suffix(".0").map_or(t.clone(), str::to_string)
+        };
+        match self {
+            CellSize::Cylinder {
+                diameter_m,
+                height_m,
+            } => format!(
+                "{} × {} mm (diameter × height)",
+                mm(diameter_m),
+                mm(height_m)
+            ),
+            CellSize::Box {
+                length_m,
+                width_m,
+                height_m,
+            } => format!(
+                "{} × {} × {} mm (length × width × height)",
+                mm(length_m),
+                mm(width_m),
+                mm(height_m)
+            ),
+        }
+    }
 }
 
 /// The pack: cells in series and parallel, at an ambient temperature, with aging.

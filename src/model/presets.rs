@@ -247,6 +247,8 @@ mod tests {
                 s.max_current.is_some(),
                 s.self_discharge.is_some(),
                 s.temperature.is_some(),
+                s.mass.is_some(),
+                s.size.is_some(),
             ];
             assert!(given.iter().all(|g| *g), "preset `{name}` leaves a key out");
         }

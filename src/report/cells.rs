@@ -254,6 +254,20 @@ fn table(w: &mut dyn Write, p: &Preset) -> io::Result<()> {
             format!("{}/month of the rated capacity", fmt_percent(per_month))
         },
     );
+    row(
+        "mass",
+        c.mass_kg.map_or_else(
+            || "not given".to_string(),
+            |m| format!("{} (typical)", fmt_eng(m * 1e3, "g")),
+        ),
+    );
+    row(
+        "size",
+        c.size.map_or_else(
+            || "not given".to_string(),
+            |s| format!("{}, {} cm³", s.describe(), fmt_sig(s.volume_m3() * 1e6, 3)),
+        ),
+    );
     for (i, line) in temperature.into_iter().enumerate() {
         row(if i == 0 { "temperature" } else { "" }, line);
     }

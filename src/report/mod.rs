@@ -11,6 +11,7 @@ pub mod outline;
 pub mod plot;
 pub mod rows;
 pub mod runtime;
+pub mod size;
 pub mod spread;
 pub mod text;
 

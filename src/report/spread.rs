@@ -28,6 +28,8 @@ pub fn fmt_value(d: &Design, knob: &Knob, v: f64) -> String {
         Dim::Fraction => fmt_percent(v),
         Dim::Rate => format!("{} %/month", fmt_sig(v * 100.0 * crate::model::MONTH_S, 3)),
         Dim::Number => fmt_sig(v, 4),
+        Dim::Mass => fmt_eng(v * 1000.0, "g"),
+        Dim::Length => fmt_eng(v, "m"),
     }
 }
 

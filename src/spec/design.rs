@@ -107,6 +107,13 @@ pub struct CellSpec {
     /// Capacity and resistance factors against temperature.
     #[serde(default)]
     pub temperature: Option<Vec<TemperatureRowSpec>>,
+    /// Mass of one cell, e.g. `23 g` (used by `size` to rank packs).
+    #[serde(default)]
+    pub mass: Option<Qty>,
+    /// Outer size of one cell: `[diameter, height]` of a cylinder (coin cells too), or
+    /// `[length, width, height]` of a pouch or prismatic cell, e.g. `[14.5 mm, 50.5 mm]`.
+    #[serde(default)]
+    pub size: Option<Vec<Qty>>,
 }
 
 impl CellSpec {

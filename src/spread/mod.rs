@@ -91,6 +91,10 @@ pub struct Outcome {
     pub runtime: Result<f64, RunError>,
     /// Why the product stopped (none when the run failed).
     pub end: Option<EndReason>,
+    /// State of charge left at the end (none when the run failed).
+    pub end_soc: Option<f64>,
+    /// The mode the product stopped in.
+    pub end_mode: Option<usize>,
 }
 
 /// Runtime statistics over the samples that gave a runtime.
@@ -205,11 +209,15 @@ pub fn run_with(design: &Design, values: &[f64], run_options: &RunOptions) -> Ou
             values: values.to_vec(),
             runtime: Ok(r.runtime_s()),
             end: Some(r.end.reason),
+            end_soc: Some(r.end.soc),
+            end_mode: r.end.mode,
         },
         Err(e) => Outcome {
             values: values.to_vec(),
             runtime: Err(e),
             end: None,
+            end_soc: None,
+            end_mode: None,
         },
     }
 }
@@ -388,6 +396,32 @@ pub fn spread_observed(
         redrawn,
         clipped,
     })
+}
+
+impl Spread {
+    /// The sample whose runtime lies nearest the `p`-th percentile (0..100) of the runtimes: a
+    /// unit that stands for it, with its end reason.
+    pub fn sample_near(&self, p: f64) -> Option<&Outcome> {
+        let mut ok: Vec<&Outcome> = self.samples.iter().filter(|s| s.runtime.is_ok()).collect();
+        ok.sort_by(|a, b| {
+            let (x, y) = (a.runtime.as_ref().ok(), b.runtime.as_ref().ok());
+            x.partial_cmp(&y).unwrap_or(std::cmp::Ordering::Equal)
+        });
+        let k =
+            ((ok.len().saturating_sub(1)) as f64 * (p / 100.0).clamp(0.0, 1.0)).round() as usize;
+        ok.get(k).copied()
+    }
+
+    /// The `p`-th percentile (0..100) of the runtimes, s.
+    pub fn percentile_s(&self, p: f64) -> f64 {
+        let mut v: Vec<f64> = self
+            .samples
+            .iter()
+            .filter_map(|s| s.runtime.as_ref().ok().copied())
+            .collect();
+        v.sort_by(f64::total_cmp);
+        percentile(&v, p)
+    }
 }
 
 /// Each value at its low and high bound with the rest nominal, and its rank correlation with

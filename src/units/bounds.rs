@@ -43,6 +43,10 @@ fn range(dim: Dim) -> Option<Range> {
         Dim::ThermalResistance => r(1e-3, 1e4, "0.001 °C/W", "10000 °C/W"),
         Dim::Fraction => r(1e-4, 1e4, "0.01 %", "1000000 %"),
         Dim::Rate => r(1e-5 / YEAR, 1.0 / 86_400.0, "0.001 %/year", "100 %/d"),
+        // From a fraction of a coin cell's gram to a vehicle pack's tonnes; from a thin film's
+        // micrometres to a stationary bank's metres.
+        Dim::Mass => r(1e-6, 1e4, "1 mg", "10 t"),
+        Dim::Length => r(1e-6, 100.0, "1 µm", "100 m"),
         // Temperatures are bounded absolutely; plain numbers by each field.
         Dim::Temperature | Dim::Number => None,
     }

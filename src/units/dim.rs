@@ -27,6 +27,10 @@ pub enum Dim {
     Rate,
     /// A plain number without a unit (exponents, counts).
     Number,
+    /// A mass, stored in kilograms (`g`, `kg`, `mg`).
+    Mass,
+    /// A length, stored in metres (`mm`, `cm`, `m`).
+    Length,
 }
 
 impl Dim {
@@ -45,6 +49,8 @@ impl Dim {
             Dim::Fraction => "a fraction",
             Dim::Rate => "a rate per time",
             Dim::Number => "a plain number",
+            Dim::Mass => "a mass",
+            Dim::Length => "a length",
         }
     }
 
@@ -63,6 +69,8 @@ impl Dim {
             Dim::Fraction => "91 %",
             Dim::Rate => "3 %/month",
             Dim::Number => "1.05",
+            Dim::Mass => "23 g",
+            Dim::Length => "14.5 mm",
         }
     }
 
@@ -81,6 +89,8 @@ impl Dim {
             Dim::Fraction => "`%` or a plain number such as `0.91`",
             Dim::Rate => "`%/month`, `%/year`, `%/d`",
             Dim::Number => "no unit at all",
+            Dim::Mass => "`g`, `kg`, `mg`",
+            Dim::Length => "`mm`, `cm`, `m`",
         }
     }
 }

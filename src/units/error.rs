@@ -245,6 +245,8 @@ fn missing_unit_hint(n: &str, expected: &[Dim]) -> String {
         Dim::Rate => format!("write `{n} %/month` (or another period such as `%/year`)"),
         Dim::Fraction => format!("write `{n} %`"),
         Dim::Number => format!("write `{n}`"),
+        Dim::Mass => format!("write `{n} g` (or `{n} kg` if you meant kilograms)"),
+        Dim::Length => format!("write `{n} mm` (or `{n} cm`, `{n} m` as meant)"),
     }
 }
 

@@ -33,7 +33,7 @@ mod tests {
     use super::*;
     use proptest::prelude::*;
 
-    const ALL: [Dim; 12] = [
+    const ALL: [Dim; 14] = [
         Dim::Voltage,
         Dim::Current,
         Dim::Power,
@@ -46,6 +46,8 @@ mod tests {
         Dim::Fraction,
         Dim::Rate,
         Dim::Number,
+        Dim::Mass,
+        Dim::Length,
     ];
 
     /// Every kind's example must parse back as that kind.

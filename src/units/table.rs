@@ -76,6 +76,11 @@ static UNITS: &[UnitDef] = &[
     per("%/day", DAY),
     per("%/d", DAY),
     per("%/h", 3600.0),
+    // Mass is stored in kilograms: a gram is 1e-3 of it, and takes the prefixes (`kg`, `mg`).
+    unit("g", Dim::Mass, 1e-3, true),
+    unit("m", Dim::Length, 1.0, true),
+    // The centimetre's prefix is not in the table of prefixes (it is seldom used elsewhere).
+    unit("cm", Dim::Length, 1e-2, false),
 ];
 
 /// Metric prefixes and their powers of ten. Case matters: `m` is milli, `M` mega.

@@ -288,6 +288,13 @@ impl Lower<'_> {
             Dim::Rate,
             Bound::AtLeastZero,
         );
+        let mass = self.opt(
+            c.mass.as_ref(),
+            format_args!("{path}.mass"),
+            Dim::Mass,
+            Bound::AboveZero,
+        );
+        let size = self.size(c.size.as_deref(), path);
         let temps = self.temperature(c, path);
         let (temp_capacity, temp_resistance) = temps?;
         Some(Cell {
@@ -304,7 +311,51 @@ impl Lower<'_> {
             self_discharge_per_s: self_discharge?.unwrap_or(0.0),
             temp_capacity,
             temp_resistance,
+            mass_kg: mass?,
+            size: size?,
         })
+    }
+
+    /// A cell's outer size: two lengths (a cylinder's diameter and height) or three (a box's
+    /// length, width and height), each above zero.
+    fn size(&mut self, lengths: Option<&[Qty]>, path: &str) -> Option<Option<CellSize>> {
+        let Some(lengths) = lengths else {
+            return Some(None);
+        };
+        if !matches!(lengths.len(), 2 | 3) {
+            self.err(
+                &format!("{path}.size"),
+                format!("the size has {} values, not 2 or 3", lengths.len()),
+                Some(
+                    "give `[diameter, height]` of a cylinder, such as `[14.5 mm, 50.5 mm]`, or \
+                     `[length, width, height]` of a pouch or prismatic cell"
+                        .into(),
+                ),
+            );
+            return None;
+        }
+        let mut v = Vec::with_capacity(3);
+        for (i, q) in lengths.iter().enumerate() {
+            v.push(self.value(
+                q,
+                format_args!("{path}.size[{i}]"),
+                Dim::Length,
+                Bound::AboveZero,
+            ));
+        }
+        let v: Vec<f64> = v.into_iter().collect::<Option<_>>()?;
+        Some(Some(match v[..] {
+            [d, h] => CellSize::Cylinder {
+                diameter_m: d,
+                height_m: h,
+            },
+            [l, w, h] => CellSize::Box {
+                length_m: l,
+                width_m: w,
+                height_m: h,
+            },
+            _ => return None,
+        }))
     }
 
     pub(super) fn temperature(&mut self, c: &CellSpec, path: &str) -> Option<(Table, Table)> {
@@ -407,6 +458,8 @@ fn overlay(over: &CellSpec, base: &CellSpec) -> CellSpec {
             .temperature
             .clone()
             .or_else(|| base.temperature.clone()),
+        mass: pick(&over.mass, &base.mass),
+        size: over.size.clone().or_else(|| base.size.clone()),
     }
 }
 
@@ -423,6 +476,8 @@ pub(super) fn given_keys(c: &CellSpec) -> Vec<&'static str> {
         ("max_current", c.max_current.is_some()),
         ("self_discharge", c.self_discharge.is_some()),
         ("temperature", c.temperature.is_some()),
+        ("mass", c.mass.is_some()),
+        ("size", c.size.is_some()),
     ]
     .into_iter()
     .filter_map(|(k, given)| given.then_some(k))

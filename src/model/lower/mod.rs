@@ -15,7 +15,7 @@ use std::fmt::Display;
 use super::curve::{Table, TableError};
 use super::load::{Draw, Load};
 use super::mode::{Mode, RepeatUntil, Step};
-use super::pack::{Cell, Chemistry, Pack};
+use super::pack::{Cell, CellSize, Chemistry, Pack};
 use super::presets::{self, Preset};
 use super::stage::{EffCurve, LossModel, Stage, StageKind};
 use super::{BATTERY, Design};
