@@ -331,11 +331,18 @@ fn the_command_writes_tables_json_and_csv() {
 
 #[test]
 fn a_design_without_tolerances_or_with_a_fixed_ambient_is_a_usage_error() {
-    let wearable = root()
-        .join("examples/wearable-band.yaml")
-        .display()
-        .to_string();
-    let out = Test::new().args(&["spread", &wearable]).expect_code(2);
+    let plain = "
+cells:
+  c: { capacity: 1 Ah, ocv: [[0 %, 3 V], [100 %, 3 V]], resistance: 0 ohm, cutoff: 2 V }
+battery: { cell: c }
+loads: [{ id: lamp, rail: battery, draw: { on: 10 mA } }]
+modes: { lit: { lamp: on } }
+profile: [{ mode: lit, for: 1 h }]
+";
+    let out = Test::new()
+        .design(plain)
+        .args(&["spread", "{file}"])
+        .expect_code(2);
     assert!(out.stderr.contains("tolerances"), "{}", out.stderr);
     let soil = root()
         .join("examples/soil-probe.yaml")
