@@ -130,6 +130,23 @@ fn cold_design(ambient: &str) -> Design {
 }
 
 #[test]
+fn a_temperature_row_with_one_factor_leaves_the_other_to_its_own_rows() {
+    // A row at 0 °C giving only the capacity is no point of the resistance table: there the
+    // resistance factor is the linear interpolation of its own rows, 300 % at -20 °C and 100 %
+    // at 25 °C: 300 % - 200 % x 20/45 = 211.1 % (linear interpolation, DESIGN section 4); the
+    // capacity factor is the row's 80 %.
+    let d = design(
+        "cells:\n  c:\n    capacity: 2 Ah\n    ocv: [[0 %, 1.0 V], [100 %, 1.4 V]]\n    resistance: 30 mΩ\n    cutoff: 0.8 V\n    temperature:\n      - { at: 25 °C, capacity: 100 %, resistance: 100 % }\n      - { at: 0 °C, capacity: 80 % }\n      - { at: -20 °C, resistance: 300 % }\nbattery: { cell: c }\nloads: [{ id: l, rail: battery, draw: { on: 100 mA } }]\nmodes: { on: { l: on } }\nprofile: [{ mode: on, for: 1 h }]\n",
+    );
+    let c = &d.pack.cell;
+    assert!((c.temp_resistance.at(0.0) - (3.0 - 2.0 * 20.0 / 45.0)).abs() < 1e-12);
+    assert!((c.temp_capacity.at(0.0) - 0.8).abs() < 1e-12);
+    // Capacity is held at its coldest row (80 %) below 0 °C; resistance at 300 % below -20 °C.
+    assert!((c.temp_capacity.at(-20.0) - 0.8).abs() < 1e-12);
+    assert!((c.temp_resistance.at(-30.0) - 3.0).abs() < 1e-12);
+}
+
+#[test]
 fn temperature_derates_capacity() {
     // DESIGN section 4: factors linear in temperature between rows, held beyond them. At 2.5 °C,
     // halfway from -20 °C to 25 °C: capacity 80 %, so 0.8 x 2 Ah / 100 mA = 16 h.

@@ -364,6 +364,7 @@ impl Lower<'_> {
         };
         let mut cap = Vec::new();
         let mut res = Vec::new();
+        let mut ats = Vec::new();
         let mut ok = true;
         for (i, row) in rows.iter().enumerate() {
             let p = format!("{path}.temperature[{i}]");
@@ -374,17 +375,24 @@ impl Lower<'_> {
                 Bound::Any,
             );
             let cf = match &row.capacity {
-                None => Some(1.0),
-                Some(q) => self.fraction(q, format_args!("{p}.capacity"), 0.0, false, 2.0),
+                None => Some(None),
+                Some(q) => self
+                    .fraction(q, format_args!("{p}.capacity"), 0.0, false, 2.0)
+                    .map(Some),
             };
             let rf = match &row.resistance {
-                None => Some(1.0),
-                Some(q) => self.fraction(q, format_args!("{p}.resistance"), 0.0, false, 100.0),
+                None => Some(None),
+                Some(q) => self
+                    .fraction(q, format_args!("{p}.resistance"), 0.0, false, 100.0)
+                    .map(Some),
             };
+            // A row that gives one factor only is a point of that factor's table alone: the
+            // other follows its own rows there, not a reset to 100 %.
             match (at, cf, rf) {
                 (Some(t), Some(cf), Some(rf)) => {
-                    cap.push((t, cf));
-                    res.push((t, rf));
+                    ats.push((t, 0.0));
+                    cap.extend(cf.map(|f| (t, f)));
+                    res.extend(rf.map(|f| (t, f)));
                 }
                 _ => ok = false,
             }
@@ -392,8 +400,15 @@ impl Lower<'_> {
         if !ok {
             return None;
         }
-        match (Table::new(cap), Table::new(res)) {
-            (Ok(a), Ok(b)) => Some((a, b)),
+        let table = |points: Vec<(f64, f64)>| {
+            if points.is_empty() {
+                Ok(Table::constant(1.0))
+            } else {
+                Table::new(points)
+            }
+        };
+        match (Table::new(ats), table(cap), table(res)) {
+            (Ok(_), Ok(a), Ok(b)) => Some((a, b)),
             _ => {
                 self.err(
                     &format!("{path}.temperature"),
