@@ -130,9 +130,9 @@ pub(crate) fn read_cell(text: &str) -> Result<(CellSpec, SourceMap), String> {
     if let Some(d) = depth::check(text) {
         return Err(said(vec![d]));
     }
-    let root = yaml::read(text).map_err(said)?;
-    let source = SourceMap::of(&root);
-    match CellSpec::deserialize(&root) {
+    let source = SourceMap::of(yaml::read(text).map_err(said)?);
+    let root = source.tree();
+    match CellSpec::deserialize(root) {
         Ok(cell) => Ok((cell, source)),
         Err(e) => {
             let at = root.at.location().map_or_else(String::new, |l| {
@@ -163,10 +163,10 @@ pub fn parse_with(text: &str, overrides: &[Override]) -> Result<Parsed, Vec<Diag
 
 /// The serde types from the document tree; `replaced` are the paths `--set` gave.
 fn read(
-    root: Node<'_>,
+    root: Node<'static>,
     replaced: Vec<String>,
 ) -> Result<Parsed, (Vec<Diagnostic>, Option<Box<Partial>>)> {
-    let mut source = SourceMap::of(&root);
+    let mut source = SourceMap::of(root);
     source.set_overridden(replaced);
     let mut r = Reader {
         source: &source,
@@ -175,7 +175,7 @@ fn read(
         kept: Vec::new(),
         misspelt: Vec::new(),
     };
-    let spec = r.read_design(root);
+    let spec = r.read_design(source.tree());
     let Reader {
         diags,
         broken,
@@ -265,12 +265,8 @@ impl Reader<'_> {
         None
     }
 
-    fn read_design(&mut self, root: Node<'_>) -> Option<DesignSpec> {
-        let Node {
-            kind: Kind::Map(map),
-            ..
-        } = root
-        else {
+    fn read_design(&mut self, root: &Node<'_>) -> Option<DesignSpec> {
+        let Kind::Map(map) = &root.kind else {
             self.push(
                 "",
                 format!(
@@ -281,7 +277,7 @@ impl Reader<'_> {
             );
             return None;
         };
-        let mut sections: IndexMap<String, Node<'_>> = IndexMap::new();
+        let mut sections: IndexMap<String, &Node<'_>> = IndexMap::new();
         for (k, v) in map {
             let Some(key) = k.as_str().map(str::to_string) else {
                 self.push(
@@ -311,16 +307,16 @@ impl Reader<'_> {
             sections.insert(key, v);
         }
         let design = match sections.shift_remove("design") {
-            Some(v) if !v.is_null() => self.part::<String>("design", &v),
+            Some(v) if !v.is_null() => self.part::<String>("design", v),
             _ => None,
         };
         let ambient = match sections.shift_remove("ambient") {
-            Some(v) if !v.is_null() => self.part::<Qty>("ambient", &v),
+            Some(v) if !v.is_null() => self.part::<Qty>("ambient", v),
             _ => None,
         };
         let cells = self.map_section::<CellSpec>(&mut sections, "cells");
         let battery = match sections.shift_remove("battery") {
-            Some(v) => self.part::<BatterySpec>("battery", &v),
+            Some(v) => self.part::<BatterySpec>("battery", v),
             None if self.broken.iter().any(|b| b == "battery") => None,
             None => {
                 self.push(
@@ -359,10 +355,11 @@ impl Reader<'_> {
 
     fn list_section<T: DeserializeOwned>(
         &mut self,
-        sections: &mut IndexMap<String, Node<'_>>,
+        sections: &mut IndexMap<String, &Node<'_>>,
         name: &'static str,
     ) -> Vec<T> {
-        match sections.shift_remove(name).map(|n| n.kind) {
+        let section = sections.shift_remove(name);
+        match section.map(|n| &n.kind) {
             None | Some(Kind::Null) => Vec::new(),
             Some(Kind::Seq(items)) => {
                 let mut out = Vec::with_capacity(items.len());
@@ -379,13 +376,13 @@ impl Reader<'_> {
                 }
                 out
             }
-            Some(other) => {
+            Some(_) => {
                 self.broken.push(name.to_string());
                 self.push(
                     name,
                     format!(
                         "`{name}` must be a list (items starting with `- `), found {}",
-                        Node::detached(other).describe()
+                        section.map(Node::describe).unwrap_or_default()
                     ),
                     Some(format!(
                         "write each item of `{name}` on a line starting with `- `"
@@ -398,11 +395,12 @@ impl Reader<'_> {
 
     fn map_section<T: DeserializeOwned>(
         &mut self,
-        sections: &mut IndexMap<String, Node<'_>>,
+        sections: &mut IndexMap<String, &Node<'_>>,
         name: &str,
     ) -> IndexMap<String, T> {
         let mut out = IndexMap::new();
-        match sections.shift_remove(name).map(|n| n.kind) {
+        let section = sections.shift_remove(name);
+        match section.map(|n| &n.kind) {
             None | Some(Kind::Null) => {}
             Some(Kind::Map(m)) => {
                 for (k, v) in m {
@@ -417,7 +415,7 @@ impl Reader<'_> {
                         );
                         continue;
                     };
-                    match self.part::<T>(format_args!("{name}.{key}"), &v) {
+                    match self.part::<T>(format_args!("{name}.{key}"), v) {
                         Some(t) => {
                             out.insert(key, t);
                         }
@@ -425,11 +423,11 @@ impl Reader<'_> {
                     }
                 }
             }
-            Some(other) => self.push_broken(
+            Some(_) => self.push_broken(
                 name,
                 format!(
                     "`{name}` must be a mapping of names, found {}",
-                    Node::detached(other).describe()
+                    section.map(Node::describe).unwrap_or_default()
                 ),
                 Some(format!(
                     "write each entry of `{name}` as `NAME: ...` on its own indented line"

@@ -141,31 +141,18 @@ impl<'a> Node<'a> {
         }
     }
 
-    /// A copy that owns its text.
-    pub(crate) fn owned(&self) -> Node<'static> {
-        self.copy(false)
-    }
-
     /// A copy that owns its text, with no place (see [`Mark::NONE`]): a `--set` value.
     pub(crate) fn detach(&self) -> Node<'static> {
-        self.copy(true)
-    }
-
-    fn copy(&self, clear: bool) -> Node<'static> {
         let kind = match &self.kind {
             Kind::Null => Kind::Null,
             Kind::Bool(b) => Kind::Bool(*b),
             Kind::Number(n) => Kind::Number(*n),
             Kind::Str(s) => Kind::Str(Cow::Owned(s.to_string())),
-            Kind::Seq(items) => Kind::Seq(items.iter().map(|x| x.copy(clear)).collect()),
-            Kind::Map(m) => Kind::Map(
-                m.iter()
-                    .map(|(k, v)| (k.copy(clear), v.copy(clear)))
-                    .collect(),
-            ),
+            Kind::Seq(items) => Kind::Seq(items.iter().map(Node::detach).collect()),
+            Kind::Map(m) => Kind::Map(m.iter().map(|(k, v)| (k.detach(), v.detach())).collect()),
             Kind::Tagged => Kind::Tagged,
         };
-        Node::new(kind, if clear { Mark::NONE } else { self.at })
+        Node::detached(kind)
     }
 }
 

@@ -1,81 +1,41 @@
-//! Where each value of a design sits: YAML paths (`stages[2].input`) to line and column, taken
+//! Where each value of a design sits: YAML paths (`stages[2].input`) to line and column, read
 //! from the places the reader gave every node of the tree. serde gives no places; this index lets
 //! every later check (the checker's messages) name its place too.
+
+use std::borrow::Cow;
 
 use super::node::{Kind, Mark, Node};
 use super::yaml::key_text;
 use crate::error::Location;
 
-/// Line and column of every value (and every mapping key) in a document, by YAML path.
-#[derive(Debug, Default, Clone)]
+/// Line and column of every value (and every mapping key) in a document, by YAML path: the
+/// document's tree itself, kept after the serde types were read from it (a place is looked up
+/// only for a message, by walking down the path).
+#[derive(Debug, Clone)]
 pub struct SourceMap {
-    /// The tree's skeleton, breadth first: the children of a node are next to each other.
-    places: Vec<Place>,
-    /// The mapping keys, one after another (each [`Place::key`] is a range of it).
-    keys: String,
+    root: Node<'static>,
     overridden: Vec<String>,
 }
 
-#[derive(Debug, Clone, Copy)]
-struct Place {
-    at: Mark,
-    /// Where its key is written, for an entry of a mapping.
-    key_at: Mark,
-    /// Its key in [`SourceMap::keys`], for an entry of a mapping.
-    key: (u32, u32),
-    /// Its children in [`SourceMap::places`]: first and count.
-    children: (u32, u32),
-    /// A list, whose children are found by index (else a mapping or a scalar).
-    list: bool,
+impl Default for SourceMap {
+    /// No places at all.
+    fn default() -> Self {
+        Self::of(Node::detached(Kind::Null))
+    }
 }
 
 impl SourceMap {
     /// The places of the tree `root`.
-    pub(crate) fn of(root: &Node<'_>) -> Self {
-        let mut map = Self::default();
-        let place = |at, key_at, key| Place {
-            at,
-            key_at,
-            key,
-            children: (0, 0),
-            list: false,
-        };
-        map.places.push(place(root.at, Mark::NONE, (0, 0)));
-        // Breadth first: the nodes whose children are still to be laid out, in order.
-        let mut queue = std::collections::VecDeque::from([root]);
-        let mut i = 0;
-        while let Some(node) = queue.pop_front() {
-            let first = u32::try_from(map.places.len()).unwrap_or(u32::MAX);
-            match &node.kind {
-                Kind::Seq(items) => {
-                    map.places[i].list = true;
-                    for x in items {
-                        map.places.push(place(x.at, Mark::NONE, (0, 0)));
-                        queue.push_back(x);
-                    }
-                }
-                Kind::Map(entries) => {
-                    for (k, v) in entries {
-                        let start = map.keys.len();
-                        match &k.kind {
-                            Kind::Str(s) => map.keys.push_str(s),
-                            _ => map.keys.push_str(&key_text(k)),
-                        }
-                        let range = (
-                            u32::try_from(start).unwrap_or(u32::MAX),
-                            u32::try_from(map.keys.len() - start).unwrap_or(0),
-                        );
-                        map.places.push(place(v.at, k.at, range));
-                        queue.push_back(v);
-                    }
-                }
-                _ => {}
-            }
-            let last = u32::try_from(map.places.len()).unwrap_or(u32::MAX);
-            map.places[i].children = (first, last - first);
-            i += 1;
+    pub(crate) fn of(root: Node<'static>) -> Self {
+        Self {
+            root,
+            overridden: Vec::new(),
         }
-        map
+    }
+
+    /// The document's tree.
+    pub(crate) fn tree(&self) -> &Node<'static> {
+        &self.root
     }
 
     /// Mark values replaced by `--set` (index-form paths): they have no place in the file.
@@ -93,58 +53,58 @@ impl SourceMap {
         })
     }
 
-    fn key_of(&self, p: &Place) -> &str {
-        let (start, len) = (p.key.0 as usize, p.key.1 as usize);
-        self.keys.get(start..start + len).unwrap_or("")
-    }
-
-    /// The place of the node at `path` (`""` for the document).
-    fn find(&self, path: &str) -> Option<&Place> {
-        let mut p = self.places.first()?;
+    /// The node at `path` (`""` for the document) and where its key is written.
+    fn find(&self, path: &str) -> Option<(&Node<'static>, Mark)> {
+        let mut node = &self.root;
+        let mut key_at = Mark::NONE;
         let mut rest = path;
         let mut top = true;
         while !rest.is_empty() {
-            let (first, count) = (p.children.0 as usize, p.children.1 as usize);
-            let children = self.places.get(first..first + count)?;
             if let Some(r) = rest.strip_prefix('[') {
                 let (index, after) = r.split_once(']')?;
-                if !p.list {
+                let Kind::Seq(items) = &node.kind else {
                     return None;
-                }
-                p = children.get(index.parse::<usize>().ok()?)?;
+                };
+                node = items.get(index.parse::<usize>().ok()?)?;
+                key_at = Mark::NONE;
                 rest = after;
                 top = false;
                 continue;
             }
-            if p.list {
+            let Kind::Map(entries) = &node.kind else {
                 return None;
-            }
+            };
             // A key, after the `.` that follows a parent's key or index.
             let r = if top { rest } else { rest.strip_prefix('.')? };
             // The longest key that fits: `a.b` before `a` (keys may hold dots).
-            let (child, after) = children
+            let (k, v, after) = entries
                 .iter()
-                .filter_map(|c| {
-                    let after = r.strip_prefix(self.key_of(c))?;
-                    (after.is_empty() || after.starts_with(['.', '['])).then_some((c, after))
+                .filter_map(|(k, v)| {
+                    let name = match &k.kind {
+                        Kind::Str(s) => Cow::Borrowed(s.as_ref()),
+                        _ => Cow::Owned(key_text(k)),
+                    };
+                    let after = r.strip_prefix(name.as_ref())?;
+                    (after.is_empty() || after.starts_with(['.', '['])).then_some((k, v, after))
                 })
-                .min_by_key(|(_, after)| after.len())?;
-            p = child;
+                .min_by_key(|(_, _, after)| after.len())?;
+            node = v;
+            key_at = k.at;
             rest = after;
             top = false;
         }
-        Some(p)
+        Some((node, key_at))
     }
 
     /// Where the value at `path` starts.
     pub fn value(&self, path: &str) -> Option<Location> {
-        self.find(path).and_then(|p| p.at.location())
+        self.find(path).and_then(|(n, _)| n.at.location())
     }
 
     /// Where the key of the mapping entry at `path` is written (its value's place if unknown).
     pub fn key(&self, path: &str) -> Option<Location> {
         self.find(path)
-            .and_then(|p| p.key_at.location().or(p.at.location()))
+            .and_then(|(n, key_at)| key_at.location().or(n.at.location()))
     }
 
     /// The place of `path`, or of its nearest ancestor that has one (none for a value set on the
@@ -170,7 +130,7 @@ mod tests {
     use crate::spec::yaml::read;
 
     fn map(text: &str) -> SourceMap {
-        SourceMap::of(&read(text).unwrap())
+        SourceMap::of(read(text).unwrap())
     }
 
     #[test]

@@ -36,20 +36,15 @@ const SHORT_MAP: usize = 16;
 ///
 /// A syntax error, a second document, a key given twice in a mapping (each one), an alias that
 /// is unknown, contains itself or copies too much; each with its place.
-pub(crate) fn read(text: &str) -> Result<Node<'_>, Vec<Diagnostic>> {
+pub(crate) fn read(text: &str) -> Result<Node<'static>, Vec<Diagnostic>> {
     match build(text) {
         Err(Failure::Syntax(e)) if tab_after_colon(&e) => {
             // `key:<tab>value`: YAML 1.2 allows a tab there, the parser does not. The same text
             // with such tabs made spaces (one character each: every place stays).
             let spaced = tabs_after_colons(text);
-            match build(&spaced) {
-                // The copy is dropped here: the tree owns its text.
-                Ok(root) => Ok(root.owned()),
-                Err(f) => Err(f.words(text)),
-            }
+            build(&spaced).map_err(|f| f.words(text))
         }
-        Ok(root) => Ok(root),
-        Err(f) => Err(f.words(text)),
+        result => result.map_err(|f| f.words(text)),
     }
 }
 
@@ -141,10 +136,14 @@ struct Frame<'a> {
     body: Body<'a>,
 }
 
+/// What a collection holds so far: its items (or entries) are those of the builder's shared
+/// stack from `start` on, moved into a list of their own, exactly sized, when it ends.
 enum Body<'a> {
-    Seq(Vec<Node<'a>>),
+    Seq {
+        start: usize,
+    },
     Map {
-        entries: Vec<(Node<'a>, Node<'a>)>,
+        start: usize,
         /// The key read, waiting for its value.
         key: Option<Node<'a>>,
         /// The text keys, once the mapping is long.
@@ -161,6 +160,10 @@ struct Done<'a> {
 
 struct Builder<'a> {
     stack: Vec<Frame<'a>>,
+    /// The items of the lists being read, innermost last.
+    items: Vec<Node<'a>>,
+    /// The entries of the mappings being read, innermost last.
+    entries: Vec<(Node<'a>, Node<'a>)>,
     /// Anchored values by anchor id, with size and height.
     anchors: FastMap<usize, (Node<'a>, usize, usize)>,
     /// Nodes copied by aliases so far.
@@ -169,11 +172,14 @@ struct Builder<'a> {
     found: Vec<Diagnostic>,
 }
 
-/// The events of `text` into a tree.
-fn build(text: &str) -> Result<Node<'_>, Failure> {
+/// The events of `text` into a tree. The tree owns its text: the parser copies nearly every
+/// scalar anyway, and the tree outlives the text as the design's [`super::SourceMap`].
+fn build(text: &str) -> Result<Node<'static>, Failure> {
     let mut parser = Parser::new_from_str(text);
     let mut b = Builder {
         stack: Vec::new(),
+        items: Vec::new(),
+        entries: Vec::new(),
         anchors: FastMap::default(),
         copied: 0,
         root: None,
@@ -204,6 +210,7 @@ fn build(text: &str) -> Result<Node<'_>, Failure> {
                 }
             }
             Event::Scalar(value, style, anchor, tag) => {
+                let value = Cow::Owned(value.into_owned());
                 let kind = match tag {
                     None if style == ScalarStyle::Plain => resolve(value),
                     None => Kind::Str(value),
@@ -239,10 +246,12 @@ impl<'a> Builder<'a> {
             !(t.is_yaml_core_schema() && t.suffix == if seq { "seq" } else { "map" })
         });
         let body = if seq {
-            Body::Seq(Vec::new())
+            Body::Seq {
+                start: self.items.len(),
+            }
         } else {
             Body::Map {
-                entries: Vec::new(),
+                start: self.entries.len(),
                 key: None,
                 seen: None,
             }
@@ -262,15 +271,12 @@ impl<'a> Builder<'a> {
         let Some(f) = self.stack.pop() else {
             return;
         };
-        let kind = if f.tagged {
-            Kind::Tagged
-        } else {
-            match f.body {
-                Body::Seq(items) => Kind::Seq(items),
-                // A key without its value cannot reach here: the parser gives every key one.
-                Body::Map { entries, .. } => Kind::Map(entries),
-            }
+        let kind = match f.body {
+            Body::Seq { start } => Kind::Seq(self.items.drain(start..).collect()),
+            // A key without its value cannot reach here: the parser gives every key one.
+            Body::Map { start, .. } => Kind::Map(self.entries.drain(start..).collect()),
         };
+        let kind = if f.tagged { Kind::Tagged } else { kind };
         let node = Node::new(kind, f.at);
         if f.anchor > 0 {
             self.anchors
@@ -337,16 +343,16 @@ impl<'a> Builder<'a> {
         f.size += done.size;
         f.height = f.height.max(done.height + 1);
         let (k, first) = match &mut f.body {
-            Body::Seq(items) => return items.push(done.node),
+            Body::Seq { .. } => return self.items.push(done.node),
             Body::Map {
                 key: key @ None, ..
             } => return *key = Some(done.node),
-            Body::Map { entries, key, seen } => {
+            Body::Map { start, key, seen } => {
                 let k = key
                     .take()
                     .unwrap_or_else(|| Node::new(Kind::Null, Mark::NONE));
-                match repeated(entries, seen, &k) {
-                    None => return entries.push((k, done.node)),
+                match repeated(&self.entries[*start..], seen, &k) {
+                    None => return self.entries.push((k, done.node)),
                     Some(first) => (k, first),
                 }
             }
@@ -375,10 +381,18 @@ impl<'a> Builder<'a> {
     /// The YAML path of the collection being read (`stages[2]`), for messages.
     fn path(&self) -> String {
         let mut p = String::new();
-        for f in &self.stack {
+        for (i, f) in self.stack.iter().enumerate() {
             match &f.body {
-                Body::Seq(items) => {
-                    let _ = write!(p, "[{}]", items.len());
+                Body::Seq { start } => {
+                    // Its items end where those of the next list inside it start.
+                    let end = self.stack[i + 1..]
+                        .iter()
+                        .find_map(|g| match g.body {
+                            Body::Seq { start } => Some(start),
+                            Body::Map { .. } => None,
+                        })
+                        .unwrap_or(self.items.len());
+                    let _ = write!(p, "[{}]", end - start);
                 }
                 Body::Map { key: Some(k), .. } => {
                     if !p.is_empty() {
@@ -697,6 +711,9 @@ mod tests {
         let m = messages(&long);
         assert_eq!(m.len(), 2, "{m:?}");
         assert!(m[0].contains("`k7`") && m[1].contains("`1`"), "{m:?}");
+        // The path names lists by index.
+        let e = read("a:\n  - x: 1\n  - [1, { y: 1, y: 2 }]\n").unwrap_err();
+        assert_eq!(e[0].path(), "a[1][1].y");
         // Text and number are different keys.
         assert!(messages("'1': a\n1: b\n").is_empty());
     }
