@@ -37,6 +37,9 @@ const SHORT_MAP: usize = 16;
 /// A syntax error, a second document, a key given twice in a mapping (each one), an alias that
 /// is unknown, contains itself or copies too much; each with its place.
 pub(crate) fn read(text: &str) -> Result<Node<'static>, Vec<Diagnostic>> {
+    if let Some(d) = control_character(text) {
+        return Err(vec![d]);
+    }
     match build(text) {
         Err(Failure::Syntax(e)) if tab_after_colon(&e) => {
             // `key:<tab>value`: YAML 1.2 allows a tab there, the parser does not. The same text
@@ -79,9 +82,64 @@ fn syntax_error(text: &str, e: &ScanError) -> Diagnostic {
                 .at(Some(bracket));
         }
     }
+    if e.info().contains("tab") {
+        if let Some(tab) = tab_in_indentation(text, at.line) {
+            return Diagnostic::new("", "the file is not valid YAML: a tab in the indentation")
+                .with_hint("indent with spaces only")
+                .at(Some(tab));
+        }
+    }
     Diagnostic::new("", format!("the file is not valid YAML: {}", e.info()))
         .with_hint("check the indentation and the brackets near that place")
         .at(Some(at))
+}
+
+/// The first character YAML does not allow in a file (a control character other than tab and
+/// line breaks, DEL, C1 controls but NEL, U+FFFE, U+FFFF), at its place; the parser would take
+/// some of them into a scalar.
+fn control_character(text: &str) -> Option<Diagnostic> {
+    let allowed = |c: char| {
+        matches!(c, '\t' | '\n' | '\r' | '\u{85}')
+            || !(c.is_control() || c == '\u{fffe}' || c == '\u{ffff}')
+    };
+    // Bytes first: C1 controls start with 0xC2 and U+FFFE, U+FFFF with 0xEF; only a text
+    // with such bytes (`µ` and `°` among them) is looked at by characters.
+    if text.bytes().all(|b| {
+        (b >= 0x20 && b != 0x7f && b != 0xc2 && b != 0xef) || matches!(b, b'\t' | b'\n' | b'\r')
+    }) {
+        return None;
+    }
+    let (at, c) = text.char_indices().find(|&(_, c)| !allowed(c))?;
+    let line = text[..at].matches('\n').count() + 1;
+    let start = text[..at].rfind('\n').map_or(0, |i| i + 1);
+    let col = text[start..at].chars().count() + 1;
+    Some(
+        Diagnostic::new(
+            "",
+            format!(
+                "the file is not valid YAML: it holds the control character U+{:04X}",
+                u32::from(c)
+            ),
+        )
+        .with_hint("remove it; a design file is plain text")
+        .at_line_col(line, col),
+    )
+}
+
+/// A tab in the indentation of a line at or after line `from` (the parser may name the line
+/// before): its place.
+fn tab_in_indentation(text: &str, from: usize) -> Option<Location> {
+    text.split('\n')
+        .enumerate()
+        .skip(from.saturating_sub(1))
+        .find_map(|(n, line)| {
+            let indent = line.len() - line.trim_start_matches([' ', '\t']).len();
+            let col = line[..indent].find('\t')?;
+            Some(Location {
+                line: n + 1,
+                col: col + 1,
+            })
+        })
 }
 
 /// The parser's place: its lines count from 1, its columns (characters) from 0.
@@ -790,6 +848,20 @@ mod tests {
             messages("a: [1, 2\nb: 3\n"),
             ["the file is not valid YAML: this `[` is never closed @1:4"]
         );
+        // A tab in the indentation and a control character, at their places.
+        assert_eq!(
+            messages("a:\n  b: c\n\tx: 1\n"),
+            ["the file is not valid YAML: a tab in the indentation @3:1"]
+        );
+        assert_eq!(
+            messages("a: 1\nb: x\u{1}y\n"),
+            ["the file is not valid YAML: it holds the control character U+0001 @2:5"]
+        );
+        assert_eq!(
+            messages("a: µ\u{9f}\n"),
+            ["the file is not valid YAML: it holds the control character U+009F @1:5"]
+        );
+        assert!(messages("a: \u{85}x\u{e9}\n").is_empty());
         // Other syntax errors in the parser's words, at its place.
         let m = messages("a: b: c\n");
         assert!(m[0].starts_with("the file is not valid YAML: "), "{m:?}");
