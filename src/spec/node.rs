@@ -1,6 +1,6 @@
 //! The document tree the serde types are read from: scalars, lists and mappings, each node with
-//! the place in the file where it starts, and text borrowed from the file where the YAML reader
-//! could (`yaml.rs` builds the tree; `source.rs` indexes its places by YAML path).
+//! the place in the file where it starts (`yaml.rs` builds the tree; `source.rs` keeps it to find
+//! the place of a YAML path).
 
 use std::borrow::Cow;
 use std::fmt;

@@ -6,7 +6,8 @@
 //! it is the one place where:
 //! - plain scalars are resolved ([`resolve`]: `~`, `true`, `0x1f`, `1.5`, `.inf`, ...);
 //! - aliases are copied, within a bound ([`ALIAS_NODES`]) so that an alias bomb cannot take the
-//!   memory, and never deeper than the nesting bound of `depth.rs`;
+//!   memory, and never deeper than the nesting bound of `depth.rs`; the copies kept for anchors
+//!   are bounded too ([`ANCHOR_NODES`]);
 //! - a key given twice in one mapping, a second document and a syntax error are worded, each at
 //!   its place.
 
@@ -25,6 +26,10 @@ use crate::hash::{FastMap, FastSet};
 /// shares a curve through an anchor copies a few dozen; an alias bomb (each anchor a list of
 /// aliases to the one before) would copy billions. Common practice, no source.
 pub(crate) const ALIAS_NODES: usize = 100_000;
+
+/// The most nodes that the anchors of one document may hold together (each anchored value is
+/// kept as a copy for its aliases). Common practice, no source.
+pub(crate) const ANCHOR_NODES: usize = 200_000;
 
 /// Mappings with more entries than this look for a repeated key through a hash set.
 const SHORT_MAP: usize = 16;
@@ -226,6 +231,8 @@ struct Builder<'a> {
     anchors: FastMap<usize, (Node<'a>, usize, usize)>,
     /// Nodes copied by aliases so far.
     copied: usize,
+    /// Nodes kept for anchors so far.
+    anchored: usize,
     root: Option<Done<'a>>,
     found: Vec<Diagnostic>,
 }
@@ -240,6 +247,7 @@ fn build(text: &str) -> Result<Node<'static>, Failure> {
         entries: Vec::new(),
         anchors: FastMap::default(),
         copied: 0,
+        anchored: 0,
         root: None,
         found: Vec::new(),
     };
@@ -276,7 +284,7 @@ fn build(text: &str) -> Result<Node<'static>, Failure> {
                 };
                 let node = Node::new(kind, at);
                 if anchor > 0 {
-                    b.anchors.insert(anchor, (node.clone(), 1, 0));
+                    b.anchor(anchor, &node, 1, 0)?;
                 }
                 b.finish(Done {
                     node,
@@ -286,7 +294,7 @@ fn build(text: &str) -> Result<Node<'static>, Failure> {
             }
             Event::SequenceStart(anchor, tag) => b.open(at, anchor, tag.as_deref(), true),
             Event::MappingStart(anchor, tag) => b.open(at, anchor, tag.as_deref(), false),
-            Event::SequenceEnd | Event::MappingEnd => b.close(),
+            Event::SequenceEnd | Event::MappingEnd => b.close()?,
             Event::Alias(id) => b.alias(id, at)?,
         }
     }
@@ -325,9 +333,9 @@ impl<'a> Builder<'a> {
     }
 
     /// The innermost collection ends.
-    fn close(&mut self) {
+    fn close(&mut self) -> Result<(), Failure> {
         let Some(f) = self.stack.pop() else {
-            return;
+            return Ok(());
         };
         let kind = match f.body {
             Body::Seq { start } => Kind::Seq(self.items.drain(start..).collect()),
@@ -337,14 +345,41 @@ impl<'a> Builder<'a> {
         let kind = if f.tagged { Kind::Tagged } else { kind };
         let node = Node::new(kind, f.at);
         if f.anchor > 0 {
-            self.anchors
-                .insert(f.anchor, (node.clone(), f.size, f.height));
+            self.anchor(f.anchor, &node, f.size, f.height)?;
         }
         self.finish(Done {
             node,
             size: f.size,
             height: f.height,
         });
+        Ok(())
+    }
+
+    /// Keep a copy of the anchored value `node` for its aliases; the copies together are held
+    /// to [`ANCHOR_NODES`] (a file anchoring every level of a deep nest would copy each level
+    /// once per anchor above it).
+    fn anchor(
+        &mut self,
+        id: usize,
+        node: &Node<'a>,
+        size: usize,
+        height: usize,
+    ) -> Result<(), Failure> {
+        self.anchored += size;
+        if self.anchored > ANCHOR_NODES {
+            return Err(Failure::Found(vec![
+                Diagnostic::new(
+                    self.path(),
+                    format!(
+                        "the anchors (`&name`) of this file hold more than {ANCHOR_NODES} values"
+                    ),
+                )
+                .with_hint("anchor only the values that an alias repeats")
+                .at(node.at.location()),
+            ]));
+        }
+        self.anchors.insert(id, (node.clone(), size, height));
+        Ok(())
     }
 
     /// A copy of the anchored value `id` at `at`.
@@ -809,6 +844,15 @@ mod tests {
             m.iter().any(|x| x.contains("nests the file too deep")),
             "{m:?}"
         );
+        // Anchors on every level of a deep nest, each copied once per anchor above it.
+        let mut nest = String::from("a: ");
+        for _ in 0..90 {
+            nest.push_str("&x [");
+        }
+        nest.push_str(&"1, ".repeat(5000));
+        nest.push_str(&"]".repeat(90));
+        let m = messages(&nest);
+        assert!(m[0].contains("hold more than 200000 values"), "{m:?}");
         // Unknown anchors are the parser's syntax errors.
         assert!(messages("a: *nowhere\n")[0].starts_with("the file is not valid YAML"));
     }
