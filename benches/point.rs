@@ -3,8 +3,9 @@
 //! For each size it measures the time to read, check and build the design
 //! (`Design::from_text`), the time to solve one operating point of every mode (`solve_point`),
 //! and the memory both take, then prints a table and PASS/FAIL lines against the targets:
-//! at 1,000 stages and 10,000 loads, read + check + build under 100 ms, one operating point
-//! under 10 ms, and memory linear in the size of the tree.
+//! at 1,000 stages and 10,000 loads, read + check + build under 300 ms (the bound set for the
+//! YAML reader, which gives every node its place; `benches/read.rs` also times it on CPU), one
+//! operating point under 10 ms, and memory linear in the size of the tree.
 //!
 //! Memory: the package forbids `unsafe` code (`[lints]` in Cargo.toml applies to benches too),
 //! so a counting global allocator cannot be written here. Instead each size is measured in a
@@ -39,7 +40,7 @@ const SIZES: [usize; 4] = [100, 300, 1000, 3000];
 /// The size the targets are judged at.
 const TARGET_N: usize = 1000;
 /// Read + check + build target.
-const TARGET_PARSE_MS: f64 = 100.0;
+const TARGET_PARSE_MS: f64 = 300.0;
 /// One operating point target.
 const TARGET_POINT_MS: f64 = 10.0;
 /// Bytes per stage at the largest size may be at most this many times those at 300 stages.

@@ -600,7 +600,7 @@ fn errors_are_well_formed(text: &str) -> Result<(), TestCaseError> {
             prop_assert!(!d.message().is_empty());
             if let Some(l) = d.location() {
                 prop_assert!(l.line >= 1 && l.col >= 1, "{:?}", l);
-                // serde_yaml may point one line past the end at an unexpected end of input.
+                // The parser may point one line past the end at an unexpected end of input.
                 prop_assert!(l.line <= lines + 1, "line {} of {lines}: {d}", l.line);
             }
         }

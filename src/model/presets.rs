@@ -6,7 +6,7 @@
 use super::lower;
 use super::pack::{Cell, Chemistry};
 use crate::error::{Diagnostic, Error, did_you_mean};
-use crate::spec::{CellSpec, SourceMap, backticked};
+use crate::spec::{CellSpec, SourceMap, backticked, read_cell};
 
 /// Every built-in preset as (name, text of `presets/NAME.yaml`), in the order
 /// `joulepath cells` lists them.
@@ -99,8 +99,8 @@ impl Preset {
                     .with_hint(Self::suggestion(name)),
             ));
         };
-        let spec = spec_of(name, text).map_err(|m| Error::single(Diagnostic::new("", m)))?;
-        let source = SourceMap::build(text);
+        let (spec, source) =
+            spec_of(name, text).map_err(|m| Error::single(Diagnostic::new("", m)))?;
         let cell = lower::lone_cell(name, &spec, &source).map_err(|ds| {
             let file = format!("presets/{name}.yaml");
             Error::Invalid(
@@ -199,18 +199,19 @@ pub(super) fn spec(name: &str) -> Option<Result<CellSpec, String>> {
     PRESETS
         .iter()
         .find(|p| p.0 == name)
-        .map(|&(name, text)| spec_of(name, text))
+        .map(|&(name, text)| spec_of(name, text).map(|(spec, _)| spec))
 }
 
-fn spec_of(name: &str, text: &str) -> Result<CellSpec, String> {
-    let spec = CellSpec::from_yaml(text)
-        .map_err(|e| format!("the built-in preset `{name}` cannot be read: {e}"))?;
+/// The cell of a preset's text and the places of its values.
+fn spec_of(name: &str, text: &str) -> Result<(CellSpec, SourceMap), String> {
+    let (spec, source) =
+        read_cell(text).map_err(|e| format!("the built-in preset `{name}` cannot be read: {e}"))?;
     if spec.preset.is_some() {
         return Err(format!(
             "the built-in preset `{name}` names a `preset:` of its own; a preset gives every key itself"
         ));
     }
-    Ok(spec)
+    Ok((spec, source))
 }
 
 #[cfg(test)]

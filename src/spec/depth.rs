@@ -1,8 +1,9 @@
-//! A bound on how deeply a file nests lists and mappings, checked on the text before any YAML
-//! reader sees it. The readers and the serde types recurse once per level: a file nesting
-//! brackets forty thousand deep would overflow the stack, and the full parser takes time
-//! quadratic in the depth. The scan is linear, independent of the reader, and errs on the side of
-//! counting a level too many (a design file needs about a dozen).
+//! A bound on how deeply a file nests lists and mappings, checked on the text before the YAML
+//! reader sees it. The parser and the serde types recurse once per level: a file nesting
+//! brackets forty thousand deep would overflow the stack. The scan is linear, independent of the
+//! reader, and errs on the side of counting a level too many (a design file needs about a
+//! dozen). The same scan finds a flow bracket that does not match, for the words of a syntax
+//! error ([`unmatched_bracket`]).
 
 use crate::error::{Diagnostic, Location};
 
@@ -11,13 +12,20 @@ use crate::error::{Diagnostic, Location};
 /// 40; common practice, no source, for the margin above that.
 pub(crate) const MAX_DEPTH: usize = 100;
 
+/// A flow bracket: itself, its line (from 0) and byte offset in the line.
+type Bracket = (u8, usize, usize);
+
 /// The scanner's state between lines.
 #[derive(Default)]
 struct Scan {
     /// Columns (bytes) of the open block levels, and whether each is a list.
     indents: Vec<(usize, bool)>,
-    /// Open flow brackets.
-    flow: usize,
+    /// Open flow brackets: the bracket, its line (from 0) and byte offset in that line.
+    flow: Vec<Bracket>,
+    /// The line being scanned (from 0).
+    line_no: usize,
+    /// The first closing bracket of the other kind than the open one, and the open bracket.
+    mismatch: Option<(Bracket, Bracket)>,
     /// An open quoted scalar (`'` or `"`), which may span lines.
     quote: Option<u8>,
     /// The indentation of a line that opened a block scalar (`|`, `>`): deeper lines are text.
@@ -29,6 +37,7 @@ pub(crate) fn check(text: &str) -> Option<Diagnostic> {
     let mut s = Scan::default();
     for (n, raw) in text.split('\n').enumerate() {
         let line = raw.strip_suffix('\r').unwrap_or(raw);
+        s.line_no = n;
         if let Some(at) = s.line(line.as_bytes()) {
             let col = line[..at].chars().count() + 1;
             return Some(too_deep(Location { line: n + 1, col }));
@@ -51,13 +60,57 @@ fn too_deep(at: Location) -> Diagnostic {
     .at(Some(at))
 }
 
+/// The first flow bracket of `text` that closes one of the other kind (`[1, 2}`), else the
+/// innermost one never closed: its place, what is wrong, and the fix. For the words of a syntax
+/// error, which the parser often notices only lines after the bracket.
+pub(crate) fn unmatched_bracket(text: &str) -> Option<(Location, String, String)> {
+    let lines: Vec<&str> = text
+        .split('\n')
+        .map(|l| l.strip_suffix('\r').unwrap_or(l))
+        .collect();
+    let mut s = Scan::default();
+    for (n, line) in lines.iter().enumerate() {
+        s.line_no = n;
+        // Too deep: `check` has its own words for that.
+        if s.line(line.as_bytes()).is_some() {
+            return None;
+        }
+        if s.mismatch.is_some() {
+            break;
+        }
+    }
+    let place = |line: usize, at: usize| Location {
+        line: line + 1,
+        col: lines[line][..at].chars().count() + 1,
+    };
+    let fix = "close each `[` with `]` and each `{` with `}`".to_string();
+    if let Some(((close, cl, ca), (open, ol, oa))) = s.mismatch {
+        let o = place(ol, oa);
+        return Some((
+            place(cl, ca),
+            format!(
+                "this `{}` does not close the `{}` opened at line {}, column {}",
+                close as char, open as char, o.line, o.col
+            ),
+            fix,
+        ));
+    }
+    let &(open, ol, oa) = s.flow.last()?;
+    let closing = if open == b'[' { ']' } else { '}' };
+    Some((
+        place(ol, oa),
+        format!("this `{}` is never closed", open as char),
+        format!("close it with `{closing}` where its items end"),
+    ))
+}
+
 fn is_blank(c: u8) -> bool {
     c == b' ' || c == b'\t'
 }
 
 impl Scan {
     fn depth(&self) -> usize {
-        self.indents.len() + self.flow
+        self.indents.len() + self.flow.len()
     }
 
     /// Scan one line; the byte offset where the depth passes the limit, if it does.
@@ -69,7 +122,7 @@ impl Scan {
             }
             self.block_scalar = None;
         }
-        if self.quote.is_some() || self.flow > 0 {
+        if self.quote.is_some() || !self.flow.is_empty() {
             return self.rest(b, 0, indent, false);
         }
         let content = &b[indent..];
@@ -136,23 +189,26 @@ impl Scan {
             }
             match c {
                 b'#' if at == 0 || is_blank(b[at - 1]) => return None,
-                b'[' | b'{' if start || self.flow > 0 => {
-                    self.flow += 1;
+                b'[' | b'{' if start || !self.flow.is_empty() => {
+                    self.flow.push((c, self.line_no, at));
                     if self.depth() > MAX_DEPTH {
                         return Some(at);
                     }
                     start = true;
                 }
-                b']' | b'}' if self.flow > 0 => {
-                    self.flow -= 1;
+                b']' | b'}' if !self.flow.is_empty() => {
+                    let open = self.flow.pop().unwrap_or_default();
+                    if (open.0 == b'[') != (c == b']') && self.mismatch.is_none() {
+                        self.mismatch = Some(((c, self.line_no, at), open));
+                    }
                     start = false;
                 }
-                b',' if self.flow > 0 => start = true,
-                b':' if self.flow > 0 || b.get(at + 1).is_none_or(|&x| is_blank(x)) => {
+                b',' if !self.flow.is_empty() => start = true,
+                b':' if !self.flow.is_empty() || b.get(at + 1).is_none_or(|&x| is_blank(x)) => {
                     start = true;
                 }
                 b'\'' | b'"' if start => self.quote = Some(c),
-                b'|' | b'>' if start && self.flow == 0 => {
+                b'|' | b'>' if start && self.flow.is_empty() => {
                     self.block_scalar = Some(indent);
                     return None;
                 }

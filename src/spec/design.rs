@@ -5,6 +5,7 @@ use indexmap::IndexMap;
 use schemars::JsonSchema;
 use serde::Deserialize;
 
+use super::node::{Kind, Node, reread};
 use super::qty::{Efficiency, Qty, ResistanceSpec};
 use super::tolerance::ToleranceSpec;
 
@@ -122,9 +123,9 @@ impl CellSpec {
     ///
     /// # Errors
     ///
-    /// The YAML parser's message, with its line and column, when the text is not such a cell.
+    /// The reader's message, with its line and column, when the text is not such a cell.
     pub fn from_yaml(text: &str) -> Result<Self, String> {
-        serde_yaml::from_str(text).map_err(|e| e.to_string())
+        super::read_cell(text).map(|(cell, _)| cell)
     }
 }
 
@@ -164,15 +165,13 @@ pub enum CellRef {
 
 impl<'de> Deserialize<'de> for CellRef {
     fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
-        let v = serde_yaml::Value::deserialize(d)?;
-        match v {
-            serde_yaml::Value::String(s) => Ok(CellRef::Name(s)),
-            serde_yaml::Value::Mapping(_) => serde_yaml::from_value(v)
-                .map(|c| CellRef::Inline(Box::new(c)))
-                .map_err(serde::de::Error::custom),
-            other => Err(serde::de::Error::custom(format!(
+        let v = Node::deserialize(d)?;
+        match &v.kind {
+            Kind::Str(s) => Ok(CellRef::Name(s.to_string())),
+            Kind::Map(_) => reread(&v, "").map(|c| CellRef::Inline(Box::new(c))),
+            _ => Err(serde::de::Error::custom(format!(
                 "expected a cell name or an inline cell mapping, found {}",
-                super::node::Node::from(other).describe()
+                v.describe()
             ))),
         }
     }

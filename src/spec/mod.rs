@@ -1,33 +1,40 @@
 //! The design file as written: serde types mirroring the YAML, read section by section so that
 //! every structural problem of a file is reported at once, each with its YAML path and place.
-//! This is the only module that uses the YAML parser.
+//!
+//! One reader (`yaml.rs`, on the events of `saphyr-parser`) turns the text into a tree of nodes,
+//! each with its line and column (`node.rs`); `--set` overrides edit that tree
+//! (`overrides.rs`); the serde types are read from it through the tree's own `Deserializer`; the
+//! places of every value by YAML path (`SourceMap`, `source.rs`) are taken from the same tree.
+//! This is the only module that uses the YAML parser: built-in presets are read through it too.
 
 mod depth;
 mod design;
-mod fastyaml;
-mod locate;
 mod node;
 mod overrides;
+mod path;
 mod qty;
+mod source;
 mod tolerance;
 mod words;
+mod yaml;
 
 use indexmap::IndexMap;
+use serde::Deserialize;
 use serde::de::DeserializeOwned;
-use serde_yaml::Value;
 
-use node::Node;
+use node::{Kind, Node};
 
 pub use design::{
     AgingSpec, BatterySpec, CellRef, CellSpec, ChemistrySpec, DesignSpec, LoadSpec, LossSpec,
     PolarizationSpec, StageKindSpec, StageSpec, StepSpec, TemperatureRowSpec,
 };
-pub use locate::SourceMap;
 pub use overrides::Override;
+pub use path::{Seg, segments};
 pub use qty::{Efficiency, Qty, ResistanceSpec, VinCurveSpec};
+pub use source::SourceMap;
 pub use tolerance::{ToleranceSpec, band_text};
 
-use crate::error::{Diagnostic, Location, did_you_mean};
+use crate::error::{Diagnostic, did_you_mean};
 
 const TOP_KEYS: [&str; 9] = [
     "design",
@@ -103,19 +110,7 @@ pub fn parse_partial(
     if let Some(d) = depth::check(text) {
         return Err((vec![d], None));
     }
-    // The fast reader where the file allows and nothing is overridden; else the full parser.
-    let fast = if overrides.is_empty() {
-        fastyaml::parse(text)
-    } else {
-        None
-    };
-    if let Some(root) = fast {
-        return read(text, root, Vec::new());
-    }
-    let mut root: Value = match serde_yaml::from_str(text) {
-        Ok(v) => v,
-        Err(e) => return Err((vec![syntax_error(text, &e)], None)),
-    };
+    let mut root = yaml::read(text).map_err(|d| (d, None))?;
     let mut replaced = Vec::new();
     let mut errors = Vec::new();
     for o in overrides {
@@ -127,24 +122,37 @@ pub fn parse_partial(
     if !errors.is_empty() {
         return Err((errors, None));
     }
-    read(text, Node::from(root), replaced)
+    read(root, replaced)
 }
 
-/// The full parser's syntax error, in words, at its place.
-fn syntax_error(text: &str, e: &serde_yaml::Error) -> Diagnostic {
-    let location = e.location().map(|l| Location {
-        line: l.line(),
-        col: l.column(),
-    });
-    let msg = e.to_string();
-    if msg.contains("more than one document") {
-        return words::second_document(text);
+/// Read one cell from YAML text holding the keys of a `cells:` entry (how the built-in presets
+/// are stored), with the places of its values.
+///
+/// # Errors
+///
+/// Each problem in words, with its line and column.
+pub(crate) fn read_cell(text: &str) -> Result<(CellSpec, SourceMap), String> {
+    let text = text.strip_prefix('\u{feff}').unwrap_or(text);
+    let said = |ds: Vec<Diagnostic>| {
+        ds.iter()
+            .map(ToString::to_string)
+            .collect::<Vec<_>>()
+            .join("; ")
+    };
+    if let Some(d) = depth::check(text) {
+        return Err(said(vec![d]));
     }
-    // serde_yaml appends " at line L column C"; the place is shown separately.
-    let msg = msg.split(" at line ").next().unwrap_or(&msg).to_string();
-    Diagnostic::new("", format!("the file is not valid YAML: {msg}"))
-        .with_hint("check the indentation and the brackets near that place")
-        .at(location)
+    let source = SourceMap::of(yaml::read(text).map_err(said)?);
+    let root = source.tree();
+    match CellSpec::deserialize(root) {
+        Ok(cell) => Ok((cell, source)),
+        Err(e) => {
+            let at = root.at.location().map_or_else(String::new, |l| {
+                format!(" (the cell starts at line {}, column {})", l.line, l.col)
+            });
+            Err(format!("{e}{at}"))
+        }
+    }
 }
 
 /// Read a design file's text with `--set` overrides applied first.
@@ -167,11 +175,10 @@ pub fn parse_with(text: &str, overrides: &[Override]) -> Result<Parsed, Vec<Diag
 
 /// The serde types from the document tree; `replaced` are the paths `--set` gave.
 fn read(
-    text: &str,
-    root: Node<'_>,
+    root: Node<'static>,
     replaced: Vec<String>,
 ) -> Result<Parsed, (Vec<Diagnostic>, Option<Box<Partial>>)> {
-    let mut source = SourceMap::build(text);
+    let mut source = SourceMap::of(root);
     source.set_overridden(replaced);
     let mut r = Reader {
         source: &source,
@@ -180,7 +187,7 @@ fn read(
         kept: Vec::new(),
         misspelt: Vec::new(),
     };
-    let spec = r.read_design(root);
+    let spec = r.read_design(source.tree());
     let Reader {
         diags,
         broken,
@@ -261,7 +268,7 @@ impl Reader<'_> {
         let at = cleaned.as_ref().unwrap_or(v);
         self.serde_error(&path, &msg, at);
         // Checker messages about this item follow from the problem just reported.
-        if let Node::Map(m) = at {
+        if let Kind::Map(m) = &at.kind {
             let id = m.iter().find(|(k, _)| k.as_str() == Some("id"));
             if let Some(id) = id.and_then(|(_, x)| x.as_str()) {
                 self.broken.push(id.to_string());
@@ -270,8 +277,8 @@ impl Reader<'_> {
         None
     }
 
-    fn read_design(&mut self, root: Node<'_>) -> Option<DesignSpec> {
-        let Node::Map(map) = root else {
+    fn read_design(&mut self, root: &Node<'_>) -> Option<DesignSpec> {
+        let Kind::Map(map) = &root.kind else {
             self.push(
                 "",
                 format!(
@@ -282,7 +289,7 @@ impl Reader<'_> {
             );
             return None;
         };
-        let mut sections: IndexMap<String, Node<'_>> = IndexMap::new();
+        let mut sections: IndexMap<String, &Node<'_>> = IndexMap::new();
         for (k, v) in map {
             let Some(key) = k.as_str().map(str::to_string) else {
                 self.push(
@@ -312,16 +319,16 @@ impl Reader<'_> {
             sections.insert(key, v);
         }
         let design = match sections.shift_remove("design") {
-            None | Some(Node::Null) => None,
-            Some(v) => self.part::<String>("design", &v),
+            Some(v) if !v.is_null() => self.part::<String>("design", v),
+            _ => None,
         };
         let ambient = match sections.shift_remove("ambient") {
-            None | Some(Node::Null) => None,
-            Some(v) => self.part::<Qty>("ambient", &v),
+            Some(v) if !v.is_null() => self.part::<Qty>("ambient", v),
+            _ => None,
         };
         let cells = self.map_section::<CellSpec>(&mut sections, "cells");
         let battery = match sections.shift_remove("battery") {
-            Some(v) => self.part::<BatterySpec>("battery", &v),
+            Some(v) => self.part::<BatterySpec>("battery", v),
             None if self.broken.iter().any(|b| b == "battery") => None,
             None => {
                 self.push(
@@ -362,12 +369,13 @@ impl Reader<'_> {
 
     fn list_section<T: DeserializeOwned>(
         &mut self,
-        sections: &mut IndexMap<String, Node<'_>>,
+        sections: &mut IndexMap<String, &Node<'_>>,
         name: &'static str,
     ) -> Vec<T> {
-        match sections.shift_remove(name) {
-            None | Some(Node::Null) => Vec::new(),
-            Some(Node::Seq(items)) => {
+        let section = sections.shift_remove(name);
+        match section.map(|n| &n.kind) {
+            None | Some(Kind::Null) => Vec::new(),
+            Some(Kind::Seq(items)) => {
                 let mut out = Vec::with_capacity(items.len());
                 let mut kept = Vec::new();
                 for (i, v) in items.iter().enumerate() {
@@ -382,13 +390,13 @@ impl Reader<'_> {
                 }
                 out
             }
-            Some(other) => {
+            Some(_) => {
                 self.broken.push(name.to_string());
                 self.push(
                     name,
                     format!(
                         "`{name}` must be a list (items starting with `- `), found {}",
-                        other.describe()
+                        section.map(Node::describe).unwrap_or_default()
                     ),
                     Some(format!(
                         "write each item of `{name}` on a line starting with `- `"
@@ -401,13 +409,14 @@ impl Reader<'_> {
 
     fn map_section<T: DeserializeOwned>(
         &mut self,
-        sections: &mut IndexMap<String, Node<'_>>,
+        sections: &mut IndexMap<String, &Node<'_>>,
         name: &str,
     ) -> IndexMap<String, T> {
         let mut out = IndexMap::new();
-        match sections.shift_remove(name) {
-            None | Some(Node::Null) => {}
-            Some(Node::Map(m)) => {
+        let section = sections.shift_remove(name);
+        match section.map(|n| &n.kind) {
+            None | Some(Kind::Null) => {}
+            Some(Kind::Map(m)) => {
                 for (k, v) in m {
                     let Some(key) = k.as_str().map(str::to_string) else {
                         self.push(
@@ -420,7 +429,7 @@ impl Reader<'_> {
                         );
                         continue;
                     };
-                    match self.part::<T>(format_args!("{name}.{key}"), &v) {
+                    match self.part::<T>(format_args!("{name}.{key}"), v) {
                         Some(t) => {
                             out.insert(key, t);
                         }
@@ -428,11 +437,11 @@ impl Reader<'_> {
                     }
                 }
             }
-            Some(other) => self.push_broken(
+            Some(_) => self.push_broken(
                 name,
                 format!(
                     "`{name}` must be a mapping of names, found {}",
-                    other.describe()
+                    section.map(Node::describe).unwrap_or_default()
                 ),
                 Some(format!(
                     "write each entry of `{name}` as `NAME: ...` on its own indented line"
@@ -445,13 +454,13 @@ impl Reader<'_> {
 
 /// The path, below `v`, of the first text value equal to `text` (`.kind`, `[2].chemistry`).
 fn value_path(v: &Node<'_>, text: &str) -> Option<String> {
-    match v {
-        Node::Str(s) if s == text => Some(String::new()),
-        Node::Map(m) => m.iter().find_map(|(k, x)| {
+    match &v.kind {
+        Kind::Str(s) if s == text => Some(String::new()),
+        Kind::Map(m) => m.iter().find_map(|(k, x)| {
             let key = k.as_str()?;
             value_path(x, text).map(|p| format!(".{key}{p}"))
         }),
-        Node::Seq(items) => items
+        Kind::Seq(items) => items
             .iter()
             .enumerate()
             .find_map(|(i, x)| value_path(x, text).map(|p| format!("[{i}]{p}"))),

@@ -1,16 +1,83 @@
-//! The document tree the serde types are read from: scalars, lists and mappings, with text
-//! borrowed from the file where the fast reader made it. It replaces the full parser's value
-//! type on the hot path: no copy of every key and scalar, no hash table per mapping.
+//! The document tree the serde types are read from: scalars, lists and mappings, each node with
+//! the place in the file where it starts (`yaml.rs` builds the tree; `source.rs` keeps it to find
+//! the place of a YAML path).
 
 use std::borrow::Cow;
 use std::fmt;
 
 use serde::de::{self, DeserializeSeed, IntoDeserializer, MapAccess, SeqAccess, Visitor};
-use serde_yaml::{Number, Value};
+use serde::{Deserialize, Deserializer};
 
-/// One node of a YAML document.
+use crate::error::Location;
+
+/// Where a node starts: line and column (in characters), both from 1. Line 0 stands for a node
+/// that is not in the file (a value given by `--set`, or a copy read back by a nested reader).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub(crate) struct Mark {
+    line: u32,
+    col: u32,
+}
+
+impl Mark {
+    /// No place in the file.
+    pub(crate) const NONE: Mark = Mark { line: 0, col: 0 };
+
+    /// Line and column from 1 (a file of more than four billion lines keeps its last place).
+    pub(crate) fn new(line: usize, col: usize) -> Self {
+        Self {
+            line: u32::try_from(line).unwrap_or(u32::MAX),
+            col: u32::try_from(col).unwrap_or(u32::MAX),
+        }
+    }
+
+    /// The place, if the node is in the file.
+    pub(crate) fn location(self) -> Option<Location> {
+        (self.line > 0).then_some(Location {
+            line: self.line as usize,
+            col: self.col as usize,
+        })
+    }
+}
+
+/// A YAML number: an integer that fits 64 bits, or a finite float (`.inf` and `.nan` too).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(crate) enum Number {
+    /// Zero and above.
+    PosInt(u64),
+    /// Below zero.
+    NegInt(i64),
+    /// Any other number.
+    Float(f64),
+}
+
+impl fmt::Display for Number {
+    /// Integers in decimal; floats in their shortest form that reads back the same, always with
+    /// a `.` or an exponent (`1.0`, `1e300`), and YAML's `.inf`, `-.inf`, `.nan`.
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match *self {
+            Number::PosInt(u) => write!(f, "{u}"),
+            Number::NegInt(i) => write!(f, "{i}"),
+            Number::Float(x) if x.is_nan() => f.write_str(".nan"),
+            Number::Float(x) if x.is_infinite() => {
+                f.write_str(if x < 0.0 { "-.inf" } else { ".inf" })
+            }
+            Number::Float(x) => f.write_str(ryu::Buffer::new().format_finite(x)),
+        }
+    }
+}
+
+/// One node of a YAML document and where it starts.
+#[derive(Debug, Clone)]
+pub(crate) struct Node<'a> {
+    /// What the node holds.
+    pub(crate) kind: Kind<'a>,
+    /// Where it starts (a block mapping at its first key, a flow collection at its bracket).
+    pub(crate) at: Mark,
+}
+
+/// What a node holds.
 #[derive(Debug, Clone, PartialEq)]
-pub(crate) enum Node<'a> {
+pub(crate) enum Kind<'a> {
     Null,
     Bool(bool),
     Number(Number),
@@ -22,44 +89,156 @@ pub(crate) enum Node<'a> {
     Tagged,
 }
 
-impl Node<'_> {
+impl PartialEq for Node<'_> {
+    /// The same content, wherever it is written.
+    fn eq(&self, other: &Self) -> bool {
+        self.kind == other.kind
+    }
+}
+
+impl<'a> Node<'a> {
+    pub(crate) fn new(kind: Kind<'a>, at: Mark) -> Self {
+        Self { kind, at }
+    }
+
+    /// A node that is not in the file.
+    pub(crate) fn detached(kind: Kind<'a>) -> Self {
+        Self::new(kind, Mark::NONE)
+    }
+
     pub(crate) fn as_str(&self) -> Option<&str> {
-        match self {
-            Node::Str(s) => Some(s),
+        match &self.kind {
+            Kind::Str(s) => Some(s),
+            _ => None,
+        }
+    }
+
+    pub(crate) fn is_null(&self) -> bool {
+        matches!(self.kind, Kind::Null)
+    }
+
+    /// The value of the entry `key` of a mapping.
+    pub(crate) fn get(&self, key: &str) -> Option<&Node<'a>> {
+        match &self.kind {
+            Kind::Map(m) => m
+                .iter()
+                .find(|(k, _)| k.as_str() == Some(key))
+                .map(|e| &e.1),
             _ => None,
         }
     }
 
     /// A short description for messages.
     pub(crate) fn describe(&self) -> String {
-        match self {
-            Node::Null => "nothing".into(),
-            Node::Bool(b) => format!("`{b}`"),
-            Node::Number(n) => format!("the number `{n}`"),
-            Node::Str(s) => format!("the text `{s}`"),
-            Node::Seq(_) => "a list".into(),
-            Node::Map(_) => "a mapping".into(),
-            Node::Tagged => "a tagged value".into(),
+        match &self.kind {
+            Kind::Null => "nothing".into(),
+            Kind::Bool(b) => format!("`{b}`"),
+            Kind::Number(n) => format!("the number `{n}`"),
+            Kind::Str(s) => format!("the text `{s}`"),
+            Kind::Seq(_) => "a list".into(),
+            Kind::Map(_) => "a mapping".into(),
+            Kind::Tagged => "a tagged value".into(),
         }
+    }
+
+    /// A copy that owns its text, with no place (see [`Mark::NONE`]): a `--set` value.
+    pub(crate) fn detach(&self) -> Node<'static> {
+        let kind = match &self.kind {
+            Kind::Null => Kind::Null,
+            Kind::Bool(b) => Kind::Bool(*b),
+            Kind::Number(n) => Kind::Number(*n),
+            Kind::Str(s) => Kind::Str(Cow::Owned(s.to_string())),
+            Kind::Seq(items) => Kind::Seq(items.iter().map(Node::detach).collect()),
+            Kind::Map(m) => Kind::Map(m.iter().map(|(k, v)| (k.detach(), v.detach())).collect()),
+            Kind::Tagged => Kind::Tagged,
+        };
+        Node::detached(kind)
     }
 }
 
-impl From<Value> for Node<'static> {
-    fn from(v: Value) -> Self {
-        match v {
-            Value::Null => Node::Null,
-            Value::Bool(b) => Node::Bool(b),
-            Value::Number(n) => Node::Number(n),
-            Value::String(s) => Node::Str(Cow::Owned(s)),
-            Value::Sequence(items) => Node::Seq(items.into_iter().map(Node::from).collect()),
-            Value::Mapping(m) => Node::Map(
-                m.into_iter()
-                    .map(|(k, v)| (Node::from(k), Node::from(v)))
-                    .collect(),
-            ),
-            Value::Tagged(_) => Node::Tagged,
-        }
+/// Any serde value as a tree, for the types that look at a value before choosing how to read it
+/// (an efficiency: a constant, a curve or curves per input voltage); read again through the
+/// tree's own `Deserializer`, so that the messages are the same.
+impl<'de> Deserialize<'de> for Node<'static> {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        d.deserialize_any(TreeVisitor)
     }
+}
+
+struct TreeVisitor;
+
+impl<'de> Visitor<'de> for TreeVisitor {
+    type Value = Node<'static>;
+
+    fn expecting(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str("any YAML value")
+    }
+
+    fn visit_bool<E: de::Error>(self, b: bool) -> Result<Self::Value, E> {
+        Ok(Node::detached(Kind::Bool(b)))
+    }
+
+    fn visit_i64<E: de::Error>(self, i: i64) -> Result<Self::Value, E> {
+        let n = u64::try_from(i).map_or(Number::NegInt(i), Number::PosInt);
+        Ok(Node::detached(Kind::Number(n)))
+    }
+
+    fn visit_u64<E: de::Error>(self, u: u64) -> Result<Self::Value, E> {
+        Ok(Node::detached(Kind::Number(Number::PosInt(u))))
+    }
+
+    fn visit_f64<E: de::Error>(self, x: f64) -> Result<Self::Value, E> {
+        Ok(Node::detached(Kind::Number(Number::Float(x))))
+    }
+
+    fn visit_str<E: de::Error>(self, s: &str) -> Result<Self::Value, E> {
+        Ok(Node::detached(Kind::Str(Cow::Owned(s.to_string()))))
+    }
+
+    fn visit_string<E: de::Error>(self, s: String) -> Result<Self::Value, E> {
+        Ok(Node::detached(Kind::Str(Cow::Owned(s))))
+    }
+
+    fn visit_unit<E: de::Error>(self) -> Result<Self::Value, E> {
+        Ok(Node::detached(Kind::Null))
+    }
+
+    fn visit_none<E: de::Error>(self) -> Result<Self::Value, E> {
+        Ok(Node::detached(Kind::Null))
+    }
+
+    fn visit_some<D: Deserializer<'de>>(self, d: D) -> Result<Self::Value, D::Error> {
+        Node::deserialize(d)
+    }
+
+    fn visit_seq<A: SeqAccess<'de>>(self, mut a: A) -> Result<Self::Value, A::Error> {
+        let mut items = Vec::with_capacity(a.size_hint().unwrap_or(0).min(1024));
+        while let Some(x) = a.next_element::<Node<'static>>()? {
+            items.push(x);
+        }
+        Ok(Node::detached(Kind::Seq(items)))
+    }
+
+    fn visit_map<A: MapAccess<'de>>(self, mut a: A) -> Result<Self::Value, A::Error> {
+        let mut entries = Vec::with_capacity(a.size_hint().unwrap_or(0).min(1024));
+        while let Some((k, v)) = a.next_entry::<Node<'static>, Node<'static>>()? {
+            entries.push((k, v));
+        }
+        Ok(Node::detached(Kind::Map(entries)))
+    }
+
+    fn visit_enum<A: de::EnumAccess<'de>>(self, _: A) -> Result<Self::Value, A::Error> {
+        Ok(Node::detached(Kind::Tagged))
+    }
+}
+
+/// Read `T` from the tree `v` built by a nested reader, its errors as `E` with `prefix` before
+/// them (`efficiency curve: ...`).
+pub(crate) fn reread<T: de::DeserializeOwned, E: de::Error>(
+    v: &Node<'_>,
+    prefix: &str,
+) -> Result<T, E> {
+    T::deserialize(v).map_err(|e| E::custom(format!("{prefix}{e}")))
 }
 
 /// A problem reading a node into a serde type (serde's own wording for the common ones).
@@ -84,20 +263,14 @@ impl<'de> de::Deserializer<'de> for &Node<'_> {
     type Error = NodeError;
 
     fn deserialize_any<V: Visitor<'de>>(self, visitor: V) -> Result<V::Value, NodeError> {
-        match self {
-            Node::Null => visitor.visit_unit(),
-            Node::Bool(b) => visitor.visit_bool(*b),
-            Node::Number(n) => {
-                if let Some(u) = n.as_u64() {
-                    visitor.visit_u64(u)
-                } else if let Some(i) = n.as_i64() {
-                    visitor.visit_i64(i)
-                } else {
-                    visitor.visit_f64(n.as_f64().unwrap_or(f64::NAN))
-                }
-            }
-            Node::Str(s) => visitor.visit_str(s),
-            Node::Seq(items) => {
+        match &self.kind {
+            Kind::Null => visitor.visit_unit(),
+            Kind::Bool(b) => visitor.visit_bool(*b),
+            Kind::Number(Number::PosInt(u)) => visitor.visit_u64(*u),
+            Kind::Number(Number::NegInt(i)) => visitor.visit_i64(*i),
+            Kind::Number(Number::Float(x)) => visitor.visit_f64(*x),
+            Kind::Str(s) => visitor.visit_str(s),
+            Kind::Seq(items) => {
                 let mut access = Items { iter: items.iter() };
                 let out = visitor.visit_seq(&mut access)?;
                 match access.iter.len() {
@@ -108,7 +281,7 @@ impl<'de> de::Deserializer<'de> for &Node<'_> {
                     )),
                 }
             }
-            Node::Map(entries) => {
+            Kind::Map(entries) => {
                 let mut access = Entries {
                     iter: entries.iter(),
                     value: None,
@@ -122,30 +295,30 @@ impl<'de> de::Deserializer<'de> for &Node<'_> {
                     )),
                 }
             }
-            Node::Tagged => Err(de::Error::custom(
+            Kind::Tagged => Err(de::Error::custom(
                 "a tagged value (`!name ...`) is not part of a design file; remove the tag",
             )),
         }
     }
 
     fn deserialize_option<V: Visitor<'de>>(self, visitor: V) -> Result<V::Value, NodeError> {
-        match self {
-            Node::Null => visitor.visit_none(),
+        match &self.kind {
+            Kind::Null => visitor.visit_none(),
             _ => visitor.visit_some(self),
         }
     }
 
     fn deserialize_bool<V: Visitor<'de>>(self, visitor: V) -> Result<V::Value, NodeError> {
-        match self {
-            Node::Bool(b) => visitor.visit_bool(*b),
-            other => Err(other.invalid_type(&visitor)),
+        match &self.kind {
+            Kind::Bool(b) => visitor.visit_bool(*b),
+            _ => Err(self.invalid_type(&visitor)),
         }
     }
 
     fn deserialize_string<V: Visitor<'de>>(self, visitor: V) -> Result<V::Value, NodeError> {
-        match self {
-            Node::Str(s) => visitor.visit_str(s),
-            other => Err(other.invalid_type(&visitor)),
+        match &self.kind {
+            Kind::Str(s) => visitor.visit_str(s),
+            _ => Err(self.invalid_type(&visitor)),
         }
     }
 
@@ -162,9 +335,9 @@ impl<'de> de::Deserializer<'de> for &Node<'_> {
     }
 
     fn deserialize_bytes<V: Visitor<'de>>(self, visitor: V) -> Result<V::Value, NodeError> {
-        match self {
-            Node::Str(_) | Node::Seq(_) => self.deserialize_any(visitor),
-            other => Err(other.invalid_type(&visitor)),
+        match &self.kind {
+            Kind::Str(_) | Kind::Seq(_) => self.deserialize_any(visitor),
+            _ => Err(self.invalid_type(&visitor)),
         }
     }
 
@@ -173,9 +346,9 @@ impl<'de> de::Deserializer<'de> for &Node<'_> {
     }
 
     fn deserialize_unit<V: Visitor<'de>>(self, visitor: V) -> Result<V::Value, NodeError> {
-        match self {
-            Node::Null => visitor.visit_unit(),
-            other => Err(other.invalid_type(&visitor)),
+        match &self.kind {
+            Kind::Null => visitor.visit_unit(),
+            _ => Err(self.invalid_type(&visitor)),
         }
     }
 
@@ -197,10 +370,10 @@ impl<'de> de::Deserializer<'de> for &Node<'_> {
 
     /// A list; nothing (`key:` alone) reads as an empty one.
     fn deserialize_seq<V: Visitor<'de>>(self, visitor: V) -> Result<V::Value, NodeError> {
-        match self {
-            Node::Seq(_) => self.deserialize_any(visitor),
-            Node::Null => visitor.visit_seq(&mut Items { iter: [].iter() }),
-            other => Err(other.invalid_type(&visitor)),
+        match &self.kind {
+            Kind::Seq(_) => self.deserialize_any(visitor),
+            Kind::Null => visitor.visit_seq(&mut Items { iter: [].iter() }),
+            _ => Err(self.invalid_type(&visitor)),
         }
     }
 
@@ -223,13 +396,13 @@ impl<'de> de::Deserializer<'de> for &Node<'_> {
 
     /// A mapping; nothing reads as an empty one.
     fn deserialize_map<V: Visitor<'de>>(self, visitor: V) -> Result<V::Value, NodeError> {
-        match self {
-            Node::Map(_) => self.deserialize_any(visitor),
-            Node::Null => visitor.visit_map(&mut Entries {
+        match &self.kind {
+            Kind::Map(_) => self.deserialize_any(visitor),
+            Kind::Null => visitor.visit_map(&mut Entries {
                 iter: [].iter(),
                 value: None,
             }),
-            other => Err(other.invalid_type(&visitor)),
+            _ => Err(self.invalid_type(&visitor)),
         }
     }
 
@@ -249,13 +422,13 @@ impl<'de> de::Deserializer<'de> for &Node<'_> {
         _variants: &'static [&'static str],
         visitor: V,
     ) -> Result<V::Value, NodeError> {
-        match self {
-            Node::Str(s) => {
+        match &self.kind {
+            Kind::Str(s) => {
                 let d: de::value::StrDeserializer<'_, NodeError> = s.as_ref().into_deserializer();
                 visitor.visit_enum(d)
             }
-            other => Err(de::Error::invalid_type(
-                other.unexpected(),
+            _ => Err(de::Error::invalid_type(
+                self.unexpected(),
                 &"a Value::Tagged enum",
             )),
         }
@@ -272,22 +445,16 @@ impl<'de> de::Deserializer<'de> for &Node<'_> {
 
 impl Node<'_> {
     fn unexpected(&self) -> de::Unexpected<'_> {
-        match self {
-            Node::Null => de::Unexpected::Unit,
-            Node::Bool(b) => de::Unexpected::Bool(*b),
-            Node::Number(n) => {
-                if let Some(u) = n.as_u64() {
-                    de::Unexpected::Unsigned(u)
-                } else if let Some(i) = n.as_i64() {
-                    de::Unexpected::Signed(i)
-                } else {
-                    de::Unexpected::Float(n.as_f64().unwrap_or(f64::NAN))
-                }
-            }
-            Node::Str(s) => de::Unexpected::Str(s),
-            Node::Seq(_) => de::Unexpected::Seq,
-            Node::Map(_) => de::Unexpected::Map,
-            Node::Tagged => de::Unexpected::Enum,
+        match &self.kind {
+            Kind::Null => de::Unexpected::Unit,
+            Kind::Bool(b) => de::Unexpected::Bool(*b),
+            Kind::Number(Number::PosInt(u)) => de::Unexpected::Unsigned(*u),
+            Kind::Number(Number::NegInt(i)) => de::Unexpected::Signed(*i),
+            Kind::Number(Number::Float(x)) => de::Unexpected::Float(*x),
+            Kind::Str(s) => de::Unexpected::Str(s),
+            Kind::Seq(_) => de::Unexpected::Seq,
+            Kind::Map(_) => de::Unexpected::Map,
+            Kind::Tagged => de::Unexpected::Enum,
         }
     }
 
@@ -351,36 +518,75 @@ impl<'de> MapAccess<'de> for Entries<'_, '_> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::spec::yaml::read;
     use crate::spec::{DesignSpec, LoadSpec};
-    use serde::Deserialize;
 
-    /// Reading a node gives what the full parser's value type gives, results and messages.
-    fn same<T: for<'de> Deserialize<'de> + fmt::Debug>(yaml: &str) {
-        let v: Value = serde_yaml::from_str(yaml).unwrap();
-        let by_value = T::deserialize(&v).map_err(|e| e.to_string());
-        let node = Node::from(v);
-        let by_node = T::deserialize(&node).map_err(|e| e.to_string());
-        assert_eq!(format!("{by_value:?}"), format!("{by_node:?}"), "{yaml}");
+    /// `T` read from the text's tree: its `Debug` form, or the message.
+    fn reads<T: de::DeserializeOwned + fmt::Debug>(yaml: &str) -> Result<String, String> {
+        let node = read(yaml).map_err(|d| format!("{d:?}"))?;
+        T::deserialize(&node)
+            .map(|t| format!("{t:?}"))
+            .map_err(|e| e.to_string())
     }
 
     #[test]
-    fn reads_as_the_full_parser_does() {
-        same::<LoadSpec>("{ id: a, rail: battery, draw: { on: 5 mA, s: 2 } }");
-        same::<LoadSpec>("{ id: a, rail: battery, draw: { on: 1.5 } }");
-        same::<LoadSpec>("{ id: a, rail: battery, draw: { on: [1] } }");
-        same::<LoadSpec>("{ id: 5, rail: battery, draw: {} }");
-        same::<LoadSpec>("{ id: a, rail: battery }");
-        same::<LoadSpec>("{ id: a, rail: battery, draw: {}, colour: red }");
-        same::<LoadSpec>("[a, battery, null, {on: 1 mA}]");
-        same::<LoadSpec>("a");
-        same::<DesignSpec>(
-            "battery: { cell: c, series: 2 }\nstages: [{ id: s, kind: bukc, input: battery }]\n",
+    fn messages_are_serdes_own() {
+        for (yaml, want) in [
+            ("a", "invalid type: string \"a\", expected struct LoadSpec"),
+            ("{ id: a, rail: battery }", "missing field `draw`"),
+            (
+                "{ id: 5, rail: battery, draw: {} }",
+                "invalid type: integer `5`, expected a string",
+            ),
+            (
+                "{ id: a, rail: battery, draw: {}, colour: red }",
+                "unknown field `colour`, expected one of `id`, `rail`, `voltage_range`, `draw`, `default`",
+            ),
+            (
+                "{ id: a, rail: battery, draw: { on: [1] } }",
+                "expected a value with its unit such as `120 mA`, found a list",
+            ),
+            (
+                "{ id: a, rail: battery, draw: { on: !x 1 } }",
+                "a tagged value (`!name ...`) is not part of a design file; remove the tag",
+            ),
+        ] {
+            assert_eq!(reads::<LoadSpec>(yaml), Err(want.to_string()), "{yaml}");
+        }
+        let e = reads::<DesignSpec>(
+            "battery: { cell: c }\nstages: [{ id: s, kind: bukc, input: battery }]\n",
+        )
+        .unwrap_err();
+        assert!(
+            e.starts_with("unknown variant `bukc`, expected one of `buck`"),
+            "{e}"
         );
-        same::<DesignSpec>(
-            "battery: { cell: { chemistry: li-ion, capacity: 1 Ah } }\nstages: [{ id: s, kind: buck, efficiency: [[1 mA, 80 %]] }]\n",
+        let e = reads::<DesignSpec>("battery: { cell: [1] }\n").unwrap_err();
+        assert_eq!(
+            e,
+            "expected a cell name or an inline cell mapping, found a list"
         );
-        same::<DesignSpec>("battery: { cell: [1] }\n");
-        same::<DesignSpec>("battery: { cell: c }\nprofile: [{ mode: m, for: -1 }]\n");
-        same::<DesignSpec>("battery: { cell: c }\nmodes: { a: { x: true } }\n");
+        let e = reads::<DesignSpec>(
+            "battery: { cell: c }\nstages: [{ id: s, kind: buck, input: battery, efficiency: [[1 mA, 80 %], 5] }]\n",
+        )
+        .unwrap_err();
+        assert_eq!(
+            e,
+            "efficiency curve: invalid type: integer `5`, expected a sequence"
+        );
+    }
+
+    #[test]
+    fn numbers_read_as_they_are_written() {
+        let ok = reads::<LoadSpec>(
+            "{ id: a, rail: b, draw: { on: 1.5, off: 2, x: -3, y: 1e300, z: .inf } }",
+        )
+        .unwrap();
+        for part in ["\"1.5\"", "\"2\"", "\"-3\"", "\"1e300\"", "\".inf\""] {
+            assert!(ok.contains(part), "{part} in {ok}");
+        }
+        // A key with nothing after it reads as an empty mapping or list where one is expected.
+        let d = reads::<DesignSpec>("battery: { cell: c }\nstages:\nmodes:\n").unwrap();
+        assert!(d.contains("stages: []"), "{d}");
     }
 }

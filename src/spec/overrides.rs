@@ -1,9 +1,12 @@
 //! `--set PATH=VALUE`: one value of a design replaced before it is read, by YAML path with list
 //! items addressed by id (`loads.radio.draw.tx=90 mA`, `stages.boost-3v3.efficiency=88 %`).
 
-use serde_yaml::{Mapping, Value};
+use std::borrow::Cow;
 
+use super::node::{Kind, Node};
 use crate::error::{Diagnostic, did_you_mean};
+
+use super::path::Seg;
 
 /// One override, as written on the command line.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -49,8 +52,9 @@ impl Override {
 const OPTIONAL_BLOCKS: [&str; 3] = ["aging", "polarization", "loss"];
 
 /// Apply `o` to the document `root`; returns the index-form path of the value replaced (e.g.
-/// `stages[2].efficiency`), which the checker's messages use.
-pub(crate) fn apply(root: &mut Value, o: &Override) -> Result<String, Diagnostic> {
+/// `stages[2].efficiency`), which the checker's messages use. The value put in has no place in
+/// the file.
+pub(crate) fn apply(root: &mut Node<'_>, o: &Override) -> Result<String, Diagnostic> {
     if super::depth::check(&o.value).is_some() {
         return Err(Diagnostic::new(
             format!("--set {}", o.path),
@@ -61,12 +65,30 @@ pub(crate) fn apply(root: &mut Value, o: &Override) -> Result<String, Diagnostic
         )
         .with_hint("give a plain value such as `90 mA` or a short list such as `[1 V, 3 V]`"));
     }
-    let value: Value =
-        serde_yaml::from_str(&o.value).unwrap_or_else(|_| Value::String(o.value.clone()));
-    let segments: Vec<&str> = o.path.split('.').collect();
+    // A value that is not YAML on its own (`a: b: c`) is taken as text.
+    let value = super::yaml::read(&o.value).map_or_else(
+        |_| Node::detached(Kind::Str(Cow::Owned(o.value.clone()))),
+        |v| v.detach(),
+    );
     let fail = |msg: String, hint: Option<String>| {
         Diagnostic::new(format!("--set {}", o.path), msg).with_hint_opt(hint)
     };
+    // `[N]` is a list item by position, as `.N` is.
+    let parts = super::path::segments(&o.path).map_err(|m| {
+        fail(
+            m,
+            Some("write a path such as `loads.radio.draw.tx` or `profile[0].for`".into()),
+        )
+    })?;
+    let index_texts: Vec<String> = parts
+        .iter()
+        .map(|p| match p {
+            Seg::Name(n) => (*n).to_string(),
+            Seg::Index(i) => i.to_string(),
+        })
+        .collect();
+    let segments: Vec<&str> = index_texts.iter().map(String::as_str).collect();
+    let name = |seg: &str| Node::detached(Kind::Str(Cow::Owned(seg.to_string())));
     let mut node = root;
     let mut index_path = String::new();
     for (n, seg) in segments.iter().enumerate() {
@@ -79,36 +101,34 @@ pub(crate) fn apply(root: &mut Value, o: &Override) -> Result<String, Diagnostic
         }
         // A block written empty (`aging:`) takes keys like one left out.
         if node.is_null() {
-            *node = Value::Mapping(Mapping::new());
+            node.kind = Kind::Map(Vec::new());
         }
-        match node {
-            Value::Mapping(map) => {
-                let key = Value::String((*seg).to_string());
-                if !map.contains_key(&key) {
-                    if last {
-                        // A key the file leaves out (a default) may be set; the checker judges it.
-                        map.insert(key.clone(), Value::Null);
-                    } else if OPTIONAL_BLOCKS.contains(seg) {
-                        // An optional block the file leaves out is created to hold the value.
-                        map.insert(key.clone(), Value::Mapping(Mapping::new()));
-                    } else {
-                        return Err(unknown(map, seg, &fail));
+        match &mut node.kind {
+            Kind::Map(map) => {
+                let at = match map.iter().position(|(k, _)| k.as_str() == Some(*seg)) {
+                    Some(i) => i,
+                    // A key the file leaves out (a default) may be set; the checker judges it.
+                    None if last => {
+                        map.push((name(seg), Node::detached(Kind::Null)));
+                        map.len() - 1
                     }
-                }
+                    // An optional block the file leaves out is created to hold the value.
+                    None if OPTIONAL_BLOCKS.contains(seg) => {
+                        map.push((name(seg), Node::detached(Kind::Map(Vec::new()))));
+                        map.len() - 1
+                    }
+                    None => return Err(unknown(map, seg, &fail)),
+                };
                 index_path = join(&index_path, seg);
-                node = map.get_mut(&key).expect("present");
+                node = &mut map[at].1;
             }
-            Value::Sequence(items) => {
-                let by_id = items
-                    .iter()
-                    .position(|it| it.get("id").and_then(Value::as_str) == Some(*seg));
+            Kind::Seq(items) => {
+                let id = |it: &Node<'_>| it.get("id").and_then(Node::as_str).map(str::to_string);
+                let by_id = items.iter().position(|it| id(it).as_deref() == Some(*seg));
                 let pos = by_id.or_else(|| seg.parse::<usize>().ok().filter(|&i| i < items.len()));
                 let Some(i) = pos else {
-                    let ids: Vec<&str> = items
-                        .iter()
-                        .filter_map(|it| it.get("id").and_then(Value::as_str))
-                        .collect();
-                    let hint = match did_you_mean(seg, ids.iter().copied()) {
+                    let ids: Vec<String> = items.iter().filter_map(id).collect();
+                    let hint = match did_you_mean(seg, ids.iter().map(String::as_str)) {
                         Some(s) => format!("did you mean `{s}`?"),
                         None if ids.is_empty() => format!(
                             "address items by position, 0 to {}",
@@ -140,11 +160,11 @@ pub(crate) fn apply(root: &mut Value, o: &Override) -> Result<String, Diagnostic
 }
 
 fn unknown(
-    map: &Mapping,
+    map: &[(Node<'_>, Node<'_>)],
     seg: &str,
     fail: &dyn Fn(String, Option<String>) -> Diagnostic,
 ) -> Diagnostic {
-    let keys: Vec<&str> = map.keys().filter_map(Value::as_str).collect();
+    let keys: Vec<&str> = map.iter().filter_map(|(k, _)| k.as_str()).collect();
     let hint = match did_you_mean(seg, keys.iter().copied()) {
         Some(s) => format!("did you mean `{s}`?"),
         None => format!("the names here are {}", super::backticked(&keys)),
@@ -171,26 +191,37 @@ fn join(a: &str, b: &str) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::spec::node::Number;
+    use crate::spec::yaml::read;
 
-    fn doc() -> Value {
-        serde_yaml::from_str(
-            "battery: { cell: c }\nstages: [{ id: boost, efficiency: 90 % }]\nloads: [{ id: radio, draw: { tx: 120 mA } }]\n",
-        )
-        .unwrap()
+    const DOC: &str = "battery: { cell: c }\nstages: [{ id: boost, efficiency: 90 % }]\nloads: [{ id: radio, draw: { tx: 120 mA } }]\n";
+
+    fn set(v: &mut Node<'_>, s: &str) -> Result<String, Diagnostic> {
+        apply(v, &Override::parse(s).unwrap())
     }
 
-    fn set(v: &mut Value, s: &str) -> Result<String, Diagnostic> {
-        apply(v, &Override::parse(s).unwrap())
+    /// The node at the keys and list indices `path`.
+    fn at<'n>(v: &'n Node<'_>, path: &[&str]) -> &'n Node<'n> {
+        path.iter()
+            .fold(v, |n, p| match (&n.kind, p.parse::<usize>()) {
+                (Kind::Seq(items), Ok(i)) => &items[i],
+                _ => n.get(p).unwrap(),
+            })
     }
 
     #[test]
     fn replaces_by_id_and_reports_the_index_path() {
-        let mut v = doc();
+        let mut v = read(DOC).unwrap();
         assert_eq!(
             set(&mut v, "loads.radio.draw.tx=90 mA").unwrap(),
             "loads[0].draw.tx"
         );
-        assert_eq!(v["loads"][0]["draw"]["tx"], Value::String("90 mA".into()));
+        assert_eq!(
+            at(&v, &["loads", "0", "draw", "tx"]).as_str(),
+            Some("90 mA")
+        );
+        // The value set has no place in the file.
+        assert_eq!(at(&v, &["loads", "0", "draw", "tx"]).at.location(), None);
         assert_eq!(
             set(&mut v, "stages.boost.efficiency=88 %").unwrap(),
             "stages[0].efficiency"
@@ -199,26 +230,39 @@ mod tests {
             set(&mut v, "battery.parallel=2").unwrap(),
             "battery.parallel"
         );
-        assert_eq!(v["battery"]["parallel"], Value::Number(2.into()));
+        assert_eq!(
+            at(&v, &["battery", "parallel"]).kind,
+            Kind::Number(Number::PosInt(2))
+        );
         // An optional block the file leaves out is created, as a left-out key is.
         assert_eq!(
             set(&mut v, "battery.aging.capacity=80 %").unwrap(),
             "battery.aging.capacity"
         );
         assert_eq!(
-            v["battery"]["aging"]["capacity"],
-            Value::String("80 %".into())
+            at(&v, &["battery", "aging", "capacity"]).as_str(),
+            Some("80 %")
         );
-        // By position too.
+        // By position too, as `.N` or `[N]`.
         assert_eq!(
             set(&mut v, "stages.0.quiescent=5 µA").unwrap(),
             "stages[0].quiescent"
         );
+        assert_eq!(
+            set(&mut v, "stages[0].shutdown=1 µA").unwrap(),
+            "stages[0].shutdown"
+        );
+        assert_eq!(at(&v, &["stages", "0", "shutdown"]).as_str(), Some("1 µA"));
+        assert!(set(&mut v, "stages[7].shutdown=1 µA").is_err());
+        assert!(set(&mut v, "stages[x].shutdown=1 µA").is_err());
+        // A value that is not YAML on its own is text.
+        set(&mut v, "design=a: b: c").unwrap();
+        assert_eq!(at(&v, &["design"]).as_str(), Some("a: b: c"));
     }
 
     #[test]
     fn unknown_parts_say_what_exists() {
-        let mut v = doc();
+        let mut v = read(DOC).unwrap();
         let e = set(&mut v, "loads.radoi.draw.tx=1 mA").unwrap_err();
         assert_eq!(e.hint(), Some("did you mean `radio`?"));
         let e = set(&mut v, "baterry.parallel=2").unwrap_err();

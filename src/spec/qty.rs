@@ -6,9 +6,8 @@ use std::borrow::Cow;
 
 use schemars::{JsonSchema, Schema, SchemaGenerator, json_schema};
 use serde::{Deserialize, Deserializer, de::Error as _};
-use serde_yaml::Value;
 
-use super::node::Node;
+use super::node::{Kind, Node, Number, reread};
 
 /// A quantity as written: `"120 mA"`, or a plain number where one is allowed.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -21,10 +20,10 @@ impl Qty {
     }
 }
 
-fn scalar_text(v: &Value) -> Option<String> {
-    match v {
-        Value::String(s) => Some(s.clone()),
-        Value::Number(n) => Some(n.to_string()),
+fn scalar_text(v: &Node<'_>) -> Option<String> {
+    match &v.kind {
+        Kind::Str(s) => Some(s.to_string()),
+        Kind::Number(n) => Some(n.to_string()),
         _ => None,
     }
 }
@@ -62,17 +61,18 @@ impl<'de> serde::de::Visitor<'de> for QtyVisitor {
         Ok(Qty(v))
     }
 
-    // Numbers read as the full parser's number type writes them (`1.0`, `1e300`, `.inf`).
+    // Numbers read as the tree writes them (`1.0`, `1e300`, `.inf`).
     fn visit_u64<E: serde::de::Error>(self, v: u64) -> Result<Qty, E> {
-        Ok(Qty(serde_yaml::Number::from(v).to_string()))
+        Ok(Qty(Number::PosInt(v).to_string()))
     }
 
     fn visit_i64<E: serde::de::Error>(self, v: i64) -> Result<Qty, E> {
-        Ok(Qty(serde_yaml::Number::from(v).to_string()))
+        let n = u64::try_from(v).map_or(Number::NegInt(v), Number::PosInt);
+        Ok(Qty(n.to_string()))
     }
 
     fn visit_f64<E: serde::de::Error>(self, v: f64) -> Result<Qty, E> {
-        Ok(Qty(serde_yaml::Number::from(v).to_string()))
+        Ok(Qty(Number::Float(v).to_string()))
     }
 
     fn visit_bool<E: serde::de::Error>(self, v: bool) -> Result<Qty, E> {
@@ -138,24 +138,20 @@ pub enum Efficiency {
 
 impl<'de> Deserialize<'de> for Efficiency {
     fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
-        let v = Value::deserialize(d)?;
+        let v = Node::deserialize(d)?;
         if let Some(t) = scalar_text(&v) {
             return Ok(Efficiency::Constant(Qty(t)));
         }
-        let Value::Sequence(items) = &v else {
+        let Kind::Seq(items) = &v.kind else {
             return Err(D::Error::custom(format!(
                 "expected `90 %`, a curve `[[1 mA, 72 %], ...]` or curves per input voltage, found {}",
-                Node::from(v).describe()
+                v.describe()
             )));
         };
-        if items.iter().any(Value::is_mapping) {
-            serde_yaml::from_value(v)
-                .map(Efficiency::PerVin)
-                .map_err(|e| D::Error::custom(format!("efficiency curves per input voltage: {e}")))
+        if items.iter().any(|x| matches!(x.kind, Kind::Map(_))) {
+            reread(&v, "efficiency curves per input voltage: ").map(Efficiency::PerVin)
         } else {
-            serde_yaml::from_value(v)
-                .map(Efficiency::Curve)
-                .map_err(|e| D::Error::custom(format!("efficiency curve: {e}")))
+            reread(&v, "efficiency curve: ").map(Efficiency::Curve)
         }
     }
 }
@@ -189,18 +185,16 @@ pub enum ResistanceSpec {
 
 impl<'de> Deserialize<'de> for ResistanceSpec {
     fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
-        let v = Value::deserialize(d)?;
+        let v = Node::deserialize(d)?;
         if let Some(t) = scalar_text(&v) {
             return Ok(ResistanceSpec::Constant(Qty(t)));
         }
-        if v.is_sequence() {
-            return serde_yaml::from_value(v)
-                .map(ResistanceSpec::Table)
-                .map_err(|e| D::Error::custom(format!("resistance table: {e}")));
+        if matches!(v.kind, Kind::Seq(_)) {
+            return reread(&v, "resistance table: ").map(ResistanceSpec::Table);
         }
         Err(D::Error::custom(format!(
             "expected a resistance such as `150 mΩ` or a table `[[SoC, R], ...]`, found {}",
-            Node::from(v).describe()
+            v.describe()
         )))
     }
 }

@@ -1,10 +1,10 @@
 //! The deserializer's messages in plain words: `invalid type: unit value, expected struct
 //! CellSpec` becomes "`cell` is empty: it needs a cell name or a cell mapping", with a fix, at
 //! the key that holds the wrong value. Every unknown key of a mapping is reported (the
-//! deserializer stops at the first), and a text the full parser reads as several documents is
-//! told where the second starts.
+//! deserializer stops at the first), and a text that holds several documents is told where the
+//! second starts.
 
-use super::node::Node;
+use super::node::{Kind, Node};
 use super::{Reader, backticked, value_path};
 use crate::error::{Diagnostic, did_you_mean};
 
@@ -170,12 +170,12 @@ fn path_to(v: &Node<'_>, hit: &dyn Fn(&Node<'_>) -> bool) -> Option<String> {
     if hit(v) {
         return Some(String::new());
     }
-    match v {
-        Node::Map(m) => m.iter().find_map(|(k, x)| {
+    match &v.kind {
+        Kind::Map(m) => m.iter().find_map(|(k, x)| {
             let key = k.as_str()?;
             path_to(x, hit).map(|p| format!(".{key}{p}"))
         }),
-        Node::Seq(items) => items
+        Kind::Seq(items) => items
             .iter()
             .enumerate()
             .find_map(|(i, x)| path_to(x, hit).map(|p| format!("[{i}]{p}"))),
@@ -203,7 +203,7 @@ impl Reader<'_> {
         let below = map_with_key(v, name)?;
         let map_path = format!("{path}{below}");
         let mut unknown = Vec::new();
-        if let Some(Node::Map(m)) = node_at(v, &below) {
+        if let Some(Kind::Map(m)) = node_at(v, &below).map(|n| &n.kind) {
             for (k, _) in m {
                 if let Some(k) = k.as_str() {
                     if !expected.contains(&k) {
@@ -314,7 +314,7 @@ impl Reader<'_> {
 pub(super) fn map_with_key(v: &Node<'_>, key: &str) -> Option<String> {
     path_to(
         v,
-        &|n| matches!(n, Node::Map(m) if m.iter().any(|(k, _)| k.as_str() == Some(key))),
+        &|n| matches!(&n.kind, Kind::Map(m) if m.iter().any(|(k, _)| k.as_str() == Some(key))),
     )
 }
 
@@ -329,12 +329,9 @@ fn steps(below: &str) -> Vec<&str> {
 
 /// One step down from `v`: a key of a mapping or an index of a list.
 fn child<'v, 'n>(v: &'v Node<'n>, step: &str) -> Option<&'v Node<'n>> {
-    match v {
-        Node::Map(m) => m
-            .iter()
-            .find(|(k, _)| k.as_str() == Some(step))
-            .map(|(_, x)| x),
-        Node::Seq(items) => items.get(step.parse::<usize>().ok()?),
+    match &v.kind {
+        Kind::Map(_) => v.get(step),
+        Kind::Seq(items) => items.get(step.parse::<usize>().ok()?),
         _ => None,
     }
 }
@@ -347,14 +344,14 @@ pub(super) fn node_at<'v, 'n>(v: &'v Node<'n>, below: &str) -> Option<&'v Node<'
 /// A copy of `v` whose mapping at `below` lacks the keys `keys`.
 pub(super) fn without_keys<'n>(v: &Node<'n>, below: &str, keys: &[String]) -> Node<'n> {
     fn go<'n>(v: &Node<'n>, steps: &[&str], keys: &[String]) -> Node<'n> {
-        match (v, steps.split_first()) {
-            (Node::Map(m), None) => Node::Map(
+        let kind = match (&v.kind, steps.split_first()) {
+            (Kind::Map(m), None) => Kind::Map(
                 m.iter()
                     .filter(|(k, _)| !k.as_str().is_some_and(|k| keys.iter().any(|x| x == k)))
                     .cloned()
                     .collect(),
             ),
-            (Node::Map(m), Some((step, rest))) => Node::Map(
+            (Kind::Map(m), Some((step, rest))) => Kind::Map(
                 m.iter()
                     .map(|(k, x)| {
                         if k.as_str() == Some(step) {
@@ -365,7 +362,7 @@ pub(super) fn without_keys<'n>(v: &Node<'n>, below: &str, keys: &[String]) -> No
                     })
                     .collect(),
             ),
-            (Node::Seq(items), Some((step, rest))) => Node::Seq(
+            (Kind::Seq(items), Some((step, rest))) => Kind::Seq(
                 items
                     .iter()
                     .enumerate()
@@ -378,8 +375,9 @@ pub(super) fn without_keys<'n>(v: &Node<'n>, below: &str, keys: &[String]) -> No
                     })
                     .collect(),
             ),
-            (other, _) => other.clone(),
-        }
+            _ => return v.clone(),
+        };
+        Node::new(kind, v.at)
     }
     go(v, &steps(below), keys)
 }

@@ -4,7 +4,7 @@
 #[allow(clippy::wildcard_imports)]
 use super::*;
 use crate::model::tolerance::{Dist, Knob, Tolerance, step};
-use crate::spec::ToleranceSpec;
+use crate::spec::{Seg, ToleranceSpec, segments};
 use crate::units::parse_fraction;
 use std::fmt::Write as _;
 
@@ -12,53 +12,6 @@ use std::fmt::Write as _;
 pub(crate) const MAX_TOLERANCES: usize = 200;
 /// Most choices of one `pick`.
 const MAX_PICKS: usize = 1000;
-
-/// One part of a path: a name or a list index.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub(crate) enum Seg<'a> {
-    Name(&'a str),
-    Index(usize),
-}
-
-/// `profile[0].repeat[1].for` -> profile, 0, repeat, 1, for.
-///
-/// # Errors
-///
-/// What is wrong with the path, in words.
-pub(crate) fn segments(path: &str) -> Result<Vec<Seg<'_>>, String> {
-    let mut out = Vec::new();
-    for part in path.split('.') {
-        let (name, mut rest) = match part.find('[') {
-            Some(k) => (&part[..k], &part[k..]),
-            None => (part, ""),
-        };
-        if name.is_empty() && (out.is_empty() || rest.is_empty()) {
-            return Err("the path has an empty part: separate names with single dots".into());
-        }
-        if !name.is_empty() {
-            out.push(Seg::Name(name));
-        }
-        while !rest.is_empty() {
-            let Some(close) = rest.find(']') else {
-                return Err(format!("`{part}` has a `[` without its `]`"));
-            };
-            let n = rest[1..close].trim();
-            match n.parse::<usize>() {
-                Ok(i) if i < 1_000_000 => out.push(Seg::Index(i)),
-                _ => {
-                    return Err(format!(
-                        "`[{n}]` is not a list index: write a whole number such as `[0]`"
-                    ));
-                }
-            }
-            rest = &rest[close + 1..];
-            if !rest.is_empty() && !rest.starts_with('[') {
-                return Err(format!("`{part}`: a name cannot follow `]` without a dot"));
-            }
-        }
-    }
-    Ok(out)
-}
 
 const CELL_KEYS: [&str; 8] = [
     "capacity",
