@@ -287,6 +287,54 @@ pub fn run_observed(
     opt: &RunOptions,
     progress: Option<&dyn Fn(f64)>,
 ) -> Result<RunResult, RunError> {
+    run_inner(design, opt, progress).0
+}
+
+/// How much work a run did, for benchmarks and profiling: what [`run_counted`] returns beside
+/// the result.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+#[non_exhaustive]
+pub struct RunCounts {
+    /// Operating points solved (the work the limit bounds; trace probes do not count).
+    pub points: u64,
+    /// Passes of repeat blocks executed, the speculative ones included.
+    pub passes: u64,
+    /// Of those, passes simulated only to measure a skipped stretch's rates.
+    pub speculative_passes: u64,
+    /// Skipped stretches taken.
+    pub skips: u64,
+    /// Held steps taken (every probe included).
+    pub steps: u64,
+}
+
+/// [`run`], also returning the work it did ([`RunCounts`]).
+///
+/// # Errors
+///
+/// As [`run`].
+pub fn run_counted(
+    design: &Design,
+    opt: &RunOptions,
+) -> (Result<RunResult, RunError>, RunCounts) {
+    run_inner(design, opt, None)
+}
+
+fn run_inner(
+    design: &Design,
+    opt: &RunOptions,
+    progress: Option<&dyn Fn(f64)>,
+) -> (Result<RunResult, RunError>, RunCounts) {
+    let mut counts = RunCounts::default();
+    let r = run_counting(design, opt, progress, &mut counts);
+    (r, counts)
+}
+
+fn run_counting(
+    design: &Design,
+    opt: &RunOptions,
+    progress: Option<&dyn Fn(f64)>,
+    counts: &mut RunCounts,
+) -> Result<RunResult, RunError> {
     if !(opt.horizon_s > 0.0 && opt.horizon_s <= MAX_HORIZON_S) {
         return Err(RunError::Options {
             option: "horizon",
@@ -304,6 +352,10 @@ pub fn run_observed(
     let mut sim = Sim::new(&ctx);
     let pass: f64 = design.profile.iter().map(Step::duration).sum();
     let stopped = sim.passes(&design.profile, pass, f64::INFINITY);
+    *counts = RunCounts {
+        points: ctx.work.get(),
+        ..ctx.counts.get()
+    };
     if let Some(e) = ctx.fault.borrow_mut().take() {
         return Err(e);
     }
@@ -358,6 +410,8 @@ struct Ctx<'a> {
     work: Cell<u64>,
     /// Why the run cannot go on; once set, every step stops at once.
     fault: RefCell<Option<RunError>>,
+    /// Passes, skips and steps done so far (points are `work`).
+    counts: Cell<RunCounts>,
 }
 
 impl<'a> Ctx<'a> {
@@ -395,6 +449,7 @@ impl<'a> Ctx<'a> {
             v_max: d.loads.iter().map(|l| l.v_max).collect(),
             work: Cell::new(0),
             fault: RefCell::new(None),
+            counts: Cell::new(RunCounts::default()),
         }
     }
 
@@ -426,6 +481,13 @@ impl<'a> Ctx<'a> {
 
     fn failed(&self) -> bool {
         self.fault.borrow().is_some()
+    }
+
+    /// Change the counts of work done.
+    fn count(&self, f: impl FnOnce(&mut RunCounts)) {
+        let mut c = self.counts.get();
+        f(&mut c);
+        self.counts.set(c);
     }
 }
 
@@ -551,6 +613,11 @@ impl<'a> Sim<'a> {
     /// exact however small against the run's; `None` if the product stopped in it.
     fn run_pass(&mut self, steps: &[Step], pass: f64) -> Option<Delta> {
         let (s0, vp0) = (self.s, self.vp);
+        let speculative = self.speculative;
+        self.c.count(|c| {
+            c.passes += 1;
+            c.speculative_passes += u64::from(speculative);
+        });
         let fresh = Ledger::new(self.c.d.stages.len(), self.c.d.loads.len());
         let total = std::mem::replace(&mut self.ledger, fresh);
         let stopped = self.steps(steps, pass);
@@ -757,6 +824,7 @@ impl<'a> Sim<'a> {
             if self.halted(mode) {
                 return true;
             }
+            self.c.count(|c| c.steps += 1);
             let sol = next
                 .take()
                 .unwrap_or_else(|| self.solve(mode, self.soc(), self.vp));

@@ -243,6 +243,7 @@ impl<'a> Sim<'a> {
             probe.trace_skipped(self, steps, pass, k, &rates);
             probe.speculative = self.speculative;
             *self = probe;
+            self.c.count(|c| c.skips += 1);
             return Some((k + 1.0, rk));
         }
         self.run_pass(steps, pass).map(|d| (1.0, d))
