@@ -8,7 +8,9 @@
 //! example must give the same result, bit for bit, on one thread or two (a Monte Carlo sample is
 //! reproducible from its seed).
 //!
-//! `-- --quick` measures for a shorter time per example.
+//! `-- --quick` measures for a shorter time per example; `JOULEPATH_BENCH_ONLY=TEXT` only the
+//! examples whose file name holds TEXT; `JOULEPATH_BENCH_RUNS=N` runs each example N times and
+//! measures nothing (for `perf stat -e instructions:u`, which a busy machine does not disturb).
 
 use std::time::{Duration, Instant};
 
@@ -35,6 +37,11 @@ fn main() {
         .filter(|p| p.extension().is_some_and(|x| x == "yaml"))
         .collect();
     files.sort();
+    // `JOULEPATH_BENCH_ONLY=coin` measures the examples whose file name holds that text (to
+    // profile one).
+    if let Ok(only) = std::env::var("JOULEPATH_BENCH_ONLY") {
+        files.retain(|f| f.to_string_lossy().contains(&only));
+    }
 
     println!(
         "{:<24} {:>9} {:>9} {:>11} {:>8} {:>8} {:>6} {:>6} {:>8} {:>10} {:>8}",
@@ -50,6 +57,12 @@ fn main() {
         "runtime d",
         "end"
     );
+    // `JOULEPATH_BENCH_REFERENCE=FILE`: also compare each example with the chronological
+    // reference, whose runtimes are kept in FILE (computed once: minutes).
+    let reference = std::env::var("JOULEPATH_BENCH_REFERENCE").ok();
+    let fixed_runs: Option<u32> = std::env::var("JOULEPATH_BENCH_RUNS")
+        .ok()
+        .and_then(|v| v.parse().ok());
     let mut verdicts = Vec::new();
     let mut total_s = 0.0;
     let mut slowest = f64::INFINITY;
@@ -62,6 +75,39 @@ fn main() {
         let opt = RunOptions::for_design(&d);
         let (first, counts) = run_counted(&d, &opt);
         let first = first.expect("fast run");
+        let agreement = reference.as_ref().map(|cache| {
+            let (t, reason) = reference_of(cache, &name, &d);
+            let diff = (first.runtime_s() - t) / t;
+            let ok = diff.abs() <= 2e-3 && reason == first.end.reason.name();
+            verdicts.push(verdict(
+                ok,
+                &format!(
+                    "{name}: within {:.5} % of the chronological reference (0.2 %), end {} / {reason}",
+                    100.0 * diff.abs(),
+                    first.end.reason.name()
+                ),
+            ));
+            diff
+        });
+        if let Some(n) = fixed_runs {
+            // A fixed number of runs and nothing else, for a count of instructions
+            // (`perf stat -e instructions:u`) that a busy machine does not disturb.
+            for _ in 0..n {
+                check(&run(&d, &opt).expect("fast run"), &first, &name);
+            }
+            println!(
+                "{name}: {n} runs; points {}, passes {}, skips {}, runtime {:.9e} s, end {}",
+                counts.points,
+                counts.passes,
+                counts.skips,
+                first.runtime_s(),
+                first.end.reason.name()
+            );
+            if let Some(diff) = agreement {
+                println!("  fast - reference = {:+.6} %", 100.0 * diff);
+            }
+            continue;
+        }
         let per_run = time_runs(&d, &opt, window, &first, &name);
         same_on_two_threads(&d, &opt, &first, &name);
         let per_s = 1.0 / per_run;
@@ -80,6 +126,9 @@ fn main() {
             first.runtime_s() / 86_400.0,
             first.end.reason.name()
         );
+        if let Some(diff) = agreement {
+            println!("{:<24} fast - reference = {:+.5} %", "", 100.0 * diff);
+        }
         verdicts.push(verdict(
             per_s >= TARGET_PER_S,
             &format!(
@@ -109,8 +158,8 @@ fn main() {
     }
 }
 
-/// Seconds per run of `d`, measured over about `window` (the median of batches), checking every
-/// run against `first`.
+/// Seconds per run of `d` (CPU time of the thread where the system gives it), measured over
+/// about `window` (the median of batches), checking every run against `first`.
 fn time_runs(
     d: &Design,
     opt: &RunOptions,
@@ -129,14 +178,47 @@ fn time_runs(
     let start = Instant::now();
     while start.elapsed() < window || batches.len() < 5 {
         let t = Instant::now();
+        let cpu = cpu_s();
         for _ in 0..n {
             let r = std::hint::black_box(run(d, opt).expect("fast run"));
             check(&r, first, name);
         }
-        batches.push(t.elapsed().as_secs_f64() / f64::from(n));
+        // The thread's own CPU time where the system gives it (a machine shared with builds
+        // stretches the wall-clock time), else the wall clock.
+        let spent = match (cpu, cpu_s()) {
+            (Some(a), Some(b)) => b - a,
+            _ => t.elapsed().as_secs_f64(),
+        };
+        batches.push(spent / f64::from(n));
     }
     batches.sort_by(f64::total_cmp);
     batches[batches.len() / 2]
+}
+
+/// CPU time of this thread so far, s (Linux: /proc/thread-self/schedstat, nanoseconds on the
+/// CPU first).
+fn cpu_s() -> Option<f64> {
+    let text = std::fs::read_to_string("/proc/thread-self/schedstat").ok()?;
+    let ns: f64 = text.split_whitespace().next()?.parse().ok()?;
+    Some(ns * 1e-9)
+}
+
+/// The chronological reference's runtime and end reason for example `name`, from the file
+/// `cache` (lines `name runtime reason`), computed and added there when missing.
+fn reference_of(cache: &str, name: &str, d: &Design) -> (f64, String) {
+    let known = std::fs::read_to_string(cache).unwrap_or_default();
+    for line in known.lines() {
+        let mut w = line.split_whitespace();
+        if w.next() == Some(name) {
+            if let (Some(t), Some(r)) = (w.next().and_then(|t| t.parse().ok()), w.next()) {
+                return (t, r.to_string());
+            }
+        }
+    }
+    let r = run(d, &RunOptions::reference(d)).expect("reference run");
+    let line = format!("{name} {:e} {}\n", r.runtime_s(), r.end.reason.name());
+    std::fs::write(cache, known + &line).expect("write the reference cache");
+    (r.runtime_s(), r.end.reason.name().to_string())
 }
 
 /// Two threads at once give `first` too.

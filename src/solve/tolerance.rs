@@ -36,6 +36,11 @@ pub const TRACE_PROBES_PER_SKIP: u64 = 12;
 /// the stretch is halved. The stretch is then taken at the parabola's mean, whose own error is
 /// of higher order.
 pub const SKIP_REL_ERR: f64 = 2e-4;
+/// A stretch is first tried with two nodes, the pass before it and its end pass: where their
+/// falls in state of charge differ by less than this share, the stretch is taken along the line
+/// through them (for rates that move one way, within half this share of the truth) and no middle
+/// pass is run. A block whose rates bend once uses three nodes from then on.
+pub const SKIP_LINEAR_REL: f64 = 1e-4;
 /// Fewest passes a run must be estimated to last (passes so far plus state of charge over the
 /// last pass's fall) for the fast solver to skip any: the end falls on a pass, and with fewer
 /// passes one pass more or less is beyond 0.2 % of the runtime. The estimate overstates runs

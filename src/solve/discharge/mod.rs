@@ -21,7 +21,8 @@ mod end;
 mod skip;
 
 use std::cell::{Cell, RefCell};
-use std::collections::HashSet;
+use std::collections::{HashMap, HashSet};
+use std::rc::Rc;
 use std::fmt;
 
 use super::check::{Violation, ViolationKind, violations_where};
@@ -382,7 +383,7 @@ fn run_counting(
         end,
         ledger: sim.ledger,
         peaks: sim.peaks,
-        violations: sim.violations,
+        violations: Rc::unwrap_or_clone(sim.violations),
         trace: sim.tracer.map(|t| t.points()).unwrap_or_default(),
         ambient_c: opt.ambient_c,
         capacity_c: ctx.q,
@@ -412,6 +413,9 @@ struct Ctx<'a> {
     fault: RefCell<Option<RunError>>,
     /// Passes, skips and steps done so far (points are `work`).
     counts: Cell<RunCounts>,
+    /// Repeat blocks (by the address of their steps) whose last stretch bent, so that their
+    /// next one takes three nodes at once (`Sim::skip`).
+    bent: RefCell<HashSet<usize>>,
 }
 
 impl<'a> Ctx<'a> {
@@ -450,6 +454,7 @@ impl<'a> Ctx<'a> {
             work: Cell::new(0),
             fault: RefCell::new(None),
             counts: Cell::new(RunCounts::default()),
+            bent: RefCell::new(HashSet::new()),
         }
     }
 
@@ -483,6 +488,21 @@ impl<'a> Ctx<'a> {
         self.fault.borrow().is_some()
     }
 
+    /// Whether the next stretch of `block` tries two nodes first.
+    fn linear_hint(&self, block: usize) -> bool {
+        !self.bent.borrow().contains(&block)
+    }
+
+    /// Record whether the last stretch of `block` was straight.
+    fn set_linear_hint(&self, block: usize, linear: bool) {
+        let mut bent = self.bent.borrow_mut();
+        if linear {
+            bent.remove(&block);
+        } else {
+            bent.insert(block);
+        }
+    }
+
     /// Change the counts of work done.
     fn count(&self, f: impl FnOnce(&mut RunCounts)) {
         let mut c = self.counts.get();
@@ -501,8 +521,10 @@ struct Sim<'a> {
     vp: f64,
     ledger: Ledger,
     peaks: Vec<Peak>,
-    violations: Vec<Violation>,
-    seen: HashSet<(ViolationKind, String)>,
+    /// Violations so far and the (kind, subject) pairs among them, shared between a run and its
+    /// probes until one adds to them (a probe is a cheap copy).
+    violations: Rc<Vec<Violation>>,
+    seen: Rc<HashMap<ViolationKind, HashSet<String>>>,
     tracer: Option<Tracer>,
     /// A trace probe: it only gives points to the trace, does not probe again inside its skips
     /// and its solves do not count toward the work limit (they are at most a fixed multiple of
@@ -587,8 +609,8 @@ impl<'a> Sim<'a> {
                 };
                 d.stages.len()
             ],
-            violations: Vec::new(),
-            seen: HashSet::new(),
+            violations: Rc::default(),
+            seen: Rc::default(),
             tracer: c
                 .opt
                 .trace
@@ -735,12 +757,13 @@ impl<'a> Sim<'a> {
         }
         let seen = &self.seen;
         let found = violations_where(self.c.d, p, self.c.opt.ambient_c, &|k, s| {
-            !seen.contains(&(k, s.to_string()))
+            !seen.get(&k).is_some_and(|subjects| subjects.contains(s))
         });
         for mut v in found {
             v.t_s = Some(self.now());
-            if self.seen.insert((v.kind, v.subject.clone())) {
-                self.violations.push(v);
+            let subjects = Rc::make_mut(&mut self.seen).entry(v.kind).or_default();
+            if subjects.insert(v.subject.clone()) {
+                Rc::make_mut(&mut self.violations).push(v);
             }
         }
         self.offer_trace(p, self.now(), self.soc());

@@ -8,7 +8,7 @@
 
 #[allow(clippy::wildcard_imports)]
 use super::*;
-use crate::solve::tolerance::{SKIP_MIN_RUN_PASSES, SKIP_REL_ERR};
+use crate::solve::tolerance::{SKIP_LINEAR_REL, SKIP_MIN_RUN_PASSES, SKIP_REL_ERR};
 
 impl<'a> Sim<'a> {
     /// Advance `k` passes of length `pass` at the rates of `delta`.
@@ -100,13 +100,21 @@ impl<'a> Sim<'a> {
         let mut last: Option<Delta> = None;
         // Passes within which a skip found the product stopping (from the current state).
         let mut stop_within: Option<f64> = None;
+        // Whether this block's stretches try two nodes first: as its last stretch measured
+        // (the block runs again and again inside the passes of the blocks around it).
+        let block = steps.as_ptr() as usize;
+        let mut linear = self.c.linear_hint(block);
         while done < n {
             if let Some(delta) = last.as_ref() {
                 let k = self.plan_skip(delta, n - done, pass, leaf, stop_within);
                 let allowed = !self.c.opt.exact || delta.ds == 0.0;
                 if allowed && k >= SKIP_MIN_PASSES as f64 {
                     let mut found = None;
-                    match self.skip(steps, pass, k, delta, &mut found) {
+                    let skipped = self.skip(steps, pass, k, delta, &mut found, &mut linear);
+                    if !self.trace_probe {
+                        self.c.set_linear_hint(block, linear);
+                    }
+                    match skipped {
                         None => return true,
                         Some((j, d)) => {
                             done += j;
@@ -155,6 +163,7 @@ impl<'a> Sim<'a> {
         mut k: f64,
         delta: &Delta,
         stop_within: &mut Option<f64>,
+        linear: &mut bool,
     ) -> Option<(f64, Delta)> {
         let min = SKIP_MIN_PASSES as f64;
         // The start node: the pass before the stretch (at -1/2), or, when its polarization was
@@ -176,6 +185,33 @@ impl<'a> Sim<'a> {
             }
         }
         let delta = &first;
+        if *linear && k >= min && !self.c.failed() {
+            // The end pass first, reached at the start's rates: where the rates did not move
+            // over the stretch, the line through the two nodes is the stretch (no middle pass).
+            let mut probe = self.clone();
+            probe.speculative = true;
+            probe.advance(k, pass, delta);
+            match probe.run_pass(steps, pass) {
+                None => {
+                    if self.stop_found(stop_within, pass, k + 1.0) {
+                        k = 0.0;
+                    } else {
+                        k = (k / 2.0).floor();
+                    }
+                }
+                Some(rk) => {
+                    let flat = (rk.ds - delta.ds).abs() <= SKIP_LINEAR_REL * delta.ds.abs()
+                        && (rk.ds > 0.0 || delta.ds <= 0.0);
+                    if flat {
+                        let wk = (0.5 * k - x0) / (k + 0.5 - x0);
+                        let rates = Delta::blend([(1.0 - wk, delta), (0.0, delta), (wk, &rk)]);
+                        return Some(self.take_stretch(probe, steps, pass, k, delta, &rates, rk));
+                    }
+                    // The rates bend: three nodes.
+                    *linear = false;
+                }
+            }
+        }
         while k >= min && !self.c.failed() {
             let h = (k / 2.0).floor();
             let mut mid = self.clone();
@@ -237,16 +273,36 @@ impl<'a> Sim<'a> {
             // to the parabola's: the difference is of the order of the error estimate, so the
             // end pass's own changes stand.
             let rates = Delta::blend([(w[0], delta), (w[1], &rm), (w[2], &rk)]);
-            probe.s.add(-k * (rates.ds - rm.ds));
-            probe.ledger.add_scaled(&rates.ledger, k);
-            probe.ledger.add_scaled(&rm.ledger, -k);
-            probe.trace_skipped(self, steps, pass, k, &rates);
-            probe.speculative = self.speculative;
-            *self = probe;
-            self.c.count(|c| c.skips += 1);
-            return Some((k + 1.0, rk));
+            // Whether the next stretch of this block may try two nodes.
+            *linear = (rk.ds - delta.ds).abs() <= SKIP_LINEAR_REL * delta.ds.abs();
+            return Some(self.take_stretch(probe, steps, pass, k, &rm, &rates, rk));
         }
         self.run_pass(steps, pass).map(|d| (1.0, d))
+    }
+
+    /// Take a stretch of `k` passes ending with the end pass run in `probe` (whose changes are
+    /// `rk`), which reached it at the rates `used`: its state moves to the stretch's `rates`
+    /// (the difference is of the order of the error estimate, so the end pass's own changes
+    /// stand). Returns the passes done and the last pass's changes.
+    #[allow(clippy::too_many_arguments)]
+    fn take_stretch(
+        &mut self,
+        mut probe: Sim<'a>,
+        steps: &[Step],
+        pass: f64,
+        k: f64,
+        used: &Delta,
+        rates: &Delta,
+        rk: Delta,
+    ) -> (f64, Delta) {
+        probe.s.add(-k * (rates.ds - used.ds));
+        probe.ledger.add_scaled(&rates.ledger, k);
+        probe.ledger.add_scaled(&used.ledger, -k);
+        probe.trace_skipped(self, steps, pass, k, rates);
+        probe.speculative = self.speculative;
+        *self = probe;
+        self.c.count(|c| c.skips += 1);
+        (k + 1.0, rk)
     }
 
     /// With a trace, fill the skipped stretch: passes simulated at a few places inside it (from
