@@ -534,6 +534,10 @@ struct Sim<'a> {
     /// skip where the end lies.
     speculative: bool,
     end: Option<End>,
+    /// Pass length of the innermost repeat block being run (the profile's, at the top), and of
+    /// the one the product stopped in: the end falls on one of its passes.
+    block_pass: f64,
+    end_pass: f64,
 }
 
 /// What one pass of a block changed.
@@ -618,6 +622,8 @@ impl<'a> Sim<'a> {
             trace_probe: false,
             speculative: false,
             end: None,
+            block_pass: f64::INFINITY,
+            end_pass: f64::INFINITY,
         }
     }
 
@@ -724,6 +730,7 @@ impl<'a> Sim<'a> {
     }
 
     fn stop(&mut self, reason: EndReason, mode: Option<usize>, subject: String) {
+        self.end_pass = self.block_pass;
         self.end = Some(End {
             reason,
             t_s: self.now(),
