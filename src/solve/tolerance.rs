@@ -26,7 +26,7 @@ pub const STEP_MAX_DVP_FAST: f64 = 0.01;
 /// The same for the chronological reference.
 pub const STEP_MAX_DVP_EXACT: f64 = 0.001;
 /// Largest fall in state of charge the fast solver skips at once.
-pub const SKIP_MAX_DS: f64 = 0.2;
+pub const SKIP_MAX_DS: f64 = 0.04;
 /// Passes simulated inside each skipped stretch to give a trace its points there (they change
 /// nothing else): at least this many, and this many for each 4 % of charge the stretch covers.
 pub const TRACE_PROBES_PER_SKIP: u64 = 12;
