@@ -70,8 +70,8 @@ fn main() {
         let name = f
             .file_name()
             .map_or_else(String::new, |n| n.to_string_lossy().into_owned());
-        let d = Design::from_text(&std::fs::read_to_string(f).expect("read"))
-            .expect("valid example");
+        let d =
+            Design::from_text(&std::fs::read_to_string(f).expect("read")).expect("valid example");
         let opt = RunOptions::for_design(&d);
         let (first, counts) = run_counted(&d, &opt);
         let first = first.expect("fast run");
@@ -160,13 +160,7 @@ fn main() {
 
 /// Seconds per run of `d` (CPU time of the thread where the system gives it), measured over
 /// about `window` (the median of batches), checking every run against `first`.
-fn time_runs(
-    d: &Design,
-    opt: &RunOptions,
-    window: Duration,
-    first: &RunResult,
-    name: &str,
-) -> f64 {
+fn time_runs(d: &Design, opt: &RunOptions, window: Duration, first: &RunResult, name: &str) -> f64 {
     // A batch of about a tenth of the window.
     let t = Instant::now();
     let mut n = 0u32;

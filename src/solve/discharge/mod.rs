@@ -22,8 +22,8 @@ mod skip;
 
 use std::cell::{Cell, RefCell};
 use std::collections::{HashMap, HashSet};
-use std::rc::Rc;
 use std::fmt;
+use std::rc::Rc;
 
 use super::check::{Violation, ViolationKind, violations_where};
 use super::ledger::{Ledger, TracePoint, Tracer};
@@ -313,10 +313,7 @@ pub struct RunCounts {
 /// # Errors
 ///
 /// As [`run`].
-pub fn run_counted(
-    design: &Design,
-    opt: &RunOptions,
-) -> (Result<RunResult, RunError>, RunCounts) {
+pub fn run_counted(design: &Design, opt: &RunOptions) -> (Result<RunResult, RunError>, RunCounts) {
     run_inner(design, opt, None)
 }
 

@@ -138,8 +138,14 @@ impl<'a> Sim<'a> {
                 let allowed = !self.c.opt.exact || delta.ds == 0.0;
                 if allowed && k >= SKIP_MIN_PASSES as f64 {
                     let mut found = None;
-                    let skipped =
-                        self.skip(steps, pass, k, delta, (&mut found, &mut stop_pass), &mut linear);
+                    let skipped = self.skip(
+                        steps,
+                        pass,
+                        k,
+                        delta,
+                        (&mut found, &mut stop_pass),
+                        &mut linear,
+                    );
                     if !self.trace_probe {
                         self.c.set_linear_hint(block, linear);
                     }
