@@ -10,7 +10,8 @@
 //!
 //! Two solvers share this machinery. The chronological reference (`exact`) executes every pass of
 //! every repeat block. The fast solver executes a pass, then skips stretches of passes at rates
-//! taken from passes simulated at the stretch's start, middle and end, with the polarization at
+//! taken from passes simulated at the stretch's start, middle and end (start and end alone where
+//! those two agree: the rates did not move), with the polarization at
 //! its periodic value (one pass maps V_p to a V_p + b with a = e^(-T/tau), so the periodic value
 //! is b / (1 - a)), and executes the pass after each stretch. A stretch is halved where those
 //! rates bend too much and wherever a simulated pass stops the product, so the last passes before
