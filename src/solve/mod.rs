@@ -12,7 +12,8 @@ pub mod tolerance;
 pub use budget::{ModeBudget, budget};
 pub use check::{Violation, ViolationKind, junction_c, violations, violations_where};
 pub use discharge::{
-    End, EndReason, MAX_HORIZON_S, Peak, RunError, RunOptions, RunResult, YEAR_S, run, run_observed,
+    End, EndReason, MAX_HORIZON_S, Peak, RunCounts, RunError, RunOptions, RunResult, YEAR_S, run,
+    run_counted, run_observed,
 };
 pub use ledger::{Ledger, TracePoint, Tracer, state_index};
 pub use point::{

@@ -181,7 +181,9 @@ pub fn solve_point(design: &Design, mode: usize, at: PackState) -> Solution {
         (None, Some((r1, _))) => (ocv, r0 + r1),
         (None, None) => (ocv, r0),
     };
-    let mut locked = vec![false; design.stages.len()];
+    // Empty until a stage is locked out (most points have none): `Walker::is_locked`.
+    let mut locked: Vec<bool> = Vec::new();
+    let size = design.stages.len() + design.loads.len();
     loop {
         let walker = Walker {
             d: design,
@@ -195,18 +197,19 @@ pub fn solve_point(design: &Design, mode: usize, at: PackState) -> Solution {
         else {
             return Solution::Collapse { ocv, resistance: r };
         };
-        let mut rec_a = Vec::new();
-        let mut rec_b = Vec::new();
+        let mut rec_a = Vec::with_capacity(size);
+        let mut rec_b = Vec::with_capacity(size);
         let ia = walker.rail_current(0, v_a, Some(&mut rec_a));
         let ib = walker.rail_current(0, v_b, Some(&mut rec_b));
-        let rec = blend(&rec_a, &rec_b, alpha);
+        blend(&mut rec_a, &rec_b, alpha);
         let current = alpha * ia + (1.0 - alpha) * ib;
         let voltage = alpha * v_a + (1.0 - alpha) * v_b;
-        let point = assemble(design, mode, ocv, voltage, current, &rec);
+        let point = assemble(design, mode, ocv, voltage, current, &rec_a);
         let newly = lockouts(design, &walker, &point);
         if newly.is_empty() {
             return Solution::Point(point);
         }
+        locked.resize(design.stages.len(), false);
         for k in newly {
             locked[k] = true;
         }
@@ -217,7 +220,7 @@ pub fn solve_point(design: &Design, mode: usize, at: PackState) -> Solution {
 fn lockouts(design: &Design, walker: &Walker, p: &OperatingPoint) -> Vec<usize> {
     let low = |k: usize| {
         let s = &p.stages[k];
-        !walker.locked[k]
+        !walker.is_locked(k)
             && s.state.is_running()
             && design.stages[k].input_min.is_some_and(|m| s.vin < m)
     };
@@ -248,12 +251,11 @@ enum Rec {
     Load(usize, LoadPoint),
 }
 
-/// Weighted average of two walks of the same tree (same order of records).
-fn blend(a: &[Rec], b: &[Rec], alpha: f64) -> Vec<Rec> {
+/// Weighted average of two walks of the same tree (same order of records), into the first.
+fn blend(a: &mut [Rec], b: &[Rec], alpha: f64) {
     let mix = |x: f64, y: f64| alpha * x + (1.0 - alpha) * y;
-    a.iter()
-        .zip(b)
-        .map(|(ra, rb)| match (ra, rb) {
+    for (ra, rb) in a.iter_mut().zip(b) {
+        *ra = match (&*ra, rb) {
             (Rec::Stage(k, sa), Rec::Stage(_, sb)) => {
                 let state = if sa.state == sb.state {
                     sa.state
@@ -285,8 +287,8 @@ fn blend(a: &[Rec], b: &[Rec], alpha: f64) -> Vec<Rec> {
                 },
             ),
             (other, _) => *other,
-        })
-        .collect()
+        };
+    }
 }
 
 fn assemble(
@@ -340,10 +342,16 @@ fn assemble(
 struct Walker<'a> {
     d: &'a Design,
     mode: &'a Mode,
+    /// Stages locked out, by index (empty: none).
     locked: &'a [bool],
 }
 
 impl Walker<'_> {
+    /// Whether stage `k` is locked out (`locked` is empty while none is).
+    fn is_locked(&self, k: usize) -> bool {
+        self.locked.get(k).copied().unwrap_or(false)
+    }
+
     /// Current drawn from `rail` at voltage `v` by everything on it.
     fn rail_current(&self, rail: usize, v: f64, mut rec: Option<&mut Vec<Rec>>) -> f64 {
         let mut total = 0.0;
@@ -421,7 +429,7 @@ impl Walker<'_> {
     fn stage_input(&self, k: usize, vin: f64, rec: Option<&mut Vec<Rec>>) -> f64 {
         let st = &self.d.stages[k];
         let out = k + 1;
-        if !self.mode.stage_on[k] || self.locked[k] {
+        if !self.mode.stage_on[k] || self.is_locked(k) {
             let state = if self.mode.stage_on[k] {
                 StageState::Undervoltage
             } else {
@@ -523,11 +531,14 @@ impl Walker<'_> {
             return (0.0, f64::INFINITY);
         };
         if let Some(r) = rec {
-            let mut ra = Vec::new();
-            let mut rb = Vec::new();
-            let ia = self.rail_current(out, v_a, Some(&mut ra));
-            let ib = self.rail_current(out, v_b, Some(&mut rb));
-            r.extend(blend(&ra, &rb, alpha));
+            // The subtree's records at both voltages, blended in place at the end of `r`.
+            let from = r.len();
+            let ia = self.rail_current(out, v_a, Some(r));
+            let mid = r.len();
+            let ib = self.rail_current(out, v_b, Some(r));
+            let (head, rb) = r.split_at_mut(mid);
+            blend(&mut head[from..], rb, alpha);
+            r.truncate(mid);
             return (
                 alpha * v_a + (1.0 - alpha) * v_b,
                 alpha * ia + (1.0 - alpha) * ib,

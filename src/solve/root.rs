@@ -119,6 +119,16 @@ pub fn settle(v_open: f64, r: f64, demand: &mut dyn FnMut(f64) -> f64) -> Settle
             if probe > 0.0 {
                 let fp = f(probe);
                 if g(probe, fp) >= 0.0 {
+                    // And a point a hair higher should not: a bracket of a few units in the
+                    // last place, a dozen halvings from a single voltage (rather than some
+                    // fifty from the last iterate).
+                    let up = v_open - r * fv + margin;
+                    if up < v_upper {
+                        let fu = f(up);
+                        if g(up, fu) < 0.0 {
+                            return bisect(v_open, r, &mut f, probe, up);
+                        }
+                    }
                     return bisect(v_open, r, &mut f, probe, v_upper);
                 }
             }

@@ -10,7 +10,8 @@
 //!
 //! Two solvers share this machinery. The chronological reference (`exact`) executes every pass of
 //! every repeat block. The fast solver executes a pass, then skips stretches of passes at rates
-//! taken from passes simulated at the stretch's start, middle and end, with the polarization at
+//! taken from passes simulated at the stretch's start, middle and end (start and end alone where
+//! those two agree: the rates did not move), with the polarization at
 //! its periodic value (one pass maps V_p to a V_p + b with a = e^(-T/tau), so the periodic value
 //! is b / (1 - a)), and executes the pass after each stretch. A stretch is halved where those
 //! rates bend too much and wherever a simulated pass stops the product, so the last passes before
@@ -21,8 +22,9 @@ mod end;
 mod skip;
 
 use std::cell::{Cell, RefCell};
-use std::collections::HashSet;
+use std::collections::{HashMap, HashSet};
 use std::fmt;
+use std::rc::Rc;
 
 use super::check::{Violation, ViolationKind, violations_where};
 use super::ledger::{Ledger, TracePoint, Tracer};
@@ -287,6 +289,51 @@ pub fn run_observed(
     opt: &RunOptions,
     progress: Option<&dyn Fn(f64)>,
 ) -> Result<RunResult, RunError> {
+    run_inner(design, opt, progress).0
+}
+
+/// How much work a run did, for benchmarks and profiling: what [`run_counted`] returns beside
+/// the result.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+#[non_exhaustive]
+pub struct RunCounts {
+    /// Operating points solved (the work the limit bounds; trace probes do not count).
+    pub points: u64,
+    /// Passes of repeat blocks executed, the speculative ones included.
+    pub passes: u64,
+    /// Of those, passes simulated only to measure a skipped stretch's rates.
+    pub speculative_passes: u64,
+    /// Skipped stretches taken.
+    pub skips: u64,
+    /// Held steps taken (every probe included).
+    pub steps: u64,
+}
+
+/// [`run`], also returning the work it did ([`RunCounts`]).
+///
+/// # Errors
+///
+/// As [`run`].
+pub fn run_counted(design: &Design, opt: &RunOptions) -> (Result<RunResult, RunError>, RunCounts) {
+    run_inner(design, opt, None)
+}
+
+fn run_inner(
+    design: &Design,
+    opt: &RunOptions,
+    progress: Option<&dyn Fn(f64)>,
+) -> (Result<RunResult, RunError>, RunCounts) {
+    let mut counts = RunCounts::default();
+    let r = run_counting(design, opt, progress, &mut counts);
+    (r, counts)
+}
+
+fn run_counting(
+    design: &Design,
+    opt: &RunOptions,
+    progress: Option<&dyn Fn(f64)>,
+    counts: &mut RunCounts,
+) -> Result<RunResult, RunError> {
     if !(opt.horizon_s > 0.0 && opt.horizon_s <= MAX_HORIZON_S) {
         return Err(RunError::Options {
             option: "horizon",
@@ -304,6 +351,10 @@ pub fn run_observed(
     let mut sim = Sim::new(&ctx);
     let pass: f64 = design.profile.iter().map(Step::duration).sum();
     let stopped = sim.passes(&design.profile, pass, f64::INFINITY);
+    *counts = RunCounts {
+        points: ctx.work.get(),
+        ..ctx.counts.get()
+    };
     if let Some(e) = ctx.fault.borrow_mut().take() {
         return Err(e);
     }
@@ -330,7 +381,7 @@ pub fn run_observed(
         end,
         ledger: sim.ledger,
         peaks: sim.peaks,
-        violations: sim.violations,
+        violations: Rc::unwrap_or_clone(sim.violations),
         trace: sim.tracer.map(|t| t.points()).unwrap_or_default(),
         ambient_c: opt.ambient_c,
         capacity_c: ctx.q,
@@ -358,6 +409,11 @@ struct Ctx<'a> {
     work: Cell<u64>,
     /// Why the run cannot go on; once set, every step stops at once.
     fault: RefCell<Option<RunError>>,
+    /// Passes, skips and steps done so far (points are `work`).
+    counts: Cell<RunCounts>,
+    /// Repeat blocks (by the address of their steps) whose last stretch bent, so that their
+    /// next one takes three nodes at once (`Sim::skip`).
+    bent: RefCell<HashSet<usize>>,
 }
 
 impl<'a> Ctx<'a> {
@@ -395,6 +451,8 @@ impl<'a> Ctx<'a> {
             v_max: d.loads.iter().map(|l| l.v_max).collect(),
             work: Cell::new(0),
             fault: RefCell::new(None),
+            counts: Cell::new(RunCounts::default()),
+            bent: RefCell::new(HashSet::new()),
         }
     }
 
@@ -427,6 +485,28 @@ impl<'a> Ctx<'a> {
     fn failed(&self) -> bool {
         self.fault.borrow().is_some()
     }
+
+    /// Whether the next stretch of `block` tries two nodes first.
+    fn linear_hint(&self, block: usize) -> bool {
+        !self.bent.borrow().contains(&block)
+    }
+
+    /// Record whether the last stretch of `block` was straight.
+    fn set_linear_hint(&self, block: usize, linear: bool) {
+        let mut bent = self.bent.borrow_mut();
+        if linear {
+            bent.remove(&block);
+        } else {
+            bent.insert(block);
+        }
+    }
+
+    /// Change the counts of work done.
+    fn count(&self, f: impl FnOnce(&mut RunCounts)) {
+        let mut c = self.counts.get();
+        f(&mut c);
+        self.counts.set(c);
+    }
 }
 
 /// The state and totals of a run in progress.
@@ -439,8 +519,10 @@ struct Sim<'a> {
     vp: f64,
     ledger: Ledger,
     peaks: Vec<Peak>,
-    violations: Vec<Violation>,
-    seen: HashSet<(ViolationKind, String)>,
+    /// Violations so far and the (kind, subject) pairs among them, shared between a run and its
+    /// probes until one adds to them (a probe is a cheap copy).
+    violations: Rc<Vec<Violation>>,
+    seen: Rc<HashMap<ViolationKind, HashSet<String>>>,
     tracer: Option<Tracer>,
     /// A trace probe: it only gives points to the trace, does not probe again inside its skips
     /// and its solves do not count toward the work limit (they are at most a fixed multiple of
@@ -450,6 +532,10 @@ struct Sim<'a> {
     /// skip where the end lies.
     speculative: bool,
     end: Option<End>,
+    /// Pass length of the innermost repeat block being run (the profile's, at the top), and of
+    /// the one the product stopped in: the end falls on one of its passes.
+    block_pass: f64,
+    end_pass: f64,
 }
 
 /// What one pass of a block changed.
@@ -525,8 +611,8 @@ impl<'a> Sim<'a> {
                 };
                 d.stages.len()
             ],
-            violations: Vec::new(),
-            seen: HashSet::new(),
+            violations: Rc::default(),
+            seen: Rc::default(),
             tracer: c
                 .opt
                 .trace
@@ -534,6 +620,8 @@ impl<'a> Sim<'a> {
             trace_probe: false,
             speculative: false,
             end: None,
+            block_pass: f64::INFINITY,
+            end_pass: f64::INFINITY,
         }
     }
 
@@ -551,6 +639,11 @@ impl<'a> Sim<'a> {
     /// exact however small against the run's; `None` if the product stopped in it.
     fn run_pass(&mut self, steps: &[Step], pass: f64) -> Option<Delta> {
         let (s0, vp0) = (self.s, self.vp);
+        let speculative = self.speculative;
+        self.c.count(|c| {
+            c.passes += 1;
+            c.speculative_passes += u64::from(speculative);
+        });
         let fresh = Ledger::new(self.c.d.stages.len(), self.c.d.loads.len());
         let total = std::mem::replace(&mut self.ledger, fresh);
         let stopped = self.steps(steps, pass);
@@ -635,6 +728,7 @@ impl<'a> Sim<'a> {
     }
 
     fn stop(&mut self, reason: EndReason, mode: Option<usize>, subject: String) {
+        self.end_pass = self.block_pass;
         self.end = Some(End {
             reason,
             t_s: self.now(),
@@ -668,12 +762,13 @@ impl<'a> Sim<'a> {
         }
         let seen = &self.seen;
         let found = violations_where(self.c.d, p, self.c.opt.ambient_c, &|k, s| {
-            !seen.contains(&(k, s.to_string()))
+            !seen.get(&k).is_some_and(|subjects| subjects.contains(s))
         });
         for mut v in found {
             v.t_s = Some(self.now());
-            if self.seen.insert((v.kind, v.subject.clone())) {
-                self.violations.push(v);
+            let subjects = Rc::make_mut(&mut self.seen).entry(v.kind).or_default();
+            if subjects.insert(v.subject.clone()) {
+                Rc::make_mut(&mut self.violations).push(v);
             }
         }
         self.offer_trace(p, self.now(), self.soc());
@@ -757,6 +852,7 @@ impl<'a> Sim<'a> {
             if self.halted(mode) {
                 return true;
             }
+            self.c.count(|c| c.steps += 1);
             let sol = next
                 .take()
                 .unwrap_or_else(|| self.solve(mode, self.soc(), self.vp));

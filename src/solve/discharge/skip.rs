@@ -8,7 +8,7 @@
 
 #[allow(clippy::wildcard_imports)]
 use super::*;
-use crate::solve::tolerance::{SKIP_MIN_RUN_PASSES, SKIP_REL_ERR};
+use crate::solve::tolerance::{SKIP_LINEAR_REL, SKIP_MIN_RUN_PASSES, SKIP_REL_ERR};
 
 impl<'a> Sim<'a> {
     /// Advance `k` passes of length `pass` at the rates of `delta`.
@@ -29,43 +29,62 @@ impl<'a> Sim<'a> {
         };
     }
 
-    /// Whether a run that stops within `within` passes of `pass` seconds from now lasts fewer than
-    /// [`SKIP_MIN_RUN_PASSES`] in all: its end falls on a pass and one pass weighs more than the
-    /// 0.2 % promised, so it is run pass by pass from here.
-    pub(super) fn ends_soon(&self, pass: f64, within: f64) -> bool {
-        self.now() / pass + within < SKIP_MIN_RUN_PASSES
+    /// Whether a run that stops within `within` passes of `pass` seconds from now lasts fewer
+    /// than [`SKIP_MIN_RUN_PASSES`] passes of `stop_pass` seconds, those of the block the end
+    /// falls in (this one or one nested in it): the end falls on one of them and one weighs
+    /// more than the 0.2 % promised, so this block runs pass by pass from here.
+    fn stop_soon(&self, pass: f64, within: f64, stop_pass: f64) -> bool {
+        (self.now() + within * pass) / stop_pass < SKIP_MIN_RUN_PASSES
     }
 
-    /// Record that a simulated pass stopped the product within `within` passes; true if that
-    /// makes the run short enough to go pass by pass from here ([`Sim::ends_soon`]).
-    fn stop_found(&self, stop_within: &mut Option<f64>, pass: f64, within: f64) -> bool {
+    /// Record that `probe`, a simulated pass, stopped the product within `within` passes, and
+    /// the pass length of the block it stopped in (`stop_pass`); true if that makes the run
+    /// short enough to go pass by pass from here ([`Sim::stop_soon`]).
+    fn stop_found(
+        &self,
+        stop_within: &mut Option<f64>,
+        stop_pass: &mut f64,
+        probe: &Sim,
+        pass: f64,
+        within: f64,
+    ) -> bool {
         *stop_within = Some(within);
-        self.ends_soon(pass, within)
+        *stop_pass = probe.end_pass;
+        self.stop_soon(pass, within, probe.end_pass)
     }
 
     /// How many passes the fast solver may skip after a pass that changed things by `delta`,
     /// with `remaining` passes of the block left and, if a skip found it, the product stopping
-    /// within `stop_within` passes.
+    /// within `stop_within` passes, in a block of passes of `stop_pass` seconds (this one or one
+    /// nested in it).
     pub(super) fn plan_skip(
         &self,
         delta: &Delta,
         remaining: f64,
         pass: f64,
-        leaf: bool,
+        steps: &[Step],
         stop_within: Option<f64>,
+        stop_pass: f64,
     ) -> f64 {
         // A run of few passes (to empty at the last pass's fall, or to the stop a skip found) is
-        // executed pass by pass with the reference's steps: its end falls on a pass, and one
-        // pass more or less would be more than the 0.2 % the fast solver promises.
+        // executed pass by pass (the innermost blocks with the reference's steps): its end falls on a pass, and one
+        // pass more or less would be more than the 0.2 % the fast solver promises. A block
+        // holding repeat blocks skips until a skip finds where the end falls: inside a nested
+        // block, the run is counted in that block's (shorter) passes.
+        // Until then the end may fall in the shortest of them.
         let to_empty = if delta.ds > 0.0 {
             self.soc() / delta.ds
         } else {
             f64::INFINITY
         };
-        if self.ends_soon(pass, to_empty.min(stop_within.unwrap_or(f64::INFINITY))) {
+        let stops_soon = stop_within.map_or_else(
+            || self.stop_soon(pass, to_empty, finest_pass(steps, pass)),
+            |w| self.stop_soon(pass, w, stop_pass),
+        );
+        if stops_soon {
             // Where the passes hold repeat blocks, those skip on their own and the end falls on
             // one of their passes: fine steps are for the innermost blocks.
-            if leaf {
+            if !steps.iter().any(|s| matches!(s, Step::Repeat { .. })) {
                 self.c.fine.set(true);
             }
             return 0.0;
@@ -95,18 +114,42 @@ impl<'a> Sim<'a> {
     /// Execute `n` passes (a whole number, possibly infinite) of `steps`, each `pass` seconds;
     /// true if the product stopped.
     pub(super) fn passes(&mut self, steps: &[Step], pass: f64, n: f64) -> bool {
-        let leaf = !steps.iter().any(|s| matches!(s, Step::Repeat { .. }));
+        let outer = std::mem::replace(&mut self.block_pass, pass);
+        let stopped = self.passes_here(steps, pass, n);
+        self.block_pass = outer;
+        stopped
+    }
+
+    /// [`Sim::passes`] with the block's pass length recorded.
+    fn passes_here(&mut self, steps: &[Step], pass: f64, n: f64) -> bool {
         let mut done = 0.0;
         let mut last: Option<Delta> = None;
         // Passes within which a skip found the product stopping (from the current state).
         let mut stop_within: Option<f64> = None;
+        // The pass length of the block that stop falls in (this one or a nested one).
+        let mut stop_pass = pass;
+        // Whether this block's stretches try two nodes first: as its last stretch measured
+        // (the block runs again and again inside the passes of the blocks around it).
+        let block = steps.as_ptr() as usize;
+        let mut linear = self.c.linear_hint(block);
         while done < n {
             if let Some(delta) = last.as_ref() {
-                let k = self.plan_skip(delta, n - done, pass, leaf, stop_within);
+                let k = self.plan_skip(delta, n - done, pass, steps, stop_within, stop_pass);
                 let allowed = !self.c.opt.exact || delta.ds == 0.0;
                 if allowed && k >= SKIP_MIN_PASSES as f64 {
                     let mut found = None;
-                    match self.skip(steps, pass, k, delta, &mut found) {
+                    let skipped = self.skip(
+                        steps,
+                        pass,
+                        k,
+                        delta,
+                        (&mut found, &mut stop_pass),
+                        &mut linear,
+                    );
+                    if !self.trace_probe {
+                        self.c.set_linear_hint(block, linear);
+                    }
+                    match skipped {
                         None => return true,
                         Some((j, d)) => {
                             done += j;
@@ -144,7 +187,7 @@ impl<'a> Sim<'a> {
     /// halved. It is halved too whenever a simulated pass stops the product; `stop_within` then
     /// records within how many passes of the start the product stops, so the caller's next
     /// stretches end before it and the last passes run exactly (all of them, when the run is
-    /// short in passes: [`Sim::ends_soon`]). The accepted stretch ends with the end pass, its
+    /// short in passes: [`Sim::stop_soon`]). The accepted stretch ends with the end pass, its
     /// state moved from the middle's rates to the parabola's.
     ///
     /// Below [`SKIP_MIN_PASSES`] the pass is executed exactly.
@@ -154,7 +197,8 @@ impl<'a> Sim<'a> {
         pass: f64,
         mut k: f64,
         delta: &Delta,
-        stop_within: &mut Option<f64>,
+        (stop_within, stop_pass): (&mut Option<f64>, &mut f64),
+        linear: &mut bool,
     ) -> Option<(f64, Delta)> {
         let min = SKIP_MIN_PASSES as f64;
         // The start node: the pass before the stretch (at -1/2), or, when its polarization was
@@ -176,6 +220,36 @@ impl<'a> Sim<'a> {
             }
         }
         let delta = &first;
+        if *linear && k >= min && !self.c.failed() {
+            // The end pass first, reached at the start's rates: where the rates did not move
+            // over the stretch, the line through the two nodes is the stretch (no middle pass).
+            let mut probe = self.clone();
+            probe.speculative = true;
+            probe.advance(k, pass, delta);
+            match probe.run_pass(steps, pass) {
+                None => {
+                    if self.speculative {
+                        return self.stopped_like(&probe);
+                    }
+                    if self.stop_found(stop_within, stop_pass, &probe, pass, k + 1.0) {
+                        k = 0.0;
+                    } else {
+                        k = (k / 2.0).floor();
+                    }
+                }
+                Some(rk) => {
+                    let flat = (rk.ds - delta.ds).abs() <= SKIP_LINEAR_REL * delta.ds.abs()
+                        && (rk.ds > 0.0 || delta.ds <= 0.0);
+                    if flat {
+                        let wk = (0.5 * k - x0) / (k + 0.5 - x0);
+                        let rates = Delta::blend([(1.0 - wk, delta), (0.0, delta), (wk, &rk)]);
+                        return Some(self.take_stretch(probe, steps, pass, k, delta, &rates, rk));
+                    }
+                    // The rates bend: three nodes.
+                    *linear = false;
+                }
+            }
+        }
         while k >= min && !self.c.failed() {
             let h = (k / 2.0).floor();
             let mut mid = self.clone();
@@ -183,7 +257,10 @@ impl<'a> Sim<'a> {
             mid.advance(h, pass, delta);
             let start_mid = mid.clone();
             let Some(mut rm) = mid.run_pass(steps, pass) else {
-                if self.stop_found(stop_within, pass, h + 1.0) {
+                if self.speculative {
+                    return self.stopped_like(&mid);
+                }
+                if self.stop_found(stop_within, stop_pass, &mid, pass, h + 1.0) {
                     break;
                 }
                 k = h;
@@ -204,7 +281,10 @@ impl<'a> Sim<'a> {
                 let mut again = start_mid;
                 again.vp = rm.vp_star;
                 let Some(r) = again.run_pass(steps, pass) else {
-                    if self.stop_found(stop_within, pass, h + 1.0) {
+                    if self.speculative {
+                        return self.stopped_like(&again);
+                    }
+                    if self.stop_found(stop_within, stop_pass, &again, pass, h + 1.0) {
                         break;
                     }
                     k = h;
@@ -222,7 +302,10 @@ impl<'a> Sim<'a> {
                 probe.vp += (toward_end.vp_star - rm.vp_star) * (1.0 - rm.decay.powf(k));
             }
             let Some(rk) = probe.run_pass(steps, pass) else {
-                if self.stop_found(stop_within, pass, k + 1.0) {
+                if self.speculative {
+                    return self.stopped_like(&probe);
+                }
+                if self.stop_found(stop_within, stop_pass, &probe, pass, k + 1.0) {
                     break;
                 }
                 k = h;
@@ -237,15 +320,46 @@ impl<'a> Sim<'a> {
             // to the parabola's: the difference is of the order of the error estimate, so the
             // end pass's own changes stand.
             let rates = Delta::blend([(w[0], delta), (w[1], &rm), (w[2], &rk)]);
-            probe.s.add(-k * (rates.ds - rm.ds));
-            probe.ledger.add_scaled(&rates.ledger, k);
-            probe.ledger.add_scaled(&rm.ledger, -k);
-            probe.trace_skipped(self, steps, pass, k, &rates);
-            probe.speculative = self.speculative;
-            *self = probe;
-            return Some((k + 1.0, rk));
+            // Whether the next stretch of this block may try two nodes.
+            *linear = (rk.ds - delta.ds).abs() <= SKIP_LINEAR_REL * delta.ds.abs();
+            return Some(self.take_stretch(probe, steps, pass, k, &rm, &rates, rk));
         }
         self.run_pass(steps, pass).map(|d| (1.0, d))
+    }
+
+    /// Inside a speculative pass (one that only measures rates or finds that the product
+    /// stops), a simulated pass of a nested block that stops the product stops the speculative
+    /// pass too, without locating the end: the caller only learns that its pass stops. Returns
+    /// `None` (stopped) with `probe`'s end.
+    fn stopped_like(&mut self, probe: &Sim) -> Option<(f64, Delta)> {
+        self.end.clone_from(&probe.end);
+        self.end_pass = probe.end_pass;
+        None
+    }
+
+    /// Take a stretch of `k` passes ending with the end pass run in `probe` (whose changes are
+    /// `rk`), which reached it at the rates `used`: its state moves to the stretch's `rates`
+    /// (the difference is of the order of the error estimate, so the end pass's own changes
+    /// stand). Returns the passes done and the last pass's changes.
+    #[allow(clippy::too_many_arguments)]
+    fn take_stretch(
+        &mut self,
+        mut probe: Sim<'a>,
+        steps: &[Step],
+        pass: f64,
+        k: f64,
+        used: &Delta,
+        rates: &Delta,
+        rk: Delta,
+    ) -> (f64, Delta) {
+        probe.s.add(-k * (rates.ds - used.ds));
+        probe.ledger.add_scaled(&rates.ledger, k);
+        probe.ledger.add_scaled(&used.ledger, -k);
+        probe.trace_skipped(self, steps, pass, k, rates);
+        probe.speculative = self.speculative;
+        *self = probe;
+        self.c.count(|c| c.skips += 1);
+        (k + 1.0, rk)
     }
 
     /// With a trace, fill the skipped stretch: passes simulated at a few places inside it (from
@@ -262,7 +376,9 @@ impl<'a> Sim<'a> {
         if self.tracer.is_none() || self.trace_probe {
             return;
         }
-        let probes = (TRACE_PROBES_PER_SKIP as f64).min(k);
+        // At least a few, and as many for each share of charge as a 4 % stretch had.
+        let by_charge = (k * rates.ds * TRACE_PROBES_PER_SKIP as f64 / 0.04).ceil();
+        let probes = by_charge.max(TRACE_PROBES_PER_SKIP as f64).min(k);
         let mut j = 1.0;
         while j < probes {
             let mut probe = base.clone();
@@ -277,6 +393,18 @@ impl<'a> Sim<'a> {
             j += 1.0;
         }
     }
+}
+
+/// The shortest pass of the repeat blocks in `steps` (a pass of `pass` seconds) and nested in
+/// them, `pass` itself included: where the end of a run may fall.
+fn finest_pass(steps: &[Step], pass: f64) -> f64 {
+    steps.iter().fold(pass, |m, s| match s {
+        Step::Repeat { steps: inner, .. } => {
+            let p: f64 = inner.iter().map(Step::duration).sum();
+            m.min(finest_pass(inner, p))
+        }
+        Step::Hold { .. } => m,
+    })
 }
 
 /// Weights of the passes at the start (before the stretch at `x0` = -1/2, or its first at 1/2),
