@@ -7,7 +7,7 @@ use plotters::style::text_anchor::{HPos, VPos};
 
 use super::discharge::{Px, header, overlaps, tick};
 use super::style::{
-    BLUE, Dash, GREEN, GREY, INK, MESH_BOLD, MESH_LIGHT, ORANGE, PURPLE, SKY, Shape, Swatch,
+    BLUE, Dash, GREEN, GREY, INK, MESH_BOLD, ORANGE, PURPLE, SKY, Shape, Swatch,
     TimeUnit, Type, VERMILLION, YELLOW, label, legend, marker, pixel_line, px, text, text_width,
 };
 use super::{Canvas, Painter, PlotError, PlotFormat, render};
@@ -42,6 +42,20 @@ fn in_unit(s: f64, unit: TimeUnit) -> String {
     format!("{} {}", fmt_sig(s / unit.seconds, 3), unit.symbol)
 }
 
+/// A round step at most `x`: 1, 2, 2.5 or 5 times a power of ten.
+fn round_step_down(x: f64) -> f64 {
+    if !(x > 0.0 && x.is_finite()) {
+        return 1.0;
+    }
+    let mag = 10f64.powf(x.log10().floor());
+    for m in [5.0, 2.5, 2.0, 1.0] {
+        if m * mag <= x * (1.0 + 1e-9) {
+            return m * mag;
+        }
+    }
+    mag
+}
+
 /// A round step at least `x`: 1, 2, 2.5 or 5 times a power of ten.
 fn round_step(x: f64) -> f64 {
     if !(x > 0.0 && x.is_finite()) {
@@ -60,10 +74,13 @@ fn round_step(x: f64) -> f64 {
 ///
 /// The width follows the Freedman–Diaconis rule, 2 IQR / n^(1/3) (Freedman, D. and Diaconis,
 /// P., "On the histogram as a density estimator: L2 theory", Zeitschrift für
-/// Wahrscheinlichkeitstheorie 57, 1981), which suits skewed and many-peaked runtimes; when the
-/// interquartile range is zero it falls back to Sturges' rule, log2(n) + 1 bins over the range
-/// (Sturges, H. A., "The choice of a class interval", JASA 21, 1926). The width is then rounded
-/// up to a round step and the edges put on its multiples, and the count kept within [`BINS`].
+/// Wahrscheinlichkeitstheorie 57, 1981), or Sturges' rule, log2(n) + 1 bins over the range
+/// (Sturges, H. A., "The choice of a class interval", JASA 21, 1926), whichever gives the
+/// narrower bins: Freedman–Diaconis alone draws a few wide bins for a spread of several peaks
+/// (a wide interquartile range) at a few hundred samples. Taking the narrower of the two is
+/// what NumPy's `histogram_bin_edges(bins="auto")` does (from memory). A zero interquartile
+/// range leaves Sturges alone. The width is then rounded
+/// down to a round step and the edges put on its multiples, and the count kept within [`BINS`].
 pub(crate) fn bins(sorted: &[f64]) -> (f64, f64, usize) {
     let n = sorted.len().max(1) as f64;
     let (lo, hi) = (sorted[0], sorted[sorted.len() - 1]);
@@ -75,12 +92,18 @@ pub(crate) fn bins(sorted: &[f64]) -> (f64, f64, usize) {
         return (first, w, 1);
     }
     let iqr = percentile(sorted, 75.0) - percentile(sorted, 25.0);
+    let sturges = range / (n.log2().floor() + 1.0);
     let raw = if iqr > 0.0 {
-        2.0 * iqr / n.cbrt()
+        (2.0 * iqr / n.cbrt()).min(sturges)
     } else {
-        range / (n.log2().floor() + 1.0)
+        sturges
     };
-    let mut w = round_step(raw.max(range / BINS.1 as f64));
+    // Rounded down, so there are at least as many bins as the rule asks, but not above the
+    // most.
+    let mut w = round_step_down(raw);
+    if range / w > BINS.1 as f64 - 1.0 {
+        w = round_step(range / (BINS.1 as f64 - 1.0));
+    }
     // Fewer than the least: narrower round steps until there are enough.
     while range / w < BINS.0 as f64 - 1.0 && sorted.len() >= 2 * BINS.0 {
         w = round_step(w * 0.45);
@@ -343,7 +366,7 @@ impl Painter for Histogram<'_> {
         let area = body.margin(strip, 0, 0, 0);
         let mut ch = chart(&area)?;
         ch.configure_mesh()
-            .light_line_style(MESH_LIGHT)
+            .light_line_style(WHITE)
             .bold_line_style(MESH_BOLD)
             .x_desc(format!("runtime ({})", unit.symbol))
             .y_desc("simulated units")
@@ -385,17 +408,11 @@ impl Painter for Histogram<'_> {
         let top = ch.backend_coord(&(x_lo, y_hi)).1;
         let bottom = ch.backend_coord(&(x_lo, 0.0)).1;
         let strip_top = y + 2;
+        // The lines and their leads first, then the words on white over any lead they cross.
         for (k, m) in marks.iter().enumerate() {
-            let (row, cx) = slot[k];
+            let row = slot[k].0;
             let x = ch.backend_coord(&(m.at_s / unit.seconds, 0.0)).0;
             let ly = strip_top + px_len(row) * row_h + row_h / 2;
-            label(
-                root,
-                &m.words,
-                (cx, ly),
-                &text(ty.body, m.colour, HPos::Center, VPos::Center),
-            )?;
-            // A thin lead from the words to the chart, then the line through it.
             pixel_line(
                 root,
                 vec![(x, ly + row_h / 2 - 2), (x, top)],
@@ -404,6 +421,21 @@ impl Painter for Histogram<'_> {
                 Dash::Solid,
             )?;
             pixel_line(root, vec![(x, top), (x, bottom)], m.colour, 2, m.dash)?;
+        }
+        for (k, m) in marks.iter().enumerate() {
+            let (row, cx) = slot[k];
+            let ly = strip_top + px_len(row) * row_h + row_h / 2;
+            let tw = text_width(root, &m.words, ty.body);
+            root.draw(&Rectangle::new(
+                [(cx - tw / 2 - 3, ly - row_h / 2 + 2), (cx + tw / 2 + 3, ly + row_h / 2 - 2)],
+                WHITE.filled(),
+            ))?;
+            label(
+                root,
+                &m.words,
+                (cx, ly),
+                &text(ty.body, m.colour, HPos::Center, VPos::Center),
+            )?;
         }
         Ok(())
     }
@@ -553,7 +585,7 @@ impl Painter for Tornado<'_> {
         ch.configure_mesh()
             .disable_y_mesh()
             .y_labels(0)
-            .light_line_style(MESH_LIGHT)
+            .light_line_style(WHITE)
             .bold_line_style(MESH_BOLD)
             .x_desc(format!("runtime ({})", unit.symbol))
             .axis_desc_style(("sans-serif", ty.axis))
@@ -641,14 +673,18 @@ mod tests {
 
     #[test]
     fn bins_follow_freedman_diaconis_on_round_edges() {
-        // 1000 values evenly over 0..100: IQR 50, so 2 * 50 / 1000^(1/3) = 10 exactly.
-        let v: Vec<f64> = (0..1000).map(|i| f64::from(i) / 10.0).collect();
+        // 8000 values evenly over 0..100: IQR 50, so Freedman–Diaconis gives
+        // 2 * 50 / 8000^(1/3) = 5 exactly, narrower than Sturges' 100 / 13.
+        let v: Vec<f64> = (0..8000).map(|i| f64::from(i) / 80.0).collect();
         let (first, w, n) = bins(&v);
-        assert!((w - 10.0).abs() < 1e-9, "{w}");
+        assert!((w - 5.0).abs() < 1e-9, "{w}");
         assert!(first.abs() < 1e-12);
-        assert_eq!(n, 10);
+        assert_eq!(n, 20);
         // Every value falls in a bin.
-        assert!(first + w * n as f64 > 99.9);
+        assert!(first + w * n as f64 > v[7999]);
+        // 1000 values: Freedman–Diaconis 10, Sturges 99.9 / 10 = 9.99, rounded down to 5.
+        let v: Vec<f64> = (0..1000).map(|i| f64::from(i) / 10.0).collect();
+        assert!((bins(&v).1 - 5.0).abs() < 1e-9);
         // All alike: one bin holding the value.
         let (first, w, n) = bins(&[5.0; 20]);
         assert_eq!(n, 1);
