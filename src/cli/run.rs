@@ -359,7 +359,9 @@ pub fn run(args: &Args) -> Result<(), Failure> {
                 let (n, t) = (spread.samples as usize, spread.target);
                 spread_command(d.clone(), ra, n, spread.seed, t, false).map_err(|e| e.message())
             });
-            let sp = sp.as_ref().map(|r| r.as_ref().map(|x| &x.1).map_err(String::as_str));
+            let sp = sp
+                .as_ref()
+                .map(|r| r.as_ref().map(|x| &x.1).map_err(String::as_str));
             let bytes = report_command(&d, &run_options(&d, ra, true), *soc, sp)?;
             emit(&bytes, Some(output))
         }

@@ -7,8 +7,8 @@ use plotters::style::text_anchor::{HPos, VPos};
 
 use super::discharge::{Px, header, overlaps, tick};
 use super::style::{
-    BLUE, Dash, GREEN, GREY, INK, MESH_BOLD, ORANGE, PURPLE, SKY, Shape, Swatch,
-    TimeUnit, Type, VERMILLION, YELLOW, label, legend, marker, pixel_line, px, text, text_width,
+    BLUE, Dash, GREEN, GREY, INK, MESH_BOLD, ORANGE, PURPLE, SKY, Shape, Swatch, TimeUnit, Type,
+    VERMILLION, YELLOW, label, legend, marker, pixel_line, px, text, text_width,
 };
 use super::{Canvas, Painter, PlotError, PlotFormat, render};
 use crate::model::Design;
@@ -428,7 +428,10 @@ impl Painter for Histogram<'_> {
             let ly = strip_top + px_len(row) * row_h + row_h / 2;
             let tw = text_width(root, &m.words, ty.body);
             root.draw(&Rectangle::new(
-                [(cx - tw / 2 - 3, ly - row_h / 2 + 2), (cx + tw / 2 + 3, ly + row_h / 2 - 2)],
+                [
+                    (cx - tw / 2 - 3, ly - row_h / 2 + 2),
+                    (cx + tw / 2 + 3, ly + row_h / 2 - 2),
+                ],
                 WHITE.filled(),
             ))?;
             label(
@@ -468,7 +471,9 @@ pub fn spread_tornado(
         ));
     };
     if spread.swings.is_empty() {
-        return Err(PlotError::Nothing("nothing varies: no swings to draw".into()));
+        return Err(PlotError::Nothing(
+            "nothing varies: no swings to draw".into(),
+        ));
     }
     render(
         &Tornado {
@@ -540,7 +545,10 @@ impl Painter for Tornado<'_> {
             pad,
         )?;
         let mut keys = vec![
-            (Swatch::Block(LOW, 0.9), "value at its low bound".to_string()),
+            (
+                Swatch::Block(LOW, 0.9),
+                "value at its low bound".to_string(),
+            ),
             (Swatch::Block(HIGH, 0.9), "value at its high bound".into()),
             (
                 Swatch::Line(INK, 2, Dash::Solid),
