@@ -634,6 +634,8 @@ fn histogram_states_failed_runs_and_colours_each_end_reason() {
     ];
     let svg = spread_histogram(d, &sp, PlotFormat::Svg, DEFAULT_SIZE).expect("histogram SVG");
     keep("soil-histogram-failed.svg", &svg);
+    let png = spread_histogram(d, &sp, PlotFormat::Png, (900, 600)).expect("histogram PNG");
+    keep("soil-histogram-failed.png", &png);
     let t = svg_texts(&svg);
     assert!(
         has(&t, "3 of the 200 runs gave no runtime"),
@@ -688,12 +690,22 @@ fn tornado_has_one_bar_per_tolerance_in_swing_order() {
     assert!(has(&t, "low 2.00 min · high 10.0 min"), "{t:?}");
     assert!(has(&t, "as designed: 2.7"), "{t:?}");
     assert!(has(&t, "runtime (y)"), "{t:?}");
-    // Each bar is a part toward each bound's runtime: blue (low) and orange (high), one each
-    // per value (plus one of each in the legend).
+    // Each bar is a part toward each bound's runtime: blue (low) and orange (high), one for
+    // each bound that moves the runtime (plus one of each in the legend). The microcontroller's
+    // sleep current and the regulator's quiescent current are as designed at their low bound.
     let s = String::from_utf8(svg).unwrap();
-    let n = sp.swings.len() + 1;
-    assert_eq!(s.matches("fill=\"#0072B2\"").count(), n, "low parts");
-    assert_eq!(s.matches("fill=\"#E69F00\"").count(), n, "high parts");
+    let nominal = sp.nominal.runtime.clone().unwrap();
+    let moved = |at: fn(&joulepath::spread::Swing) -> &joulepath::spread::Outcome| {
+        sp.swings
+            .iter()
+            .filter(|x| at(x).runtime.clone().unwrap() != nominal)
+            .count()
+            + 1
+    };
+    let (low, high) = (moved(|x| &x.at.0), moved(|x| &x.at.1));
+    assert_eq!((low, high), (5, 7), "bounds that move the runtime");
+    assert_eq!(s.matches("fill=\"#0072B2\"").count(), low, "low parts");
+    assert_eq!(s.matches("fill=\"#E69F00\"").count(), high, "high parts");
     assert!(!has(&t, "no result"), "{t:?}");
 }
 
@@ -707,6 +719,8 @@ fn tornado_names_a_bound_whose_run_failed() {
     });
     let svg = spread_tornado(d, &sp, PlotFormat::Svg, DEFAULT_SIZE).expect("tornado SVG");
     keep("soil-tornado-failed.svg", &svg);
+    let png = spread_tornado(d, &sp, PlotFormat::Png, (900, 600)).expect("tornado PNG");
+    keep("soil-tornado-failed.png", &png);
     let t = svg_texts(&svg);
     assert!(has(&t, "no result at the low bound"), "{t:?}");
     assert!(has(&t, "run gave no result"), "legend: {t:?}");

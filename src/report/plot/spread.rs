@@ -15,7 +15,7 @@ use crate::model::Design;
 use crate::report::spread::fmt_value;
 use crate::solve::EndReason;
 use crate::spread::{Spread, percentile};
-use crate::units::{fmt_duration, fmt_percent, fmt_sig};
+use crate::units::{fmt_percent, fmt_sig};
 
 /// Seconds in a year of 365.25 days, as durations are written elsewhere.
 const YEAR_S: f64 = 365.25 * 86_400.0;
@@ -239,9 +239,9 @@ impl Painter for Histogram<'_> {
         let mut lines = vec![format!(
             "{n} simulated units (seed {}): half run longer than {}, and 90 % between {} and {}.",
             sp.options.seed,
-            fmt_duration(s.p50),
-            fmt_duration(s.p5),
-            fmt_duration(s.p95)
+            in_unit(s.p50, unit),
+            in_unit(s.p5, unit),
+            in_unit(s.p95, unit)
         )];
         lines.push(if sp.failed == 0 {
             "Every simulated unit gave a runtime.".into()
@@ -493,6 +493,11 @@ struct Tornado<'a> {
     nominal: f64,
 }
 
+/// Whether both bounds gave a runtime.
+fn failed_none(lo: Option<f64>, hi: Option<f64>) -> bool {
+    lo.is_some() && hi.is_some()
+}
+
 /// Colour of the part of a bar toward the low bound's runtime.
 const LOW: RGBColor = BLUE;
 /// Colour of the part toward the high bound's runtime.
@@ -616,12 +621,31 @@ impl Painter for Tornado<'_> {
                 .filter_map(|(t, c)| t.map(|t| (t / unit.seconds, *c)))
                 .collect();
             parts.sort_by(|a, b| (b.0 - nom_u).abs().total_cmp(&(a.0 - nom_u).abs()));
+            let centre = ch.backend_coord(&(nom_u, y0));
+            let still = parts.iter().all(|p| (p.0 - nom_u).abs() <= 0.0);
             for (t, c) in parts {
-                let (a, b) = if t < nom_u { (t, nom_u) } else { (nom_u, t) };
-                ch.plotting_area()
-                    .draw(&Rectangle::new([(a, y0), (b, y1)], c.mix(0.9).filled()))?;
-                ch.plotting_area()
-                    .draw(&Rectangle::new([(a, y0), (b, y1)], WHITE.stroke_width(1)))?;
+                // In pixels: a part that moves the runtime at all shows at least 3 pixels past
+                // the line as designed (which is 2 wide), so a small swing is not hidden by it.
+                let (end, bottom) = ch.backend_coord(&(t, y1));
+                let end = if t < nom_u {
+                    end.min(centre.0 - 3)
+                } else if t > nom_u {
+                    end.max(centre.0 + 3)
+                } else {
+                    continue;
+                };
+                let rect = [(centre.0.min(end), centre.1), (centre.0.max(end), bottom)];
+                root.draw(&Rectangle::new(rect, c.mix(0.9).filled()))?;
+                root.draw(&Rectangle::new(rect, WHITE.stroke_width(1)))?;
+            }
+            if still && failed_none(*lo, *hi) {
+                let at = ch.backend_coord(&(nom_u, row));
+                label(
+                    root,
+                    "no change",
+                    (at.0 + 6, at.1),
+                    &text(small, GREY, HPos::Left, VPos::Center),
+                )?;
             }
             // A failed bound: a hollow square on the line as designed and its words beside it,
             // on the side away from the other bound's bar.
