@@ -516,6 +516,12 @@ fn budget_section(w: &mut dyn Write, d: &Design, modes: &[ModeBudget], soc: f64)
     writeln!(w, "</section>")
 }
 
+/// A duration without its second unit (`2.63 y` of `2.63 y (961 d)`), so that the eight
+/// columns of the swing table fit the page.
+fn short(duration: &str) -> &str {
+    duration.split(" (").next().unwrap_or(duration)
+}
+
 /// The spread across units: the answer in a sentence, the runtime percentiles, the share
 /// reaching the target, why units stop, what moves the runtime, and the two pictures.
 fn spread_section(w: &mut dyn Write, d: &Design, sp: &Spread) -> io::Result<()> {
@@ -585,13 +591,13 @@ fn spread_section(w: &mut dyn Write, d: &Design, sp: &Spread) -> io::Result<()> 
                 esc(&fmt_value(d, k, x.nominal)),
                 esc(&fmt_value(d, k, x.bounds.0)),
                 esc(&fmt_value(d, k, x.bounds.1)),
-                esc(&run_text(&x.at.0).0),
-                esc(&run_text(&x.at.1).0),
+                esc(short(&run_text(&x.at.0).0)),
+                esc(short(&run_text(&x.at.1).0)),
                 if delta.is_finite() {
                     esc(&format!(
                         "{}{}",
                         if delta < 0.0 { "-" } else { "+" },
-                        fmt_duration(delta.abs())
+                        short(&fmt_duration(delta.abs()))
                     ))
                 } else {
                     "—".into()
