@@ -87,10 +87,9 @@ pub(crate) fn bins(sorted: &[f64]) -> (f64, f64, usize) {
     let (lo, hi) = (sorted[0], sorted[sorted.len() - 1]);
     let range = hi - lo;
     if range <= 0.0 {
-        // All alike: one bin of a round width around the value.
+        // All alike: one bin of a round width centred on the value.
         let w = round_step((lo.abs() * 0.02).max(1e-9));
-        let first = (lo / w).floor() * w;
-        return (first, w, 1);
+        return (lo - w / 2.0, w, 1);
     }
     let iqr = percentile(sorted, 75.0) - percentile(sorted, 25.0);
     let sturges = range / (n.log2().floor() + 1.0);
