@@ -1,5 +1,6 @@
 //! Pictures and the HTML report: SVG that parses and names its axes with units, the cutoff and
-//! the end; PNG of the asked size that is not blank; a self-contained HTML report.
+//! the end; PNG of the asked size that is not blank; a self-contained HTML report; the spread's
+//! histogram and tornado chart, and its section of the report.
 //!
 //! Set `JOULEPATH_PLOT_DIR` to a directory to also write every picture there for a look.
 
@@ -7,12 +8,13 @@ use std::collections::HashSet;
 use std::path::Path;
 
 use joulepath::Design;
-use joulepath::report::html::write_html;
+use joulepath::report::html::{write_html, write_html_with_spread};
 use joulepath::report::plot::{
     DEFAULT_SIZE, PlotError, PlotFormat, compare_discharge, discharge, efficiency, losses,
-    plot_format,
+    plot_format, spread_histogram, spread_tornado,
 };
-use joulepath::solve::{ModeBudget, RunOptions, RunResult, budget, run};
+use joulepath::solve::{ModeBudget, RunError, RunOptions, RunResult, budget, run};
+use joulepath::spread::{Spread, SpreadOptions, spread};
 
 use crate::util::{example_files, root};
 
@@ -504,4 +506,284 @@ fn html_report_is_self_contained() {
         );
     }
     assert!(html.contains("ldo-1v8"));
+}
+
+/// The soil probe's spread (200 units, seed 5, target 3 y), run once for all the tests here.
+fn soil_spread() -> &'static (Design, Spread) {
+    static SPREAD: std::sync::OnceLock<(Design, Spread)> = std::sync::OnceLock::new();
+    SPREAD.get_or_init(|| {
+        let d = load("soil-probe.yaml");
+        let mut o = SpreadOptions::for_design(&d);
+        o.samples = 200;
+        o.seed = 5;
+        o.target_s = Some(3.0 * 365.25 * 86_400.0);
+        let s = spread(&d, &o).expect("the soil probe's spread");
+        (d, s)
+    })
+}
+
+/// Every `<text>` element of an SVG: its words and its anchor point (x, y).
+fn svg_labels(bytes: &[u8]) -> Vec<(String, f64, f64)> {
+    let text = std::str::from_utf8(bytes).expect("SVG is UTF-8");
+    let doc =
+        roxmltree::Document::parse(text).unwrap_or_else(|e| panic!("SVG does not parse: {e}"));
+    doc.descendants()
+        .filter(|n| n.has_tag_name("text"))
+        .filter_map(|n| {
+            let words: String = n
+                .descendants()
+                .filter(roxmltree::Node::is_text)
+                .filter_map(|t| t.text())
+                .collect();
+            let x = n.attribute("x")?.parse().ok()?;
+            let y = n.attribute("y")?.parse().ok()?;
+            Some((words.trim().to_string(), x, y))
+        })
+        .collect()
+}
+
+/// The anchor of the one label whose words start with `start`.
+fn place(labels: &[(String, f64, f64)], start: &str) -> (f64, f64) {
+    let found: Vec<&(String, f64, f64)> =
+        labels.iter().filter(|l| l.0.starts_with(start)).collect();
+    assert_eq!(found.len(), 1, "labels starting `{start}`: {found:?}");
+    (found[0].1, found[0].2)
+}
+
+#[test]
+fn histogram_marks_the_percentiles_in_order_and_the_target_with_its_share() {
+    use joulepath::units::{fmt_percent, fmt_sig};
+    let (d, sp) = soil_spread();
+    let svg = spread_histogram(d, sp, PlotFormat::Svg, DEFAULT_SIZE).expect("histogram SVG");
+    keep("soil-histogram.svg", &svg);
+    let labels = svg_labels(&svg);
+    let t: Vec<String> = labels.iter().map(|l| l.0.clone()).collect();
+    // The runtimes span about 0.5 to 6 years: the axis is in years.
+    let year = 365.25 * 86_400.0;
+    for want in [
+        "runtime (y)".to_string(),
+        "simulated units".into(),
+        format!("stop at the cutoff: 200 ({})", fmt_percent(1.0)),
+        "Every simulated unit gave a runtime.".into(),
+        format!("P50 {} y", fmt_sig(sp.summary.p50 / year, 3)),
+        format!(
+            "target {} y: {} reach it",
+            fmt_sig(3.0, 3),
+            fmt_percent(sp.reach.expect("a target").share)
+        ),
+    ] {
+        assert!(has(&t, &want), "no `{want}` in {t:?}");
+    }
+    let (p5, _) = place(&labels, "P5 ");
+    let (p50, _) = place(&labels, "P50 ");
+    let (p95, _) = place(&labels, "P95 ");
+    assert!(p5 < p50 && p50 < p95, "P5 {p5}, P50 {p50}, P95 {p95}");
+    // Each label stands over its value on the runtime axis: between the ticks either side.
+    let tick = |v: f64| {
+        let s = tick_words(v);
+        labels
+            .iter()
+            .find(|l| l.0 == s)
+            .unwrap_or_else(|| panic!("no tick `{s}` in {t:?}"))
+            .1
+    };
+    for (x, at) in [
+        (p50, sp.summary.p50),
+        (p95, sp.summary.p95),
+        (place(&labels, "target ").0, 3.0 * year),
+    ] {
+        let v = at / year;
+        let (lo, hi) = (v.floor(), v.floor() + 1.0);
+        let want = tick(lo) + (tick(hi) - tick(lo)) * (v - lo);
+        assert!(
+            (x - want).abs() < 3.0,
+            "label at {x}, value {v} y at {want}"
+        );
+    }
+    // Several bins of units that stopped at the cutoff (blue), besides the legend's block.
+    let s = String::from_utf8(svg).unwrap();
+    let bars = s.matches("fill=\"#0072B2\"").count();
+    assert!(bars >= 5, "{bars} bars");
+}
+
+/// A whole-number tick as the pictures write it.
+fn tick_words(v: f64) -> String {
+    format!("{v:.0}")
+}
+
+#[test]
+fn histogram_states_failed_runs_and_colours_each_end_reason() {
+    let (d, sp) = soil_spread();
+    let mut sp = sp.clone();
+    // Three runs that gave no result (as a run stopped by its work limit does), and some units
+    // that ended another way.
+    for o in &mut sp.samples[..3] {
+        o.runtime = Err(RunError::WorkLimit {
+            limit: 10,
+            t_s: 3600.0,
+        });
+        o.end = None;
+    }
+    for o in &mut sp.samples[3..23] {
+        o.end = Some(joulepath::solve::EndReason::Empty);
+    }
+    sp.failed = 3;
+    sp.ends = vec![
+        (joulepath::solve::EndReason::Cutoff, 177),
+        (joulepath::solve::EndReason::Empty, 20),
+    ];
+    let svg = spread_histogram(d, &sp, PlotFormat::Svg, DEFAULT_SIZE).expect("histogram SVG");
+    keep("soil-histogram-failed.svg", &svg);
+    let png = spread_histogram(d, &sp, PlotFormat::Png, (900, 600)).expect("histogram PNG");
+    keep("soil-histogram-failed.png", &png);
+    let t = svg_texts(&svg);
+    assert!(
+        has(&t, "3 of the 200 runs gave no runtime"),
+        "no failed runs in {t:?}"
+    );
+    assert!(has(&t, "stop at the cutoff: 177"), "{t:?}");
+    assert!(has(&t, "run empty: 20"), "{t:?}");
+    let s = String::from_utf8(svg).unwrap();
+    // Green (0, 158, 115) for the units that ran empty.
+    assert!(
+        s.contains("fill=\"#009E73\""),
+        "no bar of the second reason"
+    );
+    // No runtime at all: nothing to draw, said plainly.
+    for o in &mut sp.samples {
+        o.runtime = Err(RunError::WorkLimit {
+            limit: 10,
+            t_s: 3600.0,
+        });
+    }
+    assert!(matches!(
+        spread_histogram(d, &sp, PlotFormat::Svg, DEFAULT_SIZE),
+        Err(PlotError::Nothing(_))
+    ));
+}
+
+#[test]
+fn tornado_has_one_bar_per_tolerance_in_swing_order() {
+    use joulepath::report::spread::fmt_value;
+    let (d, sp) = soil_spread();
+    let svg = spread_tornado(d, sp, PlotFormat::Svg, DEFAULT_SIZE).expect("tornado SVG");
+    keep("soil-tornado.svg", &svg);
+    let labels = svg_labels(&svg);
+    let t: Vec<String> = labels.iter().map(|l| l.0.clone()).collect();
+    assert_eq!(sp.swings.len(), d.tolerances.len());
+    // Largest swing first: the reporting interval, on top.
+    assert_eq!(sp.swings[0].path, "profile[0].repeat[3].for");
+    let mut last_y = f64::NEG_INFINITY;
+    for x in &sp.swings {
+        let rows: Vec<_> = labels.iter().filter(|l| l.0 == x.path).collect();
+        assert_eq!(rows.len(), 1, "`{}` labels: {rows:?}", x.path);
+        assert!(rows[0].2 > last_y, "`{}` out of swing order", x.path);
+        last_y = rows[0].2;
+        let k = &sp.tolerances[x.tolerance].knob;
+        let bounds = format!(
+            "low {} · high {}",
+            fmt_value(d, k, x.bounds.0),
+            fmt_value(d, k, x.bounds.1)
+        );
+        assert!(has(&t, &bounds), "no `{bounds}` in {t:?}");
+    }
+    assert!(has(&t, "low 2.00 min · high 10.0 min"), "{t:?}");
+    assert!(has(&t, "as designed: 2.7"), "{t:?}");
+    assert!(has(&t, "runtime (y)"), "{t:?}");
+    // Each bar is a part toward each bound's runtime: blue (low) and orange (high), one for
+    // each bound that moves the runtime (plus one of each in the legend). The microcontroller's
+    // sleep current and the regulator's quiescent current are as designed at their low bound.
+    let s = String::from_utf8(svg).unwrap();
+    let nominal = sp.nominal.runtime.clone().unwrap();
+    let moved = |at: fn(&joulepath::spread::Swing) -> &joulepath::spread::Outcome| {
+        sp.swings
+            .iter()
+            .filter(|x| (at(x).runtime.clone().unwrap() - nominal).abs() > 0.0)
+            .count()
+            + 1
+    };
+    let (low, high) = (moved(|x| &x.at.0), moved(|x| &x.at.1));
+    assert_eq!((low, high), (5, 7), "bounds that move the runtime");
+    assert_eq!(s.matches("fill=\"#0072B2\"").count(), low, "low parts");
+    assert_eq!(s.matches("fill=\"#E69F00\"").count(), high, "high parts");
+    assert!(!has(&t, "no result"), "{t:?}");
+}
+
+#[test]
+fn tornado_names_a_bound_whose_run_failed() {
+    let (d, sp) = soil_spread();
+    let mut sp = sp.clone();
+    sp.swings[1].at.0.runtime = Err(RunError::WorkLimit {
+        limit: 10,
+        t_s: 3600.0,
+    });
+    let svg = spread_tornado(d, &sp, PlotFormat::Svg, DEFAULT_SIZE).expect("tornado SVG");
+    keep("soil-tornado-failed.svg", &svg);
+    let png = spread_tornado(d, &sp, PlotFormat::Png, (900, 600)).expect("tornado PNG");
+    keep("soil-tornado-failed.png", &png);
+    let t = svg_texts(&svg);
+    assert!(has(&t, "no result at the low bound"), "{t:?}");
+    assert!(has(&t, "run gave no result"), "legend: {t:?}");
+}
+
+#[test]
+fn spread_pictures_as_png_fill_their_size_and_stay_inside_it() {
+    let (d, sp) = soil_spread();
+    for size in [(640, 480), (1200, 800)] {
+        for (kind, bytes) in [
+            ("histogram", spread_histogram(d, sp, PlotFormat::Png, size)),
+            ("tornado", spread_tornado(d, sp, PlotFormat::Png, size)),
+        ] {
+            let bytes = bytes.unwrap_or_else(|e| panic!("{kind}: {e}"));
+            keep(&format!("soil-{kind}-{}x{}.png", size.0, size.1), &bytes);
+            let (dims, colours) = png_look(&bytes);
+            assert_eq!(dims, size, "{kind}");
+            assert!(colours > 20, "{kind}: only {colours} colours");
+            if let Err(e) = margins_blank(&bytes, 3) {
+                panic!("{kind} at {size:?}: {e}");
+            }
+        }
+    }
+    assert!(matches!(
+        spread_tornado(d, sp, PlotFormat::Png, (100, 100)),
+        Err(PlotError::Size(100, 100))
+    ));
+}
+
+#[test]
+fn html_report_has_a_spread_section_only_with_a_spread() {
+    let (d, sp) = soil_spread();
+    let r = traced(d);
+    let b = start_budget(d);
+    let mut with = Vec::new();
+    write_html_with_spread(&mut with, d, &b, d.pack.start_soc, &r, Some(Ok(sp))).expect("html");
+    keep("soil-report.html", &with);
+    let html = String::from_utf8(with).expect("UTF-8");
+    assert!(html.contains("<section id=\"spread\">"));
+    assert!(html.contains("href=\"#spread\""));
+    assert!(html.contains("aria-label=\"runtime histogram\""));
+    assert!(html.contains("aria-label=\"tornado chart\""));
+    assert!(html.contains("<code>profile[0].repeat[3].for</code>"));
+    assert!(html.contains(&joulepath::units::fmt_duration(sp.summary.p50)));
+    let mut without = Vec::new();
+    write_html(&mut without, d, &b, d.pack.start_soc, &r).expect("html");
+    let plain = String::from_utf8(without).expect("UTF-8");
+    assert!(!plain.contains("id=\"spread\"") && !plain.contains("#spread"));
+    // The spread adds its section and changes nothing else: the rest of the page is the same.
+    assert_eq!(
+        plain.matches("<svg").count() + 2,
+        html.matches("<svg").count()
+    );
+    let mut failed = Vec::new();
+    write_html_with_spread(
+        &mut failed,
+        d,
+        &b,
+        d.pack.start_soc,
+        &r,
+        Some(Err("the ambient cannot be fixed")),
+    )
+    .expect("html");
+    let failed = String::from_utf8(failed).expect("UTF-8");
+    assert!(failed.contains("did not run: the ambient cannot be fixed"));
 }

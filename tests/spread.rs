@@ -356,3 +356,127 @@ profile: [{ mode: lit, for: 1 h }]
         .args(&["spread", &soil, "--samples", "0"])
         .expect_code(2);
 }
+
+#[test]
+fn the_command_draws_the_histogram_and_the_tornado_beside_its_output() {
+    let soil = root()
+        .join("examples/soil-probe.yaml")
+        .display()
+        .to_string();
+    let t = Test::new().args(&[
+        "spread",
+        &soil,
+        "--samples",
+        "30",
+        "--target",
+        "3y",
+        "--histogram",
+        "h.svg",
+        "--tornado",
+        "t.png",
+    ]);
+    let out = t.expect_code(0);
+    assert!(out.stdout.contains("5th percentile"), "{}", out.stdout);
+    let svg = std::fs::read_to_string(t.dir().join("h.svg")).expect("histogram written");
+    roxmltree::Document::parse(&svg).expect("the histogram parses");
+    assert!(svg.contains("P50 "), "no median in the histogram");
+    let png = std::fs::read(t.dir().join("t.png")).expect("tornado written");
+    let img = image::load_from_memory_with_format(&png, image::ImageFormat::Png).expect("PNG");
+    assert_eq!((img.width(), img.height()), (1200, 800));
+    // One picture alone, and the output to a file.
+    let t = Test::new().args(&[
+        "spread",
+        &soil,
+        "--samples",
+        "10",
+        "--tornado",
+        "t.svg",
+        "-o",
+        "out.txt",
+    ]);
+    t.expect_code(0);
+    assert!(t.dir().join("t.svg").is_file() && t.dir().join("out.txt").is_file());
+    assert!(!t.dir().join("h.svg").exists());
+    // A picture format the extension does not name is a usage error, found before anything
+    // runs: no file at all.
+    for bad in [["--histogram", "h.pdf"], ["--tornado", "t"]] {
+        let t = Test::new().args(&[
+            "spread",
+            &soil,
+            "--samples",
+            "10",
+            bad[0],
+            bad[1],
+            "-o",
+            "o",
+        ]);
+        let out = t.expect_code(2);
+        assert!(out.stderr.contains(".svg"), "{}", out.stderr);
+        assert_eq!(
+            std::fs::read_dir(t.dir()).unwrap().count(),
+            0,
+            "files written"
+        );
+    }
+    // A design without tolerances still fails as before, with no picture.
+    let wearable = root()
+        .join("examples/wearable-band.yaml")
+        .display()
+        .to_string();
+    let t = Test::new().args(&["spread", &wearable, "--histogram", "h.svg"]);
+    t.expect_code(2);
+    assert!(!t.dir().join("h.svg").exists());
+}
+
+#[test]
+fn the_report_has_a_spread_section_for_a_design_with_tolerances() {
+    let soil = root()
+        .join("examples/soil-probe.yaml")
+        .display()
+        .to_string();
+    let t = Test::new().args(&[
+        "report",
+        &soil,
+        "--samples",
+        "30",
+        "--seed",
+        "4",
+        "--target",
+        "3 y",
+        "-o",
+        "r.html",
+    ]);
+    t.expect_code(0);
+    let html = std::fs::read_to_string(t.dir().join("r.html")).expect("report");
+    assert!(html.contains("<h2>Spread across units</h2>"));
+    assert!(html.contains("Across 30 simulated units"));
+    assert!(html.contains("Units reaching 3.00 y"));
+    assert!(html.contains("seed 4"));
+    // The ambient varies in the tolerances: `--ambient` leaves the report whole and says why
+    // the spread did not run.
+    let t = Test::new().args(&[
+        "report",
+        &soil,
+        "--samples",
+        "10",
+        "--ambient",
+        "0 °C",
+        "-o",
+        "r.html",
+    ]);
+    t.expect_code(0);
+    let html = std::fs::read_to_string(t.dir().join("r.html")).expect("report");
+    assert!(html.contains("did not run"), "no note");
+    assert!(html.contains("--set ambient"));
+    let wearable = root()
+        .join("examples/wearable-band.yaml")
+        .display()
+        .to_string();
+    let t = Test::new().args(&["report", &wearable, "-o", "r.html"]);
+    t.expect_code(0);
+    let html = std::fs::read_to_string(t.dir().join("r.html")).expect("report");
+    assert!(!html.contains("Spread across units") && !html.contains("id=\"spread\""));
+    Test::new()
+        .args(&["report", &soil, "--samples", "0", "-o", "r.html"])
+        .expect_code(2);
+}

@@ -134,6 +134,8 @@ pub enum Command {
         /// Write to this file instead of standard output.
         #[arg(short = 'o', long = "output")]
         output: Option<PathBuf>,
+        #[command(flatten)]
+        pictures: SpreadPictures,
     },
     /// The built-in cell presets, or one of them in full.
     Cells {
@@ -234,6 +236,8 @@ pub enum Command {
         /// State of charge of the budget tables (default: the design's `battery.start`).
         #[arg(long, value_parser = parse_soc)]
         soc: Option<f64>,
+        #[command(flatten)]
+        spread: ReportSpread,
         /// The HTML file to write.
         #[arg(short = 'o', long = "output", required = true)]
         output: PathBuf,
@@ -247,6 +251,31 @@ pub enum Command {
         #[arg(short = 'o', long = "output")]
         output: Option<PathBuf>,
     },
+}
+
+/// The pictures `spread` can also write.
+#[derive(Debug, Clone, clap::Args)]
+pub struct SpreadPictures {
+    /// Also draw the histogram of the runtimes to this file (`.svg` or `.png`).
+    #[arg(long, value_name = "FILE")]
+    pub histogram: Option<PathBuf>,
+    /// Also draw the tornado chart of the swings to this file (`.svg` or `.png`).
+    #[arg(long, value_name = "FILE")]
+    pub tornado: Option<PathBuf>,
+}
+
+/// How `report` runs the spread of a design with `tolerances:`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct ReportSpread {
+    /// Number of simulated units of the spread section (designs with `tolerances:` only).
+    #[arg(long, default_value_t = 1000, value_parser = clap::value_parser!(u32).range(1..=1_000_000))]
+    pub samples: u32,
+    /// Seed of the spread's random draws.
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+    /// The life every unit should reach, e.g. `2 y`: the spread section shows the share that does.
+    #[arg(long, value_parser = parse_duration)]
+    pub target: Option<f64>,
 }
 
 fn parse_soc(s: &str) -> Result<f64, String> {

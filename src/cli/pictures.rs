@@ -2,14 +2,14 @@
 
 use std::cell::Cell;
 use std::io::{IsTerminal, Write};
-use std::path::Path;
+use std::path::{Path, PathBuf};
 use std::time::{Duration, Instant};
 
 use joulepath::Design;
 use joulepath::report::plot::{self, PlotFormat, plot_format};
 use joulepath::solve::{RunOptions, RunResult, budget, run_observed};
 
-use super::args::PlotKind;
+use super::args::{PlotKind, SpreadPictures};
 use super::run::Failure;
 
 /// Run a discharge, with a progress bar on standard error when it is a terminal and the run
@@ -136,8 +136,57 @@ pub fn plot_command(
     .map_err(|e| plot_fail(&e))
 }
 
-/// `report FILE -o OUT.html`.
-pub fn report_command(d: &Design, opt: &RunOptions, soc: Option<f64>) -> Result<Vec<u8>, Failure> {
+/// Which spread picture to draw.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SpreadPicture {
+    /// The histogram of the runtimes.
+    Histogram,
+    /// The tornado chart of the swings.
+    Tornado,
+}
+
+/// The spread pictures asked for, each with its file and format; a file whose extension names
+/// no picture format is a usage error, found before anything runs.
+pub fn spread_pictures(
+    p: &SpreadPictures,
+) -> Result<Vec<(PathBuf, PlotFormat, SpreadPicture)>, Failure> {
+    [
+        (&p.histogram, SpreadPicture::Histogram),
+        (&p.tornado, SpreadPicture::Tornado),
+    ]
+    .into_iter()
+    .filter_map(|(path, kind)| path.as_ref().map(|path| (path, kind)))
+    .map(|(path, kind)| Ok((path.clone(), format_of(path)?, kind)))
+    .collect()
+}
+
+/// Draw the spread pictures `asked` (from [`spread_pictures`]): each file with its bytes.
+pub fn draw_spread(
+    d: &Design,
+    sp: &joulepath::spread::Spread,
+    asked: &[(PathBuf, PlotFormat, SpreadPicture)],
+) -> Result<Vec<(PathBuf, Vec<u8>)>, Failure> {
+    asked
+        .iter()
+        .map(|(path, fmt, kind)| {
+            let bytes = match kind {
+                SpreadPicture::Histogram => plot::spread_histogram(d, sp, *fmt, (1200, 800)),
+                SpreadPicture::Tornado => plot::spread_tornado(d, sp, *fmt, (1200, 800)),
+            }
+            .map_err(|e| plot_fail(&e))?;
+            Ok((path.clone(), bytes))
+        })
+        .collect()
+}
+
+/// `report FILE -o OUT.html`; `spread` is the spread of a design with tolerances (or why it
+/// could not run), `None` for a design without.
+pub fn report_command(
+    d: &Design,
+    opt: &RunOptions,
+    soc: Option<f64>,
+    spread: Option<Result<&joulepath::spread::Spread, &str>>,
+) -> Result<Vec<u8>, Failure> {
     let mut o = *opt;
     o.trace = true;
     let r = run_with_progress(d, &o, "simulating")?;
@@ -145,7 +194,7 @@ pub fn report_command(d: &Design, opt: &RunOptions, soc: Option<f64>) -> Result<
     let modes: Vec<usize> = (0..d.modes.len()).collect();
     let b = budget(d, soc, &modes);
     let mut buf = Vec::new();
-    joulepath::report::html::write_html(&mut buf, d, &b, soc, &r)
+    joulepath::report::html::write_html_with_spread(&mut buf, d, &b, soc, &r, spread)
         .map_err(|e| Failure::Input(format!("cannot write the report: {e}")))?;
     Ok(buf)
 }

@@ -19,7 +19,8 @@ use joulepath::spec::Override;
 use super::args::{Args, Command, FormatArg, RunArgs, parse_with};
 use super::groups::{Group, check as check_groups};
 use super::pictures::{
-    compare_plot, plot_command, report_command, run_with_progress, spread_with_progress,
+    compare_plot, draw_spread, plot_command, report_command, run_with_progress, spread_pictures,
+    spread_with_progress,
 };
 use super::render::render_diagnostics;
 
@@ -47,6 +48,20 @@ impl Failure {
         match self {
             Failure::Invalid { .. } | Failure::Input(_) => 1,
             Failure::Usage(_) => 2,
+        }
+    }
+
+    /// The failure in words (the first problem of an invalid file).
+    pub fn message(&self) -> String {
+        match self {
+            Failure::Invalid {
+                file, diagnostics, ..
+            } => format!(
+                "{}: {}",
+                file.display(),
+                diagnostics.first().map_or("invalid", Diagnostic::message)
+            ),
+            Failure::Input(m) | Failure::Usage(m) => m.clone(),
         }
     }
 
@@ -257,11 +272,16 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             corners,
             format: f,
             output,
+            pictures,
         } => {
+            let to_draw = spread_pictures(pictures)?;
             let d = load_with(file, sets)?;
             let sp = spread_command(d, ra, *samples as usize, *seed, *target, *corners)?;
             write_spread(&mut buf, &sp.0, &sp.1, format(*f)).map_err(io_fail)?;
             warn_beside(&sp.0, sp.0.ambient_c, *f);
+            for (path, bytes) in draw_spread(&sp.0, &sp.1, &to_draw)? {
+                emit(&bytes, Some(&path))?;
+            }
             emit(&buf, output.as_deref())
         }
         Command::Cells {
@@ -336,10 +356,20 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             sets,
             run: ra,
             soc,
+            spread,
             output,
         } => {
             let d = load_with(file, sets)?;
-            let bytes = report_command(&d, &run_options(&d, ra, true), *soc)?;
+            // A design with tolerances gets a spread section; a spread that cannot run is said
+            // in its place rather than failing the report.
+            let sp = (!d.tolerances.is_empty()).then(|| {
+                let (n, t) = (spread.samples as usize, spread.target);
+                spread_command(d.clone(), ra, n, spread.seed, t, false).map_err(|e| e.message())
+            });
+            let sp = sp
+                .as_ref()
+                .map(|r| r.as_ref().map(|x| &x.1).map_err(String::as_str));
+            let bytes = report_command(&d, &run_options(&d, ra, true), *soc, sp)?;
             emit(&bytes, Some(output))
         }
         Command::Size(a) => super::size::size_command(a),

@@ -9,9 +9,11 @@ use super::heat::{capitalize, heat_ranking, heat_sentence};
 use super::outline::write_outline;
 use super::plot::{self, PlotFormat};
 use super::runtime::{end_sentence, energy_sentences};
+use super::spread::{fmt_value, run_text, spread_sentence};
 use super::{caution_for, warnings};
 use crate::model::Design;
 use crate::solve::{ModeBudget, RunResult, Solution, junction_c};
+use crate::spread::Spread;
 use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent};
 
 /// Size of the inline pictures, pixels (they scale with the page).
@@ -144,12 +146,34 @@ fn figure(
 }
 
 /// Write the report of `design`: the run `run`, the budget `modes` at state of charge `soc`.
+///
+/// # Errors
+///
+/// Those of the writer.
 pub fn write_html(
     w: &mut dyn Write,
     design: &Design,
     modes: &[ModeBudget],
     soc: f64,
     run: &RunResult,
+) -> io::Result<()> {
+    write_html_with_spread(w, design, modes, soc, run, None)
+}
+
+/// [`write_html`] with a section on the spread across units after the pictures: `Some(Ok)` the
+/// spread of the design's tolerances (its table, histogram and tornado chart), `Some(Err)` why
+/// it could not run (said in its place), `None` no section (a design without tolerances).
+///
+/// # Errors
+///
+/// Those of the writer.
+pub fn write_html_with_spread(
+    w: &mut dyn Write,
+    design: &Design,
+    modes: &[ModeBudget],
+    soc: f64,
+    run: &RunResult,
+    spread: Option<Result<&Spread, &str>>,
 ) -> io::Result<()> {
     let d = design;
     let r = run;
@@ -176,9 +200,14 @@ pub fn write_html(
         esc(&fmt_celsius(r.ambient_c)),
         env!("CARGO_PKG_VERSION")
     )?;
+    let spread_link = if spread.is_some() {
+        "<li><a href=\"#spread\">Spread</a></li>"
+    } else {
+        ""
+    };
     writeln!(
         w,
-        "<nav><ol><li><a href=\"#runtime\">Runtime</a></li><li><a href=\"#pictures\">Pictures</a></li><li><a href=\"#heat\">Heat</a></li><li><a href=\"#violations\">Violations</a></li><li><a href=\"#budget\">Budget</a></li><li><a href=\"#tree\">Power tree</a></li><li><a href=\"#caution\">Caution</a></li></ol></nav>\n</header>"
+        "<nav><ol><li><a href=\"#runtime\">Runtime</a></li><li><a href=\"#pictures\">Pictures</a></li>{spread_link}<li><a href=\"#heat\">Heat</a></li><li><a href=\"#violations\">Violations</a></li><li><a href=\"#budget\">Budget</a></li><li><a href=\"#tree\">Power tree</a></li><li><a href=\"#caution\">Caution</a></li></ol></nav>\n</header>"
     )?;
 
     runtime_section(w, d, r)?;
@@ -206,6 +235,15 @@ pub fn write_html(
     }
     writeln!(w, "</section>")?;
 
+    match spread {
+        Some(Ok(sp)) => spread_section(w, d, sp)?,
+        Some(Err(why)) => writeln!(
+            w,
+            "<section id=\"spread\">\n<h2>Spread across units</h2>\n<p class=\"note\">The spread over the design's tolerances did not run: {}.</p>\n</section>",
+            prose(why)
+        )?,
+        None => {}
+    }
     heat_section(w, d, r)?;
     violations_section(w, d, r)?;
     budget_section(w, d, modes, soc)?;
@@ -475,5 +513,125 @@ fn budget_section(w: &mut dyn Write, d: &Design, modes: &[ModeBudget], soc: f64)
             )?;
         }
     }
+    writeln!(w, "</section>")
+}
+
+/// A duration without its second unit (`2.63 y` of `2.63 y (961 d)`), so that the eight
+/// columns of the swing table fit the page.
+fn short(duration: &str) -> &str {
+    duration.split(" (").next().unwrap_or(duration)
+}
+
+/// The spread across units: the answer in a sentence, the runtime percentiles, the share
+/// reaching the target, why units stop, what moves the runtime, and the two pictures.
+fn spread_section(w: &mut dyn Write, d: &Design, sp: &Spread) -> io::Result<()> {
+    let n = sp.samples.len();
+    let s = &sp.summary;
+    writeln!(w, "<section id=\"spread\">\n<h2>Spread across units</h2>")?;
+    writeln!(
+        w,
+        "<p class=\"lead\">{}.</p>",
+        prose(&capitalise(&spread_sentence(sp)))
+    )?;
+    let (nominal_t, nominal_end) = run_text(&sp.nominal);
+    let mut rows: Vec<Vec<String>> = [
+        ("5th percentile", s.p5),
+        ("median", s.p50),
+        ("95th percentile", s.p95),
+        ("shortest", s.min),
+        ("mean", s.mean),
+        ("longest", s.max),
+        ("standard deviation", s.std_dev),
+    ]
+    .iter()
+    .map(|(name, v)| vec![esc(name), esc(&fmt_duration(*v))])
+    .collect();
+    rows.push(vec![
+        "as designed".into(),
+        format!("{}, ends: {}", esc(&nominal_t), esc(&nominal_end)),
+    ]);
+    table(w, &["runtime", "#"], &rows)?;
+    if let Some(r) = sp.reach {
+        writeln!(
+            w,
+            "<p>Units reaching {}: <strong>{}</strong> (sampling standard error {}).</p>",
+            esc(&fmt_duration(r.target_s)),
+            esc(&fmt_percent(r.share)),
+            esc(&fmt_percent(r.std_err))
+        )?;
+    }
+    let ends: Vec<String> = sp
+        .ends
+        .iter()
+        .map(|(e, c)| format!("{} {c} ({})", e.name(), fmt_percent(*c as f64 / n as f64)))
+        .collect();
+    let mut why = format!("Why units stop: {}", ends.join(", "));
+    if sp.failed > 0 {
+        let _ = write!(why, "; {} runs gave no result", sp.failed);
+    }
+    writeln!(w, "<p>{}.</p>", esc(&why))?;
+    figure(
+        w,
+        plot::spread_histogram(d, sp, PlotFormat::Svg, PICTURE),
+        "runtime histogram",
+        "Runtimes of the simulated units, stacked by why each stops, with the 5th, 50th and 95th percentiles and the target.",
+    )?;
+    writeln!(
+        w,
+        "<h3>What moves the runtime</h3>\n<p>Each value at its low and at its high bound, the others as designed; largest swing first.</p>"
+    )?;
+    let swing_rows: Vec<Vec<String>> = sp
+        .swings
+        .iter()
+        .map(|x| {
+            let k = &sp.tolerances[x.tolerance].knob;
+            let delta = x.delta_s();
+            vec![
+                format!("<code>{}</code>", esc(&x.path)),
+                esc(&fmt_value(d, k, x.nominal)),
+                esc(&fmt_value(d, k, x.bounds.0)),
+                esc(&fmt_value(d, k, x.bounds.1)),
+                esc(short(&run_text(&x.at.0).0)),
+                esc(short(&run_text(&x.at.1).0)),
+                if delta.is_finite() {
+                    esc(&format!(
+                        "{}{}",
+                        if delta < 0.0 { "-" } else { "+" },
+                        short(&fmt_duration(delta.abs()))
+                    ))
+                } else {
+                    "—".into()
+                },
+                x.rank_correlation
+                    .map_or_else(|| "—".into(), |r| format!("{r:+.2}")),
+            ]
+        })
+        .collect();
+    table(
+        w,
+        &[
+            "value",
+            "#as designed",
+            "#low",
+            "#high",
+            "#runtime at low",
+            "#at high",
+            "#swing",
+            "#rank corr.",
+        ],
+        &swing_rows,
+    )?;
+    figure(
+        w,
+        plot::spread_tornado(d, sp, PlotFormat::Svg, PICTURE),
+        "tornado chart",
+        "Runtime with each varied value at its low and at its high bound, around the runtime as designed.",
+    )?;
+    writeln!(
+        w,
+        "<p class=\"note\">{n} simulated units, seed {}, {} values varied; each unit draws every value from its spread and runs the whole discharge.</p>",
+        sp.options.seed,
+        sp.tolerances.len()
+    )?;
     writeln!(w, "</section>")
 }

@@ -241,7 +241,8 @@ pub fn spread_sentence(sp: &Spread) -> String {
     text
 }
 
-fn run_text(o: &Outcome) -> (String, String) {
+/// A run's runtime and end reason in words (`no result`, `failed` for a failed run).
+pub(crate) fn run_text(o: &Outcome) -> (String, String) {
     match (&o.runtime, o.end) {
         (Ok(t), Some(e)) => (fmt_duration(*t), e.name().into()),
         (Ok(t), None) => (fmt_duration(*t), String::new()),

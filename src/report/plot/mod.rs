@@ -1,5 +1,6 @@
 //! Pictures of a run: the discharge curve, where the energy is lost, each converter's efficiency
-//! and several designs' discharges side by side, as SVG or PNG bytes.
+//! and several designs' discharges side by side, and of a spread across units (the histogram of
+//! runtimes and the tornado chart of the swings), as SVG or PNG bytes.
 //!
 //! Every function returns the encoded picture; nothing is written anywhere the caller did not
 //! ask for. SVG text is left to the viewer's sans-serif font; PNG text is drawn with DejaVu Sans,
@@ -27,6 +28,7 @@ mod discharge;
 mod efficiency;
 mod losses;
 mod profile;
+mod spread;
 mod style;
 mod thin;
 
@@ -43,6 +45,7 @@ pub use compare::compare_discharge;
 pub use discharge::discharge;
 pub use efficiency::efficiency;
 pub use losses::losses;
+pub use spread::{spread_histogram, spread_tornado};
 
 /// A size that suits a page or a screen, pixels.
 pub const DEFAULT_SIZE: (u32, u32) = (1000, 680);
