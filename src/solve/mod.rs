@@ -15,9 +15,8 @@ pub use discharge::{
     End, EndReason, MAX_HORIZON_S, Peak, RunCounts, RunError, RunOptions, RunResult, YEAR_S, run,
     run_counted, run_observed,
 };
-pub use ledger::{Ledger, TracePoint, Tracer, state_index};
+pub use ledger::{Ledger, TracePoint};
 pub use point::{
     LoadPoint, OperatingPoint, PackPoint, PackState, Solution, StagePoint, StageState, solve_point,
 };
-pub use root::{Settle, settle};
 pub use sum2::Sum2;

@@ -45,16 +45,7 @@ fn finite_or_inf(x: f64) -> f64 {
 /// P_max = v_open^2 / (4 r) (maximum power transfer; Alexander & Sadiku, Fundamentals of Electric
 /// Circuits, 5th ed., section 4.8, from memory).
 ///
-/// # Examples
-///
-/// ```
-/// use joulepath::solve::{Settle, settle};
-/// // 3.7 V, 0.1 Ω feeding 5 W: I = (3.7 - sqrt(3.7^2 - 4 x 5 x 0.1)) / (2 x 0.1) = 1.405 A.
-/// let Settle::Point { current, .. } = settle(3.7, 0.1, &mut |v: f64| 5.0 / v) else { panic!() };
-/// assert!((current - 1.404_679_0).abs() < 1e-6);
-/// // 35 W is above 3.7^2 / 0.4 = 34.2 W: no operating point.
-/// assert_eq!(settle(3.7, 0.1, &mut |v: f64| 35.0 / v), Settle::Collapse);
-/// ```
+/// (The worked case of a constant-power load is the unit test `constant_power_on_a_resistive_source`.)
 pub fn settle(v_open: f64, r: f64, demand: &mut dyn FnMut(f64) -> f64) -> Settle {
     let mut f = |v: f64| finite_or_inf(demand(v));
     if v_open.is_nan() || v_open <= 0.0 {
