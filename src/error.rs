@@ -29,6 +29,58 @@ pub struct Diagnostic {
     message: String,
     hint: Option<String>,
     location: Option<Location>,
+    kind: DiagnosticKind,
+}
+
+/// What kind of problem a [`Diagnostic`] reports, for programs and tests to match on (the
+/// message is for people and may be reworded; the kind and its [`code`](Self::code) stay).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+#[non_exhaustive]
+pub enum DiagnosticKind {
+    /// The text is not YAML (`syntax`).
+    Syntax,
+    /// Lists and mappings nested too deep (`too-deep`).
+    TooDeep,
+    /// A key given twice in one mapping (`duplicate-key`).
+    DuplicateKey,
+    /// A key the format does not have (`unknown-key`).
+    UnknownKey,
+    /// A value with no unit where one is needed (`missing-unit`).
+    MissingUnit,
+    /// A unit that does not exist or cannot take its prefix (`unknown-unit`).
+    UnknownUnit,
+    /// A unit of the wrong kind, a voltage where a current belongs (`wrong-unit`).
+    WrongUnit,
+    /// A value that is not a number (`not-a-number`).
+    NotANumber,
+    /// A value outside what it can physically be or what the format allows (`out-of-range`).
+    OutOfRange,
+    /// A name of a cell, stage, load, rail, mode or state that does not exist (`unknown-id`).
+    UnknownId,
+    /// A path in `tolerances:` or `--set` that names nothing (`unknown-path`).
+    UnknownPath,
+    /// Any other rule of the format (`invalid`).
+    Invalid,
+}
+
+impl DiagnosticKind {
+    /// The stable code: `unknown-id`, `missing-unit`, ...
+    pub fn code(self) -> &'static str {
+        match self {
+            DiagnosticKind::Syntax => "syntax",
+            DiagnosticKind::TooDeep => "too-deep",
+            DiagnosticKind::DuplicateKey => "duplicate-key",
+            DiagnosticKind::UnknownKey => "unknown-key",
+            DiagnosticKind::MissingUnit => "missing-unit",
+            DiagnosticKind::UnknownUnit => "unknown-unit",
+            DiagnosticKind::WrongUnit => "wrong-unit",
+            DiagnosticKind::NotANumber => "not-a-number",
+            DiagnosticKind::OutOfRange => "out-of-range",
+            DiagnosticKind::UnknownId => "unknown-id",
+            DiagnosticKind::UnknownPath => "unknown-path",
+            DiagnosticKind::Invalid => "invalid",
+        }
+    }
 }
 
 impl Diagnostic {
@@ -39,7 +91,25 @@ impl Diagnostic {
             message: message.into(),
             hint: None,
             location: None,
+            kind: DiagnosticKind::Invalid,
         }
+    }
+
+    /// A diagnostic of kind `kind` at `path`.
+    pub fn of(kind: DiagnosticKind, path: impl Into<String>, message: impl Into<String>) -> Self {
+        Self::new(path, message).with_kind(kind)
+    }
+
+    /// The same diagnostic of kind `kind`.
+    #[must_use]
+    pub fn with_kind(mut self, kind: DiagnosticKind) -> Self {
+        self.kind = kind;
+        self
+    }
+
+    /// What kind of problem it is.
+    pub fn kind(&self) -> DiagnosticKind {
+        self.kind
     }
 
     /// The same diagnostic with a fix to suggest.

@@ -38,7 +38,7 @@ pub mod spread;
 pub mod tree;
 pub mod units;
 
-pub use error::{Diagnostic, Error, Location};
+pub use error::{Diagnostic, DiagnosticKind, Error, Location};
 pub use model::Design;
 
 /// A design read, checked and run to its end with the default options (its own ambient, a

@@ -888,3 +888,83 @@ fn byte_order_marks_and_other_encodings() {
         assert!(out.stderr.contains(&frag), "no {frag:?} in\n{}", out.stderr);
     }
 }
+
+#[test]
+fn every_problem_has_a_kind_to_match_on() {
+    use joulepath::{Design, DiagnosticKind as K};
+    let base = "cells:
+  c: { capacity: 1 Ah, ocv: [[0 %, 3 V], [100 %, 4 V]], resistance: 0.1 ohm, cutoff: 3 V }
+battery: { cell: c }
+loads: [{ id: lamp, rail: battery, draw: { on: 10 mA } }]
+modes: { lit: { lamp: on } }
+profile: [{ mode: lit, for: 1 h }]
+";
+    let kinds = |text: &str| -> Vec<K> {
+        match Design::from_text(text) {
+            Ok(_) => Vec::new(),
+            Err(e) => e
+                .diagnostics()
+                .iter()
+                .map(joulepath::Diagnostic::kind)
+                .collect(),
+        }
+    };
+    let cases: [(String, K, &str); 9] = [
+        (
+            base.replace("on: 10 mA", "on: 10"),
+            K::MissingUnit,
+            "missing-unit",
+        ),
+        (
+            base.replace("on: 10 mA", "on: 10 mQ"),
+            K::UnknownUnit,
+            "unknown-unit",
+        ),
+        (
+            base.replace("on: 10 mA", "on: 10 V"),
+            K::WrongUnit,
+            "wrong-unit",
+        ),
+        (
+            format!("{base}ambient: -300 °C\n"),
+            K::OutOfRange,
+            "out-of-range",
+        ),
+        (
+            base.replace("rail: battery", "rail: bus"),
+            K::UnknownId,
+            "unknown-id",
+        ),
+        (
+            base.replace("modes:", "moods:"),
+            K::UnknownKey,
+            "unknown-key",
+        ),
+        (
+            format!("{base}tolerances: {{ loads.lamp.draw.off: ±5 % }}\n"),
+            K::UnknownPath,
+            "unknown-path",
+        ),
+        (
+            base.replace("modes: { lit", "modes: [{ lit"),
+            K::Syntax,
+            "syntax",
+        ),
+        (
+            format!("{base}ambient: 20 °C\nambient: 25 °C\n"),
+            K::DuplicateKey,
+            "duplicate-key",
+        ),
+    ];
+    for (text, kind, code) in cases {
+        let got = kinds(&text);
+        assert!(
+            got.contains(&kind),
+            "wanted {kind:?} in {got:?} for\n{text}"
+        );
+        assert_eq!(kind.code(), code);
+    }
+    // Nesting too deep is refused before any reader runs.
+    let deep = format!("design: {}{}\n", "[".repeat(200), "]".repeat(200));
+    assert!(kinds(&deep).contains(&K::TooDeep));
+}

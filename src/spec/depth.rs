@@ -48,7 +48,8 @@ pub(crate) fn check(text: &str) -> Option<Diagnostic> {
 
 /// The message for a file nested too deep at `at`.
 fn too_deep(at: Location) -> Diagnostic {
-    Diagnostic::new(
+    Diagnostic::of(
+        crate::error::DiagnosticKind::TooDeep,
         "",
         format!(
             "the file is nested too deep: more than {MAX_DEPTH} levels of lists and mappings"

@@ -310,9 +310,13 @@ impl Reader<'_> {
                 };
                 let location = self.source.key(&key);
                 self.diags.push(
-                    Diagnostic::new(key.clone(), format!("unknown key `{key}`"))
-                        .with_hint(hint)
-                        .at(location),
+                    Diagnostic::of(
+                        crate::error::DiagnosticKind::UnknownKey,
+                        key.clone(),
+                        format!("unknown key `{key}`"),
+                    )
+                    .with_hint(hint)
+                    .at(location),
                 );
                 continue;
             }

@@ -230,9 +230,13 @@ impl Reader<'_> {
                 .key(&key_path)
                 .or(self.source.nearest(&map_path));
             self.diags.push(
-                Diagnostic::new(key_path, format!("unknown key `{k}`"))
-                    .with_hint(hint)
-                    .at(location),
+                Diagnostic::of(
+                    crate::error::DiagnosticKind::UnknownKey,
+                    key_path,
+                    format!("unknown key `{k}`"),
+                )
+                .with_hint(hint)
+                .at(location),
             );
         }
         Some(without_keys(v, &below, &unknown))
@@ -258,9 +262,13 @@ impl Reader<'_> {
             };
             let location = self.source.key(&key_path).or(self.source.nearest(path));
             self.diags.push(
-                Diagnostic::new(key_path, format!("unknown key `{name}`"))
-                    .with_hint(hint)
-                    .at(location),
+                Diagnostic::of(
+                    crate::error::DiagnosticKind::UnknownKey,
+                    key_path,
+                    format!("unknown key `{name}`"),
+                )
+                .with_hint(hint)
+                .at(location),
             );
             return;
         }
@@ -398,7 +406,8 @@ pub(super) fn second_document(text: &str) -> Diagnostic {
         .skip(first.map_or(0, |f| f + 1))
         .find(|(_, l)| l.starts_with("---") || l.starts_with("..."));
     if let Some((n, l)) = marker {
-        return Diagnostic::new(
+        return Diagnostic::of(
+            crate::error::DiagnosticKind::Syntax,
             "",
             format!(
                 "the file holds more than one YAML document: line {} starts another with `{}`",
@@ -410,12 +419,17 @@ pub(super) fn second_document(text: &str) -> Diagnostic {
         .at_line_col(n + 1, 1);
     }
     let Some(f) = first else {
-        return Diagnostic::new("", "the file holds more than one YAML document")
-            .with_hint("a design is one document: keep one");
+        return Diagnostic::of(
+            crate::error::DiagnosticKind::Syntax,
+            "",
+            "the file holds more than one YAML document",
+        )
+        .with_hint("a design is one document: keep one");
     };
     let i0 = indent(lines[f]);
     match lines.iter().enumerate().skip(f + 1).find(|(_, l)| content(l) && indent(l) < i0) {
-        Some((n, l)) => Diagnostic::new(
+        Some((n, l)) => Diagnostic::of(
+        crate::error::DiagnosticKind::Syntax,
             "",
             format!(
                 "line {} is indented less than the first line (line {}, indented {i0} spaces), so the file reads as two documents",
@@ -425,7 +439,7 @@ pub(super) fn second_document(text: &str) -> Diagnostic {
         )
         .with_hint("start the top-level keys at the first column, each alike")
         .at_line_col(n + 1, indent(l) + 1),
-        None => Diagnostic::new("", "the file holds more than one YAML document")
+        None => Diagnostic::of(crate::error::DiagnosticKind::Syntax, "", "the file holds more than one YAML document")
             .with_hint("a design is one document: keep one")
             .at_line_col(f + 1, 1),
     }

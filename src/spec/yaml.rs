@@ -82,21 +82,33 @@ fn syntax_error(text: &str, e: &ScanError) -> Diagnostic {
     let at = place(*e.marker());
     if let Some((bracket, message, hint)) = depth::unmatched_bracket(text) {
         if (bracket.line, bracket.col) <= (at.line, at.col) {
-            return Diagnostic::new("", format!("the file is not valid YAML: {message}"))
-                .with_hint(hint)
-                .at(Some(bracket));
+            return Diagnostic::of(
+                crate::error::DiagnosticKind::Syntax,
+                "",
+                format!("the file is not valid YAML: {message}"),
+            )
+            .with_hint(hint)
+            .at(Some(bracket));
         }
     }
     if e.info().contains("tab") {
         if let Some(tab) = tab_in_indentation(text, at.line) {
-            return Diagnostic::new("", "the file is not valid YAML: a tab in the indentation")
-                .with_hint("indent with spaces only")
-                .at(Some(tab));
+            return Diagnostic::of(
+                crate::error::DiagnosticKind::Syntax,
+                "",
+                "the file is not valid YAML: a tab in the indentation",
+            )
+            .with_hint("indent with spaces only")
+            .at(Some(tab));
         }
     }
-    Diagnostic::new("", format!("the file is not valid YAML: {}", e.info()))
-        .with_hint("check the indentation and the brackets near that place")
-        .at(Some(at))
+    Diagnostic::of(
+        crate::error::DiagnosticKind::Syntax,
+        "",
+        format!("the file is not valid YAML: {}", e.info()),
+    )
+    .with_hint("check the indentation and the brackets near that place")
+    .at(Some(at))
 }
 
 /// The first character YAML does not allow in a file (a control character other than tab and
@@ -119,7 +131,8 @@ fn control_character(text: &str) -> Option<Diagnostic> {
     let start = text[..at].rfind('\n').map_or(0, |i| i + 1);
     let col = text[start..at].chars().count() + 1;
     Some(
-        Diagnostic::new(
+        Diagnostic::of(
+            crate::error::DiagnosticKind::Syntax,
             "",
             format!(
                 "the file is not valid YAML: it holds the control character U+{:04X}",
@@ -462,7 +475,8 @@ impl<'a> Builder<'a> {
             .location()
             .map_or_else(String::new, |l| format!(" (first on line {})", l.line));
         self.found.push(
-            Diagnostic::new(
+            Diagnostic::of(
+                crate::error::DiagnosticKind::DuplicateKey,
                 path,
                 format!("the key `{name}` is given twice in one mapping{first}"),
             )

@@ -160,6 +160,21 @@ fn fahrenheit(unit: &str, expected: &[Dim]) -> bool {
 }
 
 impl UnitError {
+    /// The kind of problem, as the checker reports it.
+    pub fn kind(&self) -> crate::error::DiagnosticKind {
+        use crate::error::DiagnosticKind as K;
+        match self {
+            UnitError::Empty { .. }
+            | UnitError::NotANumber { .. }
+            | UnitError::NotFinite { .. } => K::NotANumber,
+            UnitError::MissingUnit { .. } => K::MissingUnit,
+            UnitError::UnknownUnit { .. }
+            | UnitError::PrefixNotAllowed { .. }
+            | UnitError::BareC { .. } => K::UnknownUnit,
+            UnitError::WrongDimension { .. } => K::WrongUnit,
+        }
+    }
+
     /// A short suggestion telling the user how to fix the value.
     pub fn hint(&self) -> Option<String> {
         let hint = match self {

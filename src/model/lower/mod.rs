@@ -19,7 +19,7 @@ use super::pack::{Cell, CellSize, Chemistry, Pack};
 use super::presets::{self, Preset};
 use super::stage::{EffCurve, LossModel, Stage, StageKind};
 use super::{BATTERY, Design};
-use crate::error::{Diagnostic, did_you_mean};
+use crate::error::{Diagnostic, DiagnosticKind, did_you_mean};
 use crate::hash::FastMap;
 use crate::spec::{
     CellRef, CellSpec, ChemistrySpec, DesignSpec, Efficiency, Partial, Qty, ResistanceSpec,
@@ -124,9 +124,24 @@ enum Bound {
 
 impl Lower<'_> {
     fn err(&mut self, path: &str, message: impl Into<String>, hint: Option<String>) {
+        self.err_of(DiagnosticKind::Invalid, path, message, hint);
+    }
+
+    /// A problem of a known kind (see [`DiagnosticKind`]).
+    fn err_of(
+        &mut self,
+        kind: DiagnosticKind,
+        path: &str,
+        message: impl Into<String>,
+        hint: Option<String>,
+    ) {
         let at = self.source.nearest(path);
-        self.diags
-            .push(Diagnostic::new(path, message).with_hint_opt(hint).at(at));
+        self.diags.push(
+            Diagnostic::new(path, message)
+                .with_hint_opt(hint)
+                .at(at)
+                .with_kind(kind),
+        );
     }
 
     /// A quantity of one of `dims`. Here and in the checks below, `path` is written out only for
@@ -136,12 +151,17 @@ impl Lower<'_> {
             Ok(v) => match physical(v, q.text()) {
                 Ok(()) => Some(v),
                 Err(e) => {
-                    self.err(&path.to_string(), e.message(), Some(e.hint().to_string()));
+                    self.err_of(
+                        DiagnosticKind::OutOfRange,
+                        &path.to_string(),
+                        e.message(),
+                        Some(e.hint().to_string()),
+                    );
                     None
                 }
             },
             Err(e) => {
-                self.err(&path.to_string(), e.to_string(), e.hint());
+                self.err_of(e.kind(), &path.to_string(), e.to_string(), e.hint());
                 None
             }
         }
@@ -163,7 +183,8 @@ impl Lower<'_> {
             } else {
                 ("must be above zero", "give a value above zero")
             };
-            self.err(
+            self.err_of(
+                DiagnosticKind::OutOfRange,
                 &path.to_string(),
                 format!("{} `{}` {what}", capital(dim.noun()), q.text()),
                 Some(format!("{fix}, such as `{}`", dim.example())),
@@ -200,7 +221,8 @@ impl Lower<'_> {
             Some(v)
         } else {
             let open = if lo_closed { "[" } else { "(" };
-            self.err(
+            self.err_of(
+                DiagnosticKind::OutOfRange,
                 &path.to_string(),
                 format!(
                     "`{}` is outside {open}{} %, {} %]",
@@ -225,7 +247,8 @@ impl Lower<'_> {
         if v >= 1.0 && v.fract() == 0.0 && v <= max as f64 {
             Some(v as u64)
         } else {
-            self.err(
+            self.err_of(
+                DiagnosticKind::OutOfRange,
                 &path.to_string(),
                 format!("`{}` is not a whole number from 1 to {max}", q.text()),
                 Some(format!("give a whole number from 1 to {max}, such as `2`")),
@@ -280,7 +303,12 @@ impl Lower<'_> {
                             backticked(&names)
                         ),
                     };
-                    self.err("battery.cell", format!("unknown cell `{n}`"), Some(hint));
+                    self.err_of(
+                        DiagnosticKind::UnknownId,
+                        "battery.cell",
+                        format!("unknown cell `{n}`"),
+                        Some(hint),
+                    );
                     None
                 }
             },

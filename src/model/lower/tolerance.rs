@@ -318,7 +318,7 @@ impl Lower<'_> {
             let knob = match knob(d, pack_cell, path) {
                 Ok(k) => k,
                 Err((msg, hint)) => {
-                    self.err(&at, msg, Some(hint));
+                    self.err_of(DiagnosticKind::UnknownPath, &at, msg, Some(hint));
                     ok = false;
                     continue;
                 }

@@ -108,7 +108,8 @@ impl Lower<'_> {
             ),
             None => format!("the states of `{load}` are {}", backticked(&names)),
         };
-        self.err(
+        self.err_of(
+            DiagnosticKind::UnknownId,
             path,
             format!("the load `{load}` has no state `{state}`"),
             Some(hint),
@@ -176,7 +177,8 @@ impl Lower<'_> {
                 None => format!("the rails are {}", backticked(&names)),
             }
         };
-        self.err(
+        self.err_of(
+            DiagnosticKind::UnknownId,
             &path.to_string(),
             format!("unknown rail `{name}`"),
             Some(hint),
@@ -316,7 +318,8 @@ impl Lower<'_> {
                             "a mode names loads (with a state) and stages (with `off`)".to_string()
                         }
                     };
-                    self.err(
+                    self.err_of(
+                        DiagnosticKind::UnknownId,
                         &p(),
                         format!("mode `{name}` names `{key}`, which is neither a load nor a stage"),
                         Some(hint),
