@@ -75,10 +75,12 @@ impl Table {
         let xs = &self.xs[..];
         let n = xs.len();
         let ys = &self.ys[..n];
-        // One comparison for both "below the first point" and NaN (which compares false).
-        if !(x > xs[0]) {
-            // NaN has no place in the table: the caller sees NaN and refuses it.
-            return if x.is_nan() { f64::NAN } else { ys[0] };
+        if x <= xs[0] {
+            return ys[0];
+        }
+        if x.is_nan() {
+            // No place in the table: the caller sees NaN and refuses it.
+            return f64::NAN;
         }
         if x >= xs[n - 1] {
             return ys[n - 1];
