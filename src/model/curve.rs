@@ -1,5 +1,8 @@
 //! Piecewise-linear tables: a quantity against state of charge, temperature or log current.
 
+/// Tables up to this many points are searched by a forward scan, longer ones by halving.
+const SHORT_TABLE: usize = 16;
+
 /// A piecewise-linear function through points sorted by x, held constant beyond the ends.
 ///
 /// # Formula
@@ -67,22 +70,30 @@ impl Table {
     }
 
     /// The value at `x`.
+    #[inline]
     pub fn at(&self, x: f64) -> f64 {
-        let n = self.xs.len();
+        let xs = &self.xs[..];
+        let n = xs.len();
+        let ys = &self.ys[..n];
+        if x <= xs[0] {
+            return ys[0];
+        }
         if x.is_nan() {
             // No place in the table: the caller sees NaN and refuses it.
             return f64::NAN;
         }
-        if x <= self.xs[0] {
-            return self.ys[0];
+        if x >= xs[n - 1] {
+            return ys[n - 1];
         }
-        if x >= self.xs[n - 1] {
-            return self.ys[n - 1];
-        }
-        // First index with xs[i] > x; 1 <= i <= n - 1 here.
-        let i = self.xs.partition_point(|&v| v <= x);
-        let (x0, x1) = (self.xs[i - 1], self.xs[i]);
-        let (y0, y1) = (self.ys[i - 1], self.ys[i]);
+        // First index with xs[i] > x; 1 <= i <= n - 1 here. Tables are short (a dozen points):
+        // a forward scan costs less than a binary search's unpredictable branches.
+        let i = if n <= SHORT_TABLE {
+            1 + xs[1..].iter().position(|&v| v > x).unwrap_or(n - 2)
+        } else {
+            xs.partition_point(|&v| v <= x)
+        };
+        let (x0, x1) = (xs[i - 1], xs[i]);
+        let (y0, y1) = (ys[i - 1], ys[i]);
         y0 + (y1 - y0) * (x - x0) / (x1 - x0)
     }
 

@@ -51,6 +51,9 @@ pub struct EffCurve {
     eta_vs_log_i: Table,
     i_lo: f64,
     i_hi: f64,
+    /// 1/eta(I_lo) - 1, the loss per watt out at the lowest tabulated current (computed once
+    /// here: the light-load rule needs it at every point below I_lo).
+    loss_per_w_lo: f64,
 }
 
 impl EffCurve {
@@ -72,10 +75,13 @@ impl EffCurve {
         let table = Table::new(points.iter().map(|&(i, e)| (i.log10(), e)).collect())
             .map_err(|_| "an efficiency curve has the same current twice".to_string())?;
         let (lo, hi) = table.x_range();
+        let i_lo = 10f64.powf(lo);
+        let loss_per_w_lo = 1.0 / table.at(i_lo.log10()) - 1.0;
         Ok(Self {
             eta_vs_log_i: table,
-            i_lo: 10f64.powf(lo),
+            i_lo,
             i_hi: 10f64.powf(hi),
+            loss_per_w_lo,
         })
     }
 
@@ -91,12 +97,17 @@ impl EffCurve {
 
     /// Loss at input `vin`, output `vout`, `iout`, with quiescent current `q` as the floor.
     pub fn loss(&self, vin: f64, vout: f64, iout: f64, q: f64) -> f64 {
-        let at = |i: f64| vout * i * (1.0 / self.eta(i) - 1.0);
+        self.loss_at_log(vin, vout, iout, iout.log10(), q)
+    }
+
+    /// [`EffCurve::loss`] with log10(`iout`) already taken (`log_iout` is only read when `iout`
+    /// is at or above the lowest tabulated current): several curves at one point share it.
+    fn loss_at_log(&self, vin: f64, vout: f64, iout: f64, log_iout: f64, q: f64) -> f64 {
         if iout >= self.i_lo {
-            at(iout)
+            vout * iout * (1.0 / self.eta_vs_log_i.at(log_iout) - 1.0)
         } else {
             let floor = vin * q;
-            floor + (at(self.i_lo) - floor) * iout / self.i_lo
+            floor + (vout * self.i_lo * self.loss_per_w_lo - floor) * iout / self.i_lo
         }
     }
 }
@@ -154,14 +165,16 @@ impl LossModel {
 fn curves_loss(curves: &[(Option<f64>, EffCurve)], vin: f64, vout: f64, iout: f64, q: f64) -> f64 {
     let first = &curves[0];
     let last = &curves[curves.len() - 1];
+    // One logarithm for every curve (the costliest part of a lookup).
+    let lg = iout.log10();
     let (Some(v_first), Some(v_last)) = (first.0, last.0) else {
-        return first.1.loss(vin, vout, iout, q);
+        return first.1.loss_at_log(vin, vout, iout, lg, q);
     };
     if vin <= v_first {
-        return first.1.loss(vin, vout, iout, q);
+        return first.1.loss_at_log(vin, vout, iout, lg, q);
     }
     if vin >= v_last {
-        return last.1.loss(vin, vout, iout, q);
+        return last.1.loss_at_log(vin, vout, iout, lg, q);
     }
     let k = curves
         .iter()
@@ -171,8 +184,8 @@ fn curves_loss(curves: &[(Option<f64>, EffCurve)], vin: f64, vout: f64, iout: f6
     let (va, ca) = (&curves[k - 1].0, &curves[k - 1].1);
     let (vb, cb) = (&curves[k].0, &curves[k].1);
     let (va, vb) = (va.unwrap_or(vin), vb.unwrap_or(vin));
-    let la = ca.loss(vin, vout, iout, q);
-    let lb = cb.loss(vin, vout, iout, q);
+    let la = ca.loss_at_log(vin, vout, iout, lg, q);
+    let lb = cb.loss_at_log(vin, vout, iout, lg, q);
     la + (lb - la) * (vin - va) / (vb - va)
 }
 

@@ -2,6 +2,8 @@
 //! every stage and load. Voltages flow down the tree and currents up; the pack current is
 //! settled by a bracketed search ([`settle`]), and so is the output of every load switch.
 
+use std::cell::Cell;
+
 use super::root::{Settle, settle};
 use crate::model::{Design, Mode, Stage, StageKind};
 
@@ -197,14 +199,19 @@ pub fn solve_point(design: &Design, mode: usize, at: PackState) -> Solution {
         else {
             return Solution::Collapse { ocv, resistance: r };
         };
-        let mut rec_a = Vec::with_capacity(size);
-        let mut rec_b = Vec::with_capacity(size);
+        // The record buffers are kept per thread between points (a discharge solves thousands).
+        let (mut rec_a, mut rec_b) = RECORDS.take();
+        rec_a.clear();
+        rec_b.clear();
+        rec_a.reserve(size);
+        rec_b.reserve(size);
         let ia = walker.rail_current(0, v_a, Some(&mut rec_a));
         let ib = walker.rail_current(0, v_b, Some(&mut rec_b));
         blend(&mut rec_a, &rec_b, alpha);
         let current = alpha * ia + (1.0 - alpha) * ib;
         let voltage = alpha * v_a + (1.0 - alpha) * v_b;
         let point = assemble(design, mode, ocv, voltage, current, &rec_a);
+        RECORDS.set((rec_a, rec_b));
         let newly = lockouts(design, &walker, &point);
         if newly.is_empty() {
             return Solution::Point(point);
@@ -243,6 +250,12 @@ fn lockouts(design: &Design, walker: &Walker, p: &OperatingPoint) -> Vec<usize> 
         }
     }
     out
+}
+
+thread_local! {
+    /// Scratch record buffers for [`solve_point`], reused from point to point on a thread
+    /// (taken out while in use, so a nested solve would only allocate afresh).
+    static RECORDS: Cell<(Vec<Rec>, Vec<Rec>)> = const { Cell::new((Vec::new(), Vec::new())) };
 }
 
 #[derive(Debug, Clone, Copy)]

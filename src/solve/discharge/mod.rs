@@ -21,6 +21,7 @@
 mod end;
 mod skip;
 
+use std::borrow::Cow;
 use std::cell::{Cell, RefCell};
 use std::collections::{HashMap, HashSet};
 use std::fmt;
@@ -702,13 +703,13 @@ impl<'a> Sim<'a> {
     /// current and its totals come from it, which makes the stepping second-order (midpoint)
     /// accurate. Where the mean state already meets an end condition (the step crosses it), the
     /// start point is used, so that the crossing is found inside the step.
-    fn mean_point(
+    fn mean_point<'p>(
         &self,
         mode: usize,
-        start: &OperatingPoint,
+        start: &'p OperatingPoint,
         rate: f64,
         dt: f64,
-    ) -> OperatingPoint {
+    ) -> Cow<'p, OperatingPoint> {
         let (sm, vm) = self.mean_state(start.pack.current, rate, dt);
         // A step so short that the pack barely moves: the start point is the mean point (the
         // reference always solves the mean state).
@@ -718,12 +719,12 @@ impl<'a> Sim<'a> {
             MEAN_POINT_REL
         };
         if self.pack_shift(start, sm, vm) <= rel * start.pack.voltage.abs() {
-            return start.clone();
+            return Cow::Borrowed(start);
         }
         let sol = self.solve(mode, sm, vm);
         match sol {
-            Solution::Point(p) if self.condition(&p).is_none() => p,
-            _ => start.clone(),
+            Solution::Point(p) if self.condition(&p).is_none() => Cow::Owned(p),
+            _ => Cow::Borrowed(start),
         }
     }
 
