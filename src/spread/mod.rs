@@ -252,6 +252,9 @@ fn draw(t: &Tolerance, rng: &mut ChaCha8Rng) -> (f64, Drawn) {
         v = match &t.dist {
             Dist::Normal { mean, sigma } => mean + sigma * truncated_normal(rng),
             Dist::Uniform { lo, hi } => lo + (hi - lo) * rng.random::<f64>(),
+            // An empty pick (possible only for a caller who built the distribution by hand) draws
+            // nothing: the value is clipped into range below.
+            Dist::Pick(choices) if choices.is_empty() => f64::NAN,
             Dist::Pick(choices) => choices[rng.random_range(0..choices.len())],
         };
         if range.whole {
