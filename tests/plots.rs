@@ -688,7 +688,7 @@ fn tornado_has_one_bar_per_tolerance_in_swing_order() {
         assert!(has(&t, &bounds), "no `{bounds}` in {t:?}");
     }
     assert!(has(&t, "low 2.00 min · high 10.0 min"), "{t:?}");
-    assert!(has(&t, "as designed: 2.7"), "{t:?}");
+    assert!(has(&t, "as designed: 3.5"), "{t:?}");
     assert!(has(&t, "runtime (y)"), "{t:?}");
     // Each bar is a part toward each bound's runtime: blue (low) and orange (high), one for
     // each bound that moves the runtime (plus one of each in the legend). The microcontroller's

@@ -28,6 +28,16 @@ tolerances:
     Design::from_text(&text).unwrap_or_else(|e| panic!("{e}\n{text}"))
 }
 
+/// A design without tolerances.
+const PLAIN: &str = "
+cells:
+  c: { capacity: 1 Ah, ocv: [[0 %, 3 V], [100 %, 3 V]], resistance: 0 ohm, cutoff: 2 V }
+battery: { cell: c }
+loads: [{ id: lamp, rail: battery, draw: { on: 10 mA } }]
+modes: { lit: { lamp: on } }
+profile: [{ mode: lit, for: 1 h }]
+";
+
 const TWO_LOADS: &str = "  - { id: a, rail: battery, draw: { on: 80 mA } }
   - { id: b, rail: battery, draw: { on: 20 mA } }";
 
@@ -331,16 +341,8 @@ fn the_command_writes_tables_json_and_csv() {
 
 #[test]
 fn a_design_without_tolerances_or_with_a_fixed_ambient_is_a_usage_error() {
-    let plain = "
-cells:
-  c: { capacity: 1 Ah, ocv: [[0 %, 3 V], [100 %, 3 V]], resistance: 0 ohm, cutoff: 2 V }
-battery: { cell: c }
-loads: [{ id: lamp, rail: battery, draw: { on: 10 mA } }]
-modes: { lit: { lamp: on } }
-profile: [{ mode: lit, for: 1 h }]
-";
     let out = Test::new()
-        .design(plain)
+        .design(PLAIN)
         .args(&["spread", "{file}"])
         .expect_code(2);
     assert!(out.stderr.contains("tolerances"), "{}", out.stderr);
@@ -419,11 +421,9 @@ fn the_command_draws_the_histogram_and_the_tornado_beside_its_output() {
         );
     }
     // A design without tolerances still fails as before, with no picture.
-    let wearable = root()
-        .join("examples/wearable-band.yaml")
-        .display()
-        .to_string();
-    let t = Test::new().args(&["spread", &wearable, "--histogram", "h.svg"]);
+    let t = Test::new()
+        .design(PLAIN)
+        .args(&["spread", "{file}", "--histogram", "h.svg"]);
     t.expect_code(2);
     assert!(!t.dir().join("h.svg").exists());
 }
@@ -468,11 +468,9 @@ fn the_report_has_a_spread_section_for_a_design_with_tolerances() {
     let html = std::fs::read_to_string(t.dir().join("r.html")).expect("report");
     assert!(html.contains("did not run"), "no note");
     assert!(html.contains("--set ambient"));
-    let wearable = root()
-        .join("examples/wearable-band.yaml")
-        .display()
-        .to_string();
-    let t = Test::new().args(&["report", &wearable, "-o", "r.html"]);
+    let t = Test::new()
+        .design(PLAIN)
+        .args(&["report", "{file}", "-o", "r.html"]);
     t.expect_code(0);
     let html = std::fs::read_to_string(t.dir().join("r.html")).expect("report");
     assert!(!html.contains("Spread across units") && !html.contains("id=\"spread\""));
