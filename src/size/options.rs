@@ -42,7 +42,7 @@ pub struct SizeOptions {
     /// What to rank by (default mass).
     pub rank_by: RankBy,
     /// The percentile of the runtime a pack must reach the target at, when the design has
-    /// tolerances (default 5): see [`candidate_runtime`]. Without tolerances the one nominal run
+    /// tolerances (default 5): see [`super::candidate_runtime`]. Without tolerances the one nominal run
     /// decides.
     pub percentile: f64,
     /// Ambient temperature instead of the design's, °C.

@@ -31,7 +31,8 @@ pub struct Ledger {
     pub load_energy_j: Vec<f64>,
     /// Energy each stage delivered at its output, J.
     pub stage_out_j: Vec<f64>,
-    /// Time each stage spent in each state, s, indexed by [`state_index`].
+    /// Time each stage spent in each state, s, indexed by state: 0 regulating, 1 dropout,
+    /// 2 bypass, 3 on, 4 off, 5 undervoltage.
     pub stage_state_s: Vec<[f64; 6]>,
     /// Time each load was on (its rail live, its state not `off`), s.
     pub load_on_s: Vec<f64>,
