@@ -32,9 +32,9 @@ use super::ledger::{Ledger, TracePoint, Tracer};
 use super::point::{OperatingPoint, PackState, Solution, StageState, solve_point};
 use super::sum2::Sum2;
 use super::tolerance::{
-    END_BISECT_ITER, MEAN_POINT_REL, SKIP_MAX_DS, SKIP_MIN_PASSES, STEP_MAX_DS_EXACT,
-    STEP_MAX_DS_FAST, STEP_MAX_DVP_EXACT, STEP_MAX_DVP_FAST, TRACE_BUCKETS, TRACE_PROBES_PER_SKIP,
-    WORK_LIMIT_EXACT, WORK_LIMIT_FAST,
+    END_BISECT_ITER, MEAN_POINT_REL, SKIP_ABS_BUDGET, SKIP_FIRST_DS, SKIP_MAX_DS, SKIP_MIN_PASSES,
+    STEP_MAX_DS_EXACT, STEP_MAX_DS_FAST, STEP_MAX_DVP_EXACT, STEP_MAX_DVP_FAST, TRACE_BUCKETS,
+    TRACE_PROBES_PER_SKIP, WORK_LIMIT_EXACT, WORK_LIMIT_FAST,
 };
 use crate::model::{Design, Step};
 
@@ -415,6 +415,16 @@ struct Ctx<'a> {
     /// Repeat blocks (by the address of their steps) whose last stretch bent, so that their
     /// next one takes three nodes at once (`Sim::skip`).
     bent: RefCell<HashSet<usize>>,
+    /// Repeat blocks (by the address of their steps) and the fall in state of charge their next
+    /// stretch may cover: it grows while stretches are taken whole and shrinks to what was taken
+    /// when one is halved (`Sim::passes`).
+    reach: RefCell<HashMap<usize, f64>>,
+    /// The last stretch taken: its curvature term as a share of what it may be (0 for a
+    /// stretch taken along a line), for [`Ctx::set_reach`].
+    fit: Cell<f64>,
+    /// What is left of the run's budget of state of charge that stretches whose rates do not
+    /// lie on a parabola may be taken with ([`SKIP_ABS_BUDGET`] of the starting charge).
+    slack: Cell<f64>,
 }
 
 impl<'a> Ctx<'a> {
@@ -454,6 +464,9 @@ impl<'a> Ctx<'a> {
             fault: RefCell::new(None),
             counts: Cell::new(RunCounts::default()),
             bent: RefCell::new(HashSet::new()),
+            reach: RefCell::new(HashMap::new()),
+            fit: Cell::new(0.0),
+            slack: Cell::new(SKIP_ABS_BUDGET * d.pack.start_soc),
         }
     }
 
@@ -490,6 +503,34 @@ impl<'a> Ctx<'a> {
     /// Whether the next stretch of `block` tries two nodes first.
     fn linear_hint(&self, block: usize) -> bool {
         !self.bent.borrow().contains(&block)
+    }
+
+    /// The fall in state of charge the next stretch of `block` may cover.
+    fn reach(&self, block: usize) -> f64 {
+        self.reach
+            .borrow()
+            .get(&block)
+            .copied()
+            .unwrap_or(SKIP_FIRST_DS)
+    }
+
+    /// After a stretch of `block` planned to cover `planned` of charge took `taken`: the next
+    /// may cover more (up to [`SKIP_MAX_DS`]) if it was taken whole, else what was taken.
+    fn set_reach(&self, block: usize, planned: f64, taken: f64) {
+        let next = if taken >= planned {
+            // Twice as far after a straight stretch; after a curved one, as far as an error
+            // growing like the stretch's length allows, at most twice.
+            let fit = self.fit.get();
+            let grow = if fit > 0.0 {
+                (0.8 / fit).clamp(1.0, 2.0)
+            } else {
+                2.0
+            };
+            (grow * self.reach(block)).min(SKIP_MAX_DS)
+        } else {
+            taken.clamp(1e-9, SKIP_MAX_DS)
+        };
+        self.reach.borrow_mut().insert(block, next);
     }
 
     /// Record whether the last stretch of `block` was straight.

@@ -91,7 +91,7 @@ impl<'a> Sim<'a> {
         }
         let to_horizon = ((self.c.opt.horizon_s - self.now()) / pass).floor() - 1.0;
         let mut k = if delta.ds > 0.0 {
-            let by_ds = (SKIP_MAX_DS / delta.ds).floor();
+            let by_ds = (self.c.reach(steps.as_ptr() as usize) / delta.ds).floor();
             let by_empty = (self.soc() / delta.ds).floor() - 2.0;
             by_ds.min(by_empty)
         } else if self.c.opt.exact || delta.ds < 0.0 {
@@ -152,6 +152,9 @@ impl<'a> Sim<'a> {
                     match skipped {
                         None => return true,
                         Some((j, d)) => {
+                            if delta.ds > 0.0 && !self.trace_probe {
+                                self.c.set_reach(block, k * delta.ds, (j - 1.0) * delta.ds);
+                            }
                             done += j;
                             last = Some(d);
                             stop_within =
@@ -243,6 +246,7 @@ impl<'a> Sim<'a> {
                     if flat {
                         let wk = (0.5 * k - x0) / (k + 0.5 - x0);
                         let rates = Delta::blend([(1.0 - wk, delta), (0.0, delta), (wk, &rk)]);
+                        self.c.fit.set(0.0);
                         return Some(self.take_stretch(probe, steps, pass, k, delta, &rates, rk));
                     }
                     // The rates bend: three nodes.
@@ -312,7 +316,13 @@ impl<'a> Sim<'a> {
                 continue;
             };
             let (w, bend) = stretch_weights(x0, h, k, [delta.ds, rm.ds, rk.ds]);
-            if bend.is_nan() || bend > SKIP_REL_ERR * rm.ds.abs() {
+            let smooth = bend <= SKIP_REL_ERR * rm.ds.abs();
+            // Where the rates are not smooth, the run's own stretch may spend the budget.
+            let within_budget = !smooth && !self.speculative && bend * k <= self.c.slack.get();
+            if within_budget {
+                self.c.slack.set(self.c.slack.get() - bend * k);
+            }
+            if bend.is_nan() || !(smooth || within_budget) {
                 k = h;
                 continue;
             }
@@ -320,6 +330,7 @@ impl<'a> Sim<'a> {
             // to the parabola's: the difference is of the order of the error estimate, so the
             // end pass's own changes stand.
             let rates = Delta::blend([(w[0], delta), (w[1], &rm), (w[2], &rk)]);
+            self.c.fit.set(bend / (SKIP_REL_ERR * rm.ds.abs()));
             // Whether the next stretch of this block may try two nodes.
             *linear = (rk.ds - delta.ds).abs() <= SKIP_LINEAR_REL * delta.ds.abs();
             return Some(self.take_stretch(probe, steps, pass, k, &rm, &rates, rk));
