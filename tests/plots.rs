@@ -558,7 +558,7 @@ fn histogram_marks_the_percentiles_in_order_and_the_target_with_its_share() {
     keep("soil-histogram.svg", &svg);
     let labels = svg_labels(&svg);
     let t: Vec<String> = labels.iter().map(|l| l.0.clone()).collect();
-    // The runtimes span about 0.5 to 6 years: the axis is in years.
+    // The runtimes span about 1.5 to 10 years: the axis is in years.
     let year = 365.25 * 86_400.0;
     for want in [
         "runtime (y)".to_string(),
@@ -578,23 +578,35 @@ fn histogram_marks_the_percentiles_in_order_and_the_target_with_its_share() {
     let (p50, _) = place(&labels, "P50 ");
     let (p95, _) = place(&labels, "P95 ");
     assert!(p5 < p50 && p50 < p95, "P5 {p5}, P50 {p50}, P95 {p95}");
-    // Each label stands over its value on the runtime axis: between the ticks either side.
-    let tick = |v: f64| {
-        let s = tick_words(v);
-        labels
-            .iter()
-            .find(|l| l.0 == s)
-            .unwrap_or_else(|| panic!("no tick `{s}` in {t:?}"))
-            .1
-    };
+    // Each label stands over its value on the runtime axis: the axis's ticks (the numbers of
+    // the lowest row of labels) give its scale.
+    let numbers: Vec<(f64, f64, f64)> = labels
+        .iter()
+        .filter_map(|l| l.0.parse::<f64>().ok().map(|v| (v, l.1, l.2)))
+        .collect();
+    let bottom = numbers
+        .iter()
+        .map(|n| n.2)
+        .fold(f64::NEG_INFINITY, f64::max);
+    let ticks: Vec<(f64, f64)> = numbers
+        .iter()
+        .filter(|n| (n.2 - bottom).abs() < 1.0)
+        .map(|n| (n.0, n.1))
+        .collect();
+    assert!(ticks.len() >= 3, "runtime ticks {ticks:?} in {t:?}");
+    let (first, last) = (ticks[0], ticks[ticks.len() - 1]);
+    assert_eq!(
+        tick_words(first.0),
+        tick_words(first.0.round()),
+        "{ticks:?}"
+    );
     for (x, at) in [
         (p50, sp.summary.p50),
         (p95, sp.summary.p95),
         (place(&labels, "target ").0, 3.0 * year),
     ] {
         let v = at / year;
-        let (lo, hi) = (v.floor(), v.floor() + 1.0);
-        let want = tick(lo) + (tick(hi) - tick(lo)) * (v - lo);
+        let want = first.1 + (last.1 - first.1) * (v - first.0) / (last.0 - first.0);
         assert!(
             (x - want).abs() < 3.0,
             "label at {x}, value {v} y at {want}"
@@ -688,7 +700,13 @@ fn tornado_has_one_bar_per_tolerance_in_swing_order() {
         assert!(has(&t, &bounds), "no `{bounds}` in {t:?}");
     }
     assert!(has(&t, "low 2.00 min · high 10.0 min"), "{t:?}");
-    assert!(has(&t, "as designed: 3.5"), "{t:?}");
+    let year = 365.25 * 86_400.0;
+    let nominal = sp.nominal.runtime.as_ref().expect("the design runs");
+    let designed = format!(
+        "as designed: {} y",
+        joulepath::units::fmt_sig(nominal / year, 3)
+    );
+    assert!(has(&t, &designed), "no `{designed}` in {t:?}");
     assert!(has(&t, "runtime (y)"), "{t:?}");
     // Each bar is a part toward each bound's runtime: blue (low) and orange (high), one for
     // each bound that moves the runtime (plus one of each in the legend). The microcontroller's

@@ -123,6 +123,88 @@ fn peukert_gives_no_bonus_below_the_rated_current() {
     assert!(close(t, 40.0, 1e-9), "{t}");
 }
 
+/// Runtime, h, of a flat 12 V cell (`chemistry`, 100 Ah rated at 1 A, k = 1.2, a rate window
+/// of `window` or the chemistry's) under `profile` (the modes `hi` and `lo` draw 30 A and 1 A).
+fn windowed_runtime_h(chemistry: &str, window: Option<&str>, profile: &str) -> f64 {
+    let window = window.map_or_else(String::new, |w| format!(", rate_window: {w}"));
+    let text = format!(
+        "cells:\n  c: {{ chemistry: {chemistry}, capacity: 100 Ah, rated_current: 1 A, peukert: 1.2{window}, ocv: [[0 %, 12 V], [100 %, 12 V]], resistance: 0 ohm, cutoff: 10 V }}\nbattery: {{ cell: c }}\nloads: [{{ id: l, rail: battery, draw: {{ hi: 30 A, lo: 1 A }} }}]\nmodes: {{ hi: {{ l: hi }}, lo: {{ l: lo }} }}\nprofile: {profile}\n"
+    );
+    let r = fast(&design(&text));
+    assert_eq!(r.end.reason, EndReason::Empty);
+    r.runtime_s() / 3600.0
+}
+
+#[test]
+fn the_rate_window_leaves_a_steady_load_to_the_plain_law() {
+    // A steady current filtered is the same current (the filter starts at the first step's
+    // current), so the law is the plain one: t = C / (I (I / I_rated)^(k - 1)) = 100 Ah / (5 A x
+    // 5^0.2) (Peukert 1897, the conservative form of DESIGN section 5), with any window.
+    let steady = "[{ mode: hi, for: 1 h }]";
+    let plain = 100.0 / (30.0 * 30f64.powf(0.2));
+    for window in [None, Some("0 s"), Some("10 min"), Some("3 h")] {
+        let t = windowed_runtime_h("alkaline", window, steady);
+        assert!(close(t, plain, 1e-9), "{window:?}: {t} h vs {plain} h");
+    }
+}
+
+#[test]
+fn the_rate_law_sees_a_short_pulse_train_at_its_mean_current() {
+    // 30 A for 0.1 s and 1 A for 0.9 s, repeated: a mean of I_m = 3.9 A. Filtered over minutes
+    // the law sees the mean (a first-order low-pass of a period far below its time constant
+    // passes the mean, with a ripple of about 29 A x 0.1 s / 300 s = 10 mA): the charge goes at
+    // I_m (I_m / I_rated)^0.2. The filter starts at the first step's 30 A and relaxes to the
+    // mean as 3.9 A + 26.1 A e^(-t / tau), which costs extra charge at the start,
+    // E = integral of I_m ((I_m + 26.1 A e^(-t / tau))^0.2 - I_m^0.2) dt (0.318 Ah for five
+    // minutes, by the midpoint rule below), so t = (100 Ah - E) / (I_m I_m^0.2). Without a
+    // window each pulse pays its own rate: the mean of I max(1, I / 1 A)^0.2 is
+    // 0.1 x 30 x 30^0.2 + 0.9 x 1 A. (Peukert 1897 per instant, DESIGN section 5; the first-order
+    // low-pass response to a step, any circuits text.)
+    let train = "[{ repeat: [{ mode: hi, for: 100 ms }, { mode: lo, for: 900 ms }], for: 1 h }]";
+    let mean: f64 = 0.1 * 30.0 + 0.9;
+    let sustained = |tau_h: f64| {
+        let n = 20_000;
+        let h = 20.0 * tau_h / f64::from(n);
+        let extra: f64 = (0..n)
+            .map(|j| {
+                let f = mean + (30.0 - mean) * (-(f64::from(j) + 0.5) * h / tau_h).exp();
+                mean * (f.powf(0.2) - mean.powf(0.2)) * h
+            })
+            .sum();
+        (100.0 - extra) / (mean * mean.powf(0.2))
+    };
+    let instant = 100.0 / (0.1 * 30.0 * 30f64.powf(0.2) + 0.9);
+    // The primary chemistries get a window of five minutes by default. The fast solver is
+    // within 0.05 % of its reference here.
+    let t = windowed_runtime_h("alkaline", None, train);
+    let want = sustained(5.0 / 60.0);
+    assert!(close(t, want, 5e-4), "{t} h vs {want} h");
+    let t = windowed_runtime_h("li-socl2", Some("20 min"), train);
+    let want = sustained(20.0 / 60.0);
+    assert!(close(t, want, 5e-4), "{t} h vs {want} h");
+    // A window of zero, and a rechargeable chemistry by default, pay per instant.
+    let t = windowed_runtime_h("alkaline", Some("0 s"), train);
+    assert!(close(t, instant, 5e-4), "{t} h vs {instant} h");
+    let t = windowed_runtime_h("nimh", None, train);
+    assert!(close(t, instant, 5e-4), "{t} h vs {instant} h");
+    // The two laws differ by far more than the tolerance: the test tells them apart.
+    assert!(sustained(5.0 / 60.0) / instant > 1.2);
+}
+
+#[test]
+fn the_rate_window_follows_a_slow_profile() {
+    // Half an hour at 30 A, then 19.5 h at 1 A, with a window of one minute: each phase lasts
+    // 30 windows or more, so the law sees each phase's own current but for a transient of
+    // about one window at each change. The filtered run lasts a little longer than the one
+    // per instant (the first minute of each high phase sees less), by less than 1 %.
+    let day = "[{ mode: hi, for: 30 min }, { mode: lo, for: 19.5 h }]";
+    let per_instant = windowed_runtime_h("alkaline", Some("0 s"), day);
+    let filtered = windowed_runtime_h("alkaline", Some("1 min"), day);
+    assert!(per_instant > 40.0, "{per_instant}");
+    assert!(filtered > per_instant, "{filtered} vs {per_instant}");
+    assert!(filtered < per_instant * 1.01, "{filtered} vs {per_instant}");
+}
+
 fn cold_design(ambient: &str) -> Design {
     design(&format!(
         "ambient: {ambient}\ncells:\n  c:\n    capacity: 2 Ah\n    ocv: [[0 %, 1.0 V], [100 %, 1.4 V]]\n    resistance: 30 mΩ\n    cutoff: 0.8 V\n    temperature:\n      - {{ at: 25 °C, capacity: 100 %, resistance: 100 % }}\n      - {{ at: -20 °C, capacity: 60 %, resistance: 300 % }}\nbattery: {{ cell: c }}\nloads: [{{ id: l, rail: battery, draw: {{ on: 100 mA }} }}]\nmodes: {{ on: {{ l: on }} }}\nprofile: [{{ mode: on, for: 1 h }}]\n"

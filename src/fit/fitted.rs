@@ -130,6 +130,7 @@ impl Fit {
             resistance: self.resistance.clone(),
             polarization: None,
             peukert: self.peukert,
+            rate_window_s: self.chemistry.rate_window_s(),
             cutoff_v: self.cutoff_v,
             max_current_a: None,
             self_discharge_per_s: 0.0,

@@ -14,7 +14,7 @@ mod tolerance;
 pub use curve::{Table, TableError};
 pub use load::{Draw, Load};
 pub use mode::{Mode, RepeatUntil, Step};
-pub use pack::{Cell, CellSize, Chemistry, MONTH_S, Pack};
+pub use pack::{Cell, CellSize, Chemistry, DEFAULT_RATE_WINDOW_S, MONTH_S, Pack};
 pub use presets::{Nominal, PRESETS, Preset};
 pub use stage::{EffCurve, LossModel, Stage, StageKind};
 pub use tolerance::{Dist, Knob, Range, Tolerance};

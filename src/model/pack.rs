@@ -27,6 +27,23 @@ pub enum Chemistry {
 }
 
 impl Chemistry {
+    /// The rate window a cell of this chemistry gets when it does not give one, s: five minutes
+    /// ([`DEFAULT_RATE_WINDOW_S`]) for the primary chemistries, whose rated capacity is
+    /// measured at light drains and whose products draw in short bursts (coin cells, bobbin
+    /// cells, alkaline); the current of the instant (0) for rechargeable and other cells,
+    /// whose Peukert exponent is usually fitted to steady discharges at C-rates, as the
+    /// design contract's worked cases take it.
+    pub fn rate_window_s(self) -> f64 {
+        match self {
+            Chemistry::Alkaline | Chemistry::LiMnO2 | Chemistry::LiSoCl2 => DEFAULT_RATE_WINDOW_S,
+            Chemistry::LiIon
+            | Chemistry::LiFePo4
+            | Chemistry::NiMh
+            | Chemistry::LeadAcid
+            | Chemistry::Other => 0.0,
+        }
+    }
+
     /// The name used in design files.
     pub fn name(self) -> &'static str {
         match self {
@@ -50,6 +67,13 @@ impl Chemistry {
     }
 }
 
+/// Time constant of the filter through which the rate law (Peukert) sees the pack current, for
+/// a primary cell that does not give its own `rate_window`, s: five minutes (common practice,
+/// no source; the loss of capacity at high current comes from depletion near the electrodes
+/// that recovers within minutes of rest, so a burst of milliseconds costs charge at the
+/// sustained current, not at its own). See [`Chemistry::rate_window_s`].
+pub const DEFAULT_RATE_WINDOW_S: f64 = 300.0;
+
 /// One cell, in SI units. Fields are checked when the design is read.
 #[derive(Debug, Clone)]
 pub struct Cell {
@@ -69,6 +93,9 @@ pub struct Cell {
     pub polarization: Option<(f64, f64)>,
     /// Peukert exponent, >= 1.
     pub peukert: f64,
+    /// Time constant of the first-order filter through which the rate law sees the pack
+    /// current, s (0: the current of the instant).
+    pub rate_window_s: f64,
     /// Cutoff voltage, V.
     pub cutoff_v: f64,
     /// Continuous discharge limit, A.
@@ -241,7 +268,15 @@ impl Pack {
 
     /// Peukert-effective current: I x max(1, I / I_rated)^(k - 1), no bonus below the rating.
     pub fn peukert_current(&self, i: f64) -> f64 {
-        let ratio = i / self.rated_current_a();
+        self.peukert_current_seen(i, i)
+    }
+
+    /// Peukert-effective current of `i` when the rate law sees the sustained current `seen`
+    /// (the pack current filtered over the cell's rate window): I x max(1, I_seen /
+    /// I_rated)^(k - 1). A millisecond pulse sags the voltage but costs charge at the rate of
+    /// the sustained current.
+    pub fn peukert_current_seen(&self, i: f64, seen: f64) -> f64 {
+        let ratio = seen / self.rated_current_a();
         if ratio > 1.0 && self.cell.peukert > 1.0 {
             i * ratio.powf(self.cell.peukert - 1.0)
         } else {

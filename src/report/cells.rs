@@ -8,7 +8,7 @@ use super::Format;
 use super::rows::{CsvRow, write_rows};
 use super::text::{Align, TextTable};
 use crate::model::{MONTH_S, Nominal, Preset};
-use crate::units::{fmt_celsius, fmt_eng, fmt_percent, fmt_sig};
+use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent, fmt_sig};
 
 /// Days in the year of the per-year self-discharge shown beside the monthly rate.
 const YEAR_DAYS: f64 = 365.25;
@@ -234,6 +234,19 @@ fn table(w: &mut dyn Write, p: &Preset) -> io::Result<()> {
     row("resistance", resistance);
     row("polarization", polarization);
     row("Peukert exponent", fmt_sig(c.peukert, 3));
+    if c.peukert > 1.0 {
+        row(
+            "rate window",
+            if c.rate_window_s > 0.0 {
+                format!(
+                    "{} (the law sees the current averaged over it)",
+                    fmt_duration(c.rate_window_s)
+                )
+            } else {
+                "none (the law sees the current of each instant)".to_string()
+            },
+        );
+    }
     row(
         "max current",
         c.max_current_a.map_or_else(

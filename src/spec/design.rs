@@ -96,6 +96,11 @@ pub struct CellSpec {
     /// Peukert exponent (default 1.0).
     #[serde(default)]
     pub peukert: Option<Qty>,
+    /// Time constant over which the rate law averages the pack current (a first-order filter),
+    /// e.g. `5 min`; `0 s` applies it to the current of the instant (default 5 min for
+    /// primary chemistries, 0 for the others).
+    #[serde(default)]
+    pub rate_window: Option<Qty>,
     /// End-of-discharge voltage per cell, under load.
     #[serde(default)]
     pub cutoff: Option<Qty>,

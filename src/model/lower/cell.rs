@@ -276,6 +276,12 @@ impl Lower<'_> {
                 None => None,
             },
         };
+        let rate_window = self.opt(
+            c.rate_window.as_ref(),
+            format_args!("{path}.rate_window"),
+            Dim::Time,
+            Bound::AtLeastZero,
+        );
         let max_current = self.opt(
             c.max_current.as_ref(),
             format_args!("{path}.max_current"),
@@ -297,15 +303,17 @@ impl Lower<'_> {
         let size = self.size(c.size.as_deref(), path);
         let temps = self.temperature(c, path);
         let (temp_capacity, temp_resistance) = temps?;
+        let chemistry = chemistry(c.chemistry);
         Some(Cell {
             name: name.to_string(),
-            chemistry: chemistry(c.chemistry),
+            chemistry,
             capacity_c: capacity_c?,
             rated_current_a: rated?,
             ocv: ocv?,
             resistance: resistance?,
             polarization: polarization?,
             peukert: peukert?,
+            rate_window_s: rate_window?.unwrap_or_else(|| chemistry.rate_window_s()),
             cutoff_v: cutoff?,
             max_current_a: max_current?,
             self_discharge_per_s: self_discharge?.unwrap_or(0.0),
@@ -466,6 +474,7 @@ fn overlay(over: &CellSpec, base: &CellSpec) -> CellSpec {
             .clone()
             .or_else(|| base.polarization.clone()),
         peukert: pick(&over.peukert, &base.peukert),
+        rate_window: pick(&over.rate_window, &base.rate_window),
         cutoff: pick(&over.cutoff, &base.cutoff),
         max_current: pick(&over.max_current, &base.max_current),
         self_discharge: pick(&over.self_discharge, &base.self_discharge),
@@ -487,6 +496,7 @@ pub(super) fn given_keys(c: &CellSpec) -> Vec<&'static str> {
         ("resistance", c.resistance.is_some()),
         ("polarization", c.polarization.is_some()),
         ("peukert", c.peukert.is_some()),
+        ("rate_window", c.rate_window.is_some()),
         ("cutoff", c.cutoff.is_some()),
         ("max_current", c.max_current.is_some()),
         ("self_discharge", c.self_discharge.is_some()),

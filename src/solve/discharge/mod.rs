@@ -397,6 +397,9 @@ struct Ctx<'a> {
     opt: RunOptions,
     q: f64,
     pol: Option<(f64, f64)>,
+    /// Time constant of the filter through which the rate law sees the pack current, s; `None`
+    /// where the law sees the current of the instant (a window of zero, or no rate effect).
+    window: Option<f64>,
     i_self: f64,
     cutoff: f64,
     /// Whether steps are as fine as the reference's: always in the reference, and in the fast
@@ -455,6 +458,8 @@ impl<'a> Ctx<'a> {
             opt,
             q: d.pack.capacity_c(opt.ambient_c),
             pol: d.pack.polarization(opt.ambient_c),
+            window: (d.pack.cell.peukert > 1.0 && d.pack.cell.rate_window_s > 0.0)
+                .then_some(d.pack.cell.rate_window_s),
             i_self: d.pack.self_discharge_a(),
             cutoff: d.pack.cutoff_v(),
             fine: Cell::new(opt.exact),
@@ -559,6 +564,9 @@ struct Sim<'a> {
     t: Sum2,
     s: Sum2,
     vp: f64,
+    /// The pack current as the rate law sees it: filtered over the cell's rate window, from
+    /// the current of the run's first step (NaN before it; unused without a window).
+    i_seen: f64,
     ledger: Ledger,
     peaks: Vec<Peak>,
     /// Violations so far and the (kind, subject) pairs among them, shared between a run and its
@@ -592,6 +600,9 @@ struct Delta {
     /// passes without cancellation when tau is far longer than a pass.
     ln_decay: f64,
     offset: f64,
+    /// The same two for the current the rate law sees (`Sim::i_seen`).
+    seen_ln_decay: f64,
+    seen_offset: f64,
     ledger: Ledger,
 }
 
@@ -609,13 +620,20 @@ impl Delta {
             vp_star: parts[2].1.vp_star,
             ln_decay: parts[2].1.ln_decay,
             offset: parts[2].1.offset,
+            seen_ln_decay: parts[2].1.seen_ln_decay,
+            seen_offset: parts[2].1.seen_offset,
             ledger,
         }
     }
 
-    /// The changes of a pass of length `pass` that started at (`s0`, `vp0`) and ended in
-    /// `after`, with `ledger` the pass's own totals.
-    fn of(s0: Sum2, vp0: f64, after: &Sim, pass: f64, ledger: Ledger) -> Self {
+    /// The changes of a pass of length `pass` that started at (`s0`, `vp0`, `seen0`: the
+    /// current the rate law saw) and ended in `after`, with `ledger` the pass's own totals.
+    fn of(s0: Sum2, (vp0, seen0): (f64, f64), after: &Sim, pass: f64, ledger: Ledger) -> Self {
+        let seen_ln_decay = after.c.window.map_or(f64::NEG_INFINITY, |tau| -pass / tau);
+        // Before the first step the filter had no value: it starts at the first step's current,
+        // taken as the pass's own periodic value.
+        let seen0 = if seen0.is_nan() { after.i_seen } else { seen0 };
+        let seen_offset = after.i_seen - seen_ln_decay.exp() * seen0;
         let ln_decay = after
             .c
             .pol
@@ -627,6 +645,8 @@ impl Delta {
             decay,
             ln_decay,
             offset: b,
+            seen_ln_decay,
+            seen_offset,
             vp_star: if decay < 1.0 {
                 b / (1.0 - decay)
             } else {
@@ -645,6 +665,7 @@ impl<'a> Sim<'a> {
             t: Sum2::new(0.0),
             s: Sum2::new(d.pack.start_soc),
             vp: 0.0,
+            i_seen: f64::NAN,
             ledger: Ledger::new(d.stages.len(), d.loads.len()),
             peaks: vec![
                 Peak {
@@ -680,7 +701,7 @@ impl<'a> Sim<'a> {
     /// Run one pass of `steps` (`pass` seconds) with its own ledger, so that its totals are
     /// exact however small against the run's; `None` if the product stopped in it.
     fn run_pass(&mut self, steps: &[Step], pass: f64) -> Option<Delta> {
-        let (s0, vp0) = (self.s, self.vp);
+        let (s0, vp0, seen0) = (self.s, self.vp, self.i_seen);
         let speculative = self.speculative;
         self.c.count(|c| {
             c.passes += 1;
@@ -691,7 +712,7 @@ impl<'a> Sim<'a> {
         let stopped = self.steps(steps, pass);
         let local = std::mem::replace(&mut self.ledger, total);
         self.ledger.add_scaled(&local, 1.0);
-        (!stopped).then(|| Delta::of(s0, vp0, self, pass, local))
+        (!stopped).then(|| Delta::of(s0, (vp0, seen0), self, pass, local))
     }
 
     fn solve(&self, mode: usize, s: f64, vp: f64) -> Solution {
@@ -707,10 +728,33 @@ impl<'a> Sim<'a> {
         solve_point(self.c.d, mode, at)
     }
 
-    /// Rate of fall of the SoC, per second, at pack current `i` (Peukert-effective current plus
-    /// self-discharge, over the usable charge).
-    fn rate(&self, i: f64) -> f64 {
-        (self.c.d.pack.peukert_current(i) + self.c.i_self) / self.c.q
+    /// Rate of fall of the SoC, per second, at pack current `i` held for `dt` (Peukert-effective
+    /// current plus self-discharge, over the usable charge). The rate law sees the current
+    /// through the cell's rate window: its mean over the step, `i` itself without a window.
+    fn rate(&self, i: f64, dt: f64) -> f64 {
+        let seen = match self.c.window {
+            Some(tau) if !self.i_seen.is_nan() => {
+                if dt > 0.0 {
+                    // The time average over the step of a first-order lag toward i.
+                    i + (self.i_seen - i) * (tau / dt) * -(-dt / tau).exp_m1()
+                } else {
+                    self.i_seen
+                }
+            }
+            _ => i,
+        };
+        (self.c.d.pack.peukert_current_seen(i, seen) + self.c.i_self) / self.c.q
+    }
+
+    /// The current the rate law sees after holding `i` for `dt`.
+    fn seen_after(&self, i: f64, dt: f64) -> f64 {
+        match self.c.window {
+            Some(tau) => {
+                let from = if self.i_seen.is_nan() { i } else { self.i_seen };
+                i + (from - i) * (-dt / tau).exp()
+            }
+            None => self.i_seen,
+        }
     }
 
     /// State after holding current `i` (at SoC rate `rate` per second) for `dt`.
@@ -907,7 +951,7 @@ impl<'a> Sim<'a> {
             }
             let Solution::Point(p) = sol else { return true };
             self.observe(&p);
-            let rate0 = self.rate(p.pack.current);
+            let rate0 = self.rate(p.pack.current, 0.0);
             if self.refuse_non_finite(mode, p.pack.current, rate0) {
                 return true;
             }
@@ -918,7 +962,7 @@ impl<'a> Sim<'a> {
             dt = dt.min(self.polarization_step(&p, dt));
             let pm = self.mean_point(mode, &p, rate0, dt);
             let i = pm.pack.current;
-            let rate = self.rate(i);
+            let rate = self.rate(i, dt);
             if self.refuse_non_finite(mode, i, rate) {
                 return true;
             }
@@ -928,6 +972,7 @@ impl<'a> Sim<'a> {
                 self.t.add(dt);
                 self.s.add(-rate * dt);
                 self.vp = vp1;
+                self.i_seen = self.seen_after(i, dt);
                 left -= dt;
                 if self.now() >= self.c.opt.horizon_s * (1.0 - 1e-15) {
                     self.stop(EndReason::Horizon, Some(mode), "battery".into());
@@ -961,6 +1006,7 @@ impl<'a> Sim<'a> {
                 self.t.add(hi);
                 self.s.add(-rate * hi);
                 self.vp = vh;
+                self.i_seen = self.seen_after(i, hi);
                 let sol = self.solve(mode, sh, vh);
                 if let Solution::Point(q) = &sol {
                     self.offer_trace(q, self.now(), sh);
@@ -975,6 +1021,7 @@ impl<'a> Sim<'a> {
             self.t.add(dt);
             self.s.add(-rate * dt);
             self.vp = vp1;
+            self.i_seen = self.seen_after(i, dt);
             left -= dt;
             if let Solution::Point(q) = &end_sol {
                 self.offer_trace(q, self.now(), s1);

@@ -19,14 +19,11 @@ impl<'a> Sim<'a> {
         // Polarization relaxes toward its periodic value over the skipped passes.
         // V_p(k) = a^k V_p + b (1 - a^k) / (1 - a), a = e^(-T / tau): the geometric sum with
         // expm1, exact also when tau is years and a is 1 to within rounding.
-        let (l, b) = (delta.ln_decay, delta.offset);
-        self.vp = if l == f64::NEG_INFINITY {
-            b
-        } else if l == 0.0 {
-            self.vp + k * b
-        } else {
-            (k * l).exp() * self.vp + b * (k * l).exp_m1() / l.exp_m1()
-        };
+        self.vp = lag(self.vp, k, delta.ln_decay, delta.offset);
+        // The current the rate law sees is a first-order lag too.
+        if self.c.window.is_some() {
+            self.i_seen = lag(self.i_seen, k, delta.seen_ln_decay, delta.seen_offset);
+        }
     }
 
     /// Whether a run that stops within `within` passes of `pass` seconds from now lasts fewer
@@ -403,6 +400,20 @@ impl<'a> Sim<'a> {
             }
             j += 1.0;
         }
+    }
+}
+
+/// A first-order lag after `k` passes that each take it from x to e^l x + b: e^(kl) x + b (1 -
+/// e^(kl)) / (1 - e^l), the geometric sum with `expm1` (exact also when the time constant is
+/// years and e^l is 1 to within rounding); b alone when the lag settles within a pass (l is
+/// minus infinity).
+fn lag(x: f64, k: f64, l: f64, b: f64) -> f64 {
+    if l == f64::NEG_INFINITY {
+        b
+    } else if l == 0.0 {
+        x + k * b
+    } else {
+        (k * l).exp() * x + b * (k * l).exp_m1() / l.exp_m1()
     }
 }
 
