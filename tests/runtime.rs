@@ -704,3 +704,89 @@ mod agreement {
         }
     }
 }
+
+/// A 1 Ah cell on a steady 10 mA load whose capacity is 100 % at 25 °C and 60 % at -15 °C
+/// (linear between), under `ambient` (text of the `ambient:` key).
+fn climate_design(ambient: &str) -> Design {
+    design(&format!(
+        "ambient: {ambient}\ncells:\n  c:\n    capacity: 1 Ah\n    ocv: [[0 %, 3.0 V], [100 %, 3.0 V]]\n    resistance: 0 ohm\n    cutoff: 2.0 V\n    temperature:\n      - {{ at: 25 °C, capacity: 100 %, resistance: 100 % }}\n      - {{ at: -15 °C, capacity: 60 %, resistance: 100 % }}\nbattery: {{ cell: c }}\nloads: [{{ id: l, rail: battery, draw: {{ on: 10 mA }} }}]\nmodes: {{ on: {{ l: on }} }}\nprofile: [{{ mode: on, for: 1 h }}]\n"
+    ))
+}
+
+#[test]
+fn a_climate_without_a_cycle_is_its_mean() {
+    let plain = fast(&climate_design("5 °C"));
+    let mean = fast(&climate_design("{ mean: 5 °C }"));
+    assert!(plain.runtime_s().to_bits() == mean.runtime_s().to_bits());
+    // 1 Ah x 80 % / 10 mA = 80 h at 5 °C, halfway down the table (linear interpolation).
+    assert!(close(plain.runtime_s(), 80.0 * 3600.0, 1e-9));
+    assert_eq!(mean.ambient_range_c, Some((5.0, 5.0)));
+}
+
+#[test]
+fn a_yearly_cycle_is_integrated_along_the_run() {
+    // Monthly means on a cosine, 5 °C +- 15 °C, warmest at the middle of July: the year's
+    // curve through twelve samples of a single cosine is that cosine (discrete Fourier
+    // interpolation is exact for a harmonic it holds), T(t) = 5 - 15 cos(2 pi x / 12) with x
+    // the months since the middle of January. The capacity factor is linear in T,
+    // f = 0.6 + 0.4 (T + 15) / 40, so with the charge drawn at I / (Q f(T)) the run ends where
+    // integral_0^t I / (Q f(T(s))) ds = 1. The integral is taken here by the midpoint rule
+    // over steps of a tenth of an hour (a hand computation; the cosine and the table are the
+    // test's own).
+    let months: Vec<String> = (0..12)
+        .map(|j| {
+            let t = 5.0 - 15.0 * (std::f64::consts::TAU * f64::from(j) / 12.0).cos();
+            format!("{t:.12} °C")
+        })
+        .collect();
+    let d = climate_design(&format!("{{ monthly: [{}] }}", months.join(", ")));
+    // 10 mA from 1 Ah at 60 to 100 %: between 60 and 100 h. Start on the 1st of January.
+    let r = fast(&d);
+    let month_s = 365.25 * 86_400.0 / 12.0;
+    let temp = |t: f64| 5.0 - 15.0 * (std::f64::consts::TAU * (t / month_s - 0.5) / 12.0).cos();
+    let factor = |c: f64| 0.6 + 0.4 * ((c + 15.0) / 40.0).clamp(0.0, 1.0);
+    let (q, i, h) = (3600.0, 0.01, 360.0);
+    let (mut used, mut t) = (0.0, 0.0);
+    while used < 1.0 {
+        let rate = i / (q * factor(temp(t + 0.5 * h)));
+        if used + rate * h >= 1.0 {
+            t += (1.0 - used) / rate;
+            break;
+        }
+        used += rate * h;
+        t += h;
+    }
+    assert!(
+        close(r.runtime_s(), t, 2e-3),
+        "{} h vs {} h",
+        r.runtime_s() / 3600.0,
+        t / 3600.0
+    );
+    // January is cold: the run ends well before the 100 h it would last at 25 °C.
+    assert!(r.runtime_s() < 0.7 * 100.0 * 3600.0);
+    // Starting in July, at the warm end, it lasts longer.
+    let july = climate_design(&format!(
+        "{{ monthly: [{}], start_month: 7 }}",
+        months.join(", ")
+    ));
+    assert!(fast(&july).runtime_s() > r.runtime_s() * 1.2);
+}
+
+#[test]
+fn a_daily_swing_shows_in_the_range_and_the_fast_solver_follows_it() {
+    // 5 °C +- 10 °C over the day: the run sees -5 °C to 15 °C; the fast solver agrees with the
+    // chronological reference (0.2 %, DESIGN section 6).
+    let d = climate_design("{ mean: 5 °C, daily_range: 20 °C, warmest: 14 h }");
+    let r = fast(&d);
+    let (lo, hi) = r.ambient_range_c.expect("a climate");
+    assert!(close(lo, -5.0, 1e-9) && close(hi, 15.0, 1e-9), "{lo} {hi}");
+    let reference = run(&d, &RunOptions::reference(&d)).unwrap();
+    assert!(
+        close(r.runtime_s(), reference.runtime_s(), 2e-3),
+        "{} vs {}",
+        r.runtime_s(),
+        reference.runtime_s()
+    );
+    // Colder hours cost more charge than warmer ones save: shorter than at a steady 5 °C.
+    assert!(r.runtime_s() < fast(&climate_design("5 °C")).runtime_s());
+}

@@ -158,8 +158,10 @@ pub(super) fn emit(bytes: &[u8], out: Option<&Path>) -> Result<(), Failure> {
 
 fn run_options(d: &Design, a: &RunArgs, trace: bool) -> joulepath::solve::RunOptions {
     let mut o = joulepath::solve::RunOptions::for_design(d);
+    // `--ambient` holds the ambient at one temperature, in place of a climate.
     if let Some(t) = a.ambient {
         o.ambient_c = t;
+        o.climate = None;
     }
     if let Some(h) = a.horizon {
         o.horizon_s = h;
@@ -167,6 +169,7 @@ fn run_options(d: &Design, a: &RunArgs, trace: bool) -> joulepath::solve::RunOpt
     if a.exact {
         o = joulepath::solve::RunOptions {
             ambient_c: o.ambient_c,
+            climate: o.climate,
             horizon_s: o.horizon_s,
             ..joulepath::solve::RunOptions::reference(d)
         };
@@ -400,6 +403,7 @@ fn spread_command(
             ));
         }
         d.ambient_c = t;
+        d.climate = None;
     }
     let opts = joulepath::spread::SpreadOptions {
         samples,

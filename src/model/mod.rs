@@ -2,6 +2,7 @@
 //! profile) plus the tree. A [`Design`] can only be made by [`Design::from_text`] or
 //! [`Design::from_spec`], which check every rule of the design file.
 
+mod climate;
 mod curve;
 mod load;
 mod lower;
@@ -11,6 +12,7 @@ mod presets;
 mod stage;
 mod tolerance;
 
+pub use climate::{Climate, MONTH_OF_YEAR_S};
 pub use curve::{Table, TableError};
 pub use load::{Draw, Load};
 pub use mode::{Mode, RepeatUntil, Step};
@@ -33,6 +35,9 @@ pub struct Design {
     pub title: String,
     /// Ambient temperature, °C.
     pub ambient_c: f64,
+    /// How the ambient moves around `ambient_c` along the run (a yearly and a daily cycle;
+    /// none: constant).
+    pub climate: Option<Climate>,
     /// The pack.
     pub pack: Pack,
     /// Stages, in file order.

@@ -211,6 +211,9 @@ pub struct RuntimeJson {
     pub loads: Vec<RunLoadJson>,
     /// Violations with the time they first happened.
     pub violations: Vec<ViolationJson>,
+    /// The lowest and highest ambient the run saw, °C, when the design gives a climate.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub ambient_range_c: Option<[f64; 2]>,
     /// Decimated trace, with `--trace`.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub trace: Option<Vec<TraceJson>>,
@@ -338,7 +341,7 @@ impl RuntimeJson {
                     },
                     peak_loss_w: r.peaks[k].loss_w,
                     peak_mode: mode_name(r.peaks[k].mode),
-                    max_junction_c: junction_c(d, k, r.peaks[k].loss_w, r.ambient_c),
+                    max_junction_c: junction_c(d, k, r.peaks[k].loss_w, r.hottest_c()),
                     on_s: r.ledger.stage_on_s(k),
                     dropout_s: r.ledger.stage_time_s(k, StageState::Dropout),
                     bypass_s: r.ledger.stage_time_s(k, StageState::Bypass),
@@ -356,6 +359,7 @@ impl RuntimeJson {
                     above_max_s: r.ledger.load_high_s[l],
                 })
                 .collect(),
+            ambient_range_c: r.ambient_range_c.map(|(lo, hi)| [lo, hi]),
             violations: r.violations.iter().map(ViolationJson::from).collect(),
             trace: with_trace.then(|| r.trace.iter().map(TraceJson::from).collect()),
         }

@@ -85,12 +85,22 @@ pub fn end_sentence(d: &Design, r: &RunResult) -> String {
 fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult, trace: bool) -> io::Result<()> {
     let t = r.runtime_s();
     writeln!(w, "{}", d.title)?;
-    writeln!(
-        w,
-        "runtime {} at {} ambient",
-        fmt_duration(t),
-        fmt_celsius(r.ambient_c)
-    )?;
+    match r.ambient_range_c {
+        Some((lo, hi)) => writeln!(
+            w,
+            "runtime {} at {} to {} ambient (mean {})",
+            fmt_duration(t),
+            fmt_celsius(lo),
+            fmt_celsius(hi),
+            fmt_celsius(r.ambient_c)
+        )?,
+        None => writeln!(
+            w,
+            "runtime {} at {} ambient",
+            fmt_duration(t),
+            fmt_celsius(r.ambient_c)
+        )?,
+    }
     for line in wrap(&format!("it stops because {}.", end_sentence(d, r)), 96) {
         writeln!(w, "{line}")?;
     }
@@ -156,7 +166,8 @@ fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult, trace: bool) -> io:
                 fmt_eng(peak.loss_w, "W"),
                 peak.mode
                     .map_or_else(|| "—".into(), |m| d.modes[m].name.clone()),
-                junction_c(d, k, peak.loss_w, r.ambient_c).map_or_else(|| "—".into(), fmt_celsius),
+                junction_c(d, k, peak.loss_w, r.hottest_c())
+                    .map_or_else(|| "—".into(), fmt_celsius),
                 fmt_celsius(s.tj_max),
             ]);
         }
@@ -447,7 +458,7 @@ pub fn runtime_csv_rows(d: &Design, r: &RunResult) -> Vec<RuntimeCsvRow> {
             average_loss_w: Some(per_s(l.stage_loss_j[k])),
             peak_loss_w: Some(p.loss_w),
             peak_mode: p.mode.map(|m| d.modes[m].name.clone()),
-            max_junction_c: junction_c(d, k, p.loss_w, r.ambient_c),
+            max_junction_c: junction_c(d, k, p.loss_w, r.hottest_c()),
             on_s: Some(l.stage_on_s(k)),
             dropout_s: Some(l.stage_time_s(k, StageState::Dropout)),
             bypass_s: Some(l.stage_time_s(k, StageState::Bypass)),

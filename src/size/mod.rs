@@ -81,6 +81,7 @@ pub fn candidate_runtime(design: &Design, opts: &SizeOptions) -> Result<Candidat
             .any(|t| t.knob == crate::model::Knob::Ambient)
         {
             d.ambient_c = t;
+            d.climate = None;
         }
     }
     let so = SpreadOptions {

@@ -76,6 +76,7 @@ impl SizeOptions {
         let mut o = RunOptions::for_design(design);
         if let Some(t) = self.ambient_c {
             o.ambient_c = t;
+            o.climate = None;
         }
         o.horizon_s = (1.5 * self.target_s).clamp(20.0 * YEAR_S, MAX_HORIZON_S);
         o

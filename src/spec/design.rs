@@ -17,9 +17,10 @@ pub struct DesignSpec {
     /// Title of the design, shown in reports.
     #[serde(default)]
     pub design: Option<String>,
-    /// Ambient temperature, e.g. `25 °C` (the default).
+    /// Ambient temperature, e.g. `25 °C` (the default), or a climate: a yearly cycle of
+    /// monthly means and a daily swing.
     #[serde(default)]
-    pub ambient: Option<Qty>,
+    pub ambient: Option<AmbientSpec>,
     /// Custom cells by name.
     #[serde(default)]
     pub cells: IndexMap<String, CellSpec>,
@@ -180,6 +181,65 @@ impl<'de> Deserialize<'de> for CellRef {
             ))),
         }
     }
+}
+
+/// The ambient: one temperature or a climate.
+#[derive(Debug, Clone)]
+pub enum AmbientSpec {
+    /// The same temperature throughout: `20 °C`.
+    Constant(Qty),
+    /// A temperature that follows the seasons and the time of day.
+    Climate(ClimateSpec),
+}
+
+impl<'de> Deserialize<'de> for AmbientSpec {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        let v = Node::deserialize(d)?;
+        match &v.kind {
+            Kind::Map(_) => reread(&v, "").map(AmbientSpec::Climate),
+            Kind::Seq(_) => Err(serde::de::Error::custom(format!(
+                "expected a temperature such as `20 °C` or a climate mapping (`mean` or `monthly`, `daily_range`), found {}",
+                v.describe()
+            ))),
+            _ => reread(&v, "").map(AmbientSpec::Constant),
+        }
+    }
+}
+
+impl JsonSchema for AmbientSpec {
+    fn schema_name() -> std::borrow::Cow<'static, str> {
+        "Ambient".into()
+    }
+    fn json_schema(g: &mut schemars::SchemaGenerator) -> schemars::Schema {
+        let q = g.subschema_for::<Qty>();
+        let c = g.subschema_for::<ClimateSpec>();
+        schemars::json_schema!({
+            "description": "The ambient temperature: one value (\"20 °C\") or a climate {mean or monthly, start_month, daily_range, warmest}.",
+            "anyOf": [q, c]
+        })
+    }
+}
+
+/// An ambient that changes along the run. The run starts at midnight on the first day of
+/// `start_month`.
+#[derive(Debug, Clone, Default, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct ClimateSpec {
+    /// The mean temperature, when there is no yearly cycle.
+    #[serde(default)]
+    pub mean: Option<Qty>,
+    /// Twelve monthly mean temperatures, January first.
+    #[serde(default)]
+    pub monthly: Option<Vec<Qty>>,
+    /// The month the run starts in, 1 (January) to 12 (default 1).
+    #[serde(default)]
+    pub start_month: Option<Qty>,
+    /// Warmest less coldest hour of the day, e.g. `10 °C` (default 0: no daily swing).
+    #[serde(default)]
+    pub daily_range: Option<Qty>,
+    /// Time of day of the warmest hour, after midnight, e.g. `15 h` (the default).
+    #[serde(default)]
+    pub warmest: Option<Qty>,
 }
 
 /// The pack.

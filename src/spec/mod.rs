@@ -25,8 +25,8 @@ use serde::de::DeserializeOwned;
 use node::{Kind, Node};
 
 pub use design::{
-    AgingSpec, BatterySpec, CellRef, CellSpec, ChemistrySpec, DesignSpec, LoadSpec, LossSpec,
-    PolarizationSpec, StageKindSpec, StageSpec, StepSpec, TemperatureRowSpec,
+    AgingSpec, AmbientSpec, BatterySpec, CellRef, CellSpec, ChemistrySpec, ClimateSpec, DesignSpec,
+    LoadSpec, LossSpec, PolarizationSpec, StageKindSpec, StageSpec, StepSpec, TemperatureRowSpec,
 };
 pub use overrides::Override;
 pub use path::{Seg, segments};
@@ -327,7 +327,7 @@ impl Reader<'_> {
             _ => None,
         };
         let ambient = match sections.shift_remove("ambient") {
-            Some(v) if !v.is_null() => self.part::<Qty>("ambient", v),
+            Some(v) if !v.is_null() => self.part::<AmbientSpec>("ambient", v),
             _ => None,
         };
         let cells = self.map_section::<CellSpec>(&mut sections, "cells");

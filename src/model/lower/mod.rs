@@ -2,6 +2,7 @@
 //! checked, every problem gathered with its YAML path.
 
 mod cell;
+mod climate;
 mod profile;
 mod stage;
 mod tolerance;
@@ -22,8 +23,8 @@ use super::{BATTERY, Design};
 use crate::error::{Diagnostic, DiagnosticKind, did_you_mean};
 use crate::hash::FastMap;
 use crate::spec::{
-    CellRef, CellSpec, ChemistrySpec, DesignSpec, Efficiency, Partial, Qty, ResistanceSpec,
-    SourceMap, StageKindSpec, StageSpec, StepSpec, backticked,
+    AmbientSpec, CellRef, CellSpec, ChemistrySpec, DesignSpec, Efficiency, Partial, Qty,
+    ResistanceSpec, SourceMap, StageKindSpec, StageSpec, StepSpec, backticked,
 };
 use crate::tree::{MAX_DEPTH, Tree, TreeError};
 use crate::units::{Dim, Quantity, fmt_eng, fmt_percent, parse_quantity, physical};
@@ -258,9 +259,16 @@ impl Lower<'_> {
     }
 
     fn design(&mut self, spec: &DesignSpec) -> Option<Design> {
-        let ambient_c = match &spec.ambient {
-            None => Some(25.0),
-            Some(q) => self.value(q, "ambient", Dim::Temperature, Bound::Any),
+        let (ambient_c, climate) = match &spec.ambient {
+            None => (Some(25.0), Some(None)),
+            Some(AmbientSpec::Constant(q)) => (
+                self.value(q, "ambient", Dim::Temperature, Bound::Any),
+                Some(None),
+            ),
+            Some(AmbientSpec::Climate(c)) => match self.climate(c) {
+                Some((mean, climate)) => (Some(mean), Some(Some(climate))),
+                None => (None, None),
+            },
         };
         // Every custom cell is checked, whether used or not.
         let mut cells: HashMap<&str, Option<Cell>> = HashMap::new();
@@ -340,6 +348,7 @@ impl Lower<'_> {
                 .clone()
                 .unwrap_or_else(|| "untitled design".into()),
             ambient_c: ambient_c?,
+            climate: climate?,
             pack: pack?,
             stages: stages?,
             loads,

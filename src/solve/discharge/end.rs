@@ -9,7 +9,7 @@ impl Sim<'_> {
     /// at `p`'s current: open-circuit voltage, ohmic drop and polarization.
     pub(super) fn pack_shift(&self, p: &OperatingPoint, s: f64, vp: f64) -> f64 {
         let pack = &self.c.d.pack;
-        let t = self.c.opt.ambient_c;
+        let t = self.ambient();
         let i = p.pack.current;
         (pack.ocv(s) - pack.ocv(self.soc())).abs()
             + (pack.r0(s, t) - pack.r0(self.soc(), t)).abs() * i
@@ -46,7 +46,7 @@ impl Sim<'_> {
             return false;
         }
         let v_open = p.pack.ocv - self.vp;
-        let r0 = self.c.d.pack.r0(self.soc(), self.c.opt.ambient_c);
+        let r0 = self.c.d.pack.r0(self.soc(), self.ambient());
         let sag = self.pack_shift(p, s1, vp1) + (i - p.pack.current).abs() * r0;
         p.pack.voltage > 0.6 * v_open && 4.0 * sag < self.voltage_margin(p)
     }

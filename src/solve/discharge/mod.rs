@@ -36,7 +36,7 @@ use super::tolerance::{
     STEP_MAX_DS_EXACT, STEP_MAX_DS_FAST, STEP_MAX_DVP_EXACT, STEP_MAX_DVP_FAST, TRACE_BUCKETS,
     TRACE_PROBES_PER_SKIP, WORK_LIMIT_EXACT, WORK_LIMIT_FAST,
 };
-use crate::model::{Design, Step};
+use crate::model::{Climate, Design, Step};
 
 /// A year of 365.25 days, s.
 pub const YEAR_S: f64 = 365.25 * 86_400.0;
@@ -48,8 +48,10 @@ pub const MAX_HORIZON_S: f64 = 1000.0 * YEAR_S;
 /// How to run a discharge.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct RunOptions {
-    /// Ambient temperature, °C.
+    /// Ambient temperature, °C (its mean, with a climate).
     pub ambient_c: f64,
+    /// How the ambient moves around `ambient_c` along the run (none: constant).
+    pub climate: Option<Climate>,
     /// Stop after this long, s (default 20 years).
     pub horizon_s: f64,
     /// Use the chronological reference (every pass executed) instead of the fast solver.
@@ -67,6 +69,7 @@ impl RunOptions {
     pub fn for_design(design: &Design) -> Self {
         Self {
             ambient_c: design.ambient_c,
+            climate: design.climate,
             horizon_s: 20.0 * YEAR_S,
             exact: false,
             trace: false,
@@ -211,8 +214,10 @@ pub struct RunResult {
     pub violations: Vec<Violation>,
     /// Decimated trace (empty unless asked for).
     pub trace: Vec<TracePoint>,
-    /// Ambient of the run, °C.
+    /// Ambient of the run, °C (its mean, with a climate).
     pub ambient_c: f64,
+    /// The lowest and highest ambient the run saw, °C, when it follows a climate.
+    pub ambient_range_c: Option<(f64, f64)>,
     /// Usable charge of the pack at that ambient, C.
     pub capacity_c: f64,
     /// Energy the pack holds at open-circuit voltage from the start SoC to empty, J.
@@ -220,6 +225,12 @@ pub struct RunResult {
 }
 
 impl RunResult {
+    /// The hottest ambient of the run, °C: the top of its range with a climate (a stage's
+    /// junction temperature at its peak loss is judged against it, conservatively).
+    pub fn hottest_c(&self) -> f64 {
+        self.ambient_range_c.map_or(self.ambient_c, |(_, hi)| hi)
+    }
+
     /// Runtime, s.
     pub fn runtime_s(&self) -> f64 {
         self.end.t_s
@@ -347,11 +358,40 @@ fn run_counting(
             value: opt.ambient_c,
         });
     }
+    // A climate moved (by `--set` or a spread) must stay physical too.
+    if let Some(c) = &opt.climate {
+        let (lo, hi) = c.range(f64::INFINITY);
+        for value in [opt.ambient_c + lo, opt.ambient_c + hi] {
+            if !(-273.15..=200.0).contains(&value) {
+                return Err(RunError::Options {
+                    option: "ambient",
+                    value,
+                });
+            }
+        }
+    }
     let mut ctx = Ctx::new(design, *opt);
     ctx.progress = progress;
     let mut sim = Sim::new(&ctx);
     let pass: f64 = design.profile.iter().map(Step::duration).sum();
-    let stopped = sim.passes(&design.profile, pass, f64::INFINITY);
+    // With a daily swing of the ambient, a profile far shorter than a day runs in blocks of
+    // about a day: the rates of a whole day are smooth from one day to the next, those of a
+    // single pass swing with the time of day (no stretch could skip across them).
+    let per_day = (86_400.0 / pass).round();
+    let daily = opt.climate.is_some_and(|c| c.daily_range_c > 0.0) && per_day >= 2.0;
+    let days = [Step::Repeat {
+        steps: if daily {
+            design.profile.clone()
+        } else {
+            Vec::new()
+        },
+        until: crate::model::RepeatUntil::Times(per_day.max(1.0) as u64),
+    }];
+    let stopped = if daily {
+        sim.passes(&days, per_day * pass, f64::INFINITY)
+    } else {
+        sim.passes(&design.profile, pass, f64::INFINITY)
+    };
     *counts = RunCounts {
         points: ctx.work.get(),
         ..ctx.counts.get()
@@ -375,6 +415,7 @@ fn run_counting(
         mode: None,
         subject: "battery".into(),
     });
+    let t_end = end.t_s;
     let pack = &design.pack;
     let s0 = pack.start_soc;
     let stored = ctx.q * f64::from(pack.series) * pack.cell.ocv.mean(0.0, s0) * s0;
@@ -385,6 +426,10 @@ fn run_counting(
         violations: Rc::unwrap_or_clone(sim.violations),
         trace: sim.tracer.map(|t| t.points()).unwrap_or_default(),
         ambient_c: opt.ambient_c,
+        ambient_range_c: opt.climate.map(|c| {
+            let (lo, hi) = c.range(t_end);
+            (opt.ambient_c + lo, opt.ambient_c + hi)
+        }),
         capacity_c: ctx.q,
         stored_energy_j: stored,
     })
@@ -688,6 +733,32 @@ impl<'a> Sim<'a> {
         }
     }
 
+    /// The ambient now, °C.
+    fn ambient(&self) -> f64 {
+        match &self.c.opt.climate {
+            Some(c) => self.c.opt.ambient_c + c.deviation(self.now()),
+            None => self.c.opt.ambient_c,
+        }
+    }
+
+    /// Usable charge of the pack at the ambient now, C.
+    fn q(&self) -> f64 {
+        if self.c.opt.climate.is_some() {
+            self.c.d.pack.capacity_c(self.ambient())
+        } else {
+            self.c.q
+        }
+    }
+
+    /// The polarization branch (resistance, time constant) at the ambient now.
+    fn pol(&self) -> Option<(f64, f64)> {
+        if self.c.opt.climate.is_some() {
+            self.c.d.pack.polarization(self.ambient())
+        } else {
+            self.c.pol
+        }
+    }
+
     /// State of charge now.
     fn soc(&self) -> f64 {
         self.s.value()
@@ -723,7 +794,7 @@ impl<'a> Sim<'a> {
         let at = PackState {
             soc: s.max(0.0),
             v_pol: Some(vp),
-            ambient_c: self.c.opt.ambient_c,
+            ambient_c: self.ambient(),
         };
         solve_point(self.c.d, mode, at)
     }
@@ -743,7 +814,7 @@ impl<'a> Sim<'a> {
             }
             _ => i,
         };
-        (self.c.d.pack.peukert_current_seen(i, seen) + self.c.i_self) / self.c.q
+        (self.c.d.pack.peukert_current_seen(i, seen) + self.c.i_self) / self.q()
     }
 
     /// The current the rate law sees after holding `i` for `dt`.
@@ -760,7 +831,7 @@ impl<'a> Sim<'a> {
     /// State after holding current `i` (at SoC rate `rate` per second) for `dt`.
     fn evolve(&self, i: f64, rate: f64, dt: f64) -> (f64, f64) {
         let s = self.soc() - rate * dt;
-        let vp = match self.c.pol {
+        let vp = match self.pol() {
             Some((r1, tau)) => {
                 let e = (-dt / tau).exp();
                 self.vp * e + i * r1 * (1.0 - e)
@@ -774,7 +845,7 @@ impl<'a> Sim<'a> {
     /// average of the exponential polarization voltage.
     fn mean_state(&self, i: f64, rate: f64, dt: f64) -> (f64, f64) {
         let s = self.soc() - 0.5 * rate * dt;
-        let vp = match self.c.pol {
+        let vp = match self.pol() {
             Some((r1, tau)) if dt > 0.0 => {
                 let inf = i * r1;
                 inf + (self.vp - inf) * (tau / dt) * -(-dt / tau).exp_m1()
@@ -847,7 +918,7 @@ impl<'a> Sim<'a> {
             }
         }
         let seen = &self.seen;
-        let found = violations_where(self.c.d, p, self.c.opt.ambient_c, &|k, s| {
+        let found = violations_where(self.c.d, p, self.ambient(), &|k, s| {
             !seen.get(&k).is_some_and(|subjects| subjects.contains(s))
         });
         for mut v in found {
@@ -868,7 +939,7 @@ impl<'a> Sim<'a> {
     /// A time constant far below the step (`dt` over 20 tau) is not followed: the transient is a
     /// small part of the step, and the step's mean polarization already averages it.
     fn polarization_step(&self, p: &OperatingPoint, dt: f64) -> f64 {
-        let Some((r1, tau)) = self.c.pol else {
+        let Some((r1, tau)) = self.pol() else {
             return f64::INFINITY;
         };
         if dt > 20.0 * tau {
@@ -960,6 +1031,10 @@ impl<'a> Sim<'a> {
                 dt = dt.min(self.c.max_ds() / rate0);
             }
             dt = dt.min(self.polarization_step(&p, dt));
+            // The ambient is held over a step: at most an hour with a daily swing.
+            if let Some(c) = &self.c.opt.climate {
+                dt = dt.min(c.step_s());
+            }
             let pm = self.mean_point(mode, &p, rate0, dt);
             let i = pm.pack.current;
             let rate = self.rate(i, dt);

@@ -8,7 +8,7 @@
 
 #[allow(clippy::wildcard_imports)]
 use super::*;
-use crate::solve::tolerance::{SKIP_LINEAR_REL, SKIP_MIN_RUN_PASSES, SKIP_REL_ERR};
+use crate::solve::tolerance::{SKIP_LINEAR_REL, SKIP_MIN_RUN_PASSES, SKIP_NOISE_REL, SKIP_REL_ERR};
 
 impl<'a> Sim<'a> {
     /// Advance `k` passes of length `pass` at the rates of `delta`.
@@ -315,9 +315,18 @@ impl<'a> Sim<'a> {
             let (w, bend) = stretch_weights(x0, h, k, [delta.ds, rm.ds, rk.ds]);
             let smooth = bend <= SKIP_REL_ERR * rm.ds.abs();
             // Where the rates are not smooth, the run's own stretch may spend the budget.
-            let within_budget = !smooth && !self.speculative && bend * k <= self.c.slack.get();
+            // Each stretch of the run's own earns a share of what it takes.
+            let earned = if self.speculative {
+                0.0
+            } else {
+                SKIP_NOISE_REL * k * rm.ds.abs()
+            };
+            let within_budget =
+                !smooth && !self.speculative && bend * k <= self.c.slack.get() + earned;
             if within_budget {
-                self.c.slack.set(self.c.slack.get() - bend * k);
+                self.c.slack.set(self.c.slack.get() + earned - bend * k);
+            } else if smooth {
+                self.c.slack.set(self.c.slack.get() + earned);
             }
             if bend.is_nan() || !(smooth || within_budget) {
                 k = h;

@@ -1,0 +1,137 @@
+//! The checker's rules for an ambient that changes along the run.
+
+#[allow(clippy::wildcard_imports)]
+use super::*;
+use crate::model::Climate;
+use crate::spec::ClimateSpec;
+
+/// Default time of the warmest hour of the day, s after midnight: 15:00 (common practice, no
+/// source: the air is warmest in the middle of the afternoon).
+const WARMEST_DEFAULT_S: f64 = 15.0 * 3600.0;
+
+impl Lower<'_> {
+    /// The mean ambient and its climate, from `ambient:` given as a mapping.
+    pub(super) fn climate(&mut self, c: &ClimateSpec) -> Option<(f64, Climate)> {
+        let mean = match (&c.mean, &c.monthly) {
+            (Some(_), Some(_)) => {
+                self.err(
+                    "ambient",
+                    "`mean` and `monthly` both give the mean ambient",
+                    Some("keep `monthly` (twelve means, January first) for a yearly cycle, or `mean` for none".into()),
+                );
+                None
+            }
+            (None, None) => {
+                self.err(
+                    "ambient",
+                    "a climate needs `mean` or `monthly`",
+                    Some("add `mean: 20 °C`, or `monthly: [...]` with twelve temperatures, January first".into()),
+                );
+                None
+            }
+            (Some(q), None) => self
+                .value(q, "ambient.mean", Dim::Temperature, Bound::Any)
+                .map(|m| (m, None)),
+            (None, Some(list)) => self.monthly(list),
+        };
+        let start_month = match &c.start_month {
+            None => Some(0),
+            Some(q) => self
+                .count(Some(q), "ambient.start_month", 12)
+                .map(|m| m as usize - 1),
+        };
+        let daily_range = match &c.daily_range {
+            None => Some(0.0),
+            Some(q) => {
+                let v = self.value(
+                    q,
+                    "ambient.daily_range",
+                    Dim::Temperature,
+                    Bound::AtLeastZero,
+                );
+                match v {
+                    Some(r) if r <= 100.0 => Some(r),
+                    Some(_) => {
+                        self.err_of(
+                            DiagnosticKind::OutOfRange,
+                            "ambient.daily_range",
+                            format!("a daily range of `{}` is beyond 100 °C", q.text()),
+                            Some("give the warmest less the coldest hour of a day in °C, such as `10 °C`".into()),
+                        );
+                        None
+                    }
+                    None => None,
+                }
+            }
+        };
+        let warmest = match &c.warmest {
+            None => Some(WARMEST_DEFAULT_S),
+            Some(q) => match self.value(q, "ambient.warmest", Dim::Time, Bound::AtLeastZero) {
+                Some(t) if t < 86_400.0 => Some(t),
+                Some(_) => {
+                    self.err_of(
+                        DiagnosticKind::OutOfRange,
+                        "ambient.warmest",
+                        format!("`{}` is not a time of day", q.text()),
+                        Some("give the hours after midnight, from `0 h` to under `24 h`, such as `15 h`".into()),
+                    );
+                    None
+                }
+                None => None,
+            },
+        };
+        let ((mean, monthly_c), start_month, daily_range_c, warmest_s) =
+            (mean?, start_month?, daily_range?, warmest?);
+        let climate = Climate::new(monthly_c, start_month, daily_range_c, warmest_s);
+        // Every temperature the run can see stays physical.
+        let (lo, hi) = climate.range(f64::INFINITY);
+        if mean + lo < -273.15 || mean + hi > 200.0 {
+            self.err_of(
+                DiagnosticKind::OutOfRange,
+                "ambient",
+                format!(
+                    "the climate reaches {:.1} °C to {:.1} °C, outside -273.15 °C to 200 °C",
+                    mean + lo,
+                    mean + hi
+                ),
+                Some("check the monthly means and the daily range".into()),
+            );
+            return None;
+        }
+        Some((mean, climate))
+    }
+
+    /// Twelve monthly means: their mean, and each less it.
+    fn monthly(&mut self, list: &[Qty]) -> Option<(f64, Option<[f64; 12]>)> {
+        if list.len() != 12 {
+            self.err_of(
+                DiagnosticKind::Invalid,
+                "ambient.monthly",
+                format!("{} monthly temperatures given, not 12", list.len()),
+                Some("give one mean temperature for each month, January first".into()),
+            );
+            return None;
+        }
+        let mut m = [0.0; 12];
+        let mut ok = true;
+        for (i, q) in list.iter().enumerate() {
+            match self.value(
+                q,
+                format_args!("ambient.monthly[{i}]"),
+                Dim::Temperature,
+                Bound::Any,
+            ) {
+                Some(v) => m[i] = v,
+                None => ok = false,
+            }
+        }
+        if !ok {
+            return None;
+        }
+        let mean = m.iter().sum::<f64>() / 12.0;
+        for v in &mut m {
+            *v -= mean;
+        }
+        Some((mean, Some(m)))
+    }
+}
