@@ -133,6 +133,8 @@ impl Fit {
             cutoff_v: self.cutoff_v,
             max_current_a: None,
             self_discharge_per_s: 0.0,
+            self_discharge_ref_c: 25.0,
+            self_discharge_law: crate::model::SelfDischargeLaw::Constant,
             temp_capacity: Table::constant(1.0),
             temp_resistance: Table::constant(1.0),
             mass_kg: None,

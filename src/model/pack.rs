@@ -41,12 +41,83 @@ impl Chemistry {
         }
     }
 
+    /// The default temperature dependence of the chemistry's self-discharge: the rise in
+    /// temperature, K, that doubles the rate (`None` for `other`, which has no default).
+    ///
+    /// Every chemistry takes the same rule: reaction rates near room temperature roughly
+    /// double for every 10 °C (J. H. van 't Hoff, Études de dynamique chimique, 1884, his rule
+    /// of two- to threefold per 10 °C; as applied to self-discharge, common practice, no source;
+    /// the team's references, C23). Doubling every 10 °C near 25 °C is the Arrhenius law with
+    /// an activation energy of about 53 kJ/mol. A cell with a measured dependence gives its
+    /// own `doubles_every` or `activation_energy`.
+    pub fn self_discharge_doubling_k(self) -> Option<f64> {
+        match self {
+            // Lithium-ion and LiFePO4 (the rule above; from memory, the calendar loss of
+            // lithium-ion cells speeds up about as much per 10 °C).
+            Chemistry::LiIon | Chemistry::LiFePo4 => Some(10.0),
+            // NiMH and lead-acid: the rule above (from memory, typical of the chemistries).
+            Chemistry::NiMh | Chemistry::LeadAcid => Some(10.0),
+            // Primaries (alkaline, Li-MnO2, Li-SOCl2): the rule above (from memory, shelf
+            // losses of primaries rise steeply in hot storage).
+            Chemistry::Alkaline | Chemistry::LiMnO2 | Chemistry::LiSoCl2 => Some(10.0),
+            Chemistry::Other => None,
+        }
+    }
+
     /// Whether cells of this chemistry contain lithium (the safety caution applies most).
     pub fn is_lithium(self) -> bool {
         matches!(
             self,
             Chemistry::LiIon | Chemistry::LiFePo4 | Chemistry::LiMnO2 | Chemistry::LiSoCl2
         )
+    }
+}
+
+/// The molar gas constant, J/(mol K) (CODATA 2018, exact).
+pub const GAS_CONSTANT: f64 = 8.314_462_618;
+
+/// How a cell's self-discharge rate changes with temperature.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum SelfDischargeLaw {
+    /// The same rate at every temperature.
+    Constant,
+    /// The rate doubles for every rise of `every_k` kelvin: r(T) = r_ref 2^((T - T_ref) / N).
+    Doubling {
+        /// The rise that doubles the rate, K.
+        every_k: f64,
+    },
+    /// The Arrhenius law: r(T) = r_ref exp(Ea / R (1 / T_ref - 1 / T)), T in kelvin.
+    Arrhenius {
+        /// Activation energy, J/mol.
+        ea_j_per_mol: f64,
+    },
+}
+
+impl SelfDischargeLaw {
+    /// The rate at `temp_c` over the rate at `ref_c` (both °C): 1 at the reference.
+    ///
+    /// # Examples
+    ///
+    /// ```
+    /// use joulepath::model::SelfDischargeLaw;
+    /// let d = SelfDischargeLaw::Doubling { every_k: 10.0 };
+    /// assert!((d.factor(25.0, 35.0) - 2.0).abs() < 1e-12);
+    /// assert_eq!(SelfDischargeLaw::Constant.factor(25.0, 60.0), 1.0);
+    /// ```
+    pub fn factor(self, ref_c: f64, temp_c: f64) -> f64 {
+        match self {
+            SelfDischargeLaw::Constant => 1.0,
+            SelfDischargeLaw::Doubling { every_k } => ((temp_c - ref_c) / every_k).exp2(),
+            SelfDischargeLaw::Arrhenius { ea_j_per_mol } => {
+                let (t, t_ref) = (temp_c + 273.15, ref_c + 273.15);
+                if t <= 0.0 {
+                    // At absolute zero no reaction runs (the limit of the law); the checker
+                    // keeps the reference above it.
+                    return 0.0;
+                }
+                (ea_j_per_mol / GAS_CONSTANT * (1.0 / t_ref - 1.0 / t)).exp()
+            }
+        }
     }
 }
 
@@ -73,8 +144,12 @@ pub struct Cell {
     pub cutoff_v: f64,
     /// Continuous discharge limit, A.
     pub max_current_a: Option<f64>,
-    /// Self-discharge, fraction of rated capacity per second.
+    /// Self-discharge at `self_discharge_ref_c`, fraction of rated capacity per second.
     pub self_discharge_per_s: f64,
+    /// The temperature of `self_discharge_per_s`, °C.
+    pub self_discharge_ref_c: f64,
+    /// How the self-discharge changes with temperature.
+    pub self_discharge_law: SelfDischargeLaw,
     /// Capacity factor against temperature (°C).
     pub temp_capacity: Table,
     /// Resistance factor against temperature (°C).
@@ -83,6 +158,17 @@ pub struct Cell {
     pub mass_kg: Option<f64>,
     /// Outer size of one cell (unknown when the cell does not give it).
     pub size: Option<CellSize>,
+}
+
+impl Cell {
+    /// Self-discharge at `temp_c` (°C), fraction of rated capacity per second: the rate at the
+    /// reference temperature times the law's factor.
+    pub fn self_discharge_at(&self, temp_c: f64) -> f64 {
+        self.self_discharge_per_s
+            * self
+                .self_discharge_law
+                .factor(self.self_discharge_ref_c, temp_c)
+    }
 }
 
 /// The outer size of a cell.
@@ -234,9 +320,10 @@ impl Pack {
         self.cell.rated_current_a * f64::from(self.parallel)
     }
 
-    /// Self-discharge current: rate x parallel x rated capacity (no temperature or aging factor).
-    pub fn self_discharge_a(&self) -> f64 {
-        self.cell.self_discharge_per_s * f64::from(self.parallel) * self.cell.capacity_c
+    /// Self-discharge current at `temp_c` (°C): the cell's rate at that temperature x parallel
+    /// x rated capacity (no aging factor).
+    pub fn self_discharge_a(&self, temp_c: f64) -> f64 {
+        self.cell.self_discharge_at(temp_c) * f64::from(self.parallel) * self.cell.capacity_c
     }
 
     /// Peukert-effective current: I x max(1, I / I_rated)^(k - 1), no bonus below the rating.

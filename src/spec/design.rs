@@ -6,7 +6,7 @@ use schemars::JsonSchema;
 use serde::Deserialize;
 
 use super::node::{Kind, Node, reread};
-use super::qty::{Efficiency, Qty, ResistanceSpec};
+use super::qty::{Efficiency, Qty, ResistanceSpec, SelfDischargeSpec};
 use super::tolerance::ToleranceSpec;
 
 /// A whole design file.
@@ -102,9 +102,10 @@ pub struct CellSpec {
     /// Continuous discharge limit per cell.
     #[serde(default)]
     pub max_current: Option<Qty>,
-    /// Self-discharge of the rated capacity, e.g. `3 %/month`.
+    /// Self-discharge of the rated capacity: `3 %/month` at every temperature, or
+    /// `{ rate: 1 %/year, at: 20 °C, doubles_every: 10 °C }` following the temperature.
     #[serde(default)]
-    pub self_discharge: Option<Qty>,
+    pub self_discharge: Option<SelfDischargeSpec>,
     /// Capacity and resistance factors against temperature.
     #[serde(default)]
     pub temperature: Option<Vec<TemperatureRowSpec>>,

@@ -3,6 +3,12 @@
 
 #[allow(clippy::wildcard_imports)]
 use super::*;
+use crate::model::SelfDischargeLaw;
+use crate::spec::SelfDischargeSpec;
+
+/// The temperature of a self-discharge rate given without one, °C (the reference of the
+/// presets' other values).
+const REFERENCE_C: f64 = 25.0;
 
 impl Lower<'_> {
     pub(super) fn soc_table(
@@ -282,12 +288,7 @@ impl Lower<'_> {
             Dim::Current,
             Bound::AboveZero,
         );
-        let self_discharge = self.opt(
-            c.self_discharge.as_ref(),
-            format_args!("{path}.self_discharge"),
-            Dim::Rate,
-            Bound::AtLeastZero,
-        );
+        let self_discharge = self.self_discharge(c, path);
         let mass = self.opt(
             c.mass.as_ref(),
             format_args!("{path}.mass"),
@@ -297,6 +298,7 @@ impl Lower<'_> {
         let size = self.size(c.size.as_deref(), path);
         let temps = self.temperature(c, path);
         let (temp_capacity, temp_resistance) = temps?;
+        let self_discharge = self_discharge?;
         Some(Cell {
             name: name.to_string(),
             chemistry: chemistry(c.chemistry),
@@ -308,12 +310,96 @@ impl Lower<'_> {
             peukert: peukert?,
             cutoff_v: cutoff?,
             max_current_a: max_current?,
-            self_discharge_per_s: self_discharge?.unwrap_or(0.0),
+            self_discharge_per_s: self_discharge.0,
+            self_discharge_ref_c: self_discharge.1,
+            self_discharge_law: self_discharge.2,
             temp_capacity,
             temp_resistance,
             mass_kg: mass?,
             size: size?,
         })
+    }
+
+    /// A cell's self-discharge: its rate per second, the temperature of that rate (°C) and its
+    /// law against temperature. A plain rate is held at every temperature (DESIGN section 5);
+    /// a mapping gives the rate at `at` (25 °C by default) and follows `doubles_every`,
+    /// `activation_energy` or, with neither, the chemistry's default.
+    fn self_discharge(&mut self, c: &CellSpec, path: &str) -> Option<(f64, f64, SelfDischargeLaw)> {
+        let p = format!("{path}.self_discharge");
+        let s = match &c.self_discharge {
+            None => return Some((0.0, REFERENCE_C, SelfDischargeLaw::Constant)),
+            Some(SelfDischargeSpec::Constant(q)) => {
+                let rate = self.value(q, &p, Dim::Rate, Bound::AtLeastZero)?;
+                return Some((rate, REFERENCE_C, SelfDischargeLaw::Constant));
+            }
+            Some(SelfDischargeSpec::AtTemperature(s)) => s,
+        };
+        let rate = self.value(&s.rate, format_args!("{p}.rate"), Dim::Rate, Bound::AtLeastZero);
+        let at = match &s.at {
+            None => Some(REFERENCE_C),
+            Some(q) => self.value(q, format_args!("{p}.at"), Dim::Temperature, Bound::Any),
+        };
+        let law = match (&s.doubles_every, &s.activation_energy) {
+            (Some(_), Some(_)) => {
+                self.err(
+                    &p,
+                    "the self-discharge gives both `doubles_every` and `activation_energy`",
+                    Some("keep one of them: they are two ways to say the same dependence".into()),
+                );
+                None
+            }
+            (Some(q), None) => self
+                .temperature_step(q, &format!("{p}.doubles_every"))
+                .map(|every_k| SelfDischargeLaw::Doubling { every_k }),
+            (None, Some(q)) => self
+                .value(
+                    q,
+                    format_args!("{p}.activation_energy"),
+                    Dim::MolarEnergy,
+                    Bound::AboveZero,
+                )
+                .map(|ea_j_per_mol| SelfDischargeLaw::Arrhenius { ea_j_per_mol }),
+            (None, None) => match chemistry(c.chemistry).self_discharge_doubling_k() {
+                Some(every_k) => Some(SelfDischargeLaw::Doubling { every_k }),
+                None => {
+                    self.err(
+                        &p,
+                        "chemistry `other` has no default temperature dependence of self-discharge",
+                        Some(
+                            "give `doubles_every: 10 °C` or `activation_energy: 50 kJ/mol`, set \
+the cell's `chemistry`, or write the rate alone (`self_discharge: 1 %/year`) to hold it at every \
+temperature"
+                                .into(),
+                        ),
+                    );
+                    None
+                }
+            },
+        };
+        Some((rate?, at?, law?))
+    }
+
+    /// A rise in temperature (`10 °C` or `10 K`, the same step) from 1 to 100 °C.
+    fn temperature_step(&mut self, q: &Qty, path: &str) -> Option<f64> {
+        let v = self.quantity(q, path, &[Dim::Temperature])?.value();
+        // The kelvin is read as a temperature (0 K = -273.15 °C); a step in kelvin is the same
+        // number of degrees Celsius.
+        let step = if q.text().trim_end().ends_with('K') {
+            v + 273.15
+        } else {
+            v
+        };
+        if (1.0..=100.0).contains(&step) {
+            Some(step)
+        } else {
+            self.err_of(
+                DiagnosticKind::OutOfRange,
+                path,
+                format!("the step `{}` is outside 1 to 100 °C", q.text()),
+                Some("give the rise in temperature that doubles the rate, such as `10 °C`".into()),
+            );
+            None
+        }
     }
 
     /// A cell's outer size: two lengths (a cylinder's diameter and height) or three (a box's
@@ -468,7 +554,10 @@ fn overlay(over: &CellSpec, base: &CellSpec) -> CellSpec {
         peukert: pick(&over.peukert, &base.peukert),
         cutoff: pick(&over.cutoff, &base.cutoff),
         max_current: pick(&over.max_current, &base.max_current),
-        self_discharge: pick(&over.self_discharge, &base.self_discharge),
+        self_discharge: over
+            .self_discharge
+            .clone()
+            .or_else(|| base.self_discharge.clone()),
         temperature: over
             .temperature
             .clone()

@@ -445,7 +445,7 @@ impl<'a> Ctx<'a> {
             opt,
             q: d.pack.capacity_c(opt.ambient_c),
             pol: d.pack.polarization(opt.ambient_c),
-            i_self: d.pack.self_discharge_a(),
+            i_self: d.pack.self_discharge_a(opt.ambient_c),
             cutoff: d.pack.cutoff_v(),
             fine: Cell::new(opt.exact),
             draws_below,
