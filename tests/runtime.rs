@@ -208,6 +208,104 @@ fn self_discharge_alone_empties_in_one_over_the_rate() {
     assert!(close(r.runtime_s(), 0.9 * month / 0.03, 1e-9));
 }
 
+#[test]
+fn self_discharge_doubles_every_ten_degrees_above_its_reference() {
+    // The doubling law r(T) = r_ref 2^((T - T_ref) / N) (REFERENCES C23, common practice, no
+    // source; as a form, exact): 3 %/month at 25 °C doubling every 10 °C is 6 %/month at 35 °C,
+    // so a shelved cell empties after 1 / 0.06 months = 507.33 d; at 15 °C, 1.5 %/month, twice
+    // the 25 °C time. At 25 °C the rate is the one written, as with a plain rate.
+    let text = |law: &str, ambient: &str| {
+        format!(
+            "ambient: {ambient}\ncells:\n  c: {{ capacity: 1 Ah, ocv: [[0 %, 3 V], [100 %, 4 V]], resistance: 0.1 ohm, cutoff: 2.5 V, self_discharge: {law} }}\nbattery: {{ cell: c }}\nloads: [{{ id: l, rail: battery, draw: {{ on: 1 A }} }}]\nmodes: {{ shelf: {{}} }}\nprofile: [{{ mode: shelf, for: 1 d }}]\n"
+        )
+    };
+    let month = 30.44 * 86_400.0;
+    let doubling = "{ rate: 3 %/month, at: 25 °C, doubles_every: 10 °C }";
+    for (ambient, rate) in [("35 °C", 0.06), ("15 °C", 0.015), ("25 °C", 0.03)] {
+        let r = fast(&design(&text(doubling, ambient)));
+        assert_eq!(r.end.reason, EndReason::Empty);
+        assert!(
+            close(r.runtime_s(), month / rate, 1e-9),
+            "{ambient}: {}",
+            r.runtime_s()
+        );
+    }
+    // A plain rate is held at every temperature (DESIGN section 5).
+    let r = fast(&design(&text("3 %/month", "35 °C")));
+    assert!(close(r.runtime_s(), month / 0.03, 1e-9));
+    // A step in kelvin is the same step: 10 K doubles as 10 °C does.
+    let r = fast(&design(&text(
+        "{ rate: 3 %/month, doubles_every: 10 K }",
+        "35 °C",
+    )));
+    assert!(close(r.runtime_s(), month / 0.06, 1e-9));
+}
+
+#[test]
+fn self_discharge_follows_arrhenius_with_an_activation_energy() {
+    // Arrhenius (1889; any physical chemistry text): k(T2) / k(T1) = exp(Ea / R (1/T1 - 1/T2)),
+    // R = 8.314462618 J/(mol K). Ea = 60 kJ/mol, T1 = 20 °C, T2 = 40 °C:
+    // exp(60000 / 8.314462618 x (1/293.15 - 1/313.15)) = 4.817181 (computed here). 2 %/month at
+    // 20 °C is 9.634363 %/month at 40 °C; a shelved cell empties after 1 / that months.
+    let text = |law: &str| {
+        format!(
+            "ambient: 40 °C\ncells:\n  c: {{ chemistry: li-ion, capacity: 1 Ah, ocv: [[0 %, 3 V], [100 %, 4 V]], resistance: 0.1 ohm, cutoff: 2.5 V, self_discharge: {law} }}\nbattery: {{ cell: c }}\nloads: [{{ id: l, rail: battery, draw: {{ on: 1 A }} }}]\nmodes: {{ shelf: {{}} }}\nprofile: [{{ mode: shelf, for: 1 d }}]\n"
+        )
+    };
+    let month = 30.44 * 86_400.0;
+    let ratio = 4.817_181_350_370_803;
+    for ea in ["60 kJ/mol", "60000 J/mol"] {
+        let r = fast(&design(&text(&format!(
+            "{{ rate: 2 %/month, at: 20 °C, activation_energy: {ea} }}"
+        ))));
+        assert_eq!(r.end.reason, EndReason::Empty);
+        assert!(
+            close(r.runtime_s(), month / (0.02 * ratio), 1e-9),
+            "{ea}: {}",
+            r.runtime_s()
+        );
+    }
+    // With no law, the chemistry's default: lithium-ion doubles every 10 °C, so 2 %/month at
+    // 20 °C is 8 %/month at 40 °C.
+    let r = fast(&design(&text("{ rate: 2 %/month, at: 20 °C }")));
+    assert!(close(r.runtime_s(), month / 0.08, 1e-9), "{}", r.runtime_s());
+}
+
+#[test]
+fn a_preset_keeps_its_runtime_at_its_reference_temperature_and_loses_shelf_life_when_hot() {
+    // The lithium-thionyl chloride preset gives 1 %/year at 25 °C, doubling every 10 °C
+    // (presets/li-socl2-aa.yaml). At 25 °C the run equals one with the rate held constant; at
+    // 60 °C the rate is 2^3.5 = 11.31 times as high, so a meter drawing 20 µA, which self-discharge
+    // matters to, runs shorter than at 25 °C.
+    let text = |cell: &str, ambient: &str| {
+        format!(
+            "ambient: {ambient}\nbattery: {{ cell: {cell} }}\nloads: [{{ id: meter, rail: battery, draw: {{ on: 20 µA }} }}]\nmodes: {{ run: {{ meter: on }} }}\nprofile: [{{ mode: run, for: 1 d }}]\n"
+        )
+    };
+    let preset = "li-socl2-aa";
+    let held = "{ preset: li-socl2-aa, self_discharge: 1 %/year }";
+    let at25 = fast(&design(&text(preset, "25 °C")));
+    assert_eq!(
+        at25.runtime_s(),
+        fast(&design(&text(held, "25 °C"))).runtime_s()
+    );
+    let hot = fast(&design(&text(preset, "60 °C")));
+    let hot_held = fast(&design(&text(held, "60 °C")));
+    assert!(hot.runtime_s() < 0.8 * hot_held.runtime_s());
+    // By hand, to the empty end (the 20 µA load never sags the cell to its cutoff): Q(60 °C) /
+    // (20 µA + 11.31 x 1 %/year x 2.4 Ah), Q from the preset's temperature table.
+    let d = design(&text(preset, "60 °C"));
+    let q = d.pack.capacity_c(60.0);
+    let i_self = 0.01 * 2f64.powf(3.5) * 2.4 * 3600.0 / (365.25 * 86_400.0);
+    assert_eq!(hot.end.reason, EndReason::Empty);
+    assert!(
+        close(hot.runtime_s(), q / (20e-6 + i_self), 2e-3),
+        "{} vs {}",
+        hot.runtime_s(),
+        q / (20e-6 + i_self)
+    );
+}
+
 fn pulse_design(polarization: &str) -> Design {
     design(&format!(
         "cells:\n  coin:\n    chemistry: li-mno2\n    capacity: 2.25 mAh\n    ocv: [[0 %, 2.5 V], [100 %, 3.0 V]]\n    resistance: 20 Ω\n{polarization}    cutoff: 2.3 V\nbattery: {{ cell: coin }}\nloads:\n  - {{ id: radio, rail: battery, draw: {{ tx: 20 mA }} }}\n  - {{ id: mcu, rail: battery, draw: {{ sleep: 5 µA }} }}\nmodes: {{ pulse: {{ radio: tx }}, idle: {{ mcu: sleep }} }}\nprofile: [{{ mode: pulse, for: 10 ms }}, {{ mode: idle, for: 990 ms }}]\n"

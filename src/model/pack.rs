@@ -336,3 +336,52 @@ impl Pack {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn arrhenius_factor_matches_the_published_form() {
+        // Arrhenius (1889): k(T2) / k(T1) = exp(Ea / R (1/T1 - 1/T2)). REFERENCES C29 gives, for
+        // Ea = 20 kJ/mol and T_ref = 25 °C, the resistance factors exp(Ea/R (1/T - 1/T_ref))
+        // 2.093 at 0 °C and 0.6022 at 45 °C (computed there): a rate's factor is their inverse.
+        let law = SelfDischargeLaw::Arrhenius {
+            ea_j_per_mol: 20_000.0,
+        };
+        assert!((1.0 / law.factor(25.0, 0.0) - 2.093).abs() < 5e-4);
+        assert!((1.0 / law.factor(25.0, 45.0) - 0.6022).abs() < 5e-5);
+        assert!((law.factor(25.0, 25.0) - 1.0).abs() < 1e-15);
+        // Ea = 50 kJ/mol from 25 °C to 60 °C: exp(50000 / 8.314462618 x (1/298.15 - 1/333.15))
+        // = 8.322740 (computed here).
+        let law = SelfDischargeLaw::Arrhenius {
+            ea_j_per_mol: 50_000.0,
+        };
+        assert!((law.factor(25.0, 60.0) - 8.322_740_490_954_887).abs() < 1e-9);
+        // At and below absolute zero nothing reacts.
+        assert_eq!(law.factor(25.0, -273.15), 0.0);
+    }
+
+    #[test]
+    fn doubling_every_ten_degrees_is_arrhenius_near_53_kj_per_mol() {
+        // Doubling per 10 K at 25 °C is Ea = ln 2 x R x 298.15 x 308.15 / 10 = 52.95 kJ/mol
+        // (solved from the Arrhenius ratio, computed here).
+        let ea = std::f64::consts::LN_2 * GAS_CONSTANT * 298.15 * 308.15 / 10.0;
+        let a = SelfDischargeLaw::Arrhenius { ea_j_per_mol: ea }.factor(25.0, 35.0);
+        let d = SelfDischargeLaw::Doubling { every_k: 10.0 }.factor(25.0, 35.0);
+        assert!((a - 2.0).abs() < 1e-12 && (d - 2.0).abs() < 1e-12);
+        assert!((ea - 52_949.0).abs() < 1.0, "{ea}");
+        for c in [
+            Chemistry::LiIon,
+            Chemistry::LiFePo4,
+            Chemistry::NiMh,
+            Chemistry::Alkaline,
+            Chemistry::LiMnO2,
+            Chemistry::LiSoCl2,
+            Chemistry::LeadAcid,
+        ] {
+            assert_eq!(c.self_discharge_doubling_k(), Some(10.0), "{}", c.name());
+        }
+        assert_eq!(Chemistry::Other.self_discharge_doubling_k(), None);
+    }
+}
