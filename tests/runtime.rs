@@ -306,6 +306,70 @@ fn a_preset_keeps_its_runtime_at_its_reference_temperature_and_loses_shelf_life_
     );
 }
 
+#[test]
+fn a_primary_cell_without_a_rating_is_rated_at_a_light_drain_so_peukert_acts() {
+    // The default rated current of an alkaline cell is capacity / 100 h (from memory, typical of
+    // the chemistry; `Chemistry::default_rating_hours`): 2.6 Ah gives 26 mA. Peukert's
+    // conservative form (DESIGN section 5; Peukert 1897, REFERENCES C12): at 100 mA,
+    // I_eff = 100 mA x (100 / 26)^(1.2 - 1) = 130.93 mA, and a flat cell empties after
+    // 2.6 Ah / I_eff. A lithium-ion cell keeps 0.2 It (C / 5 h = 520 mA): no loss at 100 mA.
+    let text = |chemistry: &str| {
+        format!(
+            "cells:\n  c: {{ chemistry: {chemistry}, capacity: 2.6 Ah, ocv: [[0 %, 1.5 V], [100 %, 1.5 V]], resistance: 0.1 ohm, peukert: 1.2, cutoff: 0.9 V }}\nbattery: {{ cell: c }}\nloads: [{{ id: l, rail: battery, draw: {{ on: 100 mA }} }}]\nmodes: {{ run: {{ l: on }} }}\nprofile: [{{ mode: run, for: 1 h }}]\n"
+        )
+    };
+    let q = 2.6 * 3600.0;
+    let i_eff = 0.1 * (0.1_f64 / 0.026).powf(0.2);
+    let r = fast(&design(&text("alkaline")));
+    assert_eq!(r.end.reason, EndReason::Empty);
+    assert!(close(r.runtime_s(), q / i_eff, 1e-6), "{}", r.runtime_s());
+    let r = fast(&design(&text("li-ion")));
+    assert!(close(r.runtime_s(), q / 0.1, 1e-6), "{}", r.runtime_s());
+    // Li-MnO2 and Li-SOCl2 take capacity / 1000 h and / 2000 h.
+    for (chemistry, hours) in [("li-mno2", 1000.0), ("li-socl2", 2000.0), ("nimh", 5.0)] {
+        let d = design(&text(chemistry));
+        assert!(close(d.pack.rated_current_a(), 2.6 / hours, 1e-12), "{chemistry}");
+    }
+}
+
+#[test]
+fn pulse_and_continuous_limits_are_judged_by_how_long_a_mode_is_held() {
+    // The coin cell preset allows 3 mA continuously and 15 mA in pulses of up to 1 s
+    // (presets/li-mno2-cr2032.yaml, from memory). A 12 mA radio burst of 5 ms is within the
+    // pulse limit; a 20 mA one is above it; 12 mA held for 2 s is above the continuous limit.
+    let kinds = |burst: &str, length: &str| {
+        let d = design(&format!(
+            "battery: {{ cell: li-mno2-cr2032 }}\nloads: [{{ id: radio, rail: battery, draw: {{ tx: {burst} }} }}]\nmodes: {{ tx: {{ radio: tx }}, idle: {{}} }}\nprofile:\n  - repeat: [{{ mode: tx, for: {length} }}, {{ mode: idle, for: 10 s }}]\n    times: 10\n  - {{ mode: idle, for: 1 h }}\n"
+        ));
+        let r = run(
+            &d,
+            &RunOptions {
+                horizon_s: 86_400.0,
+                ..RunOptions::for_design(&d)
+            },
+        )
+        .unwrap();
+        r.violations
+            .iter()
+            .map(|v| v.kind.name())
+            .collect::<Vec<_>>()
+    };
+    assert!(kinds("12 mA", "5 ms").is_empty());
+    assert_eq!(kinds("20 mA", "5 ms"), ["pack_pulse_overcurrent"]);
+    assert_eq!(kinds("12 mA", "2 s"), ["pack_overcurrent"]);
+    // Two steps of the same mode in a row are one stretch: 0.6 s + 0.6 s is longer than 1 s.
+    let d = design(
+        "battery: { cell: li-mno2-cr2032 }\nloads: [{ id: radio, rail: battery, draw: { tx: 12 mA } }]\nmodes: { tx: { radio: tx }, idle: {} }\nprofile: [{ mode: tx, for: 0.6 s }, { mode: tx, for: 0.6 s }, { mode: idle, for: 1 h }]\n",
+    );
+    assert!((d.modes[0].longest_hold_s - 1.2).abs() < 1e-12);
+    // A custom cell with only a continuous limit judges a 5 ms pulse against it.
+    let d = design(
+        "cells:\n  c: { capacity: 225 mAh, ocv: [[0 %, 2.5 V], [100 %, 3 V]], resistance: 10 ohm, cutoff: 2 V, max_current: 3 mA }\nbattery: { cell: c }\nloads: [{ id: radio, rail: battery, draw: { tx: 12 mA } }]\nmodes: { tx: { radio: tx }, idle: {} }\nprofile: [{ mode: tx, for: 5 ms }, { mode: idle, for: 10 s }]\n",
+    );
+    let v = joulepath::solve::budget(&d, 1.0, &[0]);
+    assert_eq!(v[0].violations[0].kind.name(), "pack_overcurrent");
+}
+
 fn pulse_design(polarization: &str) -> Design {
     design(&format!(
         "cells:\n  coin:\n    chemistry: li-mno2\n    capacity: 2.25 mAh\n    ocv: [[0 %, 2.5 V], [100 %, 3.0 V]]\n    resistance: 20 Ω\n{polarization}    cutoff: 2.3 V\nbattery: {{ cell: coin }}\nloads:\n  - {{ id: radio, rail: battery, draw: {{ tx: 20 mA }} }}\n  - {{ id: mcu, rail: battery, draw: {{ sleep: 5 µA }} }}\nmodes: {{ pulse: {{ radio: tx }}, idle: {{ mcu: sleep }} }}\nprofile: [{{ mode: pulse, for: 10 ms }}, {{ mode: idle, for: 990 ms }}]\n"

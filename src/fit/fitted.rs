@@ -132,6 +132,7 @@ impl Fit {
             peukert: self.peukert,
             cutoff_v: self.cutoff_v,
             max_current_a: None,
+            max_pulse: None,
             self_discharge_per_s: 0.0,
             self_discharge_ref_c: 25.0,
             self_discharge_law: crate::model::SelfDischargeLaw::Constant,

@@ -13,7 +13,7 @@ mod tolerance;
 
 pub use curve::{Table, TableError};
 pub use load::{Draw, Load};
-pub use mode::{Mode, RepeatUntil, Step};
+pub use mode::{Mode, RepeatUntil, Step, longest_holds};
 pub use pack::{Cell, CellSize, Chemistry, GAS_CONSTANT, MONTH_S, Pack, SelfDischargeLaw};
 pub use presets::{Nominal, PRESETS, Preset};
 pub use stage::{EffCurve, LossModel, Stage, StageKind};

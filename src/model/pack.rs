@@ -64,6 +64,35 @@ impl Chemistry {
         }
     }
 
+    /// The hours of discharge the capacity of a cell of this chemistry is rated over when the
+    /// cell gives no `rated_current`: the default rated current is capacity / these hours.
+    ///
+    /// Rechargeable cells are rated at 0.2 It, 5 h (IEC 61960-3 and IEC 61951-2, REFERENCES C17
+    /// and C18, the rate from memory). Primary cells are rated at a light drain, far below
+    /// 0.2 C: at C/5 a Peukert exponent would act only above a fifth of the capacity per hour,
+    /// where these cells are seldom used, and an alkaline AA at 100 mA would be taken at its
+    /// full capacity.
+    pub fn default_rating_hours(self) -> f64 {
+        match self {
+            // Alkaline: about 100 h (a 25 mA drain for an AA; from memory, the light-load
+            // tests of IEC 60086-2 run at tens of milliamps; the preset `alkaline-aa` uses it).
+            Chemistry::Alkaline => 100.0,
+            // Lithium-manganese dioxide coin cells: about 1000 h (a CR2032 is rated into about
+            // 15 kΩ, 0.2 mA for 225 mAh; from memory, typical of the size; preset
+            // `li-mno2-cr2032`).
+            Chemistry::LiMnO2 => 1000.0,
+            // Lithium-thionyl chloride bobbin cells: about 2000 h (about 1 mA for an AA of
+            // 2.4 Ah; from memory, typical rating current of the size; preset `li-socl2-aa`).
+            Chemistry::LiSoCl2 => 2000.0,
+            // Rechargeables, and a cell of no chemistry: 0.2 It (DESIGN section 4's default).
+            Chemistry::LiIon
+            | Chemistry::LiFePo4
+            | Chemistry::NiMh
+            | Chemistry::LeadAcid
+            | Chemistry::Other => 5.0,
+        }
+    }
+
     /// Whether cells of this chemistry contain lithium (the safety caution applies most).
     pub fn is_lithium(self) -> bool {
         matches!(
@@ -144,6 +173,8 @@ pub struct Cell {
     pub cutoff_v: f64,
     /// Continuous discharge limit, A.
     pub max_current_a: Option<f64>,
+    /// Pulse discharge limit, A, and the longest pulse it allows, s.
+    pub max_pulse: Option<(f64, f64)>,
     /// Self-discharge at `self_discharge_ref_c`, fraction of rated capacity per second.
     pub self_discharge_per_s: f64,
     /// The temperature of `self_discharge_per_s`, °C.
@@ -313,6 +344,13 @@ impl Pack {
         self.cell
             .max_current_a
             .map(|i| i * f64::from(self.parallel))
+    }
+
+    /// Pack pulse current limit, A, and the longest pulse it allows, s.
+    pub fn max_pulse(&self) -> Option<(f64, f64)> {
+        self.cell
+            .max_pulse
+            .map(|(i, t)| (i * f64::from(self.parallel), t))
     }
 
     /// Current of the pack's capacity rating.

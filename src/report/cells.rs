@@ -8,7 +8,7 @@ use super::Format;
 use super::rows::{CsvRow, write_rows};
 use super::text::{Align, TextTable};
 use crate::model::{MONTH_S, Nominal, Preset, SelfDischargeLaw};
-use crate::units::{fmt_celsius, fmt_eng, fmt_percent, fmt_sig};
+use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent, fmt_sig};
 
 /// Days in the year of the per-year self-discharge shown beside the monthly rate.
 const YEAR_DAYS: f64 = 365.25;
@@ -241,6 +241,12 @@ fn table(w: &mut dyn Write, p: &Preset) -> io::Result<()> {
             |i| format!("{} continuous", fmt_eng(i, "A")),
         ),
     );
+    if let Some((i, t)) = c.max_pulse {
+        row(
+            "max pulse current",
+            format!("{} in pulses of up to {}", fmt_eng(i, "A"), fmt_duration(t)),
+        );
+    }
     let rate = if per_year < 1.0 {
         format!(
             "{}/month ({}/year) of the rated capacity",

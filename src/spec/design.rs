@@ -81,7 +81,8 @@ pub struct CellSpec {
     /// Rated capacity, e.g. `600 mAh` (or an energy such as `2.2 Wh`).
     #[serde(default)]
     pub capacity: Option<Qty>,
-    /// The current the capacity is rated at; default capacity / 5 h.
+    /// The current the capacity is rated at; default capacity / 5 h, for primary chemistries a
+    /// light drain (alkaline capacity / 100 h, li-mno2 / 1000 h, li-socl2 / 2000 h).
     #[serde(default)]
     pub rated_current: Option<Qty>,
     /// Open-circuit voltage against state of charge: `[[SoC, V], ...]`.
@@ -102,6 +103,12 @@ pub struct CellSpec {
     /// Continuous discharge limit per cell.
     #[serde(default)]
     pub max_current: Option<Qty>,
+    /// Pulse discharge limit per cell, for a mode held no longer than `max_pulse_length`.
+    #[serde(default)]
+    pub max_pulse_current: Option<Qty>,
+    /// The longest pulse `max_pulse_current` allows, e.g. `100 ms`.
+    #[serde(default)]
+    pub max_pulse_length: Option<Qty>,
     /// Self-discharge of the rated capacity: `3 %/month` at every temperature, or
     /// `{ rate: 1 %/year, at: 20 °C, doubles_every: 10 °C }` following the temperature.
     #[serde(default)]

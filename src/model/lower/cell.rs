@@ -246,7 +246,9 @@ impl Lower<'_> {
                 Dim::Current,
                 Bound::AboveZero,
             ),
-            (None, Some(cap)) => Some(cap / (5.0 * 3600.0)),
+            (None, Some(cap)) => {
+                Some(cap / (chemistry(c.chemistry).default_rating_hours() * 3600.0))
+            }
             (None, None) => None,
         };
         let polarization = match &c.polarization {
@@ -288,6 +290,7 @@ impl Lower<'_> {
             Dim::Current,
             Bound::AboveZero,
         );
+        let max_pulse = self.max_pulse(c, path, max_current.flatten());
         let self_discharge = self.self_discharge(c, path);
         let mass = self.opt(
             c.mass.as_ref(),
@@ -310,6 +313,7 @@ impl Lower<'_> {
             peukert: peukert?,
             cutoff_v: cutoff?,
             max_current_a: max_current?,
+            max_pulse: max_pulse?,
             self_discharge_per_s: self_discharge.0,
             self_discharge_ref_c: self_discharge.1,
             self_discharge_law: self_discharge.2,
@@ -318,6 +322,62 @@ impl Lower<'_> {
             mass_kg: mass?,
             size: size?,
         })
+    }
+
+    /// A cell's pulse limit: `max_pulse_current` with its `max_pulse_length`, both or neither,
+    /// the pulse current at least the continuous one.
+    fn max_pulse(
+        &mut self,
+        c: &CellSpec,
+        path: &str,
+        continuous: Option<f64>,
+    ) -> Option<Option<(f64, f64)>> {
+        let current = self.opt(
+            c.max_pulse_current.as_ref(),
+            format_args!("{path}.max_pulse_current"),
+            Dim::Current,
+            Bound::AboveZero,
+        )?;
+        let length = self.opt(
+            c.max_pulse_length.as_ref(),
+            format_args!("{path}.max_pulse_length"),
+            Dim::Time,
+            Bound::AboveZero,
+        )?;
+        match (current, length) {
+            (None, None) => Some(None),
+            (Some(_), None) => {
+                self.err(
+                    path,
+                    "the cell gives `max_pulse_current` without `max_pulse_length`",
+                    Some("add the longest pulse the limit allows, such as `max_pulse_length: 100 ms`".into()),
+                );
+                None
+            }
+            (None, Some(_)) => {
+                self.err(
+                    &format!("{path}.max_pulse_length"),
+                    "the cell gives `max_pulse_length` without `max_pulse_current`",
+                    Some("add the pulse limit, such as `max_pulse_current: 15 mA`, or remove the length".into()),
+                );
+                None
+            }
+            (Some(i), Some(t)) => match continuous {
+                Some(max) if i < max => {
+                    self.err(
+                        &format!("{path}.max_pulse_current"),
+                        format!(
+                            "the pulse limit {} is below the continuous limit {}",
+                            fmt_eng(i, "A"),
+                            fmt_eng(max, "A")
+                        ),
+                        Some("a pulse may draw at least what the cell gives continuously: check both values".into()),
+                    );
+                    None
+                }
+                _ => Some(Some((i, t))),
+            },
+        }
     }
 
     /// A cell's self-discharge: its rate per second, the temperature of that rate (°C) and its
@@ -554,6 +614,8 @@ fn overlay(over: &CellSpec, base: &CellSpec) -> CellSpec {
         peukert: pick(&over.peukert, &base.peukert),
         cutoff: pick(&over.cutoff, &base.cutoff),
         max_current: pick(&over.max_current, &base.max_current),
+        max_pulse_current: pick(&over.max_pulse_current, &base.max_pulse_current),
+        max_pulse_length: pick(&over.max_pulse_length, &base.max_pulse_length),
         self_discharge: over
             .self_discharge
             .clone()
@@ -578,6 +640,8 @@ pub(super) fn given_keys(c: &CellSpec) -> Vec<&'static str> {
         ("peukert", c.peukert.is_some()),
         ("cutoff", c.cutoff.is_some()),
         ("max_current", c.max_current.is_some()),
+        ("max_pulse_current", c.max_pulse_current.is_some()),
+        ("max_pulse_length", c.max_pulse_length.is_some()),
         ("self_discharge", c.self_discharge.is_some()),
         ("temperature", c.temperature.is_some()),
         ("mass", c.mass.is_some()),

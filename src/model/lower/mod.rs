@@ -334,6 +334,11 @@ impl Lower<'_> {
         for m in &mut modes {
             m.rail_draws = rail_draws(&tree, &loads, &m.load_states);
         }
+        let profile = profile?;
+        let holds = crate::model::longest_holds(&profile, modes.len());
+        for (m, hold) in modes.iter_mut().zip(holds) {
+            m.longest_hold_s = hold;
+        }
         let mut design = Design {
             title: spec
                 .design
@@ -344,7 +349,7 @@ impl Lower<'_> {
             stages: stages?,
             loads,
             modes,
-            profile: profile?,
+            profile,
             tree,
             tolerances: Vec::new(),
         };
