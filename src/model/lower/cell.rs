@@ -348,7 +348,7 @@ impl Lower<'_> {
             (None, None) => Some(None),
             (Some(_), None) => {
                 self.err(
-                    path,
+                    &format!("{path}.max_pulse_current"),
                     "the cell gives `max_pulse_current` without `max_pulse_length`",
                     Some("add the longest pulse the limit allows, such as `max_pulse_length: 100 ms`".into()),
                 );
