@@ -133,6 +133,7 @@ impl Fit {
             cutoff_v: self.cutoff_v,
             max_current_a: None,
             max_pulse: None,
+            from_preset: false,
             self_discharge_per_s: 0.0,
             self_discharge_ref_c: 25.0,
             self_discharge_law: crate::model::SelfDischargeLaw::Constant,

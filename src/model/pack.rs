@@ -155,6 +155,9 @@ impl SelfDischargeLaw {
 pub struct Cell {
     /// Name (a key of `cells`, a preset, or `inline`).
     pub name: String,
+    /// Whether the cell starts from a built-in preset (which gives every value with its origin)
+    /// rather than being described in the design alone.
+    pub from_preset: bool,
     /// Chemistry.
     pub chemistry: Chemistry,
     /// Rated capacity, C.

@@ -465,7 +465,22 @@ impl Walker<'_> {
             return st.shutdown;
         }
         let q = st.quiescent;
-        let (state, vout) = state_and_output(st, vin);
+        let (mut state, mut vout) = state_and_output(st, vin);
+        if state == StageState::Bypass && st.bypass_resistance > 0.0 {
+            // A synchronous pass-through sags with its current: the boost stays in bypass only
+            // while the settled output is at or above the setpoint, and regulates below it.
+            let v_pass = match settle(vout, st.bypass_resistance, &mut |v| {
+                self.rail_current(out, v, None)
+            }) {
+                Settle::Point {
+                    v_a, v_b, alpha, ..
+                } => alpha * v_a + (1.0 - alpha) * v_b,
+                Settle::Collapse => 0.0,
+            };
+            if v_pass < st.setpoint {
+                (state, vout) = (StageState::Regulating, st.setpoint);
+            }
+        }
         // Record the stage before its subtree; its figures are filled in after the walk below.
         let slot = rec.as_ref().map(|r| r.len());
         let mut rec = rec;
@@ -484,7 +499,15 @@ impl Walker<'_> {
         }
         let (vout, iout, iin, loss) = match (st.kind, state) {
             (StageKind::Switch, _) => {
-                let (vout, iout) = self.switch_output(k, vin, rec.as_deref_mut());
+                let (vout, iout) =
+                    self.pass_output(k, vin, st.on_resistance, rec.as_deref_mut());
+                let iin = iout + q;
+                (vout, iout, iin, vin * iin - vout * iout)
+            }
+            (_, StageState::Bypass) if st.bypass_resistance > 0.0 => {
+                // Vout = Vin - bypass_drop - Iout x bypass_resistance, settled like a switch.
+                let (vout, iout) =
+                    self.pass_output(k, vout, st.bypass_resistance, rec.as_deref_mut());
                 let iin = iout + q;
                 (vout, iout, iin, vin * iin - vout * iout)
             }
@@ -495,7 +518,7 @@ impl Walker<'_> {
             }
             _ => {
                 let iout = self.rail_current(out, vout, rec.as_deref_mut());
-                let loss = st.loss.loss(vin, vout, iout, q);
+                let loss = st.regulating_loss(vin, vout, iout);
                 let pin = vout * iout + loss;
                 let iin = if vin > 0.0 {
                     pin / vin
@@ -523,12 +546,12 @@ impl Walker<'_> {
         iin
     }
 
-    /// Output voltage and current of load switch `k` with input `vin`: its on resistance is a
-    /// source resistance for its rail, settled like the pack.
-    fn switch_output(&self, k: usize, vin: f64, rec: Option<&mut Vec<Rec>>) -> (f64, f64) {
-        let st = &self.d.stages[k];
+    /// Output voltage and current of stage `k` passing `vin` through resistance `r` (a load
+    /// switch's on resistance, a boost's synchronous bypass): a source resistance for its rail,
+    /// settled like the pack.
+    fn pass_output(&self, k: usize, vin: f64, r: f64, rec: Option<&mut Vec<Rec>>) -> (f64, f64) {
         let out = k + 1;
-        let s = settle(vin, st.on_resistance, &mut |v| {
+        let s = settle(vin, r, &mut |v| {
             self.rail_current(out, v, None)
         });
         let Settle::Point {

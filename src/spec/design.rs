@@ -233,6 +233,16 @@ pub enum StageKindSpec {
     Switch,
 }
 
+/// Where a switching stage draws its quiescent current.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
+#[serde(rename_all = "kebab-case")]
+pub enum QuiescentFromSpec {
+    /// From its input: Vin x quiescent (the default).
+    Input,
+    /// From its output, through the converter: a load of `quiescent` on its own output.
+    Output,
+}
+
 /// One stage: a converter, regulator or switch.
 #[derive(Debug, Clone, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
@@ -255,6 +265,10 @@ pub struct StageSpec {
     /// Input current at zero load while enabled.
     #[serde(default)]
     pub quiescent: Option<Qty>,
+    /// Switching stages: where the quiescent current is drawn, `input` (the default) or
+    /// `output` (through the converter, as small boosts supply themselves).
+    #[serde(default)]
+    pub quiescent_from: Option<QuiescentFromSpec>,
     /// Input current while disabled by a mode.
     #[serde(default)]
     pub shutdown: Option<Qty>,
@@ -270,6 +284,9 @@ pub struct StageSpec {
     /// Boost: input-output difference in bypass.
     #[serde(default)]
     pub bypass_drop: Option<Qty>,
+    /// Boost: resistance of a synchronous pass-through in bypass (Vout = Vin - drop - Iout R).
+    #[serde(default)]
+    pub bypass_resistance: Option<Qty>,
     /// Switch: on resistance.
     #[serde(default)]
     pub on_resistance: Option<Qty>,

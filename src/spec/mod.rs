@@ -26,7 +26,7 @@ use node::{Kind, Node};
 
 pub use design::{
     AgingSpec, BatterySpec, CellRef, CellSpec, ChemistrySpec, DesignSpec, LoadSpec, LossSpec,
-    PolarizationSpec, StageKindSpec, StageSpec, StepSpec, TemperatureRowSpec,
+    PolarizationSpec, QuiescentFromSpec, StageKindSpec, StageSpec, StepSpec, TemperatureRowSpec,
 };
 pub use overrides::Override;
 pub use path::{Seg, segments};

@@ -106,7 +106,10 @@ impl Lower<'_> {
         };
         let merged = overlay(c, &base);
         let before = self.diags.len();
-        let cell = self.custom_cell(name, &merged, path);
+        let cell = self.custom_cell(name, &merged, path).map(|c| Cell {
+            from_preset: true,
+            ..c
+        });
         // A problem with a value the preset gave (a rule across keys, such as the cutoff against
         // an overriding OCV table) says where that value came from.
         let given = given_keys(c);
@@ -304,6 +307,7 @@ impl Lower<'_> {
         let self_discharge = self_discharge?;
         Some(Cell {
             name: name.to_string(),
+            from_preset: false,
             chemistry: chemistry(c.chemistry),
             capacity_c: capacity_c?,
             rated_current_a: rated?,

@@ -23,7 +23,7 @@ use crate::error::{Diagnostic, DiagnosticKind, did_you_mean};
 use crate::hash::FastMap;
 use crate::spec::{
     CellRef, CellSpec, ChemistrySpec, DesignSpec, Efficiency, Partial, Qty, ResistanceSpec,
-    SourceMap, StageKindSpec, StageSpec, StepSpec, backticked,
+    QuiescentFromSpec, SourceMap, StageKindSpec, StageSpec, StepSpec, backticked,
 };
 use crate::tree::{MAX_DEPTH, Tree, TreeError};
 use crate::units::{Dim, Quantity, fmt_eng, fmt_percent, parse_quantity, physical};
