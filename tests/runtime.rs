@@ -268,7 +268,11 @@ fn self_discharge_follows_arrhenius_with_an_activation_energy() {
     // With no law, the chemistry's default: lithium-ion doubles every 10 °C, so 2 %/month at
     // 20 °C is 8 %/month at 40 °C.
     let r = fast(&design(&text("{ rate: 2 %/month, at: 20 °C }")));
-    assert!(close(r.runtime_s(), month / 0.08, 1e-9), "{}", r.runtime_s());
+    assert!(
+        close(r.runtime_s(), month / 0.08, 1e-9),
+        "{}",
+        r.runtime_s()
+    );
 }
 
 #[test]
@@ -328,7 +332,10 @@ fn a_primary_cell_without_a_rating_is_rated_at_a_light_drain_so_peukert_acts() {
     // Li-MnO2 and Li-SOCl2 take capacity / 1000 h and / 2000 h.
     for (chemistry, hours) in [("li-mno2", 1000.0), ("li-socl2", 2000.0), ("nimh", 5.0)] {
         let d = design(&text(chemistry));
-        assert!(close(d.pack.rated_current_a(), 2.6 / hours, 1e-12), "{chemistry}");
+        assert!(
+            close(d.pack.rated_current_a(), 2.6 / hours, 1e-12),
+            "{chemistry}"
+        );
     }
 }
 

@@ -499,8 +499,7 @@ impl Walker<'_> {
         }
         let (vout, iout, iin, loss) = match (st.kind, state) {
             (StageKind::Switch, _) => {
-                let (vout, iout) =
-                    self.pass_output(k, vin, st.on_resistance, rec.as_deref_mut());
+                let (vout, iout) = self.pass_output(k, vin, st.on_resistance, rec.as_deref_mut());
                 let iin = iout + q;
                 (vout, iout, iin, vin * iin - vout * iout)
             }
@@ -551,9 +550,7 @@ impl Walker<'_> {
     /// settled like the pack.
     fn pass_output(&self, k: usize, vin: f64, r: f64, rec: Option<&mut Vec<Rec>>) -> (f64, f64) {
         let out = k + 1;
-        let s = settle(vin, r, &mut |v| {
-            self.rail_current(out, v, None)
-        });
+        let s = settle(vin, r, &mut |v| self.rail_current(out, v, None));
         let Settle::Point {
             v_a,
             v_b,

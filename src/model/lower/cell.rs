@@ -398,7 +398,12 @@ impl Lower<'_> {
             }
             Some(SelfDischargeSpec::AtTemperature(s)) => s,
         };
-        let rate = self.value(&s.rate, format_args!("{p}.rate"), Dim::Rate, Bound::AtLeastZero);
+        let rate = self.value(
+            &s.rate,
+            format_args!("{p}.rate"),
+            Dim::Rate,
+            Bound::AtLeastZero,
+        );
         let at = match &s.at {
             None => Some(REFERENCE_C),
             Some(q) => self.value(q, format_args!("{p}.at"), Dim::Temperature, Bound::Any),
