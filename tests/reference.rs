@@ -411,7 +411,7 @@ profile: [{{ mode: sleep, for: 1 h }}]
         "sleep",
         1.0,
     );
-    assert_eq!(same.pack.current, input.pack.current);
+    assert_eq!(same.pack.current.to_bits(), input.pack.current.to_bits());
     let output = point(
         &on_source(1.2, "0 ohm", &body(", quiescent_from: output")),
         "sleep",

@@ -75,7 +75,9 @@ fn list_holds(steps: &[Step], longest: &mut [f64]) {
     if runs.len() > 1 {
         if let (Some((Some(a), ta)), Some((Some(b), _))) = (runs.first().copied(), runs.last()) {
             if a == *b {
-                runs.last_mut().map(|r| r.1 += ta);
+                if let Some(r) = runs.last_mut() {
+                    r.1 += ta;
+                }
             }
         }
     }
