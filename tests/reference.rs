@@ -481,3 +481,35 @@ profile: [{ mode: run, for: 1 h }]
     let p = point(&d, "run", 1.0);
     assert!(close(stage(&d, &p, "b").vout, 3.8 * 100.0 / 100.5, 1e-9));
 }
+
+#[test]
+fn boost_at_its_input_current_limit_is_power_limited_by_hand() {
+    // A boost to 3.3 V at 90 % on an ideal 1.2 V source into 10 Ω would draw
+    // 3.3² / 10 / 0.9 / 1.2 = 1.0083 A (definition of efficiency). Limited to 0.5 A at its
+    // input, it passes P_in = 0.6 W, so the output falls to where V² / 10 Ω = 0.9 x 0.6 W:
+    // V = sqrt(5.4) = 2.32379 V (computed by hand). A 2 W constant-power load cannot be fed
+    // at any output voltage from 0.6 W: the output collapses and the limit current is lost.
+    let d = on_source(
+        1.2,
+        "0 ohm",
+        "stages: [{ id: b, kind: boost, input: battery, output: 3.3 V, efficiency: 90 %, input_current_limit: 0.5 A }]
+loads: [{ id: l, rail: b, draw: { on: 10 ohm, lamp: 2 W, dim: 100 ohm } }]
+modes: { run: { l: on }, lamp: { l: lamp }, dim: { l: dim } }
+profile: [{ mode: run, for: 1 h }]
+",
+    );
+    let p = point(&d, "run", 1.0);
+    let s = stage(&d, &p, "b");
+    assert_eq!(s.state, StageState::Limited);
+    assert!(close(s.vout, 5.4_f64.sqrt(), 1e-9), "{}", s.vout);
+    assert!(close(p.pack.current, 0.5, 1e-9), "{}", p.pack.current);
+    let p = point(&d, "lamp", 1.0);
+    let s = stage(&d, &p, "b");
+    assert_eq!(s.state, StageState::Limited);
+    assert!(s.vout.abs() < 1e-300 && close(s.loss, 0.6, 1e-12));
+    // Below the limit nothing changes: 100 Ω draws 3.3² / 100 / 0.9 / 1.2 = 100.8 mA.
+    let p = point(&d, "dim", 1.0);
+    let s = stage(&d, &p, "b");
+    assert_eq!(s.state, StageState::Regulating);
+    assert!(close(p.pack.current, 3.3 * 3.3 / 100.0 / 0.9 / 1.2, 1e-12));
+}

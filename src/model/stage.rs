@@ -215,6 +215,9 @@ pub struct Stage {
     pub input_max: Option<f64>,
     /// Output current rating.
     pub max_output_current: Option<f64>,
+    /// Input current limit of a switching stage in regulation, A: above it the stage is
+    /// power-limited and its output falls until the input current is at the limit.
+    pub input_current_limit: Option<f64>,
     /// Least Vin - Vout in regulation (buck, linear), V.
     pub dropout: f64,
     /// Vin - Vout in bypass at no load (boost), V.

@@ -179,6 +179,9 @@ fn stage_text(s: &Stage) -> String {
         };
         parts.push(format!("quiescent {}{from}", fmt_eng(s.quiescent, "A")));
     }
+    if let Some(limit) = s.input_current_limit {
+        parts.push(format!("input limit {}", fmt_eng(limit, "A")));
+    }
     if let (Some(lo), Some(hi)) = (s.input_min, s.input_max) {
         parts.push(format!("input {}..{}", fmt_eng(lo, "V"), fmt_eng(hi, "V")));
     }

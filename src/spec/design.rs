@@ -278,6 +278,10 @@ pub struct StageSpec {
     /// Output current rating.
     #[serde(default)]
     pub max_output_current: Option<Qty>,
+    /// Switching stages: the most input current the converter draws while regulating (its
+    /// switch current limit, as seen at its input); above it the output voltage falls.
+    #[serde(default)]
+    pub input_current_limit: Option<Qty>,
     /// Buck and linear: least input-output difference that keeps regulation.
     #[serde(default)]
     pub dropout: Option<Qty>,

@@ -172,6 +172,19 @@ impl Lower<'_> {
             kn,
             "switching stages (buck, boost, buck-boost)",
         );
+        self.not_for(
+            !kind.is_switching() && s.input_current_limit.is_some(),
+            path,
+            "input_current_limit",
+            kn,
+            "switching stages (buck, boost, buck-boost)",
+        );
+        let input_limit = self.opt(
+            s.input_current_limit.as_ref(),
+            format_args!("{path}.input_current_limit"),
+            Dim::Current,
+            Bound::AboveZero,
+        );
         let bypass_r = self.opt(
             s.bypass_resistance.as_ref(),
             format_args!("{path}.bypass_resistance"),
@@ -240,6 +253,7 @@ impl Lower<'_> {
             input_min,
             input_max,
             max_output_current: max_out?,
+            input_current_limit: input_limit?,
             dropout: dropout?.unwrap_or(dropout_default),
             // A synchronous pass-through (`bypass_resistance` alone) has no diode drop.
             bypass_drop: bypass?.unwrap_or(if s.bypass_resistance.is_some() {
