@@ -880,3 +880,60 @@ fn set_creates_an_optional_block_the_file_leaves_out() {
         out.stderr
     );
 }
+
+#[test]
+fn risky_defaults_warn_on_check_but_do_not_fail_it() {
+    // A custom cell at 0 °C with no self-discharge and no temperature table, and a linear
+    // regulator set to 4.1 V with a 0.2 V dropout on a cell that is never above 4.2 V: three
+    // warnings, exit 0. At 25 °C only the regulator is left.
+    let text = |ambient: &str, extra: &str| {
+        format!(
+            "ambient: {ambient}\ncells:\n  c: {{ capacity: 1 Ah, ocv: [[0 %, 3 V], [100 %, 4.2 V]], resistance: 0.1 ohm, cutoff: 3 V{extra} }}\nbattery: {{ cell: c }}\nstages: [{{ id: ldo, kind: linear, input: battery, output: 4.1 V, dropout: 0.2 V }}]\nloads: [{{ id: mcu, rail: ldo, draw: {{ run: 5 mA }} }}]\nmodes: {{ run: {{ mcu: run }} }}\nprofile: [{{ mode: run, for: 1 h }}]\n"
+        )
+    };
+    let flat = |s: &str| s.split_whitespace().collect::<Vec<_>>().join(" ");
+    let out = Test::new()
+        .design(&text("0 °C", ""))
+        .args(&["check", "{file}"])
+        .expect_code(0);
+    let o = flat(&out.stdout);
+    for frag in [
+        "warning: cell `c` gives no `self_discharge`",
+        "warning: cell `c` has no `temperature` table",
+        "warning: stage `ldo` never regulates: its input is at most 4.20 V, below its setpoint 4.10 V plus its dropout 200 mV",
+    ] {
+        assert!(o.contains(frag), "missing {frag:?} in\n{o}");
+    }
+    let out = Test::new()
+        .design(&text("25 °C", ""))
+        .args(&["check", "{file}"])
+        .expect_code(0);
+    assert_eq!(out.stdout.matches("warning:").count(), 1, "{}", out.stdout);
+    // A plain self-discharge rate away from 25 °C is held constant: said so.
+    let out = Test::new()
+        .design(&text("40 °C", ", self_discharge: 2 %/month"))
+        .args(&["check", "{file}"])
+        .expect_code(0);
+    assert!(
+        flat(&out.stdout).contains("warning: the self-discharge of cell `c` is a plain rate"),
+        "{}",
+        out.stdout
+    );
+    // The preset cells give both, with the rate at its temperature: no such warning.
+    let out = Test::new()
+        .design(&on_preset("li-socl2-aa", "60 °C"))
+        .args(&["check", "{file}"])
+        .expect_code(0);
+    assert!(!out.stdout.contains("warning:"), "{}", out.stdout);
+    // A boost on the pack set below the pack's cutoff less its bypass drop is always in bypass.
+    let boost = "ambient: 25 °C\nbattery: { cell: li-ion-18650 }\nstages: [{ id: b, kind: boost, input: battery, output: 2.0 V, efficiency: 90 % }]\nloads: [{ id: mcu, rail: b, draw: { run: 5 mA } }]\nmodes: { run: { mcu: run } }\nprofile: [{ mode: run, for: 1 h }]\n";
+    let out = Test::new()
+        .design(boost)
+        .args(&["check", "{file}"])
+        .expect_code(0);
+    assert!(
+        flat(&out.stdout).contains("warning: stage `b` never regulates"),
+        "{}",
+        out.stdout
+    );
+}

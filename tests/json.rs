@@ -156,8 +156,9 @@ const REASONS: [&str; 6] = [
     "empty",
     "horizon",
 ];
-const KINDS: [&str; 7] = [
+const KINDS: [&str; 8] = [
     "pack_overcurrent",
+    "pack_pulse_overcurrent",
     "stage_overcurrent",
     "overvoltage",
     "rail_high",

@@ -253,6 +253,8 @@ proptest! {
                     StageState::Dropout => prop_assert!(sp.vin < st.setpoint + st.dropout + tol),
                     StageState::Bypass => prop_assert!(sp.vin - st.bypass_drop > st.setpoint - tol),
                     StageState::Undervoltage => prop_assert!(st.input_min.is_some()),
+                    // Only with an input current limit, which the random trees do not give.
+                    StageState::Limited => prop_assert!(st.input_current_limit.is_some() && sp.vout < st.setpoint),
                     StageState::On | StageState::Off => {}
                 }
                 if let (true, Some(min)) = (sp.state.is_running(), st.input_min) {

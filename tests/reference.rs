@@ -382,3 +382,134 @@ profile: [{ mode: run, for: 1 h }]
     assert!(close(p.pack.current, 0.12, 1e-6));
     assert!(close(p.stages[0].vout, 3.3, 1e-9));
 }
+
+#[test]
+fn boost_quiescent_drawn_from_its_output_by_hand() {
+    // A one-cell boost to 3.3 V at 85 % (constant efficiency, DESIGN section 5) with 5 µA of
+    // quiescent current, on an ideal 1.2 V source, its load asleep at 10 µA. From the input
+    // (the default): P_in = 3.3 V x 10 µA / 0.85 + 1.2 V x 5 µA = 44.82 µW, I = 37.35 µA. From
+    // the output, the converter carries 15 µA: P_in = 3.3 V x 15 µA / 0.85 = 58.24 µW,
+    // I = 48.53 µA (energy balance, computed by hand): the input form reads 23 % low here.
+    let body = |from: &str| {
+        format!(
+            "stages: [{{ id: b, kind: boost, input: battery, output: 3.3 V, efficiency: 85 %, quiescent: 5 µA{from} }}]
+loads: [{{ id: mcu, rail: b, draw: {{ sleep: 10 µA }} }}]
+modes: {{ sleep: {{ mcu: sleep }} }}
+profile: [{{ mode: sleep, for: 1 h }}]
+"
+        )
+    };
+    let input = point(&on_source(1.2, "0 ohm", &body("")), "sleep", 1.0);
+    let want_in = (3.3 * 10e-6 / 0.85 + 1.2 * 5e-6) / 1.2;
+    assert!(
+        close(input.pack.current, want_in, 1e-12),
+        "{}",
+        input.pack.current
+    );
+    let same = point(
+        &on_source(1.2, "0 ohm", &body(", quiescent_from: input")),
+        "sleep",
+        1.0,
+    );
+    assert_eq!(same.pack.current.to_bits(), input.pack.current.to_bits());
+    let output = point(
+        &on_source(1.2, "0 ohm", &body(", quiescent_from: output")),
+        "sleep",
+        1.0,
+    );
+    let want_out = 3.3 * 15e-6 / 0.85 / 1.2;
+    assert!(
+        close(output.pack.current, want_out, 1e-12),
+        "{}",
+        output.pack.current
+    );
+    // Loss terms: L = Vout q + drop (Iout + q) + R (Iout + q)^2 with the model's Vin q dropped.
+    let d = on_source(
+        1.2,
+        "0 ohm",
+        "stages: [{ id: b, kind: boost, input: battery, output: 3.3 V, loss: { drop: 0.1 V, resistance: 1 ohm }, quiescent: 5 µA, quiescent_from: output }]
+loads: [{ id: mcu, rail: b, draw: { run: 10 mA } }]
+modes: { run: { mcu: run } }
+profile: [{ mode: run, for: 1 h }]
+",
+    );
+    let p = point(&d, "run", 1.0);
+    let i = 10e-3 + 5e-6;
+    let loss = 3.3 * 5e-6 + 0.1 * i + 1.0 * i * i;
+    assert!(close(stage(&d, &p, "b").loss, loss, 1e-12));
+    assert!(close(p.pack.current, (3.3 * 10e-3 + loss) / 1.2, 1e-12));
+}
+
+#[test]
+fn boost_synchronous_bypass_sags_with_its_resistance_by_hand() {
+    // A boost to 3.0 V on an ideal 4.0 V source with a synchronous pass-through of 0.5 Ω and no
+    // diode drop: in bypass Vout = Vin - Iout R (Ohm's law). A 100 Ω load: Iout = 4 V / 100.5 Ω
+    // = 39.80 mA, Vout = 3.980 V, above the setpoint: bypass. A 1 Ω load would pull the output
+    // to 4 V x 1 / 1.5 = 2.667 V, below 3.0 V: the boost regulates at 3.0 V instead.
+    let body = |r: &str| {
+        format!(
+            "stages: [{{ id: b, kind: boost, input: battery, output: 3.0 V, efficiency: 90 %, bypass_resistance: 0.5 ohm }}]
+loads: [{{ id: l, rail: b, draw: {{ on: {r} }} }}]
+modes: {{ run: {{ l: on }} }}
+profile: [{{ mode: run, for: 1 h }}]
+"
+        )
+    };
+    let d = on_source(4.0, "0 ohm", &body("100 ohm"));
+    let p = point(&d, "run", 1.0);
+    let s = stage(&d, &p, "b");
+    assert_eq!(s.state, StageState::Bypass);
+    assert!(close(s.iout, 4.0 / 100.5, 1e-9), "{}", s.iout);
+    assert!(close(s.vout, 4.0 * 100.0 / 100.5, 1e-9), "{}", s.vout);
+    assert!(close(s.loss, 0.5 * s.iout * s.iout, 1e-6));
+    let d = on_source(4.0, "0 ohm", &body("1 ohm"));
+    let p = point(&d, "run", 1.0);
+    let s = stage(&d, &p, "b");
+    assert_eq!(s.state, StageState::Regulating);
+    assert!(close(s.vout, 3.0, 1e-12));
+    assert!(close(p.pack.current, 9.0 / 0.9 / 4.0, 1e-9));
+    // With the diode-like drop as well: Vout = 4 V - 0.2 V - Iout x 0.5 Ω into 100 Ω.
+    let d = on_source(
+        4.0,
+        "0 ohm",
+        "stages: [{ id: b, kind: boost, input: battery, output: 3.0 V, efficiency: 90 %, bypass_drop: 0.2 V, bypass_resistance: 0.5 ohm }]
+loads: [{ id: l, rail: b, draw: { on: 100 ohm } }]
+modes: { run: { l: on } }
+profile: [{ mode: run, for: 1 h }]
+",
+    );
+    let p = point(&d, "run", 1.0);
+    assert!(close(stage(&d, &p, "b").vout, 3.8 * 100.0 / 100.5, 1e-9));
+}
+
+#[test]
+fn boost_at_its_input_current_limit_is_power_limited_by_hand() {
+    // A boost to 3.3 V at 90 % on an ideal 1.2 V source into 10 Ω would draw
+    // 3.3² / 10 / 0.9 / 1.2 = 1.0083 A (definition of efficiency). Limited to 0.5 A at its
+    // input, it passes P_in = 0.6 W, so the output falls to where V² / 10 Ω = 0.9 x 0.6 W:
+    // V = sqrt(5.4) = 2.32379 V (computed by hand). A 2 W constant-power load cannot be fed
+    // at any output voltage from 0.6 W: the output collapses and the limit current is lost.
+    let d = on_source(
+        1.2,
+        "0 ohm",
+        "stages: [{ id: b, kind: boost, input: battery, output: 3.3 V, efficiency: 90 %, input_current_limit: 0.5 A }]
+loads: [{ id: l, rail: b, draw: { on: 10 ohm, lamp: 2 W, dim: 100 ohm } }]
+modes: { run: { l: on }, lamp: { l: lamp }, dim: { l: dim } }
+profile: [{ mode: run, for: 1 h }]
+",
+    );
+    let p = point(&d, "run", 1.0);
+    let s = stage(&d, &p, "b");
+    assert_eq!(s.state, StageState::Limited);
+    assert!(close(s.vout, 5.4_f64.sqrt(), 1e-9), "{}", s.vout);
+    assert!(close(p.pack.current, 0.5, 1e-9), "{}", p.pack.current);
+    let p = point(&d, "lamp", 1.0);
+    let s = stage(&d, &p, "b");
+    assert_eq!(s.state, StageState::Limited);
+    assert!(s.vout.abs() < 1e-300 && close(s.loss, 0.6, 1e-12));
+    // Below the limit nothing changes: 100 Ω draws 3.3² / 100 / 0.9 / 1.2 = 100.8 mA.
+    let p = point(&d, "dim", 1.0);
+    let s = stage(&d, &p, "b");
+    assert_eq!(s.state, StageState::Regulating);
+    assert!(close(p.pack.current, 3.3 * 3.3 / 100.0 / 0.9 / 1.2, 1e-12));
+}

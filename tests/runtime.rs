@@ -290,6 +290,175 @@ fn self_discharge_alone_empties_in_one_over_the_rate() {
     assert!(close(r.runtime_s(), 0.9 * month / 0.03, 1e-9));
 }
 
+#[test]
+fn self_discharge_doubles_every_ten_degrees_above_its_reference() {
+    // The doubling law r(T) = r_ref 2^((T - T_ref) / N) (REFERENCES C23, common practice, no
+    // source; as a form, exact): 3 %/month at 25 °C doubling every 10 °C is 6 %/month at 35 °C,
+    // so a shelved cell empties after 1 / 0.06 months = 507.33 d; at 15 °C, 1.5 %/month, twice
+    // the 25 °C time. At 25 °C the rate is the one written, as with a plain rate.
+    let text = |law: &str, ambient: &str| {
+        format!(
+            "ambient: {ambient}\ncells:\n  c: {{ capacity: 1 Ah, ocv: [[0 %, 3 V], [100 %, 4 V]], resistance: 0.1 ohm, cutoff: 2.5 V, self_discharge: {law} }}\nbattery: {{ cell: c }}\nloads: [{{ id: l, rail: battery, draw: {{ on: 1 A }} }}]\nmodes: {{ shelf: {{}} }}\nprofile: [{{ mode: shelf, for: 1 d }}]\n"
+        )
+    };
+    let month = 30.44 * 86_400.0;
+    let doubling = "{ rate: 3 %/month, at: 25 °C, doubles_every: 10 °C }";
+    for (ambient, rate) in [("35 °C", 0.06), ("15 °C", 0.015), ("25 °C", 0.03)] {
+        let r = fast(&design(&text(doubling, ambient)));
+        assert_eq!(r.end.reason, EndReason::Empty);
+        assert!(
+            close(r.runtime_s(), month / rate, 1e-9),
+            "{ambient}: {}",
+            r.runtime_s()
+        );
+    }
+    // A plain rate is held at every temperature (DESIGN section 5).
+    let r = fast(&design(&text("3 %/month", "35 °C")));
+    assert!(close(r.runtime_s(), month / 0.03, 1e-9));
+    // A step in kelvin is the same step: 10 K doubles as 10 °C does.
+    let r = fast(&design(&text(
+        "{ rate: 3 %/month, doubles_every: 10 K }",
+        "35 °C",
+    )));
+    assert!(close(r.runtime_s(), month / 0.06, 1e-9));
+}
+
+#[test]
+fn self_discharge_follows_arrhenius_with_an_activation_energy() {
+    // Arrhenius (1889; any physical chemistry text): k(T2) / k(T1) = exp(Ea / R (1/T1 - 1/T2)),
+    // R = 8.314462618 J/(mol K). Ea = 60 kJ/mol, T1 = 20 °C, T2 = 40 °C:
+    // exp(60000 / 8.314462618 x (1/293.15 - 1/313.15)) = 4.817181 (computed here). 2 %/month at
+    // 20 °C is 9.634363 %/month at 40 °C; a shelved cell empties after 1 / that months.
+    let text = |law: &str| {
+        format!(
+            "ambient: 40 °C\ncells:\n  c: {{ chemistry: li-ion, capacity: 1 Ah, ocv: [[0 %, 3 V], [100 %, 4 V]], resistance: 0.1 ohm, cutoff: 2.5 V, self_discharge: {law} }}\nbattery: {{ cell: c }}\nloads: [{{ id: l, rail: battery, draw: {{ on: 1 A }} }}]\nmodes: {{ shelf: {{}} }}\nprofile: [{{ mode: shelf, for: 1 d }}]\n"
+        )
+    };
+    let month = 30.44 * 86_400.0;
+    let ratio = 4.817_181_350_370_803;
+    for ea in ["60 kJ/mol", "60000 J/mol"] {
+        let r = fast(&design(&text(&format!(
+            "{{ rate: 2 %/month, at: 20 °C, activation_energy: {ea} }}"
+        ))));
+        assert_eq!(r.end.reason, EndReason::Empty);
+        assert!(
+            close(r.runtime_s(), month / (0.02 * ratio), 1e-9),
+            "{ea}: {}",
+            r.runtime_s()
+        );
+    }
+    // With no law, the chemistry's default: lithium-ion doubles every 10 °C, so 2 %/month at
+    // 20 °C is 8 %/month at 40 °C.
+    let r = fast(&design(&text("{ rate: 2 %/month, at: 20 °C }")));
+    assert!(
+        close(r.runtime_s(), month / 0.08, 1e-9),
+        "{}",
+        r.runtime_s()
+    );
+}
+
+#[test]
+fn a_preset_keeps_its_runtime_at_its_reference_temperature_and_loses_shelf_life_when_hot() {
+    // The lithium-thionyl chloride preset gives 1 %/year at 25 °C, doubling every 10 °C
+    // (presets/li-socl2-aa.yaml). At 25 °C the run equals one with the rate held constant; at
+    // 60 °C the rate is 2^3.5 = 11.31 times as high, so a meter drawing 20 µA, which self-discharge
+    // matters to, runs shorter than at 25 °C.
+    let text = |cell: &str, ambient: &str| {
+        format!(
+            "ambient: {ambient}\nbattery: {{ cell: {cell} }}\nloads: [{{ id: meter, rail: battery, draw: {{ on: 20 µA }} }}]\nmodes: {{ run: {{ meter: on }} }}\nprofile: [{{ mode: run, for: 1 d }}]\n"
+        )
+    };
+    let preset = "li-socl2-aa";
+    let held = "{ preset: li-socl2-aa, self_discharge: 1 %/year }";
+    let at25 = fast(&design(&text(preset, "25 °C")));
+    assert_eq!(
+        at25.runtime_s().to_bits(),
+        fast(&design(&text(held, "25 °C"))).runtime_s().to_bits()
+    );
+    let hot = fast(&design(&text(preset, "60 °C")));
+    let hot_held = fast(&design(&text(held, "60 °C")));
+    assert!(hot.runtime_s() < 0.8 * hot_held.runtime_s());
+    // By hand, to the empty end (the 20 µA load never sags the cell to its cutoff): Q(60 °C) /
+    // (20 µA + 11.31 x 1 %/year x 2.4 Ah), Q from the preset's temperature table.
+    let d = design(&text(preset, "60 °C"));
+    let q = d.pack.capacity_c(60.0);
+    let i_self = 0.01 * 2f64.powf(3.5) * 2.4 * 3600.0 / (365.25 * 86_400.0);
+    assert_eq!(hot.end.reason, EndReason::Empty);
+    assert!(
+        close(hot.runtime_s(), q / (20e-6 + i_self), 2e-3),
+        "{} vs {}",
+        hot.runtime_s(),
+        q / (20e-6 + i_self)
+    );
+}
+
+#[test]
+fn a_primary_cell_without_a_rating_is_rated_at_a_light_drain_so_peukert_acts() {
+    // The default rated current of an alkaline cell is capacity / 100 h (from memory, typical of
+    // the chemistry; `Chemistry::default_rating_hours`): 2.6 Ah gives 26 mA. Peukert's
+    // conservative form (DESIGN section 5; Peukert 1897, REFERENCES C12): at 100 mA,
+    // I_eff = 100 mA x (100 / 26)^(1.2 - 1) = 130.93 mA, and a flat cell empties after
+    // 2.6 Ah / I_eff. A lithium-ion cell keeps 0.2 It (C / 5 h = 520 mA): no loss at 100 mA.
+    let text = |chemistry: &str| {
+        format!(
+            "cells:\n  c: {{ chemistry: {chemistry}, capacity: 2.6 Ah, ocv: [[0 %, 1.5 V], [100 %, 1.5 V]], resistance: 0.1 ohm, peukert: 1.2, cutoff: 0.9 V }}\nbattery: {{ cell: c }}\nloads: [{{ id: l, rail: battery, draw: {{ on: 100 mA }} }}]\nmodes: {{ run: {{ l: on }} }}\nprofile: [{{ mode: run, for: 1 h }}]\n"
+        )
+    };
+    let q = 2.6 * 3600.0;
+    let i_eff = 0.1 * (0.1_f64 / 0.026).powf(0.2);
+    let r = fast(&design(&text("alkaline")));
+    assert_eq!(r.end.reason, EndReason::Empty);
+    assert!(close(r.runtime_s(), q / i_eff, 1e-6), "{}", r.runtime_s());
+    let r = fast(&design(&text("li-ion")));
+    assert!(close(r.runtime_s(), q / 0.1, 1e-6), "{}", r.runtime_s());
+    // Li-MnO2 and Li-SOCl2 take capacity / 1000 h and / 2000 h.
+    for (chemistry, hours) in [("li-mno2", 1000.0), ("li-socl2", 2000.0), ("nimh", 5.0)] {
+        let d = design(&text(chemistry));
+        assert!(
+            close(d.pack.rated_current_a(), 2.6 / hours, 1e-12),
+            "{chemistry}"
+        );
+    }
+}
+
+#[test]
+fn pulse_and_continuous_limits_are_judged_by_how_long_a_mode_is_held() {
+    // The coin cell preset allows 3 mA continuously and 15 mA in pulses of up to 1 s
+    // (presets/li-mno2-cr2032.yaml, from memory). A 12 mA radio burst of 5 ms is within the
+    // pulse limit; a 20 mA one is above it; 12 mA held for 2 s is above the continuous limit.
+    let kinds = |burst: &str, length: &str| {
+        let d = design(&format!(
+            "battery: {{ cell: li-mno2-cr2032 }}\nloads: [{{ id: radio, rail: battery, draw: {{ tx: {burst} }} }}]\nmodes: {{ tx: {{ radio: tx }}, idle: {{}} }}\nprofile:\n  - repeat: [{{ mode: tx, for: {length} }}, {{ mode: idle, for: 10 s }}]\n    times: 10\n  - {{ mode: idle, for: 1 h }}\n"
+        ));
+        let r = run(
+            &d,
+            &RunOptions {
+                horizon_s: 86_400.0,
+                ..RunOptions::for_design(&d)
+            },
+        )
+        .unwrap();
+        r.violations
+            .iter()
+            .map(|v| v.kind.name())
+            .collect::<Vec<_>>()
+    };
+    assert!(kinds("12 mA", "5 ms").is_empty());
+    assert_eq!(kinds("20 mA", "5 ms"), ["pack_pulse_overcurrent"]);
+    assert_eq!(kinds("12 mA", "2 s"), ["pack_overcurrent"]);
+    // Two steps of the same mode in a row are one stretch: 0.6 s + 0.6 s is longer than 1 s.
+    let d = design(
+        "battery: { cell: li-mno2-cr2032 }\nloads: [{ id: radio, rail: battery, draw: { tx: 12 mA } }]\nmodes: { tx: { radio: tx }, idle: {} }\nprofile: [{ mode: tx, for: 0.6 s }, { mode: tx, for: 0.6 s }, { mode: idle, for: 1 h }]\n",
+    );
+    assert!((d.modes[0].longest_hold_s - 1.2).abs() < 1e-12);
+    // A custom cell with only a continuous limit judges a 5 ms pulse against it.
+    let d = design(
+        "cells:\n  c: { capacity: 225 mAh, ocv: [[0 %, 2.5 V], [100 %, 3 V]], resistance: 10 ohm, cutoff: 2 V, max_current: 3 mA }\nbattery: { cell: c }\nloads: [{ id: radio, rail: battery, draw: { tx: 12 mA } }]\nmodes: { tx: { radio: tx }, idle: {} }\nprofile: [{ mode: tx, for: 5 ms }, { mode: idle, for: 10 s }]\n",
+    );
+    let v = joulepath::solve::budget(&d, 1.0, &[0]);
+    assert_eq!(v[0].violations[0].kind.name(), "pack_overcurrent");
+}
+
 fn pulse_design(polarization: &str) -> Design {
     design(&format!(
         "cells:\n  coin:\n    chemistry: li-mno2\n    capacity: 2.25 mAh\n    ocv: [[0 %, 2.5 V], [100 %, 3.0 V]]\n    resistance: 20 Ω\n{polarization}    cutoff: 2.3 V\nbattery: {{ cell: coin }}\nloads:\n  - {{ id: radio, rail: battery, draw: {{ tx: 20 mA }} }}\n  - {{ id: mcu, rail: battery, draw: {{ sleep: 5 µA }} }}\nmodes: {{ pulse: {{ radio: tx }}, idle: {{ mcu: sleep }} }}\nprofile: [{{ mode: pulse, for: 10 ms }}, {{ mode: idle, for: 990 ms }}]\n"

@@ -15,8 +15,10 @@ mod tolerance;
 pub use climate::{Climate, MONTH_OF_YEAR_S};
 pub use curve::{Table, TableError};
 pub use load::{Draw, Load};
-pub use mode::{Mode, RepeatUntil, Step};
-pub use pack::{Cell, CellSize, Chemistry, DEFAULT_RATE_WINDOW_S, MONTH_S, Pack};
+pub use mode::{Mode, RepeatUntil, Step, longest_holds};
+pub use pack::{
+    Cell, CellSize, Chemistry, DEFAULT_RATE_WINDOW_S, GAS_CONSTANT, MONTH_S, Pack, SelfDischargeLaw,
+};
 pub use presets::{Nominal, PRESETS, Preset};
 pub use stage::{EffCurve, LossModel, Stage, StageKind};
 pub use tolerance::{Dist, Knob, Range, Tolerance};

@@ -12,6 +12,80 @@ pub struct Mode {
     /// For each rail, the draws of its loads that are on in this mode (derived from
     /// `load_states` when the design is checked).
     pub rail_draws: Vec<Vec<super::Draw>>,
+    /// The longest time the profile holds this mode at a stretch, s (see [`longest_holds`]):
+    /// a cell's pulse limit applies to a mode held no longer than the cell's pulse length.
+    pub longest_hold_s: f64,
+}
+
+/// For each of `modes` modes, the longest time `profile` holds it at a stretch, s: the sum of
+/// consecutive steps of that mode within one list of steps, the last and first steps of a
+/// list joined (every list repeats: a repeat block, and the profile itself until the product
+/// stops). A list that holds one mode only holds it without end (infinite), and so does a mode
+/// the profile never holds (its operating point, as in `budget`, is judged as continuous).
+/// Steps of the same mode on either side of a nested block's edge are not joined.
+///
+/// # Examples
+///
+/// ```
+/// use joulepath::model::{RepeatUntil, Step, longest_holds};
+/// let hold = |mode, seconds| Step::Hold { mode, seconds };
+/// let burst = Step::Repeat {
+///     steps: vec![hold(0, 0.005), hold(1, 0.995)],
+///     until: RepeatUntil::Times(10),
+/// };
+/// let profile = vec![burst, hold(1, 60.0), hold(1, 30.0)];
+/// assert_eq!(longest_holds(&profile, 3), vec![0.005, 90.0, f64::INFINITY]);
+/// ```
+pub fn longest_holds(profile: &[Step], modes: usize) -> Vec<f64> {
+    let mut longest = vec![0.0_f64; modes];
+    list_holds(profile, &mut longest);
+    for l in &mut longest {
+        if *l == 0.0 {
+            *l = f64::INFINITY;
+        }
+    }
+    longest
+}
+
+fn list_holds(steps: &[Step], longest: &mut [f64]) {
+    let mode_of = |s: &Step| match s {
+        Step::Hold { mode, .. } => Some(*mode),
+        Step::Repeat { .. } => None,
+    };
+    if let Some(first) = steps.first().and_then(mode_of) {
+        if steps.iter().all(|s| mode_of(s) == Some(first)) {
+            longest[first] = f64::INFINITY;
+            return;
+        }
+    }
+    // Runs of one mode, in order; the first run joins the last when they are the same mode.
+    let mut runs: Vec<(Option<usize>, f64)> = Vec::new();
+    for s in steps {
+        match s {
+            Step::Hold { mode, seconds } => match runs.last_mut() {
+                Some((Some(m), t)) if m == mode => *t += seconds,
+                _ => runs.push((Some(*mode), *seconds)),
+            },
+            Step::Repeat { steps: inner, .. } => {
+                list_holds(inner, longest);
+                runs.push((None, 0.0));
+            }
+        }
+    }
+    if runs.len() > 1 {
+        if let (Some((Some(a), ta)), Some((Some(b), _))) = (runs.first().copied(), runs.last()) {
+            if a == *b {
+                if let Some(r) = runs.last_mut() {
+                    r.1 += ta;
+                }
+            }
+        }
+    }
+    for (m, t) in runs {
+        if let Some(m) = m {
+            longest[m] = longest[m].max(t);
+        }
+    }
 }
 
 /// One item of the profile.

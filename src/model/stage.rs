@@ -202,8 +202,11 @@ pub struct Stage {
     pub setpoint: f64,
     /// Loss model of a switching stage.
     pub loss: LossModel,
-    /// Input current at zero load while enabled, A.
+    /// Quiescent current at zero load while enabled, A.
     pub quiescent: f64,
+    /// Whether a switching stage draws its quiescent current from its output (through the
+    /// converter) rather than from its input.
+    pub quiescent_from_output: bool,
     /// Input current while disabled, A.
     pub shutdown: f64,
     /// Lowest input voltage at which it runs.
@@ -212,16 +215,52 @@ pub struct Stage {
     pub input_max: Option<f64>,
     /// Output current rating.
     pub max_output_current: Option<f64>,
+    /// Input current limit of a switching stage in regulation, A: above it the stage is
+    /// power-limited and its output falls until the input current is at the limit.
+    pub input_current_limit: Option<f64>,
     /// Least Vin - Vout in regulation (buck, linear), V.
     pub dropout: f64,
-    /// Vin - Vout in bypass (boost), V.
+    /// Vin - Vout in bypass at no load (boost), V.
     pub bypass_drop: f64,
+    /// Resistance of the pass-through in bypass (boost), Ω: Vout = Vin - drop - Iout R.
+    pub bypass_resistance: f64,
     /// On resistance (switch), Ω.
     pub on_resistance: f64,
     /// Junction-to-ambient thermal resistance, K/W.
     pub theta_ja: Option<f64>,
     /// Maximum junction temperature, °C.
     pub tj_max: f64,
+}
+
+impl Stage {
+    /// Loss of a switching stage in regulation at input `vin`, output `vout` and `iout`.
+    ///
+    /// With the quiescent current drawn from the input (the default), the loss model's own
+    /// L(Vin, Vout, Iout, q). Drawn from the output, the quiescent current is a load of the
+    /// converter itself: it carries Iout + q, and the power Vout q is lost, so
+    /// L = Vout q + L(Vin, Vout, Iout + q, 0) (the model's Vin q term dropped; an efficiency
+    /// curve's light-load floor then falls to zero at zero current).
+    ///
+    /// # Examples
+    ///
+    /// ```
+    /// use joulepath::model::{LossModel, Stage, StageKind};
+    /// # let mut st = joulepath::Design::from_text("battery: { cell: alkaline-aa }\nstages: [{ id: b, kind: boost, input: battery, output: 3.3 V, efficiency: 85 % }]\nloads: [{ id: l, rail: b, draw: { on: 1 mA } }]\nmodes: { m: { l: on } }\nprofile: [{ mode: m, for: 1 h }]\n").unwrap().stages[0].clone();
+    /// st.quiescent = 5e-6;
+    /// // From the input, 1.2 V x 5 µA = 6 µW at no load.
+    /// assert!((st.regulating_loss(1.2, 3.3, 0.0) - 6e-6).abs() < 1e-15);
+    /// // From the output, 3.3 V x 5 µA / 85 % = 19.41 µW drawn for it.
+    /// st.quiescent_from_output = true;
+    /// assert!((st.regulating_loss(1.2, 3.3, 0.0) - 3.3 * 5e-6 / 0.85).abs() < 1e-15);
+    /// ```
+    pub fn regulating_loss(&self, vin: f64, vout: f64, iout: f64) -> f64 {
+        if self.quiescent_from_output {
+            let q = self.quiescent;
+            vout * q + self.loss.loss(vin, vout, iout + q, 0.0)
+        } else {
+            self.loss.loss(vin, vout, iout, self.quiescent)
+        }
+    }
 }
 
 #[cfg(test)]

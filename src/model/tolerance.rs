@@ -351,14 +351,21 @@ impl Knob {
                 };
                 super::lower::refresh_draws(d);
             }
-            Knob::StepFor(at) => match step_mut(&mut d.profile, at) {
-                Some(Step::Hold { seconds, .. }) => *seconds = v,
-                Some(Step::Repeat {
-                    until: RepeatUntil::Seconds(s),
-                    ..
-                }) => *s = v,
-                _ => {}
-            },
+            Knob::StepFor(at) => {
+                match step_mut(&mut d.profile, at) {
+                    Some(Step::Hold { seconds, .. }) => *seconds = v,
+                    Some(Step::Repeat {
+                        until: RepeatUntil::Seconds(s),
+                        ..
+                    }) => *s = v,
+                    _ => {}
+                }
+                // How long each mode is held decides which of the cell's limits applies.
+                let holds = super::longest_holds(&d.profile, d.modes.len());
+                for (m, hold) in d.modes.iter_mut().zip(holds) {
+                    m.longest_hold_s = hold;
+                }
+            }
             Knob::RepeatTimes(at) => {
                 if let Some(Step::Repeat {
                     until: RepeatUntil::Times(n),

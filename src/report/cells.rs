@@ -7,7 +7,7 @@ use serde::Serialize;
 use super::Format;
 use super::rows::{CsvRow, write_rows};
 use super::text::{Align, TextTable};
-use crate::model::{MONTH_S, Nominal, Preset};
+use crate::model::{MONTH_S, Nominal, Preset, SelfDischargeLaw};
 use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent, fmt_sig};
 
 /// Days in the year of the per-year self-discharge shown beside the monthly rate.
@@ -254,19 +254,37 @@ fn table(w: &mut dyn Write, p: &Preset) -> io::Result<()> {
             |i| format!("{} continuous", fmt_eng(i, "A")),
         ),
     );
-    row(
-        "self-discharge",
-        if per_year < 1.0 {
-            format!(
-                "{}/month ({}/year) of the rated capacity",
-                fmt_percent(per_month),
-                fmt_percent(per_year)
-            )
-        } else {
-            // A fast rate: the linear model empties the cell within the year.
-            format!("{}/month of the rated capacity", fmt_percent(per_month))
-        },
-    );
+    if let Some((i, t)) = c.max_pulse {
+        row(
+            "max pulse current",
+            format!("{} in pulses of up to {}", fmt_eng(i, "A"), fmt_duration(t)),
+        );
+    }
+    let rate = if per_year < 1.0 {
+        format!(
+            "{}/month ({}/year) of the rated capacity",
+            fmt_percent(per_month),
+            fmt_percent(per_year)
+        )
+    } else {
+        // A fast rate: the linear model empties the cell within the year.
+        format!("{}/month of the rated capacity", fmt_percent(per_month))
+    };
+    let law = match c.self_discharge_law {
+        _ if c.self_discharge_per_s == 0.0 => String::new(),
+        SelfDischargeLaw::Constant => ", at every temperature".to_string(),
+        SelfDischargeLaw::Doubling { every_k } => format!(
+            " at {}, doubling every {} °C",
+            fmt_celsius(c.self_discharge_ref_c),
+            fmt_sig(every_k, 3).trim_end_matches(".0")
+        ),
+        SelfDischargeLaw::Arrhenius { ea_j_per_mol } => format!(
+            " at {}, Arrhenius with {} kJ/mol",
+            fmt_celsius(c.self_discharge_ref_c),
+            fmt_sig(ea_j_per_mol / 1000.0, 3)
+        ),
+    };
+    row("self-discharge", format!("{rate}{law}"));
     row(
         "mass",
         c.mass_kg.map_or_else(

@@ -17,8 +17,8 @@ pub mod text;
 
 use std::io::{self, Write};
 
-use crate::model::{Chemistry, Design};
-use crate::units::fmt_celsius;
+use crate::model::{Chemistry, Design, SelfDischargeLaw, StageKind};
+use crate::units::{fmt_celsius, fmt_eng};
 
 /// Output format of a report.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -119,6 +119,115 @@ pub fn caution_for<'a>(designs: impl IntoIterator<Item = &'a Design>) -> String 
 /// assert!(joulepath::report::warnings(&d, -55.0)[0].contains("below"));
 /// ```
 pub fn warnings(d: &Design, ambient_c: f64) -> Vec<String> {
+    let mut out = table_warning(d, ambient_c);
+    out.extend(default_warnings(d, ambient_c));
+    out
+}
+
+/// How far from 25 °C an ambient is taken as away from the temperature a cell's values hold
+/// at, for the warnings about temperature defaults, °C (common practice, no source).
+const AWAY_FROM_25_C: f64 = 5.0;
+
+/// Warnings about defaults that quietly hold a value the design did not give, and about stages
+/// that can never regulate (risky defaults, not errors):
+///
+/// - a custom cell (not from a preset) run more than 5 °C from 25 °C with no `self_discharge`,
+///   or with no temperature table (both factors taken as at 25 °C);
+/// - a self-discharge given as a plain rate, run more than 5 °C from 25 °C: it is held
+///   constant, where a rate at a temperature would follow it;
+/// - a buck or linear regulator whose input never rises above its setpoint + dropout (the
+///   highest input: the pack's full open-circuit voltage, or what the stage above can give), and
+///   a boost on the pack whose input never falls to its setpoint + bypass drop (the lowest: the
+///   pack's cutoff): the stage passes its input through the whole run.
+fn default_warnings(d: &Design, ambient_c: f64) -> Vec<String> {
+    let mut out = Vec::new();
+    let cell = &d.pack.cell;
+    let away = (ambient_c - 25.0).abs() > AWAY_FROM_25_C;
+    if away && !cell.from_preset {
+        if cell.self_discharge_per_s == 0.0 {
+            out.push(format!(
+                "cell `{}` gives no `self_discharge`, so it loses no charge of its own at the \
+ambient {}; give its rate at a temperature, such as `self_discharge: {{ rate: 2 %/month, at: \
+25 °C }}`, which follows the ambient",
+                cell.name,
+                fmt_celsius(ambient_c)
+            ));
+        }
+        if cell.temp_capacity.points().count() < 2 && cell.temp_resistance.points().count() < 2 {
+            out.push(format!(
+                "cell `{}` has no `temperature` table, so its capacity and resistance at the \
+ambient {} are taken as at room temperature; add rows such as `{{ at: {}, capacity: 90 %, \
+resistance: 150 % }}` and `{{ at: 25 °C, capacity: 100 %, resistance: 100 % }}` from the cell's \
+datasheet",
+                cell.name,
+                fmt_celsius(ambient_c),
+                fmt_celsius(ambient_c)
+            ));
+        }
+    }
+    if away
+        && cell.self_discharge_per_s > 0.0
+        && cell.self_discharge_law == SelfDischargeLaw::Constant
+    {
+        out.push(format!(
+            "the self-discharge of cell `{}` is a plain rate, held at every temperature, also at \
+the ambient {}; give it at its temperature, such as `self_discharge: {{ rate: ..., at: 25 °C }}`, \
+to follow the ambient (it then doubles every 10 °C unless the cell says otherwise)",
+            cell.name,
+            fmt_celsius(ambient_c)
+        ));
+    }
+    for st in &d.stages {
+        let v_max = rail_max_v(d, st.input);
+        match st.kind {
+            StageKind::Buck | StageKind::Linear if v_max < st.setpoint + st.dropout => {
+                out.push(format!(
+                    "stage `{}` never regulates: its input is at most {}, below its setpoint {} \
+plus its dropout {}, so it passes its input through the whole run; check `output` and `dropout`, \
+or the stage above it",
+                    st.id,
+                    fmt_eng(v_max, "V"),
+                    fmt_eng(st.setpoint, "V"),
+                    fmt_eng(st.dropout, "V")
+                ));
+            }
+            StageKind::Boost
+                if st.input == 0 && d.pack.cutoff_v() - st.bypass_drop > st.setpoint =>
+            {
+                out.push(format!(
+                    "stage `{}` never regulates: the pack stays above its cutoff {}, and so above \
+its setpoint {} plus its bypass drop {}, so it is in bypass the whole run; check `output`, or \
+the pack",
+                    st.id,
+                    fmt_eng(d.pack.cutoff_v(), "V"),
+                    fmt_eng(st.setpoint, "V"),
+                    fmt_eng(st.bypass_drop, "V")
+                ));
+            }
+            _ => {}
+        }
+    }
+    out
+}
+
+/// The highest voltage rail `rail` can reach: the pack's full open-circuit voltage, or what the
+/// stage feeding the rail gives at most from the highest voltage of its own input.
+fn rail_max_v(d: &Design, rail: usize) -> f64 {
+    if rail == 0 {
+        return d.pack.ocv(1.0);
+    }
+    let st = &d.stages[rail - 1];
+    let v_in = rail_max_v(d, st.input);
+    match st.kind {
+        StageKind::Switch => v_in,
+        StageKind::BuckBoost => st.setpoint,
+        StageKind::Boost => st.setpoint.max(v_in - st.bypass_drop),
+        StageKind::Buck | StageKind::Linear => st.setpoint.min(v_in - st.dropout),
+    }
+}
+
+/// The warning about an ambient outside the cell's temperature table.
+fn table_warning(d: &Design, ambient_c: f64) -> Vec<String> {
     let cell = &d.pack.cell;
     let table = &cell.temp_capacity;
     let mut out = Vec::new();

@@ -163,11 +163,24 @@ fn stage_text(s: &Stage) -> String {
         StageKind::Buck | StageKind::Linear => {
             parts.push(format!("dropout {}", fmt_eng(s.dropout, "V")));
         }
+        StageKind::Boost if s.bypass_resistance > 0.0 => parts.push(format!(
+            "bypass drop {} + {} x I",
+            fmt_eng(s.bypass_drop, "V"),
+            fmt_eng(s.bypass_resistance, "Ω")
+        )),
         StageKind::Boost => parts.push(format!("bypass drop {}", fmt_eng(s.bypass_drop, "V"))),
         _ => {}
     }
     if s.quiescent > 0.0 {
-        parts.push(format!("quiescent {}", fmt_eng(s.quiescent, "A")));
+        let from = if s.quiescent_from_output {
+            " from its output"
+        } else {
+            ""
+        };
+        parts.push(format!("quiescent {}{from}", fmt_eng(s.quiescent, "A")));
+    }
+    if let Some(limit) = s.input_current_limit {
+        parts.push(format!("input limit {}", fmt_eng(limit, "A")));
     }
     if let (Some(lo), Some(hi)) = (s.input_min, s.input_max) {
         parts.push(format!("input {}..{}", fmt_eng(lo, "V"), fmt_eng(hi, "V")));

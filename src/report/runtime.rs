@@ -281,6 +281,10 @@ impl Fact {
             FactKind::Stage(StageState::Dropout) => {
                 format!("`{}` is in dropout, below its setpoint,", self.id)
             }
+            FactKind::Stage(StageState::Limited) => format!(
+                "`{}` is at its input current limit, its output below its setpoint,",
+                self.id
+            ),
             FactKind::Stage(_) => format!("`{}` is locked out by undervoltage", self.id),
             FactKind::AboveMax => format!(
                 "the supply of `{}` is above its {} maximum",
@@ -325,6 +329,7 @@ pub fn regulation_facts(d: &Design, r: &RunResult) -> Vec<Fact> {
         for state in [
             StageState::Bypass,
             StageState::Dropout,
+            StageState::Limited,
             StageState::Undervoltage,
         ] {
             push(

@@ -30,6 +30,7 @@ pub fn fmt_value(d: &Design, knob: &Knob, v: f64) -> String {
         Dim::Number => fmt_sig(v, 4),
         Dim::Mass => fmt_eng(v * 1000.0, "g"),
         Dim::Length => fmt_eng(v, "m"),
+        Dim::MolarEnergy => format!("{} kJ/mol", fmt_sig(v / 1000.0, 3)),
     }
 }
 

@@ -2,13 +2,16 @@
 
 use super::point::OperatingPoint;
 use crate::model::{Design, LossModel};
-use crate::units::{fmt_celsius, fmt_eng};
+use crate::units::{fmt_celsius, fmt_duration, fmt_eng};
 
 /// What limit is exceeded.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
 pub enum ViolationKind {
-    /// Pack current above its continuous limit.
+    /// Pack current above its continuous limit (a mode held longer than the cell's pulse
+    /// length, or a cell with no pulse limit).
     PackOvercurrent,
+    /// Pack current above its pulse limit, in a mode held no longer than the pulse length.
+    PackPulseOvercurrent,
     /// A stage's output current above its rating.
     StageOvercurrent,
     /// A stage's input above the maximum of its input range.
@@ -28,6 +31,7 @@ impl ViolationKind {
     pub fn name(self) -> &'static str {
         match self {
             ViolationKind::PackOvercurrent => "pack_overcurrent",
+            ViolationKind::PackPulseOvercurrent => "pack_pulse_overcurrent",
             ViolationKind::StageOvercurrent => "stage_overcurrent",
             ViolationKind::Overvoltage => "overvoltage",
             ViolationKind::RailHigh => "rail_high",
@@ -89,15 +93,43 @@ pub fn violations_where(
             });
         }
     };
-    if let Some(max) = design.pack.max_current_a() {
-        if p.pack.current > max {
-            push(ViolationKind::PackOvercurrent, "battery", &|| {
-                format!(
-                    "the pack gives {}, above its {} continuous limit",
-                    fmt_eng(p.pack.current, "A"),
-                    fmt_eng(max, "A")
-                )
-            });
+    // A mode held no longer than the cell's pulse length is judged against the pulse limit;
+    // any other against the continuous limit.
+    let i = p.pack.current;
+    let hold = mode.longest_hold_s;
+    match design.pack.max_pulse() {
+        Some((max, length)) if hold <= length => {
+            if i > max {
+                push(ViolationKind::PackPulseOvercurrent, "battery", &|| {
+                    format!(
+                        "the pack gives {} in pulses of up to {}, above its {} pulse limit",
+                        fmt_eng(i, "A"),
+                        fmt_duration(hold),
+                        fmt_eng(max, "A")
+                    )
+                });
+            }
+        }
+        pulse => {
+            if let Some(max) = design.pack.max_current_a() {
+                if i > max {
+                    push(ViolationKind::PackOvercurrent, "battery", &|| match pulse {
+                        Some((_, length)) if hold.is_finite() => format!(
+                            "the pack gives {} for {} at a stretch, longer than its {} pulses: \
+above its {} continuous limit",
+                            fmt_eng(i, "A"),
+                            fmt_duration(hold),
+                            fmt_duration(length),
+                            fmt_eng(max, "A")
+                        ),
+                        _ => format!(
+                            "the pack gives {}, above its {} continuous limit",
+                            fmt_eng(i, "A"),
+                            fmt_eng(max, "A")
+                        ),
+                    });
+                }
+            }
         }
     }
     for (k, (st, sp)) in design.stages.iter().zip(&p.stages).enumerate() {

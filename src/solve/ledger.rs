@@ -32,8 +32,8 @@ pub struct Ledger {
     /// Energy each stage delivered at its output, J.
     pub stage_out_j: Vec<f64>,
     /// Time each stage spent in each state, s, indexed by state: 0 regulating, 1 dropout,
-    /// 2 bypass, 3 on, 4 off, 5 undervoltage.
-    pub stage_state_s: Vec<[f64; 6]>,
+    /// 2 bypass, 3 on, 4 off, 5 undervoltage, 6 limited.
+    pub stage_state_s: Vec<[f64; 7]>,
     /// Time each load was on (its rail live, its state not `off`), s.
     pub load_on_s: Vec<f64>,
     /// Time each load was on with its rail above its maximum supply, s.
@@ -41,7 +41,7 @@ pub struct Ledger {
 }
 
 /// Position of a state in [`Ledger::stage_state_s`]: regulating, dropout, bypass, on, off,
-/// undervoltage.
+/// undervoltage, limited.
 pub fn state_index(s: StageState) -> usize {
     match s {
         StageState::Regulating => 0,
@@ -50,6 +50,7 @@ pub fn state_index(s: StageState) -> usize {
         StageState::On => 3,
         StageState::Off => 4,
         StageState::Undervoltage => 5,
+        StageState::Limited => 6,
     }
 }
 
@@ -64,7 +65,7 @@ impl Ledger {
             stage_loss_j: vec![0.0; stages],
             load_energy_j: vec![0.0; loads],
             stage_out_j: vec![0.0; stages],
-            stage_state_s: vec![[0.0; 6]; stages],
+            stage_state_s: vec![[0.0; 7]; stages],
             load_on_s: vec![0.0; loads],
             load_high_s: vec![0.0; loads],
         }

@@ -22,6 +22,9 @@ pub enum StageState {
     Off,
     /// Its input, while running, is below the minimum of its input range: locked out.
     Undervoltage,
+    /// A switching stage at its input current limit: its output below its setpoint, where
+    /// the input current stays at the limit (power-limited).
+    Limited,
 }
 
 impl StageState {
@@ -34,6 +37,7 @@ impl StageState {
             StageState::On => "on",
             StageState::Off => "off",
             StageState::Undervoltage => "undervoltage",
+            StageState::Limited => "limited",
         }
     }
 
@@ -465,7 +469,29 @@ impl Walker<'_> {
             return st.shutdown;
         }
         let q = st.quiescent;
-        let (state, vout) = state_and_output(st, vin);
+        let (mut state, mut vout) = state_and_output(st, vin);
+        if let Some(limit) = st.input_current_limit {
+            if state == StageState::Regulating {
+                if let Some(v) = self.limited_output(k, vin, limit) {
+                    (state, vout) = (StageState::Limited, v);
+                }
+            }
+        }
+        if state == StageState::Bypass && st.bypass_resistance > 0.0 {
+            // A synchronous pass-through sags with its current: the boost stays in bypass only
+            // while the settled output is at or above the setpoint, and regulates below it.
+            let v_pass = match settle(vout, st.bypass_resistance, &mut |v| {
+                self.rail_current(out, v, None)
+            }) {
+                Settle::Point {
+                    v_a, v_b, alpha, ..
+                } => alpha * v_a + (1.0 - alpha) * v_b,
+                Settle::Collapse => 0.0,
+            };
+            if v_pass < st.setpoint {
+                (state, vout) = (StageState::Regulating, st.setpoint);
+            }
+        }
         // Record the stage before its subtree; its figures are filled in after the walk below.
         let slot = rec.as_ref().map(|r| r.len());
         let mut rec = rec;
@@ -484,7 +510,23 @@ impl Walker<'_> {
         }
         let (vout, iout, iin, loss) = match (st.kind, state) {
             (StageKind::Switch, _) => {
-                let (vout, iout) = self.switch_output(k, vin, rec.as_deref_mut());
+                let (vout, iout) = self.pass_output(k, vin, st.on_resistance, rec.as_deref_mut());
+                let iin = iout + q;
+                (vout, iout, iin, vin * iin - vout * iout)
+            }
+            (_, StageState::Limited) if vout <= 0.0 => {
+                // The output collapsed at the limit: the rail is dead and the limit current is
+                // all lost in the stage.
+                if let Some(r) = rec.as_deref_mut() {
+                    self.dead(out, r);
+                }
+                let iin = input_limit_or_zero(st);
+                (0.0, 0.0, iin, vin * iin)
+            }
+            (_, StageState::Bypass) if st.bypass_resistance > 0.0 => {
+                // Vout = Vin - bypass_drop - Iout x bypass_resistance, settled like a switch.
+                let (vout, iout) =
+                    self.pass_output(k, vout, st.bypass_resistance, rec.as_deref_mut());
                 let iin = iout + q;
                 (vout, iout, iin, vin * iin - vout * iout)
             }
@@ -495,7 +537,7 @@ impl Walker<'_> {
             }
             _ => {
                 let iout = self.rail_current(out, vout, rec.as_deref_mut());
-                let loss = st.loss.loss(vin, vout, iout, q);
+                let loss = st.regulating_loss(vin, vout, iout);
                 let pin = vout * iout + loss;
                 let iin = if vin > 0.0 {
                     pin / vin
@@ -523,14 +565,49 @@ impl Walker<'_> {
         iin
     }
 
-    /// Output voltage and current of load switch `k` with input `vin`: its on resistance is a
-    /// source resistance for its rail, settled like the pack.
-    fn switch_output(&self, k: usize, vin: f64, rec: Option<&mut Vec<Rec>>) -> (f64, f64) {
+    /// The output voltage of switching stage `k` at input `vin` when regulating would draw more
+    /// than `limit` from its input (`None` when it draws no more): the voltage where its input
+    /// current, (Vout Iout + L) / Vin, is the limit, found by bisection below the setpoint (the
+    /// input power rises with the output voltage for loads that draw more at a higher voltage).
+    /// Where even a vanishing output draws more than the limit (constant-power loads), 0: the
+    /// output collapses.
+    fn limited_output(&self, k: usize, vin: f64, limit: f64) -> Option<f64> {
         let st = &self.d.stages[k];
         let out = k + 1;
-        let s = settle(vin, st.on_resistance, &mut |v| {
-            self.rail_current(out, v, None)
-        });
+        let excess = |v: f64| {
+            let iout = self.rail_current(out, v, None);
+            v * iout + st.regulating_loss(vin, v, iout) - vin * limit
+        };
+        if vin.is_nan() || vin <= 0.0 || excess(st.setpoint) <= 0.0 {
+            return None;
+        }
+        let (mut lo, mut hi) = (0.0_f64, st.setpoint);
+        // NaN (a constant power at 0 V) counts as too much.
+        let at_zero = excess(lo);
+        if at_zero.is_nan() || at_zero > 0.0 {
+            return Some(0.0);
+        }
+        // Bisection to the resolution of f64 near the setpoint (at most about 60 halvings).
+        for _ in 0..80 {
+            let mid = 0.5 * (lo + hi);
+            if mid <= lo || mid >= hi {
+                break;
+            }
+            if excess(mid) > 0.0 {
+                hi = mid;
+            } else {
+                lo = mid;
+            }
+        }
+        Some(lo)
+    }
+
+    /// Output voltage and current of stage `k` passing `vin` through resistance `r` (a load
+    /// switch's on resistance, a boost's synchronous bypass): a source resistance for its rail,
+    /// settled like the pack.
+    fn pass_output(&self, k: usize, vin: f64, r: f64, rec: Option<&mut Vec<Rec>>) -> (f64, f64) {
+        let out = k + 1;
+        let s = settle(vin, r, &mut |v| self.rail_current(out, v, None));
         let Settle::Point {
             v_a,
             v_b,
@@ -559,6 +636,11 @@ impl Walker<'_> {
         }
         (alpha * v_a + (1.0 - alpha) * v_b, current)
     }
+}
+
+/// The input current limit of a stage, 0 without one.
+fn input_limit_or_zero(st: &Stage) -> f64 {
+    st.input_current_limit.unwrap_or(0.0)
 }
 
 /// A running stage's state and output voltage at input `vin` (DESIGN section 5).

@@ -6,7 +6,7 @@ use schemars::JsonSchema;
 use serde::Deserialize;
 
 use super::node::{Kind, Node, reread};
-use super::qty::{Efficiency, Qty, ResistanceSpec};
+use super::qty::{Efficiency, Qty, ResistanceSpec, SelfDischargeSpec};
 use super::tolerance::ToleranceSpec;
 
 /// A whole design file.
@@ -82,7 +82,8 @@ pub struct CellSpec {
     /// Rated capacity, e.g. `600 mAh` (or an energy such as `2.2 Wh`).
     #[serde(default)]
     pub capacity: Option<Qty>,
-    /// The current the capacity is rated at; default capacity / 5 h.
+    /// The current the capacity is rated at; default capacity / 5 h, for primary chemistries a
+    /// light drain (alkaline capacity / 100 h, li-mno2 / 1000 h, li-socl2 / 2000 h).
     #[serde(default)]
     pub rated_current: Option<Qty>,
     /// Open-circuit voltage against state of charge: `[[SoC, V], ...]`.
@@ -108,9 +109,16 @@ pub struct CellSpec {
     /// Continuous discharge limit per cell.
     #[serde(default)]
     pub max_current: Option<Qty>,
-    /// Self-discharge of the rated capacity, e.g. `3 %/month`.
+    /// Pulse discharge limit per cell, for a mode held no longer than `max_pulse_length`.
     #[serde(default)]
-    pub self_discharge: Option<Qty>,
+    pub max_pulse_current: Option<Qty>,
+    /// The longest pulse `max_pulse_current` allows, e.g. `100 ms`.
+    #[serde(default)]
+    pub max_pulse_length: Option<Qty>,
+    /// Self-discharge of the rated capacity: `3 %/month` at every temperature, or
+    /// `{ rate: 1 %/year, at: 20 °C, doubles_every: 10 °C }` following the temperature.
+    #[serde(default)]
+    pub self_discharge: Option<SelfDischargeSpec>,
     /// Capacity and resistance factors against temperature.
     #[serde(default)]
     pub temperature: Option<Vec<TemperatureRowSpec>>,
@@ -290,6 +298,16 @@ pub enum StageKindSpec {
     Switch,
 }
 
+/// Where a switching stage draws its quiescent current.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
+#[serde(rename_all = "kebab-case")]
+pub enum QuiescentFromSpec {
+    /// From its input: Vin x quiescent (the default).
+    Input,
+    /// From its output, through the converter: a load of `quiescent` on its own output.
+    Output,
+}
+
 /// One stage: a converter, regulator or switch.
 #[derive(Debug, Clone, Deserialize, JsonSchema)]
 #[serde(deny_unknown_fields)]
@@ -312,6 +330,10 @@ pub struct StageSpec {
     /// Input current at zero load while enabled.
     #[serde(default)]
     pub quiescent: Option<Qty>,
+    /// Switching stages: where the quiescent current is drawn, `input` (the default) or
+    /// `output` (through the converter, as small boosts supply themselves).
+    #[serde(default)]
+    pub quiescent_from: Option<QuiescentFromSpec>,
     /// Input current while disabled by a mode.
     #[serde(default)]
     pub shutdown: Option<Qty>,
@@ -321,12 +343,19 @@ pub struct StageSpec {
     /// Output current rating.
     #[serde(default)]
     pub max_output_current: Option<Qty>,
+    /// Switching stages: the most input current the converter draws while regulating (its
+    /// switch current limit, as seen at its input); above it the output voltage falls.
+    #[serde(default)]
+    pub input_current_limit: Option<Qty>,
     /// Buck and linear: least input-output difference that keeps regulation.
     #[serde(default)]
     pub dropout: Option<Qty>,
     /// Boost: input-output difference in bypass.
     #[serde(default)]
     pub bypass_drop: Option<Qty>,
+    /// Boost: resistance of a synchronous pass-through in bypass (Vout = Vin - drop - Iout R).
+    #[serde(default)]
+    pub bypass_resistance: Option<Qty>,
     /// Switch: on resistance.
     #[serde(default)]
     pub on_resistance: Option<Qty>,

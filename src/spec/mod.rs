@@ -26,11 +26,14 @@ use node::{Kind, Node};
 
 pub use design::{
     AgingSpec, AmbientSpec, BatterySpec, CellRef, CellSpec, ChemistrySpec, ClimateSpec, DesignSpec,
-    LoadSpec, LossSpec, PolarizationSpec, StageKindSpec, StageSpec, StepSpec, TemperatureRowSpec,
+    LoadSpec, LossSpec, PolarizationSpec, QuiescentFromSpec, StageKindSpec, StageSpec, StepSpec,
+    TemperatureRowSpec,
 };
 pub use overrides::Override;
 pub use path::{Seg, segments};
-pub use qty::{Efficiency, Qty, ResistanceSpec, VinCurveSpec};
+pub use qty::{
+    Efficiency, Qty, ResistanceSpec, SelfDischargeRateSpec, SelfDischargeSpec, VinCurveSpec,
+};
 pub use source::SourceMap;
 pub use tolerance::{ToleranceSpec, band_text};
 

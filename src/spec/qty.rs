@@ -214,3 +214,72 @@ impl JsonSchema for ResistanceSpec {
         })
     }
 }
+
+/// A cell's self-discharge: one rate held at every temperature, or a rate at a reference
+/// temperature with its temperature dependence.
+#[derive(Debug, Clone)]
+pub enum SelfDischargeSpec {
+    /// `3 %/month`: the same rate at every temperature.
+    Constant(Qty),
+    /// `{ rate: 1 %/year, at: 20 °C, doubles_every: 10 °C }`.
+    AtTemperature(SelfDischargeRateSpec),
+}
+
+/// A self-discharge rate at a reference temperature, and how it changes with temperature: it
+/// doubles every `doubles_every`, or follows the Arrhenius law with `activation_energy`; with
+/// neither, the chemistry's default.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct SelfDischargeRateSpec {
+    /// The rate at `at`, e.g. `1 %/year`.
+    pub rate: Qty,
+    /// The temperature of `rate` (default 25 °C).
+    #[serde(default)]
+    pub at: Option<Qty>,
+    /// The rise in temperature that doubles the rate, e.g. `10 °C`.
+    #[serde(default)]
+    pub doubles_every: Option<Qty>,
+    /// Activation energy of the Arrhenius law, e.g. `50 kJ/mol`.
+    #[serde(default)]
+    pub activation_energy: Option<Qty>,
+}
+
+impl SelfDischargeSpec {
+    /// The rate as written.
+    pub fn rate(&self) -> &Qty {
+        match self {
+            SelfDischargeSpec::Constant(q) => q,
+            SelfDischargeSpec::AtTemperature(s) => &s.rate,
+        }
+    }
+}
+
+impl<'de> Deserialize<'de> for SelfDischargeSpec {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        let v = Node::deserialize(d)?;
+        if let Some(t) = scalar_text(&v) {
+            return Ok(SelfDischargeSpec::Constant(Qty(t)));
+        }
+        if matches!(v.kind, Kind::Map(_)) {
+            return reread(&v, "").map(SelfDischargeSpec::AtTemperature);
+        }
+        Err(D::Error::custom(format!(
+            "expected a rate such as `3 %/month` or `{{ rate: 1 %/year, at: 20 °C }}`, found {}",
+            v.describe()
+        )))
+    }
+}
+
+impl JsonSchema for SelfDischargeSpec {
+    fn schema_name() -> Cow<'static, str> {
+        "SelfDischarge".into()
+    }
+    fn json_schema(g: &mut SchemaGenerator) -> Schema {
+        let q = g.subschema_for::<Qty>();
+        let at = g.subschema_for::<SelfDischargeRateSpec>();
+        json_schema!({
+            "description": "Self-discharge of the rated capacity: one rate held at every temperature (\"3 %/month\"), or { rate, at, doubles_every | activation_energy } that follows the temperature.",
+            "anyOf": [q, at]
+        })
+    }
+}

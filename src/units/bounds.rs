@@ -47,6 +47,8 @@ fn range(dim: Dim) -> Option<Range> {
         // micrometres to a stationary bank's metres.
         Dim::Mass => r(1e-6, 1e4, "1 mg", "10 t"),
         Dim::Length => r(1e-6, 100.0, "1 µm", "100 m"),
+        // Activation energies of chemical reactions: a few kJ/mol to a few hundred.
+        Dim::MolarEnergy => r(1.0, 1e6, "1 J/mol", "1000 kJ/mol"),
         // Temperatures are bounded absolutely; plain numbers by each field.
         Dim::Temperature | Dim::Number => None,
     }

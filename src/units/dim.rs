@@ -31,6 +31,8 @@ pub enum Dim {
     Mass,
     /// A length, stored in metres (`mm`, `cm`, `m`).
     Length,
+    /// An energy per amount of substance (an activation energy), stored in joules per mole.
+    MolarEnergy,
 }
 
 impl Dim {
@@ -51,6 +53,7 @@ impl Dim {
             Dim::Number => "a plain number",
             Dim::Mass => "a mass",
             Dim::Length => "a length",
+            Dim::MolarEnergy => "an energy per mole",
         }
     }
 
@@ -71,6 +74,7 @@ impl Dim {
             Dim::Number => "1.05",
             Dim::Mass => "23 g",
             Dim::Length => "14.5 mm",
+            Dim::MolarEnergy => "50 kJ/mol",
         }
     }
 
@@ -91,6 +95,7 @@ impl Dim {
             Dim::Number => "no unit at all",
             Dim::Mass => "`g`, `kg`, `mg`",
             Dim::Length => "`mm`, `cm`, `m`",
+            Dim::MolarEnergy => "`kJ/mol`, `J/mol`, `eV`",
         }
     }
 }

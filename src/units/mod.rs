@@ -33,7 +33,7 @@ mod tests {
     use super::*;
     use proptest::prelude::*;
 
-    const ALL: [Dim; 14] = [
+    const ALL: [Dim; 15] = [
         Dim::Voltage,
         Dim::Current,
         Dim::Power,
@@ -48,6 +48,7 @@ mod tests {
         Dim::Number,
         Dim::Mass,
         Dim::Length,
+        Dim::MolarEnergy,
     ];
 
     /// Every kind's example must parse back as that kind.

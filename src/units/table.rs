@@ -81,6 +81,10 @@ static UNITS: &[UnitDef] = &[
     unit("m", Dim::Length, 1.0, true),
     // The centimetre's prefix is not in the table of prefixes (it is seldom used elsewhere).
     unit("cm", Dim::Length, 1e-2, false),
+    // An activation energy; one electronvolt per particle is the Faraday constant times one
+    // volt per mole, 96 485.332 J/mol (CODATA 2018: F = 96 485.332 12 C/mol, exact).
+    unit("J/mol", Dim::MolarEnergy, 1.0, true),
+    unit("eV", Dim::MolarEnergy, 96_485.332_12, false),
 ];
 
 /// Metric prefixes and their powers of ten. Case matters: `m` is milli, `M` mega.

@@ -3,6 +3,12 @@
 
 #[allow(clippy::wildcard_imports)]
 use super::*;
+use crate::model::SelfDischargeLaw;
+use crate::spec::SelfDischargeSpec;
+
+/// The temperature of a self-discharge rate given without one, °C (the reference of the
+/// presets' other values).
+const REFERENCE_C: f64 = 25.0;
 
 impl Lower<'_> {
     pub(super) fn soc_table(
@@ -100,7 +106,10 @@ impl Lower<'_> {
         };
         let merged = overlay(c, &base);
         let before = self.diags.len();
-        let cell = self.custom_cell(name, &merged, path);
+        let cell = self.custom_cell(name, &merged, path).map(|c| Cell {
+            from_preset: true,
+            ..c
+        });
         // A problem with a value the preset gave (a rule across keys, such as the cutoff against
         // an overriding OCV table) says where that value came from.
         let given = given_keys(c);
@@ -240,7 +249,9 @@ impl Lower<'_> {
                 Dim::Current,
                 Bound::AboveZero,
             ),
-            (None, Some(cap)) => Some(cap / (5.0 * 3600.0)),
+            (None, Some(cap)) => {
+                Some(cap / (chemistry(c.chemistry).default_rating_hours() * 3600.0))
+            }
             (None, None) => None,
         };
         let polarization = match &c.polarization {
@@ -288,12 +299,8 @@ impl Lower<'_> {
             Dim::Current,
             Bound::AboveZero,
         );
-        let self_discharge = self.opt(
-            c.self_discharge.as_ref(),
-            format_args!("{path}.self_discharge"),
-            Dim::Rate,
-            Bound::AtLeastZero,
-        );
+        let max_pulse = self.max_pulse(c, path, max_current.flatten());
+        let self_discharge = self.self_discharge(c, path);
         let mass = self.opt(
             c.mass.as_ref(),
             format_args!("{path}.mass"),
@@ -303,9 +310,11 @@ impl Lower<'_> {
         let size = self.size(c.size.as_deref(), path);
         let temps = self.temperature(c, path);
         let (temp_capacity, temp_resistance) = temps?;
+        let self_discharge = self_discharge?;
         let chemistry = chemistry(c.chemistry);
         Some(Cell {
             name: name.to_string(),
+            from_preset: false,
             chemistry,
             capacity_c: capacity_c?,
             rated_current_a: rated?,
@@ -316,12 +325,158 @@ impl Lower<'_> {
             rate_window_s: rate_window?.unwrap_or_else(|| chemistry.rate_window_s()),
             cutoff_v: cutoff?,
             max_current_a: max_current?,
-            self_discharge_per_s: self_discharge?.unwrap_or(0.0),
+            max_pulse: max_pulse?,
+            self_discharge_per_s: self_discharge.0,
+            self_discharge_ref_c: self_discharge.1,
+            self_discharge_law: self_discharge.2,
             temp_capacity,
             temp_resistance,
             mass_kg: mass?,
             size: size?,
         })
+    }
+
+    /// A cell's pulse limit: `max_pulse_current` with its `max_pulse_length`, both or neither,
+    /// the pulse current at least the continuous one.
+    fn max_pulse(
+        &mut self,
+        c: &CellSpec,
+        path: &str,
+        continuous: Option<f64>,
+    ) -> Option<Option<(f64, f64)>> {
+        let current = self.opt(
+            c.max_pulse_current.as_ref(),
+            format_args!("{path}.max_pulse_current"),
+            Dim::Current,
+            Bound::AboveZero,
+        )?;
+        let length = self.opt(
+            c.max_pulse_length.as_ref(),
+            format_args!("{path}.max_pulse_length"),
+            Dim::Time,
+            Bound::AboveZero,
+        )?;
+        match (current, length) {
+            (None, None) => Some(None),
+            (Some(_), None) => {
+                self.err(
+                    &format!("{path}.max_pulse_current"),
+                    "the cell gives `max_pulse_current` without `max_pulse_length`",
+                    Some("add the longest pulse the limit allows, such as `max_pulse_length: 100 ms`".into()),
+                );
+                None
+            }
+            (None, Some(_)) => {
+                self.err(
+                    &format!("{path}.max_pulse_length"),
+                    "the cell gives `max_pulse_length` without `max_pulse_current`",
+                    Some("add the pulse limit, such as `max_pulse_current: 15 mA`, or remove the length".into()),
+                );
+                None
+            }
+            (Some(i), Some(t)) => match continuous {
+                Some(max) if i < max => {
+                    self.err(
+                        &format!("{path}.max_pulse_current"),
+                        format!(
+                            "the pulse limit {} is below the continuous limit {}",
+                            fmt_eng(i, "A"),
+                            fmt_eng(max, "A")
+                        ),
+                        Some("a pulse may draw at least what the cell gives continuously: check both values".into()),
+                    );
+                    None
+                }
+                _ => Some(Some((i, t))),
+            },
+        }
+    }
+
+    /// A cell's self-discharge: its rate per second, the temperature of that rate (°C) and its
+    /// law against temperature. A plain rate is held at every temperature (DESIGN section 5);
+    /// a mapping gives the rate at `at` (25 °C by default) and follows `doubles_every`,
+    /// `activation_energy` or, with neither, the chemistry's default.
+    fn self_discharge(&mut self, c: &CellSpec, path: &str) -> Option<(f64, f64, SelfDischargeLaw)> {
+        let p = format!("{path}.self_discharge");
+        let s = match &c.self_discharge {
+            None => return Some((0.0, REFERENCE_C, SelfDischargeLaw::Constant)),
+            Some(SelfDischargeSpec::Constant(q)) => {
+                let rate = self.value(q, &p, Dim::Rate, Bound::AtLeastZero)?;
+                return Some((rate, REFERENCE_C, SelfDischargeLaw::Constant));
+            }
+            Some(SelfDischargeSpec::AtTemperature(s)) => s,
+        };
+        let rate = self.value(
+            &s.rate,
+            format_args!("{p}.rate"),
+            Dim::Rate,
+            Bound::AtLeastZero,
+        );
+        let at = match &s.at {
+            None => Some(REFERENCE_C),
+            Some(q) => self.value(q, format_args!("{p}.at"), Dim::Temperature, Bound::Any),
+        };
+        let law = match (&s.doubles_every, &s.activation_energy) {
+            (Some(_), Some(_)) => {
+                self.err(
+                    &p,
+                    "the self-discharge gives both `doubles_every` and `activation_energy`",
+                    Some("keep one of them: they are two ways to say the same dependence".into()),
+                );
+                None
+            }
+            (Some(q), None) => self
+                .temperature_step(q, &format!("{p}.doubles_every"))
+                .map(|every_k| SelfDischargeLaw::Doubling { every_k }),
+            (None, Some(q)) => self
+                .value(
+                    q,
+                    format_args!("{p}.activation_energy"),
+                    Dim::MolarEnergy,
+                    Bound::AboveZero,
+                )
+                .map(|ea_j_per_mol| SelfDischargeLaw::Arrhenius { ea_j_per_mol }),
+            (None, None) => match chemistry(c.chemistry).self_discharge_doubling_k() {
+                Some(every_k) => Some(SelfDischargeLaw::Doubling { every_k }),
+                None => {
+                    self.err(
+                        &p,
+                        "chemistry `other` has no default temperature dependence of self-discharge",
+                        Some(
+                            "give `doubles_every: 10 °C` or `activation_energy: 50 kJ/mol`, set \
+the cell's `chemistry`, or write the rate alone (`self_discharge: 1 %/year`) to hold it at every \
+temperature"
+                                .into(),
+                        ),
+                    );
+                    None
+                }
+            },
+        };
+        Some((rate?, at?, law?))
+    }
+
+    /// A rise in temperature (`10 °C` or `10 K`, the same step) from 1 to 100 °C.
+    fn temperature_step(&mut self, q: &Qty, path: &str) -> Option<f64> {
+        let v = self.quantity(q, path, &[Dim::Temperature])?.value();
+        // The kelvin is read as a temperature (0 K = -273.15 °C); a step in kelvin is the same
+        // number of degrees Celsius.
+        let step = if q.text().trim_end().ends_with('K') {
+            v + 273.15
+        } else {
+            v
+        };
+        if (1.0..=100.0).contains(&step) {
+            Some(step)
+        } else {
+            self.err_of(
+                DiagnosticKind::OutOfRange,
+                path,
+                format!("the step `{}` is outside 1 to 100 °C", q.text()),
+                Some("give the rise in temperature that doubles the rate, such as `10 °C`".into()),
+            );
+            None
+        }
     }
 
     /// A cell's outer size: two lengths (a cylinder's diameter and height) or three (a box's
@@ -477,7 +632,12 @@ fn overlay(over: &CellSpec, base: &CellSpec) -> CellSpec {
         rate_window: pick(&over.rate_window, &base.rate_window),
         cutoff: pick(&over.cutoff, &base.cutoff),
         max_current: pick(&over.max_current, &base.max_current),
-        self_discharge: pick(&over.self_discharge, &base.self_discharge),
+        max_pulse_current: pick(&over.max_pulse_current, &base.max_pulse_current),
+        max_pulse_length: pick(&over.max_pulse_length, &base.max_pulse_length),
+        self_discharge: over
+            .self_discharge
+            .clone()
+            .or_else(|| base.self_discharge.clone()),
         temperature: over
             .temperature
             .clone()
@@ -499,6 +659,8 @@ pub(super) fn given_keys(c: &CellSpec) -> Vec<&'static str> {
         ("rate_window", c.rate_window.is_some()),
         ("cutoff", c.cutoff.is_some()),
         ("max_current", c.max_current.is_some()),
+        ("max_pulse_current", c.max_pulse_current.is_some()),
+        ("max_pulse_length", c.max_pulse_length.is_some()),
         ("self_discharge", c.self_discharge.is_some()),
         ("temperature", c.temperature.is_some()),
         ("mass", c.mass.is_some()),

@@ -24,7 +24,7 @@ use crate::error::{Diagnostic, DiagnosticKind, did_you_mean};
 use crate::hash::FastMap;
 use crate::spec::{
     AmbientSpec, CellRef, CellSpec, ChemistrySpec, DesignSpec, Efficiency, Partial, Qty,
-    ResistanceSpec, SourceMap, StageKindSpec, StageSpec, StepSpec, backticked,
+    QuiescentFromSpec, ResistanceSpec, SourceMap, StageKindSpec, StageSpec, StepSpec, backticked,
 };
 use crate::tree::{MAX_DEPTH, Tree, TreeError};
 use crate::units::{Dim, Quantity, fmt_eng, fmt_percent, parse_quantity, physical};
@@ -342,6 +342,11 @@ impl Lower<'_> {
         for m in &mut modes {
             m.rail_draws = rail_draws(&tree, &loads, &m.load_states);
         }
+        let profile = profile?;
+        let holds = crate::model::longest_holds(&profile, modes.len());
+        for (m, hold) in modes.iter_mut().zip(holds) {
+            m.longest_hold_s = hold;
+        }
         let mut design = Design {
             title: spec
                 .design
@@ -353,7 +358,7 @@ impl Lower<'_> {
             stages: stages?,
             loads,
             modes,
-            profile: profile?,
+            profile,
             tree,
             tolerances: Vec::new(),
         };

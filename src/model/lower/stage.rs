@@ -158,6 +158,39 @@ impl Lower<'_> {
             kn,
             "switch stages",
         );
+        self.not_for(
+            kind != StageKind::Boost && s.bypass_resistance.is_some(),
+            path,
+            "bypass_resistance",
+            kn,
+            "boost stages",
+        );
+        self.not_for(
+            !kind.is_switching() && s.quiescent_from.is_some(),
+            path,
+            "quiescent_from",
+            kn,
+            "switching stages (buck, boost, buck-boost)",
+        );
+        self.not_for(
+            !kind.is_switching() && s.input_current_limit.is_some(),
+            path,
+            "input_current_limit",
+            kn,
+            "switching stages (buck, boost, buck-boost)",
+        );
+        let input_limit = self.opt(
+            s.input_current_limit.as_ref(),
+            format_args!("{path}.input_current_limit"),
+            Dim::Current,
+            Bound::AboveZero,
+        );
+        let bypass_r = self.opt(
+            s.bypass_resistance.as_ref(),
+            format_args!("{path}.bypass_resistance"),
+            Dim::Resistance,
+            Bound::AtLeastZero,
+        );
         let dropout = self.opt(
             s.dropout.as_ref(),
             format_args!("{path}.dropout"),
@@ -220,8 +253,16 @@ impl Lower<'_> {
             input_min,
             input_max,
             max_output_current: max_out?,
+            input_current_limit: input_limit?,
             dropout: dropout?.unwrap_or(dropout_default),
-            bypass_drop: bypass?.unwrap_or(0.4),
+            // A synchronous pass-through (`bypass_resistance` alone) has no diode drop.
+            bypass_drop: bypass?.unwrap_or(if s.bypass_resistance.is_some() {
+                0.0
+            } else {
+                0.4
+            }),
+            bypass_resistance: bypass_r?.unwrap_or(0.0),
+            quiescent_from_output: s.quiescent_from == Some(QuiescentFromSpec::Output),
             on_resistance: ron?.unwrap_or(0.0),
             theta_ja: theta?,
             tj_max: tj_max?.unwrap_or(125.0),

@@ -332,6 +332,7 @@ impl Lower<'_> {
                 load_states,
                 stage_on,
                 rail_draws: Vec::new(),
+                longest_hold_s: f64::INFINITY,
             });
         }
         ok.then_some(out)

@@ -93,7 +93,7 @@ fn vin_range(d: &Design, k: usize, run: Option<&RunResult>) -> (f64, f64) {
 fn model_eta(d: &Design, k: usize, vin: f64, i: f64) -> f64 {
     let s = &d.stages[k];
     let pout = s.setpoint * i;
-    let loss = s.loss.loss(vin, s.setpoint, i, s.quiescent);
+    let loss = s.regulating_loss(vin, s.setpoint, i);
     if pout + loss > 0.0 {
         100.0 * pout / (pout + loss)
     } else {

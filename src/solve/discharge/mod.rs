@@ -505,7 +505,7 @@ impl<'a> Ctx<'a> {
             pol: d.pack.polarization(opt.ambient_c),
             window: (d.pack.cell.peukert > 1.0 && d.pack.cell.rate_window_s > 0.0)
                 .then_some(d.pack.cell.rate_window_s),
-            i_self: d.pack.self_discharge_a(),
+            i_self: d.pack.self_discharge_a(opt.ambient_c),
             cutoff: d.pack.cutoff_v(),
             fine: Cell::new(opt.exact),
             draws_below,
@@ -750,6 +750,15 @@ impl<'a> Sim<'a> {
         }
     }
 
+    /// Self-discharge current at the ambient now, A.
+    fn i_self(&self) -> f64 {
+        if self.c.opt.climate.is_some() {
+            self.c.d.pack.self_discharge_a(self.ambient())
+        } else {
+            self.c.i_self
+        }
+    }
+
     /// The polarization branch (resistance, time constant) at the ambient now.
     fn pol(&self) -> Option<(f64, f64)> {
         if self.c.opt.climate.is_some() {
@@ -814,7 +823,7 @@ impl<'a> Sim<'a> {
             }
             _ => i,
         };
-        (self.c.d.pack.peukert_current_seen(i, seen) + self.c.i_self) / self.q()
+        (self.c.d.pack.peukert_current_seen(i, seen) + self.i_self()) / self.q()
     }
 
     /// The current the rate law sees after holding `i` for `dt`.
