@@ -31,7 +31,7 @@ fn text(path: &Path) -> String {
 }
 
 fn design(path: &Path) -> Design {
-    Design::from_text(&text(path)).unwrap_or_else(|e| panic!("{}: {e}", path.display()))
+    Design::from_file(path).unwrap_or_else(|e| panic!("{}: {e}", path.display()))
 }
 
 fn example(name: &str) -> std::path::PathBuf {

@@ -12,6 +12,16 @@ pub struct Mode {
     /// For each rail, the draws of its loads that are on in this mode (derived from
     /// `load_states` when the design is checked).
     pub rail_draws: Vec<Vec<super::Draw>>,
+    /// For a segment of a capture (made by the checker: the same name and states as its mode,
+    /// with the captured loads in one segment's draw), the mode of the file it is part of.
+    pub part_of: Option<usize>,
+}
+
+impl Mode {
+    /// Whether the file names this mode (not a segment of a capture).
+    pub fn in_file(&self) -> bool {
+        self.part_of.is_none()
+    }
 }
 
 /// One item of the profile.

@@ -176,6 +176,17 @@ pub(crate) fn knob(d: &Design, pack_cell: &str, path: &str) -> Result<Knob, Miss
             let l = item("loads", rest.first(), d.loads.iter().map(|x| x.id.as_str()))?;
             let load = &d.loads[l];
             match &rest[1..] {
+                [Seg::Name("draw"), Seg::Name(state)]
+                    if load.captured.iter().any(|c| load.states[c.state].0 == *state) =>
+                {
+                    Err((
+                        format!(
+                            "the state `{state}` of `{}` follows a capture, whose draw cannot vary",
+                            load.id
+                        ),
+                        "vary the profile step's `for`, or give the state a value instead of a capture".into(),
+                    ))
+                }
                 [Seg::Name("draw"), Seg::Name(state)] => load
                     .states
                     .iter()
