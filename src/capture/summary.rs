@@ -99,7 +99,7 @@ impl Summary {
         let (mut sums, mut first): (Vec<(f64, f64)>, f64) = (Vec::new(), f64::NEG_INFINITY);
         for &k in &order {
             let v = segs[k].value;
-            if sums.is_empty() || v - first > merge.max(0.1 * first.abs()) {
+            if sums.is_empty() || v - first > merge.max(0.25 * first.abs()) {
                 sums.push((0.0, 0.0));
                 first = v;
             }
@@ -112,11 +112,11 @@ impl Summary {
     }
 
     /// A suggested block for a design without the capture: one load state per level of current
-    /// (segments within 10 % or the tolerance's current merged, by their time-weighted mean, so
+    /// (segments within 25 %, or four times the tolerance's current, merged, by their time-weighted mean, so
     /// the charge stays the capture's), one mode per level, and the profile steps of one event.
     pub fn suggested_yaml(&self, load: &str, ohmic: f64) -> String {
         let merge = if ohmic > 0.0 {
-            self.compressed.tolerance_v / ohmic
+            4.0 * self.compressed.tolerance_v / ohmic
         } else {
             0.0
         };
@@ -263,9 +263,9 @@ pub fn write_summary(
         (
             "charge per event",
             format!(
-                "{} ({} Ah)",
+                "{} ({})",
                 fmt_eng(s.charge_c, "C"),
-                fmt_eng(s.charge_c / 3600.0, "")
+                fmt_eng(s.charge_c / 3600.0, "Ah")
             ),
         ),
     ];

@@ -87,7 +87,7 @@ impl Painter for Picture<'_> {
         let keys = [
             (Swatch::Line(BLUE, 1, Dash::Solid), "as captured".to_string()),
             (
-                Swatch::Line(VERMILLION, 3, Dash::Solid),
+                Swatch::Line(VERMILLION, 4, Dash::Solid),
                 "segments (the mean of each)".to_string(),
             ),
         ];
@@ -131,7 +131,6 @@ impl Painter for Picture<'_> {
                 }
             }
         }
-        ch.draw_series(LineSeries::new(pts, BLUE.stroke_width(1)))?;
         let mut steps = Vec::with_capacity(2 * z.segments.len());
         let mut t = 0.0;
         for s in &z.segments {
@@ -139,7 +138,9 @@ impl Painter for Picture<'_> {
             t += s.seconds;
             steps.push((t * tk, s.value * ik));
         }
-        ch.draw_series(LineSeries::new(steps, VERMILLION.stroke_width(3)))?;
+        // The segments under the waveform, so that both show where they agree.
+        ch.draw_series(LineSeries::new(steps, VERMILLION.mix(0.75).stroke_width(4)))?;
+        ch.draw_series(LineSeries::new(pts, BLUE.stroke_width(1)))?;
         Ok(())
     }
 }
