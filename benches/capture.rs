@@ -26,7 +26,6 @@ fn text() -> String {
     for k in 0..SAMPLES {
         let t = k % 10_000;
         let level: u32 = match t {
-            0..200 => 2,
             200..500 => 1500,
             500..900 | 1300..1450 | 1850..2000 => 3400,
             900..1300 | 1450..1850 | 2000..2400 => 8200,
@@ -49,7 +48,10 @@ fn main() {
         "capture benchmark: {SAMPLES} samples, {} bytes of CSV (limit {MAX_BYTES})",
         text.len()
     );
-    assert!(text.len() <= MAX_BYTES, "the bench capture is over the file limit");
+    assert!(
+        text.len() <= MAX_BYTES,
+        "the bench capture is over the file limit"
+    );
     // One coin cell as in the example: 40 Ω at its highest, 10 Ω polarization over 5 s.
     let s = Sensitivity {
         ohmic: 40.0,

@@ -98,7 +98,12 @@ fn segments_keep_the_captures_charge() {
         .sum();
     assert!(close(q, cap.charge_c(), 1e-9), "{q} vs {}", cap.charge_c());
     assert!(close(c.duration_s, 6e-3, 1e-12), "{}", c.duration_s);
-    assert!(c.bound_v <= c.tolerance_v, "{} > {}", c.bound_v, c.tolerance_v);
+    assert!(
+        c.bound_v <= c.tolerance_v,
+        "{} > {}",
+        c.bound_v,
+        c.tolerance_v
+    );
     assert!(c.segments.len() < 100, "{} segments", c.segments.len());
     // And the run draws it: 50 captures back to back (nothing else) give 50 times its charge.
     let t = tempfile::tempdir().unwrap();
@@ -175,7 +180,10 @@ fn lowest_voltage(d: &Design, horizon_s: f64) -> f64 {
     o.horizon_s = horizon_s;
     o.trace = true;
     let r = run(d, &o).unwrap();
-    r.trace.iter().map(|p| p.voltage).fold(f64::INFINITY, f64::min)
+    r.trace
+        .iter()
+        .map(|p| p.voltage)
+        .fold(f64::INFINITY, f64::min)
 }
 
 #[test]
@@ -198,7 +206,9 @@ fn a_compressed_pulse_train_keeps_the_lowest_voltage_within_its_tolerance() {
             t.path(),
             &design_text(
                 "10 ohm",
-                &format!("  - {{ id: l, rail: battery, draw: {{ p: {{ capture: p.csv, tolerance: {tol} }}, idle: 10 µA }} }}"),
+                &format!(
+                    "  - {{ id: l, rail: battery, draw: {{ p: {{ capture: p.csv, tolerance: {tol} }}, idle: 10 µA }} }}"
+                ),
                 "{ pulse: { l: p }, rest: { l: idle } }",
                 "[{ mode: pulse, for: capture }, { mode: rest, for: 40 ms }]",
             ),
@@ -254,7 +264,9 @@ fn bad_captures_are_refused_at_their_place() {
         );
         assert!(e.hint().is_some(), "{}: no hint", f.display());
         if let Some(at) = want("at") {
-            let l = e.location().unwrap_or_else(|| panic!("{}: no place", f.display()));
+            let l = e
+                .location()
+                .unwrap_or_else(|| panic!("{}: no place", f.display()));
             assert_eq!(format!("{}:{}", l.line, l.col), at, "{}: {e}", f.display());
         }
     }
@@ -284,7 +296,10 @@ fn captures_in_designs_are_checked() {
     let put = |name: &str, text: &str| std::fs::write(t.path().join(name), text).unwrap();
     put("a.csv", "time [ms], current [mA]\n0, 1\n1, 2\n2, 1\n");
     put("b.csv", "time [ms], current [mA]\n0, 1\n1, 2\n2, 1\n3, 1\n");
-    put("v.csv", "time [ms], current [mA], voltage [V]\n0, 1, 3\n1, 2, 3\n");
+    put(
+        "v.csv",
+        "time [ms], current [mA], voltage [V]\n0, 1, 3\n1, 2, 3\n",
+    );
     put("bad.csv", "time [ms], current [mA]\n0, 1\n1, x\n");
     let check = |loads: &str, modes: &str, profile: &str| {
         let text = design_text("1 ohm", loads, modes, profile);
@@ -294,33 +309,77 @@ fn captures_in_designs_are_checked() {
     };
     let one = |draw: &str| format!("  - {{ id: l, rail: battery, draw: {{ s: {draw} }} }}");
     // A bad row is named with its file, line and column, at the capture's key.
-    let e = check(&one("{ capture: bad.csv }"), "{ m: { l: s } }", "[{ mode: m, for: 1 s }]")
-        .unwrap_err();
-    assert!(e.contains("capture `bad.csv`") && e.contains("line 3, column 4"), "{e}");
+    let e = check(
+        &one("{ capture: bad.csv }"),
+        "{ m: { l: s } }",
+        "[{ mode: m, for: 1 s }]",
+    )
+    .unwrap_err();
+    assert!(
+        e.contains("capture `bad.csv`") && e.contains("line 3, column 4"),
+        "{e}"
+    );
     assert!(e.contains("loads[0].draw.s.capture"), "{e}");
-    let e = check(&one("{ capture: none.csv }"), "{ m: { l: s } }", "[{ mode: m, for: 1 s }]")
-        .unwrap_err();
+    let e = check(
+        &one("{ capture: none.csv }"),
+        "{ m: { l: s } }",
+        "[{ mode: m, for: 1 s }]",
+    )
+    .unwrap_err();
     assert!(e.contains("cannot read the capture"), "{e}");
-    let e = check(&one("{ capture: v.csv }"), "{ m: { l: s } }", "[{ mode: m, for: 1 s }]")
-        .unwrap_err();
+    let e = check(
+        &one("{ capture: v.csv }"),
+        "{ m: { l: s } }",
+        "[{ mode: m, for: 1 s }]",
+    )
+    .unwrap_err();
     assert!(e.contains("scale: current"), "{e}");
-    assert!(check(&one("{ capture: v.csv, scale: power }"), "{ m: { l: s } }", "[{ mode: m, for: 1 s }]").is_ok());
-    let e = check(&one("{ capture: a.csv, scale: power }"), "{ m: { l: s } }", "[{ mode: m, for: 1 s }]")
-        .unwrap_err();
+    assert!(
+        check(
+            &one("{ capture: v.csv, scale: power }"),
+            "{ m: { l: s } }",
+            "[{ mode: m, for: 1 s }]"
+        )
+        .is_ok()
+    );
+    let e = check(
+        &one("{ capture: a.csv, scale: power }"),
+        "{ m: { l: s } }",
+        "[{ mode: m, for: 1 s }]",
+    )
+    .unwrap_err();
     assert!(e.contains("needs a voltage column"), "{e}");
-    let e = check(&one("1 mA"), "{ m: { l: s } }", "[{ mode: m, for: capture }]").unwrap_err();
+    let e = check(
+        &one("1 mA"),
+        "{ m: { l: s } }",
+        "[{ mode: m, for: capture }]",
+    )
+    .unwrap_err();
     assert!(e.contains("`for: capture` needs a mode"), "{e}");
-    let e = check(&one("{ capture: a.csv }"), "{ m: { l: s } }", "[{ repeat: [{ mode: m, for: 1 s }], for: capture }]")
-        .unwrap_err();
+    let e = check(
+        &one("{ capture: a.csv }"),
+        "{ m: { l: s } }",
+        "[{ repeat: [{ mode: m, for: 1 s }], for: capture }]",
+    )
+    .unwrap_err();
     assert!(e.contains("belongs to a step with a mode"), "{e}");
     let two = "  - { id: l, rail: battery, draw: { s: { capture: a.csv } } }\n  - { id: k, rail: battery, draw: { s: { capture: b.csv } } }";
     let e = check(two, "{ m: { l: s, k: s } }", "[{ mode: m, for: 1 s }]").unwrap_err();
     assert!(e.contains("must last the same"), "{e}");
-    let e = check(&one("{ capture: a.csv, tolerance: -1 mV }"), "{ m: { l: s } }", "[{ mode: m, for: 1 s }]")
-        .unwrap_err();
+    let e = check(
+        &one("{ capture: a.csv, tolerance: -1 mV }"),
+        "{ m: { l: s } }",
+        "[{ mode: m, for: 1 s }]",
+    )
+    .unwrap_err();
     assert!(e.contains("negative"), "{e}");
     // Without a directory, a capture cannot be read, and the message says how to give one.
-    let text = design_text("1 ohm", &one("{ capture: a.csv }"), "{ m: { l: s } }", "[{ mode: m, for: 1 s }]");
+    let text = design_text(
+        "1 ohm",
+        &one("{ capture: a.csv }"),
+        "{ m: { l: s } }",
+        "[{ mode: m, for: 1 s }]",
+    );
     let e = Design::from_text(&text).unwrap_err().to_string();
     assert!(e.contains("not read from a file"), "{e}");
     // Too many segments asks for a larger tolerance.
@@ -329,17 +388,32 @@ fn captures_in_designs_are_checked() {
         let _ = writeln!(saw, "{}, {}", k, if k % 2 == 0 { 1 } else { 9 });
     }
     put("saw.csv", &saw);
-    let e = check(&one("{ capture: saw.csv }"), "{ m: { l: s } }", "[{ mode: m, for: 1 s }]")
-        .unwrap_err();
-    assert!(e.contains("more than 2000 segments") && e.contains("raise `tolerance`"), "{e}");
+    let e = check(
+        &one("{ capture: saw.csv }"),
+        "{ m: { l: s } }",
+        "[{ mode: m, for: 1 s }]",
+    )
+    .unwrap_err();
+    assert!(
+        e.contains("more than 2000 segments") && e.contains("raise `tolerance`"),
+        "{e}"
+    );
 }
 
 #[test]
 fn two_captured_loads_in_one_mode_share_their_segments_boundaries() {
     let t = tempfile::tempdir().unwrap();
     // l: 2 mA for 1 ms then 0; k: 0 for 0.5 ms then 4 mA for 1.5 ms (both 2 ms long).
-    std::fs::write(t.path().join("l.csv"), "time [ms], current [mA]\n0, 2\n0.5, 2\n1, 0\n1.5, 0\n").unwrap();
-    std::fs::write(t.path().join("k.csv"), "time [ms], current [mA]\n0, 0\n0.5, 4\n1, 4\n1.5, 4\n").unwrap();
+    std::fs::write(
+        t.path().join("l.csv"),
+        "time [ms], current [mA]\n0, 2\n0.5, 2\n1, 0\n1.5, 0\n",
+    )
+    .unwrap();
+    std::fs::write(
+        t.path().join("k.csv"),
+        "time [ms], current [mA]\n0, 0\n0.5, 4\n1, 4\n1.5, 4\n",
+    )
+    .unwrap();
     let text = design_text(
         "1 ohm",
         "  - { id: l, rail: battery, draw: { s: { capture: l.csv } } }\n  - { id: k, rail: battery, draw: { s: { capture: k.csv } } }",
@@ -354,7 +428,10 @@ fn two_captured_loads_in_one_mode_share_their_segments_boundaries() {
     // Boundaries at 0.5 ms (k starts) and 1 ms (l stops): three pieces.
     let lens: Vec<f64> = steps.iter().map(joulepath::model::Step::duration).collect();
     assert_eq!(lens.len(), 3, "{lens:?}");
-    assert!(close(lens[0], 5e-4, 1e-9) && close(lens[1], 5e-4, 1e-9) && close(lens[2], 1e-3, 1e-9), "{lens:?}");
+    assert!(
+        close(lens[0], 5e-4, 1e-9) && close(lens[1], 5e-4, 1e-9) && close(lens[2], 1e-3, 1e-9),
+        "{lens:?}"
+    );
     // The budget shows the file's modes only, and the check names the step as written.
     let out = Test::new().design(&text).args(&["check", "{file}"]);
     std::fs::copy(t.path().join("l.csv"), out.dir().join("l.csv")).unwrap();
@@ -368,20 +445,41 @@ fn two_captured_loads_in_one_mode_share_their_segments_boundaries() {
 fn capture_command_summarizes_and_draws() {
     let with_capture = |args: &[&str]| {
         let t = Test::new().args(args);
-        std::fs::copy(root().join("examples/captures/advert.csv"), t.dir().join("advert.csv"))
-            .unwrap();
+        std::fs::copy(
+            root().join("examples/captures/advert.csv"),
+            t.dir().join("advert.csv"),
+        )
+        .unwrap();
         t
     };
     let out = with_capture(&["capture", "advert.csv"]).expect_code(0);
-    for want in ["charge per event", "RMS current", "peak current", "segments", "modes:", "profile:"] {
+    for want in [
+        "charge per event",
+        "RMS current",
+        "peak current",
+        "segments",
+        "modes:",
+        "profile:",
+    ] {
         assert!(out.stdout.contains(want), "no `{want}`:\n{}", out.stdout);
     }
-    let t = with_capture(&["capture", "advert.csv", "--format", "json", "--plot", "advert.png"]);
+    let t = with_capture(&[
+        "capture",
+        "advert.csv",
+        "--format",
+        "json",
+        "--plot",
+        "advert.png",
+    ]);
     let j = t.expect_code(0).json();
     let png = std::fs::read(t.dir().join("advert.png")).unwrap();
     assert!(png.starts_with(b"\x89PNG"), "not a PNG");
     let cap = read_capture_file(&root().join("examples/captures/advert.csv"), false).unwrap();
-    assert!(close(j["charge_c"].as_f64().unwrap(), cap.charge_c(), 1e-12));
+    assert!(close(
+        j["charge_c"].as_f64().unwrap(),
+        cap.charge_c(),
+        1e-12
+    ));
     let segs = j["segments"].as_array().unwrap();
     let q: f64 = segs
         .iter()
@@ -391,7 +489,15 @@ fn capture_command_summarizes_and_draws() {
     assert!(j["bound_v"].as_f64().unwrap() <= j["tolerance_v"].as_f64().unwrap());
     // A bad file: exit 1, its line shown.
     let bad = Test::new().args(&["capture", "bad.csv"]);
-    std::fs::write(bad.dir().join("bad.csv"), "time [ms], current [mA]\n0, 1\n0, 2\n").unwrap();
+    std::fs::write(
+        bad.dir().join("bad.csv"),
+        "time [ms], current [mA]\n0, 1\n0, 2\n",
+    )
+    .unwrap();
     let o = bad.expect_code(1);
-    assert!(o.stderr.contains("line 3") && o.stderr.contains("not after"), "{}", o.stderr);
+    assert!(
+        o.stderr.contains("line 3") && o.stderr.contains("not after"),
+        "{}",
+        o.stderr
+    );
 }

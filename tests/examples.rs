@@ -40,8 +40,7 @@ fn example(name: &str) -> std::path::PathBuf {
 
 /// `budget --format json` of an example, at its start SoC; exit code 0 required.
 fn budget_json(path: &Path) -> Value {
-    Test::new()
-        .design(&text(path))
+    Test::example(path)
         .args(&["budget", "{file}", "--format", "json"])
         .expect_code(0)
         .json()
@@ -108,10 +107,7 @@ fn every_example_starts_with_the_schema_line() {
 fn every_example_checks_and_prints_its_tree() {
     for f in example_files() {
         let d = design(&f);
-        let out = Test::new()
-            .design(&text(&f))
-            .args(&["check", "{file}"])
-            .expect_code(0);
+        let out = Test::example(&f).args(&["check", "{file}"]).expect_code(0);
         for id in d
             .stages
             .iter()

@@ -216,7 +216,11 @@ fn bound(values: &[f64], dt: &[f64], s: &Sensitivity, segments: &[Segment]) -> f
             e = e.max(cum.abs());
         }
         d_max = d_max.max(d);
-        let p = if s.tau_s > 0.0 { (e / s.tau_s).min(d) } else { d };
+        let p = if s.tau_s > 0.0 {
+            (e / s.tau_s).min(d)
+        } else {
+            d
+        };
         p_max = p_max.max(p);
     }
     s.ohmic * d_max + s.polarization * d_max.min(2.0 * p_max)
@@ -236,7 +240,9 @@ mod tests {
                 1e-3 * (1.0 + (x / 37.0).sin()) + if k % 700 < 40 { 0.02 } else { 0.0 }
             })
             .collect();
-        let dt: Vec<f64> = (0..n).map(|k| 1e-5 * (1.0 + 0.01 * (k % 3) as f64)).collect();
+        let dt: Vec<f64> = (0..n)
+            .map(|k| 1e-5 * (1.0 + 0.01 * (k % 3) as f64))
+            .collect();
         let s = Sensitivity {
             ohmic: 12.0,
             polarization: 8.0,
@@ -244,7 +250,11 @@ mod tests {
         };
         let c = compress(&values, &dt, &s, 0.005, 10_000).unwrap();
         let q: f64 = values.iter().zip(&dt).map(|(v, t)| v * t).sum();
-        assert!((c.integral() - q).abs() <= 1e-12 * q, "{} {q}", c.integral());
+        assert!(
+            (c.integral() - q).abs() <= 1e-12 * q,
+            "{} {q}",
+            c.integral()
+        );
         assert!(c.bound_v <= 0.005, "{}", c.bound_v);
         assert!(c.segments.len() < n / 10, "{}", c.segments.len());
         let covered: usize = c.segments.iter().map(|s| s.samples).sum();

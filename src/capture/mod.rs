@@ -61,7 +61,9 @@ impl Capture {
     ) -> Result<Self, String> {
         let n = dt.len();
         if n == 0 || current.len() != n || voltage.as_ref().is_some_and(|v| v.len() != n) {
-            return Err("the steps, currents and voltages differ in number, or there are none".into());
+            return Err(
+                "the steps, currents and voltages differ in number, or there are none".into(),
+            );
         }
         if dt.iter().any(|&t| !(t.is_finite() && t > 0.0))
             || current.iter().any(|i| !i.is_finite())

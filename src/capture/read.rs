@@ -222,9 +222,11 @@ pub fn read_capture(text: &str, name: &str, allow_negative: bool) -> Result<Capt
         .map(|(i, l)| (i + 1, l))
         .filter(|(_, l)| !l.trim().is_empty() && !l.trim_start().starts_with('#'));
     let Some((header_line, head)) = lines.next() else {
-        return Err(Diagnostic::new(name, "the file is empty").with_hint(format!(
-            "write a header row such as {HEADER_EXAMPLE}, then one row per sample"
-        )));
+        return Err(
+            Diagnostic::new(name, "the file is empty").with_hint(format!(
+                "write a header row such as {HEADER_EXAMPLE}, then one row per sample"
+            )),
+        );
     };
     let sep = [',', ';', '\t']
         .into_iter()
@@ -291,7 +293,10 @@ pub fn read_capture(text: &str, name: &str, allow_negative: bool) -> Result<Capt
             if v <= 0.0 {
                 return Err(Diagnostic::new(
                     name,
-                    format!("line {line}: the voltage `{}` is not above zero", fields[vc].1.trim()),
+                    format!(
+                        "line {line}: the voltage `{}` is not above zero",
+                        fields[vc].1.trim()
+                    ),
                 )
                 .with_hint("the voltage column is the supply of the load while it was captured")
                 .at_line_col(line, fields[vc].0));
@@ -404,10 +409,13 @@ pub fn read_capture_file(path: &Path, allow_negative: bool) -> Result<Capture, D
     let text = String::from_utf8(bytes).map_err(|e| {
         let at = e.utf8_error().valid_up_to();
         let before = &e.as_bytes()[..at];
-        let line = before.iter().filter(|&&b| b == b'\n').count() + 1;
-        Diagnostic::new(&name, format!("the capture is not UTF-8 text (line {line})"))
-            .with_hint("export the capture as plain CSV text")
-            .at_line_col(line, 1)
+        let line = String::from_utf8_lossy(before).split('\n').count();
+        Diagnostic::new(
+            &name,
+            format!("the capture is not UTF-8 text (line {line})"),
+        )
+        .with_hint("export the capture as plain CSV text")
+        .at_line_col(line, 1)
     })?;
     read_capture(&text, &name, allow_negative)
 }

@@ -53,7 +53,11 @@ pub fn summarize(c: &Capture, compressed: Compressed, on: &str) -> Summary {
         step_s,
         mean_a: c.charge_c() / dur,
         rms_a: (sq / dur).sqrt(),
-        peak_a: c.current().iter().copied().fold(f64::NEG_INFINITY, f64::max),
+        peak_a: c
+            .current()
+            .iter()
+            .copied()
+            .fold(f64::NEG_INFINITY, f64::max),
         min_a: c.current().iter().copied().fold(f64::INFINITY, f64::min),
         charge_c: c.charge_c(),
         energy_j: c.energy_j(),
@@ -288,7 +292,11 @@ pub fn write_summary(
         writeln!(out, "  {k:<w$}  {v}")?;
     }
     writeln!(out)?;
-    writeln!(out, "  {:>4}  {:>10}  {:>10}  {:>10}  {:>8}", "#", "start", "length", "current", "samples")?;
+    writeln!(
+        out,
+        "  {:>4}  {:>10}  {:>10}  {:>10}  {:>8}",
+        "#", "start", "length", "current", "samples"
+    )?;
     let mut t = 0.0;
     for (k, g) in c.segments.iter().enumerate() {
         writeln!(

@@ -39,10 +39,14 @@ fn id_of(path: &Path) -> String {
 }
 
 /// Run `capture`.
-pub fn capture_command(a: &CaptureArgs<'_>, f: FormatArg, buf: &mut Vec<u8>) -> Result<(), Failure> {
+pub fn capture_command(
+    a: &CaptureArgs<'_>,
+    f: FormatArg,
+    buf: &mut Vec<u8>,
+) -> Result<(), Failure> {
     let tolerance_v = parse_with(a.tolerance.trim(), Dim::Voltage)
         .map_err(|e| Failure::Usage(format!("`--tolerance {}`: {e}", a.tolerance)))?;
-    if !(tolerance_v >= 0.0) {
+    if tolerance_v.is_nan() || tolerance_v < 0.0 {
         return Err(Failure::Usage(format!(
             "`--tolerance {}` is negative; give a voltage such as `5 mV` (default {})",
             a.tolerance,

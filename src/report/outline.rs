@@ -215,7 +215,10 @@ fn steps(d: &Design, list: &[Step]) -> String {
                 format!("{} {}", d.modes[*mode].name, fmt_duration(*seconds))
             }
             // The segments of a mode's captures, as the file wrote the step.
-            Step::Repeat { steps: inner, until } if captured_mode(d, inner).is_some() => {
+            Step::Repeat {
+                steps: inner,
+                until,
+            } if captured_mode(d, inner).is_some() => {
                 let m = captured_mode(d, inner).unwrap_or(0);
                 match until {
                     RepeatUntil::Times(1) => format!(
@@ -223,7 +226,11 @@ fn steps(d: &Design, list: &[Step]) -> String {
                         d.modes[m].name,
                         fmt_duration(s.duration())
                     ),
-                    _ => format!("{} {} (captured)", d.modes[m].name, fmt_duration(s.duration())),
+                    _ => format!(
+                        "{} {} (captured)",
+                        d.modes[m].name,
+                        fmt_duration(s.duration())
+                    ),
                 }
             }
             Step::Repeat {

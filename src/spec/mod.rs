@@ -30,9 +30,7 @@ pub use design::{
 };
 pub use overrides::Override;
 pub use path::{Seg, segments};
-pub use qty::{
-    CaptureScale, CaptureSpec, DrawSpec, Efficiency, Qty, ResistanceSpec, VinCurveSpec,
-};
+pub use qty::{CaptureScale, CaptureSpec, DrawSpec, Efficiency, Qty, ResistanceSpec, VinCurveSpec};
 pub use source::SourceMap;
 pub use tolerance::{ToleranceSpec, band_text};
 

@@ -5,9 +5,7 @@
 #[allow(clippy::wildcard_imports)]
 use super::*;
 
-use crate::capture::{
-    CompressError, DEFAULT_TOLERANCE_V, MAX_SEGMENTS, compress, sensitivity,
-};
+use crate::capture::{CompressError, DEFAULT_TOLERANCE_V, MAX_SEGMENTS, compress, sensitivity};
 use crate::spec::{CaptureScale, CaptureSpec, DrawSpec};
 
 /// Internal mark of a step `for: capture` until the profile is expanded.
@@ -60,9 +58,9 @@ impl Lower<'_> {
         let cap = match self.source.capture(&c.capture) {
             Ok(x) => x,
             Err(d) => {
-                let at = d
-                    .location()
-                    .map_or_else(String::new, |l| format!(" (line {}, column {})", l.line, l.col));
+                let at = d.location().map_or_else(String::new, |l| {
+                    format!(" (line {}, column {})", l.line, l.col)
+                });
                 let msg = if d.message().starts_with("line ") || at.is_empty() {
                     format!("capture `{}`: {}", c.capture, d.message())
                 } else {
@@ -93,7 +91,10 @@ impl Lower<'_> {
             (Some(CaptureScale::Power), false) => {
                 self.err(
                     &format!("{path}.scale"),
-                    format!("`scale: power` needs a voltage column, and the capture `{}` has none", c.capture),
+                    format!(
+                        "`scale: power` needs a voltage column, and the capture `{}` has none",
+                        c.capture
+                    ),
                     Some("add a `voltage [V]` column to the capture, or remove `scale`".into()),
                 );
                 return None;
@@ -132,7 +133,13 @@ impl Lower<'_> {
                 return None;
             }
         };
-        let make = |x: f64| if power { Draw::Power(x) } else { Draw::Current(x) };
+        let make = |x: f64| {
+            if power {
+                Draw::Power(x)
+            } else {
+                Draw::Current(x)
+            }
+        };
         let duration_s = cap.duration_s();
         let total: f64 = values.iter().zip(cap.dt()).map(|(v, t)| v * t).sum();
         let name = load.states[state].0.clone();
@@ -166,7 +173,9 @@ impl Lower<'_> {
         let mut made: FastMap<usize, Option<Vec<Step>>> = FastMap::default();
         let mut ok = true;
         let mut added = 0;
-        self.expand_in(profile, "profile", modes, loads, &mut made, &mut added, &mut ok);
+        self.expand_in(
+            profile, "profile", modes, loads, &mut made, &mut added, &mut ok,
+        );
         ok
     }
 
@@ -190,9 +199,8 @@ impl Lower<'_> {
                 }
                 Step::Hold { mode, seconds } => {
                     let (m, secs) = (*mode, *seconds);
-                    if !made.contains_key(&m) {
-                        let block = self.segment_modes(m, modes, loads, added);
-                        made.insert(m, block);
+                    if let std::collections::hash_map::Entry::Vacant(e) = made.entry(m) {
+                        e.insert(self.segment_modes(m, modes, loads, added));
                     }
                     let Some(block) = made.get(&m) else { continue };
                     match block {
@@ -287,7 +295,9 @@ impl Lower<'_> {
         if *added + cuts.len() > MAX_CAPTURE_STEPS {
             self.err(
                 &format!("modes.{name}"),
-                format!("the captures of the design's modes add more than {MAX_CAPTURE_STEPS} steps"),
+                format!(
+                    "the captures of the design's modes add more than {MAX_CAPTURE_STEPS} steps"
+                ),
                 Some("raise the captures' `tolerance`, so that each has fewer segments".into()),
             );
             return Some(Vec::new());

@@ -23,8 +23,8 @@ use super::{BATTERY, Design};
 use crate::error::{Diagnostic, DiagnosticKind, did_you_mean};
 use crate::hash::FastMap;
 use crate::spec::{
-    CellRef, CellSpec, ChemistrySpec, DesignSpec, DrawSpec, Efficiency, Partial, Qty, ResistanceSpec,
-    SourceMap, StageKindSpec, StageSpec, StepSpec, backticked,
+    CellRef, CellSpec, ChemistrySpec, DesignSpec, DrawSpec, Efficiency, Partial, Qty,
+    ResistanceSpec, SourceMap, StageKindSpec, StageSpec, StepSpec, backticked,
 };
 use crate::tree::{MAX_DEPTH, Tree, TreeError};
 use crate::units::{Dim, Quantity, fmt_eng, fmt_percent, parse_quantity, physical};

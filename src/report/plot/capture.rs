@@ -85,7 +85,10 @@ impl Painter for Picture<'_> {
         )];
         let mut y = header(root, &format!("Capture {}", c.name()), &lines, ty, pad)?;
         let keys = [
-            (Swatch::Line(BLUE, 1, Dash::Solid), "as captured".to_string()),
+            (
+                Swatch::Line(BLUE, 1, Dash::Solid),
+                "as captured".to_string(),
+            ),
             (
                 Swatch::Line(VERMILLION, 4, Dash::Solid),
                 "segments (the mean of each)".to_string(),
