@@ -130,7 +130,7 @@ fn every_example_budget_balances_energy_in_every_mode() {
         let d = design(&f);
         let json = budget_json(&f);
         let modes = json["modes"].as_array().expect("modes");
-        assert_eq!(modes.len(), d.modes.len(), "{}", f.display());
+        assert_eq!(modes.len(), d.file_modes().len(), "{}", f.display());
         for m in modes {
             let name = m["mode"].as_str().expect("mode name");
             assert_eq!(m["collapse"], false, "{}: `{name}` collapses", f.display());

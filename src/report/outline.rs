@@ -109,7 +109,7 @@ fn rail(w: &mut dyn Write, d: &Design, r: usize, prefix: &str) -> io::Result<()>
                 };
                 match load.captured.iter().find(|c| c.state == k) {
                     Some(c) => format!(
-                        "{name} capture {} (mean {}, {} samples in {} segments, within {} of the lowest voltage){mark}",
+                        "{name} capture {} (mean {}; {} samples as {} segments, which keep the lowest terminal voltage within {}){mark}",
                         c.file,
                         draw_text(*draw),
                         c.samples,
