@@ -487,6 +487,30 @@ fn capture_command_summarizes_and_draws() {
         .sum();
     assert!(close(q, cap.charge_c(), 1e-9), "{q}");
     assert!(j["bound_v"].as_f64().unwrap() <= j["tolerance_v"].as_f64().unwrap());
+    // The suggested block is a valid design with the capture's charge per event (its values
+    // rounded to four digits).
+    let suggested = j["suggested"].as_str().unwrap();
+    let text = format!(
+        "cells:\n  c: {{ capacity: 10 mAh, ocv: [[0 %, 3.0 V], [100 %, 4.0 V]], resistance: 1 ohm, cutoff: 3.0 V }}\nbattery: {{ cell: c }}\n{suggested}"
+    );
+    let d = Design::from_text(&text).unwrap_or_else(|e| panic!("{e}\n{text}"));
+    let joulepath::model::Step::Repeat { steps, .. } = &d.profile[0] else {
+        panic!("{text}");
+    };
+    let q: f64 = steps
+        .iter()
+        .map(|s| match s {
+            joulepath::model::Step::Hold { mode, seconds } => {
+                let st = d.modes[*mode].load_states[0].unwrap();
+                match d.loads[0].states[st].1 {
+                    joulepath::model::Draw::Current(i) => i * seconds,
+                    other => panic!("{other:?}"),
+                }
+            }
+            other => panic!("{other:?}"),
+        })
+        .sum();
+    assert!(close(q, cap.charge_c(), 1e-3), "{q} vs {}", cap.charge_c());
     // A bad file: exit 1, its line shown.
     let bad = Test::new().args(&["capture", "bad.csv"]);
     std::fs::write(

@@ -87,7 +87,7 @@ fn qty_s(s: f64) -> String {
     } else if s >= 1e-3 {
         (1e-3, "ms")
     } else {
-        (1e-6, "us")
+        (1e-6, "µs")
     };
     format!("{} {unit}", fmt_sig(s / scale, 4))
 }
