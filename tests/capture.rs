@@ -507,7 +507,7 @@ fn capture_command_summarizes_and_draws() {
                     other => panic!("{other:?}"),
                 }
             }
-            other => panic!("{other:?}"),
+            other @ joulepath::model::Step::Repeat { .. } => panic!("{other:?}"),
         })
         .sum();
     assert!(close(q, cap.charge_c(), 1e-3), "{q} vs {}", cap.charge_c());
@@ -523,5 +523,28 @@ fn capture_command_summarizes_and_draws() {
         o.stderr.contains("line 3") && o.stderr.contains("not after"),
         "{}",
         o.stderr
+    );
+}
+
+#[test]
+fn fast_solver_agrees_with_the_reference_on_a_captured_design() {
+    // DESIGN section 6: within 0.2 % and the same end reason; the example on a 0.5 mAh cell so
+    // that the reference, which executes every pass, is quick.
+    let dir = root().join("examples");
+    let text = std::fs::read_to_string(dir.join("beacon-capture.yaml"))
+        .unwrap()
+        .replace(
+            "  cell: li-mno2-cr2032",
+            "  cell: { preset: li-mno2-cr2032, capacity: 0.5 mAh }",
+        );
+    let d = in_dir(&dir, &text);
+    let a = run(&d, &RunOptions::for_design(&d)).unwrap();
+    let b = run(&d, &RunOptions::reference(&d)).unwrap();
+    assert_eq!(a.end.reason, b.end.reason);
+    assert!(
+        close(a.runtime_s(), b.runtime_s(), 2e-3),
+        "{} vs {}",
+        a.runtime_s(),
+        b.runtime_s()
     );
 }

@@ -129,7 +129,8 @@ pub fn compress(
         )));
     }
     let mut target = tolerance_v;
-    for attempt in 0..8 {
+    let mut attempt = 0;
+    loop {
         let segments = greedy(values, dt, s, target, max_segments)?;
         let bound_v = bound(values, dt, s, &segments);
         if bound_v <= tolerance_v * (1.0 + 1e-12) || attempt == 7 {
@@ -146,8 +147,8 @@ pub fn compress(
         } else {
             (target * tolerance_v / bound_v * 0.98).max(tolerance_v / 2.0)
         };
+        attempt += 1;
     }
-    unreachable!("the loop returns at its last attempt")
 }
 
 fn cost(s: &Sensitivity, d: f64, len: f64) -> f64 {
