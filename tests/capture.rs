@@ -373,6 +373,28 @@ fn captures_in_designs_are_checked() {
     )
     .unwrap_err();
     assert!(e.contains("negative"), "{e}");
+    // Tolerances: a captured draw cannot vary, a captured step's duration can (when given).
+    let tol = |extra: &str| {
+        let text = format!(
+            "{}tolerances:\n  {extra}: ±10 %\n",
+            design_text(
+                "1 ohm",
+                &one("{ capture: a.csv }"),
+                "{ m: { l: s } }",
+                "[{ mode: m, for: 1 s }, { mode: m, for: capture }]"
+            )
+        );
+        Design::from_text_in(&text, &[], t.path())
+            .map(|_| ())
+            .map_err(|e| e.to_string())
+    };
+    assert!(tol("profile[0].for").is_ok());
+    let e = tol("profile[1].for").unwrap_err();
+    assert!(e.contains("lasts one capture"), "{e}");
+    let e = tol("profile[0].repeat[0].for").unwrap_err();
+    assert!(e.contains("only its `for` can vary"), "{e}");
+    let e = tol("loads.l.draw.s").unwrap_err();
+    assert!(e.contains("follows a capture"), "{e}");
     // Without a directory, a capture cannot be read, and the message says how to give one.
     let text = design_text(
         "1 ohm",
