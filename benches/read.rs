@@ -61,7 +61,7 @@ fn main() {
             .unwrap_or_default()
             .to_string_lossy()
             .to_string();
-        let (yaml, full) = time_both(&text, 200);
+        let (yaml, full) = time_both(&text, &dir, 200);
         print_row(&name, text.len(), yaml, full);
         if ms(full.judged()) >= EXAMPLE_TARGET_MS {
             failed.push(format!(
@@ -73,7 +73,7 @@ fn main() {
     for &n in &sizes {
         let text = generate(n);
         let reps = if n > 1000 { 5 } else { 9 };
-        let (yaml, full) = time_both(&text, reps);
+        let (yaml, full) = time_both(&text, &dir, reps);
         let name = format!("generated, {n} stages");
         print_row(&name, text.len(), yaml, full);
         if n == TARGET_N && ms(full.judged()) >= TREE_TARGET_MS {
@@ -133,15 +133,15 @@ fn thread_cpu() -> Option<Duration> {
 
 /// Median times of reading `text` into the serde types (`spec::parse`) and of the whole
 /// `Design::from_text`.
-fn time_both(text: &str, reps: usize) -> (Times, Times) {
+fn time_both(text: &str, dir: &std::path::Path, reps: usize) -> (Times, Times) {
     // Every input here is valid: a failure is a fault of the benchmark's inputs.
-    Design::from_text(text).unwrap_or_else(|e| panic!("invalid design: {e}"));
+    Design::from_text_in(text, &[], dir).unwrap_or_else(|e| panic!("invalid design: {e}"));
     let yaml = median_time(reps, || {
         let p = joulepath::spec::parse(black_box(text)).expect("valid");
         black_box(p.spec.loads.len());
     });
     let full = median_time(reps, || {
-        let d = Design::from_text(black_box(text)).expect("valid");
+        let d = Design::from_text_in(black_box(text), &[], dir).expect("valid");
         black_box(d.stages.len());
     });
     (yaml, full)

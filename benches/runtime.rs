@@ -86,8 +86,7 @@ fn main() {
             .collect();
         files.sort();
         for f in files {
-            let d = Design::from_text(&std::fs::read_to_string(&f).expect("read"))
-                .expect("valid example");
+            let d = Design::from_file(&f).expect("valid example");
             let opt = RunOptions::for_design(&d);
             let t = Instant::now();
             let fast = run(&d, &opt).expect("fast run");

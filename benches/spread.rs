@@ -37,8 +37,7 @@ fn main() {
             .file_stem()
             .map(|s| s.to_string_lossy().into_owned())
             .unwrap_or_default();
-        let text = std::fs::read_to_string(f).expect("example");
-        let d = Design::from_text(&text).expect("valid example");
+        let d = Design::from_file(f).expect("valid example");
         if d.tolerances.is_empty() {
             println!("{name:<20} no tolerances: skipped");
             continue;

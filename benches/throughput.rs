@@ -70,8 +70,7 @@ fn main() {
         let name = f
             .file_name()
             .map_or_else(String::new, |n| n.to_string_lossy().into_owned());
-        let d =
-            Design::from_text(&std::fs::read_to_string(f).expect("read")).expect("valid example");
+        let d = Design::from_file(f).expect("valid example");
         let opt = RunOptions::for_design(&d);
         let (first, counts) = run_counted(&d, &opt);
         let first = first.expect("fast run");

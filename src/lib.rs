@@ -26,6 +26,7 @@
 //! assert_eq!(run.result.end.reason.name(), "cutoff");
 //! ```
 
+pub mod capture;
 pub mod error;
 pub mod fit;
 mod hash;

@@ -31,7 +31,7 @@ fn text(path: &Path) -> String {
 }
 
 fn design(path: &Path) -> Design {
-    Design::from_text(&text(path)).unwrap_or_else(|e| panic!("{}: {e}", path.display()))
+    Design::from_file(path).unwrap_or_else(|e| panic!("{}: {e}", path.display()))
 }
 
 fn example(name: &str) -> std::path::PathBuf {
@@ -40,8 +40,7 @@ fn example(name: &str) -> std::path::PathBuf {
 
 /// `budget --format json` of an example, at its start SoC; exit code 0 required.
 fn budget_json(path: &Path) -> Value {
-    Test::new()
-        .design(&text(path))
+    Test::example(path)
         .args(&["budget", "{file}", "--format", "json"])
         .expect_code(0)
         .json()
@@ -108,10 +107,7 @@ fn every_example_starts_with_the_schema_line() {
 fn every_example_checks_and_prints_its_tree() {
     for f in example_files() {
         let d = design(&f);
-        let out = Test::new()
-            .design(&text(&f))
-            .args(&["check", "{file}"])
-            .expect_code(0);
+        let out = Test::example(&f).args(&["check", "{file}"]).expect_code(0);
         for id in d
             .stages
             .iter()
@@ -134,7 +130,7 @@ fn every_example_budget_balances_energy_in_every_mode() {
         let d = design(&f);
         let json = budget_json(&f);
         let modes = json["modes"].as_array().expect("modes");
-        assert_eq!(modes.len(), d.modes.len(), "{}", f.display());
+        assert_eq!(modes.len(), d.file_modes().len(), "{}", f.display());
         for m in modes {
             let name = m["mode"].as_str().expect("mode name");
             assert_eq!(m["collapse"], false, "{}: `{name}` collapses", f.display());

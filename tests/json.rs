@@ -168,11 +168,10 @@ const KINDS: [&str; 8] = [
 ];
 
 fn run_on(file: &std::path::Path, args: &[&str]) -> String {
-    let text = std::fs::read_to_string(file).unwrap();
     let mut all = vec![args[0], "{file}"];
     all.extend(&args[1..]);
     all.extend(["--format", "json"]);
-    Test::new().design(&text).args(&all).expect_code(0).stdout
+    Test::example(file).args(&all).expect_code(0).stdout
 }
 
 #[test]

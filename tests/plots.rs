@@ -20,8 +20,7 @@ use crate::util::{example_files, root};
 
 fn load(name: &str) -> Design {
     let path = root().join("examples").join(name);
-    let text = std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
-    Design::from_text(&text).unwrap_or_else(|e| panic!("{}: {e}", path.display()))
+    Design::from_file(&path).unwrap_or_else(|e| panic!("{}: {e}", path.display()))
 }
 
 fn traced(d: &Design) -> RunResult {
@@ -388,7 +387,7 @@ fn no_picture_is_clipped_at_its_edges() {
     // ("64.1 mWh (81.9 % of loss") at the right edge, and its legend touched the bottom.
     for path in example_files() {
         let name = path.file_stem().unwrap().to_string_lossy().to_string();
-        let d = Design::from_text(&std::fs::read_to_string(&path).unwrap()).unwrap();
+        let d = Design::from_file(&path).unwrap();
         let r = traced(&d);
         for size in [(640, 480), (1200, 800)] {
             let mut pictures = vec![
@@ -414,8 +413,7 @@ fn no_picture_is_clipped_at_its_edges() {
 fn every_example_draws_every_picture_as_png_of_the_asked_size() {
     for path in example_files() {
         let name = path.file_stem().unwrap().to_string_lossy().to_string();
-        let text = std::fs::read_to_string(&path).unwrap();
-        let d = Design::from_text(&text).unwrap();
+        let d = Design::from_file(&path).unwrap();
         let r = traced(&d);
         let size = (900, 620);
         let mut pictures = vec![
@@ -440,8 +438,7 @@ fn every_example_draws_every_picture_as_png_of_the_asked_size() {
 #[test]
 fn svg_of_every_example_parses() {
     for path in example_files() {
-        let text = std::fs::read_to_string(&path).unwrap();
-        let d = Design::from_text(&text).unwrap();
+        let d = Design::from_file(&path).unwrap();
         let r = traced(&d);
         for bytes in [
             discharge(&d, &r, PlotFormat::Svg, DEFAULT_SIZE).unwrap(),

@@ -509,7 +509,7 @@ fn fast_solver_agrees_with_the_reference_on_small_examples() {
         .into_iter()
         .find(|p| p.ends_with("field-logger.yaml"))
         .unwrap();
-    let d = design(&std::fs::read_to_string(f).unwrap());
+    let d = Design::from_file(&f).unwrap();
     let (a, b) = (fast(&d), exact(&d));
     assert_eq!(a.end.reason, b.end.reason);
     assert!(
@@ -523,7 +523,7 @@ fn fast_solver_agrees_with_the_reference_on_small_examples() {
 #[test]
 fn every_example_runs_and_balances_energy() {
     for f in example_files() {
-        let d = design(&std::fs::read_to_string(&f).unwrap());
+        let d = Design::from_file(&f).unwrap_or_else(|e| panic!("{}: {e}", f.display()));
         let r = fast(&d);
         assert!(r.runtime_s() > 0.0, "{}", f.display());
         assert_ne!(r.end.reason, EndReason::Horizon, "{}", f.display());

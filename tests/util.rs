@@ -48,6 +48,24 @@ impl Test {
         self
     }
 
+    /// The example file `path` as the design, with the example captures beside it (in
+    /// `captures/`, as in `examples/`).
+    pub fn example(path: &Path) -> Self {
+        let text =
+            std::fs::read_to_string(path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+        let t = Self::new().design(&text);
+        let from = root().join("examples/captures");
+        let to = t.dir().join("captures");
+        std::fs::create_dir_all(&to).expect("captures dir");
+        for e in std::fs::read_dir(&from)
+            .expect("examples/captures")
+            .flatten()
+        {
+            std::fs::copy(e.path(), to.join(e.file_name())).expect("copy a capture");
+        }
+        t
+    }
+
     /// Arguments; `{file}` is replaced by the design's path.
     pub fn args(mut self, args: &[&str]) -> Self {
         self.args = args.iter().map(|s| (*s).to_string()).collect();

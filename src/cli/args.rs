@@ -200,6 +200,36 @@ pub enum Command {
         #[arg(short = 'o', long = "output")]
         output: Option<PathBuf>,
     },
+    /// A measured current capture (CSV of time and current): its duration, mean, RMS and peak
+    /// current, charge per event, the segments a design runs it as, and a suggested `modes:`
+    /// block.
+    Capture {
+        /// The capture: a header naming each column's quantity and unit (`time [ms]`,
+        /// `current [mA]`, optionally `voltage [V]`), then one row per sample.
+        file: PathBuf,
+        /// The cell the terminal-voltage tolerance is held on: a built-in preset, taken alone
+        /// (one cell) at 25 °C.
+        #[arg(long, default_value = "li-mno2-cr2032")]
+        cell: String,
+        /// How far the segments may move the cell's lowest terminal voltage, e.g. `5 mV`.
+        #[arg(long, default_value = "5 mV")]
+        tolerance: String,
+        /// The load's id in the suggested block (default: the file's name).
+        #[arg(long)]
+        load: Option<String>,
+        /// Accept negative samples (a probe's offset), which a design refuses.
+        #[arg(long)]
+        allow_negative: bool,
+        /// Also draw the capture and its segments to this file (`.svg` or `.png`).
+        #[arg(long, value_name = "FILE")]
+        plot: Option<PathBuf>,
+        /// Output format: table (the figures, the segments and the suggested block) or json.
+        #[arg(long, value_enum, default_value_t = FormatArg::Table)]
+        format: FormatArg,
+        /// Write to this file instead of standard output.
+        #[arg(short = 'o', long = "output")]
+        output: Option<PathBuf>,
+    },
     /// A picture of the discharge, the losses or the converters' efficiency (SVG or PNG, by the
     /// output's extension).
     Plot {

@@ -1,6 +1,7 @@
 //! Command-line front end (binary only): arguments, dispatch, and the rendering of problems.
 
 mod args;
+mod capture;
 mod files;
 mod groups;
 mod pictures;

@@ -99,7 +99,7 @@ pub fn spread_with_progress(
     r.map_err(fail)
 }
 
-fn format_of(path: &Path) -> Result<PlotFormat, Failure> {
+pub(super) fn format_of(path: &Path) -> Result<PlotFormat, Failure> {
     plot_format(path).ok_or_else(|| {
         Failure::Usage(format!(
             "cannot tell the picture format of `{}`: name it `.svg` or `.png`",
@@ -128,7 +128,7 @@ pub fn plot_command(
         PlotKind::Discharge => plot::discharge(d, &r, fmt, size),
         PlotKind::Losses => plot::losses(d, &r, fmt, size),
         PlotKind::Efficiency => {
-            let modes: Vec<usize> = (0..d.modes.len()).collect();
+            let modes: Vec<usize> = d.file_modes();
             let b = budget(d, d.pack.start_soc, &modes);
             plot::efficiency(d, &b, Some(&r), fmt, size)
         }
@@ -191,7 +191,7 @@ pub fn report_command(
     o.trace = true;
     let r = run_with_progress(d, &o, "simulating")?;
     let soc = soc.unwrap_or(d.pack.start_soc);
-    let modes: Vec<usize> = (0..d.modes.len()).collect();
+    let modes: Vec<usize> = d.file_modes();
     let b = budget(d, soc, &modes);
     let mut buf = Vec::new();
     joulepath::report::html::write_html_with_spread(&mut buf, d, &b, soc, &r, spread)

@@ -17,6 +17,7 @@ use joulepath::solve::budget;
 use joulepath::spec::Override;
 
 use super::args::{Args, Command, FormatArg, RunArgs, parse_with};
+use super::capture::CaptureArgs;
 use super::groups::{Group, check as check_groups};
 use super::pictures::{
     compare_plot, draw_spread, plot_command, report_command, run_with_progress, spread_pictures,
@@ -120,7 +121,7 @@ fn load_with(path: &Path, sets: &[String]) -> Result<Design, Failure> {
         .map(|s| Override::parse(s))
         .collect::<Result<Vec<_>, _>>()
         .map_err(|d| Failure::Usage(format!("{} ({})", d.message(), d.hint().unwrap_or(""))))?;
-    let mut d = Design::from_text_with(&text, &overrides).map_err(|e| match e {
+    let mut d = Design::from_text_in(&text, &overrides, &dir_of(path)).map_err(|e| match e {
         Error::Invalid(diagnostics) => Failure::Invalid {
             file: path.to_path_buf(),
             text,
@@ -138,6 +139,14 @@ fn load_with(path: &Path, sets: &[String]) -> Result<Design, Failure> {
         d.title = format!("{} [{}]", d.title, changes.join(", "));
     }
     Ok(d)
+}
+
+/// The directory of a design file, which the files it names are read from.
+pub(super) fn dir_of(path: &Path) -> PathBuf {
+    match path.parent() {
+        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
+        _ => PathBuf::from("."),
+    }
 }
 
 pub(super) fn format(f: FormatArg) -> Format {
@@ -212,7 +221,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
         } => {
             let d = load_with(file, sets)?;
             let modes: Vec<usize> = match mode {
-                None => (0..d.modes.len()).collect(),
+                None => d.file_modes(),
                 Some(name) => match d.mode_index(name) {
                     Some(m) => vec![m],
                     None => {
@@ -337,6 +346,27 @@ pub fn run(args: &Args) -> Result<(), Failure> {
                 format(*f),
                 &mut buf,
             )?;
+            emit(&buf, output.as_deref())
+        }
+        Command::Capture {
+            file,
+            cell,
+            tolerance,
+            load,
+            allow_negative,
+            plot,
+            format: f,
+            output,
+        } => {
+            let c = CaptureArgs {
+                file,
+                cell,
+                tolerance,
+                load: load.as_deref(),
+                allow_negative: *allow_negative,
+                plot: plot.as_deref(),
+            };
+            super::capture::capture_command(&c, *f, &mut buf)?;
             emit(&buf, output.as_deref())
         }
         Command::Plot {

@@ -10,7 +10,7 @@ use joulepath::size::{RankBy, SizeError, SizeOptions, size_observed};
 use joulepath::spec::{self, Override};
 
 use super::args::{FormatArg, RankArg, SizeArgs};
-use super::run::{Failure, emit, format, read};
+use super::run::{Failure, dir_of, emit, format, read};
 
 /// Run `size`.
 pub fn size_command(a: &SizeArgs) -> Result<(), Failure> {
@@ -30,9 +30,11 @@ pub fn size_command(a: &SizeArgs) -> Result<(), Failure> {
         other => Failure::Input(other.to_string()),
     };
     // The design as given must pass the checker, with every problem listed as `check` does.
-    let design = Design::from_text_with(&text, &overrides).map_err(|e| invalid(e, &text))?;
-    let parsed =
+    let dir = dir_of(&a.file);
+    let design = Design::from_text_in(&text, &overrides, &dir).map_err(|e| invalid(e, &text))?;
+    let mut parsed =
         spec::parse_with(&text, &overrides).map_err(|d| invalid(Error::Invalid(d), &text))?;
+    parsed.source.set_base_dir(dir);
     let mut opts = SizeOptions::new(a.target);
     opts.percentile = a.percentile;
     opts.samples = a.samples as usize;

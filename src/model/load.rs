@@ -65,15 +65,48 @@ pub struct Load {
     pub v_min: Option<f64>,
     /// Highest supply the load tolerates, V.
     pub v_max: Option<f64>,
-    /// Named states and their draws (the state `off` is implicit and draws nothing).
+    /// Named states and their draws (the state `off` is implicit and draws nothing). The first
+    /// `file_states` are the file's; a state that follows a capture draws the capture's mean
+    /// there, and its segments are states after those, with the same name.
     pub states: Vec<(String, Draw)>,
     /// State used when a mode does not name the load (`None` = off).
     pub default: Option<usize>,
+    /// How many of `states` the file gives.
+    pub file_states: usize,
+    /// The states that follow a capture.
+    pub captured: Vec<Captured>,
+}
+
+/// A load state whose draw follows a measured capture: in a phase of a mode that puts the load
+/// in it, the load takes the capture's segments in turn from the phase's start.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Captured {
+    /// The state (an index of the file's states).
+    pub state: usize,
+    /// The capture file as named in the design.
+    pub file: String,
+    /// Samples in the capture.
+    pub samples: usize,
+    /// Duration of one capture, s.
+    pub duration_s: f64,
+    /// The segments in order: duration, s, and the load state drawing that segment's mean.
+    pub segments: Vec<(f64, usize)>,
+    /// The tolerance on the pack's lowest terminal voltage, V.
+    pub tolerance_v: f64,
+    /// The bound the segments keep, V.
+    pub bound_v: f64,
 }
 
 impl Load {
     /// Name of state `s` (`None` is `off`).
     pub fn state_name(&self, s: Option<usize>) -> &str {
         s.map_or("off", |k| self.states[k].0.as_str())
+    }
+
+    /// The capture state `s` follows, if it does (a file state or one of its segments).
+    pub fn capture_of(&self, s: usize) -> Option<&Captured> {
+        self.captured
+            .iter()
+            .find(|c| c.state == s || c.segments.iter().any(|&(_, k)| k == s))
     }
 }

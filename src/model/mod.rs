@@ -14,7 +14,7 @@ mod tolerance;
 
 pub use climate::{Climate, MONTH_OF_YEAR_S};
 pub use curve::{Table, TableError};
-pub use load::{Draw, Load};
+pub use load::{Captured, Draw, Load};
 pub use mode::{Mode, RepeatUntil, Step, longest_holds};
 pub use pack::{
     Cell, CellSize, Chemistry, DEFAULT_RATE_WINDOW_S, GAS_CONSTANT, MONTH_S, Pack, SelfDischargeLaw,
@@ -88,10 +88,55 @@ impl Design {
     ///
     /// [`Error::Invalid`] with every problem found, overrides included.
     pub fn from_text_with(text: &str, overrides: &[spec::Override]) -> Result<Self, Error> {
+        Self::from_text_at(text, overrides, None)
+    }
+
+    /// Read and check a design file's text with overrides; files it names (captures) are read
+    /// relative to `dir`, the design file's directory.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::Invalid`] with every problem found, those of the files it names included.
+    pub fn from_text_in(
+        text: &str,
+        overrides: &[spec::Override],
+        dir: &std::path::Path,
+    ) -> Result<Self, Error> {
+        Self::from_text_at(text, overrides, Some(dir))
+    }
+
+    /// Read and check a design file; files it names (captures) are read relative to its
+    /// directory.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::Io`] when the file cannot be read, else as [`Design::from_text_in`].
+    pub fn from_file(path: &std::path::Path) -> Result<Self, Error> {
+        let text = std::fs::read_to_string(path).map_err(Error::Io)?;
+        let dir = match path.parent() {
+            Some(p) if !p.as_os_str().is_empty() => p,
+            _ => std::path::Path::new("."),
+        };
+        Self::from_text_in(&text, &[], dir)
+    }
+
+    fn from_text_at(
+        text: &str,
+        overrides: &[spec::Override],
+        dir: Option<&std::path::Path>,
+    ) -> Result<Self, Error> {
         match spec::parse_partial(text, overrides) {
-            Ok(parsed) => Self::from_spec(&parsed.spec, &parsed.source),
+            Ok(mut parsed) => {
+                if let Some(d) = dir {
+                    parsed.source.set_base_dir(d);
+                }
+                Self::from_spec(&parsed.spec, &parsed.source)
+            }
             // The checker looks at what could be read, so that every problem is reported at once.
-            Err((mut diags, Some(partial))) => {
+            Err((mut diags, Some(mut partial))) => {
+                if let Some(d) = dir {
+                    partial.source.set_base_dir(d);
+                }
                 diags.extend(lower::partial(&partial));
                 Err(Error::Invalid(diags))
             }
@@ -115,6 +160,18 @@ impl Design {
         } else {
             &self.stages[rail - 1].id
         }
+    }
+
+    /// The modes the file names, by index (not the segments of captures).
+    pub fn file_modes(&self) -> Vec<usize> {
+        (0..self.modes.len())
+            .filter(|&m| self.modes[m].in_file())
+            .collect()
+    }
+
+    /// The mode of the file that mode `m` is (itself, or the mode a segment is part of).
+    pub fn file_mode(&self, m: usize) -> usize {
+        self.modes[m].part_of.unwrap_or(m)
     }
 
     /// Index of the mode called `name`.

@@ -15,6 +15,16 @@ pub struct Mode {
     /// The longest time the profile holds this mode at a stretch, s (see [`longest_holds`]):
     /// a cell's pulse limit applies to a mode held no longer than the cell's pulse length.
     pub longest_hold_s: f64,
+    /// For a segment of a capture (made by the checker: the same name and states as its mode,
+    /// with the captured loads in one segment's draw), the mode of the file it is part of.
+    pub part_of: Option<usize>,
+}
+
+impl Mode {
+    /// Whether the file names this mode (not a segment of a capture).
+    pub fn in_file(&self) -> bool {
+        self.part_of.is_none()
+    }
 }
 
 /// For each of `modes` modes, the longest time `profile` holds it at a stretch, s: the sum of

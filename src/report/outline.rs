@@ -29,7 +29,12 @@ pub fn write_outline(w: &mut dyn Write, d: &Design) -> io::Result<()> {
     )?;
     writeln!(w, "battery")?;
     rail(w, d, 0, "")?;
-    let names: Vec<&str> = d.modes.iter().map(|m| m.name.as_str()).collect();
+    let names: Vec<&str> = d
+        .modes
+        .iter()
+        .filter(|m| m.in_file())
+        .map(|m| m.name.as_str())
+        .collect();
     writeln!(w, "modes: {}", names.join(", "))?;
     let cycle: f64 = d.profile.iter().map(Step::duration).sum();
     writeln!(
@@ -94,6 +99,7 @@ fn rail(w: &mut dyn Write, d: &Design, r: usize, prefix: &str) -> io::Result<()>
         let mut draws: Vec<String> = load
             .states
             .iter()
+            .take(load.file_states)
             .enumerate()
             .map(|(k, (name, draw))| {
                 let mark = if load.default == Some(k) {
@@ -101,7 +107,17 @@ fn rail(w: &mut dyn Write, d: &Design, r: usize, prefix: &str) -> io::Result<()>
                 } else {
                     ""
                 };
-                format!("{name} {}{mark}", draw_text(*draw))
+                match load.captured.iter().find(|c| c.state == k) {
+                    Some(c) => format!(
+                        "{name} capture {} (mean {}; {} samples as {} segments, which keep the lowest terminal voltage within {}){mark}",
+                        c.file,
+                        draw_text(*draw),
+                        c.samples,
+                        c.segments.len(),
+                        fmt_eng(c.bound_v.max(0.0), "V")
+                    ),
+                    None => format!("{name} {}{mark}", draw_text(*draw)),
+                }
             })
             .collect();
         if let (Some(lo), Some(hi)) = (load.v_min, load.v_max) {
@@ -188,12 +204,47 @@ fn stage_text(s: &Stage) -> String {
     parts.join(", ")
 }
 
+/// The file's mode whose captures a block of steps is: every step a segment of that mode.
+fn captured_mode(d: &Design, list: &[Step]) -> Option<usize> {
+    let mut found = None;
+    for s in list {
+        let Step::Hold { mode, .. } = s else {
+            return None;
+        };
+        let p = d.modes[*mode].part_of?;
+        if found.is_some_and(|f| f != p) {
+            return None;
+        }
+        found = Some(p);
+    }
+    found
+}
+
 fn steps(d: &Design, list: &[Step]) -> String {
     let parts: Vec<String> = list
         .iter()
         .map(|s| match s {
             Step::Hold { mode, seconds } => {
                 format!("{} {}", d.modes[*mode].name, fmt_duration(*seconds))
+            }
+            // The segments of a mode's captures, as the file wrote the step.
+            Step::Repeat {
+                steps: inner,
+                until,
+            } if captured_mode(d, inner).is_some() => {
+                let m = captured_mode(d, inner).unwrap_or(0);
+                match until {
+                    RepeatUntil::Times(1) => format!(
+                        "{} one capture ({})",
+                        d.modes[m].name,
+                        fmt_duration(s.duration())
+                    ),
+                    _ => format!(
+                        "{} {} (captured)",
+                        d.modes[m].name,
+                        fmt_duration(s.duration())
+                    ),
+                }
             }
             Step::Repeat {
                 steps: inner,

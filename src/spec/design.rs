@@ -6,7 +6,7 @@ use schemars::JsonSchema;
 use serde::Deserialize;
 
 use super::node::{Kind, Node, reread};
-use super::qty::{Efficiency, Qty, ResistanceSpec, SelfDischargeSpec};
+use super::qty::{DrawSpec, Efficiency, Qty, ResistanceSpec, SelfDischargeSpec};
 use super::tolerance::ToleranceSpec;
 
 /// A whole design file.
@@ -390,8 +390,9 @@ pub struct LoadSpec {
     /// `[min, max]` supply voltage the load needs.
     #[serde(default)]
     pub voltage_range: Option<Vec<Qty>>,
-    /// State name -> draw: a current, a power or a resistance.
-    pub draw: IndexMap<String, Qty>,
+    /// State name -> draw: a current, a power or a resistance, or a measured capture
+    /// `{ capture: FILE.csv }`.
+    pub draw: IndexMap<String, DrawSpec>,
     /// State when a mode does not name the load (default `off`).
     #[serde(default)]
     pub default: Option<String>,
@@ -404,8 +405,9 @@ pub struct StepSpec {
     /// The mode of a plain step.
     #[serde(default)]
     pub mode: Option<String>,
-    /// Duration of a step, or of a repeat block.
+    /// Duration of a step, or of a repeat block; `capture` for one capture of the step's mode.
     #[serde(default, rename = "for")]
+    #[schemars(schema_with = "super::qty::step_for_schema")]
     pub duration: Option<Qty>,
     /// Steps of a repeat block.
     #[serde(default)]

@@ -32,7 +32,8 @@ pub use design::{
 pub use overrides::Override;
 pub use path::{Seg, segments};
 pub use qty::{
-    Efficiency, Qty, ResistanceSpec, SelfDischargeRateSpec, SelfDischargeSpec, VinCurveSpec,
+    CaptureScale, CaptureSpec, DrawSpec, Efficiency, Qty, ResistanceSpec, SelfDischargeRateSpec,
+    SelfDischargeSpec, VinCurveSpec,
 };
 pub use source::SourceMap;
 pub use tolerance::{ToleranceSpec, band_text};

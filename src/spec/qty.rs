@@ -254,6 +254,52 @@ impl SelfDischargeSpec {
     }
 }
 
+/// How a capture with a voltage column scales with the rail's voltage.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
+#[serde(rename_all = "kebab-case")]
+pub enum CaptureScale {
+    /// The captured current whatever the rail's voltage.
+    Current,
+    /// The captured power (voltage x current of each sample): the current is P / V of the rail.
+    Power,
+}
+
+/// A load state whose draw follows a measured capture.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct CaptureSpec {
+    /// The CSV file, relative to the design file's directory: `time [ms], current [mA]`, and
+    /// optionally `voltage [V]`.
+    pub capture: String,
+    /// With a voltage column: `current` (draw the captured current) or `power` (draw the
+    /// captured power); required then, refused without one.
+    #[serde(default)]
+    pub scale: Option<CaptureScale>,
+    /// How far the compressed capture may move the pack's lowest terminal voltage (default
+    /// `5 mV`).
+    #[serde(default)]
+    pub tolerance: Option<Qty>,
+}
+
+/// What a load draws in one state: a current, a power or a resistance, or a capture.
+#[derive(Debug, Clone)]
+pub enum DrawSpec {
+    /// `6 mA`, `20 mW`, `1 kΩ`.
+    Value(Qty),
+    /// `{ capture: adv.csv }`.
+    Capture(CaptureSpec),
+}
+
+impl DrawSpec {
+    /// The value, when the draw is one.
+    pub fn value(&self) -> Option<&Qty> {
+        match self {
+            DrawSpec::Value(q) => Some(q),
+            DrawSpec::Capture(_) => None,
+        }
+    }
+}
+
 impl<'de> Deserialize<'de> for SelfDischargeSpec {
     fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
         let v = Node::deserialize(d)?;
@@ -265,6 +311,28 @@ impl<'de> Deserialize<'de> for SelfDischargeSpec {
         }
         Err(D::Error::custom(format!(
             "expected a rate such as `3 %/month` or `{{ rate: 1 %/year, at: 20 °C }}`, found {}",
+            v.describe()
+        )))
+    }
+}
+
+impl From<Qty> for DrawSpec {
+    fn from(q: Qty) -> Self {
+        DrawSpec::Value(q)
+    }
+}
+
+impl<'de> Deserialize<'de> for DrawSpec {
+    fn deserialize<D: Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        let v = Node::deserialize(d)?;
+        if let Some(t) = scalar_text(&v) {
+            return Ok(DrawSpec::Value(Qty(t)));
+        }
+        if matches!(v.kind, Kind::Map(_)) {
+            return reread(&v, "").map(DrawSpec::Capture);
+        }
+        Err(D::Error::custom(format!(
+            "expected a value with its unit such as `120 mA`, or a capture `{{ capture: FILE.csv }}`, found {}",
             v.describe()
         )))
     }
@@ -282,4 +350,27 @@ impl JsonSchema for SelfDischargeSpec {
             "anyOf": [q, at]
         })
     }
+}
+
+impl JsonSchema for DrawSpec {
+    fn schema_name() -> Cow<'static, str> {
+        "Draw".into()
+    }
+    fn json_schema(g: &mut SchemaGenerator) -> Schema {
+        let q = g.subschema_for::<Qty>();
+        let c = g.subschema_for::<CaptureSpec>();
+        json_schema!({
+            "description": "What the load draws in this state: a current (\"6 mA\"), a power (\"20 mW\"), a resistance (\"1 kΩ\"), or a measured capture {capture: FILE.csv}.",
+            "anyOf": [q, c]
+        })
+    }
+}
+
+/// The duration of a profile step: a quantity, or `capture` (exactly one capture of the mode).
+pub(crate) fn step_for_schema(g: &mut SchemaGenerator) -> Schema {
+    let q = g.subschema_for::<Qty>();
+    json_schema!({
+        "description": "How long: a duration such as \"10 s\", or `capture` (a step whose mode follows a capture lasts exactly one capture).",
+        "anyOf": [q, { "const": "capture" }]
+    })
 }

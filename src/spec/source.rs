@@ -3,10 +3,14 @@
 //! every later check (the checker's messages) name its place too.
 
 use std::borrow::Cow;
+use std::path::{Path, PathBuf};
+use std::sync::{Arc, Mutex};
 
 use super::node::{Kind, Mark, Node};
 use super::yaml::key_text;
-use crate::error::Location;
+use crate::capture::{Capture, read_capture_file};
+use crate::error::{Diagnostic, Location};
+use crate::hash::FastMap;
 
 /// Line and column of every value (and every mapping key) in a document, by YAML path: the
 /// document's tree itself, kept after the serde types were read from it (a place is looked up
@@ -15,7 +19,15 @@ use crate::error::Location;
 pub struct SourceMap {
     root: Node<'static>,
     overridden: Vec<String>,
+    /// The directory files named in the design (captures) are read from; none for text that
+    /// did not come from a file.
+    base_dir: Option<PathBuf>,
+    /// Captures read so far, by path, shared by clones (the pack candidates of `size` read each
+    /// file once).
+    captures: Arc<Mutex<CaptureCache>>,
 }
+
+type CaptureCache = FastMap<PathBuf, Result<Arc<Capture>, Diagnostic>>;
 
 impl Default for SourceMap {
     /// No places at all.
@@ -30,7 +42,43 @@ impl SourceMap {
         Self {
             root,
             overridden: Vec::new(),
+            base_dir: None,
+            captures: Arc::default(),
         }
+    }
+
+    /// Read files the design names (captures) relative to `dir`: the design file's directory.
+    pub fn set_base_dir(&mut self, dir: impl Into<PathBuf>) {
+        self.base_dir = Some(dir.into());
+    }
+
+    /// The directory files named in the design are read from, if the text came from a file.
+    pub fn base_dir(&self) -> Option<&Path> {
+        self.base_dir.as_deref()
+    }
+
+    /// The capture `file` (relative to the base directory), read once and kept.
+    ///
+    /// # Errors
+    ///
+    /// No base directory (the text did not come from a file), or the reader's error.
+    pub fn capture(&self, file: &str) -> Result<Arc<Capture>, Diagnostic> {
+        let Some(dir) = &self.base_dir else {
+            return Err(Diagnostic::new(
+                file,
+                format!("the capture `{file}` cannot be read: the design was not read from a file"),
+            )
+            .with_hint("read the design from its file (the command line does), or give its directory (`Design::from_text_in`)"));
+        };
+        let path = dir.join(file);
+        let mut cache = self
+            .captures
+            .lock()
+            .unwrap_or_else(std::sync::PoisonError::into_inner);
+        cache
+            .entry(path.clone())
+            .or_insert_with(|| read_capture_file(&path, false).map(Arc::new))
+            .clone()
     }
 
     /// The document's tree.

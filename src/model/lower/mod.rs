@@ -1,6 +1,7 @@
 //! From the serde mirror to the checked model: quantities parsed, every rule of the design file
 //! checked, every problem gathered with its YAML path.
 
+mod capture;
 mod cell;
 mod climate;
 mod profile;
@@ -14,7 +15,7 @@ use std::collections::HashMap;
 use std::fmt::Display;
 
 use super::curve::{Table, TableError};
-use super::load::{Draw, Load};
+use super::load::{Captured, Draw, Load};
 use super::mode::{Mode, RepeatUntil, Step};
 use super::pack::{Cell, CellSize, Chemistry, Pack};
 use super::presets::{self, Preset};
@@ -23,7 +24,7 @@ use super::{BATTERY, Design};
 use crate::error::{Diagnostic, DiagnosticKind, did_you_mean};
 use crate::hash::FastMap;
 use crate::spec::{
-    AmbientSpec, CellRef, CellSpec, ChemistrySpec, DesignSpec, Efficiency, Partial, Qty,
+    AmbientSpec, CellRef, CellSpec, ChemistrySpec, DesignSpec, DrawSpec, Efficiency, Partial, Qty,
     QuiescentFromSpec, ResistanceSpec, SourceMap, StageKindSpec, StageSpec, StepSpec, backticked,
 };
 use crate::tree::{MAX_DEPTH, Tree, TreeError};
@@ -337,8 +338,22 @@ impl Lower<'_> {
                 l.rail = r;
             }
         }
-        let profile = self.profile(spec, modes.as_deref());
+        let captured = match (&pack, &stages, &mut loads) {
+            (Some(p), Some(st), Some(ld)) => {
+                self.captures(spec, p, st, ld, ambient_c.unwrap_or(25.0))
+            }
+            _ => true,
+        };
+        let mut profile = self.profile(spec, modes.as_deref());
         let (tree, loads, mut modes) = (tree?.0, loads?, modes?);
+        if !captured {
+            return None;
+        }
+        if let Some(p) = &mut profile {
+            if !self.expand_captures(p, &mut modes, &loads) {
+                return None;
+            }
+        }
         for m in &mut modes {
             m.rail_draws = rail_draws(&tree, &loads, &m.load_states);
         }

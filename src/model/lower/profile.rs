@@ -103,6 +103,7 @@ impl Lower<'_> {
                     );
                 }
                 let seconds = match &s.duration {
+                    Some(q) if q.text().trim() == "capture" => Some(capture::ONE_CAPTURE),
                     Some(q) => self.duration(q, &format!("{path}.for")),
                     None => {
                         self.err(
@@ -150,6 +151,14 @@ impl Lower<'_> {
                             path,
                             "a `repeat` block has neither `for` nor `times`",
                             Some("add `times: N` or `for: TIME`".into()),
+                        );
+                        None
+                    }
+                    (Some(q), None) if q.text().trim() == "capture" => {
+                        self.err(
+                            &format!("{path}.for"),
+                            "`for: capture` belongs to a step with a mode, not to a `repeat` block",
+                            Some("give the block a duration, or `times: N`".into()),
                         );
                         None
                     }

@@ -176,6 +176,17 @@ pub(crate) fn knob(d: &Design, pack_cell: &str, path: &str) -> Result<Knob, Miss
             let l = item("loads", rest.first(), d.loads.iter().map(|x| x.id.as_str()))?;
             let load = &d.loads[l];
             match &rest[1..] {
+                [Seg::Name("draw"), Seg::Name(state)]
+                    if load.captured.iter().any(|c| load.states[c.state].0 == *state) =>
+                {
+                    Err((
+                        format!(
+                            "the state `{state}` of `{}` follows a capture, whose draw cannot vary",
+                            load.id
+                        ),
+                        "vary the profile step's `for`, or give the state a value instead of a capture".into(),
+                    ))
+                }
                 [Seg::Name("draw"), Seg::Name(state)] => load
                     .states
                     .iter()
@@ -236,9 +247,36 @@ fn profile_knob(d: &Design, rest: &[Seg<'_>]) -> Result<Knob, Miss> {
                 "count items from 0 in the order the file gives them".into(),
             ));
         }
+        let here = step(&d.profile, &at);
+        // A step in a mode with captures is a block of the captures' segments, which the file
+        // does not write: only its duration can vary, and only when the file gives one.
+        if let Some(Step::Repeat { steps, until }) = here {
+            let captured = steps
+                .iter()
+                .all(|s| matches!(s, Step::Hold { mode, .. } if d.modes[*mode].part_of.is_some()));
+            if captured {
+                return match (&segs[1..], until) {
+                    ([Seg::Name("for")], RepeatUntil::Seconds(_)) => Ok(Knob::StepFor(at)),
+                    ([Seg::Name("for")], RepeatUntil::Times(_)) => Err((
+                        format!(
+                            "`profile{}` lasts one capture (`for: capture`), which cannot vary",
+                            index_text(&at)
+                        ),
+                        "give the step a duration to vary it, such as `for: 10 ms`".into(),
+                    )),
+                    _ => Err((
+                        format!(
+                            "`profile{}` is a step in a mode with a capture: only its `for` can vary",
+                            index_text(&at)
+                        ),
+                        format!("vary `profile{}.for`", index_text(&at)),
+                    )),
+                };
+            }
+        }
         match &segs[1..] {
             [Seg::Name("for")] => {
-                return match step(&d.profile, &at) {
+                return match here {
                     Some(Step::Repeat {
                         until: RepeatUntil::Times(_),
                         ..

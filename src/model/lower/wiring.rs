@@ -33,6 +33,14 @@ impl Lower<'_> {
                     );
                     continue;
                 }
+                // A capture's draw is its mean, set once the pack and the rail are known.
+                let q = match q {
+                    DrawSpec::Value(q) => q,
+                    DrawSpec::Capture(_) => {
+                        states.push((name.clone(), Draw::Current(0.0)));
+                        continue;
+                    }
+                };
                 let Some(v) = self.quantity(
                     q,
                     format_args!("loads[{i}].draw.{name}"),
@@ -86,8 +94,10 @@ impl Lower<'_> {
                 rail: 0,
                 v_min,
                 v_max,
+                file_states: states.len(),
                 states,
                 default,
+                captured: Vec::new(),
             });
         }
         ok.then_some(out)
@@ -333,6 +343,7 @@ impl Lower<'_> {
                 stage_on,
                 rail_draws: Vec::new(),
                 longest_hold_s: f64::INFINITY,
+                part_of: None,
             });
         }
         ok.then_some(out)

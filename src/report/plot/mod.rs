@@ -23,6 +23,7 @@
 //! assert!(String::from_utf8(svg).unwrap().contains("cutoff"));
 //! ```
 
+mod capture;
 mod compare;
 mod discharge;
 mod efficiency;
@@ -41,6 +42,7 @@ use plotters::coord::Shift;
 use plotters::drawing::DrawingAreaErrorKind;
 use plotters::prelude::*;
 
+pub use capture::capture;
 pub use compare::compare_discharge;
 pub use discharge::discharge;
 pub use efficiency::efficiency;

@@ -32,7 +32,18 @@ pub fn mode_seconds(design: &Design, limit: f64) -> Vec<f64> {
     if rest > 0.0 {
         walk(&design.profile, rest, 1.0, &mut acc);
     }
+    to_file_modes(design, &mut acc);
     acc
+}
+
+/// Move the seconds of captures' segments to the modes of the file they are part of.
+fn to_file_modes(design: &Design, acc: &mut [f64]) {
+    for (m, mode) in design.modes.iter().enumerate() {
+        if let Some(p) = mode.part_of {
+            acc[p] += acc[m];
+            acc[m] = 0.0;
+        }
+    }
 }
 
 /// Add `weight` x the seconds each mode takes in the first `budget` seconds of `steps`.
@@ -70,10 +81,11 @@ fn walk(steps: &[Step], budget: f64, weight: f64, acc: &mut [f64]) -> f64 {
 }
 
 /// The mode taking most of one pass of `steps`.
-fn dominant(steps: &[Step], modes: usize) -> usize {
-    let mut acc = vec![0.0; modes];
+fn dominant(steps: &[Step], design: &Design) -> usize {
+    let mut acc = vec![0.0; design.modes.len()];
     let pass: f64 = steps.iter().map(Step::duration).sum();
     walk(steps, pass, 1.0, &mut acc);
+    to_file_modes(design, &mut acc);
     acc.iter()
         .enumerate()
         .max_by(|a, b| a.1.total_cmp(b.1))
@@ -137,7 +149,7 @@ fn lay(
             Step::Hold { mode, .. } => out.push(Band {
                 t0: t,
                 t1: end,
-                mode: *mode,
+                mode: design.file_mode(*mode),
                 cycling: false,
             }),
             Step::Repeat { steps: inner, .. } => {
@@ -152,7 +164,7 @@ fn lay(
                     out.push(Band {
                         t0: t,
                         t1: end,
-                        mode: dominant(inner, design.modes.len()),
+                        mode: dominant(inner, design),
                         cycling: true,
                     });
                 }
