@@ -2,25 +2,27 @@
 //! profile) plus the tree. A [`Design`] can only be made by [`Design::from_text`] or
 //! [`Design::from_spec`], which check every rule of the design file.
 
+mod cell;
 mod climate;
-mod curve;
 mod load;
 mod lower;
 mod mode;
 mod pack;
 mod presets;
 mod stage;
+mod table;
 mod tolerance;
 
+pub use cell::{
+    Cell, CellSize, Chemistry, DEFAULT_RATE_WINDOW_S, GAS_CONSTANT, MONTH_S, SelfDischargeLaw,
+};
 pub use climate::{Climate, MONTH_OF_YEAR_S};
-pub use curve::{Table, TableError};
 pub use load::{Captured, Draw, Load};
 pub use mode::{Mode, RepeatUntil, Step, longest_holds};
-pub use pack::{
-    Cell, CellSize, Chemistry, DEFAULT_RATE_WINDOW_S, GAS_CONSTANT, MONTH_S, Pack, SelfDischargeLaw,
-};
+pub use pack::Pack;
 pub use presets::{Nominal, PRESETS, Preset};
 pub use stage::{EffCurve, LossModel, Stage, StageKind};
+pub use table::{Table, TableError};
 pub use tolerance::{Dist, Knob, Range, Tolerance};
 
 use crate::error::Error;

@@ -3,8 +3,8 @@
 //! The files are embedded at build time and read with the same code as a design file's cells,
 //! so their values pass the same checks.
 
+use super::cell::{Cell, Chemistry};
 use super::lower;
-use super::pack::{Cell, Chemistry};
 use crate::error::{Diagnostic, Error, did_you_mean};
 use crate::spec::{CellSpec, SourceMap, backticked, read_cell};
 

@@ -1,6 +1,6 @@
 //! Stages: converters, regulators and switches, and the loss models of switching stages.
 
-use super::curve::Table;
+use super::table::Table;
 
 /// What a stage is.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]

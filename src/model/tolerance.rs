@@ -2,10 +2,10 @@
 //! ([`Dist`]), and within which physical range a drawn value must stay.
 
 use super::Design;
-use super::curve::Table;
 use super::load::Draw;
 use super::mode::{RepeatUntil, Step};
 use super::stage::LossModel;
+use super::table::Table;
 use crate::units::Dim;
 
 /// How a value spreads, in SI units.

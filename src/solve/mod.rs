@@ -4,10 +4,10 @@ mod budget;
 mod check;
 mod discharge;
 mod ledger;
+pub mod numerics;
 mod point;
 mod root;
 mod sum2;
-pub mod tolerance;
 
 pub use budget::{ModeBudget, budget};
 pub use check::{Violation, ViolationKind, junction_c, violations, violations_where};

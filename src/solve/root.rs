@@ -3,7 +3,7 @@
 //! (v_open - V) / r. Found by a bracketed search, so it always ends; where no such voltage
 //! exists the demand exceeds what the source can give, and that is reported as a collapse.
 
-use super::tolerance::{
+use super::numerics::{
     BISECT_MAX_ITER, BISECT_REL, FIXED_POINT_MAX_ITER, FIXED_POINT_REL, SCAN_STEPS,
 };
 

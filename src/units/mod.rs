@@ -17,16 +17,16 @@
 
 mod bounds;
 mod dim;
-mod error;
 mod format;
 mod parse;
 mod table;
+mod unit_error;
 
 pub use bounds::{ABSOLUTE_ZERO_C, MAX_TEMPERATURE_C, OutOfRange, physical};
 pub use dim::{Dim, Quantity};
-pub use error::UnitError;
 pub use format::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent, fmt_sig};
 pub use parse::{parse_fraction, parse_quantity};
+pub use unit_error::UnitError;
 
 #[cfg(test)]
 mod tests {

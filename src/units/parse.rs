@@ -1,8 +1,8 @@
 //! Turning `"<number> <unit>"` strings into SI quantities.
 
 use super::dim::{Dim, Quantity};
-use super::error::UnitError;
 use super::table::{Lookup, apply_exp10, lookup, suggest};
+use super::unit_error::UnitError;
 
 /// Splits the leading number (sign, digits, fraction, exponent) from the rest.
 /// Returns `None` when there is no digit. Only ASCII bytes are consumed, so the

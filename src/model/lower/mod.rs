@@ -14,12 +14,13 @@ use cell::given_keys;
 use std::collections::HashMap;
 use std::fmt::Display;
 
-use super::curve::{Table, TableError};
+use super::cell::{Cell, CellSize, Chemistry};
 use super::load::{Captured, Draw, Load};
 use super::mode::{Mode, RepeatUntil, Step};
-use super::pack::{Cell, CellSize, Chemistry, Pack};
+use super::pack::Pack;
 use super::presets::{self, Preset};
 use super::stage::{EffCurve, LossModel, Stage, StageKind};
+use super::table::{Table, TableError};
 use super::{BATTERY, Design};
 use crate::error::{Diagnostic, DiagnosticKind, did_you_mean};
 use crate::hash::FastMap;

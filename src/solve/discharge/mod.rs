@@ -29,13 +29,13 @@ use std::rc::Rc;
 
 use super::check::{Violation, ViolationKind, violations_where};
 use super::ledger::{Ledger, TracePoint, Tracer};
-use super::point::{OperatingPoint, PackState, Solution, StageState, solve_point};
-use super::sum2::Sum2;
-use super::tolerance::{
+use super::numerics::{
     END_BISECT_ITER, MEAN_POINT_REL, SKIP_ABS_BUDGET, SKIP_FIRST_DS, SKIP_MAX_DS, SKIP_MIN_PASSES,
     STEP_MAX_DS_EXACT, STEP_MAX_DS_FAST, STEP_MAX_DVP_EXACT, STEP_MAX_DVP_FAST, TRACE_BUCKETS,
     TRACE_PROBES_PER_SKIP, WORK_LIMIT_EXACT, WORK_LIMIT_FAST,
 };
+use super::point::{OperatingPoint, PackState, Solution, StageState, solve_point};
+use super::sum2::Sum2;
 use crate::model::{Climate, Design, Step};
 
 /// A year of 365.25 days, s.

@@ -8,7 +8,7 @@
 
 #[allow(clippy::wildcard_imports)]
 use super::*;
-use crate::solve::tolerance::{SKIP_LINEAR_REL, SKIP_MIN_RUN_PASSES, SKIP_NOISE_REL, SKIP_REL_ERR};
+use crate::solve::numerics::{SKIP_LINEAR_REL, SKIP_MIN_RUN_PASSES, SKIP_NOISE_REL, SKIP_REL_ERR};
 
 impl<'a> Sim<'a> {
     /// Advance `k` passes of length `pass` at the rates of `delta`.
