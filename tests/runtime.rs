@@ -959,3 +959,21 @@ fn a_daily_swing_shows_in_the_range_and_the_fast_solver_follows_it() {
     // Colder hours cost more charge than warmer ones save: shorter than at a steady 5 °C.
     assert!(r.runtime_s() < fast(&climate_design("5 °C")).runtime_s());
 }
+
+#[test]
+fn a_climate_beyond_the_temperature_table_is_warned_at_its_extremes() {
+    // The table runs from -15 °C to 25 °C: a mean of 5 °C is inside, but a daily range of
+    // 50 °C reaches -20 °C and 30 °C, outside it on both sides.
+    // (Other warnings, such as the custom cell's missing self-discharge, are left out.)
+    let table = |d: &Design| -> Vec<String> {
+        joulepath::report::warnings(d, 5.0)
+            .into_iter()
+            .filter(|w| w.contains("temperature table"))
+            .collect()
+    };
+    assert!(table(&climate_design("{ mean: 5 °C, daily_range: 10 °C }")).is_empty());
+    let w = table(&climate_design("{ mean: 5 °C, daily_range: 50 °C }"));
+    assert_eq!(w.len(), 2, "{w:?}");
+    assert!(w[0].contains("reaches -20.0 °C, below"), "{}", w[0]);
+    assert!(w[1].contains("reaches 30.0 °C, above"), "{}", w[1]);
+}

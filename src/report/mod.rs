@@ -235,24 +235,30 @@ fn table_warning(d: &Design, ambient_c: f64) -> Vec<String> {
         return out;
     }
     let (lo, hi) = table.x_range();
-    let side = if ambient_c < lo {
-        Some(("below", lo))
-    } else if ambient_c > hi {
-        Some(("above", hi))
-    } else {
-        None
-    };
-    if let Some((side, edge)) = side {
+    // With a climate, its coldest and warmest hours around this mean.
+    let (cold, warm) = d.climate.map_or((ambient_c, ambient_c), |c| {
+        let (a, b) = c.range(f64::INFINITY);
+        (ambient_c + a, ambient_c + b)
+    });
+    for (t, side, edge) in [(cold, "below", lo), (warm, "above", hi)] {
+        let outside = if side == "below" { t < lo } else { t > hi };
+        if !outside {
+            continue;
+        }
+        let what = if d.climate.is_some() {
+            format!("the ambient reaches {}, {side}", fmt_celsius(t))
+        } else {
+            format!("the ambient {} is {side}", fmt_celsius(t))
+        };
         out.push(format!(
-            "the ambient {} is {side} the temperature table of cell `{}` ({} to {}): its \
+            "{what} the temperature table of cell `{}` ({} to {}): its \
 capacity and resistance factors are held at their {} values, so the results there are \
 uncertain; add a row at {} to the cell's `temperature` table",
-            fmt_celsius(ambient_c),
             cell.name,
             fmt_celsius(lo),
             fmt_celsius(hi),
             fmt_celsius(edge),
-            fmt_celsius(ambient_c),
+            fmt_celsius(t),
         ));
     }
     out
