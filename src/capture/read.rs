@@ -5,6 +5,7 @@ use std::path::Path;
 
 use super::{Capture, MAX_BYTES, MAX_SAMPLES};
 use crate::error::Diagnostic;
+use crate::fit::header::{data_lines, named_unit, split_into};
 use crate::units::fmt_eng;
 
 /// A gap: a step between samples more than this many times the median step (common practice,
@@ -73,27 +74,11 @@ fn header(row: &str, line: usize, sep: char, name: &str) -> Result<Layout, Diagn
                 .with_hint(hint)
                 .at_line_col(line, *col))
         };
-        let Some((word, rest)) = cell.split_once('[') else {
-            let what = if cell.is_empty() {
-                "is empty"
-            } else {
-                "has no unit in brackets"
-            };
-            return err(
-                format!("the header's column {} `{cell}` {what}", i + 1),
-                format!("name each column with its unit in square brackets: {HEADER_EXAMPLE}"),
-            );
+        let (word, unit) = match named_unit(field, i + 1, HEADER_EXAMPLE) {
+            Ok(parts) => parts,
+            Err((msg, hint)) => return err(msg, hint),
         };
-        let Some(unit) = rest.strip_suffix(']').map(str::trim) else {
-            return err(
-                format!(
-                    "the header's column {} `{cell}` does not end with `]`",
-                    i + 1
-                ),
-                format!("write the header as {HEADER_EXAMPLE}"),
-            );
-        };
-        let kind = match word.trim().to_lowercase().as_str() {
+        let kind = match word.to_lowercase().as_str() {
             "time" | "t" => Column::Time,
             "current" | "i" => Column::Current,
             "voltage" | "v" => Column::Voltage,
@@ -215,12 +200,7 @@ pub fn read_capture(text: &str, name: &str, allow_negative: bool) -> Result<Capt
     if text.len() > MAX_BYTES {
         return Err(too_big(name, text.len() as u64));
     }
-    let text = text.strip_prefix('\u{feff}').unwrap_or(text);
-    let mut lines = text
-        .lines()
-        .enumerate()
-        .map(|(i, l)| (i + 1, l))
-        .filter(|(_, l)| !l.trim().is_empty() && !l.trim_start().starts_with('#'));
+    let mut lines = data_lines(text);
     let Some((header_line, head)) = lines.next() else {
         return Err(
             Diagnostic::new(name, "the file is empty").with_hint(format!(
@@ -341,23 +321,6 @@ pub fn read_capture(text: &str, name: &str, allow_negative: bool) -> Result<Capt
         current,
         voltage: lay.voltage.map(|_| voltage),
     })
-}
-
-/// The fields of a row with the 1-based column where each starts, into `out`.
-fn split_into<'a>(row: &'a str, sep: char, out: &mut Vec<(usize, &'a str)>) {
-    // Columns in characters; most rows are ASCII, where bytes are characters.
-    let ascii = row.is_ascii();
-    let mut col = 1;
-    for field in row.split(sep) {
-        let lead = field.len() - field.trim_start().len();
-        if ascii {
-            out.push((col + lead, field));
-            col += field.len() + 1;
-        } else {
-            out.push((col + field[..lead].chars().count(), field));
-            col += field.chars().count() + 1;
-        }
-    }
 }
 
 /// The median of `xs` (not empty).

@@ -1,7 +1,7 @@
 //! One discharge curve at constant current, and reading it from CSV text.
 
 use super::FitError;
-use super::header::{HEADER_EXAMPLE, header_columns, split};
+use super::header::{HEADER_EXAMPLE, data_lines, header_columns, split};
 
 /// Fewest rows a curve may have.
 const MIN_POINTS: usize = 5;
@@ -172,12 +172,7 @@ fn check_count(name: &str, n: usize) -> Result<(), FitError> {
 /// ```
 pub fn read_curve(text: &str, current_a: f64, name: &str) -> Result<Curve, FitError> {
     check_current(name, current_a)?;
-    let text = text.strip_prefix('\u{feff}').unwrap_or(text);
-    let mut lines = text
-        .lines()
-        .enumerate()
-        .map(|(i, l)| (i + 1, l))
-        .filter(|(_, l)| !l.trim().is_empty() && !l.trim_start().starts_with('#'));
+    let mut lines = data_lines(text);
     let Some((header_line, header)) = lines.next() else {
         return Err(FitError::new(name, "the file is empty").with_hint(format!(
             "write a header row such as {HEADER_EXAMPLE}, then one row per point"

@@ -39,13 +39,66 @@ pub(super) const HEADER_EXAMPLE: &str = "`capacity [mAh], voltage [V]`";
 /// The fields of a row with the 1-based column (in characters) where each starts.
 pub(super) fn split(row: &str, sep: char) -> Vec<(usize, &str)> {
     let mut out = Vec::new();
+    split_into(row, sep, &mut out);
+    out
+}
+
+/// [`split`] into `out` (cleared by the caller), so that a reader of many rows reuses one
+/// buffer. Shared by the discharge-curve and the capture readers.
+pub(crate) fn split_into<'a>(row: &'a str, sep: char, out: &mut Vec<(usize, &'a str)>) {
+    // Columns in characters; most rows are ASCII, where bytes are characters.
+    let ascii = row.is_ascii();
     let mut col = 1;
     for field in row.split(sep) {
         let lead = field.len() - field.trim_start().len();
-        out.push((col + field[..lead].chars().count(), field));
-        col += field.chars().count() + 1;
+        if ascii {
+            out.push((col + lead, field));
+            col += field.len() + 1;
+        } else {
+            out.push((col + field[..lead].chars().count(), field));
+            col += field.chars().count() + 1;
+        }
     }
-    out
+}
+
+/// The rows of a CSV text that hold data or a header, with their 1-based line numbers: a
+/// byte-order mark is read past, blank lines and `#` comments are left out.
+pub(crate) fn data_lines(text: &str) -> impl Iterator<Item = (usize, &str)> {
+    text.strip_prefix('\u{feff}')
+        .unwrap_or(text)
+        .lines()
+        .enumerate()
+        .map(|(i, l)| (i + 1, l))
+        .filter(|(_, l)| !l.trim().is_empty() && !l.trim_start().starts_with('#'))
+}
+
+/// One header cell `name [unit]` (quotes and spaces around it ignored) as its name and unit;
+/// else the message and the fix, in the words of both readers, `example` being the header
+/// the reader suggests. `column` is the cell's 1-based index.
+pub(crate) fn named_unit<'a>(
+    field: &'a str,
+    column: usize,
+    example: &str,
+) -> Result<(&'a str, &'a str), (String, String)> {
+    let cell = field.trim().trim_matches('"').trim();
+    let Some((word, rest)) = cell.split_once('[') else {
+        let what = if cell.is_empty() {
+            "is empty"
+        } else {
+            "has no unit in brackets"
+        };
+        return Err((
+            format!("the header's column {column} `{cell}` {what}"),
+            format!("name each column with its unit in square brackets: {example}"),
+        ));
+    };
+    let Some(unit) = rest.strip_suffix(']').map(str::trim) else {
+        return Err((
+            format!("the header's column {column} `{cell}` does not end with `]`"),
+            format!("write the header as {example}"),
+        ));
+    };
+    Ok((word.trim(), unit))
 }
 
 /// Reads the header: the index and SI scale of the capacity and of the voltage column.
@@ -71,27 +124,11 @@ pub(super) fn header_columns(
                 .with_hint(hint)
                 .at_line_col(line, col))
         };
-        let Some((word, rest)) = cell.split_once('[') else {
-            let what = if cell.is_empty() {
-                "is empty"
-            } else {
-                "has no unit in brackets"
-            };
-            return err(
-                format!("the header's column {} `{cell}` {what}", i + 1),
-                format!("name each column with its unit in square brackets: {HEADER_EXAMPLE}"),
-            );
+        let (word, unit) = match named_unit(field, i + 1, HEADER_EXAMPLE) {
+            Ok(parts) => parts,
+            Err((msg, hint)) => return err(msg, hint),
         };
-        let Some(unit) = rest.strip_suffix(']').map(str::trim) else {
-            return err(
-                format!(
-                    "the header's column {} `{cell}` does not end with `]`",
-                    i + 1
-                ),
-                format!("write the header as {HEADER_EXAMPLE}"),
-            );
-        };
-        let word = word.trim().to_lowercase();
+        let word = word.to_lowercase();
         let kind = match word.as_str() {
             "capacity" => Column::Capacity,
             "voltage" => Column::Voltage,

@@ -53,7 +53,7 @@
 
 mod curve;
 mod fitted;
-mod header;
+pub(crate) mod header;
 mod output;
 mod peukert;
 mod soc;
