@@ -129,16 +129,22 @@ fn load_with(path: &Path, sets: &[String]) -> Result<Design, Failure> {
         },
         other => Failure::Input(other.to_string()),
     })?;
-    // A variant says what was changed wherever its title is shown (tables, JSON `design`,
-    // pictures, the report), so that variants of one file can be told apart.
-    if !overrides.is_empty() {
-        let changes: Vec<String> = overrides
-            .iter()
-            .map(|o| format!("{}={}", o.path, o.value))
-            .collect();
-        d.title = format!("{} [{}]", d.title, changes.join(", "));
-    }
+    d.title = with_overrides(&d.title, &overrides);
     Ok(d)
+}
+
+/// A title with the `--set` changes it was run with, `title [path=value, ...]`: a variant says
+/// what was changed wherever its title is shown (tables, JSON `design`, pictures, the report),
+/// so that variants of one file can be told apart.
+pub(super) fn with_overrides(title: &str, overrides: &[Override]) -> String {
+    if overrides.is_empty() {
+        return title.to_string();
+    }
+    let changes: Vec<String> = overrides
+        .iter()
+        .map(|o| format!("{}={}", o.path, o.value))
+        .collect();
+    format!("{title} [{}]", changes.join(", "))
 }
 
 /// The directory of a design file, which the files it names are read from.

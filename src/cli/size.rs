@@ -10,7 +10,7 @@ use joulepath::size::{RankBy, SizeError, SizeOptions, size_observed};
 use joulepath::spec::{self, Override};
 
 use super::args::{FormatArg, RankArg, SizeArgs};
-use super::run::{Failure, dir_of, emit, format, read};
+use super::run::{Failure, dir_of, emit, format, read, with_overrides};
 
 /// Run `size`.
 pub fn size_command(a: &SizeArgs) -> Result<(), Failure> {
@@ -64,13 +64,7 @@ pub fn size_command(a: &SizeArgs) -> Result<(), Failure> {
         SizeError::Invalid(e) => invalid(e, &text),
         other => Failure::Usage(other.to_string()),
     })?;
-    if !overrides.is_empty() {
-        let changes: Vec<String> = overrides
-            .iter()
-            .map(|o| format!("{}={}", o.path, o.value))
-            .collect();
-        sizing.title = format!("{} [{}]", sizing.title, changes.join(", "));
-    }
+    sizing.title = with_overrides(&sizing.title, &overrides);
     let mut buf = Vec::new();
     write_size(&mut buf, &sizing, format(a.format))
         .map_err(|e| Failure::Input(format!("cannot write the output: {e}")))?;

@@ -534,18 +534,11 @@ fn spread_section(w: &mut dyn Write, d: &Design, sp: &Spread) -> io::Result<()> 
         prose(&capitalise(&spread_sentence(sp)))
     )?;
     let (nominal_t, nominal_end) = run_text(&sp.nominal);
-    let mut rows: Vec<Vec<String>> = [
-        ("5th percentile", s.p5),
-        ("median", s.p50),
-        ("95th percentile", s.p95),
-        ("shortest", s.min),
-        ("mean", s.mean),
-        ("longest", s.max),
-        ("standard deviation", s.std_dev),
-    ]
-    .iter()
-    .map(|(name, v)| vec![esc(name), esc(&fmt_duration(*v))])
-    .collect();
+    let mut rows: Vec<Vec<String>> = s
+        .named()
+        .iter()
+        .map(|(name, v)| vec![esc(name), esc(&fmt_duration(*v))])
+        .collect();
     rows.push(vec![
         "as designed".into(),
         format!("{}, ends: {}", esc(&nominal_t), esc(&nominal_end)),

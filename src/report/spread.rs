@@ -298,15 +298,7 @@ fn write_table(w: &mut dyn Write, d: &Design, sp: &Spread) -> io::Result<()> {
     let s = &sp.summary;
     let (nominal_t, nominal_end) = run_text(&sp.nominal);
     let mut t = TextTable::new(&[("runtime", Align::Left), ("", Align::Right)]);
-    for (name, v) in [
-        ("5th percentile", s.p5),
-        ("median", s.p50),
-        ("95th percentile", s.p95),
-        ("shortest", s.min),
-        ("mean", s.mean),
-        ("longest", s.max),
-        ("standard deviation", s.std_dev),
-    ] {
+    for (name, v) in s.named() {
         t.row(vec![name.into(), fmt_duration(v)]);
     }
     t.row(vec![

@@ -116,6 +116,21 @@ pub struct Summary {
     pub std_dev: f64,
 }
 
+impl Summary {
+    /// The statistics with their names, in the order the reports list them, s.
+    pub fn named(&self) -> [(&'static str, f64); 7] {
+        [
+            ("5th percentile", self.p5),
+            ("median", self.p50),
+            ("95th percentile", self.p95),
+            ("shortest", self.min),
+            ("mean", self.mean),
+            ("longest", self.max),
+            ("standard deviation", self.std_dev),
+        ]
+    }
+}
+
 /// The share of units reaching a target runtime.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Reach {
