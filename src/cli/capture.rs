@@ -85,6 +85,7 @@ pub fn capture_command(
         start_soc: 1.0,
         aging_capacity: 1.0,
         aging_resistance: 1.0,
+        buffer: None,
     };
     let sens = sensitivity(&pack, 25.0, 1.0);
     let on = format!("one {} cell at 25 °C", a.cell);

@@ -19,7 +19,7 @@ pub use cell::{
 pub use climate::{Climate, MONTH_OF_YEAR_S};
 pub use load::{Captured, Draw, Load};
 pub use mode::{Mode, RepeatUntil, Step, longest_holds};
-pub use pack::Pack;
+pub use pack::{Buffer, Pack};
 pub use presets::{Nominal, PRESETS, Preset};
 pub use stage::{EffCurve, LossModel, Stage, StageKind};
 pub use table::{Table, TableError};

@@ -23,6 +23,31 @@ pub struct Pack {
     pub aging_capacity: f64,
     /// Resistance factor from aging.
     pub aging_resistance: f64,
+    /// A buffer capacitor across the pack, if any.
+    pub buffer: Option<Buffer>,
+}
+
+/// A buffer capacitor across the pack: the node the tree draws from is the capacitor's, and
+/// the cells feed it, directly or through a current limiter.
+///
+/// # Formula
+///
+/// With the cells' open-circuit voltage less polarization E, their resistance R, the capacitor
+/// voltage x, its series resistance Rc and the node's total current I (the tree's plus the
+/// leakage), the cells give I_b = (E - x + Rc I) / (R + Rc), held to [0, limit] with a limiter,
+/// and the capacitor the rest; the node is at x - Rc (I - I_b). The capacitor voltage follows
+/// C dx/dt = I_b - I (Kirchhoff's laws on the two branches; textbook circuit theory).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Buffer {
+    /// Capacitance, F.
+    pub capacitance: f64,
+    /// Equivalent series resistance, ohm.
+    pub esr: f64,
+    /// Leakage current, A, drawn at the node.
+    pub leakage: f64,
+    /// The most current the cells give through the limiter, A; `None`: no limiter (the
+    /// capacitor sits across the cells, and current may flow back into them).
+    pub current_limit: Option<f64>,
 }
 
 impl Pack {

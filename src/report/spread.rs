@@ -31,6 +31,7 @@ pub fn fmt_value(d: &Design, knob: &Knob, v: f64) -> String {
         Dim::Mass => fmt_eng(v * 1000.0, "g"),
         Dim::Length => fmt_eng(v, "m"),
         Dim::MolarEnergy => format!("{} kJ/mol", fmt_sig(v / 1000.0, 3)),
+        Dim::Capacitance => fmt_eng(v, "F"),
     }
 }
 

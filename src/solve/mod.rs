@@ -17,6 +17,7 @@ pub use discharge::{
 };
 pub use ledger::{Ledger, TracePoint};
 pub use point::{
-    LoadPoint, OperatingPoint, PackPoint, PackState, Solution, StagePoint, StageState, solve_point,
+    BufferPoint, BufferRegime, LoadPoint, OperatingPoint, PackPoint, PackState, Solution,
+    StagePoint, StageState, solve_point, solve_point_buffered,
 };
 pub use sum2::Sum2;

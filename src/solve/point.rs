@@ -118,13 +118,105 @@ pub struct OperatingPoint {
     pub stages: Vec<StagePoint>,
     /// Every load, by index.
     pub loads: Vec<LoadPoint>,
+    /// The buffer capacitor across the pack, if the design has one and the point was solved
+    /// with its voltage.
+    pub buffer: Option<BufferPoint>,
 }
 
 impl OperatingPoint {
-    /// Sum of load powers plus stage losses: equals the pack's terminal power.
+    /// Sum of load powers plus stage losses, plus the buffer's losses less the power its
+    /// capacitor gives up: equals the pack's terminal power.
     pub fn delivered_plus_losses(&self) -> f64 {
         self.loads.iter().map(|l| l.power).sum::<f64>()
             + self.stages.iter().map(|s| s.loss).sum::<f64>()
+            + self.buffer.map_or(0.0, |b| b.loss - b.v_cap * b.current)
+    }
+
+    /// The voltage and current of the node the tree draws from: the pack's terminals, or the
+    /// buffer capacitor's node (its leakage included in the current).
+    pub fn node(&self) -> (f64, f64) {
+        self.buffer
+            .map_or((self.pack.voltage, self.pack.current), |b| {
+                (b.node_voltage, b.node_current)
+            })
+    }
+}
+
+/// How the cells feed a buffered node.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum BufferRegime {
+    /// Cells and capacitor share the node's current through their resistances.
+    Shared,
+    /// The limiter holds the cells' current at its limit; the capacitor gives the rest.
+    Limited,
+    /// The capacitor is above the cells and the limiter lets no current back: the cells give
+    /// nothing.
+    Blocked,
+}
+
+/// A buffer capacitor at an operating point (SI units).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BufferPoint {
+    /// Capacitor voltage (behind its series resistance).
+    pub v_cap: f64,
+    /// Voltage of the node the tree draws from.
+    pub node_voltage: f64,
+    /// Current the node gives: the tree's and the leakage.
+    pub node_current: f64,
+    /// Current out of the capacitor (negative while it charges).
+    pub current: f64,
+    /// Loss: series resistance, leakage and the limiter's drop, W.
+    pub loss: f64,
+    /// How the cells feed the node.
+    pub regime: BufferRegime,
+}
+
+/// The cells and a buffer capacitor as one source for the node (see [`crate::model::Buffer`]).
+#[derive(Debug, Clone, Copy)]
+struct Split {
+    /// The cells' open-circuit voltage less polarization, and their resistance.
+    e: f64,
+    r: f64,
+    /// Capacitor voltage, series resistance, leakage and the limiter's limit.
+    x: f64,
+    rc: f64,
+    leak: f64,
+    limit: Option<f64>,
+}
+
+impl Split {
+    /// The cells' current while they share the node's current `i` with the capacitor.
+    fn shared(&self, i: f64) -> f64 {
+        let rt = self.r + self.rc;
+        if rt > 0.0 {
+            (self.e - self.x + self.rc * i) / rt
+        } else {
+            i
+        }
+    }
+
+    /// The node seen as a source (open-circuit voltage, resistance) in `regime`.
+    fn source(&self, regime: BufferRegime) -> (f64, f64) {
+        let rt = self.r + self.rc;
+        match regime {
+            BufferRegime::Shared if rt > 0.0 => (
+                (self.x * self.r + self.e * self.rc) / rt,
+                self.r * self.rc / rt,
+            ),
+            BufferRegime::Shared => (self.e, 0.0),
+            BufferRegime::Limited => (self.x + self.rc * self.limit.unwrap_or(0.0), self.rc),
+            BufferRegime::Blocked => (self.x, self.rc),
+        }
+    }
+
+    /// The regime the cells' current at node current `i` calls for, and that current.
+    fn regime(&self, i: f64) -> (BufferRegime, f64) {
+        let ib = self.shared(i);
+        match self.limit {
+            Some(l) if ib > l => (BufferRegime::Limited, l),
+            Some(_) if ib < 0.0 => (BufferRegime::Blocked, 0.0),
+            _ => (BufferRegime::Shared, ib),
+        }
     }
 }
 
@@ -178,6 +270,18 @@ pub enum Solution {
 /// assert!((p.pack.current - 5.010e-3).abs() < 1e-12);
 /// ```
 pub fn solve_point(design: &Design, mode: usize, at: PackState) -> Solution {
+    solve_point_buffered(design, mode, at, None)
+}
+
+/// [`solve_point`] with the buffer capacitor across the pack at voltage `v_cap` (ignored for a
+/// design without a buffer; `None`: the capacitor is settled and carries no current, as
+/// `budget` takes it, and only its leakage is drawn).
+pub fn solve_point_buffered(
+    design: &Design,
+    mode: usize,
+    at: PackState,
+    v_cap: Option<f64>,
+) -> Solution {
     let pack = &design.pack;
     let ocv = pack.ocv(at.soc);
     let r0 = pack.r0(at.soc, at.ambient_c);
@@ -187,6 +291,15 @@ pub fn solve_point(design: &Design, mode: usize, at: PackState) -> Solution {
         (None, Some((r1, _))) => (ocv, r0 + r1),
         (None, None) => (ocv, r0),
     };
+    let leak = pack.buffer.map_or(0.0, |b| b.leakage);
+    let split = pack.buffer.zip(v_cap).map(|(b, x)| Split {
+        e: v_open,
+        r,
+        x,
+        rc: b.esr,
+        leak,
+        limit: b.current_limit,
+    });
     // Empty until a stage is locked out (most points have none): `Walker::is_locked`.
     let mut locked: Vec<bool> = Vec::new();
     let size = design.stages.len() + design.loads.len();
@@ -196,12 +309,34 @@ pub fn solve_point(design: &Design, mode: usize, at: PackState) -> Solution {
             mode: &design.modes[mode],
             locked: &locked,
         };
-        let s = settle(v_open, r, &mut |v| walker.rail_current(0, v, None));
+        let mut demand = |v: f64| walker.rail_current(0, v, None) + leak;
+        let (mut regime, mut source) = (BufferRegime::Shared, (v_open, r));
+        let mut s = match &split {
+            Some(sp) => {
+                source = sp.source(regime);
+                settle(source.0, source.1, &mut demand)
+            }
+            None => settle(v_open, r, &mut demand),
+        };
+        if let (Some(sp), Settle::Point { current, .. }) = (&split, s) {
+            // The cells' current beyond the limiter's range: settled again in the regime it
+            // calls for (the node's voltage falls with its current in every regime, so one
+            // change is enough).
+            let wanted = sp.regime(current).0;
+            if wanted != regime {
+                regime = wanted;
+                source = sp.source(regime);
+                s = settle(source.0, source.1, &mut demand);
+            }
+        }
         let Settle::Point {
             v_a, v_b, alpha, ..
         } = s
         else {
-            return Solution::Collapse { ocv, resistance: r };
+            return Solution::Collapse {
+                ocv,
+                resistance: source.1,
+            };
         };
         // The record buffers are kept per thread between points (a discharge solves thousands).
         let (mut rec_a, mut rec_b) = RECORDS.take();
@@ -212,9 +347,12 @@ pub fn solve_point(design: &Design, mode: usize, at: PackState) -> Solution {
         let ia = walker.rail_current(0, v_a, Some(&mut rec_a));
         let ib = walker.rail_current(0, v_b, Some(&mut rec_b));
         blend(&mut rec_a, &rec_b, alpha);
-        let current = alpha * ia + (1.0 - alpha) * ib;
+        let current = alpha * ia + (1.0 - alpha) * ib + leak;
         let voltage = alpha * v_a + (1.0 - alpha) * v_b;
-        let point = assemble(design, mode, ocv, voltage, current, &rec_a);
+        let mut point = assemble(design, mode, ocv, voltage, current, &rec_a);
+        if let Some(sp) = &split {
+            buffered(&mut point, sp, regime);
+        }
         RECORDS.set((rec_a, rec_b));
         let newly = lockouts(design, &walker, &point);
         if newly.is_empty() {
@@ -225,6 +363,35 @@ pub fn solve_point(design: &Design, mode: usize, at: PackState) -> Solution {
             locked[k] = true;
         }
     }
+}
+
+/// Split the node's current of `p` between the cells and the capacitor in `regime`: the pack
+/// becomes the cells' side, and the buffer point the node's.
+fn buffered(p: &mut OperatingPoint, sp: &Split, regime: BufferRegime) {
+    let (v, i) = (p.pack.voltage, p.pack.current);
+    let ib = match regime {
+        BufferRegime::Shared => sp.shared(i),
+        BufferRegime::Limited => sp.limit.unwrap_or(0.0),
+        BufferRegime::Blocked => 0.0,
+    };
+    let ic = i - ib;
+    // The cells' terminals: at the node while shared, behind the limiter otherwise.
+    let vb = if regime == BufferRegime::Shared {
+        v
+    } else {
+        sp.e - sp.r * ib
+    };
+    p.pack.voltage = vb;
+    p.pack.current = ib;
+    p.pack.loss = ib * (p.pack.ocv - vb);
+    p.buffer = Some(BufferPoint {
+        v_cap: sp.x,
+        node_voltage: v,
+        node_current: i,
+        current: ic,
+        loss: sp.rc * ic * ic + v * sp.leak + (vb - v) * ib,
+        regime,
+    });
 }
 
 /// Running stages whose input is below their minimum, and no stage above them is too.
@@ -351,6 +518,7 @@ fn assemble(
         },
         stages,
         loads,
+        buffer: None,
     }
 }
 

@@ -268,6 +268,28 @@ pub struct BatterySpec {
     /// Aging factors.
     #[serde(default)]
     pub aging: Option<AgingSpec>,
+    /// A buffer capacitor across the pack.
+    #[serde(default)]
+    pub buffer: Option<BufferSpec>,
+}
+
+/// A buffer capacitor across the pack (bulk, supercapacitor or hybrid layer capacitor): it
+/// supplies the pulses and is recharged from the cells, optionally through a current limiter.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct BufferSpec {
+    /// Capacitance.
+    pub capacitance: Qty,
+    /// Equivalent series resistance (default 0).
+    #[serde(default)]
+    pub esr: Option<Qty>,
+    /// Leakage current (default 0).
+    #[serde(default)]
+    pub leakage: Option<Qty>,
+    /// The most current the cells give, through a current limiter between the cells and the
+    /// capacitor (default: no limiter, the capacitor sits directly across the cells).
+    #[serde(default)]
+    pub current_limit: Option<Qty>,
 }
 
 /// Aging factors of the pack.

@@ -25,9 +25,9 @@ use serde::de::DeserializeOwned;
 use node::{Kind, Node};
 
 pub use design::{
-    AgingSpec, AmbientSpec, BatterySpec, CellRef, CellSpec, ChemistrySpec, ClimateSpec, DesignSpec,
-    LoadSpec, LossSpec, PolarizationSpec, QuiescentFromSpec, StageKindSpec, StageSpec, StepSpec,
-    TemperatureRowSpec,
+    AgingSpec, AmbientSpec, BatterySpec, BufferSpec, CellRef, CellSpec, ChemistrySpec, ClimateSpec,
+    DesignSpec, LoadSpec, LossSpec, PolarizationSpec, QuiescentFromSpec, StageKindSpec, StageSpec,
+    StepSpec, TemperatureRowSpec,
 };
 pub use overrides::Override;
 pub use path::{Seg, segments};
@@ -365,6 +365,7 @@ impl Reader<'_> {
                     parallel: None,
                     start: None,
                     aging: None,
+                    buffer: None,
                 }
             }),
             stages,

@@ -48,8 +48,9 @@ impl Override {
 }
 
 /// The optional blocks of a design (mappings of keys with defaults) that `--set` creates when
-/// the file leaves them out: `battery.aging`, a cell's `polarization`, a stage's `loss`.
-const OPTIONAL_BLOCKS: [&str; 3] = ["aging", "polarization", "loss"];
+/// the file leaves them out: `battery.aging`, `battery.buffer`, a cell's `polarization`, a
+/// stage's `loss`.
+const OPTIONAL_BLOCKS: [&str; 4] = ["aging", "buffer", "polarization", "loss"];
 
 /// Apply `o` to the document `root`; returns the index-form path of the value replaced (e.g.
 /// `stages[2].efficiency`), which the checker's messages use. The value put in has no place in

@@ -113,6 +113,10 @@ fn expected_words(e: &str, key: &str) -> (String, String) {
             "aging factors",
             "write `{ capacity: 90 %, resistance: 130 % }`",
         ),
+        "struct BufferSpec" => pair(
+            "a buffer capacitor",
+            "write `{ capacitance: 470 µF, esr: 0.2 Ω, leakage: 1 µA, current_limit: 2 mA }`",
+        ),
         "struct TemperatureRowSpec" => pair(
             "a temperature row",
             "write `{ at: -20 °C, capacity: 55 %, resistance: 300 % }`",

@@ -49,6 +49,8 @@ fn range(dim: Dim) -> Option<Range> {
         Dim::Length => r(1e-6, 100.0, "1 µm", "100 m"),
         // Activation energies of chemical reactions: a few kJ/mol to a few hundred.
         Dim::MolarEnergy => r(1.0, 1e6, "1 J/mol", "1000 kJ/mol"),
+        // From a ceramic capacitor's picofarads to a supercapacitor bank's kilofarads.
+        Dim::Capacitance => r(1e-12, 1e4, "1 pF", "10 kF"),
         // Temperatures are bounded absolutely; plain numbers by each field.
         Dim::Temperature | Dim::Number => None,
     }

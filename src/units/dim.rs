@@ -33,6 +33,8 @@ pub enum Dim {
     Length,
     /// An energy per amount of substance (an activation energy), stored in joules per mole.
     MolarEnergy,
+    /// Capacitance, stored in farads (`F`, `mF`, `µF`).
+    Capacitance,
 }
 
 impl Dim {
@@ -54,6 +56,7 @@ impl Dim {
             Dim::Mass => "a mass",
             Dim::Length => "a length",
             Dim::MolarEnergy => "an energy per mole",
+            Dim::Capacitance => "a capacitance",
         }
     }
 
@@ -75,6 +78,7 @@ impl Dim {
             Dim::Mass => "23 g",
             Dim::Length => "14.5 mm",
             Dim::MolarEnergy => "50 kJ/mol",
+            Dim::Capacitance => "470 µF",
         }
     }
 
@@ -96,6 +100,7 @@ impl Dim {
             Dim::Mass => "`g`, `kg`, `mg`",
             Dim::Length => "`mm`, `cm`, `m`",
             Dim::MolarEnergy => "`kJ/mol`, `J/mol`, `eV`",
+            Dim::Capacitance => "`F`, `mF`, `µF`",
         }
     }
 }

@@ -33,7 +33,7 @@ mod tests {
     use super::*;
     use proptest::prelude::*;
 
-    const ALL: [Dim; 15] = [
+    const ALL: [Dim; 16] = [
         Dim::Voltage,
         Dim::Current,
         Dim::Power,
@@ -49,6 +49,7 @@ mod tests {
         Dim::Mass,
         Dim::Length,
         Dim::MolarEnergy,
+        Dim::Capacitance,
     ];
 
     /// Every kind's example must parse back as that kind.

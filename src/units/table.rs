@@ -85,6 +85,7 @@ static UNITS: &[UnitDef] = &[
     // volt per mole, 96 485.332 J/mol (CODATA 2018: F = 96 485.332 12 C/mol, exact).
     unit("J/mol", Dim::MolarEnergy, 1.0, true),
     unit("eV", Dim::MolarEnergy, 96_485.332_12, false),
+    unit("F", Dim::Capacitance, 1.0, true),
 ];
 
 /// Metric prefixes and their powers of ten. Case matters: `m` is milli, `M` mega.

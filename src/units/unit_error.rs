@@ -263,6 +263,7 @@ fn missing_unit_hint(n: &str, expected: &[Dim]) -> String {
         Dim::Mass => format!("write `{n} g` (or `{n} kg` if you meant kilograms)"),
         Dim::Length => format!("write `{n} mm` (or `{n} cm`, `{n} m` as meant)"),
         Dim::MolarEnergy => format!("write `{n} kJ/mol` (or `{n} eV` per particle)"),
+        Dim::Capacitance => format!("write `{n} µF` (or `{n} mF`, `{n} F` as meant)"),
     }
 }
 

@@ -4,7 +4,8 @@
 #[allow(clippy::wildcard_imports)]
 use super::*;
 use crate::model::SelfDischargeLaw;
-use crate::spec::SelfDischargeSpec;
+use crate::model::pack::Buffer;
+use crate::spec::{BufferSpec, SelfDischargeSpec};
 
 /// The temperature of a self-discharge rate given without one, °C (the reference of the
 /// presets' other values).
@@ -600,13 +601,54 @@ temperature"
                 ar = self.fraction(q, "battery.aging.resistance", 0.0, false, 100.0);
             }
         }
+        let buffer = match &b.buffer {
+            None => Some(None),
+            Some(spec) => self.buffer(spec).map(Some),
+        };
         Some(Pack {
+            buffer: buffer?,
             cell: cell?,
             series: u32::try_from(series?).ok()?,
             parallel: u32::try_from(parallel?).ok()?,
             start_soc: start?,
             aging_capacity: ac?,
             aging_resistance: ar?,
+        })
+    }
+}
+
+impl Lower<'_> {
+    /// The buffer capacitor across the pack.
+    fn buffer(&mut self, b: &BufferSpec) -> Option<Buffer> {
+        let c = self.value(
+            &b.capacitance,
+            "battery.buffer.capacitance",
+            Dim::Capacitance,
+            Bound::AboveZero,
+        );
+        let esr = self.opt(
+            b.esr.as_ref(),
+            "battery.buffer.esr",
+            Dim::Resistance,
+            Bound::AtLeastZero,
+        );
+        let leak = self.opt(
+            b.leakage.as_ref(),
+            "battery.buffer.leakage",
+            Dim::Current,
+            Bound::AtLeastZero,
+        );
+        let limit = self.opt(
+            b.current_limit.as_ref(),
+            "battery.buffer.current_limit",
+            Dim::Current,
+            Bound::AboveZero,
+        );
+        Some(Buffer {
+            capacitance: c?,
+            esr: esr?.unwrap_or(0.0),
+            leakage: leak?.unwrap_or(0.0),
+            current_limit: limit?,
         })
     }
 }

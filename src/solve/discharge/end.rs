@@ -5,15 +5,17 @@
 use super::*;
 
 impl Sim<'_> {
-    /// How far the pack's terminal voltage moves from operating point `p` to state (`s`, `vp`)
-    /// at `p`'s current: open-circuit voltage, ohmic drop and polarization.
-    pub(super) fn pack_shift(&self, p: &OperatingPoint, s: f64, vp: f64) -> f64 {
+    /// How far the pack's terminal voltage moves from operating point `p` to state (`s`, `vp`,
+    /// `vb`) at `p`'s current: open-circuit voltage, ohmic drop, polarization and the buffer
+    /// capacitor.
+    pub(super) fn pack_shift(&self, p: &OperatingPoint, s: f64, vp: f64, vb: f64) -> f64 {
         let pack = &self.c.d.pack;
         let t = self.ambient();
         let i = p.pack.current;
         (pack.ocv(s) - pack.ocv(self.soc())).abs()
             + (pack.r0(s, t) - pack.r0(self.soc(), t)).abs() * i
             + (vp - self.vp).abs()
+            + (vb - self.vb).abs()
     }
 
     /// The smallest margin, in volts, between `p` and an end condition that follows the pack
@@ -41,13 +43,20 @@ impl Sim<'_> {
     /// that its end state need not be solved: the pack stays far from its power limit (above
     /// 60 % of the open-circuit voltage, where a constant-power demand amplifies a sag at most
     /// threefold) and the estimated sag is under a quarter of the margin.
-    pub(super) fn surely_clear(&self, p: &OperatingPoint, i: f64, s1: f64, vp1: f64) -> bool {
+    pub(super) fn surely_clear(
+        &self,
+        p: &OperatingPoint,
+        i: f64,
+        s1: f64,
+        vp1: f64,
+        vb1: f64,
+    ) -> bool {
         if s1 <= 0.0 {
             return false;
         }
         let v_open = p.pack.ocv - self.vp;
         let r0 = self.c.d.pack.r0(self.soc(), self.ambient());
-        let sag = self.pack_shift(p, s1, vp1) + (i - p.pack.current).abs() * r0;
+        let sag = self.pack_shift(p, s1, vp1, vb1) + (i - p.pack.current).abs() * r0;
         p.pack.voltage > 0.6 * v_open && 4.0 * sag < self.voltage_margin(p)
     }
 

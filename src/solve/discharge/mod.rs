@@ -18,6 +18,7 @@
 //! the end are executed; a run of few passes is executed pass by pass at the reference's step
 //! sizes (`skip.rs`).
 
+mod buffer;
 mod end;
 mod skip;
 
@@ -34,7 +35,7 @@ use super::numerics::{
     STEP_MAX_DS_EXACT, STEP_MAX_DS_FAST, STEP_MAX_DVP_EXACT, STEP_MAX_DVP_FAST, TRACE_BUCKETS,
     TRACE_PROBES_PER_SKIP, WORK_LIMIT_EXACT, WORK_LIMIT_FAST,
 };
-use super::point::{OperatingPoint, PackState, Solution, StageState, solve_point};
+use super::point::{OperatingPoint, PackState, Solution, StageState, solve_point_buffered};
 use super::sum2::Sum2;
 use crate::model::{Climate, Design, Step};
 
@@ -576,7 +577,7 @@ impl<'a> Ctx<'a> {
             } else {
                 2.0
             };
-            (grow * self.reach(block)).min(SKIP_MAX_DS)
+            (grow * planned.max(self.reach(block))).min(SKIP_MAX_DS)
         } else {
             taken.clamp(1e-9, SKIP_MAX_DS)
         };
@@ -612,6 +613,8 @@ struct Sim<'a> {
     /// The pack current as the rate law sees it: filtered over the cell's rate window, from
     /// the current of the run's first step (NaN before it; unused without a window).
     i_seen: f64,
+    /// The buffer capacitor's voltage (0 without a buffer).
+    vb: f64,
     ledger: Ledger,
     peaks: Vec<Peak>,
     /// Violations so far and the (kind, subject) pairs among them, shared between a run and its
@@ -648,6 +651,13 @@ struct Delta {
     /// The same two for the current the rate law sees (`Sim::i_seen`).
     seen_ln_decay: f64,
     seen_offset: f64,
+    /// The same two for the buffer capacitor's voltage (`Sim::vb`).
+    buf_ln_decay: f64,
+    buf_offset: f64,
+    /// The buffer's periodic voltage at the start of a pass, b / (1 - a), and its voltage at
+    /// the start of this pass.
+    vb_star: f64,
+    vb_start: f64,
     ledger: Ledger,
 }
 
@@ -667,13 +677,41 @@ impl Delta {
             offset: parts[2].1.offset,
             seen_ln_decay: parts[2].1.seen_ln_decay,
             seen_offset: parts[2].1.seen_offset,
+            buf_ln_decay: parts[2].1.buf_ln_decay,
+            buf_offset: parts[2].1.buf_offset,
+            vb_star: parts[2].1.vb_star,
+            vb_start: parts[2].1.vb_start,
             ledger,
         }
     }
 
     /// The changes of a pass of length `pass` that started at (`s0`, `vp0`, `seen0`: the
-    /// current the rate law saw) and ended in `after`, with `ledger` the pass's own totals.
-    fn of(s0: Sum2, (vp0, seen0): (f64, f64), after: &Sim, pass: f64, ledger: Ledger) -> Self {
+    /// current the rate law saw, `vb0`: the buffer's voltage) and ended in `after`, with
+    /// `ledger` the pass's own totals.
+    fn of(
+        s0: Sum2,
+        (vp0, seen0, vb0): (f64, f64, f64),
+        after: &Sim,
+        pass: f64,
+        ledger: Ledger,
+    ) -> Self {
+        // The buffer relaxes with C (R + Rc) at the cells' resistance of the pass's end (a
+        // limiter's ramps are followed by the stretch's nodes).
+        let buf_ln_decay = after.c.d.pack.buffer.map_or(f64::NEG_INFINITY, |b| {
+            let r = after.c.d.pack.r0(after.soc().max(0.0), after.ambient());
+            let tau = b.capacitance * (r + b.esr);
+            if tau > 0.0 {
+                -pass / tau
+            } else {
+                f64::NEG_INFINITY
+            }
+        });
+        let buf_offset = after.vb - buf_ln_decay.exp() * vb0;
+        let vb_star = if buf_ln_decay < -1e-9 {
+            buf_offset / -buf_ln_decay.exp_m1()
+        } else {
+            after.vb
+        };
         let seen_ln_decay = after.c.window.map_or(f64::NEG_INFINITY, |tau| -pass / tau);
         // Before the first step the filter had no value: it starts at the first step's current,
         // taken as the pass's own periodic value.
@@ -692,6 +730,10 @@ impl Delta {
             offset: b,
             seen_ln_decay,
             seen_offset,
+            buf_ln_decay,
+            buf_offset,
+            vb_star,
+            vb_start: vb0,
             vp_star: if decay < 1.0 {
                 b / (1.0 - decay)
             } else {
@@ -711,6 +753,12 @@ impl<'a> Sim<'a> {
             s: Sum2::new(d.pack.start_soc),
             vp: 0.0,
             i_seen: f64::NAN,
+            // The capacitor starts charged to the cells' open-circuit voltage.
+            vb: if d.pack.buffer.is_some() {
+                d.pack.ocv(d.pack.start_soc)
+            } else {
+                0.0
+            },
             ledger: Ledger::new(d.stages.len(), d.loads.len()),
             peaks: vec![
                 Peak {
@@ -781,7 +829,7 @@ impl<'a> Sim<'a> {
     /// Run one pass of `steps` (`pass` seconds) with its own ledger, so that its totals are
     /// exact however small against the run's; `None` if the product stopped in it.
     fn run_pass(&mut self, steps: &[Step], pass: f64) -> Option<Delta> {
-        let (s0, vp0, seen0) = (self.s, self.vp, self.i_seen);
+        let (s0, vp0, seen0, vb0) = (self.s, self.vp, self.i_seen, self.vb);
         let speculative = self.speculative;
         self.c.count(|c| {
             c.passes += 1;
@@ -792,10 +840,10 @@ impl<'a> Sim<'a> {
         let stopped = self.steps(steps, pass);
         let local = std::mem::replace(&mut self.ledger, total);
         self.ledger.add_scaled(&local, 1.0);
-        (!stopped).then(|| Delta::of(s0, (vp0, seen0), self, pass, local))
+        (!stopped).then(|| Delta::of(s0, (vp0, seen0, vb0), self, pass, local))
     }
 
-    fn solve(&self, mode: usize, s: f64, vp: f64) -> Solution {
+    fn solve(&self, mode: usize, s: f64, vp: f64, vb: f64) -> Solution {
         let c = self.c;
         if !self.trace_probe {
             c.work.set(c.work.get().saturating_add(1));
@@ -805,7 +853,8 @@ impl<'a> Sim<'a> {
             v_pol: Some(vp),
             ambient_c: self.ambient(),
         };
-        solve_point(self.c.d, mode, at)
+        let vb = self.c.d.pack.buffer.map(|_| vb);
+        solve_point_buffered(self.c.d, mode, at, vb)
     }
 
     /// Rate of fall of the SoC, per second, at pack current `i` held for `dt` (Peukert-effective
@@ -876,6 +925,7 @@ impl<'a> Sim<'a> {
         dt: f64,
     ) -> Cow<'p, OperatingPoint> {
         let (sm, vm) = self.mean_state(start.pack.current, rate, dt);
+        let xm = self.cap_mean(start, dt);
         // A step so short that the pack barely moves: the start point is the mean point (the
         // reference always solves the mean state).
         let rel = if self.c.fine.get() {
@@ -883,10 +933,10 @@ impl<'a> Sim<'a> {
         } else {
             MEAN_POINT_REL
         };
-        if self.pack_shift(start, sm, vm) <= rel * start.pack.voltage.abs() {
+        if self.pack_shift(start, sm, vm, xm) <= rel * start.pack.voltage.abs() {
             return Cow::Borrowed(start);
         }
-        let sol = self.solve(mode, sm, vm);
+        let sol = self.solve(mode, sm, vm, xm);
         match sol {
             Solution::Point(p) if self.condition(&p).is_none() => Cow::Owned(p),
             _ => Cow::Borrowed(start),
@@ -980,6 +1030,8 @@ impl<'a> Sim<'a> {
             "state of charge"
         } else if !self.vp.is_finite() {
             "polarization voltage"
+        } else if !self.vb.is_finite() {
+            "buffer capacitor voltage"
         } else if !self.now().is_finite() {
             "time"
         } else {
@@ -1021,7 +1073,7 @@ impl<'a> Sim<'a> {
             self.c.count(|c| c.steps += 1);
             let sol = next
                 .take()
-                .unwrap_or_else(|| self.solve(mode, self.soc(), self.vp));
+                .unwrap_or_else(|| self.solve(mode, self.soc(), self.vp, self.vb));
             if let Some((reason, subject)) = self.verdict(&sol, self.soc()) {
                 if let Solution::Point(p) = &sol {
                     self.observe(p);
@@ -1040,22 +1092,33 @@ impl<'a> Sim<'a> {
                 dt = dt.min(self.c.max_ds() / rate0);
             }
             dt = dt.min(self.polarization_step(&p, dt));
+            dt = dt.min(self.cap_step_limit(&p, dt));
             // The ambient is held over a step: at most an hour with a daily swing.
             if let Some(c) = &self.c.opt.climate {
                 dt = dt.min(c.step_s());
             }
-            let pm = self.mean_point(mode, &p, rate0, dt);
-            let i = pm.pack.current;
+            let mut pm = self.mean_point(mode, &p, rate0, dt);
+            // With a buffer the cells' current over the step follows from the capacitor's path.
+            let (x1, i) = self.cap_after(&pm, dt);
+            if pm.buffer.is_some() {
+                let m = pm.to_mut();
+                if let Some(b) = &mut m.buffer {
+                    b.current = b.node_current - i;
+                }
+                m.pack.current = i;
+                m.pack.loss = i * (m.pack.ocv - m.pack.voltage);
+            }
             let rate = self.rate(i, dt);
             if self.refuse_non_finite(mode, i, rate) {
                 return true;
             }
             let (s1, vp1) = self.evolve(i, rate, dt);
-            if self.surely_clear(&p, i, s1, vp1) {
+            if self.surely_clear(&p, i, s1, vp1, x1) {
                 self.ledger.add_point(&pm, dt, &self.c.v_max);
                 self.t.add(dt);
                 self.s.add(-rate * dt);
                 self.vp = vp1;
+                self.vb = x1;
                 self.i_seen = self.seen_after(i, dt);
                 left -= dt;
                 if self.now() >= self.c.opt.horizon_s * (1.0 - 1e-15) {
@@ -1064,7 +1127,7 @@ impl<'a> Sim<'a> {
                 }
                 continue;
             }
-            let end_sol = self.solve(mode, s1, vp1);
+            let end_sol = self.solve(mode, s1, vp1, x1);
             if self.verdict(&end_sol, s1).is_some() {
                 if !self.speculative && !self.c.fine.get() {
                     // The end lies in this step: from here on, steps as fine as the reference's,
@@ -1079,7 +1142,8 @@ impl<'a> Sim<'a> {
                         break;
                     }
                     let (sm, vm) = self.evolve(i, rate, mid);
-                    if self.verdict(&self.solve(mode, sm, vm), sm).is_some() {
+                    let xm = self.cap_after(&pm, mid).0;
+                    if self.verdict(&self.solve(mode, sm, vm, xm), sm).is_some() {
                         hi = mid;
                     } else {
                         lo = mid;
@@ -1087,11 +1151,13 @@ impl<'a> Sim<'a> {
                 }
                 self.ledger.add_point(&pm, hi, &self.c.v_max);
                 let (sh, vh) = self.evolve(i, rate, hi);
+                let xh = self.cap_after(&pm, hi).0;
                 self.t.add(hi);
                 self.s.add(-rate * hi);
                 self.vp = vh;
+                self.vb = xh;
                 self.i_seen = self.seen_after(i, hi);
-                let sol = self.solve(mode, sh, vh);
+                let sol = self.solve(mode, sh, vh, xh);
                 if let Solution::Point(q) = &sol {
                     self.offer_trace(q, self.now(), sh);
                 }
@@ -1105,6 +1171,7 @@ impl<'a> Sim<'a> {
             self.t.add(dt);
             self.s.add(-rate * dt);
             self.vp = vp1;
+            self.vb = x1;
             self.i_seen = self.seen_after(i, dt);
             left -= dt;
             if let Solution::Point(q) = &end_sol {

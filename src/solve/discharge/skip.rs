@@ -24,6 +24,10 @@ impl<'a> Sim<'a> {
         if self.c.window.is_some() {
             self.i_seen = lag(self.i_seen, k, delta.seen_ln_decay, delta.seen_offset);
         }
+        // And so is the buffer capacitor's voltage.
+        if self.c.d.pack.buffer.is_some() {
+            self.vb = lag(self.vb, k, delta.buf_ln_decay, delta.buf_offset);
+        }
     }
 
     /// Whether a run that stops within `within` passes of `pass` seconds from now lasts fewer
@@ -88,7 +92,11 @@ impl<'a> Sim<'a> {
         }
         let to_horizon = ((self.c.opt.horizon_s - self.now()) / pass).floor() - 1.0;
         let mut k = if delta.ds > 0.0 {
-            let by_ds = (self.c.reach(steps.as_ptr() as usize) / delta.ds).floor();
+            // At least the shortest stretch, so that a block whose reach was cut to almost
+            // nothing by an early halving tries again and grows it back.
+            let by_ds = (self.c.reach(steps.as_ptr() as usize) / delta.ds)
+                .floor()
+                .max(SKIP_MIN_PASSES as f64);
             let by_empty = (self.soc() / delta.ds).floor() - 2.0;
             by_ds.min(by_empty)
         } else if self.c.opt.exact || delta.ds < 0.0 {
@@ -207,13 +215,23 @@ impl<'a> Sim<'a> {
         let mut first = delta.clone();
         // (Only where the polarization settles within a pass or two; a slower one is followed by
         // the nodes themselves.)
-        if self.c.pol.is_some()
+        let vp_off = self.c.pol.is_some()
             && delta.decay < 0.5
-            && (self.vp - delta.vp_star).abs() > 1e-3 * delta.vp_star.abs()
-        {
+            && (self.vp - delta.vp_star).abs() > 1e-3 * delta.vp_star.abs();
+        // The same for a buffer capacitor that started the pass far from its periodic voltage
+        // (drained by a block around this one): the pass's charge includes its recharge.
+        let vb_off = self.c.d.pack.buffer.is_some()
+            && delta.buf_ln_decay < -std::f64::consts::LN_2
+            && (delta.vb_start - delta.vb_star).abs() > 1e-4 * delta.vb_star.abs();
+        if vp_off || vb_off {
             let mut again = self.clone();
             again.speculative = true;
-            again.vp = delta.vp_star;
+            if vp_off {
+                again.vp = delta.vp_star;
+            }
+            if vb_off {
+                again.vb = delta.vb_star;
+            }
             if let Some(r) = again.run_pass(steps, pass) {
                 first = r;
                 x0 = 0.5;

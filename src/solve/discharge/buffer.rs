@@ -1,0 +1,279 @@
+//! The buffer capacitor across the pack along a step: its voltage follows the node's current
+//! held over the step, region by region of the limiter (see [`crate::model::Buffer`]).
+//!
+//! # Formula
+//!
+//! With the cells at E behind R, the capacitor at x behind Rc, the node giving I and the
+//! limiter holding the cells' current to [0, L]: the cells give (E - x + Rc I) / (R + Rc) while
+//! that lies in [0, L] (shared), and C dx/dt = (x* - x) / (R + Rc) with x* = E - R I: an
+//! exponential toward x* with time constant C (R + Rc). Above x_b = E + Rc I the cells give
+//! nothing and x falls at I / C; below x_l = E + Rc I - (R + Rc) L they give L and x moves at
+//! (L - I) / C. Over any stretch the cells' charge is I t - C (x(0) - x(t)) (the capacitor's
+//! charge balance, Kirchhoff's current law). The path moves one way, so it crosses at most two
+//! region boundaries.
+
+#[allow(clippy::wildcard_imports)]
+use super::*;
+use crate::model::Buffer;
+
+/// The circuit of a step: the cells, the capacitor and the node's current held.
+#[derive(Debug, Clone, Copy)]
+pub(super) struct CapStep {
+    /// The cells' open-circuit voltage less polarization, and their resistance.
+    pub e: f64,
+    pub r: f64,
+    /// The node's current (the tree's and the leakage).
+    pub i: f64,
+    pub b: Buffer,
+}
+
+/// Where the capacitor's voltage is moving, in a region of the limiter.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Region {
+    /// Exponential toward x* with this time constant (0: at once).
+    Shared { target: f64, tau: f64 },
+    /// A straight line at this slope, V/s.
+    Ramp { slope: f64 },
+}
+
+impl CapStep {
+    fn rt(&self) -> f64 {
+        self.r + self.b.esr
+    }
+
+    /// The boundaries x_l (the cells at the limit below it) and x_b (the cells cut off above
+    /// it); infinite without a limiter.
+    fn bounds(&self) -> (f64, f64) {
+        match self.b.current_limit {
+            Some(l) => {
+                let top = self.e + self.b.esr * self.i;
+                (top - self.rt() * l, top)
+            }
+            None => (f64::NEG_INFINITY, f64::INFINITY),
+        }
+    }
+
+    /// The region at capacitor voltage `x`, and how long the path stays in it (infinite when
+    /// it never leaves).
+    fn region(&self, x: f64) -> (Region, f64) {
+        let c = self.b.capacitance;
+        let (lo, hi) = self.bounds();
+        let target = self.e - self.r * self.i;
+        let limit = self.b.current_limit.unwrap_or(f64::INFINITY);
+        if x > hi {
+            // Cut off: the capacitor alone feeds the node, down to x_b.
+            let slope = -self.i / c;
+            let t = if slope < 0.0 {
+                (hi - x) / slope
+            } else {
+                f64::INFINITY
+            };
+            return (Region::Ramp { slope }, t);
+        }
+        if x < lo || (x <= lo && self.i > limit) {
+            let slope = (limit - self.i) / c;
+            let t = if slope > 0.0 {
+                (lo - x) / slope
+            } else {
+                f64::INFINITY
+            };
+            return (Region::Ramp { slope }, t.max(0.0));
+        }
+        let tau = c * self.rt();
+        // Toward x*, which lies below x_l when the node takes more than the limit: the path
+        // reaches x_l and the limiter takes over.
+        let t = if target < lo && tau > 0.0 {
+            tau * ((x - target) / (lo - target)).ln()
+        } else {
+            f64::INFINITY
+        };
+        (Region::Shared { target, tau }, t.max(0.0))
+    }
+
+    /// The capacitor voltage after `dt` from `x0`, and its time average over the step.
+    pub(super) fn path(&self, x0: f64, dt: f64) -> (f64, f64) {
+        if dt <= 0.0 {
+            return (x0, x0);
+        }
+        let (mut x, mut left, mut area) = (x0, dt, 0.0);
+        for round in 0..4 {
+            let (region, stay) = self.region(x);
+            // The last round takes the rest of the step in its region (the path has crossed
+            // every boundary it can by then).
+            let seg = if round == 3 { left } else { stay.min(left) };
+            match region {
+                Region::Ramp { slope } => {
+                    area += x * seg + 0.5 * slope * seg * seg;
+                    x += slope * seg;
+                }
+                Region::Shared { target, tau } => {
+                    if tau > 0.0 {
+                        let kept = (-seg / tau).exp();
+                        area += target * seg + (x - target) * tau * -(-seg / tau).exp_m1();
+                        x = target + (x - target) * kept;
+                    } else {
+                        area += target * seg;
+                        x = target;
+                    }
+                }
+            }
+            left -= seg;
+            if left <= 0.0 {
+                break;
+            }
+        }
+        (x, area / dt)
+    }
+
+    /// The longest step from `x0` over which the capacitor voltage moves by at most `allowed`
+    /// volts, except that a capacitor settling far within the step (over 20 time constants,
+    /// as the polarization) is not followed: the step's mean averages its transient.
+    pub(super) fn step_limit(&self, x0: f64, dt: f64, allowed: f64) -> f64 {
+        if !(allowed > 0.0) {
+            return f64::INFINITY;
+        }
+        let (region, stay) = self.region(x0);
+        match region {
+            Region::Shared { target, tau } => {
+                let gap = (x0 - target).abs();
+                if stay.is_infinite() && dt > 20.0 * tau {
+                    return f64::INFINITY;
+                }
+                if gap <= allowed {
+                    return stay.max(f64::MIN_POSITIVE);
+                }
+                (-tau * (-allowed / gap).ln_1p()).max(f64::MIN_POSITIVE)
+            }
+            Region::Ramp { slope } => {
+                let by_move = if slope == 0.0 {
+                    f64::INFINITY
+                } else {
+                    allowed / slope.abs()
+                };
+                // A ramp that ends at its boundary within the allowed move: the step may run on
+                // into the next region, whose limit the next step applies.
+                by_move.max(f64::MIN_POSITIVE)
+            }
+        }
+    }
+}
+
+impl Sim<'_> {
+    /// The circuit of a step of `dt` from operating point `p` (its node current held), with
+    /// the cells' open-circuit voltage less polarization and their resistance now; `None`
+    /// without a buffer. Over a step far longer than the polarization's time constant (as in
+    /// [`Sim::polarization_step`]) the polarization settles with the capacitor: the cells are
+    /// then their open-circuit voltage behind R0 + R1.
+    pub(super) fn cap_step(&self, p: &OperatingPoint, dt: f64) -> Option<CapStep> {
+        let b = self.c.d.pack.buffer?;
+        let r0 = self.c.d.pack.r0(self.soc(), self.ambient());
+        let (e, r) = match self.pol() {
+            Some((r1, tau)) if dt > 20.0 * tau => (p.pack.ocv, r0 + r1),
+            _ => (p.pack.ocv - self.vp, r0),
+        };
+        Some(CapStep {
+            e,
+            r,
+            i: p.buffer.map_or(p.pack.current, |bp| bp.node_current),
+            b,
+        })
+    }
+
+    /// The capacitor voltage after `dt` at `p`'s node current, and the cells' mean current
+    /// over the step (from the capacitor's charge balance); the voltage now and `p`'s pack
+    /// current without a buffer.
+    pub(super) fn cap_after(&self, p: &OperatingPoint, dt: f64) -> (f64, f64) {
+        match self.cap_step(p, dt) {
+            Some(cs) if dt > 0.0 => {
+                let (x1, _) = cs.path(self.vb, dt);
+                (x1, cs.i - cs.b.capacitance * (self.vb - x1) / dt)
+            }
+            _ => (self.vb, p.pack.current),
+        }
+    }
+
+    /// The capacitor's mean voltage over a step of `dt` from `p` (the voltage now without a
+    /// buffer).
+    pub(super) fn cap_mean(&self, p: &OperatingPoint, dt: f64) -> f64 {
+        self.cap_step(p, dt)
+            .map_or(self.vb, |cs| cs.path(self.vb, dt).1)
+    }
+
+    /// The longest step from `p` that keeps the capacitor's move within the polarization's
+    /// allowance (infinite without a buffer).
+    pub(super) fn cap_step_limit(&self, p: &OperatingPoint, dt: f64) -> f64 {
+        self.cap_step(p, dt).map_or(f64::INFINITY, |cs| {
+            let allowed = self.c.max_dvp() * p.node().0.abs();
+            cs.step_limit(self.vb, dt, allowed)
+        })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::CapStep;
+    use crate::model::Buffer;
+
+    fn step(limit: Option<f64>, i: f64) -> CapStep {
+        CapStep {
+            e: 3.0,
+            r: 10.0,
+            i,
+            b: Buffer {
+                capacitance: 1e-3,
+                esr: 0.5,
+                leakage: 0.0,
+                current_limit: limit,
+            },
+        }
+    }
+
+    /// Without a limiter the capacitor relaxes toward E - R I with time constant C (R + Rc):
+    /// the RC charging law V(t) = V_inf + (V_0 - V_inf) e^(-t / RC) (Alexander & Sadiku,
+    /// Fundamentals of Electric Circuits, 5th ed., section 7.2, from memory).
+    #[test]
+    fn recharge_is_the_rc_exponential() {
+        let s = step(None, 1e-3);
+        let tau = 1e-3 * 10.5;
+        let target = 3.0 - 10.0 * 1e-3;
+        for &t in &[1e-4, 5e-3, 0.02, 0.5] {
+            let (x, mean) = s.path(2.5, t);
+            let want = target + (2.5 - target) * (-t / tau).exp();
+            assert!((x - want).abs() < 1e-12, "{t}: {x} vs {want}");
+            let want_mean = target + (2.5 - target) * tau / t * (1.0 - (-t / tau).exp());
+            assert!((mean - want_mean).abs() < 1e-12);
+        }
+    }
+
+    /// Through a limiter the capacitor first charges at (L - I) / C, a straight line, then
+    /// relaxes exponentially once the cells' current falls below the limit.
+    #[test]
+    fn limited_recharge_is_a_ramp_then_the_exponential() {
+        let s = step(Some(2e-3), 0.5e-3);
+        // x_l = E + Rc I - (R + Rc) L = 3 + 0.25e-3 - 10.5 x 2e-3.
+        let xl = 3.0 + 0.5 * 0.5e-3 - 10.5 * 2e-3;
+        let slope = (2e-3 - 0.5e-3) / 1e-3;
+        let t_ramp = (xl - 2.0) / slope;
+        let (x, _) = s.path(2.0, 0.5 * t_ramp);
+        assert!((x - (2.0 + slope * 0.5 * t_ramp)).abs() < 1e-12);
+        let tau = 1e-3 * 10.5;
+        let target = 3.0 - 10.0 * 0.5e-3;
+        let (x, _) = s.path(2.0, t_ramp + tau);
+        let want = target + (xl - target) * (-1.0_f64).exp();
+        assert!((x - want).abs() < 1e-9, "{x} vs {want}");
+    }
+
+    /// A node taking more than the limit drains the capacitor at (I - L) / C for ever.
+    #[test]
+    fn a_load_above_the_limit_drains_the_capacitor() {
+        let s = step(Some(2e-3), 12e-3);
+        let (x, mean) = s.path(2.9, 0.1);
+        // 2.9 V lies below x_l = 3 + 0.5 x 12e-3 - 10.5 x 2e-3 = 2.985 V: the cells give the
+        // limit and the capacitor falls at (12 - 2) mA / 1 mF = 10 V/s.
+        assert!((x - 1.9).abs() < 1e-12, "{x}");
+        assert!((mean - 2.4).abs() < 1e-12, "{mean}");
+        // From above x_l it first relaxes toward x* = 2.88 V, reaches x_l, then ramps.
+        let (x, _) = s.path(3.0, 0.1);
+        assert!(x < 1.9 + 0.115 && x > 1.9 + 0.05, "{x}");
+    }
+}
