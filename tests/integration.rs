@@ -3,6 +3,7 @@
 mod util;
 
 mod browser;
+mod buffer;
 mod capture;
 mod cli;
 mod errors;

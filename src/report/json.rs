@@ -248,6 +248,10 @@ pub struct RunBatteryJson {
     pub average_power_w: f64,
     /// Internal loss.
     pub loss_wh: f64,
+    /// Loss in the buffer capacitor across the pack (series resistance, leakage, limiter);
+    /// only for a design with one.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub buffer_loss_wh: Option<f64>,
 }
 
 /// Stage totals of a run.
@@ -326,6 +330,7 @@ impl RuntimeJson {
                 average_current_a: r.average_current_a(),
                 average_power_w: r.average_power_w(),
                 loss_wh: wh(r.ledger.pack_loss_j),
+                buffer_loss_wh: d.pack.buffer.map(|_| wh(r.ledger.buffer_loss_j)),
             },
             stages: d
                 .stages

@@ -226,6 +226,13 @@ pub fn energy_sentences(r: &RunResult) -> Vec<String> {
         fmt_eng(r.average_current_a(), "A"),
         fmt_eng(r.average_power_w(), "W"),
     )];
+    if l.buffer_loss_j != 0.0 || l.buffer_out_j != 0.0 {
+        out.push(format!(
+            "the buffer capacitor lost {} (series resistance, leakage, limiter) and gave {} from its store",
+            wh(l.buffer_loss_j),
+            wh(l.buffer_out_j)
+        ));
+    }
     if let Some(share) = l.load_share_of_cell_energy() {
         out.push(format!(
             "the loads took {}: {} of the energy from the cells",

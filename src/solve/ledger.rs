@@ -8,7 +8,8 @@
 //!   ([`Ledger::terminal_energy_j`]): what reaches the tree (JSON `battery.energy_wh`).
 //!
 //! The energy from the cells = the energy at the terminals + the pack's internal loss; it is
-//! also what the loads took plus every stage's loss plus the pack's loss.
+//! also what the loads took plus every stage's loss plus the pack's loss (plus a buffer
+//! capacitor's loss, less the energy it gave up from its store).
 
 use super::point::{OperatingPoint, StageState};
 
@@ -25,6 +26,11 @@ pub struct Ledger {
     pub ocv_energy_j: f64,
     /// Internal loss of the pack, J.
     pub pack_loss_j: f64,
+    /// Loss in the buffer capacitor across the pack (series resistance, leakage, limiter), J.
+    pub buffer_loss_j: f64,
+    /// Energy the buffer capacitor gave up: its stored energy at the start less at the end, J
+    /// (about 0 over whole pulses).
+    pub buffer_out_j: f64,
     /// Energy lost in each stage, J.
     pub stage_loss_j: Vec<f64>,
     /// Energy taken by each load, J.
@@ -62,6 +68,8 @@ impl Ledger {
             energy_j: 0.0,
             ocv_energy_j: 0.0,
             pack_loss_j: 0.0,
+            buffer_loss_j: 0.0,
+            buffer_out_j: 0.0,
             stage_loss_j: vec![0.0; stages],
             load_energy_j: vec![0.0; loads],
             stage_out_j: vec![0.0; stages],
@@ -77,6 +85,10 @@ impl Ledger {
         self.energy_j += p.pack.power() * dt;
         self.ocv_energy_j += p.pack.ocv * p.pack.current * dt;
         self.pack_loss_j += p.pack.loss * dt;
+        if let Some(b) = &p.buffer {
+            self.buffer_loss_j += b.loss * dt;
+            self.buffer_out_j += b.stored_power * dt;
+        }
         for (k, s) in p.stages.iter().enumerate() {
             self.stage_loss_j[k] += s.loss * dt;
             self.stage_out_j[k] += s.vout * s.iout * dt;
@@ -105,6 +117,8 @@ impl Ledger {
         self.energy_j += k * delta.energy_j;
         self.ocv_energy_j += k * delta.ocv_energy_j;
         self.pack_loss_j += k * delta.pack_loss_j;
+        self.buffer_loss_j += k * delta.buffer_loss_j;
+        self.buffer_out_j += k * delta.buffer_out_j;
         for (a, b) in self.stage_loss_j.iter_mut().zip(&delta.stage_loss_j) {
             *a += k * b;
         }

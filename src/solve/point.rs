@@ -129,7 +129,7 @@ impl OperatingPoint {
     pub fn delivered_plus_losses(&self) -> f64 {
         self.loads.iter().map(|l| l.power).sum::<f64>()
             + self.stages.iter().map(|s| s.loss).sum::<f64>()
-            + self.buffer.map_or(0.0, |b| b.loss - b.v_cap * b.current)
+            + self.buffer.map_or(0.0, |b| b.loss - b.stored_power)
     }
 
     /// The voltage and current of the node the tree draws from: the pack's terminals, or the
@@ -167,6 +167,8 @@ pub struct BufferPoint {
     pub current: f64,
     /// Loss: series resistance, leakage and the limiter's drop, W.
     pub loss: f64,
+    /// Power the capacitor gives from its store (negative while it charges), W.
+    pub stored_power: f64,
     /// How the cells feed the node.
     pub regime: BufferRegime,
 }
@@ -390,6 +392,7 @@ fn buffered(p: &mut OperatingPoint, sp: &Split, regime: BufferRegime) {
         node_current: i,
         current: ic,
         loss: sp.rc * ic * ic + v * sp.leak + (vb - v) * ib,
+        stored_power: sp.x * ic,
         regime,
     });
 }

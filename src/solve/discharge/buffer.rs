@@ -37,7 +37,7 @@ enum Region {
 }
 
 impl CapStep {
-    fn rt(&self) -> f64 {
+    pub(super) fn rt(&self) -> f64 {
         self.r + self.b.esr
     }
 
@@ -192,6 +192,34 @@ impl Sim<'_> {
         }
     }
 
+    /// Make the mean point `m` of a step of `dt` that takes the capacitor from its voltage now
+    /// to `x1` hold the step's totals: the cells' mean current `i`, the energy the capacitor
+    /// gave from its store, C (x0^2 - x1^2) / 2, and as the buffer's loss what closes the
+    /// step's energy balance. That loss holds the series resistance, the leakage, the limiter
+    /// and the loss of recharging the capacitor through the cells' resistance (C dV^2 / 2 for
+    /// each recharge by dV, however the resistance; textbook RC charging), which currents
+    /// averaged over the step would miss.
+    pub(super) fn buffer_step(&self, m: &mut OperatingPoint, i: f64, x1: f64, dt: f64) {
+        let Some(c) = self.c.d.pack.buffer.map(|b| b.capacitance) else {
+            return;
+        };
+        m.pack.current = i;
+        m.pack.loss = i * (m.pack.ocv - m.pack.voltage);
+        let tree: f64 = m.loads.iter().map(|l| l.power).sum::<f64>()
+            + m.stages.iter().map(|s| s.loss).sum::<f64>();
+        let stored = if dt > 0.0 {
+            0.5 * c * (self.vb - x1) * (self.vb + x1) / dt
+        } else {
+            0.0
+        };
+        let vb = m.pack.voltage;
+        if let Some(b) = &mut m.buffer {
+            b.current = b.node_current - i;
+            b.stored_power = stored;
+            b.loss = vb * i + stored - tree;
+        }
+    }
+
     /// The capacitor's mean voltage over a step of `dt` from `p` (the voltage now without a
     /// buffer).
     pub(super) fn cap_mean(&self, p: &OperatingPoint, dt: f64) -> f64 {
@@ -203,7 +231,17 @@ impl Sim<'_> {
     /// allowance (infinite without a buffer).
     pub(super) fn cap_step_limit(&self, p: &OperatingPoint, dt: f64) -> f64 {
         self.cap_step(p, dt).map_or(f64::INFINITY, |cs| {
-            let allowed = self.c.max_dvp() * p.node().0.abs();
+            // A move dx of the capacitor moves the cells' current by dx / (R + Rc), and their
+            // terminal voltage, polarization included, by that times R0 + R1.
+            let r_cells =
+                self.c.d.pack.r0(self.soc(), self.ambient()) + self.pol().map_or(0.0, |(r1, _)| r1);
+            let rt = cs.rt();
+            let scale = if r_cells > rt && rt > 0.0 {
+                rt / r_cells
+            } else {
+                1.0
+            };
+            let allowed = self.c.max_dvp() * p.node().0.abs() * scale;
             cs.step_limit(self.vb, dt, allowed)
         })
     }

@@ -1101,12 +1101,7 @@ impl<'a> Sim<'a> {
             // With a buffer the cells' current over the step follows from the capacitor's path.
             let (x1, i) = self.cap_after(&pm, dt);
             if pm.buffer.is_some() {
-                let m = pm.to_mut();
-                if let Some(b) = &mut m.buffer {
-                    b.current = b.node_current - i;
-                }
-                m.pack.current = i;
-                m.pack.loss = i * (m.pack.ocv - m.pack.voltage);
+                self.buffer_step(pm.to_mut(), i, x1, dt);
             }
             let rate = self.rate(i, dt);
             if self.refuse_non_finite(mode, i, rate) {

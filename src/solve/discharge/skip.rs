@@ -13,6 +13,7 @@ use crate::solve::numerics::{SKIP_LINEAR_REL, SKIP_MIN_RUN_PASSES, SKIP_NOISE_RE
 impl<'a> Sim<'a> {
     /// Advance `k` passes of length `pass` at the rates of `delta`.
     pub(super) fn advance(&mut self, k: f64, pass: f64, delta: &Delta) {
+        let ocv_before = self.c.d.pack.ocv(self.soc().max(0.0));
         self.t.add(k * pass);
         self.s.add(-k * delta.ds);
         self.ledger.add_scaled(&delta.ledger, k);
@@ -24,9 +25,12 @@ impl<'a> Sim<'a> {
         if self.c.window.is_some() {
             self.i_seen = lag(self.i_seen, k, delta.seen_ln_decay, delta.seen_offset);
         }
-        // And so is the buffer capacitor's voltage.
+        // And so is the buffer capacitor's voltage, which besides follows the cells' open-circuit
+        // voltage down the stretch: a pass's charge is tiny beside the capacitor's, and starting
+        // one a few millivolts off would move it by C dV.
         if self.c.d.pack.buffer.is_some() {
-            self.vb = lag(self.vb, k, delta.buf_ln_decay, delta.buf_offset);
+            let shift = self.c.d.pack.ocv(self.soc().max(0.0)) - ocv_before;
+            self.vb = lag(self.vb, k, delta.buf_ln_decay, delta.buf_offset) + shift;
         }
     }
 

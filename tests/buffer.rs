@@ -1,0 +1,184 @@
+//! The buffer capacitor across the pack: charge balance, the pulse it takes off the cells, a
+//! limiter draining it, the fast solver against the reference, and bad blocks.
+
+use joulepath::Design;
+use joulepath::solve::{EndReason, RunOptions, RunResult, run};
+
+use crate::util::close;
+
+fn design(text: &str) -> Design {
+    Design::from_text(text).unwrap_or_else(|e| panic!("{e}\n{text}"))
+}
+
+fn fast(d: &Design) -> RunResult {
+    run(d, &RunOptions::for_design(d)).expect("the run gives a result")
+}
+
+fn exact(d: &Design) -> RunResult {
+    run(d, &RunOptions::reference(d)).expect("the reference gives a result")
+}
+
+/// A small coin-like cell (1 mAh, so the reference runs quickly) with a radio pulse of
+/// `pulse` for 5 ms each second and 2 µA between, and `buffer` (a YAML mapping or empty).
+fn pulsed(resistance: &str, pulse: &str, buffer: &str) -> String {
+    let buffer = if buffer.is_empty() {
+        String::new()
+    } else {
+        format!(", buffer: {buffer}")
+    };
+    format!(
+        "cells:
+  c: {{ capacity: 1 mAh, ocv: [[0 %, 2.9 V], [100 %, 3.0 V]], resistance: {resistance}, cutoff: 2.0 V }}
+battery: {{ cell: c{buffer} }}
+loads: [{{ id: radio, rail: battery, draw: {{ tx: {pulse}, sleep: 2 µA }} }}]
+modes: {{ tx: {{ radio: tx }}, sleep: {{ radio: sleep }} }}
+profile:
+  - repeat:
+      - {{ mode: tx, for: 5 ms }}
+      - {{ mode: sleep, for: 995 ms }}
+    for: 1 h
+"
+    )
+}
+
+/// Charge balance (Kirchhoff's current law at the node, over whole cycles the capacitor's charge
+/// returns): the cells' mean current is the load's mean current plus the leakage. Here
+/// 15 mA x 5 ms + 2 µA x 995 ms per second = 76.99 µA, plus 1 µA of leakage; 1 mAh then lasts
+/// 3.6 C / 77.99 µA = 46 160 s.
+#[test]
+fn the_cells_give_the_loads_mean_current_plus_leakage() {
+    let d = design(&pulsed(
+        "20 Ω",
+        "15 mA",
+        "{ capacitance: 1 mF, esr: 0.1 Ω, leakage: 1 µA }",
+    ));
+    let mean = 15e-3 * 0.005 + 2e-6 * 0.995 + 1e-6;
+    for r in [fast(&d), exact(&d)] {
+        assert_eq!(r.end.reason, EndReason::Empty, "{:?}", r.end);
+        let cell_mean = r.ledger.charge_c / r.runtime_s();
+        assert!(close(cell_mean, mean, 1e-3), "{cell_mean} vs {mean}");
+        assert!(close(r.runtime_s(), 3.6 / mean, 1e-3), "{}", r.runtime_s());
+        // Energy: from the cells plus what the capacitor gave = loads + losses (pack and
+        // buffer).
+        let l = &r.ledger;
+        let used = l.load_energy_total() + l.stage_loss_total() + l.pack_loss_j + l.buffer_loss_j;
+        let given = l.ocv_energy_j + l.buffer_out_j;
+        assert!(close(given, used, 1e-3), "{given} J vs {used} J");
+        // The leakage alone takes about 1 µA x 3 V of the energy.
+        assert!(l.buffer_loss_j > 0.9 * 1e-6 * 2.9 * r.runtime_s());
+    }
+}
+
+/// The pulse that stops an unbuffered, high-resistance cell at once (20 mA x 60 Ω = 1.2 V of
+/// sag from 3.0 V, below the 2.0 V cutoff) is taken by a 10 mF capacitor: the cells then see the
+/// mean current and run to empty after Q / I_mean (coulomb counting).
+#[test]
+fn a_buffer_rescues_a_pulse_limited_cell() {
+    let bare = fast(&design(&pulsed("60 Ω", "20 mA", "")));
+    assert_eq!(bare.end.reason, EndReason::Cutoff);
+    assert!(bare.runtime_s() < 1.0, "{}", bare.runtime_s());
+    let buffered = fast(&design(&pulsed(
+        "60 Ω",
+        "20 mA",
+        "{ capacitance: 10 mF, esr: 50 mΩ }",
+    )));
+    let mean = 20e-3 * 0.005 + 2e-6 * 0.995;
+    assert_eq!(buffered.end.reason, EndReason::Empty, "{:?}", buffered.end);
+    assert!(
+        close(buffered.runtime_s(), 3.6 / mean, 2e-3),
+        "{} s vs {} s",
+        buffered.runtime_s(),
+        3.6 / mean
+    );
+}
+
+/// A node that takes more than the limiter lets through drains the capacitor: the cells give the
+/// limit and the capacitor the rest. With the cells at 3.0 V behind 1 Ω, a 1 F capacitor with
+/// no series resistance and a 20 mA load behind a 10 mA limiter: the capacitor first relaxes
+/// from 3.0 V toward 2.98 V (time constant 1 s) until the cells reach the limit at 2.99 V, after
+/// ln 2 s; then it falls at (20 - 10) mA / 1 F = 10 mV/s to the load's 2.0 V minimum, after
+/// 99 s more (hand computation from C dV/dt = I).
+#[test]
+fn a_limiter_lets_the_capacitor_drain_at_the_difference() {
+    let text = "cells:
+  c: { capacity: 100 Ah, ocv: [[0 %, 2.999 V], [100 %, 3.0 V]], resistance: 1 Ω, cutoff: 1.0 V }
+battery: { cell: c, buffer: { capacitance: 1 F, current_limit: 10 mA } }
+loads: [{ id: l, rail: battery, voltage_range: [2.0 V, 3.6 V], draw: { on: 20 mA } }]
+modes: { on: { l: on } }
+profile: [{ mode: on, for: 1 h }]
+";
+    let d = design(text);
+    let want = std::f64::consts::LN_2 + 99.0;
+    for r in [fast(&d), exact(&d)] {
+        assert_eq!(r.end.reason, EndReason::Rail, "{:?}", r.end);
+        assert!(
+            close(r.runtime_s(), want, 2e-3),
+            "{} s vs {want} s",
+            r.runtime_s()
+        );
+        // The cells gave the limit nearly all along.
+        assert!(
+            close(r.ledger.charge_c, 10e-3 * want, 1e-2),
+            "{}",
+            r.ledger.charge_c
+        );
+    }
+}
+
+/// The fast solver against the chronological reference on buffered designs near their limits:
+/// with and without a limiter, with polarization, ending on the pulse's sag.
+#[test]
+fn fast_agrees_with_the_reference_on_buffered_designs() {
+    let cases = [
+        ("30 Ω", "25 mA", "{ capacitance: 470 µF, esr: 0.5 Ω }"),
+        (
+            "30 Ω",
+            "25 mA",
+            "{ capacitance: 2.2 mF, esr: 0.2 Ω, leakage: 0.5 µA, current_limit: 2 mA }",
+        ),
+        ("45 Ω", "30 mA", "{ capacitance: 100 µF, esr: 1 Ω }"),
+    ];
+    for (r, pulse, buffer) in cases {
+        // An open-circuit voltage with a slope, so that the end's place is well conditioned (on
+        // a flat one a millivolt of sag moves it by a large share of the charge).
+        let text = pulsed(r, pulse, buffer)
+            .replace(
+                "cutoff: 2.0 V }",
+                "cutoff: 2.0 V, polarization: { resistance: 8 Ω, time_constant: 4 ms } }",
+            )
+            .replace(
+                "[[0 %, 2.9 V], [100 %, 3.0 V]]",
+                "[[0 %, 2.5 V], [100 %, 3.1 V]]",
+            );
+        let d = design(&text);
+        let (f, e) = (fast(&d), exact(&d));
+        assert_eq!(f.end.reason, e.end.reason, "{buffer}");
+        assert!(
+            close(f.runtime_s(), e.runtime_s(), 2e-3),
+            "{buffer}: fast {} s vs reference {} s",
+            f.runtime_s(),
+            e.runtime_s()
+        );
+    }
+}
+
+#[test]
+fn bad_buffers_are_refused_at_their_place() {
+    let cases = [
+        ("{ capacitance: -1 µF }", "battery.buffer.capacitance"),
+        ("{ capacitance: 5 mA }", "battery.buffer.capacitance"),
+        ("{ capacitance: 1 mF, esr: -1 Ω }", "battery.buffer.esr"),
+        (
+            "{ capacitance: 1 mF, current_limit: 0 mA }",
+            "battery.buffer.current_limit",
+        ),
+        ("{ capacitance: 1 mF, esr_ohm: 1 }", "battery.buffer"),
+        ("{ esr: 1 Ω }", "`capacitance` is missing"),
+    ];
+    for (buffer, path) in cases {
+        let text = pulsed("20 Ω", "10 mA", buffer);
+        let err = Design::from_text(&text).expect_err(buffer);
+        let shown = err.to_string();
+        assert!(shown.contains(path), "{buffer}: {shown}");
+    }
+}
