@@ -129,7 +129,8 @@ fn load_with(path: &Path, sets: &[String]) -> Result<Design, Failure> {
         },
         other => Failure::Input(other.to_string()),
     })?;
-    d.title = with_overrides(&d.title, &overrides);
+    let title = with_overrides(d.title(), &overrides);
+    d.set_title(title);
     Ok(d)
 }
 
@@ -214,7 +215,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
         Command::Check { file } => {
             let d = load(file)?;
             write_outline(&mut buf, &d).map_err(io_fail)?;
-            write_warnings(&mut buf, &warnings(&d, d.ambient_c), 96).map_err(io_fail)?;
+            write_warnings(&mut buf, &warnings(&d, d.ambient_c()), 96).map_err(io_fail)?;
             emit(&buf, None)
         }
         Command::Budget {
@@ -231,7 +232,8 @@ pub fn run(args: &Args) -> Result<(), Failure> {
                 Some(name) => match d.mode_index(name) {
                     Some(m) => vec![m],
                     None => {
-                        let names: Vec<&str> = d.modes.iter().map(|m| m.name.as_str()).collect();
+                        let names: Vec<&str> =
+                            d.modes().iter().map(joulepath::model::Mode::name).collect();
                         let hint = did_you_mean(name, names.iter().copied()).map_or_else(
                             || {
                                 let quoted: Vec<String> =
@@ -246,10 +248,10 @@ pub fn run(args: &Args) -> Result<(), Failure> {
                     }
                 },
             };
-            let soc = soc.unwrap_or(d.pack.start_soc);
+            let soc = soc.unwrap_or(d.pack().start_soc());
             let result = budget(&d, soc, &modes);
             write_budget(&mut buf, &d, soc, &result, format(*f)).map_err(io_fail)?;
-            warn_beside(&d, d.ambient_c, *f);
+            warn_beside(&d, d.ambient_c(), *f);
             emit(&buf, output.as_deref())
         }
         Command::Runtime {
@@ -296,7 +298,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             let d = load_with(file, sets)?;
             let sp = spread_command(d, ra, *samples as usize, *seed, *target, *corners)?;
             write_spread(&mut buf, &sp.0, &sp.1, format(*f)).map_err(io_fail)?;
-            warn_beside(&sp.0, sp.0.ambient_c, *f);
+            warn_beside(&sp.0, sp.0.ambient_c(), *f);
             for (path, bytes) in draw_spread(&sp.0, &sp.1, &to_draw)? {
                 emit(&bytes, Some(&path))?;
             }
@@ -401,7 +403,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             let d = load_with(file, sets)?;
             // A design with tolerances gets a spread section; a spread that cannot run is said
             // in its place rather than failing the report.
-            let sp = (!d.tolerances.is_empty()).then(|| {
+            let sp = (!d.tolerances().is_empty()).then(|| {
                 let (n, t) = (spread.samples as usize, spread.target);
                 spread_command(d.clone(), ra, n, spread.seed, t, false).map_err(|e| e.message())
             });
@@ -430,16 +432,21 @@ fn spread_command(
     corners: bool,
 ) -> Result<(Design, joulepath::spread::Spread), Failure> {
     if let Some(t) = ra.ambient {
-        if d.tolerances
+        if d.tolerances()
             .iter()
-            .any(|t| t.knob == joulepath::model::Knob::Ambient)
+            .any(|t| *t.knob() == joulepath::model::Knob::Ambient)
         {
             return Err(Failure::Usage(
                 "the ambient varies in the design's `tolerances:`, so `--ambient` cannot fix it; move its centre with `--set ambient=...` instead".into(),
             ));
         }
-        d.ambient_c = t;
-        d.climate = None;
+        d.set_ambient(t).map_err(|r| {
+            Failure::Usage(format!(
+                "--ambient must lie between {} and {} °C",
+                r.lo(),
+                r.hi()
+            ))
+        })?;
     }
     let opts = joulepath::spread::SpreadOptions {
         samples,

@@ -139,7 +139,12 @@ fn write_table(w: &mut dyn Write, d: &Design, soc: f64, modes: &[ModeBudget]) ->
             writeln!(w)?;
             writeln!(w, "  violations:")?;
             for v in &m.violations {
-                writeln!(w, "  - {}: {}", v.kind.name(), v.detail)?;
+                writeln!(
+                    w,
+                    "  - {}: {}",
+                    v.kind.name(),
+                    super::violation_detail(d, v)
+                )?;
             }
         }
     }

@@ -382,7 +382,7 @@ fn violations_section(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Resul
                     format!("<code>{}</code>", esc(&v.subject)),
                     format!("<code>{}</code>", esc(&v.mode)),
                     v.t_s.map_or_else(|| "—".into(), |t| esc(&fmt_duration(t))),
-                    prose(&v.detail),
+                    prose(&super::violation_detail(d, v)),
                 ]
             })
             .collect();
@@ -397,7 +397,6 @@ fn violations_section(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Resul
             &rows,
         )?;
     }
-    let _ = d;
     writeln!(w, "</section>")
 }
 
@@ -509,7 +508,7 @@ fn budget_section(w: &mut dyn Write, d: &Design, modes: &[ModeBudget], soc: f64)
                 w,
                 "<p class=\"alert\">{}: {}</p>",
                 esc(v.kind.name()),
-                prose(&v.detail)
+                prose(&super::violation_detail(d, v))
             )?;
         }
     }

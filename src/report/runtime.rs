@@ -194,7 +194,7 @@ fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult, trace: bool) -> io:
                 v.kind.name(),
                 fmt_duration(v.t_s.unwrap_or(0.0)),
                 v.mode,
-                v.detail
+                super::violation_detail(d, v)
             )?;
         }
     }
@@ -427,60 +427,58 @@ impl CsvRow for RuntimeCsvRow {
     ];
 }
 
-/// The rows of `runtime --format csv`: the run, the pack, each stage, each load.
+/// The rows of `runtime --format csv`: the run, the pack, each stage, each load, taken from
+/// the JSON form of the run (one computation for both outputs).
 pub fn runtime_csv_rows(d: &Design, r: &RunResult) -> Vec<RuntimeCsvRow> {
-    let t = r.runtime_s();
-    let l = &r.ledger;
-    let per_s = |j: f64| if t > 0.0 { j / t } else { 0.0 };
+    let j = super::json::RuntimeJson::new(d, r, false);
     let mut rows = vec![
         RuntimeCsvRow {
             element: "run",
-            runtime_s: Some(t),
-            ideal_runtime_s: r.ideal_runtime_s(),
+            runtime_s: Some(j.runtime_s),
+            ideal_runtime_s: j.ideal_runtime_s,
             end_reason: Some(r.end.reason.name()),
-            end_soc: Some(r.end.soc),
-            end_mode: r.end.mode.map(|m| d.modes[m].name.clone()),
-            end_subject: Some(r.end.subject.clone()),
+            end_soc: Some(j.end.soc),
+            end_mode: j.end.mode,
+            end_subject: Some(j.end.subject),
             ..RuntimeCsvRow::default()
         },
         RuntimeCsvRow {
             element: "battery",
             id: "battery".into(),
-            charge_ah: Some(l.charge_c / 3600.0),
-            energy_wh: Some(l.terminal_energy_j() / 3600.0),
-            cell_energy_wh: Some(l.cell_energy_j() / 3600.0),
-            loss_wh: Some(l.pack_loss_j / 3600.0),
-            average_loss_w: Some(per_s(l.pack_loss_j)),
+            charge_ah: Some(j.battery.charge_ah),
+            energy_wh: Some(j.battery.energy_wh),
+            cell_energy_wh: Some(j.battery.cell_energy_wh),
+            loss_wh: Some(j.battery.loss_wh),
+            average_loss_w: Some(if j.runtime_s > 0.0 {
+                r.ledger.pack_loss_j / j.runtime_s
+            } else {
+                0.0
+            }),
             ..RuntimeCsvRow::default()
         },
     ];
-    for (k, s) in d.stages.iter().enumerate() {
-        let p = r.peaks[k];
-        rows.push(RuntimeCsvRow {
-            element: "stage",
-            id: s.id.clone(),
-            loss_wh: Some(l.stage_loss_j[k] / 3600.0),
-            average_loss_w: Some(per_s(l.stage_loss_j[k])),
-            peak_loss_w: Some(p.loss_w),
-            peak_mode: p.mode.map(|m| d.modes[m].name.clone()),
-            max_junction_c: junction_c(d, k, p.loss_w, r.hottest_c()),
-            on_s: Some(l.stage_on_s(k)),
-            dropout_s: Some(l.stage_time_s(k, StageState::Dropout)),
-            bypass_s: Some(l.stage_time_s(k, StageState::Bypass)),
-            undervoltage_s: Some(l.stage_time_s(k, StageState::Undervoltage)),
-            ..RuntimeCsvRow::default()
-        });
-    }
-    for (k, load) in d.loads.iter().enumerate() {
-        rows.push(RuntimeCsvRow {
-            element: "load",
-            id: load.id.clone(),
-            energy_wh: Some(l.load_energy_j[k] / 3600.0),
-            on_s: Some(l.load_on_s[k]),
-            above_max_s: Some(l.load_high_s[k]),
-            ..RuntimeCsvRow::default()
-        });
-    }
+    rows.extend(j.stages.into_iter().map(|s| RuntimeCsvRow {
+        element: "stage",
+        id: s.id,
+        loss_wh: Some(s.loss_wh),
+        average_loss_w: Some(s.average_loss_w),
+        peak_loss_w: Some(s.peak_loss_w),
+        peak_mode: s.peak_mode,
+        max_junction_c: s.max_junction_c,
+        on_s: Some(s.on_s),
+        dropout_s: Some(s.dropout_s),
+        bypass_s: Some(s.bypass_s),
+        undervoltage_s: Some(s.undervoltage_s),
+        ..RuntimeCsvRow::default()
+    }));
+    rows.extend(j.loads.into_iter().map(|l| RuntimeCsvRow {
+        element: "load",
+        id: l.id,
+        energy_wh: Some(l.energy_wh),
+        on_s: Some(l.on_s),
+        above_max_s: Some(l.above_max_s),
+        ..RuntimeCsvRow::default()
+    }));
     rows
 }
 
