@@ -9,7 +9,7 @@ use super::rows::{CsvRow, write_rows};
 use super::text::{Align, TextTable};
 use super::{Format, caution_for, warnings, wrap, write_warnings};
 use crate::model::Design;
-use crate::solve::{EndReason, RunResult, StageState, junction_c};
+use crate::solve::{EndReason, RunResult, StageState};
 use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent};
 
 /// Least share of its on-time a stage spends out of regulation, or a load above its maximum
@@ -116,7 +116,6 @@ fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult, trace: bool) -> io:
             writeln!(w, "{line}")?;
         }
     }
-    let l = &r.ledger;
     writeln!(w)?;
     for sentence in energy_sentences(r) {
         for line in wrap(&sentence, 96) {
@@ -124,55 +123,12 @@ fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult, trace: bool) -> io:
         }
     }
     if !d.loads.is_empty() {
-        let total = l.load_energy_total();
-        let mut tl = TextTable::new(&[
-            ("load", Align::Left),
-            ("energy", Align::Right),
-            ("share", Align::Right),
-            ("average", Align::Right),
-        ]);
-        for (k, load) in d.loads.iter().enumerate() {
-            let e = l.load_energy_j[k];
-            tl.row(vec![
-                load.id.clone(),
-                fmt_eng(e / 3600.0, "Wh"),
-                if total > 0.0 {
-                    fmt_percent(e / total)
-                } else {
-                    "—".into()
-                },
-                fmt_eng(if t > 0.0 { e / t } else { 0.0 }, "W"),
-            ]);
-        }
         writeln!(w)?;
-        tl.write(w, "  ")?;
+        load_table(d, r).write(w, "  ")?;
     }
     if !d.stages.is_empty() {
-        let mut ts = TextTable::new(&[
-            ("stage", Align::Left),
-            ("loss", Align::Right),
-            ("average", Align::Right),
-            ("peak", Align::Right),
-            ("in mode", Align::Left),
-            ("Tj max", Align::Right),
-            ("limit", Align::Right),
-        ]);
-        for (k, s) in d.stages.iter().enumerate() {
-            let peak = r.peaks[k];
-            ts.row(vec![
-                s.id.clone(),
-                fmt_eng(l.stage_loss_j[k] / 3600.0, "Wh"),
-                fmt_eng(if t > 0.0 { l.stage_loss_j[k] / t } else { 0.0 }, "W"),
-                fmt_eng(peak.loss_w, "W"),
-                peak.mode
-                    .map_or_else(|| "—".into(), |m| d.modes[m].name.clone()),
-                junction_c(d, k, peak.loss_w, r.hottest_c())
-                    .map_or_else(|| "—".into(), fmt_celsius),
-                fmt_celsius(s.tj_max),
-            ]);
-        }
         writeln!(w)?;
-        ts.write(w, "  ")?;
+        stage_table(d, r).write(w, "  ")?;
     }
     let facts = regulation_facts(d, r);
     if !facts.is_empty() {
@@ -210,6 +166,59 @@ fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult, trace: bool) -> io:
         writeln!(w, "{line}")?;
     }
     Ok(())
+}
+
+/// The loads' energy over the run: each load's total, share and mean power.
+fn load_table(d: &Design, r: &RunResult) -> TextTable {
+    let (t, l) = (r.runtime_s(), &r.ledger);
+    let total = l.load_energy_total();
+    let mut tl = TextTable::new(&[
+        ("load", Align::Left),
+        ("energy", Align::Right),
+        ("share", Align::Right),
+        ("average", Align::Right),
+    ]);
+    for (k, load) in d.loads.iter().enumerate() {
+        let e = l.load_energy_j[k];
+        tl.row(vec![
+            load.id.clone(),
+            fmt_eng(e / 3600.0, "Wh"),
+            if total > 0.0 {
+                fmt_percent(e / total)
+            } else {
+                "—".into()
+            },
+            fmt_eng(if t > 0.0 { e / t } else { 0.0 }, "W"),
+        ]);
+    }
+    tl
+}
+
+/// The stages' losses over the run, from the rows of the JSON form, with each stage's
+/// junction limit.
+fn stage_table(d: &Design, r: &RunResult) -> TextTable {
+    let mut ts = TextTable::new(&[
+        ("stage", Align::Left),
+        ("loss", Align::Right),
+        ("average", Align::Right),
+        ("peak", Align::Right),
+        ("in mode", Align::Left),
+        ("Tj max", Align::Right),
+        ("limit", Align::Right),
+    ]);
+    let rows = super::json::RuntimeJson::new(d, r, false).stages;
+    for (s, row) in d.stages.iter().zip(rows) {
+        ts.row(vec![
+            row.id,
+            fmt_eng(row.loss_wh, "Wh"),
+            fmt_eng(row.average_loss_w, "W"),
+            fmt_eng(row.peak_loss_w, "W"),
+            row.peak_mode.unwrap_or_else(|| "—".into()),
+            row.max_junction_c.map_or_else(|| "—".into(), fmt_celsius),
+            fmt_celsius(s.tj_max),
+        ]);
+    }
+    ts
 }
 
 /// Where the energy went, in the names every report uses: the energy from the cells (open-circuit
