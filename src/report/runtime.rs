@@ -83,39 +83,7 @@ pub fn end_sentence(d: &Design, r: &RunResult) -> String {
 }
 
 fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult, trace: bool) -> io::Result<()> {
-    let t = r.runtime_s();
-    writeln!(w, "{}", d.title)?;
-    match r.ambient_range_c {
-        Some((lo, hi)) => writeln!(
-            w,
-            "runtime {} at {} to {} ambient (mean {})",
-            fmt_duration(t),
-            fmt_celsius(lo),
-            fmt_celsius(hi),
-            fmt_celsius(r.ambient_c)
-        )?,
-        None => writeln!(
-            w,
-            "runtime {} at {} ambient",
-            fmt_duration(t),
-            fmt_celsius(r.ambient_c)
-        )?,
-    }
-    for line in wrap(&format!("it stops because {}.", end_sentence(d, r)), 96) {
-        writeln!(w, "{line}")?;
-    }
-    if let Some(ideal) = r.ideal_runtime_s() {
-        for line in wrap(
-            &format!(
-                "ideal runtime {} (the stored energy at the loads' mean power): {} of the stored energy reached the loads",
-                fmt_duration(ideal),
-                fmt_percent(t / ideal)
-            ),
-            96,
-        ) {
-            writeln!(w, "{line}")?;
-        }
-    }
+    write_headline(w, d, r)?;
     writeln!(w)?;
     for sentence in energy_sentences(r) {
         for line in wrap(&sentence, 96) {
@@ -164,6 +132,44 @@ fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult, trace: bool) -> io:
     write_warnings(w, &warnings(d, r.ambient_c), 96)?;
     for line in wrap(&caution_for([d]), 96) {
         writeln!(w, "{line}")?;
+    }
+    Ok(())
+}
+
+/// The title, the runtime and its ambient, why it stops and the ideal runtime.
+fn write_headline(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<()> {
+    let t = r.runtime_s();
+    writeln!(w, "{}", d.title)?;
+    match r.ambient_range_c {
+        Some((lo, hi)) => writeln!(
+            w,
+            "runtime {} at {} to {} ambient (mean {})",
+            fmt_duration(t),
+            fmt_celsius(lo),
+            fmt_celsius(hi),
+            fmt_celsius(r.ambient_c)
+        )?,
+        None => writeln!(
+            w,
+            "runtime {} at {} ambient",
+            fmt_duration(t),
+            fmt_celsius(r.ambient_c)
+        )?,
+    }
+    for line in wrap(&format!("it stops because {}.", end_sentence(d, r)), 96) {
+        writeln!(w, "{line}")?;
+    }
+    if let Some(ideal) = r.ideal_runtime_s() {
+        for line in wrap(
+            &format!(
+                "ideal runtime {} (the stored energy at the loads' mean power): {} of the stored energy reached the loads",
+                fmt_duration(ideal),
+                fmt_percent(t / ideal)
+            ),
+            96,
+        ) {
+            writeln!(w, "{line}")?;
+        }
     }
     Ok(())
 }
