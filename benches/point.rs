@@ -112,8 +112,8 @@ fn measure(n: usize) -> Row {
     let text = generate(n);
     let design = Design::from_text(&text)
         .unwrap_or_else(|e| panic!("generated design (N = {n}) is invalid: {e:?}"));
-    assert_eq!(design.stages.len(), n);
-    assert_eq!(design.loads.len(), 10 * n);
+    assert_eq!(design.stages().len(), n);
+    assert_eq!(design.loads().len(), 10 * n);
 
     // Read + check + build: repetitions scaled so each size takes a few seconds at most.
     let reps = match n {
@@ -123,17 +123,17 @@ fn measure(n: usize) -> Row {
     };
     let parse = median_time(reps, || {
         let d = Design::from_text(black_box(&text)).expect("valid");
-        black_box(d.stages.len());
+        black_box(d.stages().len());
     });
 
     // One operating point per mode, checked for energy balance every time.
     let mut points = Vec::new();
     let mut mode_names = Vec::new();
     let mut states = String::new();
-    for (m, mode) in design.modes.iter().enumerate() {
-        mode_names.push(mode.name.clone());
+    for (m, mode) in design.modes().iter().enumerate() {
+        mode_names.push(mode.name().to_string());
         let p = solved(&design, m);
-        if mode.name == "active" {
+        if mode.name() == "active" {
             states = state_summary(&p);
         }
         let reps = if n >= 3000 { 7 } else { 15 };
@@ -146,7 +146,7 @@ fn measure(n: usize) -> Row {
     let mem = memory_in_child(n);
     let row = Row {
         n,
-        loads: design.loads.len(),
+        loads: design.loads().len(),
         text_bytes: text.len(),
         parse,
         mode_names,
@@ -176,13 +176,13 @@ fn solved(design: &Design, m: usize) -> OperatingPoint {
             assert!(
                 rel <= BALANCE_REL,
                 "energy balance off in mode {}: V I = {supplied} W, loads + losses = {used} W (rel {rel:e})",
-                design.modes[m].name
+                design.modes()[m].name()
             );
             p
         }
         Solution::Collapse { ocv, resistance } => panic!(
             "mode {} collapsed (OCV {ocv} V, R {resistance} Ω): the generated design is sized wrong",
-            design.modes[m].name
+            design.modes()[m].name()
         ),
     }
 }
@@ -259,7 +259,7 @@ fn memory_child(n: usize) {
     let (small, _) = in_fresh_arena(&mut keep, || {
         Design::from_text(&generate(20)).expect("valid")
     });
-    for m in 0..small.modes.len() {
+    for m in 0..small.modes().len() {
         black_box(solve_point(&small, m, AT));
     }
     let t = Arc::clone(&text);
@@ -267,7 +267,7 @@ fn memory_child(n: usize) {
         in_fresh_arena(&mut keep, move || Design::from_text(&t).expect("valid"));
     let design = Arc::new(design);
     let mut point_peak = 0;
-    for m in 0..design.modes.len() {
+    for m in 0..design.modes().len() {
         let d = Arc::clone(&design);
         let ((), peak) = in_fresh_arena(&mut keep, move || {
             black_box(solve_point(&d, m, AT));

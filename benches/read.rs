@@ -142,7 +142,7 @@ fn time_both(text: &str, dir: &std::path::Path, reps: usize) -> (Times, Times) {
     });
     let full = median_time(reps, || {
         let d = Design::from_text_in(black_box(text), &[], dir).expect("valid");
-        black_box(d.stages.len());
+        black_box(d.stages().len());
     });
     (yaml, full)
 }

@@ -38,7 +38,7 @@ fn main() {
             .map(|s| s.to_string_lossy().into_owned())
             .unwrap_or_default();
         let d = Design::from_file(f).expect("valid example");
-        if d.tolerances.is_empty() {
+        if d.tolerances().is_empty() {
             println!("{name:<20} no tolerances: skipped");
             continue;
         }
@@ -48,7 +48,7 @@ fn main() {
         let s = spread(&d, &o).expect("spread");
         let secs = t.elapsed().as_secs_f64();
         // Swings run two more solves per varied value, and the design as written one.
-        let solves = samples + 2 * d.tolerances.len() + 1;
+        let solves = samples + 2 * d.tolerances().len() + 1;
         let per_core = solves as f64 / secs / cores as f64;
         let scaled = secs * SAMPLES as f64 / samples as f64;
         let ok = scaled < TARGET_S;

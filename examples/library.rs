@@ -13,7 +13,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let run = joulepath::run_text(&text)?;
     println!(
         "{}: runs {}, ends by {}",
-        run.design.title,
+        run.design.title(),
         fmt_duration(run.result.runtime_s()),
         run.result.end.reason.name()
     );

@@ -86,25 +86,25 @@ fn segments_keep_the_captures_charge() {
     let dir = root().join("examples");
     let d = Design::from_file(&dir.join("beacon-capture.yaml")).unwrap();
     let cap = read_capture_file(&dir.join("captures/advert.csv"), false).unwrap();
-    let load = &d.loads[0];
-    let c = &load.captured[0];
+    let load = &d.loads()[0];
+    let c = &load.captured()[0];
     let q: f64 = c
-        .segments
+        .segments()
         .iter()
-        .map(|&(s, k)| match load.states[k].1 {
+        .map(|&(s, k)| match load.states()[k].1 {
             joulepath::model::Draw::Current(i) => i * s,
             other => panic!("{other:?}"),
         })
         .sum();
     assert!(close(q, cap.charge_c(), 1e-9), "{q} vs {}", cap.charge_c());
-    assert!(close(c.duration_s, 6e-3, 1e-12), "{}", c.duration_s);
+    assert!(close(c.duration_s(), 6e-3, 1e-12), "{}", c.duration_s());
     assert!(
-        c.bound_v <= c.tolerance_v,
+        c.bound_v() <= c.tolerance_v(),
         "{} > {}",
-        c.bound_v,
-        c.tolerance_v
+        c.bound_v(),
+        c.tolerance_v()
     );
-    assert!(c.segments.len() < 100, "{} segments", c.segments.len());
+    assert!(c.segments().len() < 100, "{} segments", c.segments().len());
     // And the run draws it: 50 captures back to back (nothing else) give 50 times its charge.
     let t = tempfile::tempdir().unwrap();
     std::fs::copy(dir.join("captures/advert.csv"), t.path().join("a.csv")).unwrap();
@@ -146,7 +146,7 @@ fn a_square_wave_capture_runs_as_its_two_mode_profile() {
             "[{ mode: run, for: 1 h }]",
         ),
     );
-    assert_eq!(captured.loads[0].captured[0].segments.len(), 2);
+    assert_eq!(captured.loads()[0].captured()[0].segments().len(), 2);
     let modes = in_dir(
         t.path(),
         &design_text(
@@ -217,13 +217,13 @@ fn a_compressed_pulse_train_keeps_the_lowest_voltage_within_its_tolerance() {
     let raw = with("0 mV");
     let packed = with("5 mV");
     let (n_raw, n_packed) = (
-        raw.loads[0].captured[0].segments.len(),
-        packed.loads[0].captured[0].segments.len(),
+        raw.loads()[0].captured()[0].segments().len(),
+        packed.loads()[0].captured()[0].segments().len(),
     );
     // (Far from the pulses the samples print equal, 10 µA, and merge exactly.)
     assert!(n_raw >= 900, "{n_raw} segments without a tolerance");
     assert!(n_packed < 60, "{n_packed} segments within 5 mV");
-    let bound = packed.loads[0].captured[0].bound_v;
+    let bound = packed.loads()[0].captured()[0].bound_v();
     assert!(bound <= 5e-3, "{bound}");
     // Ten pulses of the chronological reference.
     let (v_raw, v_packed) = (lowest_voltage(&raw, 0.5), lowest_voltage(&packed, 0.5));
@@ -443,8 +443,8 @@ fn two_captured_loads_in_one_mode_share_their_segments_boundaries() {
         "[{ mode: m, for: 5 ms }]",
     );
     let d = in_dir(t.path(), &text);
-    let joulepath::model::Step::Repeat { steps, until } = &d.profile[0] else {
-        panic!("{:?}", d.profile[0]);
+    let joulepath::model::Step::Repeat { steps, until } = &d.profile()[0] else {
+        panic!("{:?}", d.profile()[0]);
     };
     assert_eq!(*until, joulepath::model::RepeatUntil::Seconds(5e-3));
     // Boundaries at 0.5 ms (k starts) and 1 ms (l stops): three pieces.
@@ -516,15 +516,15 @@ fn capture_command_summarizes_and_draws() {
         "cells:\n  c: {{ capacity: 10 mAh, ocv: [[0 %, 3.0 V], [100 %, 4.0 V]], resistance: 1 ohm, cutoff: 3.0 V }}\nbattery: {{ cell: c }}\n{suggested}"
     );
     let d = Design::from_text(&text).unwrap_or_else(|e| panic!("{e}\n{text}"));
-    let joulepath::model::Step::Repeat { steps, .. } = &d.profile[0] else {
+    let joulepath::model::Step::Repeat { steps, .. } = &d.profile()[0] else {
         panic!("{text}");
     };
     let q: f64 = steps
         .iter()
         .map(|s| match s {
             joulepath::model::Step::Hold { mode, seconds } => {
-                let st = d.modes[*mode].load_states[0].unwrap();
-                match d.loads[0].states[st].1 {
+                let st = d.modes()[*mode].load_states()[0].unwrap();
+                match d.loads()[0].states()[st].1 {
                     joulepath::model::Draw::Current(i) => i * seconds,
                     other => panic!("{other:?}"),
                 }

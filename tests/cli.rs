@@ -451,7 +451,7 @@ fn fit_cell_prints_a_cell_the_checker_accepts() {
         "{yaml}\nbattery: {{ cell: pouch-fit }}\nloads: [{{ id: l, rail: battery, draw: {{ on: 120 mA }} }}]\nmodes: {{ on: {{ l: on }} }}\nprofile: [{{ mode: on, for: 1 h }}]\n"
     );
     let d = joulepath::Design::from_text(&design).unwrap_or_else(|e| panic!("{e}\n{design}"));
-    assert_eq!(d.pack.cell.name, "pouch-fit");
+    assert_eq!(d.pack().cell().name(), "pouch-fit");
     let v = Test::new()
         .args(&[
             "fit-cell", "--curve", &low, "--curve", &high, "--format", "json",

@@ -574,8 +574,8 @@ fn exercise(text: &str) {
     let Ok(design) = Design::from_text(text) else {
         return;
     };
-    let modes: Vec<usize> = (0..design.modes.len()).collect();
-    let soc = design.pack.start_soc;
+    let modes: Vec<usize> = (0..design.modes().len()).collect();
+    let soc = design.pack().start_soc();
     let result = joulepath::solve::budget(&design, soc, &modes);
     assert_eq!(result.len(), modes.len());
     let mut sink = Vec::new();
@@ -700,7 +700,7 @@ proptest! {
 #[test]
 fn the_base_design_is_valid() {
     let d = Design::from_text(BASE).expect("the mutation base must be valid");
-    assert_eq!(d.modes.len(), 3);
+    assert_eq!(d.modes().len(), 3);
     exercise(BASE);
 }
 

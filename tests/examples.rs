@@ -81,11 +81,11 @@ fn point(d: &Design, mode_name: &str, soc: f64) -> OperatingPoint {
         PackState {
             soc,
             v_pol: None,
-            ambient_c: d.ambient_c,
+            ambient_c: d.ambient_c(),
         },
     ) {
         Solution::Point(p) => p,
-        Solution::Collapse { .. } => panic!("`{}` collapses in `{mode_name}` at {soc}", d.title),
+        Solution::Collapse { .. } => panic!("`{}` collapses in `{mode_name}` at {soc}", d.title()),
     }
 }
 
@@ -109,13 +109,13 @@ fn every_example_checks_and_prints_its_tree() {
         let d = design(&f);
         let out = Test::example(&f).args(&["check", "{file}"]).expect_code(0);
         for id in d
-            .stages
+            .stages()
             .iter()
-            .map(|s| &s.id)
-            .chain(d.loads.iter().map(|l| &l.id))
+            .map(joulepath::model::Stage::id)
+            .chain(d.loads().iter().map(joulepath::model::Load::id))
         {
             assert!(
-                out.stdout.contains(id.as_str()),
+                out.stdout.contains(id),
                 "{}: `{id}` not in\n{}",
                 f.display(),
                 out.stdout
@@ -166,15 +166,15 @@ fn every_example_budget_balances_energy_in_every_mode() {
 fn every_example_balances_energy_across_the_discharge() {
     for f in example_files() {
         let d = design(&f);
-        for m in &d.modes {
+        for m in d.modes() {
             for soc in SOCS {
-                let p = point(&d, &m.name, soc);
+                let p = point(&d, m.name(), soc);
                 let (a, b) = (p.pack.power(), p.delivered_plus_losses());
                 assert!(
                     close(a, b, 1e-9),
                     "{} `{}` at {soc}: V x I = {a} W, loads + losses = {b} W",
                     f.display(),
-                    m.name
+                    m.name()
                 );
             }
         }

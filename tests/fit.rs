@@ -231,22 +231,22 @@ fn yaml_is_accepted_by_the_checker_and_keeps_the_values() {
         "{yaml}"
     );
     let d = design(&yaml, "pouch-fit", "120 mA");
-    let cell = &d.pack.cell;
+    let cell = &d.pack().cell();
     for n in 0..=10 {
         let s = f64::from(n) / 10.0;
         assert!(
-            (d.pack.ocv(s) - lerp(&t.ocv, s)).abs() <= 5e-4,
+            (d.pack().ocv(s) - lerp(&t.ocv, s)).abs() <= 5e-4,
             "OCV at {s}"
         );
         if n > 0 {
-            assert!(close(d.pack.r0(s, 25.0), lerp(&t.r, s), 0.01), "R at {s}");
+            assert!(close(d.pack().r0(s, 25.0), lerp(&t.r, s), 0.01), "R at {s}");
         }
     }
-    assert!(close(cell.capacity_c, 600.0 * 3.6, 1e-3));
-    assert!(close(cell.peukert, 1.08, 1e-9));
+    assert!(close(cell.capacity_c(), 600.0 * 3.6, 1e-3));
+    assert!(close(cell.peukert(), 1.08, 1e-9));
     // A name that is not a plain word is quoted.
     let d = design(&cell_yaml(&f, "18650 no.2"), "\"18650 no.2\"", "120 mA");
-    assert_eq!(d.pack.cell.name, "18650 no.2");
+    assert_eq!(d.pack().cell().name(), "18650 no.2");
 }
 
 #[test]

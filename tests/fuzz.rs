@@ -449,9 +449,9 @@ fn exercise(text: &str) -> Outcome {
     };
     let mut sink: Vec<u8> = Vec::new();
     write_outline(&mut sink, &d).expect("outline into a buffer");
-    write_warnings(&mut sink, &warnings(&d, d.ambient_c), 96).expect("warnings into a buffer");
-    let modes: Vec<usize> = (0..d.modes.len()).collect();
-    for soc in [d.pack.start_soc, 0.0, 1.0] {
+    write_warnings(&mut sink, &warnings(&d, d.ambient_c()), 96).expect("warnings into a buffer");
+    let modes: Vec<usize> = (0..d.modes().len()).collect();
+    for soc in [d.pack().start_soc(), 0.0, 1.0] {
         let b = budget(&d, soc, &modes);
         for f in [Format::Table, Format::Json, Format::Csv] {
             write_budget(&mut sink, &d, soc, &b, f).expect("budget into a buffer");

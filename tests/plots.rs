@@ -35,8 +35,8 @@ fn traced(d: &Design) -> RunResult {
 }
 
 fn start_budget(d: &Design) -> Vec<ModeBudget> {
-    let all: Vec<usize> = (0..d.modes.len()).collect();
-    budget(d, d.pack.start_soc, &all)
+    let all: Vec<usize> = (0..d.modes().len()).collect();
+    budget(d, d.pack().start_soc(), &all)
 }
 
 /// Write `bytes` to `JOULEPATH_PLOT_DIR/name` when that variable is set.
@@ -99,7 +99,7 @@ fn discharge_svg_names_axes_cutoff_and_end() {
         "lowest terminal voltage",
         "cutoff: under load below 2.00 V",
         "in `advertise`",
-        d.title.as_str(),
+        d.title(),
     ] {
         assert!(has(&t, want), "no `{want}` in the SVG texts {t:?}");
     }
@@ -316,8 +316,8 @@ fn compare_plot_names_designs_by_title_and_by_file_only_when_titles_repeat() {
     )
     .expect("compare SVG");
     let t = svg_texts(&svg);
-    assert!(has(&t, &format!("A: {}", a.title)), "{t:?}");
-    assert!(has(&t, &format!("B: {}", b.title)), "{t:?}");
+    assert!(has(&t, &format!("A: {}", a.title())), "{t:?}");
+    assert!(has(&t, &format!("B: {}", b.title())), "{t:?}");
     assert!(!has(&t, "/some/long/directory"), "{t:?}");
     // The same title twice: letters and titles, and the legend says which file is which.
     let svg = compare_discharge(
@@ -328,8 +328,8 @@ fn compare_plot_names_designs_by_title_and_by_file_only_when_titles_repeat() {
     .expect("compare SVG");
     keep("repeated-titles-compare.svg", &svg);
     let t = svg_texts(&svg);
-    assert!(has(&t, &format!("A: {} ({pa})", a.title)), "{t:?}");
-    assert!(has(&t, &format!("B: {} (copy.yaml)", a.title)), "{t:?}");
+    assert!(has(&t, &format!("A: {} ({pa})", a.title())), "{t:?}");
+    assert!(has(&t, &format!("B: {} (copy.yaml)", a.title())), "{t:?}");
 }
 
 #[test]
@@ -394,7 +394,7 @@ fn no_picture_is_clipped_at_its_edges() {
                 ("discharge", discharge(&d, &r, PlotFormat::Png, size)),
                 ("losses", losses(&d, &r, PlotFormat::Png, size)),
             ];
-            if d.stages.iter().any(|s| s.kind.is_switching()) {
+            if d.stages().iter().any(|s| s.kind().is_switching()) {
                 let e = efficiency(&d, &start_budget(&d), Some(&r), PlotFormat::Png, size);
                 pictures.push(("efficiency", e));
             }
@@ -420,7 +420,7 @@ fn every_example_draws_every_picture_as_png_of_the_asked_size() {
             ("discharge", discharge(&d, &r, PlotFormat::Png, size)),
             ("losses", losses(&d, &r, PlotFormat::Png, size)),
         ];
-        if d.stages.iter().any(|s| s.kind.is_switching()) {
+        if d.stages().iter().any(|s| s.kind().is_switching()) {
             let e = efficiency(&d, &start_budget(&d), Some(&r), PlotFormat::Png, size);
             pictures.push(("efficiency", e));
         }
@@ -475,7 +475,7 @@ fn html_report_is_self_contained() {
     let r = traced(&d);
     let b = start_budget(&d);
     let mut out = Vec::new();
-    write_html(&mut out, &d, &b, d.pack.start_soc, &r).expect("html");
+    write_html(&mut out, &d, &b, d.pack().start_soc(), &r).expect("html");
     keep("meter-report.html", &out);
     let html = String::from_utf8(out).expect("UTF-8");
     assert!(html.starts_with("<!DOCTYPE html>"));
@@ -495,11 +495,11 @@ fn html_report_is_self_contained() {
     assert!(!html.contains("<script"));
     assert!(!html.contains("<link"));
     // Every mode's budget and the heat ranking.
-    for m in &d.modes {
+    for m in d.modes() {
         assert!(
-            html.contains(&format!("<h3>Mode <code>{}</code>", m.name)),
+            html.contains(&format!("<h3>Mode <code>{}</code>", m.name())),
             "{}",
-            m.name
+            m.name()
         );
     }
     assert!(html.contains("ldo-1v8"));
@@ -679,7 +679,7 @@ fn tornado_has_one_bar_per_tolerance_in_swing_order() {
     keep("soil-tornado.svg", &svg);
     let labels = svg_labels(&svg);
     let t: Vec<String> = labels.iter().map(|l| l.0.clone()).collect();
-    assert_eq!(sp.swings.len(), d.tolerances.len());
+    assert_eq!(sp.swings.len(), d.tolerances().len());
     // Largest swing first: the reporting interval, on top.
     assert_eq!(sp.swings[0].path, "profile[0].repeat[3].for");
     let mut last_y = f64::NEG_INFINITY;
@@ -688,7 +688,7 @@ fn tornado_has_one_bar_per_tolerance_in_swing_order() {
         assert_eq!(rows.len(), 1, "`{}` labels: {rows:?}", x.path);
         assert!(rows[0].2 > last_y, "`{}` out of swing order", x.path);
         last_y = rows[0].2;
-        let k = &sp.tolerances[x.tolerance].knob;
+        let k = &sp.tolerances[x.tolerance].knob();
         let bounds = format!(
             "low {} · high {}",
             fmt_value(d, k, x.bounds.0),
@@ -771,7 +771,7 @@ fn html_report_has_a_spread_section_only_with_a_spread() {
     let r = traced(d);
     let b = start_budget(d);
     let mut with = Vec::new();
-    write_html_with_spread(&mut with, d, &b, d.pack.start_soc, &r, Some(Ok(sp))).expect("html");
+    write_html_with_spread(&mut with, d, &b, d.pack().start_soc(), &r, Some(Ok(sp))).expect("html");
     keep("soil-report.html", &with);
     let html = String::from_utf8(with).expect("UTF-8");
     assert!(html.contains("<section id=\"spread\">"));
@@ -781,7 +781,7 @@ fn html_report_has_a_spread_section_only_with_a_spread() {
     assert!(html.contains("<code>profile[0].repeat[3].for</code>"));
     assert!(html.contains(&joulepath::units::fmt_duration(sp.summary.p50)));
     let mut without = Vec::new();
-    write_html(&mut without, d, &b, d.pack.start_soc, &r).expect("html");
+    write_html(&mut without, d, &b, d.pack().start_soc(), &r).expect("html");
     let plain = String::from_utf8(without).expect("UTF-8");
     assert!(!plain.contains("id=\"spread\"") && !plain.contains("#spread"));
     // The spread adds its section and changes nothing else: the rest of the page is the same.
@@ -794,7 +794,7 @@ fn html_report_has_a_spread_section_only_with_a_spread() {
         &mut failed,
         d,
         &b,
-        d.pack.start_soc,
+        d.pack().start_soc(),
         &r,
         Some(Err("the ambient cannot be fixed")),
     )

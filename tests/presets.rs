@@ -34,7 +34,7 @@ fn close(what: &str, v: f64, want: f64, rel: f64) {
 
 /// Self-discharge of a preset, as a fraction of rated capacity per month.
 fn per_month(p: &Preset) -> f64 {
-    p.cell.self_discharge_per_s * MONTH_S
+    p.cell().self_discharge_per_s() * MONTH_S
 }
 
 /// What a preset must match: the band of its mean OCV over 0..100 % (around the chemistry's
@@ -157,15 +157,15 @@ fn mean_ocv_capacity_and_cutoff_match_the_published_figures() {
         );
         within(
             &format!("{n} cutoff V"),
-            p.cell.cutoff_v,
+            p.cell().cutoff_v(),
             want.cutoff.0 - 1e-12,
             want.cutoff.1 + 1e-12,
         );
         assert!(
-            p.description.contains(want.designation),
+            p.description().contains(want.designation),
             "{n}: the description names no `{}`: {}",
             want.designation,
-            p.description
+            p.description()
         );
     }
 }
@@ -183,7 +183,7 @@ fn rechargeable_cells_are_rated_at_0_2_it() {
         let p = preset(name);
         close(
             &format!("{name} rated current A"),
-            p.cell.rated_current_a,
+            p.cell().rated_current_a(),
             0.2 * p.capacity_ah(),
             1e-12,
         );
@@ -192,7 +192,7 @@ fn rechargeable_cells_are_rated_at_0_2_it() {
     let p = preset("li-ion-18650");
     close(
         "li-ion-18650 test current",
-        p.cell.rated_current_a,
+        p.cell().rated_current_a(),
         0.6,
         1e-12,
     );
@@ -211,9 +211,9 @@ fn primary_cells_are_rated_at_a_low_drain() {
     ] {
         let p = preset(name);
         assert!(
-            p.cell.rated_current_a <= p.capacity_ah() / 50.0,
+            p.cell().rated_current_a() <= p.capacity_ah() / 50.0,
             "{name} rated at {} A",
-            p.cell.rated_current_a
+            p.cell().rated_current_a()
         );
     }
 }
@@ -232,7 +232,7 @@ fn full_charge_voltages_match_the_published_figures() {
     ] {
         close(
             &format!("{name} full OCV"),
-            preset(name).cell.ocv.at(1.0),
+            preset(name).cell().ocv().at(1.0),
             v,
             1e-9,
         );
@@ -240,7 +240,7 @@ fn full_charge_voltages_match_the_published_figures() {
     // LiFePO4: C21's 3.6-3.65 V is the end-of-charge voltage; the rested OCV lies below it.
     within(
         "lifepo4-18650 full OCV",
-        preset("lifepo4-18650").cell.ocv.at(1.0),
+        preset("lifepo4-18650").cell().ocv().at(1.0),
         3.3,
         3.65,
     );
@@ -270,7 +270,7 @@ fn self_discharge_matches_the_published_rates() {
     // after 10 years at the linear rate of DESIGN section 5 (the 80 % is common practice, no
     // source).
     for name in ["li-mno2-cr2032", "li-socl2-aa"] {
-        let lost = preset(name).cell.self_discharge_per_s * 10.0 * YEAR_S;
+        let lost = preset(name).cell().self_discharge_per_s() * 10.0 * YEAR_S;
         within(&format!("{name} lost in 10 years"), lost, 0.0, 0.2);
     }
 }
@@ -278,8 +278,8 @@ fn self_discharge_matches_the_published_rates() {
 #[test]
 fn resistances_lie_in_the_published_ranges() {
     let range = |name: &str| {
-        let c = preset(name).cell;
-        let rs: Vec<f64> = c.resistance.points().map(|p| p.1).collect();
+        let c = preset(name).cell().clone();
+        let rs: Vec<f64> = c.resistance().points().map(|p| p.1).collect();
         (
             rs.iter().copied().fold(f64::INFINITY, f64::min),
             rs.iter().copied().fold(0.0, f64::max),
@@ -287,22 +287,22 @@ fn resistances_lie_in_the_published_ranges() {
     };
     // AA alkaline, fresh, about 0.15 Ω at room temperature, 0.9 Ω at -40 °C and 0.1 Ω at
     // 40 °C [C24, Wikipedia "Internal resistance", confirmed, typical]: +-10 % (stated here).
-    let aa = preset("alkaline-aa").cell;
-    close("alkaline-aa R fresh", aa.resistance.at(1.0), 0.15, 0.1);
+    let aa = preset("alkaline-aa").cell().clone();
+    close("alkaline-aa R fresh", aa.resistance().at(1.0), 0.15, 0.1);
     close(
         "alkaline-aa R at -40 °C",
-        aa.resistance.at(1.0) * aa.temp_resistance.at(-40.0),
+        aa.resistance().at(1.0) * aa.temp_resistance().at(-40.0),
         0.9,
         0.1,
     );
     close(
         "alkaline-aa R at 40 °C",
-        aa.resistance.at(1.0) * aa.temp_resistance.at(40.0),
+        aa.resistance().at(1.0) * aa.temp_resistance().at(40.0),
         0.1,
         0.1,
     );
     // C24's sag example: 1.5 V OCV, 0.15 Ω, 1 A gives 1.350 V.
-    close("C24 sag", 1.5 - 1.0 * aa.resistance.at(1.0), 1.35, 1e-9);
+    close("C24 sag", 1.5 - 1.0 * aa.resistance().at(1.0), 1.35, 1e-9);
     // AA NiMH about 20-50 mΩ [C24, common practice, no source].
     let (lo, hi) = range("nimh-aa");
     within("nimh-aa R min", lo, 0.020, 0.050);
@@ -322,10 +322,10 @@ fn resistances_lie_in_the_published_ranges() {
 #[test]
 fn every_preset_has_an_ocv_table_of_eleven_points_rising_with_soc() {
     for name in Preset::names() {
-        let c = preset(name).cell;
-        let pts: Vec<(f64, f64)> = c.ocv.points().collect();
+        let c = preset(name).cell().clone();
+        let pts: Vec<(f64, f64)> = c.ocv().points().collect();
         assert!(pts.len() >= 11, "{name}: {} OCV points", pts.len());
-        let (lo, hi) = c.ocv.x_range();
+        let (lo, hi) = c.ocv().x_range();
         assert!(
             lo.abs() < 1e-12 && (hi - 1.0).abs() < 1e-12,
             "{name}: OCV not over 0..100 %"
@@ -334,7 +334,10 @@ fn every_preset_has_an_ocv_table_of_eleven_points_rising_with_soc() {
             assert!(w[1].1 > w[0].1, "{name}: OCV does not rise from {w:?}");
         }
         // The cutoff is under load: not above the OCV at any state of charge.
-        assert!(c.cutoff_v <= pts[0].1, "{name}: cutoff above the empty OCV");
+        assert!(
+            c.cutoff_v() <= pts[0].1,
+            "{name}: cutoff above the empty OCV"
+        );
     }
 }
 
@@ -344,8 +347,13 @@ fn pack_of_presets_follows_series_parallel_algebra() {
     // 4 x the energy.
     let d = Design::from_text(&design("li-ion-18650\n  series: 2\n  parallel: 2")).unwrap();
     let p = preset("li-ion-18650");
-    let pack = &d.pack;
-    close("pack OCV", pack.ocv(0.5), 2.0 * p.cell.ocv.at(0.5), 1e-12);
+    let pack = &d.pack();
+    close(
+        "pack OCV",
+        pack.ocv(0.5),
+        2.0 * p.cell().ocv().at(0.5),
+        1e-12,
+    );
     close(
         "pack capacity",
         pack.capacity_c(25.0) / 3600.0,
@@ -355,7 +363,7 @@ fn pack_of_presets_follows_series_parallel_algebra() {
     close(
         "pack R",
         pack.r0(0.5, 25.0),
-        p.cell.resistance.at(0.5),
+        p.cell().resistance().at(0.5),
         1e-12,
     );
     let energy = pack.capacity_c(25.0) / 3600.0 * p.nominal_v() * 2.0;
@@ -377,48 +385,64 @@ profile: [{{ mode: run, for: 1 h }}]
 }
 
 fn assert_same_cell_but_capacity(a: &joulepath::model::Cell, b: &joulepath::model::Cell) {
-    assert_eq!(a.chemistry, b.chemistry);
-    assert!(a.rated_current_a.total_cmp(&b.rated_current_a).is_eq());
-    assert_eq!(a.ocv, b.ocv);
-    assert_eq!(a.resistance, b.resistance);
-    assert_eq!(a.polarization, b.polarization);
-    assert!(a.peukert.total_cmp(&b.peukert).is_eq());
-    assert!(a.cutoff_v.total_cmp(&b.cutoff_v).is_eq());
-    assert_eq!(a.max_current_a, b.max_current_a);
+    assert_eq!(a.chemistry(), b.chemistry());
+    assert!(a.rated_current_a().total_cmp(&b.rated_current_a()).is_eq());
+    assert_eq!(a.ocv(), b.ocv());
+    assert_eq!(a.resistance(), b.resistance());
+    assert_eq!(a.polarization(), b.polarization());
+    assert!(a.peukert().total_cmp(&b.peukert()).is_eq());
+    assert!(a.cutoff_v().total_cmp(&b.cutoff_v()).is_eq());
+    assert_eq!(a.max_current_a(), b.max_current_a());
     assert!(
-        a.self_discharge_per_s
-            .total_cmp(&b.self_discharge_per_s)
+        a.self_discharge_per_s()
+            .total_cmp(&b.self_discharge_per_s())
             .is_eq()
     );
-    assert_eq!(a.temp_capacity, b.temp_capacity);
-    assert_eq!(a.temp_resistance, b.temp_resistance);
+    assert_eq!(a.temp_capacity(), b.temp_capacity());
+    assert_eq!(a.temp_resistance(), b.temp_resistance());
 }
 
 #[test]
 fn a_preset_is_used_by_name() {
     let d = Design::from_text(&design("nimh-aa")).unwrap();
     let p = preset("nimh-aa");
-    assert_eq!(d.pack.cell.name, "nimh-aa");
-    assert!(d.pack.cell.capacity_c.total_cmp(&p.cell.capacity_c).is_eq());
-    assert_same_cell_but_capacity(&d.pack.cell, &p.cell);
+    assert_eq!(d.pack().cell().name(), "nimh-aa");
+    assert!(
+        d.pack()
+            .cell()
+            .capacity_c()
+            .total_cmp(&p.cell().capacity_c())
+            .is_eq()
+    );
+    assert_same_cell_but_capacity(d.pack().cell(), p.cell());
 }
 
 #[test]
 fn an_inline_override_changes_exactly_that_value() {
     let base = Design::from_text(&design("li-ion-18650")).unwrap();
     let over = Design::from_text(&design("{ preset: li-ion-18650, capacity: 2600 mAh }")).unwrap();
-    close("capacity", over.pack.cell.capacity_c, 2.6 * 3600.0, 1e-12);
+    close(
+        "capacity",
+        over.pack().cell().capacity_c(),
+        2.6 * 3600.0,
+        1e-12,
+    );
     close(
         "preset capacity",
-        base.pack.cell.capacity_c,
+        base.pack().cell().capacity_c(),
         3.0 * 3600.0,
         1e-12,
     );
-    assert_same_cell_but_capacity(&over.pack.cell, &base.pack.cell);
-    assert_eq!(over.pack.cell.name, "li-ion-18650, modified");
+    assert_same_cell_but_capacity(over.pack().cell(), base.pack().cell());
+    assert_eq!(over.pack().cell().name(), "li-ion-18650, modified");
     // The rest of the pack is untouched.
-    assert_eq!(over.pack.series, base.pack.series);
-    assert!(over.pack.start_soc.total_cmp(&base.pack.start_soc).is_eq());
+    assert_eq!(over.pack().series(), base.pack().series());
+    assert!(
+        over.pack()
+            .start_soc()
+            .total_cmp(&base.pack().start_soc())
+            .is_eq()
+    );
 }
 
 #[test]
@@ -433,16 +457,21 @@ modes: { run: { tag: on } }
 profile: [{ mode: run, for: 1 h }]
 ";
     let d = Design::from_text(text).unwrap();
-    let coin = preset("li-mno2-cr2032").cell;
-    assert_eq!(d.pack.cell.name, "my-coin");
-    close("cutoff", d.pack.cell.cutoff_v, 2.2, 1e-12);
-    close("capacity", d.pack.cell.capacity_c, coin.capacity_c, 1e-12);
-    assert_eq!(d.pack.cell.ocv, coin.ocv);
+    let coin = preset("li-mno2-cr2032").cell().clone();
+    assert_eq!(d.pack().cell().name(), "my-coin");
+    close("cutoff", d.pack().cell().cutoff_v(), 2.2, 1e-12);
+    close(
+        "capacity",
+        d.pack().cell().capacity_c(),
+        coin.capacity_c(),
+        1e-12,
+    );
+    assert_eq!(d.pack().cell().ocv(), coin.ocv());
     // A key of `cells` wins over the preset of the same name.
     let d = Design::from_text(&text.replace("cell: my-coin", "cell: alkaline-aa")).unwrap();
     close(
         "shadowing cell capacity",
-        d.pack.cell.capacity_c,
+        d.pack().cell().capacity_c(),
         3600.0,
         1e-12,
     );
@@ -534,17 +563,22 @@ fn cells_json_lists_every_preset_in_the_contract_shape() {
     assert_eq!(names, Preset::names().collect::<Vec<_>>());
     for c in &j.cells {
         let p = preset(&c.name);
-        assert_eq!(c.chemistry, p.cell.chemistry.name());
-        close("mean_ocv_v", c.mean_ocv_v, p.cell.ocv.mean(0.0, 1.0), 1e-12);
+        assert_eq!(c.chemistry, p.cell().chemistry().name());
+        close(
+            "mean_ocv_v",
+            c.mean_ocv_v,
+            p.cell().ocv().mean(0.0, 1.0),
+            1e-12,
+        );
         close(
             "capacity_ah",
             c.capacity_ah,
-            p.cell.capacity_c / 3600.0,
+            p.cell().capacity_c() / 3600.0,
             1e-12,
         );
         // C25: E = V_nom x C.
         close("energy_wh", c.energy_wh, c.nominal_v * c.capacity_ah, 1e-12);
-        close("cutoff_v", c.cutoff_v, p.cell.cutoff_v, 1e-12);
+        close("cutoff_v", c.cutoff_v, p.cell().cutoff_v(), 1e-12);
     }
     // C20: CR2032 225 mAh x 3.0 V = 0.675 Wh.
     let coin = j.cells.iter().find(|c| c.name == "li-mno2-cr2032").unwrap();
@@ -695,15 +729,15 @@ fn cells_json_nominal_is_the_designated_voltage_of_the_chemistry() {
         let n = Nominal::of(chemistry).unwrap();
         close(
             chemistry.name(),
-            n.volts,
+            n.volts(),
             designated(chemistry.name()),
             1e-12,
         );
         assert!(
-            n.source.contains("IEC"),
+            n.source().contains("IEC"),
             "{}: {}",
             chemistry.name(),
-            n.source
+            n.source()
         );
     }
     assert!(Nominal::of(Chemistry::Other).is_none());
@@ -735,9 +769,9 @@ fn every_preset_has_temperature_rows_at_most_15_c_apart_over_its_rated_range() {
             .iter()
             .find(|r| r.0 == name)
             .unwrap_or_else(|| panic!("preset `{name}` has no rated range in this test"));
-        let c = preset(name).cell;
-        let rows: Vec<(f64, f64)> = c.temp_capacity.points().collect();
-        let (t_lo, t_hi) = c.temp_capacity.x_range();
+        let c = preset(name).cell().clone();
+        let rows: Vec<(f64, f64)> = c.temp_capacity().points().collect();
+        let (t_lo, t_hi) = c.temp_capacity().x_range();
         assert!(
             t_lo <= *lo && t_hi >= *hi,
             "{name}: table {t_lo}..{t_hi} °C does not span {lo}..{hi} °C"
@@ -753,19 +787,19 @@ fn every_preset_has_temperature_rows_at_most_15_c_apart_over_its_rated_range() {
         // 25 °C is the reference of every other value: both factors exactly 1 there.
         close(
             &format!("{name} capacity at 25 °C"),
-            c.temp_capacity.at(25.0),
+            c.temp_capacity().at(25.0),
             1.0,
             1e-12,
         );
         close(
             &format!("{name} R at 25 °C"),
-            c.temp_resistance.at(25.0),
+            c.temp_resistance().at(25.0),
             1.0,
             1e-12,
         );
         // Colder is never better: capacity does not rise and resistance does not fall as the
         // cell cools (from memory, true of every chemistry here).
-        let res: Vec<(f64, f64)> = c.temp_resistance.points().collect();
+        let res: Vec<(f64, f64)> = c.temp_resistance().points().collect();
         for w in res.windows(2) {
             assert!(
                 w[0].1 >= w[1].1,
@@ -781,16 +815,16 @@ fn every_preset_has_temperature_rows_at_most_15_c_apart_over_its_rated_range() {
     }
     // The case of the issue: alkaline-aa at 15 °C within 10 % of its room-temperature capacity
     // and 30 % of its resistance (from memory, typical of the chemistry's datasheet curves).
-    let aa = preset("alkaline-aa").cell;
+    let aa = preset("alkaline-aa").cell().clone();
     within(
         "alkaline-aa capacity at 15 °C",
-        aa.temp_capacity.at(15.0),
+        aa.temp_capacity().at(15.0),
         0.9,
         1.0,
     );
     within(
         "alkaline-aa R at 15 °C",
-        aa.temp_resistance.at(15.0),
+        aa.temp_resistance().at(15.0),
         1.0,
         1.3,
     );

@@ -227,37 +227,37 @@ proptest! {
     fn every_operating_point_balances(t in tree_gen()) {
         let text = yaml(&t);
         let d = Design::from_text(&text).unwrap_or_else(|e| panic!("{e}\n{text}"));
-        for m in 0..d.modes.len() {
+        for m in 0..d.modes().len() {
             let at = PackState { soc: t.soc, v_pol: None, ambient_c: 25.0 };
             let Solution::Point(p) = solve_point(&d, m, at) else { continue };
             // Energy balance at one operating point (DESIGN section 5), 1e-9 relative.
             let (a, b) = (p.pack.power(), p.delivered_plus_losses());
             prop_assert!((a - b).abs() <= 1e-9 * a.abs().max(b.abs()) + 1e-18, "{a} vs {b}\n{text}");
             // The pack's line: V = OCV - (R0 + R1) I with polarization settled.
-            let r = d.pack.r0(t.soc, 25.0) + d.pack.polarization(25.0).map_or(0.0, |x| x.0);
+            let r = d.pack().r0(t.soc, 25.0) + d.pack().polarization(25.0).map_or(0.0, |x| x.0);
             let v_line = p.pack.ocv - r * p.pack.current;
             prop_assert!((p.pack.voltage - v_line).abs() <= 1e-9 * p.pack.ocv, "{} vs {v_line}\n{text}", p.pack.voltage);
             prop_assert!(p.pack.current.is_finite() && p.pack.current >= 0.0);
-            for (st, sp) in d.stages.iter().zip(&p.stages) {
+            for (st, sp) in d.stages().iter().zip(&p.stages) {
                 prop_assert!(sp.iin.is_finite() && sp.iin >= 0.0 && sp.loss >= -1e-15, "{sp:?}\n{text}");
                 let tol = 1e-9 * sp.vin.abs().max(1.0);
                 match sp.state {
                     StageState::Regulating => {
-                        prop_assert!((sp.vout - st.setpoint).abs() <= 1e-12 * st.setpoint);
-                        match st.kind.name() {
-                            "buck" | "linear" => prop_assert!(sp.vin >= st.setpoint + st.dropout - tol, "{sp:?}\n{text}"),
-                            "boost" => prop_assert!(sp.vin - st.bypass_drop <= st.setpoint + tol, "{sp:?}\n{text}"),
+                        prop_assert!((sp.vout - st.setpoint()).abs() <= 1e-12 * st.setpoint());
+                        match st.kind().name() {
+                            "buck" | "linear" => prop_assert!(sp.vin >= st.setpoint() + st.dropout() - tol, "{sp:?}\n{text}"),
+                            "boost" => prop_assert!(sp.vin - st.bypass_drop() <= st.setpoint() + tol, "{sp:?}\n{text}"),
                             _ => {}
                         }
                     }
-                    StageState::Dropout => prop_assert!(sp.vin < st.setpoint + st.dropout + tol),
-                    StageState::Bypass => prop_assert!(sp.vin - st.bypass_drop > st.setpoint - tol),
-                    StageState::Undervoltage => prop_assert!(st.input_min.is_some()),
+                    StageState::Dropout => prop_assert!(sp.vin < st.setpoint() + st.dropout() + tol),
+                    StageState::Bypass => prop_assert!(sp.vin - st.bypass_drop() > st.setpoint() - tol),
+                    StageState::Undervoltage => prop_assert!(st.input_min().is_some()),
                     // Only with an input current limit, which the random trees do not give.
-                    StageState::Limited => prop_assert!(st.input_current_limit.is_some() && sp.vout < st.setpoint),
+                    StageState::Limited => prop_assert!(st.input_current_limit().is_some() && sp.vout < st.setpoint()),
                     StageState::On | StageState::Off => {}
                 }
-                if let (true, Some(min)) = (sp.state.is_running(), st.input_min) {
+                if let (true, Some(min)) = (sp.state.is_running(), st.input_min()) {
                     prop_assert!(sp.vin >= min - tol, "running below its minimum: {sp:?}\n{text}");
                 }
             }
@@ -277,7 +277,7 @@ fn random_trees_mostly_solve() {
     for _ in 0..300 {
         let t = tree_gen().new_tree(&mut runner).unwrap().current();
         let d = Design::from_text(&yaml(&t)).unwrap();
-        for m in 0..d.modes.len() {
+        for m in 0..d.modes().len() {
             total += 1;
             if let Solution::Point(p) = solve_point(
                 &d,

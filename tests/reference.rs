@@ -25,7 +25,7 @@ fn solve(d: &Design, mode: &str, soc: f64) -> Solution {
         PackState {
             soc,
             v_pol: None,
-            ambient_c: d.ambient_c,
+            ambient_c: d.ambient_c(),
         },
     )
 }
@@ -45,7 +45,11 @@ fn point(d: &Design, mode: &str, soc: f64) -> OperatingPoint {
 }
 
 fn stage<'a>(d: &Design, p: &'a OperatingPoint, id: &str) -> &'a joulepath::solve::StagePoint {
-    &p.stages[d.stages.iter().position(|s| s.id == id).expect("stage id")]
+    &p.stages[d
+        .stages()
+        .iter()
+        .position(|s| s.id() == id)
+        .expect("stage id")]
 }
 
 #[test]
@@ -115,7 +119,7 @@ profile: [{ mode: heavy, for: 1 h }]
     assert!((s.loss - 0.2562).abs() < 5e-5);
     // REFERENCES C36 (JEDEC JESD51-1 definition of theta_ja): Tj = 40 °C + 0.25625 W x
     // 200 °C/W = 91.25 °C.
-    let tj = joulepath::solve::junction_c(&d, 0, s.loss, d.ambient_c).unwrap();
+    let tj = joulepath::solve::junction_c(&d, 0, s.loss, d.ambient_c()).unwrap();
     assert!(close(tj, 91.25, 1e-12));
     let p = point(&d, "light", 1.0);
     let s = stage(&d, &p, "ldo");
@@ -316,7 +320,7 @@ profile: [{ mode: run, for: 1 h }]
     assert_eq!(p.stages[0].state, StageState::Off);
     assert_eq!(p.stages[1].state, StageState::Off);
     assert!(p.stages[1].iin == 0.0 && p.loads.iter().all(|l| l.current == 0.0));
-    let v = violations(&d, &p, d.ambient_c);
+    let v = violations(&d, &p, d.ambient_c());
     assert_eq!(
         v.iter()
             .filter(|v| v.kind == ViolationKind::OffRailDraw)
@@ -355,9 +359,9 @@ modes: { run: { l: on } }
 profile: [{ mode: run, for: 1 h }]
 ";
     let d = Design::from_text(text).unwrap();
-    assert!(close(d.pack.ocv(0.5), 7.2, 1e-12));
-    assert!(close(d.pack.r0(0.5, 25.0), 0.05, 1e-12));
-    assert!(close(d.pack.capacity_c(25.0), 5.0 * 3600.0, 1e-12));
+    assert!(close(d.pack().ocv(0.5), 7.2, 1e-12));
+    assert!(close(d.pack().r0(0.5, 25.0), 0.05, 1e-12));
+    assert!(close(d.pack().capacity_c(25.0), 5.0 * 3600.0, 1e-12));
     let p = point(&d, "run", 0.5);
     assert!(close(p.pack.voltage, 7.2 - 0.05, 1e-12));
 }

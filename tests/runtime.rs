@@ -220,12 +220,12 @@ fn a_temperature_row_with_one_factor_leaves_the_other_to_its_own_rows() {
     let d = design(
         "cells:\n  c:\n    capacity: 2 Ah\n    ocv: [[0 %, 1.0 V], [100 %, 1.4 V]]\n    resistance: 30 mΩ\n    cutoff: 0.8 V\n    temperature:\n      - { at: 25 °C, capacity: 100 %, resistance: 100 % }\n      - { at: 0 °C, capacity: 80 % }\n      - { at: -20 °C, resistance: 300 % }\nbattery: { cell: c }\nloads: [{ id: l, rail: battery, draw: { on: 100 mA } }]\nmodes: { on: { l: on } }\nprofile: [{ mode: on, for: 1 h }]\n",
     );
-    let c = &d.pack.cell;
-    assert!((c.temp_resistance.at(0.0) - (3.0 - 2.0 * 20.0 / 45.0)).abs() < 1e-12);
-    assert!((c.temp_capacity.at(0.0) - 0.8).abs() < 1e-12);
+    let c = &d.pack().cell();
+    assert!((c.temp_resistance().at(0.0) - (3.0 - 2.0 * 20.0 / 45.0)).abs() < 1e-12);
+    assert!((c.temp_capacity().at(0.0) - 0.8).abs() < 1e-12);
     // Capacity is held at its coldest row (80 %) below 0 °C; resistance at 300 % below -20 °C.
-    assert!((c.temp_capacity.at(-20.0) - 0.8).abs() < 1e-12);
-    assert!((c.temp_resistance.at(-30.0) - 3.0).abs() < 1e-12);
+    assert!((c.temp_capacity().at(-20.0) - 0.8).abs() < 1e-12);
+    assert!((c.temp_resistance().at(-30.0) - 3.0).abs() < 1e-12);
 }
 
 #[test]
@@ -381,7 +381,7 @@ fn a_preset_keeps_its_runtime_at_its_reference_temperature_and_loses_shelf_life_
     // By hand, to the empty end (the 20 µA load never sags the cell to its cutoff): Q(60 °C) /
     // (20 µA + 11.31 x 1 %/year x 2.4 Ah), Q from the preset's temperature table.
     let d = design(&text(preset, "60 °C"));
-    let q = d.pack.capacity_c(60.0);
+    let q = d.pack().capacity_c(60.0);
     let i_self = 0.01 * 2f64.powf(3.5) * 2.4 * 3600.0 / (365.25 * 86_400.0);
     assert_eq!(hot.end.reason, EndReason::Empty);
     assert!(
@@ -415,7 +415,7 @@ fn a_primary_cell_without_a_rating_is_rated_at_a_light_drain_so_peukert_acts() {
     for (chemistry, hours) in [("li-mno2", 1000.0), ("li-socl2", 2000.0), ("nimh", 5.0)] {
         let d = design(&text(chemistry));
         assert!(
-            close(d.pack.rated_current_a(), 2.6 / hours, 1e-12),
+            close(d.pack().rated_current_a(), 2.6 / hours, 1e-12),
             "{chemistry}"
         );
     }
@@ -450,7 +450,7 @@ fn pulse_and_continuous_limits_are_judged_by_how_long_a_mode_is_held() {
     let d = design(
         "battery: { cell: li-mno2-cr2032 }\nloads: [{ id: radio, rail: battery, draw: { tx: 12 mA } }]\nmodes: { tx: { radio: tx }, idle: {} }\nprofile: [{ mode: tx, for: 0.6 s }, { mode: tx, for: 0.6 s }, { mode: idle, for: 1 h }]\n",
     );
-    assert!((d.modes[0].longest_hold_s - 1.2).abs() < 1e-12);
+    assert!((d.modes()[0].longest_hold_s() - 1.2).abs() < 1e-12);
     // A custom cell with only a continuous limit judges a 5 ms pulse against it.
     let d = design(
         "cells:\n  c: { capacity: 225 mAh, ocv: [[0 %, 2.5 V], [100 %, 3 V]], resistance: 10 ohm, cutoff: 2 V, max_current: 3 mA }\nbattery: { cell: c }\nloads: [{ id: radio, rail: battery, draw: { tx: 12 mA } }]\nmodes: { tx: { radio: tx }, idle: {} }\nprofile: [{ mode: tx, for: 5 ms }, { mode: idle, for: 10 s }]\n",
@@ -475,7 +475,7 @@ fn pulse_sag_ends_the_run_by_hand() {
     let d = pulse_design("");
     for r in [fast(&d), exact(&d)] {
         assert_eq!(r.end.reason, EndReason::Cutoff);
-        assert_eq!(d.modes[r.end.mode.unwrap()].name, "pulse");
+        assert_eq!(d.modes()[r.end.mode.unwrap()].name(), "pulse");
         assert!((r.end.soc - 0.4).abs() < 1e-4, "{}", r.end.soc);
         assert!(
             close(r.runtime_s(), 8.1 * 0.6 / i_avg, 1e-4),
@@ -863,7 +863,7 @@ mod agreement {
         fn fast_agrees_with_reference(g in designs()) {
             let t = text(&g);
             let d = design(&t);
-            let pass: f64 = d.profile.iter().map(joulepath::model::Step::duration).sum();
+            let pass: f64 = d.profile().iter().map(joulepath::model::Step::duration).sum();
             let f = fast(&d);
             // Keep the reference affordable in a debug build.
             prop_assume!(f.runtime_s() / pass < 4000.0);

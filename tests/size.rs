@@ -256,16 +256,16 @@ fn options_are_checked() {
 #[test]
 fn presets_give_mass_and_size() {
     for p in joulepath::model::Preset::all().unwrap() {
-        assert!(p.cell.mass_kg.is_some(), "{}", p.name);
-        assert!(p.cell.size.is_some(), "{}", p.name);
+        assert!(p.cell().mass_kg().is_some(), "{}", p.name());
+        assert!(p.cell().size().is_some(), "{}", p.name());
     }
     // IEC 60086 designation CR2032: diameter 20 mm, height 3.2 mm (REFERENCES.md C19,
     // confirmed); volume pi d² h / 4.
     let cr = joulepath::model::Preset::load("li-mno2-cr2032").unwrap();
-    let v = cr.cell.size.unwrap().volume_m3();
+    let v = cr.cell().size().unwrap().volume_m3();
     assert!((v - std::f64::consts::PI * 0.020 * 0.020 * 0.0032 / 4.0).abs() < 1e-15);
     assert_eq!(
-        cr.cell.size.unwrap().describe(),
+        cr.cell().size().unwrap().describe(),
         "20 × 3.2 mm (diameter × height)"
     );
 }

@@ -214,28 +214,28 @@ fn the_same_seed_gives_the_same_numbers_on_one_and_two_threads() {
 fn tolerances_are_read_into_knobs_and_spreads() {
     let text = std::fs::read_to_string(root().join("examples/soil-probe.yaml")).expect("example");
     let d = Design::from_text(&text).expect("valid");
-    let t = &d.tolerances;
+    let t = &d.tolerances();
     assert_eq!(t.len(), 6);
-    assert_eq!(t[0].knob, Knob::StageQuiescent(0));
+    assert_eq!(*t[0].knob(), Knob::StageQuiescent(0));
     assert_eq!(
-        t[0].dist,
+        *t[0].dist(),
         Dist::Uniform {
             lo: 0.6e-6,
             hi: 1.2e-6
         }
     );
-    assert_eq!(t[2].knob, Knob::LoadDraw(2, 0));
+    assert_eq!(*t[2].knob(), Knob::LoadDraw(2, 0));
     // ±10 % of 35 mA is three standard deviations.
     assert_eq!(
-        t[2].dist,
+        *t[2].dist(),
         Dist::Normal {
             mean: 0.035,
             sigma: 0.035 * 0.1 / 3.0
         }
     );
-    assert_eq!(t[4].knob, Knob::Ambient);
-    assert_eq!(t[5].knob, Knob::StepFor(vec![0, 3]));
-    assert_eq!(t[5].dist, Dist::Pick(vec![120.0, 300.0, 600.0]));
+    assert_eq!(*t[4].knob(), Knob::Ambient);
+    assert_eq!(*t[5].knob(), Knob::StepFor(vec![0, 3]));
+    assert_eq!(*t[5].dist(), Dist::Pick(vec![120.0, 300.0, 600.0]));
 }
 
 #[test]

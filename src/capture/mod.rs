@@ -18,7 +18,7 @@ mod summary;
 
 pub use compress::{CompressError, Compressed, Segment, Sensitivity, compress};
 pub use read::{GAP_FACTOR, read_capture, read_capture_file};
-pub use summary::{Summary, SummaryJson, summarize, write_summary};
+pub use summary::{SegmentRow, Summary, summarize, write_summary};
 
 use crate::model::Pack;
 

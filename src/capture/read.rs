@@ -230,57 +230,15 @@ pub fn read_capture(text: &str, name: &str, allow_negative: bool) -> Result<Capt
         }
         fields.clear();
         split_into(row, sep, &mut fields);
-        if fields.len() != lay.columns {
-            return Err(Diagnostic::new(
-                name,
-                format!(
-                    "line {line} has {} {}; the header names {} columns",
-                    fields.len(),
-                    if fields.len() == 1 { "value" } else { "values" },
-                    lay.columns
-                ),
-            )
-            .with_hint("write one value per column on every row, separated like the header")
-            .at_line_col(line, 1));
-        }
-        let t = number(fields[lay.time.0], "time", line, name)? * lay.time.1;
-        let i = number(fields[lay.current.0], "current", line, name)? * lay.current.1;
-        if let Some(&prev) = times.last() {
-            if t <= prev {
-                let (col, txt) = fields[lay.time.0];
-                return Err(Diagnostic::new(
-                    name,
-                    format!(
-                        "line {line}: the time `{}` is not after the time of the sample before; time must increase from row to row",
-                        txt.trim()
-                    ),
-                )
-                .with_hint("sort the rows by time and remove repeated samples")
-                .at_line_col(line, col));
-            }
-        }
-        if i < 0.0 && !allow_negative {
-            let (col, txt) = fields[lay.current.0];
-            return Err(Diagnostic::new(
-                name,
-                format!("line {line}: the current `{}` is negative; a load only draws", txt.trim()),
-            )
-            .with_hint("subtract the probe's offset from the capture, or cut out the part where the product charges")
-            .at_line_col(line, col));
-        }
-        if let Some((vc, vs)) = lay.voltage {
-            let v = number(fields[vc], "voltage", line, name)? * vs;
-            if v <= 0.0 {
-                return Err(Diagnostic::new(
-                    name,
-                    format!(
-                        "line {line}: the voltage `{}` is not above zero",
-                        fields[vc].1.trim()
-                    ),
-                )
-                .with_hint("the voltage column is the supply of the load while it was captured")
-                .at_line_col(line, fields[vc].0));
-            }
+        let (t, i, v) = read_row(
+            &fields,
+            &lay,
+            line,
+            name,
+            times.last().copied(),
+            allow_negative,
+        )?;
+        if let Some(v) = v {
             voltage.push(v);
         }
         times.push(t);
@@ -321,6 +279,73 @@ pub fn read_capture(text: &str, name: &str, allow_negative: bool) -> Result<Capt
         current,
         voltage: lay.voltage.map(|_| voltage),
     })
+}
+
+/// One sample from the fields of row `line` (after the sample at `prev_t`, when there is one):
+/// time, s, current, A, and voltage, V, with the layout's scales; a message at the row's place
+/// when a value is missing, unreadable, out of order, negative or not above zero.
+fn read_row(
+    fields: &[(usize, &str)],
+    lay: &Layout,
+    line: usize,
+    name: &str,
+    prev_t: Option<f64>,
+    allow_negative: bool,
+) -> Result<(f64, f64, Option<f64>), Diagnostic> {
+    if fields.len() != lay.columns {
+        return Err(Diagnostic::new(
+            name,
+            format!(
+                "line {line} has {} {}; the header names {} columns",
+                fields.len(),
+                if fields.len() == 1 { "value" } else { "values" },
+                lay.columns
+            ),
+        )
+        .with_hint("write one value per column on every row, separated like the header")
+        .at_line_col(line, 1));
+    }
+    let t = number(fields[lay.time.0], "time", line, name)? * lay.time.1;
+    let i = number(fields[lay.current.0], "current", line, name)? * lay.current.1;
+    if let Some(prev) = prev_t {
+        if t <= prev {
+            let (col, txt) = fields[lay.time.0];
+            return Err(Diagnostic::new(
+                name,
+                format!(
+                    "line {line}: the time `{}` is not after the time of the sample before; time must increase from row to row",
+                    txt.trim()
+                ),
+            )
+            .with_hint("sort the rows by time and remove repeated samples")
+            .at_line_col(line, col));
+        }
+    }
+    if i < 0.0 && !allow_negative {
+        let (col, txt) = fields[lay.current.0];
+        return Err(Diagnostic::new(
+            name,
+            format!("line {line}: the current `{}` is negative; a load only draws", txt.trim()),
+        )
+        .with_hint("subtract the probe's offset from the capture, or cut out the part where the product charges")
+        .at_line_col(line, col));
+    }
+    if let Some((vc, vs)) = lay.voltage {
+        let v = number(fields[vc], "voltage", line, name)? * vs;
+        if v <= 0.0 {
+            return Err(Diagnostic::new(
+                name,
+                format!(
+                    "line {line}: the voltage `{}` is not above zero",
+                    fields[vc].1.trim()
+                ),
+            )
+            .with_hint("the voltage column is the supply of the load while it was captured")
+            .at_line_col(line, fields[vc].0));
+        }
+        return Ok((t, i, Some(v)));
+    }
+    Ok((t, i, None))
 }
 
 /// The median of `xs` (not empty).

@@ -9,10 +9,12 @@ use serde::Serialize;
 use super::{Capture, Compressed, Sensitivity};
 use crate::units::{fmt_eng, fmt_sig};
 
-/// The figures of one capture and its compression.
-#[derive(Debug, Clone, PartialEq)]
+/// The figures of one capture and its compression: the text summary and `joulepath capture
+/// --format json` (SI units) are both written from it.
+#[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Summary {
     /// File name.
+    #[serde(rename = "file")]
     pub name: String,
     /// Number of samples.
     pub samples: usize,
@@ -30,23 +32,64 @@ pub struct Summary {
     pub min_a: f64,
     /// Charge per event (one capture), C.
     pub charge_c: f64,
-    /// Energy per event at the captured voltage, J (with a voltage column).
+    /// Energy per event at the captured voltage, J (with a voltage column; null without).
     pub energy_j: Option<f64>,
-    /// The compression.
-    pub compressed: Compressed,
+    /// The tolerance on the pack's lowest terminal voltage, V.
+    pub tolerance_v: f64,
+    /// The bound the segments keep, V.
+    pub bound_v: f64,
     /// What the compression assumed: the pack the tolerance is held on, in words.
     pub on: String,
+    /// The segments in time order.
+    pub segments: Vec<SegmentRow>,
+    /// The suggested `loads:`/`modes:`/`profile:` block, YAML text.
+    pub suggested: String,
 }
 
-/// The summary of `capture` compressed on `on` (a pack described in words) with `s` within
-/// `compressed`'s tolerance.
-pub fn summarize(c: &Capture, compressed: Compressed, on: &str) -> Summary {
+/// One segment of the compressed capture: a row of the text table and of the JSON.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SegmentRow {
+    /// Start from the capture's start, s.
+    pub start_s: f64,
+    /// Duration, s.
+    pub seconds: f64,
+    /// Mean current, A.
+    pub current_a: f64,
+    /// Samples merged.
+    pub samples: usize,
+}
+
+/// The summary of `capture` compressed on `on` (a pack described in words) within
+/// `compressed`'s tolerance; the suggested block names its load `load` and merges levels of
+/// current by the pack's sensitivity `sens`.
+pub fn summarize(
+    c: &Capture,
+    compressed: &Compressed,
+    on: &str,
+    load: &str,
+    sens: &Sensitivity,
+) -> Summary {
     let dur = c.duration_s();
     let sq: f64 = c.current().iter().zip(c.dt()).map(|(i, t)| i * i * t).sum();
     let mut steps = c.dt().to_vec();
     let mid = steps.len() / 2;
     let step_s = *steps.select_nth_unstable_by(mid, f64::total_cmp).1;
-    Summary {
+    let mut t = 0.0;
+    let segments = compressed
+        .segments
+        .iter()
+        .map(|g| {
+            let row = SegmentRow {
+                start_s: t,
+                seconds: g.seconds,
+                current_a: g.value,
+                samples: g.samples,
+            };
+            t += g.seconds;
+            row
+        })
+        .collect();
+    let mut s = Summary {
         name: c.name().to_string(),
         samples: c.len(),
         duration_s: dur,
@@ -61,9 +104,14 @@ pub fn summarize(c: &Capture, compressed: Compressed, on: &str) -> Summary {
         min_a: c.current().iter().copied().fold(f64::INFINITY, f64::min),
         charge_c: c.charge_c(),
         energy_j: c.energy_j(),
-        compressed,
+        tolerance_v: compressed.tolerance_v,
+        bound_v: compressed.bound_v,
         on: on.to_string(),
-    }
+        segments,
+        suggested: String::new(),
+    };
+    s.suggested = s.suggested_yaml(load, sens.ohmic);
+    s
 }
 
 /// A current in the design file's notation with four significant digits (`2.051 mA`).
@@ -96,13 +144,13 @@ impl Summary {
     /// Levels of the segments: values within `merge` of a level's lowest member share it.
     /// Returns each level's time-weighted mean and each segment's level.
     fn levels(&self, merge: f64) -> (Vec<f64>, Vec<usize>) {
-        let segs = &self.compressed.segments;
+        let segs = &self.segments;
         let mut order: Vec<usize> = (0..segs.len()).collect();
-        order.sort_by(|&a, &b| segs[a].value.total_cmp(&segs[b].value));
+        order.sort_by(|&a, &b| segs[a].current_a.total_cmp(&segs[b].current_a));
         let mut level_of = vec![0; segs.len()];
         let (mut sums, mut first): (Vec<(f64, f64)>, f64) = (Vec::new(), f64::NEG_INFINITY);
         for &k in &order {
-            let v = segs[k].value;
+            let v = segs[k].current_a;
             if sums.is_empty() || v - first > merge.max(0.25 * first.abs()) {
                 sums.push((0.0, 0.0));
                 first = v;
@@ -120,7 +168,7 @@ impl Summary {
     /// the charge stays the capture's), one mode per level, and the profile steps of one event.
     pub fn suggested_yaml(&self, load: &str, ohmic: f64) -> String {
         let merge = if ohmic > 0.0 {
-            4.0 * self.compressed.tolerance_v / ohmic
+            4.0 * self.tolerance_v / ohmic
         } else {
             0.0
         };
@@ -143,7 +191,7 @@ impl Summary {
         }
         let _ = writeln!(y, "profile:\n  - repeat:");
         // Neighbouring segments of one level are one step.
-        let segs = &self.compressed.segments;
+        let segs = &self.segments;
         let mut k = 0;
         while k < segs.len() {
             let l = level_of[k];
@@ -157,90 +205,6 @@ impl Summary {
         let _ = writeln!(y, "    times: 1");
         y
     }
-
-    /// The JSON form (SI units).
-    pub fn json(&self, load: &str, s: &Sensitivity) -> SummaryJson {
-        let mut t = 0.0;
-        SummaryJson {
-            file: self.name.clone(),
-            samples: self.samples,
-            duration_s: self.duration_s,
-            step_s: self.step_s,
-            mean_a: self.mean_a,
-            rms_a: self.rms_a,
-            peak_a: self.peak_a,
-            min_a: self.min_a,
-            charge_c: self.charge_c,
-            energy_j: self.energy_j,
-            tolerance_v: self.compressed.tolerance_v,
-            bound_v: self.compressed.bound_v,
-            on: self.on.clone(),
-            segments: self
-                .compressed
-                .segments
-                .iter()
-                .map(|g| {
-                    let j = SegmentJson {
-                        start_s: t,
-                        seconds: g.seconds,
-                        current_a: g.value,
-                        samples: g.samples,
-                    };
-                    t += g.seconds;
-                    j
-                })
-                .collect(),
-            suggested: self.suggested_yaml(load, s.ohmic),
-        }
-    }
-}
-
-/// `joulepath capture --format json`.
-#[derive(Debug, Clone, Serialize)]
-pub struct SummaryJson {
-    /// File name.
-    pub file: String,
-    /// Number of samples.
-    pub samples: usize,
-    /// Duration of one capture, s.
-    pub duration_s: f64,
-    /// Median sampling step, s.
-    pub step_s: f64,
-    /// Mean current, A.
-    pub mean_a: f64,
-    /// RMS current, A.
-    pub rms_a: f64,
-    /// Highest sample, A.
-    pub peak_a: f64,
-    /// Lowest sample, A.
-    pub min_a: f64,
-    /// Charge per event, C.
-    pub charge_c: f64,
-    /// Energy per event at the captured voltage, J (null without a voltage column).
-    pub energy_j: Option<f64>,
-    /// The tolerance on the lowest terminal voltage, V.
-    pub tolerance_v: f64,
-    /// The bound the segments keep, V.
-    pub bound_v: f64,
-    /// The pack the tolerance is held on.
-    pub on: String,
-    /// The segments in time order.
-    pub segments: Vec<SegmentJson>,
-    /// The suggested `loads:`/`modes:`/`profile:` block, YAML text.
-    pub suggested: String,
-}
-
-/// One segment in JSON.
-#[derive(Debug, Clone, Serialize)]
-pub struct SegmentJson {
-    /// Start from the capture's start, s.
-    pub start_s: f64,
-    /// Duration, s.
-    pub seconds: f64,
-    /// Mean current, A.
-    pub current_a: f64,
-    /// Samples merged.
-    pub samples: usize,
 }
 
 /// The summary as text: the figures, the segments, the suggested block.
@@ -248,13 +212,7 @@ pub struct SegmentJson {
 /// # Errors
 ///
 /// Any error of `out`.
-pub fn write_summary(
-    out: &mut dyn Write,
-    s: &Summary,
-    load: &str,
-    sens: &Sensitivity,
-) -> io::Result<()> {
-    let c = &s.compressed;
+pub fn write_summary(out: &mut dyn Write, s: &Summary) -> io::Result<()> {
     writeln!(out, "Capture {}", s.name)?;
     let rows: Vec<(&str, String)> = vec![
         ("samples", s.samples.to_string()),
@@ -281,10 +239,10 @@ pub fn write_summary(
         "segments",
         format!(
             "{} (terminal voltage within {} on {}; bound {})",
-            c.segments.len(),
-            fmt_eng(c.tolerance_v, "V"),
+            s.segments.len(),
+            fmt_eng(s.tolerance_v, "V"),
             s.on,
-            fmt_eng(c.bound_v, "V")
+            fmt_eng(s.bound_v, "V")
         ),
     ));
     let w = rows.iter().map(|(k, _)| k.len()).max().unwrap_or(0);
@@ -297,19 +255,17 @@ pub fn write_summary(
         "  {:>4}  {:>10}  {:>10}  {:>10}  {:>8}",
         "#", "start", "length", "current", "samples"
     )?;
-    let mut t = 0.0;
-    for (k, g) in c.segments.iter().enumerate() {
+    for (k, g) in s.segments.iter().enumerate() {
         writeln!(
             out,
             "  {:>4}  {:>10}  {:>10}  {:>10}  {:>8}",
             k + 1,
-            fmt_eng(t, "s"),
+            fmt_eng(g.start_s, "s"),
             fmt_eng(g.seconds, "s"),
-            fmt_eng(g.value, "A"),
+            fmt_eng(g.current_a, "A"),
             g.samples
         )?;
-        t += g.seconds;
     }
     writeln!(out)?;
-    write!(out, "{}", s.suggested_yaml(load, sens.ohmic))
+    write!(out, "{}", s.suggested)
 }

@@ -78,15 +78,7 @@ pub fn capture_command(
         }
     })?;
     let preset = Preset::load(a.cell).map_err(|e| Failure::Input(e.to_string()))?;
-    let pack = Pack {
-        cell: preset.cell,
-        series: 1,
-        parallel: 1,
-        start_soc: 1.0,
-        aging_capacity: 1.0,
-        aging_resistance: 1.0,
-        buffer: None,
-    };
+    let pack = Pack::one_cell(preset.cell().clone());
     let sens = sensitivity(&pack, 25.0, 1.0);
     let on = format!("one {} cell at 25 °C", a.cell);
     let z = compress(cap.current(), cap.dt(), &sens, tolerance_v, MAX_SEGMENTS).map_err(|e| {
@@ -102,17 +94,17 @@ pub fn capture_command(
             .map_err(|e| Failure::Input(format!("cannot draw the picture: {e}")))?;
         emit(&bytes, Some(path))?;
     }
-    let s = summarize(&cap, z, &on);
+    let s = summarize(&cap, &z, &on, &load, &sens);
     let io_fail = |e: std::io::Error| Failure::Input(format!("cannot write the output: {e}"));
     match f {
         FormatArg::Json => {
-            serde_json::to_writer_pretty(&mut *buf, &s.json(&load, &sens))
+            serde_json::to_writer_pretty(&mut *buf, &s)
                 .map_err(|e| Failure::Input(e.to_string()))?;
             writeln!(buf).map_err(io_fail)
         }
         FormatArg::Csv => Err(Failure::Usage(
             "`capture` writes a table or JSON; for the segments as data use `--format json`".into(),
         )),
-        FormatArg::Table => write_summary(buf, &s, &load, &sens).map_err(io_fail),
+        FormatArg::Table => write_summary(buf, &s).map_err(io_fail),
     }
 }

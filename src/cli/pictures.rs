@@ -16,7 +16,7 @@ use super::run::Failure;
 /// takes a while (nothing at all otherwise). A run that cannot give a result (values beyond
 /// what the models compute with, or too much work) is an input failure (exit 1).
 pub fn run_with_progress(d: &Design, opt: &RunOptions, what: &str) -> Result<RunResult, Failure> {
-    let fail = |e: joulepath::solve::RunError| Failure::Input(format!("`{}`: {e}", d.title));
+    let fail = |e: joulepath::solve::RunError| Failure::Input(format!("`{}`: {e}", d.title()));
     if !std::io::stderr().is_terminal() {
         return joulepath::solve::run(d, opt).map_err(fail);
     }
@@ -61,9 +61,9 @@ pub fn spread_with_progress(
 ) -> Result<joulepath::spread::Spread, Failure> {
     let fail = |e: joulepath::spread::SpreadError| match e {
         joulepath::spread::SpreadError::NoTolerances => {
-            Failure::Usage(format!("`{}`: {e}", d.title))
+            Failure::Usage(format!("`{}`: {e}", d.title()))
         }
-        _ => Failure::Input(format!("`{}`: {e}", d.title)),
+        _ => Failure::Input(format!("`{}`: {e}", d.title())),
     };
     if !std::io::stderr().is_terminal() {
         return joulepath::spread::spread(d, opts).map_err(fail);
@@ -129,7 +129,7 @@ pub fn plot_command(
         PlotKind::Losses => plot::losses(d, &r, fmt, size),
         PlotKind::Efficiency => {
             let modes: Vec<usize> = d.file_modes();
-            let b = budget(d, d.pack.start_soc, &modes);
+            let b = budget(d, d.pack().start_soc(), &modes);
             plot::efficiency(d, &b, Some(&r), fmt, size)
         }
     }
@@ -190,7 +190,7 @@ pub fn report_command(
     let mut o = *opt;
     o.trace = true;
     let r = run_with_progress(d, &o, "simulating")?;
-    let soc = soc.unwrap_or(d.pack.start_soc);
+    let soc = soc.unwrap_or(d.pack().start_soc());
     let modes: Vec<usize> = d.file_modes();
     let b = budget(d, soc, &modes);
     let mut buf = Vec::new();

@@ -16,7 +16,7 @@ use joulepath::report::{
 use joulepath::solve::budget;
 use joulepath::spec::Override;
 
-use super::args::{Args, Command, FormatArg, RunArgs, parse_with};
+use super::args::{Args, Command, FormatArg, ReportSpread, RunArgs, parse_with};
 use super::capture::CaptureArgs;
 use super::groups::{Group, check as check_groups};
 use super::pictures::{
@@ -129,7 +129,8 @@ fn load_with(path: &Path, sets: &[String]) -> Result<Design, Failure> {
         },
         other => Failure::Input(other.to_string()),
     })?;
-    d.title = with_overrides(&d.title, &overrides);
+    let title = with_overrides(d.title(), &overrides);
+    d.set_title(title);
     Ok(d)
 }
 
@@ -206,6 +207,66 @@ fn warn(d: &Design, ambient_c: f64) {
     let _ = write_warnings(&mut io::stderr().lock(), &warnings(d, ambient_c), 96);
 }
 
+/// The modes `budget` shows: the one named by `--mode`, else every mode of the file.
+fn budget_modes(d: &Design, mode: Option<&str>) -> Result<Vec<usize>, Failure> {
+    let Some(name) = mode else {
+        return Ok(d.file_modes());
+    };
+    if let Some(m) = d.mode_index(name) {
+        return Ok(vec![m]);
+    }
+    let names: Vec<&str> = d.modes().iter().map(joulepath::model::Mode::name).collect();
+    let hint = did_you_mean(name, names.iter().copied()).map_or_else(
+        || {
+            let quoted: Vec<String> = names.iter().map(|n| format!("`{n}`")).collect();
+            format!("the modes are {}", quoted.join(", "))
+        },
+        |s| format!("did you mean `{s}`?"),
+    );
+    Err(Failure::Usage(format!(
+        "the design has no mode `{name}` ({hint})"
+    )))
+}
+
+/// `joulepath cells [NAME]`: every preset, or the one named.
+fn cells_command(name: Option<&str>, f: Format, buf: &mut Vec<u8>) -> Result<(), Failure> {
+    let io_fail = |e: io::Error| Failure::Input(format!("cannot write the output: {e}"));
+    match name {
+        None => {
+            let all = Preset::all().map_err(|e| Failure::Input(e.to_string()))?;
+            write_cells(buf, &all, f).map_err(io_fail)
+        }
+        Some(n) => {
+            if Preset::text(n).is_none() {
+                return Err(Failure::Usage(format!(
+                    "unknown cell preset `{n}` ({})",
+                    Preset::suggestion(n)
+                )));
+            }
+            let p = Preset::load(n).map_err(|e| Failure::Input(e.to_string()))?;
+            write_cell(buf, &p, f).map_err(io_fail)
+        }
+    }
+}
+
+/// `joulepath report`: a design with tolerances gets a spread section; a spread that cannot run
+/// is said in its place rather than failing the report.
+fn report_with_spread(
+    d: &Design,
+    ra: &RunArgs,
+    soc: Option<f64>,
+    spread: &ReportSpread,
+) -> Result<Vec<u8>, Failure> {
+    let sp = (!d.tolerances().is_empty()).then(|| {
+        let (n, t) = (spread.samples as usize, spread.target);
+        spread_command(d.clone(), ra, n, spread.seed, t, false).map_err(|e| e.message())
+    });
+    let sp = sp
+        .as_ref()
+        .map(|r| r.as_ref().map(|x| &x.1).map_err(String::as_str));
+    report_command(d, &run_options(d, ra, true), soc, sp)
+}
+
 /// Run the command line.
 pub fn run(args: &Args) -> Result<(), Failure> {
     let mut buf: Vec<u8> = Vec::new();
@@ -214,7 +275,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
         Command::Check { file } => {
             let d = load(file)?;
             write_outline(&mut buf, &d).map_err(io_fail)?;
-            write_warnings(&mut buf, &warnings(&d, d.ambient_c), 96).map_err(io_fail)?;
+            write_warnings(&mut buf, &warnings(&d, d.ambient_c()), 96).map_err(io_fail)?;
             emit(&buf, None)
         }
         Command::Budget {
@@ -226,30 +287,11 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             output,
         } => {
             let d = load_with(file, sets)?;
-            let modes: Vec<usize> = match mode {
-                None => d.file_modes(),
-                Some(name) => match d.mode_index(name) {
-                    Some(m) => vec![m],
-                    None => {
-                        let names: Vec<&str> = d.modes.iter().map(|m| m.name.as_str()).collect();
-                        let hint = did_you_mean(name, names.iter().copied()).map_or_else(
-                            || {
-                                let quoted: Vec<String> =
-                                    names.iter().map(|n| format!("`{n}`")).collect();
-                                format!("the modes are {}", quoted.join(", "))
-                            },
-                            |s| format!("did you mean `{s}`?"),
-                        );
-                        return Err(Failure::Usage(format!(
-                            "the design has no mode `{name}` ({hint})"
-                        )));
-                    }
-                },
-            };
-            let soc = soc.unwrap_or(d.pack.start_soc);
+            let modes = budget_modes(&d, mode.as_deref())?;
+            let soc = soc.unwrap_or(d.pack().start_soc());
             let result = budget(&d, soc, &modes);
             write_budget(&mut buf, &d, soc, &result, format(*f)).map_err(io_fail)?;
-            warn_beside(&d, d.ambient_c, *f);
+            warn_beside(&d, d.ambient_c(), *f);
             emit(&buf, output.as_deref())
         }
         Command::Runtime {
@@ -296,7 +338,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             let d = load_with(file, sets)?;
             let sp = spread_command(d, ra, *samples as usize, *seed, *target, *corners)?;
             write_spread(&mut buf, &sp.0, &sp.1, format(*f)).map_err(io_fail)?;
-            warn_beside(&sp.0, sp.0.ambient_c, *f);
+            warn_beside(&sp.0, sp.0.ambient_c(), *f);
             for (path, bytes) in draw_spread(&sp.0, &sp.1, &to_draw)? {
                 emit(&bytes, Some(&path))?;
             }
@@ -307,22 +349,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             format: f,
             output,
         } => {
-            match name {
-                None => {
-                    let all = Preset::all().map_err(|e| Failure::Input(e.to_string()))?;
-                    write_cells(&mut buf, &all, format(*f)).map_err(io_fail)?;
-                }
-                Some(n) => {
-                    if Preset::text(n).is_none() {
-                        return Err(Failure::Usage(format!(
-                            "unknown cell preset `{n}` ({})",
-                            Preset::suggestion(n)
-                        )));
-                    }
-                    let p = Preset::load(n).map_err(|e| Failure::Input(e.to_string()))?;
-                    write_cell(&mut buf, &p, format(*f)).map_err(io_fail)?;
-                }
-            }
+            cells_command(name.as_deref(), format(*f), &mut buf)?;
             emit(&buf, output.as_deref())
         }
         Command::Compare {
@@ -399,16 +426,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             output,
         } => {
             let d = load_with(file, sets)?;
-            // A design with tolerances gets a spread section; a spread that cannot run is said
-            // in its place rather than failing the report.
-            let sp = (!d.tolerances.is_empty()).then(|| {
-                let (n, t) = (spread.samples as usize, spread.target);
-                spread_command(d.clone(), ra, n, spread.seed, t, false).map_err(|e| e.message())
-            });
-            let sp = sp
-                .as_ref()
-                .map(|r| r.as_ref().map(|x| &x.1).map_err(String::as_str));
-            let bytes = report_command(&d, &run_options(&d, ra, true), *soc, sp)?;
+            let bytes = report_with_spread(&d, ra, *soc, spread)?;
             emit(&bytes, Some(output))
         }
         Command::Size(a) => super::size::size_command(a),
@@ -430,16 +448,21 @@ fn spread_command(
     corners: bool,
 ) -> Result<(Design, joulepath::spread::Spread), Failure> {
     if let Some(t) = ra.ambient {
-        if d.tolerances
+        if d.tolerances()
             .iter()
-            .any(|t| t.knob == joulepath::model::Knob::Ambient)
+            .any(|t| *t.knob() == joulepath::model::Knob::Ambient)
         {
             return Err(Failure::Usage(
                 "the ambient varies in the design's `tolerances:`, so `--ambient` cannot fix it; move its centre with `--set ambient=...` instead".into(),
             ));
         }
-        d.ambient_c = t;
-        d.climate = None;
+        d.set_ambient(t).map_err(|r| {
+            Failure::Usage(format!(
+                "--ambient must lie between {} and {} °C",
+                r.lo(),
+                r.hi()
+            ))
+        })?;
     }
     let opts = joulepath::spread::SpreadOptions {
         samples,

@@ -69,7 +69,7 @@ pub fn size_command(a: &SizeArgs) -> Result<(), Failure> {
     write_size(&mut buf, &sizing, format(a.format))
         .map_err(|e| Failure::Input(format!("cannot write the output: {e}")))?;
     if !matches!(a.format, FormatArg::Table) {
-        let ambient = a.ambient.unwrap_or(design.ambient_c);
+        let ambient = a.ambient.unwrap_or(design.ambient_c());
         let mut all = warnings(&design, ambient);
         for w in &sizing.warnings {
             if !all.contains(w) {

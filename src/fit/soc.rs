@@ -57,82 +57,9 @@ pub fn fit(curves: &[Curve], opts: &FitOptions) -> Result<Fit, FitError> {
         .iter()
         .map(|c| peukert_factor(c.current_a(), rated, k) / q_c)
         .collect();
-    let starts: Vec<f64> = curves
-        .iter()
-        .zip(&per_c)
-        .map(|(c, p)| 1.0 - c.first_c() * p)
-        .collect();
-    let ends: Vec<f64> = curves
-        .iter()
-        .zip(&per_c)
-        .map(|(c, p)| 1.0 - c.capacity_c() * p)
-        .collect();
-    // Ends within a micro-SoC of full or empty are rounding of the digitized capacities.
-    let snap = |s: f64| {
-        if s < 1e-6 {
-            0.0
-        } else if s > 1.0 - 1e-6 {
-            1.0
-        } else {
-            s
-        }
-    };
-    let hi = snap(starts.iter().fold(1.0, |m: f64, &s| m.min(s)));
-    let lo = snap(ends.iter().fold(0.0, |m: f64, &s| m.max(s)));
-    if hi - lo < MIN_SPAN {
-        return Err(FitError::new(
-            "",
-            format!(
-                "the curves share only the SoC range {} to {} in the fitted capacity law",
-                fmt_percent(lo),
-                fmt_percent(hi.max(lo))
-            ),
-        )
-        .with_hint("give curves that each run from full to the end of discharge"));
-    }
+    let (starts, ends, lo, hi) = shared_span(curves, &per_c)?;
     let grid = soc_grid(opts.soc_step);
-    let mut fitted: Vec<f64> = grid
-        .iter()
-        .copied()
-        .filter(|&s| s >= lo - EDGE_TOL && s <= hi + EDGE_TOL)
-        .collect();
-    for edge in [lo, hi] {
-        if grid.iter().all(|g| (g - edge).abs() >= EDGE_TOL) {
-            fitted.push(edge);
-        }
-    }
-    fitted.sort_by(f64::total_cmp);
-    let currents: Vec<f64> = curves.iter().map(Curve::current_a).collect();
-    let mut rows: Vec<SocPoint> = fitted
-        .iter()
-        .map(|&s| {
-            let volts: Vec<f64> = curves
-                .iter()
-                .zip(&per_c)
-                .map(|(c, p)| c.voltage_at((1.0 - s) / p))
-                .collect();
-            let (ocv_v, resistance_ohm, clamped) = least_squares(&currents, &volts);
-            SocPoint {
-                soc: s,
-                ocv_v,
-                resistance_ohm,
-                extrapolated: false,
-                resistance_clamped: clamped,
-                ocv_adjusted: false,
-            }
-        })
-        .collect();
-    if rows.len() < 2
-        || rows
-            .iter()
-            .any(|p| !(p.ocv_v.is_finite() && p.resistance_ohm.is_finite()))
-    {
-        return Err(FitError::new(
-            "",
-            "the curves give no usable OCV and resistance (too few SoC points or numbers out of range)",
-        )
-        .with_hint("check the currents and the capacity and voltage units of the curves"));
-    }
+    let mut rows = fit_rows(curves, &per_c, &grid, lo, hi)?;
     extrapolate(&mut rows, &grid);
     let adjusted = make_monotone(&mut rows);
     for p in &mut rows {
@@ -197,6 +124,102 @@ pub fn fit(curves: &[Curve], opts: &FitOptions) -> Result<Fit, FitError> {
     note_table(&mut f, adjusted);
     note_capacities(&mut f);
     Ok(f)
+}
+
+/// Where the curves start and end in the fitted capacity law (SoC, each curve), and the range
+/// of SoC they all cover.
+fn shared_span(
+    curves: &[Curve],
+    per_c: &[f64],
+) -> Result<(Vec<f64>, Vec<f64>, f64, f64), FitError> {
+    let starts: Vec<f64> = curves
+        .iter()
+        .zip(per_c)
+        .map(|(c, p)| 1.0 - c.first_c() * p)
+        .collect();
+    let ends: Vec<f64> = curves
+        .iter()
+        .zip(per_c)
+        .map(|(c, p)| 1.0 - c.capacity_c() * p)
+        .collect();
+    // Ends within a micro-SoC of full or empty are rounding of the digitized capacities.
+    let snap = |s: f64| {
+        if s < 1e-6 {
+            0.0
+        } else if s > 1.0 - 1e-6 {
+            1.0
+        } else {
+            s
+        }
+    };
+    let hi = snap(starts.iter().fold(1.0, |m: f64, &s| m.min(s)));
+    let lo = snap(ends.iter().fold(0.0, |m: f64, &s| m.max(s)));
+    if hi - lo < MIN_SPAN {
+        return Err(FitError::new(
+            "",
+            format!(
+                "the curves share only the SoC range {} to {} in the fitted capacity law",
+                fmt_percent(lo),
+                fmt_percent(hi.max(lo))
+            ),
+        )
+        .with_hint("give curves that each run from full to the end of discharge"));
+    }
+    Ok((starts, ends, lo, hi))
+}
+
+/// The OCV and resistance at each SoC of `grid` within `lo..hi` (and at the edges), each by
+/// least squares across the curves' voltages at that SoC.
+fn fit_rows(
+    curves: &[Curve],
+    per_c: &[f64],
+    grid: &[f64],
+    lo: f64,
+    hi: f64,
+) -> Result<Vec<SocPoint>, FitError> {
+    let mut fitted: Vec<f64> = grid
+        .iter()
+        .copied()
+        .filter(|&s| s >= lo - EDGE_TOL && s <= hi + EDGE_TOL)
+        .collect();
+    for edge in [lo, hi] {
+        if grid.iter().all(|g| (g - edge).abs() >= EDGE_TOL) {
+            fitted.push(edge);
+        }
+    }
+    fitted.sort_by(f64::total_cmp);
+    let currents: Vec<f64> = curves.iter().map(Curve::current_a).collect();
+    let rows: Vec<SocPoint> = fitted
+        .iter()
+        .map(|&s| {
+            let volts: Vec<f64> = curves
+                .iter()
+                .zip(per_c)
+                .map(|(c, p)| c.voltage_at((1.0 - s) / p))
+                .collect();
+            let (ocv_v, resistance_ohm, clamped) = least_squares(&currents, &volts);
+            SocPoint {
+                soc: s,
+                ocv_v,
+                resistance_ohm,
+                extrapolated: false,
+                resistance_clamped: clamped,
+                ocv_adjusted: false,
+            }
+        })
+        .collect();
+    if rows.len() < 2
+        || rows
+            .iter()
+            .any(|p| !(p.ocv_v.is_finite() && p.resistance_ohm.is_finite()))
+    {
+        return Err(FitError::new(
+            "",
+            "the curves give no usable OCV and resistance (too few SoC points or numbers out of range)",
+        )
+        .with_hint("check the currents and the capacity and voltage units of the curves"));
+    }
+    Ok(rows)
 }
 
 fn check_inputs(curves: &[Curve], opts: &FitOptions) -> Result<(), FitError> {

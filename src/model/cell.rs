@@ -181,47 +181,47 @@ impl SelfDischargeLaw {
 #[derive(Debug, Clone)]
 pub struct Cell {
     /// Name (a key of `cells`, a preset, or `inline`).
-    pub name: String,
+    pub(crate) name: String,
     /// Whether the cell starts from a built-in preset (which gives every value with its origin)
     /// rather than being described in the design alone.
-    pub from_preset: bool,
+    pub(crate) from_preset: bool,
     /// Chemistry.
-    pub chemistry: Chemistry,
+    pub(crate) chemistry: Chemistry,
     /// Rated capacity, C.
-    pub capacity_c: f64,
+    pub(crate) capacity_c: f64,
     /// Current of the capacity rating, A.
-    pub rated_current_a: f64,
+    pub(crate) rated_current_a: f64,
     /// OCV against SoC (0..1), V.
-    pub ocv: Table,
+    pub(crate) ocv: Table,
     /// Ohmic resistance against SoC, Ω.
-    pub resistance: Table,
+    pub(crate) resistance: Table,
     /// Polarization resistance, Ω, and time constant, s (0 and 0 when absent).
-    pub polarization: Option<(f64, f64)>,
+    pub(crate) polarization: Option<(f64, f64)>,
     /// Peukert exponent, >= 1.
-    pub peukert: f64,
+    pub(crate) peukert: f64,
     /// Time constant of the first-order filter through which the rate law sees the pack
     /// current, s (0: the current of the instant).
-    pub rate_window_s: f64,
+    pub(crate) rate_window_s: f64,
     /// Cutoff voltage, V.
-    pub cutoff_v: f64,
+    pub(crate) cutoff_v: f64,
     /// Continuous discharge limit, A.
-    pub max_current_a: Option<f64>,
+    pub(crate) max_current_a: Option<f64>,
     /// Pulse discharge limit, A, and the longest pulse it allows, s.
-    pub max_pulse: Option<(f64, f64)>,
+    pub(crate) max_pulse: Option<(f64, f64)>,
     /// Self-discharge at `self_discharge_ref_c`, fraction of rated capacity per second.
-    pub self_discharge_per_s: f64,
+    pub(crate) self_discharge_per_s: f64,
     /// The temperature of `self_discharge_per_s`, °C.
-    pub self_discharge_ref_c: f64,
+    pub(crate) self_discharge_ref_c: f64,
     /// How the self-discharge changes with temperature.
-    pub self_discharge_law: SelfDischargeLaw,
+    pub(crate) self_discharge_law: SelfDischargeLaw,
     /// Capacity factor against temperature (°C).
-    pub temp_capacity: Table,
+    pub(crate) temp_capacity: Table,
     /// Resistance factor against temperature (°C).
-    pub temp_resistance: Table,
+    pub(crate) temp_resistance: Table,
     /// Mass of one cell, kg (unknown when the cell does not give it).
-    pub mass_kg: Option<f64>,
+    pub(crate) mass_kg: Option<f64>,
     /// Outer size of one cell (unknown when the cell does not give it).
-    pub size: Option<CellSize>,
+    pub(crate) size: Option<CellSize>,
 }
 
 impl Cell {
@@ -309,6 +309,111 @@ impl CellSize {
                 mm(height_m)
             ),
         }
+    }
+}
+
+/// Read access to the checked values (the fields stay private: only the checker builds a `Cell`).
+impl Cell {
+    /// Name (a key of `cells`, a preset, or `inline`).
+    pub fn name(&self) -> &str {
+        &self.name
+    }
+
+    /// Whether the cell starts from a built-in preset (which gives every value with its origin)
+    /// rather than being described in the design alone.
+    pub fn from_preset(&self) -> bool {
+        self.from_preset
+    }
+
+    /// Chemistry.
+    pub fn chemistry(&self) -> Chemistry {
+        self.chemistry
+    }
+
+    /// Rated capacity, C.
+    pub fn capacity_c(&self) -> f64 {
+        self.capacity_c
+    }
+
+    /// Current of the capacity rating, A.
+    pub fn rated_current_a(&self) -> f64 {
+        self.rated_current_a
+    }
+
+    /// OCV against SoC (0..1), V.
+    pub fn ocv(&self) -> &Table {
+        &self.ocv
+    }
+
+    /// Ohmic resistance against SoC, Ω.
+    pub fn resistance(&self) -> &Table {
+        &self.resistance
+    }
+
+    /// Polarization resistance, Ω, and time constant, s (0 and 0 when absent).
+    pub fn polarization(&self) -> Option<(f64, f64)> {
+        self.polarization
+    }
+
+    /// Peukert exponent, >= 1.
+    pub fn peukert(&self) -> f64 {
+        self.peukert
+    }
+
+    /// Time constant of the first-order filter through which the rate law sees the pack
+    /// current, s (0: the current of the instant).
+    pub fn rate_window_s(&self) -> f64 {
+        self.rate_window_s
+    }
+
+    /// Cutoff voltage, V.
+    pub fn cutoff_v(&self) -> f64 {
+        self.cutoff_v
+    }
+
+    /// Continuous discharge limit, A.
+    pub fn max_current_a(&self) -> Option<f64> {
+        self.max_current_a
+    }
+
+    /// Pulse discharge limit, A, and the longest pulse it allows, s.
+    pub fn max_pulse(&self) -> Option<(f64, f64)> {
+        self.max_pulse
+    }
+
+    /// Self-discharge at `self_discharge_ref_c`, fraction of rated capacity per second.
+    pub fn self_discharge_per_s(&self) -> f64 {
+        self.self_discharge_per_s
+    }
+
+    /// The temperature of `self_discharge_per_s`, °C.
+    pub fn self_discharge_ref_c(&self) -> f64 {
+        self.self_discharge_ref_c
+    }
+
+    /// How the self-discharge changes with temperature.
+    pub fn self_discharge_law(&self) -> SelfDischargeLaw {
+        self.self_discharge_law
+    }
+
+    /// Capacity factor against temperature (°C).
+    pub fn temp_capacity(&self) -> &Table {
+        &self.temp_capacity
+    }
+
+    /// Resistance factor against temperature (°C).
+    pub fn temp_resistance(&self) -> &Table {
+        &self.temp_resistance
+    }
+
+    /// Mass of one cell, kg (unknown when the cell does not give it).
+    pub fn mass_kg(&self) -> Option<f64> {
+        self.mass_kg
+    }
+
+    /// Outer size of one cell (unknown when the cell does not give it).
+    pub fn size(&self) -> Option<CellSize> {
+        self.size
     }
 }
 

@@ -35,13 +35,13 @@ const DAY_S: f64 = 86_400.0;
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Climate {
     /// Monthly means, January first, less their mean, °C (none: no yearly cycle).
-    pub monthly_c: Option<[f64; 12]>,
+    pub(crate) monthly_c: Option<[f64; 12]>,
     /// The month the run starts in, 0 (January) to 11.
-    pub start_month: usize,
+    pub(crate) start_month: usize,
     /// Warmest less coldest hour of the day, °C (0: no daily swing).
-    pub daily_range_c: f64,
+    pub(crate) daily_range_c: f64,
     /// Time of day of the warmest hour, s after midnight.
-    pub warmest_s: f64,
+    pub(crate) warmest_s: f64,
     /// Coefficients of the yearly curve: `a_1, b_1, ..., a_5, b_5, a_6` (zero without a yearly
     /// cycle).
     harmonics: [f64; 11],
@@ -152,6 +152,29 @@ impl Climate {
                 (lo.min(d), hi.max(d))
             });
         (lo - half, hi + half)
+    }
+}
+
+/// Read access to the checked values (the fields stay private: only the checker builds a `Climate`).
+impl Climate {
+    /// Monthly means, January first, less their mean, °C (none: no yearly cycle).
+    pub fn monthly_c(&self) -> Option<[f64; 12]> {
+        self.monthly_c
+    }
+
+    /// The month the run starts in, 0 (January) to 11.
+    pub fn start_month(&self) -> usize {
+        self.start_month
+    }
+
+    /// Warmest less coldest hour of the day, °C (0: no daily swing).
+    pub fn daily_range_c(&self) -> f64 {
+        self.daily_range_c
+    }
+
+    /// Time of day of the warmest hour, s after midnight.
+    pub fn warmest_s(&self) -> f64 {
+        self.warmest_s
     }
 }
 

@@ -58,23 +58,23 @@ impl Draw {
 #[derive(Debug, Clone)]
 pub struct Load {
     /// Unique id.
-    pub id: String,
+    pub(crate) id: String,
     /// Rail: 0 the battery, `k + 1` the output of stage `k`.
-    pub rail: usize,
+    pub(crate) rail: usize,
     /// Lowest supply the load works at, V.
-    pub v_min: Option<f64>,
+    pub(crate) v_min: Option<f64>,
     /// Highest supply the load tolerates, V.
-    pub v_max: Option<f64>,
+    pub(crate) v_max: Option<f64>,
     /// Named states and their draws (the state `off` is implicit and draws nothing). The first
     /// `file_states` are the file's; a state that follows a capture draws the capture's mean
     /// there, and its segments are states after those, with the same name.
-    pub states: Vec<(String, Draw)>,
+    pub(crate) states: Vec<(String, Draw)>,
     /// State used when a mode does not name the load (`None` = off).
-    pub default: Option<usize>,
+    pub(crate) default: Option<usize>,
     /// How many of `states` the file gives.
-    pub file_states: usize,
+    pub(crate) file_states: usize,
     /// The states that follow a capture.
-    pub captured: Vec<Captured>,
+    pub(crate) captured: Vec<Captured>,
 }
 
 /// A load state whose draw follows a measured capture: in a phase of a mode that puts the load
@@ -82,19 +82,19 @@ pub struct Load {
 #[derive(Debug, Clone, PartialEq)]
 pub struct Captured {
     /// The state (an index of the file's states).
-    pub state: usize,
+    pub(crate) state: usize,
     /// The capture file as named in the design.
-    pub file: String,
+    pub(crate) file: String,
     /// Samples in the capture.
-    pub samples: usize,
+    pub(crate) samples: usize,
     /// Duration of one capture, s.
-    pub duration_s: f64,
+    pub(crate) duration_s: f64,
     /// The segments in order: duration, s, and the load state drawing that segment's mean.
-    pub segments: Vec<(f64, usize)>,
+    pub(crate) segments: Vec<(f64, usize)>,
     /// The tolerance on the pack's lowest terminal voltage, V.
-    pub tolerance_v: f64,
+    pub(crate) tolerance_v: f64,
     /// The bound the segments keep, V.
-    pub bound_v: f64,
+    pub(crate) bound_v: f64,
 }
 
 impl Load {
@@ -108,5 +108,88 @@ impl Load {
         self.captured
             .iter()
             .find(|c| c.state == s || c.segments.iter().any(|&(_, k)| k == s))
+    }
+}
+
+/// Read access to the checked values (the fields stay private: only the checker builds a `Load`).
+impl Load {
+    /// Unique id.
+    pub fn id(&self) -> &str {
+        &self.id
+    }
+
+    /// Rail: 0 the battery, `k + 1` the output of stage `k`.
+    pub fn rail(&self) -> usize {
+        self.rail
+    }
+
+    /// Lowest supply the load works at, V.
+    pub fn v_min(&self) -> Option<f64> {
+        self.v_min
+    }
+
+    /// Highest supply the load tolerates, V.
+    pub fn v_max(&self) -> Option<f64> {
+        self.v_max
+    }
+
+    /// Named states and their draws (the state `off` is implicit and draws nothing). The first
+    /// `file_states` are the file's; a state that follows a capture draws the capture's mean
+    /// there, and its segments are states after those, with the same name.
+    pub fn states(&self) -> &[(String, Draw)] {
+        &self.states
+    }
+
+    /// State used when a mode does not name the load (`None` = off).
+    pub fn default_state(&self) -> Option<usize> {
+        self.default
+    }
+
+    /// How many of `states` the file gives.
+    pub fn file_states(&self) -> usize {
+        self.file_states
+    }
+
+    /// The states that follow a capture.
+    pub fn captured(&self) -> &[Captured] {
+        &self.captured
+    }
+}
+
+/// Read access to the checked values (the fields stay private: only the checker builds a `Captured`).
+impl Captured {
+    /// The state (an index of the file's states).
+    pub fn state(&self) -> usize {
+        self.state
+    }
+
+    /// The capture file as named in the design.
+    pub fn file(&self) -> &str {
+        &self.file
+    }
+
+    /// Samples in the capture.
+    pub fn samples(&self) -> usize {
+        self.samples
+    }
+
+    /// Duration of one capture, s.
+    pub fn duration_s(&self) -> f64 {
+        self.duration_s
+    }
+
+    /// The segments in order: duration, s, and the load state drawing that segment's mean.
+    pub fn segments(&self) -> &[(f64, usize)] {
+        &self.segments
+    }
+
+    /// The tolerance on the pack's lowest terminal voltage, V.
+    pub fn tolerance_v(&self) -> f64 {
+        self.tolerance_v
+    }
+
+    /// The bound the segments keep, V.
+    pub fn bound_v(&self) -> f64 {
+        self.bound_v
     }
 }

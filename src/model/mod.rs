@@ -36,26 +36,26 @@ pub const BATTERY: &str = "battery";
 #[derive(Debug, Clone)]
 pub struct Design {
     /// Title shown in reports.
-    pub title: String,
+    pub(crate) title: String,
     /// Ambient temperature, °C.
-    pub ambient_c: f64,
+    pub(crate) ambient_c: f64,
     /// How the ambient moves around `ambient_c` along the run (a yearly and a daily cycle;
     /// none: constant).
-    pub climate: Option<Climate>,
+    pub(crate) climate: Option<Climate>,
     /// The pack.
-    pub pack: Pack,
+    pub(crate) pack: Pack,
     /// Stages, in file order.
-    pub stages: Vec<Stage>,
+    pub(crate) stages: Vec<Stage>,
     /// Loads, in file order.
-    pub loads: Vec<Load>,
+    pub(crate) loads: Vec<Load>,
     /// Modes, in file order.
-    pub modes: Vec<Mode>,
+    pub(crate) modes: Vec<Mode>,
     /// The duty profile.
-    pub profile: Vec<Step>,
+    pub(crate) profile: Vec<Step>,
     /// The tree.
-    pub tree: Tree,
+    pub(crate) tree: Tree,
     /// The values that spread from unit to unit (`tolerances:`), in file order.
-    pub tolerances: Vec<Tolerance>,
+    pub(crate) tolerances: Vec<Tolerance>,
 }
 
 impl Design {
@@ -77,8 +77,8 @@ impl Design {
     /// profile: [{ mode: lit, for: 1 h }]
     /// "#;
     /// let d = joulepath::Design::from_text(text).unwrap();
-    /// assert_eq!(d.loads[0].id, "lamp");
-    /// assert!((d.pack.ocv(0.5) - 3.5).abs() < 1e-12);
+    /// assert_eq!(d.loads()[0].id(), "lamp");
+    /// assert!((d.pack().ocv(0.5) - 3.5).abs() < 1e-12);
     /// ```
     pub fn from_text(text: &str) -> Result<Self, Error> {
         Self::from_text_with(text, &[])
@@ -179,5 +179,81 @@ impl Design {
     /// Index of the mode called `name`.
     pub fn mode_index(&self, name: &str) -> Option<usize> {
         self.modes.iter().position(|m| m.name == name)
+    }
+
+    /// Give the design another title (reports show it; the `--set` changes it was run with).
+    pub fn set_title(&mut self, title: String) {
+        self.title = title;
+    }
+
+    /// Run this design at one constant ambient temperature `ambient_c` (°C), without its climate
+    /// (the `--ambient` option).
+    ///
+    /// # Errors
+    ///
+    /// The physical range of an ambient temperature, when `ambient_c` is outside it (the design
+    /// is then unchanged).
+    pub fn set_ambient(&mut self, ambient_c: f64) -> Result<(), Range> {
+        let range = Knob::Ambient.range();
+        if !range.contains(ambient_c) {
+            return Err(range);
+        }
+        self.ambient_c = ambient_c;
+        self.climate = None;
+        Ok(())
+    }
+}
+
+/// Read access to the checked values (the fields stay private: only the checker builds a `Design`).
+impl Design {
+    /// Title shown in reports.
+    pub fn title(&self) -> &str {
+        &self.title
+    }
+
+    /// Ambient temperature, °C.
+    pub fn ambient_c(&self) -> f64 {
+        self.ambient_c
+    }
+
+    /// How the ambient moves around `ambient_c` along the run (a yearly and a daily cycle;
+    /// none: constant).
+    pub fn climate(&self) -> Option<&Climate> {
+        self.climate.as_ref()
+    }
+
+    /// The pack.
+    pub fn pack(&self) -> &Pack {
+        &self.pack
+    }
+
+    /// Stages, in file order.
+    pub fn stages(&self) -> &[Stage] {
+        &self.stages
+    }
+
+    /// Loads, in file order.
+    pub fn loads(&self) -> &[Load] {
+        &self.loads
+    }
+
+    /// Modes, in file order.
+    pub fn modes(&self) -> &[Mode] {
+        &self.modes
+    }
+
+    /// The duty profile.
+    pub fn profile(&self) -> &[Step] {
+        &self.profile
+    }
+
+    /// The tree.
+    pub fn tree(&self) -> &Tree {
+        &self.tree
+    }
+
+    /// The values that spread from unit to unit (`tolerances:`), in file order.
+    pub fn tolerances(&self) -> &[Tolerance] {
+        &self.tolerances
     }
 }

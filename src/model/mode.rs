@@ -4,20 +4,20 @@
 #[derive(Debug, Clone)]
 pub struct Mode {
     /// Name.
-    pub name: String,
+    pub(crate) name: String,
     /// State of each load, by load index (`None` = off).
-    pub load_states: Vec<Option<usize>>,
+    pub(crate) load_states: Vec<Option<usize>>,
     /// Whether each stage is enabled, by stage index.
-    pub stage_on: Vec<bool>,
+    pub(crate) stage_on: Vec<bool>,
     /// For each rail, the draws of its loads that are on in this mode (derived from
     /// `load_states` when the design is checked).
-    pub rail_draws: Vec<Vec<super::Draw>>,
+    pub(crate) rail_draws: Vec<Vec<super::Draw>>,
     /// The longest time the profile holds this mode at a stretch, s (see [`longest_holds`]):
     /// a cell's pulse limit applies to a mode held no longer than the cell's pulse length.
-    pub longest_hold_s: f64,
+    pub(crate) longest_hold_s: f64,
     /// For a segment of a capture (made by the checker: the same name and states as its mode,
     /// with the captured loads in one segment's draw), the mode of the file it is part of.
-    pub part_of: Option<usize>,
+    pub(crate) part_of: Option<usize>,
 }
 
 impl Mode {
@@ -137,5 +137,41 @@ impl Step {
                 RepeatUntil::Times(n) => *n as f64 * steps.iter().map(Step::duration).sum::<f64>(),
             },
         }
+    }
+}
+
+/// Read access to the checked values (the fields stay private: only the checker builds a `Mode`).
+impl Mode {
+    /// Name.
+    pub fn name(&self) -> &str {
+        &self.name
+    }
+
+    /// State of each load, by load index (`None` = off).
+    pub fn load_states(&self) -> &[Option<usize>] {
+        &self.load_states
+    }
+
+    /// Whether each stage is enabled, by stage index.
+    pub fn stage_on(&self) -> &[bool] {
+        &self.stage_on
+    }
+
+    /// For each rail, the draws of its loads that are on in this mode (derived from
+    /// `load_states` when the design is checked).
+    pub fn rail_draws(&self) -> &[Vec<super::Draw>] {
+        &self.rail_draws
+    }
+
+    /// The longest time the profile holds this mode at a stretch, s (see [`longest_holds`]):
+    /// a cell's pulse limit applies to a mode held no longer than the cell's pulse length.
+    pub fn longest_hold_s(&self) -> f64 {
+        self.longest_hold_s
+    }
+
+    /// For a segment of a capture (made by the checker: the same name and states as its mode,
+    /// with the captured loads in one segment's draw), the mode of the file it is part of.
+    pub fn part_of(&self) -> Option<usize> {
+        self.part_of
     }
 }

@@ -12,19 +12,19 @@ use super::cell::Cell;
 #[derive(Debug, Clone)]
 pub struct Pack {
     /// The cell.
-    pub cell: Cell,
+    pub(crate) cell: Cell,
     /// Cells in series.
-    pub series: u32,
+    pub(crate) series: u32,
     /// Strings in parallel.
-    pub parallel: u32,
+    pub(crate) parallel: u32,
     /// SoC at the start, 0..1.
-    pub start_soc: f64,
+    pub(crate) start_soc: f64,
     /// Remaining capacity factor from aging.
-    pub aging_capacity: f64,
+    pub(crate) aging_capacity: f64,
     /// Resistance factor from aging.
-    pub aging_resistance: f64,
+    pub(crate) aging_resistance: f64,
     /// A buffer capacitor across the pack, if any.
-    pub buffer: Option<Buffer>,
+    pub(crate) buffer: Option<Buffer>,
 }
 
 /// A buffer capacitor across the pack: the node the tree draws from is the capacitor's, and
@@ -37,6 +37,8 @@ pub struct Pack {
 /// leakage), the cells give I_b = (E - x + Rc I) / (R + Rc), held to [0, limit] with a limiter,
 /// and the capacitor the rest; the node is at x - Rc (I - I_b). The capacitor voltage follows
 /// C dx/dt = I_b - I (Kirchhoff's laws on the two branches; textbook circuit theory).
+///
+/// Its fields are public: a `Buffer` built outside the checker cannot be put into a `Pack`.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Buffer {
     /// Capacitance, F.
@@ -51,6 +53,20 @@ pub struct Buffer {
 }
 
 impl Pack {
+    /// One new cell alone, full, unaged (a cell comes only from a preset or a checked design,
+    /// so the pack is as sound as they are).
+    pub fn one_cell(cell: Cell) -> Self {
+        Self {
+            cell,
+            series: 1,
+            parallel: 1,
+            start_soc: 1.0,
+            aging_capacity: 1.0,
+            aging_resistance: 1.0,
+            buffer: None,
+        }
+    }
+
     fn scale_r(&self, ambient_c: f64) -> f64 {
         f64::from(self.series) / f64::from(self.parallel)
             * self.cell.temp_resistance.at(ambient_c)
@@ -128,5 +144,43 @@ impl Pack {
         } else {
             i
         }
+    }
+}
+
+/// Read access to the checked values (the fields stay private: only the checker builds a `Pack`).
+impl Pack {
+    /// The cell.
+    pub fn cell(&self) -> &Cell {
+        &self.cell
+    }
+
+    /// Cells in series.
+    pub fn series(&self) -> u32 {
+        self.series
+    }
+
+    /// Strings in parallel.
+    pub fn parallel(&self) -> u32 {
+        self.parallel
+    }
+
+    /// SoC at the start, 0..1.
+    pub fn start_soc(&self) -> f64 {
+        self.start_soc
+    }
+
+    /// Remaining capacity factor from aging.
+    pub fn aging_capacity(&self) -> f64 {
+        self.aging_capacity
+    }
+
+    /// Resistance factor from aging.
+    pub fn aging_resistance(&self) -> f64 {
+        self.aging_resistance
+    }
+
+    /// The buffer capacitor across the pack, if any.
+    pub fn buffer(&self) -> Option<Buffer> {
+        self.buffer
     }
 }

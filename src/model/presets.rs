@@ -49,18 +49,18 @@ pub const PRESETS: &[(&str, &str)] = &[
 /// ```
 /// use joulepath::model::Preset;
 /// let p = Preset::load("alkaline-aa").unwrap();
-/// assert_eq!(p.cell.chemistry.name(), "alkaline");
-/// assert!((p.cell.cutoff_v - 0.9).abs() < 1e-12);
+/// assert_eq!(p.cell().chemistry().name(), "alkaline");
+/// assert!((p.cell().cutoff_v() - 0.9).abs() < 1e-12);
 /// assert!(Preset::load("alkaline-a").is_err());
 /// ```
 #[derive(Debug, Clone)]
 pub struct Preset {
     /// Its name, as written in `battery.cell` or `preset:`.
-    pub name: &'static str,
+    pub(crate) name: &'static str,
     /// One line saying what cell it is.
-    pub description: String,
+    pub(crate) description: String,
     /// The checked cell.
-    pub cell: Cell,
+    pub(crate) cell: Cell,
 }
 
 impl Preset {
@@ -161,15 +161,15 @@ impl Preset {
 ///
 /// ```
 /// use joulepath::model::{Chemistry, Nominal};
-/// assert_eq!(Nominal::of(Chemistry::Alkaline).unwrap().volts, 1.5);
+/// assert_eq!(Nominal::of(Chemistry::Alkaline).unwrap().volts(), 1.5);
 /// assert!(Nominal::of(Chemistry::Other).is_none());
 /// ```
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Nominal {
     /// The designated voltage per cell, V.
-    pub volts: f64,
+    pub(crate) volts: f64,
     /// Where it comes from, in a few words.
-    pub source: &'static str,
+    pub(crate) source: &'static str,
 }
 
 impl Nominal {
@@ -212,6 +212,37 @@ fn spec_of(name: &str, text: &str) -> Result<(CellSpec, SourceMap), String> {
         ));
     }
     Ok((spec, source))
+}
+
+/// Read access to the checked values (the fields stay private: only the checker builds a `Preset`).
+impl Preset {
+    /// Its name, as written in `battery.cell` or `preset:`.
+    pub fn name(&self) -> &'static str {
+        self.name
+    }
+
+    /// One line saying what cell it is.
+    pub fn description(&self) -> &str {
+        &self.description
+    }
+
+    /// The checked cell.
+    pub fn cell(&self) -> &Cell {
+        &self.cell
+    }
+}
+
+/// Read access to the checked values (the fields stay private: only the checker builds a `Nominal`).
+impl Nominal {
+    /// The designated voltage per cell, V.
+    pub fn volts(&self) -> f64 {
+        self.volts
+    }
+
+    /// Where it comes from, in a few words.
+    pub fn source(&self) -> &'static str {
+        self.source
+    }
 }
 
 #[cfg(test)]

@@ -193,43 +193,43 @@ fn curves_loss(curves: &[(Option<f64>, EffCurve)], vin: f64, vout: f64, iout: f6
 #[derive(Debug, Clone)]
 pub struct Stage {
     /// Unique id.
-    pub id: String,
+    pub(crate) id: String,
     /// Kind.
-    pub kind: StageKind,
+    pub(crate) kind: StageKind,
     /// Input rail: 0 is the battery, `k + 1` the output of stage `k`.
-    pub input: usize,
+    pub(crate) input: usize,
     /// Regulation setpoint, V (0 for a switch).
-    pub setpoint: f64,
+    pub(crate) setpoint: f64,
     /// Loss model of a switching stage.
-    pub loss: LossModel,
+    pub(crate) loss: LossModel,
     /// Quiescent current at zero load while enabled, A.
-    pub quiescent: f64,
+    pub(crate) quiescent: f64,
     /// Whether a switching stage draws its quiescent current from its output (through the
     /// converter) rather than from its input.
-    pub quiescent_from_output: bool,
+    pub(crate) quiescent_from_output: bool,
     /// Input current while disabled, A.
-    pub shutdown: f64,
+    pub(crate) shutdown: f64,
     /// Lowest input voltage at which it runs.
-    pub input_min: Option<f64>,
+    pub(crate) input_min: Option<f64>,
     /// Highest rated input voltage.
-    pub input_max: Option<f64>,
+    pub(crate) input_max: Option<f64>,
     /// Output current rating.
-    pub max_output_current: Option<f64>,
+    pub(crate) max_output_current: Option<f64>,
     /// Input current limit of a switching stage in regulation, A: above it the stage is
     /// power-limited and its output falls until the input current is at the limit.
-    pub input_current_limit: Option<f64>,
+    pub(crate) input_current_limit: Option<f64>,
     /// Least Vin - Vout in regulation (buck, linear), V.
-    pub dropout: f64,
+    pub(crate) dropout: f64,
     /// Vin - Vout in bypass at no load (boost), V.
-    pub bypass_drop: f64,
+    pub(crate) bypass_drop: f64,
     /// Resistance of the pass-through in bypass (boost), Ω: Vout = Vin - drop - Iout R.
-    pub bypass_resistance: f64,
+    pub(crate) bypass_resistance: f64,
     /// On resistance (switch), Ω.
-    pub on_resistance: f64,
+    pub(crate) on_resistance: f64,
     /// Junction-to-ambient thermal resistance, K/W.
-    pub theta_ja: Option<f64>,
+    pub(crate) theta_ja: Option<f64>,
     /// Maximum junction temperature, °C.
-    pub tj_max: f64,
+    pub(crate) tj_max: f64,
 }
 
 impl Stage {
@@ -244,13 +244,12 @@ impl Stage {
     /// # Examples
     ///
     /// ```
-    /// use joulepath::model::{LossModel, Stage, StageKind};
-    /// # let mut st = joulepath::Design::from_text("battery: { cell: alkaline-aa }\nstages: [{ id: b, kind: boost, input: battery, output: 3.3 V, efficiency: 85 % }]\nloads: [{ id: l, rail: b, draw: { on: 1 mA } }]\nmodes: { m: { l: on } }\nprofile: [{ mode: m, for: 1 h }]\n").unwrap().stages[0].clone();
-    /// st.quiescent = 5e-6;
+    /// # let boost = |from: &str| joulepath::Design::from_text(&format!("battery: {{ cell: alkaline-aa }}\nstages: [{{ id: b, kind: boost, input: battery, output: 3.3 V, efficiency: 85 %, quiescent: 5 µA, quiescent_from: {from} }}]\nloads: [{{ id: l, rail: b, draw: {{ on: 1 mA }} }}]\nmodes: {{ m: {{ l: on }} }}\nprofile: [{{ mode: m, for: 1 h }}]\n")).unwrap().stages()[0].clone();
+    /// let st = boost("input");
     /// // From the input, 1.2 V x 5 µA = 6 µW at no load.
     /// assert!((st.regulating_loss(1.2, 3.3, 0.0) - 6e-6).abs() < 1e-15);
     /// // From the output, 3.3 V x 5 µA / 85 % = 19.41 µW drawn for it.
-    /// st.quiescent_from_output = true;
+    /// let st = boost("output");
     /// assert!((st.regulating_loss(1.2, 3.3, 0.0) - 3.3 * 5e-6 / 0.85).abs() < 1e-15);
     /// ```
     pub fn regulating_loss(&self, vin: f64, vout: f64, iout: f64) -> f64 {
@@ -260,6 +259,101 @@ impl Stage {
         } else {
             self.loss.loss(vin, vout, iout, self.quiescent)
         }
+    }
+}
+
+/// Read access to the checked values (the fields stay private: only the checker builds a `Stage`).
+impl Stage {
+    /// Unique id.
+    pub fn id(&self) -> &str {
+        &self.id
+    }
+
+    /// Kind.
+    pub fn kind(&self) -> StageKind {
+        self.kind
+    }
+
+    /// Input rail: 0 is the battery, `k + 1` the output of stage `k`.
+    pub fn input(&self) -> usize {
+        self.input
+    }
+
+    /// Regulation setpoint, V (0 for a switch).
+    pub fn setpoint(&self) -> f64 {
+        self.setpoint
+    }
+
+    /// Loss model of a switching stage.
+    pub fn loss(&self) -> &LossModel {
+        &self.loss
+    }
+
+    /// Quiescent current at zero load while enabled, A.
+    pub fn quiescent(&self) -> f64 {
+        self.quiescent
+    }
+
+    /// Whether a switching stage draws its quiescent current from its output (through the
+    /// converter) rather than from its input.
+    pub fn quiescent_from_output(&self) -> bool {
+        self.quiescent_from_output
+    }
+
+    /// Input current while disabled, A.
+    pub fn shutdown(&self) -> f64 {
+        self.shutdown
+    }
+
+    /// Lowest input voltage at which it runs.
+    pub fn input_min(&self) -> Option<f64> {
+        self.input_min
+    }
+
+    /// Highest rated input voltage.
+    pub fn input_max(&self) -> Option<f64> {
+        self.input_max
+    }
+
+    /// Output current rating.
+    pub fn max_output_current(&self) -> Option<f64> {
+        self.max_output_current
+    }
+
+    /// Input current limit of a switching stage in regulation, A: above it the stage is
+    /// power-limited and its output falls until the input current is at the limit.
+    pub fn input_current_limit(&self) -> Option<f64> {
+        self.input_current_limit
+    }
+
+    /// Least Vin - Vout in regulation (buck, linear), V.
+    pub fn dropout(&self) -> f64 {
+        self.dropout
+    }
+
+    /// Vin - Vout in bypass at no load (boost), V.
+    pub fn bypass_drop(&self) -> f64 {
+        self.bypass_drop
+    }
+
+    /// Resistance of the pass-through in bypass (boost), Ω: Vout = Vin - drop - Iout R.
+    pub fn bypass_resistance(&self) -> f64 {
+        self.bypass_resistance
+    }
+
+    /// On resistance (switch), Ω.
+    pub fn on_resistance(&self) -> f64 {
+        self.on_resistance
+    }
+
+    /// Junction-to-ambient thermal resistance, K/W.
+    pub fn theta_ja(&self) -> Option<f64> {
+        self.theta_ja
+    }
+
+    /// Maximum junction temperature, °C.
+    pub fn tj_max(&self) -> f64 {
+        self.tj_max
     }
 }
 

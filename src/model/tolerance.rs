@@ -60,13 +60,13 @@ impl Dist {
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Range {
     /// Least value.
-    pub lo: f64,
+    pub(crate) lo: f64,
     /// Whether the least value itself is allowed.
-    pub lo_closed: bool,
+    pub(crate) lo_closed: bool,
     /// Greatest value (allowed).
-    pub hi: f64,
+    pub(crate) hi: f64,
     /// Whether values are whole numbers (counts of cells or passes).
-    pub whole: bool,
+    pub(crate) whole: bool,
 }
 
 impl Range {
@@ -287,7 +287,7 @@ impl Knob {
 
     /// Set the value in `d` to `v` (SI, within [`Knob::range`]). A load's draw also updates the
     /// modes' per-rail draws, so the design stays consistent.
-    pub fn set(&self, d: &mut Design, v: f64) {
+    pub(crate) fn set(&self, d: &mut Design, v: f64) {
         let c = &mut d.pack.cell;
         match self {
             Knob::Ambient => d.ambient_c = v,
@@ -412,13 +412,13 @@ fn step_mut<'a>(profile: &'a mut [Step], at: &[usize]) -> Option<&'a mut Step> {
 #[derive(Debug, Clone, PartialEq)]
 pub struct Tolerance {
     /// The path as written in `tolerances:`.
-    pub path: String,
+    pub(crate) path: String,
     /// The value varied.
-    pub knob: Knob,
+    pub(crate) knob: Knob,
     /// How it spreads (SI).
-    pub dist: Dist,
+    pub(crate) dist: Dist,
     /// The design's own value (SI).
-    pub nominal: f64,
+    pub(crate) nominal: f64,
 }
 
 impl Tolerance {
@@ -434,5 +434,51 @@ impl Tolerance {
             }
         };
         (fit(lo), fit(hi))
+    }
+}
+
+/// Read access to the checked values (the fields stay private: only the checker builds a `Range`).
+impl Range {
+    /// Least value.
+    pub fn lo(&self) -> f64 {
+        self.lo
+    }
+
+    /// Whether the least value itself is allowed.
+    pub fn lo_closed(&self) -> bool {
+        self.lo_closed
+    }
+
+    /// Greatest value (allowed).
+    pub fn hi(&self) -> f64 {
+        self.hi
+    }
+
+    /// Whether values are whole numbers (counts of cells or passes).
+    pub fn whole(&self) -> bool {
+        self.whole
+    }
+}
+
+/// Read access to the checked values (the fields stay private: only the checker builds a `Tolerance`).
+impl Tolerance {
+    /// The path as written in `tolerances:`.
+    pub fn path(&self) -> &str {
+        &self.path
+    }
+
+    /// The value varied.
+    pub fn knob(&self) -> &Knob {
+        &self.knob
+    }
+
+    /// How it spreads (SI).
+    pub fn dist(&self) -> &Dist {
+        &self.dist
+    }
+
+    /// The design's own value (SI).
+    pub fn nominal(&self) -> f64 {
+        self.nominal
     }
 }

@@ -9,7 +9,7 @@ use super::rows::{CsvRow, write_rows};
 use super::text::{Align, TextTable};
 use super::{Format, caution_for, warnings, wrap, write_warnings};
 use crate::model::Design;
-use crate::solve::{ModeBudget, Solution, junction_c};
+use crate::solve::{ModeBudget, OperatingPoint, Solution, junction_c};
 use crate::units::{fmt_celsius, fmt_eng, fmt_percent};
 
 /// Write the budget of `modes` at `soc` in `format`.
@@ -75,71 +75,23 @@ fn write_table(w: &mut dyn Write, d: &Design, soc: f64, modes: &[ModeBudget]) ->
             }
         )?;
         if !d.stages.is_empty() {
-            let mut t = TextTable::new(&[
-                ("stage", Align::Left),
-                ("kind", Align::Left),
-                ("state", Align::Left),
-                ("Vin", Align::Right),
-                ("Iin", Align::Right),
-                ("Vout", Align::Right),
-                ("Iout", Align::Right),
-                ("loss", Align::Right),
-                ("eff", Align::Right),
-                ("Tj", Align::Right),
-            ]);
-            for (k, (s, sp)) in d.stages.iter().zip(&p.stages).enumerate() {
-                t.row(vec![
-                    s.id.clone(),
-                    s.kind.name().into(),
-                    sp.state.name().into(),
-                    fmt_eng(sp.vin, "V"),
-                    fmt_eng(sp.iin, "A"),
-                    fmt_eng(sp.vout, "V"),
-                    fmt_eng(sp.iout, "A"),
-                    fmt_eng(sp.loss, "W"),
-                    sp.efficiency().map_or_else(|| "—".into(), fmt_percent),
-                    junction_c(d, k, sp.loss, d.ambient_c).map_or_else(|| "—".into(), fmt_celsius),
-                ]);
-            }
             writeln!(w)?;
-            t.write(w, "  ")?;
+            stage_table(d, p).write(w, "  ")?;
         }
         if !d.loads.is_empty() {
-            let mut t = TextTable::new(&[
-                ("load", Align::Left),
-                ("rail", Align::Left),
-                ("state", Align::Left),
-                ("V", Align::Right),
-                ("I", Align::Right),
-                ("P", Align::Right),
-                ("note", Align::Left),
-            ]);
-            for (l, lp) in d.loads.iter().zip(&p.loads) {
-                let note = if !lp.live {
-                    "rail off".to_string()
-                } else if lp.state.is_some() && l.v_min.is_some_and(|v| lp.voltage < v) {
-                    format!("below its {} minimum", opt_eng(l.v_min, "V"))
-                } else {
-                    String::new()
-                };
-                t.row(vec![
-                    l.id.clone(),
-                    d.rail_name(l.rail).into(),
-                    l.state_name(lp.state).into(),
-                    fmt_eng(lp.voltage, "V"),
-                    fmt_eng(lp.current, "A"),
-                    fmt_eng(lp.power, "W"),
-                    note,
-                ]);
-            }
             writeln!(w)?;
-            t.write(w, "  ")?;
+            load_table(d, p).write(w, "  ")?;
         }
         if !m.violations.is_empty() {
             writeln!(w)?;
             writeln!(w, "  violations:")?;
             for v in &m.violations {
-                writeln!(w, "  - {}: {}", v.kind.name(), v.detail)?;
+                writeln!(
+                    w,
+                    "  - {}: {}",
+                    v.kind.name(),
+                    super::violation_detail(d, v)
+                )?;
             }
         }
     }
@@ -149,6 +101,69 @@ fn write_table(w: &mut dyn Write, d: &Design, soc: f64, modes: &[ModeBudget]) ->
         writeln!(w, "{line}")?;
     }
     Ok(())
+}
+
+/// The stages at operating point `p`: state, voltages, currents, loss, efficiency, junction.
+fn stage_table(d: &Design, p: &OperatingPoint) -> TextTable {
+    let mut t = TextTable::new(&[
+        ("stage", Align::Left),
+        ("kind", Align::Left),
+        ("state", Align::Left),
+        ("Vin", Align::Right),
+        ("Iin", Align::Right),
+        ("Vout", Align::Right),
+        ("Iout", Align::Right),
+        ("loss", Align::Right),
+        ("eff", Align::Right),
+        ("Tj", Align::Right),
+    ]);
+    for (k, (s, sp)) in d.stages.iter().zip(&p.stages).enumerate() {
+        t.row(vec![
+            s.id.clone(),
+            s.kind.name().into(),
+            sp.state.name().into(),
+            fmt_eng(sp.vin, "V"),
+            fmt_eng(sp.iin, "A"),
+            fmt_eng(sp.vout, "V"),
+            fmt_eng(sp.iout, "A"),
+            fmt_eng(sp.loss, "W"),
+            sp.efficiency().map_or_else(|| "—".into(), fmt_percent),
+            junction_c(d, k, sp.loss, d.ambient_c).map_or_else(|| "—".into(), fmt_celsius),
+        ]);
+    }
+    t
+}
+
+/// The loads at operating point `p`: rail, state, supply, current, power and a note.
+fn load_table(d: &Design, p: &OperatingPoint) -> TextTable {
+    let mut t = TextTable::new(&[
+        ("load", Align::Left),
+        ("rail", Align::Left),
+        ("state", Align::Left),
+        ("V", Align::Right),
+        ("I", Align::Right),
+        ("P", Align::Right),
+        ("note", Align::Left),
+    ]);
+    for (l, lp) in d.loads.iter().zip(&p.loads) {
+        let note = if !lp.live {
+            "rail off".to_string()
+        } else if lp.state.is_some() && l.v_min.is_some_and(|v| lp.voltage < v) {
+            format!("below its {} minimum", opt_eng(l.v_min, "V"))
+        } else {
+            String::new()
+        };
+        t.row(vec![
+            l.id.clone(),
+            d.rail_name(l.rail).into(),
+            l.state_name(lp.state).into(),
+            fmt_eng(lp.voltage, "V"),
+            fmt_eng(lp.current, "A"),
+            fmt_eng(lp.power, "W"),
+            note,
+        ]);
+    }
+    t
 }
 
 /// One row of `budget --format csv`: the pack, a stage or a load in one mode. A load's supply

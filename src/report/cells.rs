@@ -7,7 +7,7 @@ use serde::Serialize;
 use super::Format;
 use super::rows::{CsvRow, write_rows};
 use super::text::{Align, TextTable};
-use crate::model::{MONTH_S, Nominal, Preset, SelfDischargeLaw};
+use crate::model::{Cell, MONTH_S, Nominal, Preset, SelfDischargeLaw};
 use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent, fmt_sig};
 
 /// Days in the year of the per-year self-discharge shown beside the monthly rate.
@@ -151,27 +151,10 @@ fn table(w: &mut dyn Write, p: &Preset) -> io::Result<()> {
     let c = &p.cell;
     writeln!(w, "{}: {}", p.name, p.description)?;
     writeln!(w)?;
-    let (r_lo, r_hi) = c
-        .resistance
-        .points()
-        .fold((f64::INFINITY, 0.0_f64), |(lo, hi), (_, r)| {
-            (lo.min(r), hi.max(r))
-        });
-    let resistance = if r_hi > r_lo {
-        format!(
-            "{} to {}, by state of charge (below)",
-            fmt_eng(r_lo, "Ω"),
-            fmt_eng(r_hi, "Ω")
-        )
-    } else {
-        fmt_eng(r_lo, "Ω")
-    };
     let polarization = c.polarization.map_or_else(
         || "none".to_string(),
         |(r, tau)| format!("{}, time constant {}", fmt_eng(r, "Ω"), fmt_eng(tau, "s")),
     );
-    let per_month = c.self_discharge_per_s * MONTH_S;
-    let per_year = c.self_discharge_per_s * YEAR_DAYS * 86_400.0;
     let temperature: Vec<String> = c
         .temp_capacity
         .points()
@@ -231,7 +214,7 @@ fn table(w: &mut dyn Write, p: &Preset) -> io::Result<()> {
         ),
     );
     row("cutoff", format!("{} under load", fmt_eng(c.cutoff_v, "V")));
-    row("resistance", resistance);
+    row("resistance", resistance_words(c));
     row("polarization", polarization);
     row("Peukert exponent", fmt_sig(c.peukert, 3));
     if c.peukert > 1.0 {
@@ -260,31 +243,7 @@ fn table(w: &mut dyn Write, p: &Preset) -> io::Result<()> {
             format!("{} in pulses of up to {}", fmt_eng(i, "A"), fmt_duration(t)),
         );
     }
-    let rate = if per_year < 1.0 {
-        format!(
-            "{}/month ({}/year) of the rated capacity",
-            fmt_percent(per_month),
-            fmt_percent(per_year)
-        )
-    } else {
-        // A fast rate: the linear model empties the cell within the year.
-        format!("{}/month of the rated capacity", fmt_percent(per_month))
-    };
-    let law = match c.self_discharge_law {
-        _ if c.self_discharge_per_s == 0.0 => String::new(),
-        SelfDischargeLaw::Constant => ", at every temperature".to_string(),
-        SelfDischargeLaw::Doubling { every_k } => format!(
-            " at {}, doubling every {} °C",
-            fmt_celsius(c.self_discharge_ref_c),
-            fmt_sig(every_k, 3).trim_end_matches(".0")
-        ),
-        SelfDischargeLaw::Arrhenius { ea_j_per_mol } => format!(
-            " at {}, Arrhenius with {} kJ/mol",
-            fmt_celsius(c.self_discharge_ref_c),
-            fmt_sig(ea_j_per_mol / 1000.0, 3)
-        ),
-    };
-    row("self-discharge", format!("{rate}{law}"));
+    row("self-discharge", self_discharge_words(c));
     row(
         "mass",
         c.mass_kg.map_or_else(
@@ -310,6 +269,66 @@ fn table(w: &mut dyn Write, p: &Preset) -> io::Result<()> {
         writeln!(w, "{line}")?;
     }
     writeln!(w)?;
+    write_curve(w, c)?;
+    writeln!(
+        w,
+        "The source and status of every value are given beside it in presets/{}.yaml.",
+        p.name
+    )
+}
+
+/// The cell's resistance in words: one value, or its range by state of charge.
+fn resistance_words(c: &Cell) -> String {
+    let (r_lo, r_hi) = c
+        .resistance
+        .points()
+        .fold((f64::INFINITY, 0.0_f64), |(lo, hi), (_, r)| {
+            (lo.min(r), hi.max(r))
+        });
+    if r_hi > r_lo {
+        format!(
+            "{} to {}, by state of charge (below)",
+            fmt_eng(r_lo, "Ω"),
+            fmt_eng(r_hi, "Ω")
+        )
+    } else {
+        fmt_eng(r_lo, "Ω")
+    }
+}
+
+/// The cell's self-discharge in words: the rate and how it follows the temperature.
+fn self_discharge_words(c: &Cell) -> String {
+    let per_month = c.self_discharge_per_s * MONTH_S;
+    let per_year = c.self_discharge_per_s * YEAR_DAYS * 86_400.0;
+    let rate = if per_year < 1.0 {
+        format!(
+            "{}/month ({}/year) of the rated capacity",
+            fmt_percent(per_month),
+            fmt_percent(per_year)
+        )
+    } else {
+        // A fast rate: the linear model empties the cell within the year.
+        format!("{}/month of the rated capacity", fmt_percent(per_month))
+    };
+    let law = match c.self_discharge_law {
+        _ if c.self_discharge_per_s == 0.0 => String::new(),
+        SelfDischargeLaw::Constant => ", at every temperature".to_string(),
+        SelfDischargeLaw::Doubling { every_k } => format!(
+            " at {}, doubling every {} °C",
+            fmt_celsius(c.self_discharge_ref_c),
+            fmt_sig(every_k, 3).trim_end_matches(".0")
+        ),
+        SelfDischargeLaw::Arrhenius { ea_j_per_mol } => format!(
+            " at {}, Arrhenius with {} kJ/mol",
+            fmt_celsius(c.self_discharge_ref_c),
+            fmt_sig(ea_j_per_mol / 1000.0, 3)
+        ),
+    };
+    format!("{rate}{law}")
+}
+
+/// The open-circuit voltage and resistance against state of charge, full first.
+fn write_curve(w: &mut dyn Write, c: &Cell) -> io::Result<()> {
     let mut curve = TextTable::new(&[
         ("SoC", Align::Right),
         ("OCV", Align::Right),
@@ -323,12 +342,7 @@ fn table(w: &mut dyn Write, p: &Preset) -> io::Result<()> {
         ]);
     }
     curve.write(w, "  ")?;
-    writeln!(w)?;
-    writeln!(
-        w,
-        "The source and status of every value are given beside it in presets/{}.yaml.",
-        p.name
-    )
+    writeln!(w)
 }
 
 #[cfg(test)]

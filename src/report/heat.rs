@@ -51,30 +51,8 @@ pub struct HeatJson {
     pub ranking: Vec<HeatRow>,
 }
 
-/// One row of `heat --format csv`: a [`HeatRow`] with its rank.
-#[derive(Debug, Clone, Serialize)]
-pub struct HeatCsvRow {
-    /// 1 for the biggest waster.
-    pub rank: usize,
-    /// `battery` or the stage id.
-    pub id: String,
-    /// `pack` or the stage kind.
-    pub kind: String,
-    /// Energy lost, Wh.
-    pub loss_wh: f64,
-    /// Share of all losses, 0..1.
-    pub share_of_losses: f64,
-    /// Share of the energy from the cells, 0..1.
-    pub share_of_cell_energy: f64,
-    /// Highest loss in any phase, W.
-    pub peak_loss_w: Option<f64>,
-    /// That phase's mode.
-    pub peak_mode: Option<String>,
-    /// Highest junction temperature, °C.
-    pub max_junction_c: Option<f64>,
-}
-
-impl CsvRow for HeatCsvRow {
+/// One row of `heat --format csv`: a [`HeatRow`] after its rank (1 for the biggest waster).
+impl CsvRow for (usize, &HeatRow) {
     const HEADER: &'static [&'static str] = &[
         "rank",
         "id",
@@ -179,21 +157,8 @@ pub fn write_heat(w: &mut dyn Write, d: &Design, r: &RunResult, format: Format) 
             writeln!(w)
         }
         Format::Csv => {
-            let rows: Vec<HeatCsvRow> = rows
-                .into_iter()
-                .enumerate()
-                .map(|(i, x)| HeatCsvRow {
-                    rank: i + 1,
-                    id: x.id,
-                    kind: x.kind,
-                    loss_wh: x.loss_wh,
-                    share_of_losses: x.share_of_losses,
-                    share_of_cell_energy: x.share_of_cell_energy,
-                    peak_loss_w: x.peak_loss_w,
-                    peak_mode: x.peak_mode,
-                    max_junction_c: x.max_junction_c,
-                })
-                .collect();
+            let rows: Vec<(usize, &HeatRow)> =
+                rows.iter().enumerate().map(|(i, x)| (i + 1, x)).collect();
             write_rows(w, &rows)
         }
         Format::Table => {

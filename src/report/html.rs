@@ -12,7 +12,7 @@ use super::runtime::{end_sentence, energy_sentences};
 use super::spread::{fmt_value, run_text, spread_sentence};
 use super::{caution_for, warnings};
 use crate::model::Design;
-use crate::solve::{ModeBudget, RunResult, Solution, junction_c};
+use crate::solve::{ModeBudget, OperatingPoint, RunResult, Solution, junction_c};
 use crate::spread::Spread;
 use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent};
 
@@ -382,7 +382,7 @@ fn violations_section(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Resul
                     format!("<code>{}</code>", esc(&v.subject)),
                     format!("<code>{}</code>", esc(&v.mode)),
                     v.t_s.map_or_else(|| "—".into(), |t| esc(&fmt_duration(t))),
-                    prose(&v.detail),
+                    prose(&super::violation_detail(d, v)),
                 ]
             })
             .collect();
@@ -397,8 +397,55 @@ fn violations_section(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Resul
             &rows,
         )?;
     }
-    let _ = d;
     writeln!(w, "</section>")
+}
+
+/// The stages at operating point `p`, one row of cells each.
+fn budget_stage_rows(d: &Design, p: &OperatingPoint) -> Vec<Vec<String>> {
+    d.stages
+        .iter()
+        .zip(&p.stages)
+        .enumerate()
+        .map(|(k, (s, sp))| {
+            vec![
+                format!("<code>{}</code>", esc(&s.id)),
+                esc(s.kind.name()),
+                esc(sp.state.name()),
+                esc(&fmt_eng(sp.vin, "V")),
+                esc(&fmt_eng(sp.iin, "A")),
+                esc(&fmt_eng(sp.vout, "V")),
+                esc(&fmt_eng(sp.iout, "A")),
+                esc(&fmt_eng(sp.loss, "W")),
+                sp.efficiency()
+                    .map_or_else(|| "—".into(), |e| esc(&fmt_percent(e))),
+                junction_c(d, k, sp.loss, d.ambient_c)
+                    .map_or_else(|| "—".into(), |c| esc(&fmt_celsius(c))),
+            ]
+        })
+        .collect()
+}
+
+/// The loads at operating point `p`, one row of cells each.
+fn budget_load_rows(d: &Design, p: &OperatingPoint) -> Vec<Vec<String>> {
+    d.loads
+        .iter()
+        .zip(&p.loads)
+        .map(|(l, lp)| {
+            vec![
+                format!("<code>{}</code>", esc(&l.id)),
+                format!("<code>{}</code>", esc(d.rail_name(l.rail))),
+                esc(l.state_name(lp.state)),
+                esc(&fmt_eng(lp.voltage, "V")),
+                esc(&fmt_eng(lp.current, "A")),
+                esc(&fmt_eng(lp.power, "W")),
+                if lp.live {
+                    String::new()
+                } else {
+                    "rail off".into()
+                },
+            ]
+        })
+        .collect()
 }
 
 fn budget_section(w: &mut dyn Write, d: &Design, modes: &[ModeBudget], soc: f64) -> io::Result<()> {
@@ -438,28 +485,7 @@ fn budget_section(w: &mut dyn Write, d: &Design, modes: &[ModeBudget], soc: f64)
             esc(&fmt_eng(p.pack.loss, "W"))
         )?;
         if !d.stages.is_empty() {
-            let rows: Vec<Vec<String>> = d
-                .stages
-                .iter()
-                .zip(&p.stages)
-                .enumerate()
-                .map(|(k, (s, sp))| {
-                    vec![
-                        format!("<code>{}</code>", esc(&s.id)),
-                        esc(s.kind.name()),
-                        esc(sp.state.name()),
-                        esc(&fmt_eng(sp.vin, "V")),
-                        esc(&fmt_eng(sp.iin, "A")),
-                        esc(&fmt_eng(sp.vout, "V")),
-                        esc(&fmt_eng(sp.iout, "A")),
-                        esc(&fmt_eng(sp.loss, "W")),
-                        sp.efficiency()
-                            .map_or_else(|| "—".into(), |e| esc(&fmt_percent(e))),
-                        junction_c(d, k, sp.loss, d.ambient_c)
-                            .map_or_else(|| "—".into(), |c| esc(&fmt_celsius(c))),
-                    ]
-                })
-                .collect();
+            let rows = budget_stage_rows(d, p);
             table(
                 w,
                 &[
@@ -478,26 +504,7 @@ fn budget_section(w: &mut dyn Write, d: &Design, modes: &[ModeBudget], soc: f64)
             )?;
         }
         if !d.loads.is_empty() {
-            let rows: Vec<Vec<String>> = d
-                .loads
-                .iter()
-                .zip(&p.loads)
-                .map(|(l, lp)| {
-                    vec![
-                        format!("<code>{}</code>", esc(&l.id)),
-                        format!("<code>{}</code>", esc(d.rail_name(l.rail))),
-                        esc(l.state_name(lp.state)),
-                        esc(&fmt_eng(lp.voltage, "V")),
-                        esc(&fmt_eng(lp.current, "A")),
-                        esc(&fmt_eng(lp.power, "W")),
-                        if lp.live {
-                            String::new()
-                        } else {
-                            "rail off".into()
-                        },
-                    ]
-                })
-                .collect();
+            let rows = budget_load_rows(d, p);
             table(
                 w,
                 &["load", "rail", "state", "#V", "#I", "#P", "note"],
@@ -509,7 +516,7 @@ fn budget_section(w: &mut dyn Write, d: &Design, modes: &[ModeBudget], soc: f64)
                 w,
                 "<p class=\"alert\">{}: {}</p>",
                 esc(v.kind.name()),
-                prose(&v.detail)
+                prose(&super::violation_detail(d, v))
             )?;
         }
     }

@@ -106,14 +106,15 @@ pub struct ViolationJson {
     pub detail: String,
 }
 
-impl From<&Violation> for ViolationJson {
-    fn from(v: &Violation) -> Self {
+impl ViolationJson {
+    /// The wire form of violation `v` of design `d`.
+    pub fn new(d: &Design, v: &Violation) -> Self {
         Self {
             kind: v.kind.name().into(),
             subject: v.subject.clone(),
             mode: v.mode.clone(),
             t_s: v.t_s,
-            detail: v.detail.clone(),
+            detail: super::violation_detail(d, v),
         }
     }
 }
@@ -131,7 +132,11 @@ impl BudgetJson {
 
 fn mode_json(d: &Design, m: &ModeBudget) -> ModeJson {
     let name = d.modes[m.mode].name.clone();
-    let violations = m.violations.iter().map(ViolationJson::from).collect();
+    let violations = m
+        .violations
+        .iter()
+        .map(|v| ViolationJson::new(d, v))
+        .collect();
     match &m.solution {
         Solution::Collapse { ocv, .. } => ModeJson {
             mode: name,
@@ -365,7 +370,11 @@ impl RuntimeJson {
                 })
                 .collect(),
             ambient_range_c: r.ambient_range_c.map(|(lo, hi)| [lo, hi]),
-            violations: r.violations.iter().map(ViolationJson::from).collect(),
+            violations: r
+                .violations
+                .iter()
+                .map(|v| ViolationJson::new(d, v))
+                .collect(),
             trace: with_trace.then(|| r.trace.iter().map(TraceJson::from).collect()),
         }
     }

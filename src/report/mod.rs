@@ -14,8 +14,11 @@ pub mod runtime;
 pub mod size;
 pub mod spread;
 pub mod text;
+mod violation;
 
 use std::io::{self, Write};
+
+pub use violation::{excess_detail, violation_detail};
 
 use crate::model::{Chemistry, Design, SelfDischargeLaw, StageKind};
 use crate::units::{fmt_celsius, fmt_eng};

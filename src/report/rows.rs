@@ -27,7 +27,8 @@ pub trait CsvRow: Serialize {
 pub fn write_rows<T: CsvRow>(w: &mut dyn Write, rows: &[T]) -> io::Result<()> {
     debug_assert!(
         rows.first()
-            .is_none_or(|r| header_of(r) == T::HEADER.join(",")),
+            .and_then(header_of)
+            .is_none_or(|h| h == T::HEADER.join(",")),
         "CsvRow::HEADER differs from the serialised field names"
     );
     let mut out = csv::WriterBuilder::new()
@@ -41,18 +42,20 @@ pub fn write_rows<T: CsvRow>(w: &mut dyn Write, rows: &[T]) -> io::Result<()> {
     out.flush()
 }
 
-/// The header the serialiser itself would write for `row`.
-fn header_of<T: Serialize>(row: &T) -> String {
+/// The header the serialiser itself would write for `row` (none for a row it cannot name the
+/// columns of, such as a rank before a row struct: the serialiser writes such rows, but not
+/// their header).
+fn header_of<T: Serialize>(row: &T) -> Option<String> {
     let mut out = csv::Writer::from_writer(Vec::new());
-    if out.serialize(row).is_err() {
-        return String::new();
-    }
-    let bytes = out.into_inner().unwrap_or_default();
-    String::from_utf8_lossy(&bytes)
-        .lines()
-        .next()
-        .unwrap_or_default()
-        .to_string()
+    out.serialize(row).ok()?;
+    let bytes = out.into_inner().ok()?;
+    Some(
+        String::from_utf8_lossy(&bytes)
+            .lines()
+            .next()
+            .unwrap_or_default()
+            .to_string(),
+    )
 }
 
 fn into_io(e: csv::Error) -> io::Error {

@@ -9,7 +9,7 @@ use super::rows::{CsvRow, write_rows};
 use super::text::{Align, TextTable};
 use super::{Format, caution_for, warnings, wrap, write_warnings};
 use crate::model::Design;
-use crate::solve::{EndReason, RunResult, StageState, junction_c};
+use crate::solve::{EndReason, RunResult, StageState};
 use crate::units::{fmt_celsius, fmt_duration, fmt_eng, fmt_percent};
 
 /// Least share of its on-time a stage spends out of regulation, or a load above its maximum
@@ -83,6 +83,61 @@ pub fn end_sentence(d: &Design, r: &RunResult) -> String {
 }
 
 fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult, trace: bool) -> io::Result<()> {
+    write_headline(w, d, r)?;
+    writeln!(w)?;
+    for sentence in energy_sentences(r) {
+        for line in wrap(&sentence, 96) {
+            writeln!(w, "{line}")?;
+        }
+    }
+    if !d.loads.is_empty() {
+        writeln!(w)?;
+        load_table(d, r).write(w, "  ")?;
+    }
+    if !d.stages.is_empty() {
+        writeln!(w)?;
+        stage_table(d, r).write(w, "  ")?;
+    }
+    let facts = regulation_facts(d, r);
+    if !facts.is_empty() {
+        writeln!(w)?;
+        writeln!(w, "out of regulation or above a load's maximum:")?;
+        for f in &facts {
+            for (i, line) in wrap(&f.sentence(), 92).iter().enumerate() {
+                writeln!(w, "{}{line}", if i == 0 { "  - " } else { "    " })?;
+            }
+        }
+    }
+    if !r.violations.is_empty() {
+        writeln!(w)?;
+        writeln!(w, "violations (each at the time it first happened):")?;
+        for v in &r.violations {
+            writeln!(
+                w,
+                "  - {} after {} in `{}`: {}",
+                v.kind.name(),
+                fmt_duration(v.t_s.unwrap_or(0.0)),
+                v.mode,
+                super::violation_detail(d, v)
+            )?;
+        }
+    }
+    if trace {
+        writeln!(w)?;
+        for line in wrap(&trace_note(r), 96) {
+            writeln!(w, "{line}")?;
+        }
+    }
+    writeln!(w)?;
+    write_warnings(w, &warnings(d, r.ambient_c), 96)?;
+    for line in wrap(&caution_for([d]), 96) {
+        writeln!(w, "{line}")?;
+    }
+    Ok(())
+}
+
+/// The title, the runtime and its ambient, why it stops and the ideal runtime.
+fn write_headline(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<()> {
     let t = r.runtime_s();
     writeln!(w, "{}", d.title)?;
     match r.ambient_range_c {
@@ -116,100 +171,60 @@ fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult, trace: bool) -> io:
             writeln!(w, "{line}")?;
         }
     }
-    let l = &r.ledger;
-    writeln!(w)?;
-    for sentence in energy_sentences(r) {
-        for line in wrap(&sentence, 96) {
-            writeln!(w, "{line}")?;
-        }
-    }
-    if !d.loads.is_empty() {
-        let total = l.load_energy_total();
-        let mut tl = TextTable::new(&[
-            ("load", Align::Left),
-            ("energy", Align::Right),
-            ("share", Align::Right),
-            ("average", Align::Right),
-        ]);
-        for (k, load) in d.loads.iter().enumerate() {
-            let e = l.load_energy_j[k];
-            tl.row(vec![
-                load.id.clone(),
-                fmt_eng(e / 3600.0, "Wh"),
-                if total > 0.0 {
-                    fmt_percent(e / total)
-                } else {
-                    "—".into()
-                },
-                fmt_eng(if t > 0.0 { e / t } else { 0.0 }, "W"),
-            ]);
-        }
-        writeln!(w)?;
-        tl.write(w, "  ")?;
-    }
-    if !d.stages.is_empty() {
-        let mut ts = TextTable::new(&[
-            ("stage", Align::Left),
-            ("loss", Align::Right),
-            ("average", Align::Right),
-            ("peak", Align::Right),
-            ("in mode", Align::Left),
-            ("Tj max", Align::Right),
-            ("limit", Align::Right),
-        ]);
-        for (k, s) in d.stages.iter().enumerate() {
-            let peak = r.peaks[k];
-            ts.row(vec![
-                s.id.clone(),
-                fmt_eng(l.stage_loss_j[k] / 3600.0, "Wh"),
-                fmt_eng(if t > 0.0 { l.stage_loss_j[k] / t } else { 0.0 }, "W"),
-                fmt_eng(peak.loss_w, "W"),
-                peak.mode
-                    .map_or_else(|| "—".into(), |m| d.modes[m].name.clone()),
-                junction_c(d, k, peak.loss_w, r.hottest_c())
-                    .map_or_else(|| "—".into(), fmt_celsius),
-                fmt_celsius(s.tj_max),
-            ]);
-        }
-        writeln!(w)?;
-        ts.write(w, "  ")?;
-    }
-    let facts = regulation_facts(d, r);
-    if !facts.is_empty() {
-        writeln!(w)?;
-        writeln!(w, "out of regulation or above a load's maximum:")?;
-        for f in &facts {
-            for (i, line) in wrap(&f.sentence(), 92).iter().enumerate() {
-                writeln!(w, "{}{line}", if i == 0 { "  - " } else { "    " })?;
-            }
-        }
-    }
-    if !r.violations.is_empty() {
-        writeln!(w)?;
-        writeln!(w, "violations (each at the time it first happened):")?;
-        for v in &r.violations {
-            writeln!(
-                w,
-                "  - {} after {} in `{}`: {}",
-                v.kind.name(),
-                fmt_duration(v.t_s.unwrap_or(0.0)),
-                v.mode,
-                v.detail
-            )?;
-        }
-    }
-    if trace {
-        writeln!(w)?;
-        for line in wrap(&trace_note(r), 96) {
-            writeln!(w, "{line}")?;
-        }
-    }
-    writeln!(w)?;
-    write_warnings(w, &warnings(d, r.ambient_c), 96)?;
-    for line in wrap(&caution_for([d]), 96) {
-        writeln!(w, "{line}")?;
-    }
     Ok(())
+}
+
+/// The loads' energy over the run: each load's total, share and mean power.
+fn load_table(d: &Design, r: &RunResult) -> TextTable {
+    let (t, l) = (r.runtime_s(), &r.ledger);
+    let total = l.load_energy_total();
+    let mut tl = TextTable::new(&[
+        ("load", Align::Left),
+        ("energy", Align::Right),
+        ("share", Align::Right),
+        ("average", Align::Right),
+    ]);
+    for (k, load) in d.loads.iter().enumerate() {
+        let e = l.load_energy_j[k];
+        tl.row(vec![
+            load.id.clone(),
+            fmt_eng(e / 3600.0, "Wh"),
+            if total > 0.0 {
+                fmt_percent(e / total)
+            } else {
+                "—".into()
+            },
+            fmt_eng(if t > 0.0 { e / t } else { 0.0 }, "W"),
+        ]);
+    }
+    tl
+}
+
+/// The stages' losses over the run, from the rows of the JSON form, with each stage's
+/// junction limit.
+fn stage_table(d: &Design, r: &RunResult) -> TextTable {
+    let mut ts = TextTable::new(&[
+        ("stage", Align::Left),
+        ("loss", Align::Right),
+        ("average", Align::Right),
+        ("peak", Align::Right),
+        ("in mode", Align::Left),
+        ("Tj max", Align::Right),
+        ("limit", Align::Right),
+    ]);
+    let rows = super::json::RuntimeJson::new(d, r, false).stages;
+    for (s, row) in d.stages.iter().zip(rows) {
+        ts.row(vec![
+            row.id,
+            fmt_eng(row.loss_wh, "Wh"),
+            fmt_eng(row.average_loss_w, "W"),
+            fmt_eng(row.peak_loss_w, "W"),
+            row.peak_mode.unwrap_or_else(|| "—".into()),
+            row.max_junction_c.map_or_else(|| "—".into(), fmt_celsius),
+            fmt_celsius(s.tj_max),
+        ]);
+    }
+    ts
 }
 
 /// Where the energy went, in the names every report uses: the energy from the cells (open-circuit
@@ -434,60 +449,58 @@ impl CsvRow for RuntimeCsvRow {
     ];
 }
 
-/// The rows of `runtime --format csv`: the run, the pack, each stage, each load.
+/// The rows of `runtime --format csv`: the run, the pack, each stage, each load, taken from
+/// the JSON form of the run (one computation for both outputs).
 pub fn runtime_csv_rows(d: &Design, r: &RunResult) -> Vec<RuntimeCsvRow> {
-    let t = r.runtime_s();
-    let l = &r.ledger;
-    let per_s = |j: f64| if t > 0.0 { j / t } else { 0.0 };
+    let j = super::json::RuntimeJson::new(d, r, false);
     let mut rows = vec![
         RuntimeCsvRow {
             element: "run",
-            runtime_s: Some(t),
-            ideal_runtime_s: r.ideal_runtime_s(),
+            runtime_s: Some(j.runtime_s),
+            ideal_runtime_s: j.ideal_runtime_s,
             end_reason: Some(r.end.reason.name()),
-            end_soc: Some(r.end.soc),
-            end_mode: r.end.mode.map(|m| d.modes[m].name.clone()),
-            end_subject: Some(r.end.subject.clone()),
+            end_soc: Some(j.end.soc),
+            end_mode: j.end.mode,
+            end_subject: Some(j.end.subject),
             ..RuntimeCsvRow::default()
         },
         RuntimeCsvRow {
             element: "battery",
             id: "battery".into(),
-            charge_ah: Some(l.charge_c / 3600.0),
-            energy_wh: Some(l.terminal_energy_j() / 3600.0),
-            cell_energy_wh: Some(l.cell_energy_j() / 3600.0),
-            loss_wh: Some(l.pack_loss_j / 3600.0),
-            average_loss_w: Some(per_s(l.pack_loss_j)),
+            charge_ah: Some(j.battery.charge_ah),
+            energy_wh: Some(j.battery.energy_wh),
+            cell_energy_wh: Some(j.battery.cell_energy_wh),
+            loss_wh: Some(j.battery.loss_wh),
+            average_loss_w: Some(if j.runtime_s > 0.0 {
+                r.ledger.pack_loss_j / j.runtime_s
+            } else {
+                0.0
+            }),
             ..RuntimeCsvRow::default()
         },
     ];
-    for (k, s) in d.stages.iter().enumerate() {
-        let p = r.peaks[k];
-        rows.push(RuntimeCsvRow {
-            element: "stage",
-            id: s.id.clone(),
-            loss_wh: Some(l.stage_loss_j[k] / 3600.0),
-            average_loss_w: Some(per_s(l.stage_loss_j[k])),
-            peak_loss_w: Some(p.loss_w),
-            peak_mode: p.mode.map(|m| d.modes[m].name.clone()),
-            max_junction_c: junction_c(d, k, p.loss_w, r.hottest_c()),
-            on_s: Some(l.stage_on_s(k)),
-            dropout_s: Some(l.stage_time_s(k, StageState::Dropout)),
-            bypass_s: Some(l.stage_time_s(k, StageState::Bypass)),
-            undervoltage_s: Some(l.stage_time_s(k, StageState::Undervoltage)),
-            ..RuntimeCsvRow::default()
-        });
-    }
-    for (k, load) in d.loads.iter().enumerate() {
-        rows.push(RuntimeCsvRow {
-            element: "load",
-            id: load.id.clone(),
-            energy_wh: Some(l.load_energy_j[k] / 3600.0),
-            on_s: Some(l.load_on_s[k]),
-            above_max_s: Some(l.load_high_s[k]),
-            ..RuntimeCsvRow::default()
-        });
-    }
+    rows.extend(j.stages.into_iter().map(|s| RuntimeCsvRow {
+        element: "stage",
+        id: s.id,
+        loss_wh: Some(s.loss_wh),
+        average_loss_w: Some(s.average_loss_w),
+        peak_loss_w: Some(s.peak_loss_w),
+        peak_mode: s.peak_mode,
+        max_junction_c: s.max_junction_c,
+        on_s: Some(s.on_s),
+        dropout_s: Some(s.dropout_s),
+        bypass_s: Some(s.bypass_s),
+        undervoltage_s: Some(s.undervoltage_s),
+        ..RuntimeCsvRow::default()
+    }));
+    rows.extend(j.loads.into_iter().map(|l| RuntimeCsvRow {
+        element: "load",
+        id: l.id,
+        energy_wh: Some(l.energy_wh),
+        on_s: Some(l.on_s),
+        above_max_s: Some(l.above_max_s),
+        ..RuntimeCsvRow::default()
+    }));
     rows
 }
 

@@ -241,45 +241,7 @@ fn write_table(w: &mut dyn Write, s: &Sizing) -> io::Result<()> {
         writeln!(w, "{line}")?;
     }
     writeln!(w)?;
-    let mut t = TextTable::new(&[
-        ("#", Align::Right),
-        ("pack", Align::Left),
-        ("mass", Align::Right),
-        ("volume", Align::Right),
-        ("runtime", Align::Right),
-        ("target", Align::Left),
-        ("ends by", Align::Left),
-        ("charge", Align::Right),
-        ("energy", Align::Right),
-        ("note", Align::Left),
-    ]);
-    let dash = || "—".to_string();
-    for (i, c) in s.candidates.iter().enumerate() {
-        let row = SizeRow::new(i + 1, c, o.target_s);
-        let run = c.run();
-        t.row(vec![
-            row.rank.to_string(),
-            row.pack,
-            c.mass_kg
-                .map_or_else(|| "unknown".into(), |m| fmt_eng(m * 1e3, "g")),
-            c.volume_m3
-                .map_or_else(|| "unknown".into(), |v| format!("{} cm³", fmt_cm3(v))),
-            run.map_or_else(dash, |r| fmt_duration(r.runtime_s)),
-            match row.status {
-                "meets" => "meets".into(),
-                "short" => run.map_or_else(dash, |r| {
-                    format!("{} short", fmt_percent(1.0 - r.runtime_s / o.target_s))
-                }),
-                "no-result" => "no result".into(),
-                _ => "does not fit".into(),
-            },
-            run.map_or_else(dash, |r| end_words(r.end).to_string()),
-            c.charge_c.map_or_else(dash, |q| fmt_eng(q / 3600.0, "Ah")),
-            c.energy_j.map_or_else(dash, |e| fmt_eng(e / 3600.0, "Wh")),
-            row.note.unwrap_or_default(),
-        ]);
-    }
-    t.write(w, "  ")?;
+    candidate_table(s).write(w, "  ")?;
     if !s.capacity.is_empty() {
         writeln!(w)?;
         writeln!(
@@ -321,6 +283,53 @@ fn write_table(w: &mut dyn Write, s: &Sizing) -> io::Result<()> {
         writeln!(w, "{line}")?;
     }
     Ok(())
+}
+
+/// The candidates ranked, from their [`SizeRow`]s: mass, volume, runtime against the target,
+/// why each ends, charge, energy and a note.
+fn candidate_table(s: &Sizing) -> TextTable {
+    let mut t = TextTable::new(&[
+        ("#", Align::Right),
+        ("pack", Align::Left),
+        ("mass", Align::Right),
+        ("volume", Align::Right),
+        ("runtime", Align::Right),
+        ("target", Align::Left),
+        ("ends by", Align::Left),
+        ("charge", Align::Right),
+        ("energy", Align::Right),
+        ("note", Align::Left),
+    ]);
+    let dash = || "—".to_string();
+    for (i, c) in s.candidates.iter().enumerate() {
+        let row = SizeRow::new(i + 1, c, s.options.target_s);
+        let run = c.run();
+        t.row(vec![
+            row.rank.to_string(),
+            row.pack,
+            c.mass_kg
+                .map_or_else(|| "unknown".into(), |m| fmt_eng(m * 1e3, "g")),
+            c.volume_m3
+                .map_or_else(|| "unknown".into(), |v| format!("{} cm³", fmt_cm3(v))),
+            run.map_or_else(dash, |r| fmt_duration(r.runtime_s)),
+            match row.status {
+                "meets" => "meets".into(),
+                "short" => run.map_or_else(dash, |r| {
+                    format!(
+                        "{} short",
+                        fmt_percent(1.0 - r.runtime_s / s.options.target_s)
+                    )
+                }),
+                "no-result" => "no result".into(),
+                _ => "does not fit".into(),
+            },
+            run.map_or_else(dash, |r| end_words(r.end).to_string()),
+            c.charge_c.map_or_else(dash, |q| fmt_eng(q / 3600.0, "Ah")),
+            c.energy_j.map_or_else(dash, |e| fmt_eng(e / 3600.0, "Wh")),
+            row.note.unwrap_or_default(),
+        ]);
+    }
+    t
 }
 
 /// The least capacity of one cell in a sentence.

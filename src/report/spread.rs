@@ -10,7 +10,7 @@ use super::heat::capitalize;
 use super::text::{Align, TextTable};
 use super::{Format, caution_for, wrap};
 use crate::model::{Design, Knob};
-use crate::spread::{Outcome, Spread, Swing};
+use crate::spread::{Corners, Outcome, Spread, Swing};
 use crate::units::{Dim, fmt_celsius, fmt_duration, fmt_eng, fmt_percent, fmt_sig};
 
 /// A varied value for people: in its unit, with a prefix.
@@ -334,6 +334,36 @@ fn write_table(w: &mut dyn Write, d: &Design, sp: &Spread) -> io::Result<()> {
         w,
         "What moves the runtime (each value at its low and high bound, the rest as designed):"
     )?;
+    swing_table(d, sp).write(w, "  ")?;
+    if let Some(c) = &sp.corners {
+        write_corners(w, d, sp, c)?;
+    }
+    writeln!(w)?;
+    let mut note = format!(
+        "{}: {n} samples, seed {}, {} values varied.",
+        d.title,
+        sp.options.seed,
+        sp.tolerances.len()
+    );
+    if sp.redrawn + sp.clipped > 0 {
+        let _ = write!(
+            note,
+            " {} drawn values fell outside their physical range and were drawn again; {} were clipped to it.",
+            sp.redrawn, sp.clipped
+        );
+    }
+    for line in wrap(&note, 96) {
+        writeln!(w, "{line}")?;
+    }
+    for line in wrap(&caution_for([d]), 96) {
+        writeln!(w, "{line}")?;
+    }
+    Ok(())
+}
+
+/// The tornado table: each value at its low and high bound, the runtimes there, the swing
+/// and the rank correlation.
+fn swing_table(d: &Design, sp: &Spread) -> TextTable {
     let mut t = TextTable::new(&[
         ("value", Align::Left),
         ("as designed", Align::Right),
@@ -369,52 +399,35 @@ fn write_table(w: &mut dyn Write, d: &Design, sp: &Spread) -> io::Result<()> {
                 .map_or_else(|| "—".into(), |r| format!("{r:+.2}")),
         ]);
     }
-    t.write(w, "  ")?;
-    if let Some(c) = &sp.corners {
-        writeln!(w)?;
-        writeln!(
-            w,
-            "Corners (every value at the bound that shortens, resp. lengthens, the runtime):"
-        )?;
-        let mut t = TextTable::new(&[
-            ("corner", Align::Left),
-            ("runtime", Align::Right),
-            ("ends", Align::Left),
-        ]);
-        for (name, o) in [("worst", &c.worst), ("best", &c.best)] {
-            let (rt, end) = run_text(o);
-            t.row(vec![name.into(), rt, end]);
-        }
-        t.write(w, "  ")?;
-        let values: Vec<String> = sp
-            .tolerances
-            .iter()
-            .zip(&c.worst.values)
-            .map(|(tol, v)| format!("{} {}", tol.path, fmt_value(d, &tol.knob, *v)))
-            .collect();
-        for line in wrap(&format!("Worst corner: {}.", values.join(", ")), 96) {
-            writeln!(w, "  {line}")?;
-        }
-    }
+    t
+}
+
+/// The corners: every value at the bound that shortens, resp. lengthens, the runtime, and the
+/// values of the worst.
+fn write_corners(w: &mut dyn Write, d: &Design, sp: &Spread, c: &Corners) -> io::Result<()> {
     writeln!(w)?;
-    let mut note = format!(
-        "{}: {n} samples, seed {}, {} values varied.",
-        d.title,
-        sp.options.seed,
-        sp.tolerances.len()
-    );
-    if sp.redrawn + sp.clipped > 0 {
-        let _ = write!(
-            note,
-            " {} drawn values fell outside their physical range and were drawn again; {} were clipped to it.",
-            sp.redrawn, sp.clipped
-        );
+    writeln!(
+        w,
+        "Corners (every value at the bound that shortens, resp. lengthens, the runtime):"
+    )?;
+    let mut t = TextTable::new(&[
+        ("corner", Align::Left),
+        ("runtime", Align::Right),
+        ("ends", Align::Left),
+    ]);
+    for (name, o) in [("worst", &c.worst), ("best", &c.best)] {
+        let (rt, end) = run_text(o);
+        t.row(vec![name.into(), rt, end]);
     }
-    for line in wrap(&note, 96) {
-        writeln!(w, "{line}")?;
-    }
-    for line in wrap(&caution_for([d]), 96) {
-        writeln!(w, "{line}")?;
+    t.write(w, "  ")?;
+    let values: Vec<String> = sp
+        .tolerances
+        .iter()
+        .zip(&c.worst.values)
+        .map(|(tol, v)| format!("{} {}", tol.path, fmt_value(d, &tol.knob, *v)))
+        .collect();
+    for line in wrap(&format!("Worst corner: {}.", values.join(", ")), 96) {
+        writeln!(w, "  {line}")?;
     }
     Ok(())
 }

@@ -2,7 +2,6 @@
 
 use super::point::OperatingPoint;
 use crate::model::{Design, LossModel};
-use crate::units::{fmt_celsius, fmt_duration, fmt_eng};
 
 /// What limit is exceeded.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
@@ -53,8 +52,90 @@ pub struct Violation {
     pub mode: String,
     /// When it first happens, s (`None` for a single operating point).
     pub t_s: Option<f64>,
-    /// A sentence with the numbers.
-    pub detail: String,
+    /// The numbers: what was seen and the limit it passed (worded by
+    /// [`crate::report::violation_detail`]).
+    pub excess: Excess,
+}
+
+/// What a violation saw and the limit it passed, SI units; stages, loads, rails and states are
+/// indices into the design.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Excess {
+    /// The pack current in pulses above the pulse limit.
+    PulseCurrent {
+        /// Pack current, A.
+        current_a: f64,
+        /// Longest time the mode is held, s.
+        hold_s: f64,
+        /// Pulse limit, A.
+        limit_a: f64,
+    },
+    /// The pack current above the continuous limit.
+    ContinuousCurrent {
+        /// Pack current, A.
+        current_a: f64,
+        /// Continuous limit, A.
+        limit_a: f64,
+        /// When the cell has a pulse limit and the mode is held a finite time: that time and
+        /// the pulse length, s.
+        held_beyond_pulse: Option<(f64, f64)>,
+    },
+    /// A stage's output current above its rating.
+    StageCurrent {
+        /// Stage index.
+        stage: usize,
+        /// Output current, A.
+        current_a: f64,
+        /// Rating, A.
+        limit_a: f64,
+    },
+    /// A stage's output current beyond its efficiency table.
+    BeyondTable {
+        /// Stage index.
+        stage: usize,
+        /// Output current, A.
+        current_a: f64,
+    },
+    /// A stage's input voltage above its maximum.
+    InputVoltage {
+        /// Stage index.
+        stage: usize,
+        /// Input voltage, V.
+        voltage_v: f64,
+        /// Maximum, V.
+        limit_v: f64,
+    },
+    /// A stage's junction above its maximum temperature.
+    Junction {
+        /// Stage index.
+        stage: usize,
+        /// Loss, W.
+        loss_w: f64,
+        /// Junction temperature, °C.
+        junction_c: f64,
+        /// Limit, °C.
+        limit_c: f64,
+    },
+    /// A live rail above a load's maximum supply.
+    RailVoltage {
+        /// Rail (0 the battery, `k + 1` stage `k`'s output).
+        rail: usize,
+        /// Rail voltage, V.
+        voltage_v: f64,
+        /// The load's maximum, V.
+        limit_v: f64,
+        /// Load index.
+        load: usize,
+    },
+    /// A load in a drawing state on a rail that is off.
+    OffRail {
+        /// Rail.
+        rail: usize,
+        /// Load index.
+        load: usize,
+        /// The load's state.
+        state: usize,
+    },
 }
 
 /// Junction temperature of stage `k` dissipating `loss` W: ambient + loss x theta_ja.
@@ -82,14 +163,14 @@ pub fn violations_where(
 ) -> Vec<Violation> {
     let mode = &design.modes[p.mode];
     let mut out = Vec::new();
-    let mut push = |kind, subject: &str, detail: &dyn Fn() -> String| {
+    let mut push = |kind, subject: &str, excess: &dyn Fn() -> Excess| {
         if keep(kind, subject) {
             out.push(Violation {
                 kind,
                 subject: subject.to_string(),
                 mode: mode.name.clone(),
                 t_s: None,
-                detail: detail(),
+                excess: excess(),
             });
         }
     };
@@ -101,32 +182,26 @@ pub fn violations_where(
         Some((max, length)) if hold <= length => {
             if i > max {
                 push(ViolationKind::PackPulseOvercurrent, "battery", &|| {
-                    format!(
-                        "the pack gives {} in pulses of up to {}, above its {} pulse limit",
-                        fmt_eng(i, "A"),
-                        fmt_duration(hold),
-                        fmt_eng(max, "A")
-                    )
+                    Excess::PulseCurrent {
+                        current_a: i,
+                        hold_s: hold,
+                        limit_a: max,
+                    }
                 });
             }
         }
         pulse => {
             if let Some(max) = design.pack.max_current_a() {
                 if i > max {
-                    push(ViolationKind::PackOvercurrent, "battery", &|| match pulse {
-                        Some((_, length)) if hold.is_finite() => format!(
-                            "the pack gives {} for {} at a stretch, longer than its {} pulses: \
-above its {} continuous limit",
-                            fmt_eng(i, "A"),
-                            fmt_duration(hold),
-                            fmt_duration(length),
-                            fmt_eng(max, "A")
-                        ),
-                        _ => format!(
-                            "the pack gives {}, above its {} continuous limit",
-                            fmt_eng(i, "A"),
-                            fmt_eng(max, "A")
-                        ),
+                    push(ViolationKind::PackOvercurrent, "battery", &|| {
+                        Excess::ContinuousCurrent {
+                            current_a: i,
+                            limit_a: max,
+                            held_beyond_pulse: match pulse {
+                                Some((_, length)) if hold.is_finite() => Some((hold, length)),
+                                _ => None,
+                            },
+                        }
                     });
                 }
             }
@@ -137,12 +212,11 @@ above its {} continuous limit",
             if let Some(max) = st.max_output_current {
                 if sp.iout > max {
                     push(ViolationKind::StageOvercurrent, &st.id, &|| {
-                        format!(
-                            "`{}` delivers {}, above its {} rating",
-                            st.id,
-                            fmt_eng(sp.iout, "A"),
-                            fmt_eng(max, "A")
-                        )
+                        Excess::StageCurrent {
+                            stage: k,
+                            current_a: sp.iout,
+                            limit_a: max,
+                        }
                     });
                 }
             }
@@ -151,11 +225,10 @@ above its {} continuous limit",
                 && st.loss.extrapolated(sp.iout)
             {
                 push(ViolationKind::TableExtrapolated, &st.id, &|| {
-                    format!(
-                        "`{}` delivers {}, beyond the highest current of its efficiency table; its last efficiency is held",
-                        st.id,
-                        fmt_eng(sp.iout, "A")
-                    )
+                    Excess::BeyondTable {
+                        stage: k,
+                        current_a: sp.iout,
+                    }
                 });
             }
         }
@@ -164,26 +237,22 @@ above its {} continuous limit",
             if let Some(max) = st.input_max {
                 if sp.vin > max {
                     push(ViolationKind::Overvoltage, &st.id, &|| {
-                        format!(
-                            "`{}` sees {} at its input, above its {} maximum",
-                            st.id,
-                            fmt_eng(sp.vin, "V"),
-                            fmt_eng(max, "V")
-                        )
+                        Excess::InputVoltage {
+                            stage: k,
+                            voltage_v: sp.vin,
+                            limit_v: max,
+                        }
                     });
                 }
             }
         }
         if let Some(tj) = junction_c(design, k, sp.loss, ambient_c) {
             if tj > st.tj_max {
-                push(ViolationKind::JunctionHot, &st.id, &|| {
-                    format!(
-                        "`{}` dissipates {}: its junction reaches {}, above its {} limit",
-                        st.id,
-                        fmt_eng(sp.loss, "W"),
-                        fmt_celsius(tj),
-                        fmt_celsius(st.tj_max)
-                    )
+                push(ViolationKind::JunctionHot, &st.id, &|| Excess::Junction {
+                    stage: k,
+                    loss_w: sp.loss,
+                    junction_c: tj,
+                    limit_c: st.tj_max,
                 });
             }
         }
@@ -200,24 +269,20 @@ above its {} continuous limit",
             if live {
                 if let Some(max) = load.v_max {
                     if v > max {
-                        push(ViolationKind::RailHigh, &subject, &|| {
-                            format!(
-                                "rail `{subject}` is at {}, above the {} maximum of `{}`",
-                                fmt_eng(v, "V"),
-                                fmt_eng(max, "V"),
-                                load.id
-                            )
+                        push(ViolationKind::RailHigh, &subject, &|| Excess::RailVoltage {
+                            rail,
+                            voltage_v: v,
+                            limit_v: max,
+                            load: l,
                         });
                     }
                 }
             } else if let Some(s) = mode.load_states[l] {
-                let (name, draw) = &load.states[s];
-                if draw.is_drawing() {
-                    push(ViolationKind::OffRailDraw, &load.id, &|| {
-                        format!(
-                            "`{}` is `{name}` but its rail `{subject}` is off, so it draws nothing",
-                            load.id
-                        )
+                if load.states[s].1.is_drawing() {
+                    push(ViolationKind::OffRailDraw, &load.id, &|| Excess::OffRail {
+                        rail,
+                        load: l,
+                        state: s,
                     });
                 }
             }

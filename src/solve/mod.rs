@@ -10,7 +10,7 @@ mod root;
 mod sum2;
 
 pub use budget::{ModeBudget, budget};
-pub use check::{Violation, ViolationKind, junction_c, violations, violations_where};
+pub use check::{Excess, Violation, ViolationKind, junction_c, violations, violations_where};
 pub use discharge::{
     End, EndReason, MAX_HORIZON_S, Peak, RunCounts, RunError, RunOptions, RunResult, YEAR_S, run,
     run_counted, run_observed,

@@ -5,7 +5,7 @@ use indexmap::IndexMap;
 use schemars::JsonSchema;
 use serde::Deserialize;
 
-use super::node::{Kind, Node, reread};
+use super::node::{Kind, Node, mismatch, reread};
 use super::qty::{DrawSpec, Efficiency, Qty, ResistanceSpec, SelfDischargeSpec};
 use super::tolerance::ToleranceSpec;
 
@@ -183,10 +183,10 @@ impl<'de> Deserialize<'de> for CellRef {
         match &v.kind {
             Kind::Str(s) => Ok(CellRef::Name(s.to_string())),
             Kind::Map(_) => reread(&v, "").map(|c| CellRef::Inline(Box::new(c))),
-            _ => Err(serde::de::Error::custom(format!(
-                "expected a cell name or an inline cell mapping, found {}",
-                v.describe()
-            ))),
+            _ => Err(mismatch(
+                "a cell name or an inline cell mapping",
+                &v.describe(),
+            )),
         }
     }
 }
@@ -205,10 +205,10 @@ impl<'de> Deserialize<'de> for AmbientSpec {
         let v = Node::deserialize(d)?;
         match &v.kind {
             Kind::Map(_) => reread(&v, "").map(AmbientSpec::Climate),
-            Kind::Seq(_) => Err(serde::de::Error::custom(format!(
-                "expected a temperature such as `20 °C` or a climate mapping (`mean` or `monthly`, `daily_range`), found {}",
-                v.describe()
-            ))),
+            Kind::Seq(_) => Err(mismatch(
+                "a temperature such as `20 °C` or a climate mapping (`mean` or `monthly`, `daily_range`)",
+                &v.describe(),
+            )),
             _ => reread(&v, "").map(AmbientSpec::Constant),
         }
     }

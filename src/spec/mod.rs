@@ -10,6 +10,7 @@
 mod depth;
 mod design;
 mod node;
+mod node_error;
 mod overrides;
 mod path;
 mod qty;
@@ -249,28 +250,27 @@ impl Reader<'_> {
         path: impl std::fmt::Display,
         v: &Node<'_>,
     ) -> Option<T> {
-        let e = match T::deserialize(v) {
+        let mut err = match T::deserialize(v) {
             Ok(t) => return Some(t),
-            Err(e) => e.to_string(),
+            Err(e) => e,
         };
         let path = path.to_string();
         // Every unknown key of a mapping is reported, not only the first; without them the
         // part is read again so that its other problems are found and it reaches the checker.
-        let mut msg = e;
         let mut cleaned: Option<Node<'_>> = None;
         for _ in 0..8 {
             let at = cleaned.as_ref().unwrap_or(v);
-            let Some(next) = self.unknown_keys(&path, &msg, at) else {
+            let Some(next) = self.unknown_keys(&path, &err, at) else {
                 break;
             };
             match T::deserialize(&next) {
                 Ok(t) => return Some(t),
-                Err(e) => msg = e.to_string(),
+                Err(e) => err = e,
             }
             cleaned = Some(next);
         }
         let at = cleaned.as_ref().unwrap_or(v);
-        self.serde_error(&path, &msg, at);
+        self.serde_error(&path, &err, at);
         // Checker messages about this item follow from the problem just reported.
         if let Kind::Map(m) = &at.kind {
             let id = m.iter().find(|(k, _)| k.as_str() == Some("id"));

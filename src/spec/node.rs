@@ -8,6 +8,8 @@ use std::fmt;
 use serde::de::{self, DeserializeSeed, IntoDeserializer, MapAccess, SeqAccess, Visitor};
 use serde::{Deserialize, Deserializer};
 
+use super::node_error::pass_out;
+pub(crate) use super::node_error::{NodeError, mismatch};
 use crate::error::Location;
 
 /// Where a node starts: line and column (in characters), both from 1. Line 0 stands for a node
@@ -233,30 +235,12 @@ impl<'de> Visitor<'de> for TreeVisitor {
 }
 
 /// Read `T` from the tree `v` built by a nested reader, its errors as `E` with `prefix` before
-/// them (`efficiency curve: ...`).
+/// them (`efficiency curve: ...`); through the node deserializer they keep their pieces.
 pub(crate) fn reread<T: de::DeserializeOwned, E: de::Error>(
     v: &Node<'_>,
     prefix: &str,
 ) -> Result<T, E> {
-    T::deserialize(v).map_err(|e| E::custom(format!("{prefix}{e}")))
-}
-
-/// A problem reading a node into a serde type (serde's own wording for the common ones).
-#[derive(Debug)]
-pub(crate) struct NodeError(String);
-
-impl fmt::Display for NodeError {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(&self.0)
-    }
-}
-
-impl std::error::Error for NodeError {}
-
-impl de::Error for NodeError {
-    fn custom<T: fmt::Display>(msg: T) -> Self {
-        NodeError(msg.to_string())
-    }
+    T::deserialize(v).map_err(|e| pass_out(e, prefix))
 }
 
 impl<'de> de::Deserializer<'de> for &Node<'_> {

@@ -5,9 +5,9 @@
 use std::borrow::Cow;
 
 use schemars::{JsonSchema, Schema, SchemaGenerator, json_schema};
-use serde::{Deserialize, Deserializer, de::Error as _};
+use serde::{Deserialize, Deserializer};
 
-use super::node::{Kind, Node, Number, reread};
+use super::node::{Kind, Node, Number, mismatch, reread};
 
 /// A quantity as written: `"120 mA"`, or a plain number where one is allowed.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -40,9 +40,7 @@ struct QtyVisitor;
 
 impl QtyVisitor {
     fn wrong<E: serde::de::Error>(found: &str) -> E {
-        E::custom(format!(
-            "expected a value with its unit such as `120 mA`, found {found}"
-        ))
+        mismatch("a value with its unit such as `120 mA`", found)
     }
 }
 
@@ -143,10 +141,10 @@ impl<'de> Deserialize<'de> for Efficiency {
             return Ok(Efficiency::Constant(Qty(t)));
         }
         let Kind::Seq(items) = &v.kind else {
-            return Err(D::Error::custom(format!(
-                "expected `90 %`, a curve `[[1 mA, 72 %], ...]` or curves per input voltage, found {}",
-                v.describe()
-            )));
+            return Err(mismatch(
+                "`90 %`, a curve `[[1 mA, 72 %], ...]` or curves per input voltage",
+                &v.describe(),
+            ));
         };
         if items.iter().any(|x| matches!(x.kind, Kind::Map(_))) {
             reread(&v, "efficiency curves per input voltage: ").map(Efficiency::PerVin)
@@ -192,10 +190,10 @@ impl<'de> Deserialize<'de> for ResistanceSpec {
         if matches!(v.kind, Kind::Seq(_)) {
             return reread(&v, "resistance table: ").map(ResistanceSpec::Table);
         }
-        Err(D::Error::custom(format!(
-            "expected a resistance such as `150 mΩ` or a table `[[SoC, R], ...]`, found {}",
-            v.describe()
-        )))
+        Err(mismatch(
+            "a resistance such as `150 mΩ` or a table `[[SoC, R], ...]`",
+            &v.describe(),
+        ))
     }
 }
 
@@ -309,10 +307,10 @@ impl<'de> Deserialize<'de> for SelfDischargeSpec {
         if matches!(v.kind, Kind::Map(_)) {
             return reread(&v, "").map(SelfDischargeSpec::AtTemperature);
         }
-        Err(D::Error::custom(format!(
-            "expected a rate such as `3 %/month` or `{{ rate: 1 %/year, at: 20 °C }}`, found {}",
-            v.describe()
-        )))
+        Err(mismatch(
+            "a rate such as `3 %/month` or `{ rate: 1 %/year, at: 20 °C }`",
+            &v.describe(),
+        ))
     }
 }
 
@@ -331,10 +329,10 @@ impl<'de> Deserialize<'de> for DrawSpec {
         if matches!(v.kind, Kind::Map(_)) {
             return reread(&v, "").map(DrawSpec::Capture);
         }
-        Err(D::Error::custom(format!(
-            "expected a value with its unit such as `120 mA`, or a capture `{{ capture: FILE.csv }}`, found {}",
-            v.describe()
-        )))
+        Err(mismatch(
+            "a value with its unit such as `120 mA`, or a capture `{ capture: FILE.csv }`",
+            &v.describe(),
+        ))
     }
 }
 

@@ -7,6 +7,7 @@ use std::fmt;
 use schemars::{JsonSchema, Schema, SchemaGenerator, json_schema};
 use serde::de::{self, Deserialize, Deserializer, MapAccess, SeqAccess, Visitor};
 
+use super::node::mismatch;
 use super::qty::Qty;
 
 /// How one value of a design spreads, as written.
@@ -51,9 +52,7 @@ impl<'de> Deserialize<'de> for ToleranceSpec {
 struct SpecVisitor;
 
 fn found<E: de::Error>(what: &str) -> E {
-    E::custom(format!(
-        "expected a spread such as {EXPECTED}, found {what}"
-    ))
+    mismatch(&format!("a spread such as {EXPECTED}"), what)
 }
 
 impl<'de> Visitor<'de> for SpecVisitor {
@@ -66,9 +65,10 @@ impl<'de> Visitor<'de> for SpecVisitor {
     fn visit_str<E: de::Error>(self, v: &str) -> Result<ToleranceSpec, E> {
         match band_text(v) {
             Some(rest) if !rest.is_empty() => Ok(ToleranceSpec::Band(Qty(rest.to_string()))),
-            _ => Err(E::custom(format!(
-                "expected a band such as `±5 %` or `±3 mA` (a sign `±`, `+-` or `+/-` before the value), found the text `{v}`"
-            ))),
+            _ => Err(mismatch(
+                "a band such as `±5 %` or `±3 mA` (a sign `±`, `+-` or `+/-` before the value)",
+                &format!("the text `{v}`"),
+            )),
         }
     }
 

@@ -1,10 +1,11 @@
-//! The deserializer's messages in plain words: `invalid type: unit value, expected struct
-//! CellSpec` becomes "`cell` is empty: it needs a cell name or a cell mapping", with a fix, at
-//! the key that holds the wrong value. Every unknown key of a mapping is reported (the
+//! The deserializer's errors in plain words, built from their pieces ([`NodeError`]): nothing
+//! found where serde expected `struct CellSpec` becomes "`cell` is empty: it needs a cell name
+//! or a cell mapping", with a fix, at the key that holds the wrong value. Every unknown key of a mapping is reported (the
 //! deserializer stops at the first), and a text that holds several documents is told where the
 //! second starts.
 
-use super::node::{Kind, Node};
+use super::node::{Kind, Node, NodeError};
+use super::node_error::Problem;
 use super::{Reader, backticked, value_path};
 use crate::error::{Diagnostic, did_you_mean};
 
@@ -16,72 +17,31 @@ pub(super) struct Worded {
     pub hint: String,
 }
 
-/// `msg` (a deserializer's message about the value `v` at `path`) in plain words, or `None` when
-/// it is not one of the shapes known here.
-pub(super) fn reword(path: &str, msg: &str, v: &Node<'_>) -> Option<Worded> {
-    let (found, expected) = if let Some(rest) =
-        after(msg, "invalid type: ").or_else(|| after(msg, "invalid value: "))
-    {
-        let (f, e) = rest.split_once(", expected ")?;
-        (found_words(f), e.to_string())
-    } else {
-        let rest = after(msg, "expected ")?;
-        let (e, f) = rest.rsplit_once(", found ")?;
-        (f.to_string(), e.to_string())
-    };
-    let below = locate(v, &found).unwrap_or_default();
+/// A value of the wrong shape at `path` in plain words: `found` (in the words of
+/// [`Node::describe`]) where the reader expected `expected` (serde's noun phrase, such as
+/// `struct StageSpec`, or a reader's own); the place is the first value below `v` that `found`
+/// describes.
+pub(super) fn reword(path: &str, found: &str, expected: &str, v: &Node<'_>) -> Worded {
+    let below = locate(v, found).unwrap_or_default();
     let full = format!("{path}{below}");
     let key = last_key(&full);
-    let (noun, hint) = expected_words(&expected, key);
+    let (noun, hint) = expected_words(expected, key);
     let message = if found == "nothing" {
         format!("`{key}` is empty: it needs {noun}")
     } else {
         format!("`{key}` must be {noun}, not {found}")
     };
-    Some(Worded {
+    Worded {
         below,
         message,
         hint,
-    })
-}
-
-/// The text after the first `pat` in `msg`.
-fn after<'m>(msg: &'m str, pat: &str) -> Option<&'m str> {
-    msg.find(pat).map(|i| &msg[i + pat.len()..])
+    }
 }
 
 /// The last key of a path (`battery.cell` -> `cell`, `stages[2]` -> `stages[2]`).
 fn last_key(path: &str) -> &str {
     let key = path.rsplit('.').next().unwrap_or(path);
     if key.is_empty() { "the file" } else { key }
-}
-
-/// serde's description of a value found, in the words of [`Node::describe`].
-fn found_words(f: &str) -> String {
-    let f = f.trim();
-    if f == "unit value" {
-        return "nothing".into();
-    }
-    if let Some(s) = f.strip_prefix("string ") {
-        return format!("the text `{}`", s.trim_matches('"'));
-    }
-    for (serde, words) in [
-        ("integer ", "the number "),
-        ("floating point ", "the number "),
-    ] {
-        if let Some(n) = f.strip_prefix(serde) {
-            return format!("{words}{n}");
-        }
-    }
-    if let Some(b) = f.strip_prefix("boolean ") {
-        return b.to_string();
-    }
-    match f {
-        "sequence" => "a list".into(),
-        "map" => "a mapping".into(),
-        "enum" => "a tagged value".into(),
-        other => other.to_string(),
-    }
 }
 
 /// What is expected, as a noun and a fix.
@@ -188,22 +148,18 @@ fn path_to(v: &Node<'_>, hit: &dyn Fn(&Node<'_>) -> bool) -> Option<String> {
 }
 
 impl Reader<'_> {
-    /// When `msg` names an unknown key of a mapping inside `v`, report every unknown key of that
+    /// When `err` is an unknown key of a mapping inside `v`, report every unknown key of that
     /// mapping and return `v` without them.
     pub(super) fn unknown_keys<'n>(
         &mut self,
         path: &str,
-        msg: &str,
+        err: &NodeError,
         v: &Node<'n>,
     ) -> Option<Node<'n>> {
-        let rest = msg.find("unknown field `").map(|i| &msg[i + 15..])?;
-        let name = rest.split('`').next().unwrap_or("");
-        let expected: Vec<&str> = rest
-            .split("expected one of ")
-            .nth(1)
-            .or_else(|| rest.split("expected ").nth(1))
-            .map(|s| s.split(", ").map(|w| w.trim_matches('`')).collect())
-            .unwrap_or_default();
+        let Problem::UnknownKey { name, known } = &err.problem else {
+            return None;
+        };
+        let expected: &[&str] = known;
         let below = map_with_key(v, name)?;
         let map_path = format!("{path}{below}");
         let mut unknown = Vec::new();
@@ -227,7 +183,7 @@ impl Reader<'_> {
                     self.misspelt.push((map_path.clone(), s.to_string()));
                     format!("did you mean `{s}`?")
                 }
-                None => format!("the keys allowed here are {}", backticked(&expected)),
+                None => format!("the keys allowed here are {}", backticked(expected)),
             };
             let location = self
                 .source
@@ -246,76 +202,58 @@ impl Reader<'_> {
         Some(without_keys(v, &below, &unknown))
     }
 
-    pub(super) fn serde_error(&mut self, path: &str, msg: &str, v: &Node<'_>) {
-        if let Some(rest) = msg.strip_prefix("unknown field `") {
-            let name = rest.split('`').next().unwrap_or("");
-            let expected: Vec<&str> = rest
-                .split("expected one of ")
-                .nth(1)
-                .or_else(|| rest.split("expected ").nth(1))
-                .map(|s| s.split(", ").map(|w| w.trim_matches('`')).collect())
-                .unwrap_or_default();
-            let key_path = if path.is_empty() {
-                name.to_string()
-            } else {
-                format!("{path}.{name}")
-            };
-            let hint = match did_you_mean(name, expected.iter().copied()) {
-                Some(s) => format!("did you mean `{s}`?"),
-                None => format!("the keys allowed here are {}", backticked(&expected)),
-            };
-            let location = self.source.key(&key_path).or(self.source.nearest(path));
-            self.diags.push(
-                Diagnostic::of(
-                    crate::error::DiagnosticKind::UnknownKey,
-                    key_path,
-                    format!("unknown key `{name}`"),
-                )
-                .with_hint(hint)
-                .at(location),
-            );
-            return;
-        }
-        if let Some(rest) = msg.strip_prefix("missing field `") {
-            let name = rest.split('`').next().unwrap_or("");
-            self.push(
-                path,
-                format!("`{name}` is missing"),
-                Some(format!("add `{name}:` here")),
-            );
-            return;
-        }
-        if let Some(rest) = msg.strip_prefix("unknown variant `") {
-            let name = rest.split('`').next().unwrap_or("");
-            let expected: Vec<&str> = rest
-                .split("expected one of ")
-                .nth(1)
-                .or_else(|| rest.split("expected ").nth(1))
-                .map(|s| s.split(", ").map(|w| w.trim_matches('`')).collect())
-                .unwrap_or_default();
-            let hint = match did_you_mean(name, expected.iter().copied()) {
-                Some(s) => format!("did you mean `{s}`?"),
-                None => format!("use one of {}", backticked(&expected)),
-            };
-            // Name the key holding the value (`stages[0].kind`), not only the item.
-            let at = value_path(v, name).map_or_else(|| path.to_string(), |p| format!("{path}{p}"));
-            self.push(&at, format!("unknown value `{name}`"), Some(hint));
-            return;
-        }
-        // A nested reader's prefix (`efficiency curve: ...`) before a message handled above.
-        if let Some((_, rest)) = msg.split_once(": ") {
-            if ["unknown field `", "missing field `", "unknown variant `"]
-                .iter()
-                .any(|p| rest.starts_with(p))
-            {
-                return self.serde_error(path, rest, v);
+    /// A deserializer's error about the value `v` at `path` as a diagnostic in plain words with
+    /// a fix (a nested reader's name before it is left out, except for a problem said in
+    /// serde's words).
+    pub(super) fn serde_error(&mut self, path: &str, err: &NodeError, v: &Node<'_>) {
+        match &err.problem {
+            Problem::UnknownKey { name, known } => {
+                let key_path = if path.is_empty() {
+                    name.clone()
+                } else {
+                    format!("{path}.{name}")
+                };
+                let hint = match did_you_mean(name, known.iter().copied()) {
+                    Some(s) => format!("did you mean `{s}`?"),
+                    None => format!("the keys allowed here are {}", backticked(known)),
+                };
+                let location = self.source.key(&key_path).or(self.source.nearest(path));
+                self.diags.push(
+                    Diagnostic::of(
+                        crate::error::DiagnosticKind::UnknownKey,
+                        key_path,
+                        format!("unknown key `{name}`"),
+                    )
+                    .with_hint(hint)
+                    .at(location),
+                );
             }
-        }
-        match reword(path, msg, v) {
-            Some(w) => self.push(&format!("{path}{}", w.below), w.message, Some(w.hint)),
-            None => self.push(
+            Problem::MissingKey { name } => {
+                self.push(
+                    path,
+                    format!("`{name}` is missing"),
+                    Some(format!("add `{name}:` here")),
+                );
+            }
+            Problem::UnknownName { name, known } => {
+                let hint = match did_you_mean(name, known.iter().copied()) {
+                    Some(s) => format!("did you mean `{s}`?"),
+                    None => format!("use one of {}", backticked(known)),
+                };
+                // Name the key holding the value (`stages[0].kind`), not only the item.
+                let at =
+                    value_path(v, name).map_or_else(|| path.to_string(), |p| format!("{path}{p}"));
+                self.push(&at, format!("unknown value `{name}`"), Some(hint));
+            }
+            Problem::Mismatch {
+                found, expected, ..
+            } => {
+                let w = reword(path, &found.words(), expected, v);
+                self.push(&format!("{path}{}", w.below), w.message, Some(w.hint));
+            }
+            Problem::Length { .. } | Problem::DuplicateKey { .. } | Problem::Other(_) => self.push(
                 path,
-                msg.to_string(),
+                err.to_string(),
                 Some("see examples/ for the shape of each part of a design".into()),
             ),
         }
@@ -460,6 +398,23 @@ mod tests {
             .map(|d| format!("{}: {} ({})", d.path(), d.message(), d.hint().unwrap_or("")))
             .collect::<Vec<_>>()
             .join("\n")
+    }
+
+    #[test]
+    fn a_mapping_of_two_keys_knows_both() {
+        // Serde writes two allowed names as "`a` or `b`"; the keys come from the error's data,
+        // so both are known (the words once read them as one name, and called the good keys
+        // unknown).
+        let m = messages("battery: { cell: c, aging: { capacity: 90 %, foo: 1 } }\n");
+        assert!(m.contains("battery.aging.foo: unknown key `foo`"), "{m}");
+        assert!(!m.contains("unknown key `capacity`"), "{m}");
+        let m = messages(
+            "battery: { cell: c }\nstages: [{ id: b, kind: boost, input: battery, output: 3.3 V, efficiency: 85 %, quiescent_from: outptu }]\n",
+        );
+        assert!(
+            m.contains("unknown value `outptu` (did you mean `output`?)"),
+            "{m}"
+        );
     }
 
     #[test]

@@ -193,6 +193,96 @@ struct Mark {
     dash: Dash,
 }
 
+/// The units in each bin `(first, width, count)` of `values` (runtimes in the axis' unit), by
+/// end reason in the order of `reasons`.
+fn bin_counts(
+    values: &[f64],
+    units: &[(f64, EndReason)],
+    reasons: &[EndReason],
+    (first, width, count): (f64, f64, usize),
+) -> Vec<Vec<usize>> {
+    let mut counts = vec![vec![0usize; reasons.len()]; count];
+    for (v, (_, e)) in values.iter().zip(units.iter()) {
+        let b = (((v - first) / width).floor().max(0.0) as usize).min(count - 1);
+        if let Some(k) = reasons.iter().position(|r| r == e) {
+            counts[b][k] += 1;
+        }
+    }
+    counts
+}
+
+/// The histogram's legend: each end reason with its count and share, the percentile lines, and
+/// the target and the design as written when they are drawn.
+fn histogram_keys(sp: &Spread, target: bool, nominal: bool) -> Vec<(Swatch, String)> {
+    let n = sp.samples.len();
+    let mut keys: Vec<(Swatch, String)> = sp
+        .ends
+        .iter()
+        .map(|(e, c)| {
+            (
+                Swatch::Block(end_fill(*e), 0.85),
+                format!(
+                    "{}: {c} ({})",
+                    end_phrase(*e),
+                    fmt_percent(*c as f64 / n as f64)
+                ),
+            )
+        })
+        .collect();
+    keys.push((
+        Swatch::Line(INK, 2, Dash::Medium),
+        "5th, 50th, 95th percentile".into(),
+    ));
+    if target {
+        keys.push((Swatch::Line(VERMILLION, 2, Dash::Solid), "target".into()));
+    }
+    if nominal {
+        keys.push((
+            Swatch::Mark(Shape::Diamond, INK, true),
+            "as designed".into(),
+        ));
+    }
+    keys
+}
+
+/// The vertical lines over the histogram: the 5th, 50th and 95th percentiles and the target.
+fn percentile_marks(sp: &Spread, unit: TimeUnit) -> Vec<Mark> {
+    let s = &sp.summary;
+    let mut marks = vec![
+        Mark {
+            at_s: s.p5,
+            words: format!("P5 {}", in_unit(s.p5, unit)),
+            colour: INK,
+            dash: Dash::Medium,
+        },
+        Mark {
+            at_s: s.p50,
+            words: format!("P50 {}", in_unit(s.p50, unit)),
+            colour: INK,
+            dash: Dash::Long,
+        },
+        Mark {
+            at_s: s.p95,
+            words: format!("P95 {}", in_unit(s.p95, unit)),
+            colour: INK,
+            dash: Dash::Medium,
+        },
+    ];
+    if let Some(r) = sp.reach {
+        marks.push(Mark {
+            at_s: r.target_s,
+            words: format!(
+                "target {}: {} reach it",
+                in_unit(r.target_s, unit),
+                fmt_percent(r.share)
+            ),
+            colour: VERMILLION,
+            dash: Dash::Solid,
+        });
+    }
+    marks
+}
+
 impl Painter for Histogram<'_> {
     #[allow(clippy::too_many_lines)]
     fn paint<DB: DrawingBackend>(&self, root: &Canvas<DB>) -> Result<(), PlotError>
@@ -221,13 +311,7 @@ impl Painter for Histogram<'_> {
         // Which reasons occur, most common first (the spread's order), and the count of each
         // reason in each bin.
         let reasons: Vec<EndReason> = sp.ends.iter().map(|e| e.0).collect();
-        let mut counts = vec![vec![0usize; reasons.len()]; count];
-        for (v, (_, e)) in values.iter().zip(units.iter()) {
-            let b = (((v - first) / width).floor().max(0.0) as usize).min(count - 1);
-            if let Some(k) = reasons.iter().position(|r| r == e) {
-                counts[b][k] += 1;
-            }
-        }
+        let counts = bin_counts(&values, units, &reasons, (first, width, count));
         let tallest = counts
             .iter()
             .map(|c| c.iter().sum::<usize>())
@@ -258,68 +342,10 @@ impl Painter for Histogram<'_> {
             pad,
         )?;
 
-        let mut keys: Vec<(Swatch, String)> = sp
-            .ends
-            .iter()
-            .map(|(e, c)| {
-                (
-                    Swatch::Block(end_fill(*e), 0.85),
-                    format!(
-                        "{}: {c} ({})",
-                        end_phrase(*e),
-                        fmt_percent(*c as f64 / n as f64)
-                    ),
-                )
-            })
-            .collect();
-        keys.push((
-            Swatch::Line(INK, 2, Dash::Medium),
-            "5th, 50th, 95th percentile".into(),
-        ));
-        if target.is_some() {
-            keys.push((Swatch::Line(VERMILLION, 2, Dash::Solid), "target".into()));
-        }
-        if nominal.is_some() {
-            keys.push((
-                Swatch::Mark(Shape::Diamond, INK, true),
-                "as designed".into(),
-            ));
-        }
+        let keys = histogram_keys(sp, target.is_some(), nominal.is_some());
         y += legend(root, &keys, (pad, y), px(w) - 2 * pad, ty.body, false)?;
 
-        let mut marks = vec![
-            Mark {
-                at_s: s.p5,
-                words: format!("P5 {}", in_unit(s.p5, unit)),
-                colour: INK,
-                dash: Dash::Medium,
-            },
-            Mark {
-                at_s: s.p50,
-                words: format!("P50 {}", in_unit(s.p50, unit)),
-                colour: INK,
-                dash: Dash::Long,
-            },
-            Mark {
-                at_s: s.p95,
-                words: format!("P95 {}", in_unit(s.p95, unit)),
-                colour: INK,
-                dash: Dash::Medium,
-            },
-        ];
-        if let Some(r) = target {
-            marks.push(Mark {
-                at_s: r.target_s,
-                words: format!(
-                    "target {}: {} reach it",
-                    in_unit(r.target_s, unit),
-                    fmt_percent(r.share)
-                ),
-                colour: VERMILLION,
-                dash: Dash::Solid,
-            });
-        }
-
+        let marks = percentile_marks(sp, unit);
         // The runtime axis: the bins, the target and the design as written, a bin of room on
         // either side, never below zero.
         let x_lo = (first.min(lo_s / unit.seconds) - width).max(0.0);

@@ -129,7 +129,7 @@ impl CapStep {
     /// volts, except that a capacitor settling far within the step (over 20 time constants,
     /// as the polarization) is not followed: the step's mean averages its transient.
     pub(super) fn step_limit(&self, x0: f64, dt: f64, allowed: f64) -> f64 {
-        if !(allowed > 0.0) {
+        if allowed.is_nan() || allowed <= 0.0 {
             return f64::INFINITY;
         }
         let (region, stay) = self.region(x0);
