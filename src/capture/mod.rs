@@ -18,6 +18,7 @@ mod summary;
 
 pub use compress::{CompressError, Compressed, Segment, Sensitivity, compress};
 pub use read::{GAP_FACTOR, read_capture, read_capture_file};
+pub(crate) use read::read_capped;
 pub use summary::{Summary, SummaryJson, summarize, write_summary};
 
 use crate::model::Pack;

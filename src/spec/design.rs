@@ -18,7 +18,7 @@ pub struct DesignSpec {
     #[serde(default)]
     pub design: Option<String>,
     /// Ambient temperature, e.g. `25 °C` (the default), or a climate: a yearly cycle of
-    /// monthly means and a daily swing.
+    /// monthly means and a daily swing, or a recorded series read from a CSV file.
     #[serde(default)]
     pub ambient: Option<AmbientSpec>,
     /// Custom cells by name.
@@ -206,7 +206,7 @@ impl<'de> Deserialize<'de> for AmbientSpec {
         match &v.kind {
             Kind::Map(_) => reread(&v, "").map(AmbientSpec::Climate),
             Kind::Seq(_) => Err(serde::de::Error::custom(format!(
-                "expected a temperature such as `20 °C` or a climate mapping (`mean` or `monthly`, `daily_range`), found {}",
+                "expected a temperature such as `20 °C`, a climate mapping (`mean` or `monthly`, `daily_range`) or a recorded ambient (`file: temps.csv`), found {}",
                 v.describe()
             ))),
             _ => reread(&v, "").map(AmbientSpec::Constant),
@@ -222,7 +222,7 @@ impl JsonSchema for AmbientSpec {
         let q = g.subschema_for::<Qty>();
         let c = g.subschema_for::<ClimateSpec>();
         schemars::json_schema!({
-            "description": "The ambient temperature: one value (\"20 °C\") or a climate {mean or monthly, start_month, daily_range, warmest}.",
+            "description": "The ambient temperature: one value (\"20 °C\"), a climate {mean or monthly, start_month, daily_range, warmest}, or a recorded ambient {file: temps.csv, repeat}.",
             "anyOf": [q, c]
         })
     }
@@ -248,6 +248,15 @@ pub struct ClimateSpec {
     /// Time of day of the warmest hour, after midnight, e.g. `15 h` (the default).
     #[serde(default)]
     pub warmest: Option<Qty>,
+    /// A recorded ambient in place of the cycles: a CSV file of time and temperature
+    /// (`time [h], temperature [°C]`), relative to the design file; straight lines between its
+    /// rows.
+    #[serde(default)]
+    pub file: Option<String>,
+    /// With `file`: start the file again after its last row (`true`), or hold its last
+    /// temperature (`false`, the default).
+    #[serde(default)]
+    pub repeat: Option<bool>,
 }
 
 /// The pack.

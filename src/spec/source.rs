@@ -11,6 +11,7 @@ use super::yaml::key_text;
 use crate::capture::{Capture, read_capture_file};
 use crate::error::{Diagnostic, Location};
 use crate::hash::FastMap;
+use crate::model::{Recorded, read_ambient_file};
 
 /// Line and column of every value (and every mapping key) in a document, by YAML path: the
 /// document's tree itself, kept after the serde types were read from it (a place is looked up
@@ -25,9 +26,12 @@ pub struct SourceMap {
     /// Captures read so far, by path, shared by clones (the pack candidates of `size` read each
     /// file once).
     captures: Arc<Mutex<CaptureCache>>,
+    /// Recorded ambients read so far, by path and whether they repeat, shared by clones.
+    ambients: Arc<Mutex<AmbientCache>>,
 }
 
 type CaptureCache = FastMap<PathBuf, Result<Arc<Capture>, Diagnostic>>;
+type AmbientCache = FastMap<(PathBuf, bool), Result<(f64, Arc<Recorded>), Vec<Diagnostic>>>;
 
 impl Default for SourceMap {
     /// No places at all.
@@ -44,6 +48,7 @@ impl SourceMap {
             overridden: Vec::new(),
             base_dir: None,
             captures: Arc::default(),
+            ambients: Arc::default(),
         }
     }
 
@@ -78,6 +83,31 @@ impl SourceMap {
         cache
             .entry(path.clone())
             .or_insert_with(|| read_capture_file(&path, false).map(Arc::new))
+            .clone()
+    }
+
+    /// The recorded ambient `file` (relative to the base directory): its mean and the series
+    /// around it, read once and kept.
+    ///
+    /// # Errors
+    ///
+    /// No base directory (the text did not come from a file), or the reader's errors.
+    pub fn ambient(&self, file: &str, repeat: bool) -> Result<(f64, Arc<Recorded>), Vec<Diagnostic>> {
+        let Some(dir) = &self.base_dir else {
+            return Err(vec![Diagnostic::new(
+                file,
+                "cannot be read: the design was not read from a file",
+            )
+            .with_hint("read the design from its file (the command line does), or give its directory (`Design::from_text_in`)")]);
+        };
+        let path = dir.join(file);
+        let mut cache = self
+            .ambients
+            .lock()
+            .unwrap_or_else(std::sync::PoisonError::into_inner);
+        cache
+            .entry((path.clone(), repeat))
+            .or_insert_with(|| read_ambient_file(&path, repeat).map(|(m, r)| (m, Arc::new(r))))
             .clone()
     }
 
