@@ -2,6 +2,7 @@
 
 mod util;
 
+mod ambient;
 mod browser;
 mod capture;
 mod cli;

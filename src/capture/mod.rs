@@ -17,8 +17,8 @@ mod read;
 mod summary;
 
 pub use compress::{CompressError, Compressed, Segment, Sensitivity, compress};
-pub use read::{GAP_FACTOR, read_capture, read_capture_file};
 pub(crate) use read::read_capped;
+pub use read::{GAP_FACTOR, read_capture, read_capture_file};
 pub use summary::{Summary, SummaryJson, summarize, write_summary};
 
 use crate::model::Pack;

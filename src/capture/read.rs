@@ -372,8 +372,10 @@ pub(crate) fn read_capped(
     };
     let meta = std::fs::metadata(path).map_err(cannot)?;
     if !meta.is_file() {
-        return Err(Diagnostic::new(&name, format!("the {noun} is not a regular file"))
-            .with_hint("name a CSV file"));
+        return Err(
+            Diagnostic::new(&name, format!("the {noun} is not a regular file"))
+                .with_hint("name a CSV file"),
+        );
     }
     let file = std::fs::File::open(path).map_err(cannot)?;
     let mut bytes = Vec::with_capacity(usize::try_from(meta.len()).unwrap_or(0).min(max + 1));

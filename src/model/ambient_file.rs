@@ -229,7 +229,15 @@ pub fn read_ambient(
             );
             break;
         }
-        match read_row(row, line, sep, &lay, name, times.last().copied(), &mut fields) {
+        match read_row(
+            row,
+            line,
+            sep,
+            &lay,
+            name,
+            times.last().copied(),
+            &mut fields,
+        ) {
             Ok((t, v)) => {
                 times.push(t);
                 temps.push(v);
@@ -265,7 +273,7 @@ pub fn read_ambient(
             .with_hint("add one row per time (time, temperature), or give the ambient as one temperature such as `ambient: 20 °C`"),
         ]);
     }
-    Ok(Recorded::new(times, temps, repeat))
+    Ok(Recorded::new(&times, &temps, repeat))
 }
 
 /// One row: its time (s) and temperature (°C), checked against the time of the row before.

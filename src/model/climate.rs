@@ -66,7 +66,7 @@ const RECORDED_STEP_MAX_S: f64 = 3600.0;
 ///
 /// ```
 /// use joulepath::model::Recorded;
-/// let (mean, r) = Recorded::new(vec![0.0, 3600.0, 7200.0], vec![10.0, 20.0, 20.0], false);
+/// let (mean, r) = Recorded::new(&[0.0, 3600.0, 7200.0], &[10.0, 20.0, 20.0], false);
 /// // Time-weighted mean: (15 + 20) / 2.
 /// assert!((mean - 17.5).abs() < 1e-12);
 /// assert!((mean + r.at(1800.0) - 15.0).abs() < 1e-12);
@@ -88,10 +88,12 @@ impl Recorded {
     /// A series from times (s, strictly increasing, at least two) and temperatures (°C): its
     /// time-weighted mean (the area under the straight lines over the rows' span, divided by the
     /// span; exactly the temperature of a constant series) and the series around that mean.
-    pub fn new(times_s: Vec<f64>, temp_c: Vec<f64>, repeat: bool) -> (f64, Self) {
+    pub fn new(times_s: &[f64], temp_c: &[f64], repeat: bool) -> (f64, Self) {
         let t0 = times_s.first().copied().unwrap_or(0.0);
         let t_s: Vec<f64> = times_s.iter().map(|t| t - t0).collect();
         let first = temp_c.first().copied().unwrap_or(0.0);
+        // Exactly equal: only then is the series less its mean exactly zero.
+        #[allow(clippy::float_cmp)]
         let constant = temp_c.iter().all(|&v| v == first);
         let span = t_s.last().copied().unwrap_or(0.0);
         let mean = if constant || span <= 0.0 {

@@ -92,7 +92,11 @@ impl SourceMap {
     /// # Errors
     ///
     /// No base directory (the text did not come from a file), or the reader's errors.
-    pub fn ambient(&self, file: &str, repeat: bool) -> Result<(f64, Arc<Recorded>), Vec<Diagnostic>> {
+    pub fn ambient(
+        &self,
+        file: &str,
+        repeat: bool,
+    ) -> Result<(f64, Arc<Recorded>), Vec<Diagnostic>> {
         let Some(dir) = &self.base_dir else {
             return Err(vec![Diagnostic::new(
                 file,

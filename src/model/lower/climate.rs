@@ -19,7 +19,10 @@ impl Lower<'_> {
             self.err(
                 "ambient.repeat",
                 "`repeat` belongs to a recorded ambient (`file`)",
-                Some("remove `repeat`, or give the temperatures over time as `file: temps.csv`".into()),
+                Some(
+                    "remove `repeat`, or give the temperatures over time as `file: temps.csv`"
+                        .into(),
+                ),
             );
             return None;
         }

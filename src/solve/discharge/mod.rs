@@ -370,7 +370,7 @@ fn run_counting(
             }
         }
     }
-    let mut ctx = Ctx::new(design, opt.clone());
+    let mut ctx = Ctx::new(design, opt);
     ctx.progress = progress;
     let mut sim = Sim::new(&ctx);
     let pass: f64 = design.profile.iter().map(Step::duration).sum();
@@ -476,7 +476,7 @@ struct Ctx<'a> {
 }
 
 impl<'a> Ctx<'a> {
-    fn new(d: &'a Design, opt: RunOptions) -> Self {
+    fn new(d: &'a Design, opt: &RunOptions) -> Self {
         let draws_below = d
             .modes
             .iter()
