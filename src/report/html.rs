@@ -446,7 +446,7 @@ fn budget_section(w: &mut dyn Write, d: &Design, modes: &[ModeBudget], soc: f64)
                 .map(|(k, (s, sp))| {
                     vec![
                         format!("<code>{}</code>", esc(&s.id)),
-                        esc(s.kind.name()),
+                        esc(s.kind_name()),
                         esc(sp.state.name()),
                         esc(&fmt_eng(sp.vin, "V")),
                         esc(&fmt_eng(sp.iin, "A")),

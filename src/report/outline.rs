@@ -152,6 +152,11 @@ fn draw_text(d: Draw) -> String {
         Draw::Current(i) => fmt_eng(i, "A"),
         Draw::Power(p) => fmt_eng(p, "W"),
         Draw::Resistance(r) => fmt_eng(r, "Ω"),
+        Draw::Led { knee, resistance } => format!(
+            "LED, knee {} + {}",
+            fmt_eng(knee, "V"),
+            fmt_eng(resistance, "Ω")
+        ),
     }
 }
 
@@ -159,6 +164,13 @@ fn stage_text(s: &Stage) -> String {
     let mut parts = Vec::new();
     if s.kind == StageKind::Switch {
         parts.push(format!("switch, {} on", fmt_eng(s.on_resistance, "Ω")));
+    } else if let Some(i) = s.led_current {
+        parts.push(format!(
+            "{} LED driver at {} (its LED at {})",
+            s.kind.name(),
+            fmt_eng(i, "A"),
+            fmt_eng(s.setpoint, "V")
+        ));
     } else {
         parts.push(format!("{} to {}", s.kind.name(), fmt_eng(s.setpoint, "V")));
     }
@@ -176,6 +188,9 @@ fn stage_text(s: &Stage) -> String {
         LossModel::None => {}
     }
     match s.kind {
+        StageKind::Buck | StageKind::Linear if s.led_current.is_some() => {
+            parts.push(format!("headroom {}", fmt_eng(s.dropout, "V")));
+        }
         StageKind::Buck | StageKind::Linear => {
             parts.push(format!("dropout {}", fmt_eng(s.dropout, "V")));
         }

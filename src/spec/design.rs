@@ -305,6 +305,24 @@ pub enum StageKindSpec {
     Linear,
     /// Load switch.
     Switch,
+    /// Constant-current LED driver: sets the current of the LED string on its rail.
+    LedDriver,
+}
+
+/// How an LED driver regulates its current.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
+#[serde(rename_all = "kebab-case")]
+pub enum LedTopologySpec {
+    /// A linear current sink or source: input current = LED current + quiescent; needs
+    /// `headroom` above the LEDs' voltage.
+    Linear,
+    /// A step-down switching driver: needs `headroom`, takes `efficiency` or `loss`.
+    Buck,
+    /// A step-up switching driver: takes `efficiency` or `loss`; above the LEDs' voltage it
+    /// passes its input through.
+    Boost,
+    /// A switching driver that regulates above and below its input.
+    BuckBoost,
 }
 
 /// Where a switching stage draws its quiescent current.
@@ -327,9 +345,19 @@ pub struct StageSpec {
     pub kind: StageKindSpec,
     /// `battery` or the id of the stage feeding this one.
     pub input: String,
-    /// Regulation setpoint (not for `switch`).
+    /// Regulation setpoint (not for `switch` or `led-driver`).
     #[serde(default)]
     pub output: Option<Qty>,
+    /// LED driver: the LED current it holds, e.g. `350 mA`.
+    #[serde(default)]
+    pub current: Option<Qty>,
+    /// LED driver: `linear` (the default), `buck`, `boost` or `buck-boost`.
+    #[serde(default)]
+    pub topology: Option<LedTopologySpec>,
+    /// LED driver, linear or buck: least input voltage above the LEDs' that holds the current
+    /// (default 0.2 V linear, 0.1 V buck).
+    #[serde(default)]
+    pub headroom: Option<Qty>,
     /// Efficiency: a constant, one curve `[[I, eta], ...]` or curves per input voltage.
     #[serde(default)]
     pub efficiency: Option<Efficiency>,
