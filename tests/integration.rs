@@ -10,6 +10,7 @@ mod errors;
 mod examples;
 mod fit;
 mod fuzz;
+mod led;
 mod hardening;
 mod json;
 mod plots;
