@@ -35,12 +35,21 @@ fn a_linear_driver_in_regulation_draws_the_set_current_plus_its_quiescent() {
     // Hand computation: 4.0 V in, LED at 3.0 V for 350 mA (its knee 3.0 - 0.35 x 1.2 = 2.58 V),
     // 0.15 V of headroom are enough: the input current is I_set + Iq = 350.1 mA, the loss
     // (4.0 - 3.0) x 0.35 + 4.0 x 100 µA = 350.4 mW.
-    let d = lamp(4.0, 0.0, "current: 350 mA, headroom: 0.15 V, quiescent: 100 µA", LED);
+    let d = lamp(
+        4.0,
+        0.0,
+        "current: 350 mA, headroom: 0.15 V, quiescent: 100 µA",
+        LED,
+    );
     assert!((d.stages[0].setpoint - 3.0).abs() < 1e-12);
     let p = point(&d);
     let s = p.stages[0];
     assert_eq!(s.state, StageState::Regulating);
-    assert!((p.pack.current - 0.3501).abs() < 1e-12, "{}", p.pack.current);
+    assert!(
+        (p.pack.current - 0.3501).abs() < 1e-12,
+        "{}",
+        p.pack.current
+    );
     assert!((p.loads[0].current - 0.35).abs() < 1e-12);
     assert!((s.loss - 0.3504).abs() < 1e-12, "{}", s.loss);
 }
@@ -52,11 +61,20 @@ fn a_linear_driver_in_dropout_follows_the_led_law() {
     // Vf0 = 2.58 V and Rd = 1.2 Ω, I = (Vin - 0.15 - 2.58) / 1.2 and Vin = 3.2 - 0.5 (I + Iq),
     // so I = (3.2 - 0.5 Iq - 2.73) / 1.7 = 276.4 mA (Vin = 3.06 V, below 3.15 V).
     let iq = 100e-6;
-    let d = lamp(3.2, 0.5, "current: 350 mA, headroom: 0.15 V, quiescent: 100 µA", LED);
+    let d = lamp(
+        3.2,
+        0.5,
+        "current: 350 mA, headroom: 0.15 V, quiescent: 100 µA",
+        LED,
+    );
     let p = point(&d);
     let want = (3.2 - 0.5 * iq - 2.73) / 1.7;
     assert_eq!(p.stages[0].state, StageState::Dropout);
-    assert!((p.loads[0].current - want).abs() < 1e-9, "{} vs {want}", p.loads[0].current);
+    assert!(
+        (p.loads[0].current - want).abs() < 1e-9,
+        "{} vs {want}",
+        p.loads[0].current
+    );
     assert!((p.pack.current - (want + iq)).abs() < 1e-9);
     // Below the knee the LED draws nothing at all (a resistor would still draw V / R).
     let dark = lamp(2.7, 0.0, "current: 350 mA, headroom: 0.15 V", LED);
@@ -78,7 +96,11 @@ fn a_string_of_three_on_a_buck_driver_draws_its_power_over_the_efficiency() {
     assert!((d.stages[0].setpoint - 9.0).abs() < 1e-12);
     let p = point(&d);
     let want = (3.15 / 0.9 + 12.0 * 50e-6) / 12.0;
-    assert!((p.pack.current - want).abs() < 1e-12, "{} vs {want}", p.pack.current);
+    assert!(
+        (p.pack.current - want).abs() < 1e-12,
+        "{} vs {want}",
+        p.pack.current
+    );
     assert!((p.pack.power() - 3.5006).abs() < 1e-9);
     // The forward voltage given at another current: 2.9 V at 100 mA with 1.2 Ω is 3.2 V at
     // 350 mA (2.9 + 0.25 x 1.2), each of the three.
@@ -100,10 +122,24 @@ fn a_boost_driver_regulates_below_the_led_and_passes_through_above_it() {
     // 0.4 V drop: the LED gets 3.6 V, (3.6 - 2.976) / 1.2 = 520 mA, not its set current,
     // as a simple boost LED driver does.
     let led = "{ forward: 3.0 V, resistance: 1.2 Ω }";
-    let d = lamp(1.2, 0.0, "topology: boost, current: 20 mA, efficiency: 80 %", led);
+    let d = lamp(
+        1.2,
+        0.0,
+        "topology: boost, current: 20 mA, efficiency: 80 %",
+        led,
+    );
     let p = point(&d);
-    assert!((p.pack.current - 0.0625).abs() < 1e-12, "{}", p.pack.current);
-    let d = lamp(4.0, 0.0, "topology: boost, current: 20 mA, efficiency: 80 %", led);
+    assert!(
+        (p.pack.current - 0.0625).abs() < 1e-12,
+        "{}",
+        p.pack.current
+    );
+    let d = lamp(
+        4.0,
+        0.0,
+        "topology: boost, current: 20 mA, efficiency: 80 %",
+        led,
+    );
     let p = point(&d);
     assert_eq!(p.stages[0].state, StageState::Bypass);
     assert!((p.loads[0].current - (3.6 - 2.976) / 1.2).abs() < 1e-12);
@@ -113,10 +149,19 @@ fn a_boost_driver_regulates_below_the_led_and_passes_through_above_it() {
 fn a_constant_current_led_runs_for_the_charge_over_its_current() {
     // Q / I: 2 Ah / (350 mA + 100 µA) = 5.7126 h on a flat cell that never drops out (hand
     // computation); the chronological reference agrees.
-    let d = lamp(4.0, 0.05, "current: 350 mA, headroom: 0.15 V, quiescent: 100 µA", LED);
+    let d = lamp(
+        4.0,
+        0.05,
+        "current: 350 mA, headroom: 0.15 V, quiescent: 100 µA",
+        LED,
+    );
     let r = run(&d, &RunOptions::for_design(&d)).unwrap();
     let want = 2.0 * 3600.0 / 0.3501;
-    assert!(close(r.runtime_s(), want, 1e-9), "{} vs {want}", r.runtime_s());
+    assert!(
+        close(r.runtime_s(), want, 1e-9),
+        "{} vs {want}",
+        r.runtime_s()
+    );
     let e = run(&d, &RunOptions::reference(&d)).unwrap();
     assert!(close(e.runtime_s(), want, 1e-9));
 }
@@ -129,7 +174,12 @@ fn in_dropout_the_run_lasts_longer_than_at_the_set_current() {
     let d = Design::from_text(text).unwrap();
     let f = run(&d, &RunOptions::for_design(&d)).unwrap();
     let e = run(&d, &RunOptions::reference(&d)).unwrap();
-    assert!(close(f.runtime_s(), e.runtime_s(), 2e-3), "{} vs {}", f.runtime_s(), e.runtime_s());
+    assert!(
+        close(f.runtime_s(), e.runtime_s(), 2e-3),
+        "{} vs {}",
+        f.runtime_s(),
+        e.runtime_s()
+    );
     assert!(f.runtime_s() > 2.0 * 3600.0 / 0.35);
 }
 

@@ -101,7 +101,7 @@ impl Lower<'_> {
             }
             let on = tree.loads_on(rail);
             if on.len() != 1 {
-                let names: Vec<&str> = on.iter().map(|&l| loads[l].id.as_str()).collect();
+                let names: Vec<String> = on.iter().map(|&l| format!("`{}`", loads[l].id)).collect();
                 self.err(
                     &format!("stages[{k}]"),
                     if on.is_empty() {
@@ -111,7 +111,7 @@ impl Lower<'_> {
                             "the LED driver `{}` drives {} loads ({}); it drives exactly one LED load",
                             stages[k].id,
                             on.len(),
-                            backticked(&names)
+                            names.join(", ")
                         )
                     },
                     Some("give the driver one load on its rail with an LED draw, such as `draw: { on: { forward: 3.0 V, resistance: 1.2 Ω } }`; LEDs in series are one load with `count`, another string needs its own driver".into()),

@@ -69,9 +69,10 @@ impl Lower<'_> {
         which: &str,
     ) {
         if present {
+            let a = if kind.starts_with("LED") { "an" } else { "a" };
             self.err(
                 &format!("{path}.{key}"),
-                format!("`{key}` does not apply to a {kind} stage"),
+                format!("`{key}` does not apply to {a} {kind} stage"),
                 Some(format!("`{key}` applies to {which}; remove it here")),
             );
         }
@@ -87,7 +88,7 @@ impl Lower<'_> {
             StageKindSpec::LedDriver => led_topology(s),
         };
         let led = s.kind == StageKindSpec::LedDriver;
-        let kn = if led { "led-driver" } else { kind.name() };
+        let kn = if led { "LED driver" } else { kind.name() };
         let before = self.diags.len();
         let led_current = self.led_driver_keys(s, path, led.then_some(kind), kn);
         let setpoint = match (&s.output, kind) {
