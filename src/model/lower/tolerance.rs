@@ -95,12 +95,11 @@ fn stage_knob(i: usize, rest: &[Seg<'_>]) -> Result<Knob, Miss> {
     Ok(match key.as_str() {
         "output" => Knob::StageOutput(i),
         "current" => Knob::StageLedCurrent(i),
-        // An LED driver's headroom is held as its dropout.
-        "headroom" => Knob::StageDropout(i),
         "quiescent" => Knob::StageQuiescent(i),
         "shutdown" => Knob::StageShutdown(i),
         "efficiency" => Knob::StageEfficiency(i),
-        "dropout" => Knob::StageDropout(i),
+        // An LED driver's headroom is held as its dropout.
+        "dropout" | "headroom" => Knob::StageDropout(i),
         "bypass_drop" => Knob::StageBypassDrop(i),
         "on_resistance" => Knob::StageOnResistance(i),
         "theta_ja" => Knob::StageThetaJa(i),
