@@ -95,7 +95,7 @@ impl Design {
         Self::from_text_at(text, overrides, None)
     }
 
-    /// Read and check a design file's text with overrides; files it names (captures) are read
+    /// Read and check a design file's text with overrides; files it names (captures, a recorded ambient) are read
     /// relative to `dir`, the design file's directory.
     ///
     /// # Errors
@@ -109,7 +109,7 @@ impl Design {
         Self::from_text_at(text, overrides, Some(dir))
     }
 
-    /// Read and check a design file; files it names (captures) are read relative to its
+    /// Read and check a design file; files it names (captures, a recorded ambient) are read relative to its
     /// directory.
     ///
     /// # Errors

@@ -20,7 +20,7 @@ use crate::model::{Recorded, read_ambient_file};
 pub struct SourceMap {
     root: Node<'static>,
     overridden: Vec<String>,
-    /// The directory files named in the design (captures) are read from; none for text that
+    /// The directory files named in the design (captures, a recorded ambient) are read from; none for text that
     /// did not come from a file.
     base_dir: Option<PathBuf>,
     /// Captures read so far, by path, shared by clones (the pack candidates of `size` read each
@@ -52,7 +52,7 @@ impl SourceMap {
         }
     }
 
-    /// Read files the design names (captures) relative to `dir`: the design file's directory.
+    /// Read files the design names (captures, a recorded ambient) relative to `dir`: the design file's directory.
     pub fn set_base_dir(&mut self, dir: impl Into<PathBuf>) {
         self.base_dir = Some(dir.into());
     }
