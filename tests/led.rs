@@ -202,3 +202,107 @@ fn a_tolerance_on_the_driver_current_moves_its_led_voltage() {
         assert!(e.contains(says), "{path}: {e}");
     }
 }
+
+/// Random lamps that drop out before they end: the fast solver against the chronological
+/// reference (0.2 % on the runtime, DESIGN section 6) and the same end reason, for every
+/// topology of the driver, a pulsed use and a sloped cell.
+mod agreement {
+    use std::fmt::Write as _;
+
+    use joulepath::Design;
+    use joulepath::solve::{RunOptions, run};
+    use proptest::prelude::*;
+    use proptest::test_runner::{Config, RngSeed};
+
+    use crate::util::close;
+
+    fn config() -> Config {
+        Config {
+            cases: 24,
+            rng_seed: RngSeed::Fixed(0x6c65_6473),
+            failure_persistence: None,
+            ..Config::default()
+        }
+    }
+
+    #[derive(Debug, Clone)]
+    struct Lamp {
+        /// Open-circuit voltage at 0 % and its rise to 100 %, V.
+        ocv: (f64, f64),
+        /// Cell resistance, Ω.
+        r: f64,
+        topology: usize,
+        /// Set current, mA; forward voltage, V; dynamic resistance, Ω.
+        led: (f64, f64, f64),
+        /// On and off time of a pass, s.
+        on_off: (f64, f64),
+    }
+
+    fn lamps() -> impl Strategy<Value = Lamp> {
+        (
+            (2.9f64..3.3, 0.6f64..1.1),
+            0.02f64..0.4,
+            0usize..4,
+            (20.0f64..400.0, 2.7f64..3.2, 0.3f64..2.0),
+            (1.0f64..30.0, 0.0f64..120.0),
+        )
+            .prop_map(|(ocv, r, topology, led, on_off)| Lamp {
+                ocv,
+                r,
+                topology,
+                led,
+                on_off,
+            })
+    }
+
+    fn text(g: &Lamp) -> String {
+        let (lo, span) = g.ocv;
+        let (i_ma, vf, rd) = g.led;
+        let driver = match g.topology {
+            0 => "headroom: 0.15 V, quiescent: 50 µA".to_string(),
+            1 => "topology: buck, headroom: 0.1 V, efficiency: 90 %, quiescent: 30 µA".to_string(),
+            2 => "topology: boost, efficiency: [[10 mA, 80 %], [300 mA, 88 %]], quiescent: 40 µA"
+                .to_string(),
+            _ => "topology: buck-boost, efficiency: 85 %".to_string(),
+        };
+        let mut s = format!(
+            "cells:\n  c: {{ capacity: 100 mAh, ocv: [[0 %, {lo} V], [10 %, {} V], [100 %, {} V]], resistance: {} ohm, cutoff: {} V }}\nbattery: {{ cell: c }}\n",
+            lo + 0.4 * span,
+            lo + span,
+            g.r,
+            lo - 0.3
+        );
+        let _ = writeln!(
+            s,
+            "stages: [{{ id: drv, kind: led-driver, input: battery, current: {i_ma} mA, {driver} }}]"
+        );
+        let _ = writeln!(
+            s,
+            "loads: [{{ id: led, rail: drv, draw: {{ on: {{ forward: {vf} V, resistance: {rd} Ω }} }} }}]"
+        );
+        s.push_str("modes: { on: { led: on }, rest: { drv: off } }\n");
+        let (on, off) = g.on_off;
+        let _ = write!(s, "profile:\n  - {{ mode: on, for: {on} s }}\n");
+        if off > 1.0 {
+            let _ = writeln!(s, "  - {{ mode: rest, for: {off} s }}");
+        }
+        s
+    }
+
+    proptest! {
+        #![proptest_config(config())]
+
+        #[test]
+        fn fast_agrees_with_reference_on_led_drivers(g in lamps()) {
+            let t = text(&g);
+            let d = Design::from_text(&t).unwrap_or_else(|e| panic!("{e}\n{t}"));
+            let f = run(&d, &RunOptions::for_design(&d)).unwrap();
+            let pass: f64 = d.profile.iter().map(joulepath::model::Step::duration).sum();
+            // Keep the reference affordable in a debug build.
+            prop_assume!(f.runtime_s() / pass < 4000.0);
+            let e = run(&d, &RunOptions::reference(&d)).unwrap();
+            prop_assert_eq!(f.end.reason, e.end.reason, "\n{}", t);
+            prop_assert!(close(f.runtime_s(), e.runtime_s(), 2e-3), "{} vs {}\n{}", f.runtime_s(), e.runtime_s(), t);
+        }
+    }
+}
