@@ -270,6 +270,22 @@ fn the_command_line_reads_the_file_beside_the_design_and_refuses_a_bad_one() {
         "{}",
         out.stdout
     );
+    let check = Test::new()
+        .design(&text("{ file: t.csv, repeat: true }"))
+        .args(&["check", "{file}"]);
+    std::fs::write(
+        check.dir().join("t.csv"),
+        "time [h], temperature [°C]\n0, 25\n24, 5\n",
+    )
+    .unwrap();
+    let out = check.expect_code(0);
+    assert!(out.stdout.contains("15.0 °C ambient"), "{}", out.stdout);
+    assert!(
+        out.stdout
+            .contains("a recorded series of 2 rows around that mean, repeated"),
+        "{}",
+        out.stdout
+    );
     std::fs::write(
         t.dir().join("t.csv"),
         "time [h], temperature [°C]\n0, 25\n0, 20\n",

@@ -27,6 +27,14 @@ pub fn write_outline(w: &mut dyn Write, d: &Design) -> io::Result<()> {
         fmt_eng(p.r0(0.5, d.ambient_c), "Ω"),
         fmt_celsius(d.ambient_c)
     )?;
+    if let Some(r) = d.climate.as_ref().and_then(|c| c.series()) {
+        writeln!(
+            w,
+            "ambient: a recorded series of {} rows around that mean, {} after its last row",
+            r.len(),
+            if r.repeats() { "repeated" } else { "held" }
+        )?;
+    }
     writeln!(w, "battery")?;
     rail(w, d, 0, "")?;
     let names: Vec<&str> = d
