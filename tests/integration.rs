@@ -2,6 +2,7 @@
 
 mod util;
 
+mod ambient;
 mod browser;
 mod buffer;
 mod capture;
@@ -12,6 +13,7 @@ mod fit;
 mod fuzz;
 mod hardening;
 mod json;
+mod led;
 mod plots;
 mod presets;
 mod properties;

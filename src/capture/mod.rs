@@ -17,6 +17,7 @@ mod read;
 mod summary;
 
 pub use compress::{CompressError, Compressed, Segment, Sensitivity, compress};
+pub(crate) use read::read_capped;
 pub use read::{GAP_FACTOR, read_capture, read_capture_file};
 pub use summary::{SegmentRow, Summary, summarize, write_summary};
 

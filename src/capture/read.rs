@@ -376,34 +376,47 @@ fn too_big(name: &str, len: u64) -> Diagnostic {
 /// not UTF-8, and every error of [`read_capture`].
 pub fn read_capture_file(path: &Path, allow_negative: bool) -> Result<Capture, Diagnostic> {
     let name = path.display().to_string();
+    let text = read_capped(path, MAX_BYTES, "capture", &|len| too_big(&name, len))?;
+    read_capture(&text, &name, allow_negative)
+}
+
+/// The text of the file at `path`, a regular UTF-8 file of at most `max` bytes; `noun` names
+/// the file in messages (`capture`), `too_big` words the error of a file over the limit from
+/// its length. Errors are labelled with the path as given. Shared by the capture and the
+/// ambient readers.
+pub(crate) fn read_capped(
+    path: &Path,
+    max: usize,
+    noun: &str,
+    too_big: &dyn Fn(u64) -> Diagnostic,
+) -> Result<String, Diagnostic> {
+    let name = path.display().to_string();
     let cannot = |e: std::io::Error| {
-        Diagnostic::new(&name, format!("cannot read the capture: {e}"))
+        Diagnostic::new(&name, format!("cannot read the {noun}: {e}"))
             .with_hint("check the path: it is relative to the design file's directory")
     };
     let meta = std::fs::metadata(path).map_err(cannot)?;
     if !meta.is_file() {
-        return Err(Diagnostic::new(&name, "the capture is not a regular file")
-            .with_hint("name a CSV file"));
+        return Err(
+            Diagnostic::new(&name, format!("the {noun} is not a regular file"))
+                .with_hint("name a CSV file"),
+        );
     }
     let file = std::fs::File::open(path).map_err(cannot)?;
-    let mut bytes = Vec::with_capacity(usize::try_from(meta.len()).unwrap_or(0).min(MAX_BYTES + 1));
+    let mut bytes = Vec::with_capacity(usize::try_from(meta.len()).unwrap_or(0).min(max + 1));
     // One byte past the limit tells a file over it, whatever its size said.
-    file.take(MAX_BYTES as u64 + 1)
+    file.take(max as u64 + 1)
         .read_to_end(&mut bytes)
         .map_err(cannot)?;
-    if bytes.len() > MAX_BYTES {
-        return Err(too_big(&name, meta.len().max(bytes.len() as u64)));
+    if bytes.len() > max {
+        return Err(too_big(meta.len().max(bytes.len() as u64)));
     }
-    let text = String::from_utf8(bytes).map_err(|e| {
+    String::from_utf8(bytes).map_err(|e| {
         let at = e.utf8_error().valid_up_to();
         let before = &e.as_bytes()[..at];
         let line = String::from_utf8_lossy(before).split('\n').count();
-        Diagnostic::new(
-            &name,
-            format!("the capture is not UTF-8 text (line {line})"),
-        )
-        .with_hint("export the capture as plain CSV text")
-        .at_line_col(line, 1)
-    })?;
-    read_capture(&text, &name, allow_negative)
+        Diagnostic::new(&name, format!("the {noun} is not UTF-8 text (line {line})"))
+            .with_hint(format!("export the {noun} as plain CSV text"))
+            .at_line_col(line, 1)
+    })
 }

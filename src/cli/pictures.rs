@@ -121,7 +121,7 @@ pub fn plot_command(
     size: (u32, u32),
 ) -> Result<Vec<u8>, Failure> {
     let fmt = format_of(output)?;
-    let mut o = *opt;
+    let mut o = opt.clone();
     o.trace = true;
     let r = run_with_progress(d, &o, "simulating")?;
     match kind {
@@ -187,7 +187,7 @@ pub fn report_command(
     soc: Option<f64>,
     spread: Option<Result<&joulepath::spread::Spread, &str>>,
 ) -> Result<Vec<u8>, Failure> {
-    let mut o = *opt;
+    let mut o = opt.clone();
     o.trace = true;
     let r = run_with_progress(d, &o, "simulating")?;
     let soc = soc.unwrap_or(d.pack().start_soc());

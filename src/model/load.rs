@@ -9,6 +9,14 @@ pub enum Draw {
     Power(f64),
     /// A resistance, Ω: current V / R.
     Resistance(f64),
+    /// An LED string on an LED driver's rail: current max(0, (V - knee) / resistance), the
+    /// straight-line law of a forward-biased diode above its knee.
+    Led {
+        /// The string's knee voltage, V: the forward voltage where the line meets zero current.
+        knee: f64,
+        /// The string's dynamic resistance, Ω (above zero).
+        resistance: f64,
+    },
 }
 
 impl Draw {
@@ -22,6 +30,10 @@ impl Draw {
     /// assert_eq!(Draw::Current(0.01).current(3.0), 0.01);
     /// assert!((Draw::Power(0.33).current(3.3) - 0.1).abs() < 1e-15);
     /// assert!((Draw::Resistance(100.0).current(3.3) - 0.033).abs() < 1e-15);
+    /// // An LED with its knee at 2.75 V and 1 Ω: 350 mA at 3.1 V, none below the knee.
+    /// let led = Draw::Led { knee: 2.75, resistance: 1.0 };
+    /// assert!((led.current(3.1) - 0.35).abs() < 1e-12);
+    /// assert_eq!(led.current(2.5), 0.0);
     /// ```
     pub fn current(self, v: f64) -> f64 {
         match self {
@@ -42,6 +54,7 @@ impl Draw {
                     0.0
                 }
             }
+            Draw::Led { knee, resistance } => ((v - knee) / resistance).max(0.0),
         }
     }
 
@@ -50,6 +63,7 @@ impl Draw {
         match self {
             Draw::Current(x) | Draw::Power(x) => x > 0.0,
             Draw::Resistance(r) => r.is_finite(),
+            Draw::Led { resistance, .. } => resistance.is_finite(),
         }
     }
 }

@@ -2,6 +2,7 @@
 //! profile) plus the tree. A [`Design`] can only be made by [`Design::from_text`] or
 //! [`Design::from_spec`], which check every rule of the design file.
 
+mod ambient_file;
 mod cell;
 mod climate;
 mod load;
@@ -13,10 +14,11 @@ mod stage;
 mod table;
 mod tolerance;
 
+pub use ambient_file::{MAX_AMBIENT_BYTES, MAX_AMBIENT_ROWS, read_ambient, read_ambient_file};
 pub use cell::{
     Cell, CellSize, Chemistry, DEFAULT_RATE_WINDOW_S, GAS_CONSTANT, MONTH_S, SelfDischargeLaw,
 };
-pub use climate::{Climate, MONTH_OF_YEAR_S};
+pub use climate::{Climate, MONTH_OF_YEAR_S, Recorded};
 pub use load::{Captured, Draw, Load};
 pub use mode::{Mode, RepeatUntil, Step, longest_holds};
 pub use pack::{Buffer, Pack};
@@ -93,7 +95,7 @@ impl Design {
         Self::from_text_at(text, overrides, None)
     }
 
-    /// Read and check a design file's text with overrides; files it names (captures) are read
+    /// Read and check a design file's text with overrides; files it names (captures, a recorded ambient) are read
     /// relative to `dir`, the design file's directory.
     ///
     /// # Errors
@@ -107,7 +109,7 @@ impl Design {
         Self::from_text_at(text, overrides, Some(dir))
     }
 
-    /// Read and check a design file; files it names (captures) are read relative to its
+    /// Read and check a design file; files it names (captures, a recorded ambient) are read relative to its
     /// directory.
     ///
     /// # Errors

@@ -230,9 +230,23 @@ pub struct Stage {
     pub(crate) theta_ja: Option<f64>,
     /// Maximum junction temperature, °C.
     pub(crate) tj_max: f64,
+    /// An LED driver's set current, A (none for other stages). Its `kind` is its topology and
+    /// its `setpoint` the LED string's voltage at this current, so that it regulates like a
+    /// regulator of that kind; `dropout` is its headroom.
+    pub(crate) led_current: Option<f64>,
 }
 
 impl Stage {
+    /// The name of the stage's kind in reports: `led-driver` for an LED driver, else its
+    /// kind's.
+    pub fn kind_name(&self) -> &'static str {
+        if self.led_current.is_some() {
+            "led-driver"
+        } else {
+            self.kind.name()
+        }
+    }
+
     /// Loss of a switching stage in regulation at input `vin`, output `vout` and `iout`.
     ///
     /// With the quiescent current drawn from the input (the default), the loss model's own

@@ -147,6 +147,8 @@ pub enum Knob {
     AgingResistance,
     /// A stage's output voltage, V.
     StageOutput(usize),
+    /// An LED driver's set current, A (its output voltage follows on its LED's law).
+    StageLedCurrent(usize),
     /// A stage's quiescent current, A.
     StageQuiescent(usize),
     /// A stage's shutdown current, A.
@@ -195,9 +197,10 @@ impl Knob {
             | Knob::StageDropout(_)
             | Knob::StageBypassDrop(_)
             | Knob::StageLossDrop(_) => Dim::Voltage,
-            Knob::CellRatedCurrent | Knob::StageQuiescent(_) | Knob::StageShutdown(_) => {
-                Dim::Current
-            }
+            Knob::CellRatedCurrent
+            | Knob::StageQuiescent(_)
+            | Knob::StageShutdown(_)
+            | Knob::StageLedCurrent(_) => Dim::Current,
             Knob::CellPolarizationTau | Knob::StepFor(_) => Dim::Time,
             Knob::StartSoc | Knob::AgingCapacity | Knob::StageEfficiency(_) => Dim::Fraction,
             Knob::StageThetaJa(_) => Dim::ThermalResistance,
@@ -205,6 +208,8 @@ impl Knob {
                 Draw::Current(_) => Dim::Current,
                 Draw::Power(_) => Dim::Power,
                 Draw::Resistance(_) => Dim::Resistance,
+                // Never varied: the checker refuses a tolerance on an LED's draw.
+                Draw::Led { .. } => Dim::Voltage,
             },
         }
     }
@@ -220,6 +225,7 @@ impl Knob {
             Knob::CellCapacity
             | Knob::CellPolarizationTau
             | Knob::StageOutput(_)
+            | Knob::StageLedCurrent(_)
             | Knob::StageThetaJa(_)
             | Knob::CellRatedCurrent
             | Knob::StepFor(_) => POSITIVE,
@@ -246,6 +252,7 @@ impl Knob {
             Knob::AgingCapacity => d.pack.aging_capacity,
             Knob::AgingResistance => d.pack.aging_resistance,
             Knob::StageOutput(i) => d.stages[*i].setpoint,
+            Knob::StageLedCurrent(i) => d.stages[*i].led_current.unwrap_or(f64::NAN),
             Knob::StageQuiescent(i) => d.stages[*i].quiescent,
             Knob::StageShutdown(i) => d.stages[*i].shutdown,
             Knob::StageEfficiency(i) => match d.stages[*i].loss {
@@ -266,6 +273,7 @@ impl Knob {
             },
             Knob::LoadDraw(l, s) => match d.loads[*l].states[*s].1 {
                 Draw::Current(x) | Draw::Power(x) | Draw::Resistance(x) => x,
+                Draw::Led { knee, .. } => knee,
             },
             Knob::StepFor(at) => match step(&d.profile, at) {
                 Some(Step::Hold { seconds, .. }) => *seconds,
@@ -325,6 +333,20 @@ impl Knob {
             Knob::AgingCapacity => d.pack.aging_capacity = v,
             Knob::AgingResistance => d.pack.aging_resistance = v,
             Knob::StageOutput(i) => d.stages[*i].setpoint = v,
+            Knob::StageLedCurrent(i) => {
+                // The output where the driver's LED (the one load on its rail) draws `v`.
+                let law = d.tree.loads_on(*i + 1).first().and_then(|&l| {
+                    d.loads[l].states.iter().find_map(|(_, draw)| match *draw {
+                        Draw::Led { knee, resistance } => Some((knee, resistance)),
+                        _ => None,
+                    })
+                });
+                let st = &mut d.stages[*i];
+                st.led_current = Some(v);
+                if let Some((knee, r)) = law {
+                    st.setpoint = knee + v * r;
+                }
+            }
             Knob::StageQuiescent(i) => d.stages[*i].quiescent = v,
             Knob::StageShutdown(i) => d.stages[*i].shutdown = v,
             Knob::StageEfficiency(i) => d.stages[*i].loss = LossModel::Constant(v),
@@ -348,6 +370,9 @@ impl Knob {
                     Draw::Current(_) => Draw::Current(v),
                     Draw::Power(_) => Draw::Power(v),
                     Draw::Resistance(_) => Draw::Resistance(v),
+                    // Never reached: the checker refuses a tolerance on an LED's draw (its
+                    // driver's setpoint follows from it).
+                    led @ Draw::Led { .. } => led,
                 };
                 super::lower::refresh_draws(d);
             }

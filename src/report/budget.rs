@@ -120,7 +120,7 @@ fn stage_table(d: &Design, p: &OperatingPoint) -> TextTable {
     for (k, (s, sp)) in d.stages.iter().zip(&p.stages).enumerate() {
         t.row(vec![
             s.id.clone(),
-            s.kind.name().into(),
+            s.kind_name().into(),
             sp.state.name().into(),
             fmt_eng(sp.vin, "V"),
             fmt_eng(sp.iin, "A"),
@@ -260,7 +260,7 @@ pub fn budget_csv_rows(d: &Design, modes: &[ModeBudget]) -> Vec<BudgetCsvRow> {
                 mode: mode.clone(),
                 element: "stage",
                 id: s.id.clone(),
-                kind: s.kind.name().into(),
+                kind: s.kind_name().into(),
                 state: sp.state.name().into(),
                 vin_v: Some(sp.vin),
                 iin_a: Some(sp.iin),

@@ -367,7 +367,7 @@ fn facts(entries: &[Entry<'_>]) -> Vec<String> {
                     "in {}, `{}` ({}) averages {} efficiency over the run",
                     letter(i),
                     st.id,
-                    st.kind.name(),
+                    st.kind_name(),
                     fmt_percent(o / (o + loss))
                 ));
             }

@@ -78,7 +78,7 @@ pub fn heat_ranking(d: &Design, r: &RunResult) -> Vec<HeatRow> {
         .enumerate()
         .map(|(k, s)| HeatRow {
             id: s.id.clone(),
-            kind: s.kind.name().into(),
+            kind: s.kind_name().into(),
             loss_wh: l.stage_loss_j[k] / 3600.0,
             share_of_losses: share(l.stage_loss_j[k], total),
             share_of_cell_energy: share(l.stage_loss_j[k], from_cells),

@@ -409,7 +409,7 @@ fn budget_stage_rows(d: &Design, p: &OperatingPoint) -> Vec<Vec<String>> {
         .map(|(k, (s, sp))| {
             vec![
                 format!("<code>{}</code>", esc(&s.id)),
-                esc(s.kind.name()),
+                esc(s.kind_name()),
                 esc(sp.state.name()),
                 esc(&fmt_eng(sp.vin, "V")),
                 esc(&fmt_eng(sp.iin, "A")),

@@ -169,7 +169,7 @@ fn mode_json(d: &Design, m: &ModeBudget) -> ModeJson {
                 .enumerate()
                 .map(|(k, (s, sp))| StageJson {
                     id: s.id.clone(),
-                    kind: s.kind.name().into(),
+                    kind: s.kind_name().into(),
                     state: sp.state.name().into(),
                     vin_v: sp.vin,
                     iin_a: sp.iin,

@@ -239,7 +239,7 @@ fn table_warning(d: &Design, ambient_c: f64) -> Vec<String> {
     }
     let (lo, hi) = table.x_range();
     // With a climate, its coldest and warmest hours around this mean.
-    let (cold, warm) = d.climate.map_or((ambient_c, ambient_c), |c| {
+    let (cold, warm) = d.climate.as_ref().map_or((ambient_c, ambient_c), |c| {
         let (a, b) = c.range(f64::INFINITY);
         (ambient_c + a, ambient_c + b)
     });

@@ -27,6 +27,14 @@ pub fn write_outline(w: &mut dyn Write, d: &Design) -> io::Result<()> {
         fmt_eng(p.r0(0.5, d.ambient_c), "Ω"),
         fmt_celsius(d.ambient_c)
     )?;
+    if let Some(r) = d.climate.as_ref().and_then(|c| c.series()) {
+        writeln!(
+            w,
+            "ambient: a recorded series of {} rows around that mean, {} after its last row",
+            r.len(),
+            if r.repeats() { "repeated" } else { "held" }
+        )?;
+    }
     writeln!(w, "battery")?;
     rail(w, d, 0, "")?;
     let names: Vec<&str> = d
@@ -152,6 +160,11 @@ fn draw_text(d: Draw) -> String {
         Draw::Current(i) => fmt_eng(i, "A"),
         Draw::Power(p) => fmt_eng(p, "W"),
         Draw::Resistance(r) => fmt_eng(r, "Ω"),
+        Draw::Led { knee, resistance } => format!(
+            "LED, knee {} + {}",
+            fmt_eng(knee, "V"),
+            fmt_eng(resistance, "Ω")
+        ),
     }
 }
 
@@ -159,6 +172,13 @@ fn stage_text(s: &Stage) -> String {
     let mut parts = Vec::new();
     if s.kind == StageKind::Switch {
         parts.push(format!("switch, {} on", fmt_eng(s.on_resistance, "Ω")));
+    } else if let Some(i) = s.led_current {
+        parts.push(format!(
+            "{} LED driver at {} (its LED at {})",
+            s.kind.name(),
+            fmt_eng(i, "A"),
+            fmt_eng(s.setpoint, "V")
+        ));
     } else {
         parts.push(format!("{} to {}", s.kind.name(), fmt_eng(s.setpoint, "V")));
     }
@@ -176,6 +196,9 @@ fn stage_text(s: &Stage) -> String {
         LossModel::None => {}
     }
     match s.kind {
+        StageKind::Buck | StageKind::Linear if s.led_current.is_some() => {
+            parts.push(format!("headroom {}", fmt_eng(s.dropout, "V")));
+        }
         StageKind::Buck | StageKind::Linear => {
             parts.push(format!("dropout {}", fmt_eng(s.dropout, "V")));
         }

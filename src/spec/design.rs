@@ -18,7 +18,7 @@ pub struct DesignSpec {
     #[serde(default)]
     pub design: Option<String>,
     /// Ambient temperature, e.g. `25 °C` (the default), or a climate: a yearly cycle of
-    /// monthly means and a daily swing.
+    /// monthly means and a daily swing, or a recorded series read from a CSV file.
     #[serde(default)]
     pub ambient: Option<AmbientSpec>,
     /// Custom cells by name.
@@ -206,7 +206,7 @@ impl<'de> Deserialize<'de> for AmbientSpec {
         match &v.kind {
             Kind::Map(_) => reread(&v, "").map(AmbientSpec::Climate),
             Kind::Seq(_) => Err(mismatch(
-                "a temperature such as `20 °C` or a climate mapping (`mean` or `monthly`, `daily_range`)",
+                "a temperature such as `20 °C`, a climate mapping (`mean` or `monthly`, `daily_range`) or a recorded ambient (`file: temps.csv`)",
                 &v.describe(),
             )),
             _ => reread(&v, "").map(AmbientSpec::Constant),
@@ -222,7 +222,7 @@ impl JsonSchema for AmbientSpec {
         let q = g.subschema_for::<Qty>();
         let c = g.subschema_for::<ClimateSpec>();
         schemars::json_schema!({
-            "description": "The ambient temperature: one value (\"20 °C\") or a climate {mean or monthly, start_month, daily_range, warmest}.",
+            "description": "The ambient temperature: one value (\"20 °C\"), a climate {mean or monthly, start_month, daily_range, warmest}, or a recorded ambient {file: temps.csv, repeat}.",
             "anyOf": [q, c]
         })
     }
@@ -248,6 +248,15 @@ pub struct ClimateSpec {
     /// Time of day of the warmest hour, after midnight, e.g. `15 h` (the default).
     #[serde(default)]
     pub warmest: Option<Qty>,
+    /// A recorded ambient in place of the cycles: a CSV file of time and temperature
+    /// (`time [h], temperature [°C]`), relative to the design file; straight lines between its
+    /// rows.
+    #[serde(default)]
+    pub file: Option<String>,
+    /// With `file`: start the file again after its last row (`true`), or hold its last
+    /// temperature (`false`, the default).
+    #[serde(default)]
+    pub repeat: Option<bool>,
 }
 
 /// The pack.
@@ -318,6 +327,24 @@ pub enum StageKindSpec {
     Linear,
     /// Load switch.
     Switch,
+    /// Constant-current LED driver: sets the current of the LED string on its rail.
+    LedDriver,
+}
+
+/// How an LED driver regulates its current.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize, JsonSchema)]
+#[serde(rename_all = "kebab-case")]
+pub enum LedTopologySpec {
+    /// A linear current sink or source: input current = LED current + quiescent; needs
+    /// `headroom` above the LEDs' voltage.
+    Linear,
+    /// A step-down switching driver: needs `headroom`, takes `efficiency` or `loss`.
+    Buck,
+    /// A step-up switching driver: takes `efficiency` or `loss`; above the LEDs' voltage it
+    /// passes its input through.
+    Boost,
+    /// A switching driver that regulates above and below its input.
+    BuckBoost,
 }
 
 /// Where a switching stage draws its quiescent current.
@@ -340,9 +367,19 @@ pub struct StageSpec {
     pub kind: StageKindSpec,
     /// `battery` or the id of the stage feeding this one.
     pub input: String,
-    /// Regulation setpoint (not for `switch`).
+    /// Regulation setpoint (not for `switch` or `led-driver`).
     #[serde(default)]
     pub output: Option<Qty>,
+    /// LED driver: the LED current it holds, e.g. `350 mA`.
+    #[serde(default)]
+    pub current: Option<Qty>,
+    /// LED driver: `linear` (the default), `buck`, `boost` or `buck-boost`.
+    #[serde(default)]
+    pub topology: Option<LedTopologySpec>,
+    /// LED driver, linear or buck: least input voltage above the LEDs' that holds the current
+    /// (default 0.2 V linear, 0.1 V buck).
+    #[serde(default)]
+    pub headroom: Option<Qty>,
     /// Efficiency: a constant, one curve `[[I, eta], ...]` or curves per input voltage.
     #[serde(default)]
     pub efficiency: Option<Efficiency>,

@@ -27,14 +27,14 @@ use node::{Kind, Node};
 
 pub use design::{
     AgingSpec, AmbientSpec, BatterySpec, BufferSpec, CellRef, CellSpec, ChemistrySpec, ClimateSpec,
-    DesignSpec, LoadSpec, LossSpec, PolarizationSpec, QuiescentFromSpec, StageKindSpec, StageSpec,
-    StepSpec, TemperatureRowSpec,
+    DesignSpec, LedTopologySpec, LoadSpec, LossSpec, PolarizationSpec, QuiescentFromSpec,
+    StageKindSpec, StageSpec, StepSpec, TemperatureRowSpec,
 };
 pub use overrides::Override;
 pub use path::{Seg, segments};
 pub use qty::{
-    CaptureScale, CaptureSpec, DrawSpec, Efficiency, Qty, ResistanceSpec, SelfDischargeRateSpec,
-    SelfDischargeSpec, VinCurveSpec,
+    CaptureScale, CaptureSpec, DrawSpec, Efficiency, LedSpec, Qty, ResistanceSpec,
+    SelfDischargeRateSpec, SelfDischargeSpec, VinCurveSpec,
 };
 pub use source::SourceMap;
 pub use tolerance::{ToleranceSpec, band_text};

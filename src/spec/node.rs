@@ -528,7 +528,7 @@ mod tests {
             ),
             (
                 "{ id: a, rail: battery, draw: { on: [1] } }",
-                "expected a value with its unit such as `120 mA`, or a capture `{ capture: FILE.csv }`, found a list",
+                "expected a value with its unit such as `120 mA`, a capture `{ capture: FILE.csv }` or an LED `{ forward: 3 V, resistance: 1 Ω }`, found a list",
             ),
             (
                 "{ id: a, rail: battery, draw: { on: !x 1 } }",

@@ -279,13 +279,32 @@ pub struct CaptureSpec {
     pub tolerance: Option<Qty>,
 }
 
-/// What a load draws in one state: a current, a power or a resistance, or a capture.
+/// An LED (or a series string of them) on an LED driver's rail: its forward voltage at a
+/// current and its dynamic resistance.
+#[derive(Debug, Clone, Deserialize, JsonSchema)]
+#[serde(deny_unknown_fields)]
+pub struct LedSpec {
+    /// Forward voltage of one LED at the current `at`, e.g. `3.0 V`.
+    pub forward: Qty,
+    /// Dynamic resistance of one LED above its knee (the slope of its I-V curve), e.g. `1.2 Ω`.
+    pub resistance: Qty,
+    /// The current `forward` is given at (default: the driver's set current).
+    #[serde(default)]
+    pub at: Option<Qty>,
+    /// LEDs in series in the string (default 1).
+    #[serde(default)]
+    pub count: Option<Qty>,
+}
+
+/// What a load draws in one state: a current, a power or a resistance, a capture, or an LED.
 #[derive(Debug, Clone)]
 pub enum DrawSpec {
     /// `6 mA`, `20 mW`, `1 kΩ`.
     Value(Qty),
     /// `{ capture: adv.csv }`.
     Capture(CaptureSpec),
+    /// `{ forward: 3.0 V, resistance: 1.2 Ω }`, on an LED driver's rail.
+    Led(LedSpec),
 }
 
 impl DrawSpec {
@@ -293,7 +312,7 @@ impl DrawSpec {
     pub fn value(&self) -> Option<&Qty> {
         match self {
             DrawSpec::Value(q) => Some(q),
-            DrawSpec::Capture(_) => None,
+            DrawSpec::Capture(_) | DrawSpec::Led(_) => None,
         }
     }
 }
@@ -326,11 +345,19 @@ impl<'de> Deserialize<'de> for DrawSpec {
         if let Some(t) = scalar_text(&v) {
             return Ok(DrawSpec::Value(Qty(t)));
         }
-        if matches!(v.kind, Kind::Map(_)) {
-            return reread(&v, "").map(DrawSpec::Capture);
+        if let Kind::Map(entries) = &v.kind {
+            // An LED names its forward voltage; any other mapping is read as a capture.
+            let led = entries
+                .iter()
+                .any(|(k, _)| matches!(&k.kind, Kind::Str(s) if s == "forward"));
+            return if led {
+                reread(&v, "").map(DrawSpec::Led)
+            } else {
+                reread(&v, "").map(DrawSpec::Capture)
+            };
         }
         Err(mismatch(
-            "a value with its unit such as `120 mA`, or a capture `{ capture: FILE.csv }`",
+            "a value with its unit such as `120 mA`, a capture `{ capture: FILE.csv }` or an LED `{ forward: 3 V, resistance: 1 Ω }`",
             &v.describe(),
         ))
     }
@@ -357,9 +384,10 @@ impl JsonSchema for DrawSpec {
     fn json_schema(g: &mut SchemaGenerator) -> Schema {
         let q = g.subschema_for::<Qty>();
         let c = g.subschema_for::<CaptureSpec>();
+        let led = g.subschema_for::<LedSpec>();
         json_schema!({
-            "description": "What the load draws in this state: a current (\"6 mA\"), a power (\"20 mW\"), a resistance (\"1 kΩ\"), or a measured capture {capture: FILE.csv}.",
-            "anyOf": [q, c]
+            "description": "What the load draws in this state: a current (\"6 mA\"), a power (\"20 mW\"), a resistance (\"1 kΩ\"), a measured capture {capture: FILE.csv}, or an LED on an LED driver's rail {forward, resistance, at, count}.",
+            "anyOf": [q, c, led]
         })
     }
 }

@@ -11,6 +11,7 @@ use super::yaml::key_text;
 use crate::capture::{Capture, read_capture_file};
 use crate::error::{Diagnostic, Location};
 use crate::hash::FastMap;
+use crate::model::{Recorded, read_ambient_file};
 
 /// Line and column of every value (and every mapping key) in a document, by YAML path: the
 /// document's tree itself, kept after the serde types were read from it (a place is looked up
@@ -19,15 +20,18 @@ use crate::hash::FastMap;
 pub struct SourceMap {
     root: Node<'static>,
     overridden: Vec<String>,
-    /// The directory files named in the design (captures) are read from; none for text that
+    /// The directory files named in the design (captures, a recorded ambient) are read from; none for text that
     /// did not come from a file.
     base_dir: Option<PathBuf>,
     /// Captures read so far, by path, shared by clones (the pack candidates of `size` read each
     /// file once).
     captures: Arc<Mutex<CaptureCache>>,
+    /// Recorded ambients read so far, by path and whether they repeat, shared by clones.
+    ambients: Arc<Mutex<AmbientCache>>,
 }
 
 type CaptureCache = FastMap<PathBuf, Result<Arc<Capture>, Diagnostic>>;
+type AmbientCache = FastMap<(PathBuf, bool), Result<(f64, Arc<Recorded>), Vec<Diagnostic>>>;
 
 impl Default for SourceMap {
     /// No places at all.
@@ -44,10 +48,11 @@ impl SourceMap {
             overridden: Vec::new(),
             base_dir: None,
             captures: Arc::default(),
+            ambients: Arc::default(),
         }
     }
 
-    /// Read files the design names (captures) relative to `dir`: the design file's directory.
+    /// Read files the design names (captures, a recorded ambient) relative to `dir`: the design file's directory.
     pub fn set_base_dir(&mut self, dir: impl Into<PathBuf>) {
         self.base_dir = Some(dir.into());
     }
@@ -78,6 +83,35 @@ impl SourceMap {
         cache
             .entry(path.clone())
             .or_insert_with(|| read_capture_file(&path, false).map(Arc::new))
+            .clone()
+    }
+
+    /// The recorded ambient `file` (relative to the base directory): its mean and the series
+    /// around it, read once and kept.
+    ///
+    /// # Errors
+    ///
+    /// No base directory (the text did not come from a file), or the reader's errors.
+    pub fn ambient(
+        &self,
+        file: &str,
+        repeat: bool,
+    ) -> Result<(f64, Arc<Recorded>), Vec<Diagnostic>> {
+        let Some(dir) = &self.base_dir else {
+            return Err(vec![Diagnostic::new(
+                file,
+                "cannot be read: the design was not read from a file",
+            )
+            .with_hint("read the design from its file (the command line does), or give its directory (`Design::from_text_in`)")]);
+        };
+        let path = dir.join(file);
+        let mut cache = self
+            .ambients
+            .lock()
+            .unwrap_or_else(std::sync::PoisonError::into_inner);
+        cache
+            .entry((path.clone(), repeat))
+            .or_insert_with(|| read_ambient_file(&path, repeat).map(|(m, r)| (m, Arc::new(r))))
             .clone()
     }
 

@@ -26,7 +26,7 @@ pub const MAX_SAMPLES: usize = 1_000_000;
 const REDRAWS: usize = 100;
 
 /// How to run a spread.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct SpreadOptions {
     /// Number of Monte Carlo samples.
     pub samples: usize,
@@ -217,7 +217,7 @@ pub fn run_with(design: &Design, values: &[f64], run_options: &RunOptions) -> Ou
     }
     let o = RunOptions {
         ambient_c: d.ambient_c,
-        ..*run_options
+        ..run_options.clone()
     };
     match run(&d, &o) {
         Ok(r) => Outcome {
@@ -401,7 +401,7 @@ pub fn spread_observed(
         .corners
         .then(|| corners(design, &swings, &nominal_values, &opts.run));
     Ok(Spread {
-        options: *opts,
+        options: opts.clone(),
         tolerances: tolerances.clone(),
         nominal,
         samples,

@@ -12,6 +12,20 @@ const WARMEST_DEFAULT_S: f64 = 15.0 * 3600.0;
 impl Lower<'_> {
     /// The mean ambient and its climate, from `ambient:` given as a mapping.
     pub(super) fn climate(&mut self, c: &ClimateSpec) -> Option<(f64, Climate)> {
+        if let Some(file) = &c.file {
+            return self.recorded_ambient(c, file);
+        }
+        if c.repeat.is_some() {
+            self.err(
+                "ambient.repeat",
+                "`repeat` belongs to a recorded ambient (`file`)",
+                Some(
+                    "remove `repeat`, or give the temperatures over time as `file: temps.csv`"
+                        .into(),
+                ),
+            );
+            return None;
+        }
         let mean = match (&c.mean, &c.monthly) {
             (Some(_), Some(_)) => {
                 self.err(
@@ -99,6 +113,47 @@ impl Lower<'_> {
             return None;
         }
         Some((mean, climate))
+    }
+
+    /// A recorded ambient: the file's time-weighted mean and the series around it. The file is
+    /// read relative to the design file's directory, as captures are.
+    fn recorded_ambient(&mut self, c: &ClimateSpec, file: &str) -> Option<(f64, Climate)> {
+        let others = [
+            ("mean", c.mean.is_some()),
+            ("monthly", c.monthly.is_some()),
+            ("start_month", c.start_month.is_some()),
+            ("daily_range", c.daily_range.is_some()),
+            ("warmest", c.warmest.is_some()),
+        ];
+        let given: Vec<&str> = others.iter().filter(|(_, g)| *g).map(|(k, _)| *k).collect();
+        if !given.is_empty() {
+            self.err(
+                &format!("ambient.{}", given[0]),
+                format!(
+                    "`{}` cannot be given with `file`: the file gives the ambient at every time",
+                    given.join("`, `")
+                ),
+                Some("keep `file` (and `repeat`) for a recorded ambient, or remove `file` for a climate of cycles".into()),
+            );
+            return None;
+        }
+        match self.source.ambient(file, c.repeat.unwrap_or(false)) {
+            Ok((mean, series)) => Some((mean, Climate::recorded(series))),
+            Err(errors) => {
+                for d in errors {
+                    let at = d.location().map_or_else(String::new, |l| {
+                        format!(" (line {}, column {})", l.line, l.col)
+                    });
+                    let msg = if d.message().starts_with("line ") || at.is_empty() {
+                        format!("ambient file `{file}`: {}", d.message())
+                    } else {
+                        format!("ambient file `{file}`{at}: {}", d.message())
+                    };
+                    self.err("ambient.file", msg, d.hint().map(str::to_string));
+                }
+                None
+            }
+        }
     }
 
     /// Twelve monthly means: their mean, and each less it.

@@ -4,6 +4,7 @@
 mod capture;
 mod cell;
 mod climate;
+mod led;
 mod profile;
 mod stage;
 mod tolerance;
@@ -25,8 +26,9 @@ use super::{BATTERY, Design};
 use crate::error::{Diagnostic, DiagnosticKind, did_you_mean};
 use crate::hash::FastMap;
 use crate::spec::{
-    AmbientSpec, CellRef, CellSpec, ChemistrySpec, DesignSpec, DrawSpec, Efficiency, Partial, Qty,
-    QuiescentFromSpec, ResistanceSpec, SourceMap, StageKindSpec, StageSpec, StepSpec, backticked,
+    AmbientSpec, CellRef, CellSpec, ChemistrySpec, DesignSpec, DrawSpec, Efficiency,
+    LedTopologySpec, Partial, Qty, QuiescentFromSpec, ResistanceSpec, SourceMap, StageKindSpec,
+    StageSpec, StepSpec, backticked,
 };
 use crate::tree::{MAX_DEPTH, Tree, TreeError};
 use crate::units::{Dim, Quantity, fmt_eng, fmt_percent, parse_quantity, physical};
@@ -339,6 +341,10 @@ impl Lower<'_> {
                 l.rail = r;
             }
         }
+        let leds = match (&tree, &mut stages, &mut loads) {
+            (Some((t, _, _)), Some(st), Some(ld)) => self.led_strings(spec, t, st, ld),
+            _ => true,
+        };
         let captured = match (&pack, &stages, &mut loads) {
             (Some(p), Some(st), Some(ld)) => {
                 self.captures(spec, p, st, ld, ambient_c.unwrap_or(25.0))
@@ -347,7 +353,7 @@ impl Lower<'_> {
         };
         let mut profile = self.profile(spec, modes.as_deref());
         let (tree, loads, mut modes) = (tree?.0, loads?, modes?);
-        if !captured {
+        if !captured || !leds {
             return None;
         }
         if let Some(p) = &mut profile {

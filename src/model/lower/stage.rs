@@ -69,9 +69,10 @@ impl Lower<'_> {
         which: &str,
     ) {
         if present {
+            let a = if kind.starts_with("LED") { "an" } else { "a" };
             self.err(
                 &format!("{path}.{key}"),
-                format!("`{key}` does not apply to a {kind} stage"),
+                format!("`{key}` does not apply to {a} {kind} stage"),
                 Some(format!("`{key}` applies to {which}; remove it here")),
             );
         }
@@ -84,10 +85,23 @@ impl Lower<'_> {
             StageKindSpec::BuckBoost => StageKind::BuckBoost,
             StageKindSpec::Linear => StageKind::Linear,
             StageKindSpec::Switch => StageKind::Switch,
+            StageKindSpec::LedDriver => led_topology(s),
         };
-        let kn = kind.name();
+        let led = s.kind == StageKindSpec::LedDriver;
+        let kn = if led { "LED driver" } else { kind.name() };
         let before = self.diags.len();
+        let led_current = self.led_driver_keys(s, path, led.then_some(kind), kn);
         let setpoint = match (&s.output, kind) {
+            // Set from the LED string's voltage at the set current, once the loads are known.
+            (None, _) if led => Some(0.0),
+            (Some(_), _) if led => {
+                self.err(
+                    &format!("{path}.output"),
+                    "an LED driver sets its current, not its output voltage: the LEDs' forward voltage gives that",
+                    Some("remove `output` and give the LED current, such as `current: 350 mA`".into()),
+                );
+                None
+            }
             (Some(_), StageKind::Switch) => {
                 self.err(
                     &format!("{path}.output"),
@@ -136,13 +150,17 @@ impl Lower<'_> {
             StageKind::Linear => 0.2,
             _ => 0.1,
         };
-        let takes_dropout = matches!(kind, StageKind::Buck | StageKind::Linear);
+        let takes_dropout = matches!(kind, StageKind::Buck | StageKind::Linear) && !led;
         self.not_for(
             !takes_dropout && s.dropout.is_some(),
             path,
             "dropout",
             kn,
-            "buck and linear stages",
+            if led {
+                "buck and linear regulators (an LED driver's is `headroom`)"
+            } else {
+                "buck and linear stages"
+            },
         );
         self.not_for(
             kind != StageKind::Boost && s.bypass_drop.is_some(),
@@ -191,12 +209,21 @@ impl Lower<'_> {
             Dim::Resistance,
             Bound::AtLeastZero,
         );
-        let dropout = self.opt(
-            s.dropout.as_ref(),
-            format_args!("{path}.dropout"),
-            Dim::Voltage,
-            Bound::AtLeastZero,
-        );
+        let dropout = if led {
+            self.opt(
+                s.headroom.as_ref(),
+                format_args!("{path}.headroom"),
+                Dim::Voltage,
+                Bound::AtLeastZero,
+            )
+        } else {
+            self.opt(
+                s.dropout.as_ref(),
+                format_args!("{path}.dropout"),
+                Dim::Voltage,
+                Bound::AtLeastZero,
+            )
+        };
         let bypass = self.opt(
             s.bypass_drop.as_ref(),
             format_args!("{path}.bypass_drop"),
@@ -266,7 +293,51 @@ impl Lower<'_> {
             on_resistance: ron?.unwrap_or(0.0),
             theta_ja: theta?,
             tj_max: tj_max?.unwrap_or(125.0),
+            led_current: led_current?,
         })
+    }
+
+    /// The keys only an LED driver takes (`current`, `topology`, `headroom`): its set current
+    /// (none for another stage), or none after an error.
+    fn led_driver_keys(
+        &mut self,
+        s: &StageSpec,
+        path: &str,
+        topology: Option<StageKind>,
+        kn: &str,
+    ) -> Option<Option<f64>> {
+        let Some(topology) = topology else {
+            for (present, key) in [
+                (s.current.is_some(), "current"),
+                (s.topology.is_some(), "topology"),
+                (s.headroom.is_some(), "headroom"),
+            ] {
+                self.not_for(present, path, key, kn, "LED drivers (`kind: led-driver`)");
+            }
+            return Some(None);
+        };
+        self.not_for(
+            !matches!(topology, StageKind::Buck | StageKind::Linear) && s.headroom.is_some(),
+            path,
+            "headroom",
+            &format!("{} LED driver", topology.name()),
+            "linear and buck LED drivers",
+        );
+        let Some(q) = &s.current else {
+            self.err(
+                path,
+                format!("the LED driver `{}` has no `current`", s.id),
+                Some("add the LED current it holds, such as `current: 350 mA`".into()),
+            );
+            return None;
+        };
+        self.value(
+            q,
+            format_args!("{path}.current"),
+            Dim::Current,
+            Bound::AboveZero,
+        )
+        .map(Some)
     }
 
     pub(super) fn loss_model(
@@ -424,5 +495,15 @@ impl Lower<'_> {
                 None
             }
         }
+    }
+}
+
+/// The regulator kind an LED driver regulates like: its `topology` (linear by default).
+fn led_topology(s: &StageSpec) -> StageKind {
+    match s.topology {
+        None | Some(LedTopologySpec::Linear) => StageKind::Linear,
+        Some(LedTopologySpec::Buck) => StageKind::Buck,
+        Some(LedTopologySpec::Boost) => StageKind::Boost,
+        Some(LedTopologySpec::BuckBoost) => StageKind::BuckBoost,
     }
 }

@@ -23,8 +23,10 @@ const CELL_KEYS: [&str; 8] = [
     "polarization.resistance",
     "polarization.time_constant",
 ];
-const STAGE_KEYS: [&str; 10] = [
+const STAGE_KEYS: [&str; 12] = [
     "output",
+    "current",
+    "headroom",
     "quiescent",
     "shutdown",
     "efficiency",
@@ -92,10 +94,12 @@ fn stage_knob(i: usize, rest: &[Seg<'_>]) -> Result<Knob, Miss> {
     let key = dotted(rest);
     Ok(match key.as_str() {
         "output" => Knob::StageOutput(i),
+        "current" => Knob::StageLedCurrent(i),
         "quiescent" => Knob::StageQuiescent(i),
         "shutdown" => Knob::StageShutdown(i),
         "efficiency" => Knob::StageEfficiency(i),
-        "dropout" => Knob::StageDropout(i),
+        // An LED driver's headroom is held as its dropout.
+        "dropout" | "headroom" => Knob::StageDropout(i),
         "bypass_drop" => Knob::StageBypassDrop(i),
         "on_resistance" => Knob::StageOnResistance(i),
         "theta_ja" => Knob::StageThetaJa(i),
@@ -170,7 +174,23 @@ pub(crate) fn knob(d: &Design, pack_cell: &str, path: &str) -> Result<Knob, Miss
                 rest.first(),
                 d.stages.iter().map(|s| s.id.as_str()),
             )?;
-            stage_knob(i, &rest[1..])
+            match stage_knob(i, &rest[1..]) {
+                Ok(Knob::StageOutput(_)) if d.stages[i].led_current.is_some() => Err((
+                    format!(
+                        "`{}` is an LED driver: its output follows from its LED and cannot vary",
+                        d.stages[i].id
+                    ),
+                    "vary the driver's `current` instead".into(),
+                )),
+                Ok(Knob::StageLedCurrent(_)) if d.stages[i].led_current.is_none() => Err((
+                    format!(
+                        "`{}` is not an LED driver: it has no `current`",
+                        d.stages[i].id
+                    ),
+                    "vary `output` for a regulator's setpoint".into(),
+                )),
+                k => k,
+            }
         }
         [Seg::Name("loads"), rest @ ..] => {
             let l = item("loads", rest.first(), d.loads.iter().map(|x| x.id.as_str()))?;
@@ -185,6 +205,20 @@ pub(crate) fn knob(d: &Design, pack_cell: &str, path: &str) -> Result<Knob, Miss
                             load.id
                         ),
                         "vary the profile step's `for`, or give the state a value instead of a capture".into(),
+                    ))
+                }
+                [Seg::Name("draw"), Seg::Name(state)]
+                    if load
+                        .states
+                        .iter()
+                        .any(|(n, d)| n == state && matches!(d, Draw::Led { .. })) =>
+                {
+                    Err((
+                        format!(
+                            "the state `{state}` of `{}` is an LED, whose law cannot vary",
+                            load.id
+                        ),
+                        "its driver holds its current: vary the driver's `current` instead".into(),
                     ))
                 }
                 [Seg::Name("draw"), Seg::Name(state)] => load

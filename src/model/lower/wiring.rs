@@ -40,6 +40,17 @@ impl Lower<'_> {
                         states.push((name.clone(), Draw::Current(0.0)));
                         continue;
                     }
+                    // An LED's law is set with its driver's current (`led_strings`).
+                    DrawSpec::Led(_) => {
+                        states.push((
+                            name.clone(),
+                            Draw::Led {
+                                knee: 0.0,
+                                resistance: f64::INFINITY,
+                            },
+                        ));
+                        continue;
+                    }
                 };
                 let Some(v) = self.quantity(
                     q,
@@ -56,6 +67,7 @@ impl Lower<'_> {
                 let bad = match draw {
                     Draw::Resistance(r) => r <= 0.0,
                     Draw::Current(x) | Draw::Power(x) => x < 0.0,
+                    Draw::Led { .. } => false,
                 };
                 if bad {
                     self.err(

@@ -220,7 +220,7 @@ impl Painter for Efficiency<'_> {
             let caption = format!(
                 "`{}` {} to {}, {input}",
                 s.id,
-                s.kind.name(),
+                s.kind_name(),
                 fmt_eng(s.setpoint, "V")
             );
             let mut ch = ChartBuilder::on(panel)

@@ -47,7 +47,7 @@ pub const YEAR_S: f64 = 365.25 * 86_400.0;
 pub const MAX_HORIZON_S: f64 = 1000.0 * YEAR_S;
 
 /// How to run a discharge.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct RunOptions {
     /// Ambient temperature, °C (its mean, with a climate).
     pub ambient_c: f64,
@@ -70,7 +70,7 @@ impl RunOptions {
     pub fn for_design(design: &Design) -> Self {
         Self {
             ambient_c: design.ambient_c,
-            climate: design.climate,
+            climate: design.climate.clone(),
             horizon_s: 20.0 * YEAR_S,
             exact: false,
             trace: false,
@@ -371,7 +371,7 @@ fn run_counting(
             }
         }
     }
-    let mut ctx = Ctx::new(design, *opt);
+    let mut ctx = Ctx::new(design, opt);
     ctx.progress = progress;
     let mut sim = Sim::new(&ctx);
     let pass: f64 = design.profile.iter().map(Step::duration).sum();
@@ -379,7 +379,7 @@ fn run_counting(
     // about a day: the rates of a whole day are smooth from one day to the next, those of a
     // single pass swing with the time of day (no stretch could skip across them).
     let per_day = (86_400.0 / pass).round();
-    let daily = opt.climate.is_some_and(|c| c.daily_range_c > 0.0) && per_day >= 2.0;
+    let daily = opt.climate.as_ref().is_some_and(|c| c.daily_range_c > 0.0) && per_day >= 2.0;
     let days = [Step::Repeat {
         steps: if daily {
             design.profile.clone()
@@ -427,7 +427,7 @@ fn run_counting(
         violations: Rc::unwrap_or_clone(sim.violations),
         trace: sim.tracer.map(|t| t.points()).unwrap_or_default(),
         ambient_c: opt.ambient_c,
-        ambient_range_c: opt.climate.map(|c| {
+        ambient_range_c: opt.climate.as_ref().map(|c| {
             let (lo, hi) = c.range(t_end);
             (opt.ambient_c + lo, opt.ambient_c + hi)
         }),
@@ -477,7 +477,7 @@ struct Ctx<'a> {
 }
 
 impl<'a> Ctx<'a> {
-    fn new(d: &'a Design, opt: RunOptions) -> Self {
+    fn new(d: &'a Design, opt: &RunOptions) -> Self {
         let draws_below = d
             .modes
             .iter()
@@ -501,7 +501,7 @@ impl<'a> Ctx<'a> {
         Self {
             d,
             progress: None,
-            opt,
+            opt: opt.clone(),
             q: d.pack.capacity_c(opt.ambient_c),
             pol: d.pack.polarization(opt.ambient_c),
             window: (d.pack.cell.peukert > 1.0 && d.pack.cell.rate_window_s > 0.0)
