@@ -190,8 +190,12 @@ fn a_tolerance_on_the_driver_current_moves_its_led_voltage() {
     let knob = d.tolerances()[0].knob().clone();
     assert!((knob.get(&d) - 0.35).abs() < 1e-15);
     // The knob's setter is the spread's own (crate-private in the closed model): the same
-    // value through the file.
-    let d = Design::from_text(&text.replace("current: 350 mA", "current: 300 mA")).unwrap();
+    // value through the file, the LED's forward voltage still given at 350 mA as the knob keeps
+    // its knee.
+    let moved = text
+        .replace("current: 350 mA", "current: 300 mA")
+        .replace("resistance: 1.2 Ω }", "resistance: 1.2 Ω, at: 350 mA }");
+    let d = Design::from_text(&moved).unwrap();
     // 2.58 V + 0.3 A x 1.2 Ω = 2.94 V, and the LED draws 300 mA there.
     assert!((d.stages()[0].setpoint() - 2.94).abs() < 1e-12);
     assert!((point(&d).loads[0].current - 0.3).abs() < 1e-12);
