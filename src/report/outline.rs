@@ -35,6 +35,19 @@ pub fn write_outline(w: &mut dyn Write, d: &Design) -> io::Result<()> {
             if r.repeats() { "repeated" } else { "held" }
         )?;
     }
+    if let Some(b) = p.buffer {
+        writeln!(
+            w,
+            "buffer: {} across the pack, series resistance {}, leakage {}, {}",
+            fmt_eng(b.capacitance, "F"),
+            fmt_eng(b.esr, "Ω"),
+            fmt_eng(b.leakage, "A"),
+            b.current_limit.map_or_else(
+                || "no current limiter".to_string(),
+                |l| format!("the cells' current limited to {}", fmt_eng(l, "A"))
+            )
+        )?;
+    }
     writeln!(w, "battery")?;
     rail(w, d, 0, "")?;
     let names: Vec<&str> = d

@@ -243,7 +243,7 @@ pub fn energy_sentences(r: &RunResult) -> Vec<String> {
     )];
     if l.buffer_loss_j != 0.0 || l.buffer_out_j != 0.0 {
         out.push(format!(
-            "the buffer capacitor lost {} (series resistance, leakage, limiter) and gave {} from its store",
+            "the buffer capacitor lost {} (series resistance, leakage, limiter, recharging through the cells) and gave {} from its store",
             wh(l.buffer_loss_j),
             wh(l.buffer_out_j)
         ));
