@@ -5,7 +5,7 @@
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, VPos};
 
-use super::discharge::{Px, header, overlaps, tick};
+use super::discharge::{Chart, Px, header, overlaps, tick};
 use super::style::{
     BLUE, Dash, GREEN, GREY, INK, MESH_BOLD, ORANGE, PURPLE, SKY, Shape, Swatch, TimeUnit, Type,
     VERMILLION, YELLOW, label, legend, marker, pixel_line, px, text, text_width,
@@ -284,17 +284,14 @@ fn percentile_marks(sp: &Spread, unit: TimeUnit) -> Vec<Mark> {
 }
 
 impl Painter for Histogram<'_> {
-    #[allow(clippy::too_many_lines)]
     fn paint<DB: DrawingBackend>(&self, root: &Canvas<DB>) -> Result<(), PlotError>
     where
         DB::ErrorType: 'static,
     {
-        let (d, sp, units) = (self.design, self.spread, &self.units);
+        let (sp, units) = (self.spread, &self.units);
         let w = root.dim_in_pixel().0;
         let ty = Type::for_width(w);
         let pad = (ty.body * 1.2) as i32;
-        let n = sp.samples.len();
-        let s = &sp.summary;
         let nominal = sp.nominal.runtime.as_ref().ok().copied();
         let target = sp.reach;
 
@@ -319,32 +316,7 @@ impl Painter for Histogram<'_> {
             .unwrap_or(1)
             .max(1);
 
-        let mut lines = vec![format!(
-            "{n} simulated units (seed {}): half run longer than {}, and 90 % between {} and {}.",
-            sp.options.seed,
-            in_unit(s.p50, unit),
-            in_unit(s.p5, unit),
-            in_unit(s.p95, unit)
-        )];
-        lines.push(if sp.failed == 0 {
-            "Every simulated unit gave a runtime.".into()
-        } else {
-            format!(
-                "{} of the {n} runs gave no runtime (the simulation failed) and are not drawn.",
-                sp.failed
-            )
-        });
-        let mut y = header(
-            root,
-            &format!("Runtime across units: {}", d.title),
-            &lines,
-            ty,
-            pad,
-        )?;
-
-        let keys = histogram_keys(sp, target.is_some(), nominal.is_some());
-        y += legend(root, &keys, (pad, y), px(w) - 2 * pad, ty.body, false)?;
-
+        let y = self.caption(root, unit, ty, pad)?;
         let marks = percentile_marks(sp, unit);
         // The runtime axis: the bins, the target and the design as written, a bin of room on
         // either side, never below zero.
@@ -367,28 +339,8 @@ impl Painter for Histogram<'_> {
         // on the whole body gives the marks' places across (the same in the final one).
         let probe = chart(&body)?;
         let row_h = (ty.body * 1.6) as i32;
-        let right_edge = px(w) - pad / 2;
-        let mut rows: Vec<Vec<Px>> = Vec::new();
-        let mut order: Vec<usize> = (0..marks.len()).collect();
-        order.sort_by(|&a, &b| marks[a].at_s.total_cmp(&marks[b].at_s));
-        let mut slot = vec![(0usize, 0i32); marks.len()];
-        for &k in &order {
-            let x = probe.backend_coord(&(marks[k].at_s / unit.seconds, 0.0)).0;
-            let tw = text_width(root, &marks[k].words, ty.body);
-            // Kept inside the canvas: the centre moves in from an edge.
-            let cx = x.clamp(pad / 2 + tw / 2, right_edge - tw / 2);
-            let rect: Px = ((cx - tw / 2 - 4, 0), (cx + tw / 2 + 4, row_h));
-            let row = rows
-                .iter()
-                .position(|r| r.iter().all(|b| !overlaps(*b, rect)))
-                .unwrap_or_else(|| {
-                    rows.push(Vec::new());
-                    rows.len() - 1
-                });
-            rows[row].push(rect);
-            slot[k] = (row, cx);
-        }
-        let strip = px_len(rows.len()) * row_h + 4;
+        let (rows, slot) = place_marks(root, &probe, &marks, unit, ty, pad);
+        let strip = px_len(rows) * row_h + 4;
         let area = body.margin(strip, 0, 0, 0);
         let mut ch = chart(&area)?;
         ch.configure_mesh()
@@ -407,67 +359,194 @@ impl Painter for Histogram<'_> {
                 }
             })
             .draw()?;
-        // Bars: each bin's units stacked by end reason, the most common reason at the bottom.
-        for (b, c) in counts.iter().enumerate() {
-            let x0 = first + width * b as f64;
-            let mut base = 0usize;
-            for (k, &m) in c.iter().enumerate() {
-                if m == 0 {
-                    continue;
-                }
-                let (y0, y1) = (base as f64, (base + m) as f64);
-                ch.plotting_area().draw(&Rectangle::new(
-                    [(x0, y0), (x0 + width, y1)],
-                    end_fill(reasons[k]).mix(0.85).filled(),
-                ))?;
-                ch.plotting_area().draw(&Rectangle::new(
-                    [(x0, y0), (x0 + width, y1)],
-                    WHITE.stroke_width(1),
-                ))?;
-                base += m;
-            }
-        }
+        draw_bars(&ch, &counts, &reasons, first, width)?;
         if let Some(t) = nominal {
             let at = ch.backend_coord(&(t / unit.seconds, 0.0));
             marker(root, at, Shape::Diamond, (ty.body * 0.45) as i32, INK, true)?;
         }
-        let top = ch.backend_coord(&(x_lo, y_hi)).1;
-        let bottom = ch.backend_coord(&(x_lo, 0.0)).1;
-        let strip_top = y + 2;
-        // The lines and their leads first, then the words on white over any lead they cross.
-        for (k, m) in marks.iter().enumerate() {
-            let row = slot[k].0;
-            let x = ch.backend_coord(&(m.at_s / unit.seconds, 0.0)).0;
-            let ly = strip_top + px_len(row) * row_h + row_h / 2;
-            pixel_line(
-                root,
-                vec![(x, ly + row_h / 2 - 2), (x, top)],
-                GREY,
-                1,
-                Dash::Solid,
-            )?;
-            pixel_line(root, vec![(x, top), (x, bottom)], m.colour, 2, m.dash)?;
-        }
-        for (k, m) in marks.iter().enumerate() {
-            let (row, cx) = slot[k];
-            let ly = strip_top + px_len(row) * row_h + row_h / 2;
-            let tw = text_width(root, &m.words, ty.body);
-            root.draw(&Rectangle::new(
-                [
-                    (cx - tw / 2 - 3, ly - row_h / 2 + 2),
-                    (cx + tw / 2 + 3, ly + row_h / 2 - 2),
-                ],
-                WHITE.filled(),
-            ))?;
-            label(
-                root,
-                &m.words,
-                (cx, ly),
-                &text(ty.body, m.colour, HPos::Center, VPos::Center),
-            )?;
-        }
-        Ok(())
+        let lines = MarkLines {
+            top: ch.backend_coord(&(x_lo, y_hi)).1,
+            bottom: ch.backend_coord(&(x_lo, 0.0)).1,
+            strip_top: y + 2,
+            row_h,
+        };
+        let across: Vec<i32> = marks
+            .iter()
+            .map(|m| ch.backend_coord(&(m.at_s / unit.seconds, 0.0)).0)
+            .collect();
+        draw_marks(root, &marks, &across, &slot, &lines, ty)
     }
+}
+
+impl Histogram<'_> {
+    /// Title, the sentences on the percentiles and the failed runs, and the legend; returns the
+    /// y below them.
+    fn caption<DB: DrawingBackend>(
+        &self,
+        root: &Canvas<DB>,
+        unit: TimeUnit,
+        ty: Type,
+        pad: i32,
+    ) -> Result<i32, PlotError>
+    where
+        DB::ErrorType: 'static,
+    {
+        let sp = self.spread;
+        let n = sp.samples.len();
+        let s = &sp.summary;
+        let mut lines = vec![format!(
+            "{n} simulated units (seed {}): half run longer than {}, and 90 % between {} and {}.",
+            sp.options.seed,
+            in_unit(s.p50, unit),
+            in_unit(s.p5, unit),
+            in_unit(s.p95, unit)
+        )];
+        lines.push(if sp.failed == 0 {
+            "Every simulated unit gave a runtime.".into()
+        } else {
+            format!(
+                "{} of the {n} runs gave no runtime (the simulation failed) and are not drawn.",
+                sp.failed
+            )
+        });
+        let mut y = header(
+            root,
+            &format!("Runtime across units: {}", self.design.title),
+            &lines,
+            ty,
+            pad,
+        )?;
+        let nominal = sp.nominal.runtime.is_ok();
+        let keys = histogram_keys(sp, sp.reach.is_some(), nominal);
+        let w = root.dim_in_pixel().0;
+        y += legend(root, &keys, (pad, y), px(w) - 2 * pad, ty.body, false)?;
+        Ok(y)
+    }
+}
+
+/// The row of words each mark goes in above the chart (the first where it overlaps no other)
+/// and its centre across, kept inside the canvas; and the number of rows.
+fn place_marks<DB: DrawingBackend>(
+    root: &Canvas<DB>,
+    probe: &Chart<'_, DB>,
+    marks: &[Mark],
+    unit: TimeUnit,
+    ty: Type,
+    pad: i32,
+) -> (usize, Vec<(usize, i32)>) {
+    let row_h = (ty.body * 1.6) as i32;
+    let right_edge = px(root.dim_in_pixel().0) - pad / 2;
+    let mut rows: Vec<Vec<Px>> = Vec::new();
+    let mut order: Vec<usize> = (0..marks.len()).collect();
+    order.sort_by(|&a, &b| marks[a].at_s.total_cmp(&marks[b].at_s));
+    let mut slot = vec![(0usize, 0i32); marks.len()];
+    for &k in &order {
+        let x = probe.backend_coord(&(marks[k].at_s / unit.seconds, 0.0)).0;
+        let tw = text_width(root, &marks[k].words, ty.body);
+        // Kept inside the canvas: the centre moves in from an edge.
+        let cx = x.clamp(pad / 2 + tw / 2, right_edge - tw / 2);
+        let rect: Px = ((cx - tw / 2 - 4, 0), (cx + tw / 2 + 4, row_h));
+        let row = rows
+            .iter()
+            .position(|r| r.iter().all(|b| !overlaps(*b, rect)))
+            .unwrap_or_else(|| {
+                rows.push(Vec::new());
+                rows.len() - 1
+            });
+        rows[row].push(rect);
+        slot[k] = (row, cx);
+    }
+    (rows.len(), slot)
+}
+
+/// The bars: each bin's units stacked by end reason, the most common reason at the bottom.
+fn draw_bars<DB: DrawingBackend>(
+    ch: &Chart<'_, DB>,
+    counts: &[Vec<usize>],
+    reasons: &[EndReason],
+    first: f64,
+    width: f64,
+) -> Result<(), PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    for (b, c) in counts.iter().enumerate() {
+        let x0 = first + width * b as f64;
+        let mut base = 0usize;
+        for (k, &m) in c.iter().enumerate() {
+            if m == 0 {
+                continue;
+            }
+            let (y0, y1) = (base as f64, (base + m) as f64);
+            ch.plotting_area().draw(&Rectangle::new(
+                [(x0, y0), (x0 + width, y1)],
+                end_fill(reasons[k]).mix(0.85).filled(),
+            ))?;
+            ch.plotting_area().draw(&Rectangle::new(
+                [(x0, y0), (x0 + width, y1)],
+                WHITE.stroke_width(1),
+            ))?;
+            base += m;
+        }
+    }
+    Ok(())
+}
+
+/// Where the marks' lines and words go, px: the chart's top and bottom, the top of the strip of
+/// words above it and the height of a row of words.
+struct MarkLines {
+    top: i32,
+    bottom: i32,
+    strip_top: i32,
+    row_h: i32,
+}
+
+/// The marks: each line (at `across[k]`, px) and its lead first, then the words on white over
+/// any lead they cross, in the row and centre of `slot`.
+fn draw_marks<DB: DrawingBackend>(
+    root: &Canvas<DB>,
+    marks: &[Mark],
+    across: &[i32],
+    slot: &[(usize, i32)],
+    p: &MarkLines,
+    ty: Type,
+) -> Result<(), PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    let row_h = p.row_h;
+    for (k, m) in marks.iter().enumerate() {
+        let row = slot[k].0;
+        let x = across[k];
+        let ly = p.strip_top + px_len(row) * row_h + row_h / 2;
+        pixel_line(
+            root,
+            vec![(x, ly + row_h / 2 - 2), (x, p.top)],
+            GREY,
+            1,
+            Dash::Solid,
+        )?;
+        pixel_line(root, vec![(x, p.top), (x, p.bottom)], m.colour, 2, m.dash)?;
+    }
+    for (k, m) in marks.iter().enumerate() {
+        let (row, cx) = slot[k];
+        let ly = p.strip_top + px_len(row) * row_h + row_h / 2;
+        let tw = text_width(root, &m.words, ty.body);
+        root.draw(&Rectangle::new(
+            [
+                (cx - tw / 2 - 3, ly - row_h / 2 + 2),
+                (cx + tw / 2 + 3, ly + row_h / 2 - 2),
+            ],
+            WHITE.filled(),
+        ))?;
+        label(
+            root,
+            &m.words,
+            (cx, ly),
+            &text(ty.body, m.colour, HPos::Center, VPos::Center),
+        )?;
+    }
+    Ok(())
 }
 
 /// A count of rows as pixels' multiplier.
