@@ -405,6 +405,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
 }
 
 /// The error of a write into the output buffer.
+#[allow(clippy::needless_pass_by_value)] // `map_err` hands the error over by value.
 fn io_fail(e: io::Error) -> Failure {
     Failure::Input(format!("cannot write the output: {e}"))
 }

@@ -124,7 +124,7 @@ fn with_unit(
 ) -> Result<Quantity, UnitError> {
     let expected_vec = || expected.to_vec();
     let accepts = |dim: Dim| expected.is_empty() || expected.contains(&dim);
-    match lookup(&unit) {
+    match lookup(unit) {
         Lookup::Found(def, exp) => {
             if !accepts(def.dim) {
                 return Err(UnitError::WrongDimension {
@@ -151,7 +151,7 @@ fn with_unit(
         Lookup::NoPrefix(..) | Lookup::Unknown => Err(UnitError::UnknownUnit {
             text: text.to_string(),
             number: number_text.to_string(),
-            suggestion: suggest(&unit, expected),
+            suggestion: suggest(unit, expected),
             unit: unit.to_string(),
             expected: expected_vec(),
         }),
