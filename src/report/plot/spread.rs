@@ -343,22 +343,7 @@ impl Painter for Histogram<'_> {
         let strip = px_len(rows) * row_h + 4;
         let area = body.margin(strip, 0, 0, 0);
         let mut ch = chart(&area)?;
-        ch.configure_mesh()
-            .light_line_style(WHITE)
-            .bold_line_style(MESH_BOLD)
-            .x_desc(format!("runtime ({})", unit.symbol))
-            .y_desc("simulated units")
-            .axis_desc_style(("sans-serif", ty.axis))
-            .label_style(("sans-serif", ty.body))
-            .x_label_formatter(&|x| tick(*x))
-            .y_label_formatter(&|v| {
-                if (v - v.round()).abs() < 1e-9 {
-                    format!("{v:.0}")
-                } else {
-                    String::new()
-                }
-            })
-            .draw()?;
+        draw_mesh(&mut ch, unit, ty)?;
         draw_bars(&ch, &counts, &reasons, first, width)?;
         if let Some(t) = nominal {
             let at = ch.backend_coord(&(t / unit.seconds, 0.0));
@@ -457,6 +442,34 @@ fn place_marks<DB: DrawingBackend>(
         slot[k] = (row, cx);
     }
     (rows.len(), slot)
+}
+
+/// The histogram's grid and axes: runtime in `unit` across, whole numbers of units up.
+fn draw_mesh<DB: DrawingBackend>(
+    ch: &mut Chart<'_, DB>,
+    unit: TimeUnit,
+    ty: Type,
+) -> Result<(), PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    ch.configure_mesh()
+        .light_line_style(WHITE)
+        .bold_line_style(MESH_BOLD)
+        .x_desc(format!("runtime ({})", unit.symbol))
+        .y_desc("simulated units")
+        .axis_desc_style(("sans-serif", ty.axis))
+        .label_style(("sans-serif", ty.body))
+        .x_label_formatter(&|x| tick(*x))
+        .y_label_formatter(&|v| {
+            if (v - v.round()).abs() < 1e-9 {
+                format!("{v:.0}")
+            } else {
+                String::new()
+            }
+        })
+        .draw()?;
+    Ok(())
 }
 
 /// The bars: each bin's units stacked by end reason, the most common reason at the bottom.
