@@ -213,14 +213,47 @@ pub fn read_capture(text: &str, name: &str, allow_negative: bool) -> Result<Capt
         .find(|c| head.contains(*c))
         .unwrap_or(',');
     let lay = header(head, header_line, sep, name)?;
-    let mut times: Vec<f64> = Vec::new();
-    let mut current: Vec<f64> = Vec::new();
-    let mut voltage: Vec<f64> = Vec::new();
-    // The line of each sample, to name the place of a gap found after reading.
-    let mut at_line: Vec<u32> = Vec::new();
+    let s = read_samples(lines, sep, &lay, name, allow_negative)?;
+    let dt = sampling_steps(&s.times, &s.at_line, name)?;
+    Ok(Capture {
+        name: name.to_string(),
+        start_s: s.times[0],
+        dt,
+        current: s.current,
+        voltage: lay.voltage.map(|_| s.voltage),
+    })
+}
+
+/// The samples of a capture as read, before the steps between them are checked.
+struct Samples {
+    /// Time of each sample, s.
+    times: Vec<f64>,
+    /// Current of each sample, A.
+    current: Vec<f64>,
+    /// Voltage of each sample, V (empty when the file has no voltage column).
+    voltage: Vec<f64>,
+    /// The line of each sample, to name the place of a gap found after reading.
+    at_line: Vec<u32>,
+}
+
+/// Every sample of the rows after the header, checked one by one; a message at the row's place
+/// for the first bad one, or when there are more than [`MAX_SAMPLES`].
+fn read_samples<'t>(
+    lines: impl Iterator<Item = (usize, &'t str)>,
+    sep: char,
+    lay: &Layout,
+    name: &str,
+    allow_negative: bool,
+) -> Result<Samples, Diagnostic> {
+    let mut s = Samples {
+        times: Vec::new(),
+        current: Vec::new(),
+        voltage: Vec::new(),
+        at_line: Vec::new(),
+    };
     let mut fields: Vec<(usize, &str)> = Vec::with_capacity(lay.columns);
     for (line, row) in lines {
-        if times.len() >= MAX_SAMPLES {
+        if s.times.len() >= MAX_SAMPLES {
             return Err(Diagnostic::new(
                 name,
                 format!("the capture has more than {MAX_SAMPLES} samples"),
@@ -232,19 +265,25 @@ pub fn read_capture(text: &str, name: &str, allow_negative: bool) -> Result<Capt
         split_into(row, sep, &mut fields);
         let (t, i, v) = read_row(
             &fields,
-            &lay,
+            lay,
             line,
             name,
-            times.last().copied(),
+            s.times.last().copied(),
             allow_negative,
         )?;
         if let Some(v) = v {
-            voltage.push(v);
+            s.voltage.push(v);
         }
-        times.push(t);
-        current.push(i);
-        at_line.push(u32::try_from(line).unwrap_or(u32::MAX));
+        s.times.push(t);
+        s.current.push(i);
+        s.at_line.push(u32::try_from(line).unwrap_or(u32::MAX));
     }
+    Ok(s)
+}
+
+/// The step after each sample, s (the last one the median step); a message when there are
+/// fewer than two samples, or at the line after a gap.
+fn sampling_steps(times: &[f64], at_line: &[u32], name: &str) -> Result<Vec<f64>, Diagnostic> {
     if times.len() < 2 {
         return Err(Diagnostic::new(
             name,
@@ -272,13 +311,7 @@ pub fn read_capture(text: &str, name: &str, allow_negative: bool) -> Result<Capt
         .at_line_col(line, 1));
     }
     steps.push(median);
-    Ok(Capture {
-        name: name.to_string(),
-        start_s: times[0],
-        dt: steps,
-        current,
-        voltage: lay.voltage.map(|_| voltage),
-    })
+    Ok(steps)
 }
 
 /// One sample from the fields of row `line` (after the sample at `prev_t`, when there is one):

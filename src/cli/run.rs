@@ -9,6 +9,7 @@ use joulepath::error::{Diagnostic, Error, did_you_mean};
 use joulepath::model::Preset;
 use joulepath::report::cells::{write_cell, write_cells};
 use joulepath::report::compare::{Entry, write_compare};
+use joulepath::report::plot::PlotFormat;
 use joulepath::report::{
     Format, budget::write_budget, heat::write_heat, outline::write_outline, runtime::write_runtime,
     spread::write_spread, warnings, write_warnings,
@@ -20,8 +21,8 @@ use super::args::{Args, Command, FormatArg, ReportSpread, RunArgs, parse_with};
 use super::capture::CaptureArgs;
 use super::groups::{Group, check as check_groups};
 use super::pictures::{
-    compare_plot, draw_spread, plot_command, report_command, run_with_progress, spread_pictures,
-    spread_with_progress,
+    SpreadPicture, compare_plot, draw_spread, plot_command, report_command, run_with_progress,
+    spread_pictures, spread_with_progress,
 };
 use super::render::render_diagnostics;
 
@@ -230,7 +231,6 @@ fn budget_modes(d: &Design, mode: Option<&str>) -> Result<Vec<usize>, Failure> {
 
 /// `joulepath cells [NAME]`: every preset, or the one named.
 fn cells_command(name: Option<&str>, f: Format, buf: &mut Vec<u8>) -> Result<(), Failure> {
-    let io_fail = |e: io::Error| Failure::Input(format!("cannot write the output: {e}"));
     match name {
         None => {
             let all = Preset::all().map_err(|e| Failure::Input(e.to_string()))?;
@@ -269,15 +269,8 @@ fn report_with_spread(
 
 /// Run the command line.
 pub fn run(args: &Args) -> Result<(), Failure> {
-    let mut buf: Vec<u8> = Vec::new();
-    let io_fail = |e: io::Error| Failure::Input(format!("cannot write the output: {e}"));
     match &args.command {
-        Command::Check { file } => {
-            let d = load(file)?;
-            write_outline(&mut buf, &d).map_err(io_fail)?;
-            write_warnings(&mut buf, &warnings(&d, d.ambient_c()), 96).map_err(io_fail)?;
-            emit(&buf, None)
-        }
+        Command::Check { file } => check_command(file),
         Command::Budget {
             file,
             sets,
@@ -287,12 +280,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             output,
         } => {
             let d = load_with(file, sets)?;
-            let modes = budget_modes(&d, mode.as_deref())?;
-            let soc = soc.unwrap_or(d.pack().start_soc());
-            let result = budget(&d, soc, &modes);
-            write_budget(&mut buf, &d, soc, &result, format(*f)).map_err(io_fail)?;
-            warn_beside(&d, d.ambient_c(), *f);
-            emit(&buf, output.as_deref())
+            budget_command(&d, *soc, mode.as_deref(), *f, output.as_deref())
         }
         Command::Runtime {
             file,
@@ -301,27 +289,14 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             trace,
             format: f,
             output,
-        } => {
-            let d = load_with(file, sets)?;
-            let opt = run_options(&d, ra, *trace);
-            let result = run_with_progress(&d, &opt, "simulating")?;
-            write_runtime(&mut buf, &d, &result, format(*f), *trace).map_err(io_fail)?;
-            warn_beside(&d, result.ambient_c, *f);
-            emit(&buf, output.as_deref())
-        }
+        } => runtime_command(&load_with(file, sets)?, ra, *trace, *f, output.as_deref()),
         Command::Heat {
             file,
             sets,
             run: ra,
             format: f,
             output,
-        } => {
-            let d = load_with(file, sets)?;
-            let result = run_with_progress(&d, &run_options(&d, ra, false), "simulating")?;
-            write_heat(&mut buf, &d, &result, format(*f)).map_err(io_fail)?;
-            warn_beside(&d, result.ambient_c, *f);
-            emit(&buf, output.as_deref())
-        }
+        } => heat_command(&load_with(file, sets)?, ra, *f, output.as_deref()),
         Command::Spread {
             file,
             sets,
@@ -337,18 +312,14 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             let to_draw = spread_pictures(pictures)?;
             let d = load_with(file, sets)?;
             let sp = spread_command(d, ra, *samples as usize, *seed, *target, *corners)?;
-            write_spread(&mut buf, &sp.0, &sp.1, format(*f)).map_err(io_fail)?;
-            warn_beside(&sp.0, sp.0.ambient_c(), *f);
-            for (path, bytes) in draw_spread(&sp.0, &sp.1, &to_draw)? {
-                emit(&bytes, Some(&path))?;
-            }
-            emit(&buf, output.as_deref())
+            write_spread_outputs(&sp, &to_draw, *f, output.as_deref())
         }
         Command::Cells {
             name,
             format: f,
             output,
         } => {
+            let mut buf = Vec::new();
             cells_command(name.as_deref(), format(*f), &mut buf)?;
             emit(&buf, output.as_deref())
         }
@@ -371,14 +342,9 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             format: f,
             output,
         } => {
-            fit_cell(
-                curves,
-                name.as_deref(),
-                rated_current.as_deref(),
-                cutoff.as_deref(),
-                format(*f),
-                &mut buf,
-            )?;
+            let mut buf = Vec::new();
+            let (rated, cutoff) = (rated_current.as_deref(), cutoff.as_deref());
+            fit_cell(curves, name.as_deref(), rated, cutoff, format(*f), &mut buf)?;
             emit(&buf, output.as_deref())
         }
         Command::Capture {
@@ -399,6 +365,7 @@ pub fn run(args: &Args) -> Result<(), Failure> {
                 allow_negative: *allow_negative,
                 plot: plot.as_deref(),
             };
+            let mut buf = Vec::new();
             super::capture::capture_command(&c, *f, &mut buf)?;
             emit(&buf, output.as_deref())
         }
@@ -435,6 +402,84 @@ pub fn run(args: &Args) -> Result<(), Failure> {
             output.as_deref(),
         ),
     }
+}
+
+/// The error of a write into the output buffer.
+#[allow(clippy::needless_pass_by_value)] // `map_err` hands the error over by value.
+fn io_fail(e: io::Error) -> Failure {
+    Failure::Input(format!("cannot write the output: {e}"))
+}
+
+/// `joulepath check FILE`: the design's outline and its warnings.
+fn check_command(file: &Path) -> Result<(), Failure> {
+    let d = load(file)?;
+    let mut buf = Vec::new();
+    write_outline(&mut buf, &d).map_err(io_fail)?;
+    write_warnings(&mut buf, &warnings(&d, d.ambient_c()), 96).map_err(io_fail)?;
+    emit(&buf, None)
+}
+
+/// `joulepath budget`: the operating point of the modes asked for, at `soc` (default: the
+/// pack's start).
+fn budget_command(
+    d: &Design,
+    soc: Option<f64>,
+    mode: Option<&str>,
+    f: FormatArg,
+    output: Option<&Path>,
+) -> Result<(), Failure> {
+    let modes = budget_modes(d, mode)?;
+    let soc = soc.unwrap_or(d.pack().start_soc());
+    let result = budget(d, soc, &modes);
+    let mut buf = Vec::new();
+    write_budget(&mut buf, d, soc, &result, format(f)).map_err(io_fail)?;
+    warn_beside(d, d.ambient_c(), f);
+    emit(&buf, output)
+}
+
+/// `joulepath runtime`: one run of the design, with its time series when `trace` is set.
+fn runtime_command(
+    d: &Design,
+    ra: &RunArgs,
+    trace: bool,
+    f: FormatArg,
+    output: Option<&Path>,
+) -> Result<(), Failure> {
+    let result = run_with_progress(d, &run_options(d, ra, trace), "simulating")?;
+    let mut buf = Vec::new();
+    write_runtime(&mut buf, d, &result, format(f), trace).map_err(io_fail)?;
+    warn_beside(d, result.ambient_c, f);
+    emit(&buf, output)
+}
+
+/// `joulepath heat`: one run of the design, its heat per stage.
+fn heat_command(
+    d: &Design,
+    ra: &RunArgs,
+    f: FormatArg,
+    output: Option<&Path>,
+) -> Result<(), Failure> {
+    let result = run_with_progress(d, &run_options(d, ra, false), "simulating")?;
+    let mut buf = Vec::new();
+    write_heat(&mut buf, d, &result, format(f)).map_err(io_fail)?;
+    warn_beside(d, result.ambient_c, f);
+    emit(&buf, output)
+}
+
+/// Write a finished spread: its table (or JSON, CSV) and the pictures asked for.
+fn write_spread_outputs(
+    sp: &(Design, joulepath::spread::Spread),
+    to_draw: &[(PathBuf, PlotFormat, SpreadPicture)],
+    f: FormatArg,
+    output: Option<&Path>,
+) -> Result<(), Failure> {
+    let mut buf = Vec::new();
+    write_spread(&mut buf, &sp.0, &sp.1, format(f)).map_err(io_fail)?;
+    warn_beside(&sp.0, sp.0.ambient_c(), f);
+    for (path, bytes) in draw_spread(&sp.0, &sp.1, to_draw)? {
+        emit(&bytes, Some(&path))?;
+    }
+    emit(&buf, output)
 }
 
 /// The spread of a design: `--ambient` moves the design's own ambient (each unit runs at its
@@ -574,7 +619,6 @@ fn fit_cell(
     let fit = joulepath::fit::fit(&read_curves, &opts)
         .map_err(|e| Failure::Input(render_fit_error(&e)))?;
     let name = name.unwrap_or("fitted-cell");
-    let io_fail = |e: io::Error| Failure::Input(format!("cannot write the output: {e}"));
     match fmt {
         Format::Json => {
             serde_json::to_writer_pretty(&mut *buf, &joulepath::fit::cell_json(&fit, name))

@@ -182,75 +182,17 @@ pub fn read_curve(text: &str, current_a: f64, name: &str) -> Result<Curve, FitEr
         .into_iter()
         .find(|c| header.contains(*c))
         .unwrap_or(',');
-    let (cap_col, cap_scale, v_col, v_scale) = header_columns(header, header_line, sep, name)?;
+    let cols = header_columns(header, header_line, sep, name)?;
     let mut points: Vec<(f64, f64)> = Vec::new();
     let mut previous: Option<(usize, &str)> = None;
     for (line, row) in lines {
         let fields = split(row, sep);
-        if fields.len() != 2 {
-            return Err(FitError::new(
-                name,
-                format!(
-                    "line {line} has {} {}; the header names 2 columns",
-                    fields.len(),
-                    if fields.len() == 1 { "value" } else { "values" }
-                ),
-            )
-            .with_hint("write one capacity and one voltage per row, separated like the header")
-            .at_line_col(line, 1));
-        }
-        let cap = number(fields[cap_col], line, name)?;
-        let v = number(fields[v_col], line, name)?;
-        let (cap_text, v_text) = (fields[cap_col].1.trim(), fields[v_col].1.trim());
-        if cap < 0.0 {
-            return Err(FitError::new(
-                name,
-                format!("line {line}: the capacity `{cap_text}` is negative"),
-            )
-            .with_hint("the capacity column is the charge delivered since the start, from 0")
-            .at_line_col(line, fields[cap_col].0));
-        }
-        if v <= 0.0 {
-            return Err(FitError::new(
-                name,
-                format!("line {line}: the voltage `{v_text}` is not above zero"),
-            )
-            .at_line_col(line, fields[v_col].0));
-        }
-        let q = cap * cap_scale;
-        if !q.is_finite() {
-            return Err(FitError::new(
-                name,
-                format!("line {line}: the capacity `{cap_text}` is out of range"),
-            )
-            .at_line_col(line, fields[cap_col].0));
-        }
-        if let (Some(&(q_prev, _)), Some((prev_line, prev_text))) = (points.last(), previous) {
-            if q <= q_prev {
-                return Err(FitError::new(
-                    name,
-                    format!(
-                        "line {line}: the capacity `{cap_text}` is not above `{prev_text}` on line {prev_line}; the capacity must increase from row to row"
-                    ),
-                )
-                .with_hint("sort the rows by delivered capacity and remove repeated points")
-                .at_line_col(line, fields[cap_col].0));
-            }
-        }
-        if let (Some(&(_, v_prev)), Some((prev_line, _))) = (points.last(), previous) {
-            if v * v_scale > v_prev * (1.0 + RISE_TOLERANCE) {
-                return Err(FitError::new(
-                    name,
-                    format!(
-                        "line {line}: the voltage `{v_text}` is above the voltage of line {prev_line}; a discharge curve's voltage must not rise as charge is drawn"
-                    ),
-                )
-                .with_hint("check the row for a typing error and the order of the rows (rises within 0.5 %, digitizing noise, are accepted)")
-                .at_line_col(line, fields[v_col].0));
-            }
+        let (q, v, cap_text) = read_point(&fields, cols, line, name)?;
+        if let (Some(&last), Some(prev)) = (points.last(), previous) {
+            check_order((q, v), last, prev, (&fields, cols), line, name)?;
         }
         previous = Some((line, cap_text));
-        points.push((q, v * v_scale));
+        points.push((q, v));
     }
     if points.is_empty() {
         return Err(
@@ -264,6 +206,95 @@ pub fn read_curve(text: &str, current_a: f64, name: &str) -> Result<Curve, FitEr
         current_a,
         points,
     })
+}
+
+/// The columns of a curve file: capacity column and its scale to coulombs, voltage column and
+/// its scale to volts.
+type Columns = (usize, f64, usize, f64);
+
+/// One point from the fields of row `line`: capacity, C, voltage, V, and the capacity as
+/// written; a message at its place when the row has not two values, or a value is not a
+/// number, the capacity is negative or out of range, or the voltage is not above zero.
+fn read_point<'a>(
+    fields: &[(usize, &'a str)],
+    (cap_col, cap_scale, v_col, v_scale): Columns,
+    line: usize,
+    name: &str,
+) -> Result<(f64, f64, &'a str), FitError> {
+    if fields.len() != 2 {
+        return Err(FitError::new(
+            name,
+            format!(
+                "line {line} has {} {}; the header names 2 columns",
+                fields.len(),
+                if fields.len() == 1 { "value" } else { "values" }
+            ),
+        )
+        .with_hint("write one capacity and one voltage per row, separated like the header")
+        .at_line_col(line, 1));
+    }
+    let cap = number(fields[cap_col], line, name)?;
+    let v = number(fields[v_col], line, name)?;
+    let (cap_text, v_text) = (fields[cap_col].1.trim(), fields[v_col].1.trim());
+    if cap < 0.0 {
+        return Err(FitError::new(
+            name,
+            format!("line {line}: the capacity `{cap_text}` is negative"),
+        )
+        .with_hint("the capacity column is the charge delivered since the start, from 0")
+        .at_line_col(line, fields[cap_col].0));
+    }
+    if v <= 0.0 {
+        return Err(FitError::new(
+            name,
+            format!("line {line}: the voltage `{v_text}` is not above zero"),
+        )
+        .at_line_col(line, fields[v_col].0));
+    }
+    let q = cap * cap_scale;
+    if !q.is_finite() {
+        return Err(FitError::new(
+            name,
+            format!("line {line}: the capacity `{cap_text}` is out of range"),
+        )
+        .at_line_col(line, fields[cap_col].0));
+    }
+    Ok((q, v * v_scale, cap_text))
+}
+
+/// Point `(q, v)` of row `line` against the point `(q_prev, v_prev)` of the row before
+/// (`prev_line`, its capacity written `prev_text`): the capacity must increase, and the voltage
+/// must not rise by more than [`RISE_TOLERANCE`].
+fn check_order(
+    (q, v): (f64, f64),
+    (q_prev, v_prev): (f64, f64),
+    (prev_line, prev_text): (usize, &str),
+    (fields, (cap_col, _, v_col, _)): (&[(usize, &str)], Columns),
+    line: usize,
+    name: &str,
+) -> Result<(), FitError> {
+    let (cap_text, v_text) = (fields[cap_col].1.trim(), fields[v_col].1.trim());
+    if q <= q_prev {
+        return Err(FitError::new(
+            name,
+            format!(
+                "line {line}: the capacity `{cap_text}` is not above `{prev_text}` on line {prev_line}; the capacity must increase from row to row"
+            ),
+        )
+        .with_hint("sort the rows by delivered capacity and remove repeated points")
+        .at_line_col(line, fields[cap_col].0));
+    }
+    if v > v_prev * (1.0 + RISE_TOLERANCE) {
+        return Err(FitError::new(
+            name,
+            format!(
+                "line {line}: the voltage `{v_text}` is above the voltage of line {prev_line}; a discharge curve's voltage must not rise as charge is drawn"
+            ),
+        )
+        .with_hint("check the row for a typing error and the order of the rows (rises within 0.5 %, digitizing noise, are accepted)")
+        .at_line_col(line, fields[v_col].0));
+    }
+    Ok(())
 }
 
 fn number((col, field): (usize, &str), line: usize, name: &str) -> Result<f64, FitError> {

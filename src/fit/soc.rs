@@ -38,20 +38,8 @@ pub fn fit(curves: &[Curve], opts: &FitOptions) -> Result<Fit, FitError> {
         .map(|c| (c.current_a(), c.capacity_c()))
         .collect();
     let RateFit { q_c, k, raw_k } = fit_rate(&caps, rated)?;
-    let mut warnings = Vec::new();
-    if raw_k < 1.0 - 1e-6 {
-        warnings.push(format!(
-            "the capacities rise with current (Peukert exponent {raw_k:.3}); k is held at 1 and the capacity is their geometric mean"
-        ));
-    }
     let highest = curves.iter().map(Curve::current_a).fold(0.0, f64::max);
-    if highest / lowest < 1.5 {
-        warnings.push(format!(
-            "the currents differ by less than a factor of 1.5 ({} to {}); k and the resistance are poorly determined",
-            fmt_eng(lowest, "A"),
-            fmt_eng(highest, "A")
-        ));
-    }
+    let warnings = rate_warnings(raw_k, lowest, highest);
     // s = 1 - q per_c[j] for curve j.
     let per_c: Vec<f64> = curves
         .iter()
@@ -74,6 +62,50 @@ pub fn fit(curves: &[Curve], opts: &FitOptions) -> Result<Fit, FitError> {
             "the fitted tables are not valid: SoC points repeat",
         ));
     };
+    let cutoff_v = fitted_cutoff(curves, opts, &ocv)?;
+    let mut f = Fit {
+        capacity_c: q_c,
+        rated_current_a: rated,
+        peukert: k,
+        cutoff_v,
+        chemistry: opts.chemistry.unwrap_or(Chemistry::Other),
+        table: rows,
+        soc_min: lo,
+        soc_max: hi,
+        curves: Vec::new(),
+        residual: Residual::default(),
+        warnings,
+        ocv,
+        resistance,
+    };
+    score_curves(&mut f, curves, &per_c, (&starts, &ends));
+    note_table(&mut f, adjusted);
+    note_capacities(&mut f);
+    Ok(f)
+}
+
+/// The warnings on the capacity law: capacities that rise with current (a raw exponent
+/// `raw_k` below 1), and currents from `lowest` to `highest`, A, too close to determine it.
+fn rate_warnings(raw_k: f64, lowest: f64, highest: f64) -> Vec<String> {
+    let mut warnings = Vec::new();
+    if raw_k < 1.0 - 1e-6 {
+        warnings.push(format!(
+            "the capacities rise with current (Peukert exponent {raw_k:.3}); k is held at 1 and the capacity is their geometric mean"
+        ));
+    }
+    if highest / lowest < 1.5 {
+        warnings.push(format!(
+            "the currents differ by less than a factor of 1.5 ({} to {}); k and the resistance are poorly determined",
+            fmt_eng(lowest, "A"),
+            fmt_eng(highest, "A")
+        ));
+    }
+    warnings
+}
+
+/// The cutoff: the one given, else the lowest final voltage of the curves; an error when it
+/// is not below the fitted full-charge OCV.
+fn fitted_cutoff(curves: &[Curve], opts: &FitOptions, ocv: &Table) -> Result<f64, FitError> {
     let cutoff_v = opts.cutoff_v.unwrap_or_else(|| {
         curves
             .iter()
@@ -92,24 +124,16 @@ pub fn fit(curves: &[Curve], opts: &FitOptions) -> Result<Fit, FitError> {
         )
         .with_hint("give a lower cutoff, the end-of-discharge voltage under load"));
     }
-    let mut f = Fit {
-        capacity_c: q_c,
-        rated_current_a: rated,
-        peukert: k,
-        cutoff_v,
-        chemistry: opts.chemistry.unwrap_or(Chemistry::Other),
-        table: rows,
-        soc_min: lo,
-        soc_max: hi,
-        curves: Vec::new(),
-        residual: Residual::default(),
-        warnings,
-        ocv,
-        resistance,
-    };
+    Ok(cutoff_v)
+}
+
+/// Each curve against the fit `f` (curve `j` from `starts[j]` to `ends[j]` in the fitted
+/// capacity law): its fit, the residuals over all curves, and a warning for a curve with
+/// points past empty.
+fn score_curves(f: &mut Fit, curves: &[Curve], per_c: &[f64], (starts, ends): (&[f64], &[f64])) {
     let mut all = Vec::new();
     for (j, c) in curves.iter().enumerate() {
-        let (cf, errors, past) = curve_fit(&f, c, per_c[j], starts[j], ends[j]);
+        let (cf, errors, past) = curve_fit(f, c, per_c[j], starts[j], ends[j]);
         all.extend(errors);
         if past > 0 {
             f.warnings.push(format!(
@@ -121,9 +145,6 @@ pub fn fit(curves: &[Curve], opts: &FitOptions) -> Result<Fit, FitError> {
         f.curves.push(cf);
     }
     f.residual = Residual::from_errors(&all);
-    note_table(&mut f, adjusted);
-    note_capacities(&mut f);
-    Ok(f)
 }
 
 /// Where the curves start and end in the fitted capacity law (SoC, each curve), and the range

@@ -2,6 +2,7 @@
 //! ([`Dist`]), and within which physical range a drawn value must stay.
 
 use super::Design;
+use super::cell::Cell;
 use super::load::Draw;
 use super::mode::{RepeatUntil, Step};
 use super::stage::LossModel;
@@ -300,19 +301,7 @@ impl Knob {
         match self {
             Knob::Ambient => d.ambient_c = v,
             Knob::CellCapacity => c.capacity_c = v,
-            Knob::CellResistance => {
-                let now = c.resistance.at(0.5);
-                if now > 0.0 {
-                    let k = v / now;
-                    if let Ok(t) =
-                        Table::new(c.resistance.points().map(|(x, y)| (x, y * k)).collect())
-                    {
-                        c.resistance = t;
-                    }
-                } else {
-                    c.resistance = Table::constant(v);
-                }
-            }
+            Knob::CellResistance => set_resistance(c, v),
             Knob::CellSelfDischarge => c.self_discharge_per_s = v,
             Knob::CellPeukert => c.peukert = v,
             Knob::CellCutoff => c.cutoff_v = v,
@@ -376,21 +365,7 @@ impl Knob {
                 };
                 super::lower::refresh_draws(d);
             }
-            Knob::StepFor(at) => {
-                match step_mut(&mut d.profile, at) {
-                    Some(Step::Hold { seconds, .. }) => *seconds = v,
-                    Some(Step::Repeat {
-                        until: RepeatUntil::Seconds(s),
-                        ..
-                    }) => *s = v,
-                    _ => {}
-                }
-                // How long each mode is held decides which of the cell's limits applies.
-                let holds = super::longest_holds(&d.profile, d.modes.len());
-                for (m, hold) in d.modes.iter_mut().zip(holds) {
-                    m.longest_hold_s = hold;
-                }
-            }
+            Knob::StepFor(at) => set_step_for(d, at, v),
             Knob::RepeatTimes(at) => {
                 if let Some(Step::Repeat {
                     until: RepeatUntil::Times(n),
@@ -401,6 +376,37 @@ impl Knob {
                 }
             }
         }
+    }
+}
+
+/// Set the cell's resistance at half charge to `v`, Ω, scaling its whole table (a table that
+/// is zero there becomes the constant `v`).
+fn set_resistance(c: &mut Cell, v: f64) {
+    let now = c.resistance.at(0.5);
+    if now > 0.0 {
+        let k = v / now;
+        if let Ok(t) = Table::new(c.resistance.points().map(|(x, y)| (x, y * k)).collect()) {
+            c.resistance = t;
+        }
+    } else {
+        c.resistance = Table::constant(v);
+    }
+}
+
+/// Set the length of the profile step at `at` to `v`, s, and each mode's longest hold with it.
+fn set_step_for(d: &mut Design, at: &[usize], v: f64) {
+    match step_mut(&mut d.profile, at) {
+        Some(Step::Hold { seconds, .. }) => *seconds = v,
+        Some(Step::Repeat {
+            until: RepeatUntil::Seconds(s),
+            ..
+        }) => *s = v,
+        _ => {}
+    }
+    // How long each mode is held decides which of the cell's limits applies.
+    let holds = super::longest_holds(&d.profile, d.modes.len());
+    for (m, hold) in d.modes.iter_mut().zip(holds) {
+        m.longest_hold_s = hold;
     }
 }
 

@@ -147,119 +147,16 @@ fn csv(w: &mut dyn Write, presets: &[Preset]) -> io::Result<()> {
     write_rows(w, &rows)
 }
 
+/// One preset in full: its facts as a two-column list, its OCV curve and where the values come
+/// from.
 fn table(w: &mut dyn Write, p: &Preset) -> io::Result<()> {
     let c = &p.cell;
     writeln!(w, "{}: {}", p.name, p.description)?;
     writeln!(w)?;
-    let polarization = c.polarization.map_or_else(
-        || "none".to_string(),
-        |(r, tau)| format!("{}, time constant {}", fmt_eng(r, "Ω"), fmt_eng(tau, "s")),
-    );
-    let temperature: Vec<String> = c
-        .temp_capacity
-        .points()
-        .map(|(t, f)| {
-            format!(
-                "{}: capacity {}, resistance {}",
-                fmt_celsius(t),
-                fmt_percent(f),
-                fmt_percent(c.temp_resistance.at(t))
-            )
-        })
-        .collect();
     let mut t = TextTable::new(&[("", Align::Left), ("", Align::Left)]);
-    let mut row = |k: &str, v: String| t.row(vec![k.to_string(), v]);
-    row("chemistry", c.chemistry.name().to_string());
-    row(
-        "capacity",
-        format!(
-            "{}, rated at {}",
-            fmt_eng(p.capacity_ah(), "Ah"),
-            fmt_eng(c.rated_current_a, "A")
-        ),
-    );
-    row(
-        "nominal voltage",
-        Nominal::of(c.chemistry).map_or_else(
-            || {
-                format!(
-                    "{} (no designated voltage: the mean open-circuit voltage)",
-                    fmt_eng(p.nominal_v(), "V")
-                )
-            },
-            |n| format!("{} (designated: {})", fmt_eng(n.volts, "V"), n.source),
-        ),
-    );
-    row(
-        "mean OCV",
-        format!(
-            "{} (mean open-circuit voltage over 0..100 %)",
-            fmt_eng(p.mean_ocv_v(), "V")
-        ),
-    );
-    row(
-        "energy",
-        format!(
-            "{} (capacity x nominal voltage); {} at the mean open-circuit voltage",
-            fmt_eng(p.energy_wh(), "Wh"),
-            fmt_eng(p.capacity_ah() * p.mean_ocv_v(), "Wh")
-        ),
-    );
-    row(
-        "open circuit",
-        format!(
-            "{} full, {} empty",
-            fmt_eng(c.ocv.at(1.0), "V"),
-            fmt_eng(c.ocv.at(0.0), "V")
-        ),
-    );
-    row("cutoff", format!("{} under load", fmt_eng(c.cutoff_v, "V")));
-    row("resistance", resistance_words(c));
-    row("polarization", polarization);
-    row("Peukert exponent", fmt_sig(c.peukert, 3));
-    if c.peukert > 1.0 {
-        row(
-            "rate window",
-            if c.rate_window_s > 0.0 {
-                format!(
-                    "{} (the law sees the current averaged over it)",
-                    fmt_duration(c.rate_window_s)
-                )
-            } else {
-                "none (the law sees the current of each instant)".to_string()
-            },
-        );
-    }
-    row(
-        "max current",
-        c.max_current_a.map_or_else(
-            || "no limit given".to_string(),
-            |i| format!("{} continuous", fmt_eng(i, "A")),
-        ),
-    );
-    if let Some((i, t)) = c.max_pulse {
-        row(
-            "max pulse current",
-            format!("{} in pulses of up to {}", fmt_eng(i, "A"), fmt_duration(t)),
-        );
-    }
-    row("self-discharge", self_discharge_words(c));
-    row(
-        "mass",
-        c.mass_kg.map_or_else(
-            || "not given".to_string(),
-            |m| format!("{} (typical)", fmt_eng(m * 1e3, "g")),
-        ),
-    );
-    row(
-        "size",
-        c.size.map_or_else(
-            || "not given".to_string(),
-            |s| format!("{}, {} cm³", s.describe(), fmt_sig(s.volume_m3() * 1e6, 3)),
-        ),
-    );
-    for (i, line) in temperature.into_iter().enumerate() {
-        row(if i == 0 { "temperature" } else { "" }, line);
+    let facts = [energy_facts(p), electrical_facts(c), physical_facts(c)];
+    for (k, v) in facts.into_iter().flatten() {
+        t.row(vec![k.to_string(), v]);
     }
     // The header row of this two-column list is blank: skip it.
     let mut list = Vec::new();
@@ -275,6 +172,126 @@ fn table(w: &mut dyn Write, p: &Preset) -> io::Result<()> {
         "The source and status of every value are given beside it in presets/{}.yaml.",
         p.name
     )
+}
+
+/// The first lines of a preset in full: chemistry, capacity, voltages, energy and cutoff.
+fn energy_facts(p: &Preset) -> Vec<(&'static str, String)> {
+    let c = &p.cell;
+    let nominal = Nominal::of(c.chemistry).map_or_else(
+        || {
+            format!(
+                "{} (no designated voltage: the mean open-circuit voltage)",
+                fmt_eng(p.nominal_v(), "V")
+            )
+        },
+        |n| format!("{} (designated: {})", fmt_eng(n.volts, "V"), n.source),
+    );
+    vec![
+        ("chemistry", c.chemistry.name().to_string()),
+        (
+            "capacity",
+            format!(
+                "{}, rated at {}",
+                fmt_eng(p.capacity_ah(), "Ah"),
+                fmt_eng(c.rated_current_a, "A")
+            ),
+        ),
+        ("nominal voltage", nominal),
+        (
+            "mean OCV",
+            format!(
+                "{} (mean open-circuit voltage over 0..100 %)",
+                fmt_eng(p.mean_ocv_v(), "V")
+            ),
+        ),
+        (
+            "energy",
+            format!(
+                "{} (capacity x nominal voltage); {} at the mean open-circuit voltage",
+                fmt_eng(p.energy_wh(), "Wh"),
+                fmt_eng(p.capacity_ah() * p.mean_ocv_v(), "Wh")
+            ),
+        ),
+        (
+            "open circuit",
+            format!(
+                "{} full, {} empty",
+                fmt_eng(c.ocv.at(1.0), "V"),
+                fmt_eng(c.ocv.at(0.0), "V")
+            ),
+        ),
+        ("cutoff", format!("{} under load", fmt_eng(c.cutoff_v, "V"))),
+    ]
+}
+
+/// The middle lines of a preset in full: resistance, polarization, rate law, current limits
+/// and self-discharge.
+fn electrical_facts(c: &Cell) -> Vec<(&'static str, String)> {
+    let polarization = c.polarization.map_or_else(
+        || "none".to_string(),
+        |(r, tau)| format!("{}, time constant {}", fmt_eng(r, "Ω"), fmt_eng(tau, "s")),
+    );
+    let mut facts = vec![
+        ("resistance", resistance_words(c)),
+        ("polarization", polarization),
+        ("Peukert exponent", fmt_sig(c.peukert, 3)),
+    ];
+    if c.peukert > 1.0 {
+        let window = if c.rate_window_s > 0.0 {
+            format!(
+                "{} (the law sees the current averaged over it)",
+                fmt_duration(c.rate_window_s)
+            )
+        } else {
+            "none (the law sees the current of each instant)".to_string()
+        };
+        facts.push(("rate window", window));
+    }
+    facts.push((
+        "max current",
+        c.max_current_a.map_or_else(
+            || "no limit given".to_string(),
+            |i| format!("{} continuous", fmt_eng(i, "A")),
+        ),
+    ));
+    if let Some((i, t)) = c.max_pulse {
+        facts.push((
+            "max pulse current",
+            format!("{} in pulses of up to {}", fmt_eng(i, "A"), fmt_duration(t)),
+        ));
+    }
+    facts.push(("self-discharge", self_discharge_words(c)));
+    facts
+}
+
+/// The last lines of a preset in full: mass, size and the temperature table.
+fn physical_facts(c: &Cell) -> Vec<(&'static str, String)> {
+    let mut facts = vec![
+        (
+            "mass",
+            c.mass_kg.map_or_else(
+                || "not given".to_string(),
+                |m| format!("{} (typical)", fmt_eng(m * 1e3, "g")),
+            ),
+        ),
+        (
+            "size",
+            c.size.map_or_else(
+                || "not given".to_string(),
+                |s| format!("{}, {} cm³", s.describe(), fmt_sig(s.volume_m3() * 1e6, 3)),
+            ),
+        ),
+    ];
+    for (i, (t, f)) in c.temp_capacity.points().enumerate() {
+        let line = format!(
+            "{}: capacity {}, resistance {}",
+            fmt_celsius(t),
+            fmt_percent(f),
+            fmt_percent(c.temp_resistance.at(t))
+        );
+        facts.push((if i == 0 { "temperature" } else { "" }, line));
+    }
+    facts
 }
 
 /// The cell's resistance in words: one value, or its range by state of charge.

@@ -64,15 +64,45 @@ fn letter(i: usize) -> String {
     char::from(b'A' + u8::try_from(i % 26).unwrap_or(0)).to_string()
 }
 
+/// The comparison as text: the designs, their figures and stage losses side by side, the
+/// verdicts in words, the warnings and the caution.
 fn write_table(w: &mut dyn Write, entries: &[Entry<'_>]) -> io::Result<()> {
     writeln!(w, "comparing {} designs", entries.len())?;
     for (i, e) in entries.iter().enumerate() {
         writeln!(w, "  {}: {} ({})", letter(i), e.design.title, e.label)?;
     }
     writeln!(w)?;
-    let mut cols: Vec<(&str, Align)> = vec![("", Align::Left)];
     let names: Vec<String> = (0..entries.len()).map(letter).collect();
-    for n in &names {
+    summary_table(entries, &names).write(w, "  ")?;
+    if let Some(t) = stage_loss_table(entries, &names) {
+        writeln!(w)?;
+        t.write(w, "  ")?;
+    }
+    writeln!(w)?;
+    writeln!(w, "in words:")?;
+    for line in verdicts(entries) {
+        for (i, l) in wrap(&line, 94).iter().enumerate() {
+            writeln!(w, "{}{l}", if i == 0 { "- " } else { "  " })?;
+        }
+    }
+    writeln!(w)?;
+    for (i, e) in entries.iter().enumerate() {
+        let found: Vec<String> = warnings(e.design, e.run.ambient_c)
+            .into_iter()
+            .map(|x| format!("in {}, {x}", letter(i)))
+            .collect();
+        write_warnings(w, &found, 96)?;
+    }
+    for line in wrap(&caution_for(entries.iter().map(|e| e.design)), 96) {
+        writeln!(w, "{line}")?;
+    }
+    Ok(())
+}
+
+/// The designs' figures side by side, one column per design (headed by its letter in `names`).
+fn summary_table(entries: &[Entry<'_>], names: &[String]) -> TextTable {
+    let mut cols: Vec<(&str, Align)> = vec![("", Align::Left)];
+    for n in names {
         cols.push((n.as_str(), Align::Right));
     }
     let mut t = TextTable::new(&cols);
@@ -108,9 +138,12 @@ fn write_table(w: &mut dyn Write, entries: &[Entry<'_>]) -> io::Result<()> {
         biggest(e).map_or_else(|| "—".into(), |(id, _)| id)
     }));
     t.row(row("violations", &|e| e.run.violations.len().to_string()));
-    t.write(w, "  ")?;
+    t
+}
 
-    // Loss per stage, by id, side by side.
+/// The loss of every stage id found in any design, side by side (a dash where a design has no
+/// stage of that id); `None` when no design has a stage.
+fn stage_loss_table(entries: &[Entry<'_>], names: &[String]) -> Option<TextTable> {
     let mut ids: Vec<&str> = Vec::new();
     for e in entries {
         for s in &e.design.stages {
@@ -119,44 +152,25 @@ fn write_table(w: &mut dyn Write, entries: &[Entry<'_>]) -> io::Result<()> {
             }
         }
     }
-    if !ids.is_empty() {
-        let mut cols: Vec<(&str, Align)> = vec![("stage loss", Align::Left)];
-        for n in &names {
-            cols.push((n.as_str(), Align::Right));
+    if ids.is_empty() {
+        return None;
+    }
+    let mut cols: Vec<(&str, Align)> = vec![("stage loss", Align::Left)];
+    for n in names {
+        cols.push((n.as_str(), Align::Right));
+    }
+    let mut t = TextTable::new(&cols);
+    for id in ids {
+        let mut r = vec![id.to_string()];
+        for e in entries {
+            r.push(e.design.stages.iter().position(|s| s.id == id).map_or_else(
+                || "—".into(),
+                |k| fmt_eng(e.run.ledger.stage_loss_j[k] / 3600.0, "Wh"),
+            ));
         }
-        let mut t = TextTable::new(&cols);
-        for id in ids {
-            let mut r = vec![id.to_string()];
-            for e in entries {
-                r.push(e.design.stages.iter().position(|s| s.id == id).map_or_else(
-                    || "—".into(),
-                    |k| fmt_eng(e.run.ledger.stage_loss_j[k] / 3600.0, "Wh"),
-                ));
-            }
-            t.row(r);
-        }
-        writeln!(w)?;
-        t.write(w, "  ")?;
+        t.row(r);
     }
-    writeln!(w)?;
-    writeln!(w, "in words:")?;
-    for line in verdicts(entries) {
-        for (i, l) in wrap(&line, 94).iter().enumerate() {
-            writeln!(w, "{}{l}", if i == 0 { "- " } else { "  " })?;
-        }
-    }
-    writeln!(w)?;
-    for (i, e) in entries.iter().enumerate() {
-        let found: Vec<String> = warnings(e.design, e.run.ambient_c)
-            .into_iter()
-            .map(|x| format!("in {}, {x}", letter(i)))
-            .collect();
-        write_warnings(w, &found, 96)?;
-    }
-    for line in wrap(&caution_for(entries.iter().map(|e| e.design)), 96) {
-        writeln!(w, "{line}")?;
-    }
-    Ok(())
+    Some(t)
 }
 
 fn biggest(e: &Entry<'_>) -> Option<(String, f64)> {
@@ -172,23 +186,45 @@ pub fn verdicts(entries: &[Entry<'_>]) -> Vec<String> {
     if entries.len() < 2 {
         return out;
     }
-    let name = |i: usize| format!("{} ({})", letter(i), entries[i].label);
-    let best = |key: &dyn Fn(&Entry<'_>) -> f64, high: bool| {
-        (0..entries.len())
-            .max_by(|&a, &b| {
-                let (x, y) = (key(&entries[a]), key(&entries[b]));
-                if high {
-                    x.total_cmp(&y)
-                } else {
-                    y.total_cmp(&x)
-                }
-            })
-            .unwrap_or(0)
-    };
-    // Runtime.
-    let r = best(&|e| e.run.runtime_s(), true);
+    out.push(runtime_verdict(entries));
+    for (i, e) in entries.iter().enumerate() {
+        out.push(format!(
+            "{} stops because {}.",
+            letter(i),
+            end_sentence(e.design, e.run)
+        ));
+    }
+    out.push(heat_verdict(entries));
+    out.push(violation_verdict(entries));
+    out.extend(facts(entries));
+    out
+}
+
+/// How the comparison names design `i`: its letter and label.
+fn entry_name(entries: &[Entry<'_>], i: usize) -> String {
+    format!("{} ({})", letter(i), entries[i].label)
+}
+
+/// The design with the highest `key` when `high`, else the lowest; the last of equal ones, as
+/// `Iterator::max_by` picks.
+fn best(entries: &[Entry<'_>], key: &dyn Fn(&Entry<'_>) -> f64, high: bool) -> usize {
+    (0..entries.len())
+        .max_by(|&a, &b| {
+            let (x, y) = (key(&entries[a]), key(&entries[b]));
+            if high {
+                x.total_cmp(&y)
+            } else {
+                y.total_cmp(&x)
+            }
+        })
+        .unwrap_or(0)
+}
+
+/// Who runs longest, and by how much the others fall short.
+fn runtime_verdict(entries: &[Entry<'_>]) -> String {
+    let r = best(entries, &|e| e.run.runtime_s(), true);
     let runtime = |i: usize| entries[i].run.runtime_s();
-    out.push(ranked(
+    ranked(
         "on runtime",
         r,
         &|i| fmt_duration(runtime(i)),
@@ -199,25 +235,21 @@ pub fn verdicts(entries: &[Entry<'_>]) -> Vec<String> {
                 0.0
             }
         },
-        &name,
+        &|i| entry_name(entries, i),
         &RankWords {
             wins: "wins",
             lead: "lead",
             worse: "shorter",
         },
         entries.len(),
-    ));
-    for (i, e) in entries.iter().enumerate() {
-        out.push(format!(
-            "{} stops because {}.",
-            letter(i),
-            end_sentence(e.design, e.run)
-        ));
-    }
-    // Heat.
-    let h = best(&|e| total_loss(e.run), false);
+    )
+}
+
+/// Who loses least energy in stages and pack, and how much more the others lose.
+fn heat_verdict(entries: &[Entry<'_>]) -> String {
+    let h = best(entries, &|e| total_loss(e.run), false);
     let lost = |i: usize| total_loss(entries[i].run);
-    out.push(ranked(
+    ranked(
         "on heat (energy lost in stages and pack)",
         h,
         &|i| fmt_eng(lost(i) / 3600.0, "Wh"),
@@ -230,52 +262,52 @@ pub fn verdicts(entries: &[Entry<'_>]) -> Vec<String> {
                 0.0
             }
         },
-        &name,
+        &|i| entry_name(entries, i),
         &RankWords {
             wins: "wastes least",
             lead: "waste least",
             worse: "more",
         },
         entries.len(),
-    ));
-    // Violations.
+    )
+}
+
+/// Who has the fewest violations, against the others' counts and kinds.
+fn violation_verdict(entries: &[Entry<'_>]) -> String {
     let counts: Vec<usize> = entries.iter().map(|e| e.run.violations.len()).collect();
     let min = counts.iter().copied().min().unwrap_or(0);
     let fewest: Vec<usize> = (0..entries.len()).filter(|&i| counts[i] == min).collect();
     if fewest.len() == entries.len() {
-        out.push(format!("on violations, they tie with {min} each"));
-    } else {
-        let kinds = |i: usize| {
-            let mut k: Vec<&str> = entries[i]
-                .run
-                .violations
-                .iter()
-                .map(|v| v.kind.name())
-                .collect();
-            k.dedup();
-            k.join(", ")
-        };
-        let worse: Vec<String> = (0..entries.len())
-            .filter(|i| !fewest.contains(i))
-            .map(|i| format!("{} in {} ({})", counts[i], letter(i), kinds(i)))
-            .collect();
-        out.push(format!(
-            "on violations, {} {} fewest: {min} against {}",
-            fewest
-                .iter()
-                .map(|&i| name(i))
-                .collect::<Vec<_>>()
-                .join(" and "),
-            if fewest.len() == 1 {
-                "has the"
-            } else {
-                "have the"
-            },
-            worse.join(", ")
-        ));
+        return format!("on violations, they tie with {min} each");
     }
-    out.extend(facts(entries));
-    out
+    let kinds = |i: usize| {
+        let mut k: Vec<&str> = entries[i]
+            .run
+            .violations
+            .iter()
+            .map(|v| v.kind.name())
+            .collect();
+        k.dedup();
+        k.join(", ")
+    };
+    let worse: Vec<String> = (0..entries.len())
+        .filter(|i| !fewest.contains(i))
+        .map(|i| format!("{} in {} ({})", counts[i], letter(i), kinds(i)))
+        .collect();
+    format!(
+        "on violations, {} {} fewest: {min} against {}",
+        fewest
+            .iter()
+            .map(|&i| entry_name(entries, i))
+            .collect::<Vec<_>>()
+            .join(" and "),
+        if fewest.len() == 1 {
+            "has the"
+        } else {
+            "have the"
+        },
+        worse.join(", ")
+    )
 }
 
 /// The verbs of a ranking: one design ahead, or several equal at the head.

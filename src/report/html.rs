@@ -175,8 +175,29 @@ pub fn write_html_with_spread(
     run: &RunResult,
     spread: Option<Result<&Spread, &str>>,
 ) -> io::Result<()> {
-    let d = design;
-    let r = run;
+    let (d, r) = (design, run);
+    write_head(w, d, r, spread.is_some())?;
+    runtime_section(w, d, r)?;
+    pictures_section(w, d, modes, r)?;
+    match spread {
+        Some(Ok(sp)) => spread_section(w, d, sp)?,
+        Some(Err(why)) => writeln!(
+            w,
+            "<section id=\"spread\">\n<h2>Spread across units</h2>\n<p class=\"note\">The spread over the design's tolerances did not run: {}.</p>\n</section>",
+            prose(why)
+        )?,
+        None => {}
+    }
+    heat_section(w, d, r)?;
+    violations_section(w, d, r)?;
+    budget_section(w, d, modes, soc)?;
+    tree_and_caution(w, d, r)?;
+    writeln!(w, "</body>\n</html>")
+}
+
+/// The page's head and its header: title, the pack in a line, and the contents (with the
+/// spread when `with_spread`).
+fn write_head(w: &mut dyn Write, d: &Design, r: &RunResult, with_spread: bool) -> io::Result<()> {
     writeln!(
         w,
         "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">"
@@ -200,7 +221,7 @@ pub fn write_html_with_spread(
         esc(&fmt_celsius(r.ambient_c)),
         env!("CARGO_PKG_VERSION")
     )?;
-    let spread_link = if spread.is_some() {
+    let spread_link = if with_spread {
         "<li><a href=\"#spread\">Spread</a></li>"
     } else {
         ""
@@ -210,8 +231,16 @@ pub fn write_html_with_spread(
         "<nav><ol><li><a href=\"#runtime\">Runtime</a></li><li><a href=\"#pictures\">Pictures</a></li>{spread_link}<li><a href=\"#heat\">Heat</a></li><li><a href=\"#violations\">Violations</a></li><li><a href=\"#budget\">Budget</a></li><li><a href=\"#tree\">Power tree</a></li><li><a href=\"#caution\">Caution</a></li></ol></nav>\n</header>"
     )?;
 
-    runtime_section(w, d, r)?;
+    Ok(())
+}
 
+/// The pictures: the discharge, the losses and, when a stage switches, the efficiency.
+fn pictures_section(
+    w: &mut dyn Write,
+    d: &Design,
+    modes: &[ModeBudget],
+    r: &RunResult,
+) -> io::Result<()> {
     writeln!(w, "<section id=\"pictures\">\n<h2>Pictures</h2>")?;
     figure(
         w,
@@ -234,20 +263,11 @@ pub fn write_html_with_spread(
         )?;
     }
     writeln!(w, "</section>")?;
+    Ok(())
+}
 
-    match spread {
-        Some(Ok(sp)) => spread_section(w, d, sp)?,
-        Some(Err(why)) => writeln!(
-            w,
-            "<section id=\"spread\">\n<h2>Spread across units</h2>\n<p class=\"note\">The spread over the design's tolerances did not run: {}.</p>\n</section>",
-            prose(why)
-        )?,
-        None => {}
-    }
-    heat_section(w, d, r)?;
-    violations_section(w, d, r)?;
-    budget_section(w, d, modes, soc)?;
-
+/// The power tree as `check` prints it, then the warnings and the caution.
+fn tree_and_caution(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<()> {
     let mut outline = Vec::new();
     write_outline(&mut outline, d)?;
     writeln!(
@@ -267,7 +287,7 @@ pub fn write_html_with_spread(
         "<p class=\"caution\">{}</p>\n</section>",
         esc(&caution_for([d]))
     )?;
-    writeln!(w, "</body>\n</html>")
+    Ok(())
 }
 
 fn runtime_section(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<()> {
@@ -533,13 +553,44 @@ fn short(duration: &str) -> &str {
 /// reaching the target, why units stop, what moves the runtime, and the two pictures.
 fn spread_section(w: &mut dyn Write, d: &Design, sp: &Spread) -> io::Result<()> {
     let n = sp.samples.len();
-    let s = &sp.summary;
     writeln!(w, "<section id=\"spread\">\n<h2>Spread across units</h2>")?;
     writeln!(
         w,
         "<p class=\"lead\">{}.</p>",
         prose(&capitalise(&spread_sentence(sp)))
     )?;
+    spread_runtimes(w, sp)?;
+    figure(
+        w,
+        plot::spread_histogram(d, sp, PlotFormat::Svg, PICTURE),
+        "runtime histogram",
+        "Runtimes of the simulated units, stacked by why each stops, with the 5th, 50th and 95th percentiles and the target.",
+    )?;
+    writeln!(
+        w,
+        "<h3>What moves the runtime</h3>\n<p>Each value at its low and at its high bound, the others as designed; largest swing first.</p>"
+    )?;
+    swing_table(w, d, sp)?;
+    figure(
+        w,
+        plot::spread_tornado(d, sp, PlotFormat::Svg, PICTURE),
+        "tornado chart",
+        "Runtime with each varied value at its low and at its high bound, around the runtime as designed.",
+    )?;
+    writeln!(
+        w,
+        "<p class=\"note\">{n} simulated units, seed {}, {} values varied; each unit draws every value from its spread and runs the whole discharge.</p>",
+        sp.options.seed,
+        sp.tolerances.len()
+    )?;
+    writeln!(w, "</section>")
+}
+
+/// The spread's runtime percentiles and the run as designed, the share reaching the target,
+/// and why units stop.
+fn spread_runtimes(w: &mut dyn Write, sp: &Spread) -> io::Result<()> {
+    let n = sp.samples.len();
+    let s = &sp.summary;
     let (nominal_t, nominal_end) = run_text(&sp.nominal);
     let mut rows: Vec<Vec<String>> = s
         .named()
@@ -570,16 +621,12 @@ fn spread_section(w: &mut dyn Write, d: &Design, sp: &Spread) -> io::Result<()> 
         let _ = write!(why, "; {} runs gave no result", sp.failed);
     }
     writeln!(w, "<p>{}.</p>", esc(&why))?;
-    figure(
-        w,
-        plot::spread_histogram(d, sp, PlotFormat::Svg, PICTURE),
-        "runtime histogram",
-        "Runtimes of the simulated units, stacked by why each stops, with the 5th, 50th and 95th percentiles and the target.",
-    )?;
-    writeln!(
-        w,
-        "<h3>What moves the runtime</h3>\n<p>Each value at its low and at its high bound, the others as designed; largest swing first.</p>"
-    )?;
+    Ok(())
+}
+
+/// One row per varied value: its value as designed and at its bounds, the runtime at each
+/// bound, the swing and the rank correlation.
+fn swing_table(w: &mut dyn Write, d: &Design, sp: &Spread) -> io::Result<()> {
     let swing_rows: Vec<Vec<String>> = sp
         .swings
         .iter()
@@ -620,18 +667,5 @@ fn spread_section(w: &mut dyn Write, d: &Design, sp: &Spread) -> io::Result<()> 
             "#rank corr.",
         ],
         &swing_rows,
-    )?;
-    figure(
-        w,
-        plot::spread_tornado(d, sp, PlotFormat::Svg, PICTURE),
-        "tornado chart",
-        "Runtime with each varied value at its low and at its high bound, around the runtime as designed.",
-    )?;
-    writeln!(
-        w,
-        "<p class=\"note\">{n} simulated units, seed {}, {} values varied; each unit draws every value from its spread and runs the whole discharge.</p>",
-        sp.options.seed,
-        sp.tolerances.len()
-    )?;
-    writeln!(w, "</section>")
+    )
 }

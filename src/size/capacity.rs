@@ -120,43 +120,12 @@ pub fn least_capacity(
     };
     let meets =
         |r: &Result<CandidateRun, String>| r.as_ref().is_ok_and(|r| r.runtime_s >= opts.target_s);
-    let first = try_at(given, &mut out);
-    let (mut lo, mut hi, mut best) = if meets(&first) {
-        (0.0, given, first.ok())
-    } else {
-        let mut lo = given;
-        let mut last = first;
-        let mut found = None;
-        for k in 1..=MAX_DOUBLINGS {
-            let hi = given * f64::from(1u32 << k);
-            if hi > MAX_CAPACITY_C {
-                break;
-            }
-            let r = try_at(hi, &mut out);
-            if meets(&r) {
-                found = Some((hi, r.ok()));
-                break;
-            }
-            lo = hi;
-            last = r;
-        }
-        let Some((hi, run)) = found else {
-            out.note = Some(match last {
-                Ok(r) => format!(
-                    "even {} per cell ({} times the given capacity) runs only {}, ending by {}: the capacity is not what limits this pack",
-                    fmt_eng(lo / 3600.0, "Ah"),
-                    fmt_ratio(lo / given),
-                    fmt_duration(r.runtime_s),
-                    end_words(r.end)
-                ),
-                Err(m) => format!(
-                    "no capacity up to {} gives a run: {m}",
-                    fmt_eng(lo / 3600.0, "Ah")
-                ),
-            });
+    let (mut lo, mut hi, mut best) = match bracket(given, &mut try_at, &meets, &mut out) {
+        Ok(b) => b,
+        Err(note) => {
+            out.note = Some(note);
             return out;
-        };
-        (lo, hi, run)
+        }
     };
     while hi - lo > REL_TOL * hi && out.iterations < MAX_ITERATIONS {
         let mid = 0.5 * (lo + hi);
@@ -172,6 +141,51 @@ pub fn least_capacity(
     out.needed_c = Some(hi);
     out.run = best;
     out
+}
+
+/// A run at one capacity, C: its result, or why there is none.
+type TryAt<'a> = dyn FnMut(f64, &mut CapacitySearch) -> Result<CandidateRun, String> + 'a;
+
+/// Capacities `(lo, hi)` that fail and meet the target, from the `given` one doubled until one
+/// meets it (`lo` 0 when the given one does), with the run at `hi`; else the note on why no
+/// capacity up to the largest tried does.
+fn bracket(
+    given: f64,
+    try_at: &mut TryAt<'_>,
+    meets: &dyn Fn(&Result<CandidateRun, String>) -> bool,
+    out: &mut CapacitySearch,
+) -> Result<(f64, f64, Option<CandidateRun>), String> {
+    let first = try_at(given, out);
+    if meets(&first) {
+        return Ok((0.0, given, first.ok()));
+    }
+    let mut lo = given;
+    let mut last = first;
+    for k in 1..=MAX_DOUBLINGS {
+        let hi = given * f64::from(1u32 << k);
+        if hi > MAX_CAPACITY_C {
+            break;
+        }
+        let r = try_at(hi, out);
+        if meets(&r) {
+            return Ok((lo, hi, r.ok()));
+        }
+        lo = hi;
+        last = r;
+    }
+    Err(match last {
+        Ok(r) => format!(
+            "even {} per cell ({} times the given capacity) runs only {}, ending by {}: the capacity is not what limits this pack",
+            fmt_eng(lo / 3600.0, "Ah"),
+            fmt_ratio(lo / given),
+            fmt_duration(r.runtime_s),
+            end_words(r.end)
+        ),
+        Err(m) => format!(
+            "no capacity up to {} gives a run: {m}",
+            fmt_eng(lo / 3600.0, "Ah")
+        ),
+    })
 }
 
 fn fmt_ratio(x: f64) -> String {

@@ -337,42 +337,13 @@ pub fn size_observed(
     for (cell, origin) in &cells {
         for series in s0..=s1 {
             for parallel in p0..=p1 {
-                let mut c = Candidate {
-                    cell: cell.clone(),
-                    origin: *origin,
-                    chemistry: None,
-                    series,
-                    parallel,
-                    mass_kg: None,
-                    volume_m3: None,
-                    cell_size: None,
-                    charge_c: None,
-                    energy_j: None,
-                    outcome: Outcome::Refused(String::new()),
-                };
-                let s = with_pack(spec, cell, *origin, series, parallel);
-                c.outcome = match Design::from_spec(&s, source) {
-                    Err(e) => Outcome::Refused(short(
-                        e.diagnostics()
-                            .first()
-                            .map_or("refused by the checker", |d| d.message()),
-                    )),
-                    Ok(d) => {
-                        fill_pack(&mut c, &d);
-                        for w in crate::report::warnings(&d, ambient_c) {
-                            if !warnings.contains(&w) {
-                                warnings.push(w);
-                            }
-                        }
-                        match fit_problem(&d) {
-                            Some(m) => Outcome::Refused(m),
-                            None => match candidate_runtime(&d, opts) {
-                                Ok(r) => Outcome::Ran(r),
-                                Err(e) => Outcome::NoResult(short(&e.to_string())),
-                            },
-                        }
-                    }
-                };
+                let c = evaluate(
+                    (spec, source, opts),
+                    (cell, *origin),
+                    (series, parallel),
+                    ambient_c,
+                    &mut warnings,
+                );
                 candidates.push(c);
                 done += 1;
                 progress(done, total);
@@ -398,6 +369,55 @@ pub fn size_observed(
         capacity: searches,
         warnings,
     })
+}
+
+/// Candidate `cell` (from `origin`) in `series` and `parallel`: its pack's mass, size and
+/// ratings, and its run, or why the checker refused it; the warnings about its design are
+/// added to `warnings` (each once).
+fn evaluate(
+    (spec, source, opts): (&DesignSpec, &SourceMap, &SizeOptions),
+    (cell, origin): (&str, CellOrigin),
+    (series, parallel): (u32, u32),
+    ambient_c: f64,
+    warnings: &mut Vec<String>,
+) -> Candidate {
+    let mut c = Candidate {
+        cell: cell.to_string(),
+        origin,
+        chemistry: None,
+        series,
+        parallel,
+        mass_kg: None,
+        volume_m3: None,
+        cell_size: None,
+        charge_c: None,
+        energy_j: None,
+        outcome: Outcome::Refused(String::new()),
+    };
+    let s = with_pack(spec, cell, origin, series, parallel);
+    c.outcome = match Design::from_spec(&s, source) {
+        Err(e) => Outcome::Refused(short(
+            e.diagnostics()
+                .first()
+                .map_or("refused by the checker", |d| d.message()),
+        )),
+        Ok(d) => {
+            fill_pack(&mut c, &d);
+            for w in crate::report::warnings(&d, ambient_c) {
+                if !warnings.contains(&w) {
+                    warnings.push(w);
+                }
+            }
+            match fit_problem(&d) {
+                Some(m) => Outcome::Refused(m),
+                None => match candidate_runtime(&d, opts) {
+                    Ok(r) => Outcome::Ran(r),
+                    Err(e) => Outcome::NoResult(short(&e.to_string())),
+                },
+            }
+        }
+    };
+    c
 }
 
 /// A candidate refused by the checker still shows its cell's mass, size and ratings when

@@ -161,27 +161,51 @@ pub fn violations_where(
     ambient_c: f64,
     keep: &dyn Fn(ViolationKind, &str) -> bool,
 ) -> Vec<Violation> {
-    let mode = &design.modes[p.mode];
-    let mut out = Vec::new();
-    let mut push = |kind, subject: &str, excess: &dyn Fn() -> Excess| {
-        if keep(kind, subject) {
-            out.push(Violation {
+    let mut found = Found {
+        keep,
+        mode: &design.modes[p.mode].name,
+        out: Vec::new(),
+    };
+    pack_violations(design, p, &mut found);
+    stage_violations(design, p, ambient_c, &mut found);
+    rail_violations(design, p, &mut found);
+    found.out
+}
+
+/// The violations gathered at one operating point, and which of them are wanted.
+struct Found<'a> {
+    /// Whether a violation of this kind on this subject is wanted.
+    keep: &'a dyn Fn(ViolationKind, &str) -> bool,
+    /// The name of the point's mode.
+    mode: &'a str,
+    /// The wanted violations found so far.
+    out: Vec<Violation>,
+}
+
+impl Found<'_> {
+    /// Record a violation of `kind` on `subject` if it is wanted; `excess` describes it only then.
+    fn push(&mut self, kind: ViolationKind, subject: &str, excess: &dyn Fn() -> Excess) {
+        if (self.keep)(kind, subject) {
+            self.out.push(Violation {
                 kind,
                 subject: subject.to_string(),
-                mode: mode.name.clone(),
+                mode: self.mode.to_string(),
                 t_s: None,
                 excess: excess(),
             });
         }
-    };
-    // A mode held no longer than the cell's pulse length is judged against the pulse limit;
-    // any other against the continuous limit.
+    }
+}
+
+/// The pack's current against its limits. A mode held no longer than the cell's pulse length
+/// is judged against the pulse limit; any other against the continuous limit.
+fn pack_violations(design: &Design, p: &OperatingPoint, found: &mut Found<'_>) {
     let i = p.pack.current;
-    let hold = mode.longest_hold_s;
+    let hold = design.modes[p.mode].longest_hold_s;
     match design.pack.max_pulse() {
         Some((max, length)) if hold <= length => {
             if i > max {
-                push(ViolationKind::PackPulseOvercurrent, "battery", &|| {
+                found.push(ViolationKind::PackPulseOvercurrent, "battery", &|| {
                     Excess::PulseCurrent {
                         current_a: i,
                         hold_s: hold,
@@ -193,7 +217,7 @@ pub fn violations_where(
         pulse => {
             if let Some(max) = design.pack.max_current_a() {
                 if i > max {
-                    push(ViolationKind::PackOvercurrent, "battery", &|| {
+                    found.push(ViolationKind::PackOvercurrent, "battery", &|| {
                         Excess::ContinuousCurrent {
                             current_a: i,
                             limit_a: max,
@@ -207,11 +231,16 @@ pub fn violations_where(
             }
         }
     }
+}
+
+/// Each stage's output current, efficiency table, input voltage and junction temperature
+/// against their limits.
+fn stage_violations(design: &Design, p: &OperatingPoint, ambient_c: f64, found: &mut Found<'_>) {
     for (k, (st, sp)) in design.stages.iter().zip(&p.stages).enumerate() {
         if sp.state.is_running() {
             if let Some(max) = st.max_output_current {
                 if sp.iout > max {
-                    push(ViolationKind::StageOvercurrent, &st.id, &|| {
+                    found.push(ViolationKind::StageOvercurrent, &st.id, &|| {
                         Excess::StageCurrent {
                             stage: k,
                             current_a: sp.iout,
@@ -224,7 +253,7 @@ pub fn violations_where(
                 && sp.state == super::StageState::Regulating
                 && st.loss.extrapolated(sp.iout)
             {
-                push(ViolationKind::TableExtrapolated, &st.id, &|| {
+                found.push(ViolationKind::TableExtrapolated, &st.id, &|| {
                     Excess::BeyondTable {
                         stage: k,
                         current_a: sp.iout,
@@ -236,7 +265,7 @@ pub fn violations_where(
         if input_live {
             if let Some(max) = st.input_max {
                 if sp.vin > max {
-                    push(ViolationKind::Overvoltage, &st.id, &|| {
+                    found.push(ViolationKind::Overvoltage, &st.id, &|| {
                         Excess::InputVoltage {
                             stage: k,
                             voltage_v: sp.vin,
@@ -248,7 +277,7 @@ pub fn violations_where(
         }
         if let Some(tj) = junction_c(design, k, sp.loss, ambient_c) {
             if tj > st.tj_max {
-                push(ViolationKind::JunctionHot, &st.id, &|| Excess::Junction {
+                found.push(ViolationKind::JunctionHot, &st.id, &|| Excess::Junction {
                     stage: k,
                     loss_w: sp.loss,
                     junction_c: tj,
@@ -257,6 +286,12 @@ pub fn violations_where(
             }
         }
     }
+}
+
+/// Each load's supply: a live rail above the load's maximum, or a load drawing on a rail
+/// that is off.
+fn rail_violations(design: &Design, p: &OperatingPoint, found: &mut Found<'_>) {
+    let mode = &design.modes[p.mode];
     for (rail, subject) in (0..design.tree.rails()).map(|r| (r, design.rail_name(r).to_string())) {
         let live = rail == 0 || p.stages[rail - 1].state.is_running();
         let v = if rail == 0 {
@@ -269,7 +304,7 @@ pub fn violations_where(
             if live {
                 if let Some(max) = load.v_max {
                     if v > max {
-                        push(ViolationKind::RailHigh, &subject, &|| Excess::RailVoltage {
+                        found.push(ViolationKind::RailHigh, &subject, &|| Excess::RailVoltage {
                             rail,
                             voltage_v: v,
                             limit_v: max,
@@ -279,7 +314,7 @@ pub fn violations_where(
                 }
             } else if let Some(s) = mode.load_states[l] {
                 if load.states[s].1.is_drawing() {
-                    push(ViolationKind::OffRailDraw, &load.id, &|| Excess::OffRail {
+                    found.push(ViolationKind::OffRailDraw, &load.id, &|| Excess::OffRail {
                         rail,
                         load: l,
                         state: s,
@@ -288,5 +323,4 @@ pub fn violations_where(
             }
         }
     }
-    out
 }

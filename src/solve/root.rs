@@ -48,35 +48,10 @@ fn finite_or_inf(x: f64) -> f64 {
 /// (The worked case of a constant-power load is the unit test `constant_power_on_a_resistive_source`.)
 pub fn settle(v_open: f64, r: f64, demand: &mut dyn FnMut(f64) -> f64) -> Settle {
     let mut f = |v: f64| finite_or_inf(demand(v));
-    if v_open.is_nan() || v_open <= 0.0 {
-        let i = f(0.0);
-        return if i == 0.0 {
-            Settle::Point {
-                v_a: 0.0,
-                v_b: 0.0,
-                alpha: 1.0,
-                current: 0.0,
-            }
-        } else {
-            Settle::Collapse
-        };
-    }
-    let f_top = f(v_open);
-    if r <= 0.0 || f_top == 0.0 {
-        return if f_top.is_finite() {
-            Settle::Point {
-                v_a: v_open,
-                v_b: v_open,
-                alpha: 1.0,
-                current: f_top,
-            }
-        } else {
-            Settle::Collapse
-        };
-    }
-    if !f_top.is_finite() {
-        return Settle::Collapse;
-    }
+    let f_top = match settled_at_once(v_open, r, &mut f) {
+        Ok(f_top) => f_top,
+        Err(settled) => return settled,
+    };
     let g = |v: f64, fv: f64| (v_open - v) / r - fv;
     // Fixed-point iteration on the current from the no-sag guess: for a demand that rises as the
     // voltage falls it climbs monotonically to the lowest-current balance without passing it.
@@ -126,15 +101,58 @@ pub fn settle(v_open: f64, r: f64, demand: &mut dyn FnMut(f64) -> f64) -> Settle
         }
         i = fv;
     }
-    // Slow or no convergence (near the power limit, or a demand that falls with voltage): scan
-    // down from the last voltage known to be above the balance.
+    // Slow or no convergence (near the power limit, or a demand that falls with voltage).
+    scan_down(v_open, r, &mut f, v_upper)
+}
+
+/// The cases settled without a search: a source with no voltage (a point at 0 V when nothing
+/// is drawn, else a collapse), a source with no resistance or a load drawing nothing at
+/// `v_open`, and a demand with no finite value there. Otherwise `Ok` with the demand at
+/// `v_open`.
+fn settled_at_once(v_open: f64, r: f64, f: &mut dyn FnMut(f64) -> f64) -> Result<f64, Settle> {
+    if v_open.is_nan() || v_open <= 0.0 {
+        let i = f(0.0);
+        return Err(if i == 0.0 {
+            Settle::Point {
+                v_a: 0.0,
+                v_b: 0.0,
+                alpha: 1.0,
+                current: 0.0,
+            }
+        } else {
+            Settle::Collapse
+        });
+    }
+    let f_top = f(v_open);
+    if r <= 0.0 || f_top == 0.0 {
+        return Err(if f_top.is_finite() {
+            Settle::Point {
+                v_a: v_open,
+                v_b: v_open,
+                alpha: 1.0,
+                current: f_top,
+            }
+        } else {
+            Settle::Collapse
+        });
+    }
+    if !f_top.is_finite() {
+        return Err(Settle::Collapse);
+    }
+    Ok(f_top)
+}
+
+/// Scan down from `v_upper`, a voltage known to be above the balance, in [`SCAN_STEPS`] steps,
+/// and bisect the first step that crosses it; a collapse when none does.
+fn scan_down(v_open: f64, r: f64, f: &mut dyn FnMut(f64) -> f64, v_upper: f64) -> Settle {
+    let g = |v: f64, fv: f64| (v_open - v) / r - fv;
     let step = v_upper / SCAN_STEPS as f64;
     let mut prev = v_upper;
     for j in 1..SCAN_STEPS {
         let v = v_upper - step * j as f64;
         let fv = f(v);
         if g(v, fv) >= 0.0 {
-            return bisect(v_open, r, &mut f, v, prev);
+            return bisect(v_open, r, f, v, prev);
         }
         prev = v;
     }

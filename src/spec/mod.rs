@@ -293,39 +293,7 @@ impl Reader<'_> {
             );
             return None;
         };
-        let mut sections: IndexMap<String, &Node<'_>> = IndexMap::new();
-        for (k, v) in map {
-            let Some(key) = k.as_str().map(str::to_string) else {
-                self.push(
-                    "",
-                    format!("a top-level key must be a name, found {}", k.describe()),
-                    Some(format!("the top-level keys are {}", backticked(&TOP_KEYS))),
-                );
-                continue;
-            };
-            if !TOP_KEYS.contains(&key.as_str()) {
-                let hint = match did_you_mean(&key, TOP_KEYS.iter().copied()) {
-                    Some(s) => {
-                        // The section meant is as good as missing.
-                        self.broken.push(s.to_string());
-                        format!("did you mean `{s}`?")
-                    }
-                    None => format!("the top-level keys are {}", backticked(&TOP_KEYS)),
-                };
-                let location = self.source.key(&key);
-                self.diags.push(
-                    Diagnostic::of(
-                        crate::error::DiagnosticKind::UnknownKey,
-                        key.clone(),
-                        format!("unknown key `{key}`"),
-                    )
-                    .with_hint(hint)
-                    .at(location),
-                );
-                continue;
-            }
-            sections.insert(key, v);
-        }
+        let mut sections = self.top_sections(map);
         let design = match sections.shift_remove("design") {
             Some(v) if !v.is_null() => self.part::<String>("design", v),
             _ => None,
@@ -374,6 +342,48 @@ impl Reader<'_> {
             profile,
             tolerances,
         })
+    }
+
+    /// The top-level sections of the design by key, in file order; a key that is not a name
+    /// or not a section is reported and left out.
+    fn top_sections<'n>(
+        &mut self,
+        map: &'n [(Node<'n>, Node<'n>)],
+    ) -> IndexMap<String, &'n Node<'n>> {
+        let mut sections: IndexMap<String, &Node<'_>> = IndexMap::new();
+        for (k, v) in map {
+            let Some(key) = k.as_str().map(str::to_string) else {
+                self.push(
+                    "",
+                    format!("a top-level key must be a name, found {}", k.describe()),
+                    Some(format!("the top-level keys are {}", backticked(&TOP_KEYS))),
+                );
+                continue;
+            };
+            if !TOP_KEYS.contains(&key.as_str()) {
+                let hint = match did_you_mean(&key, TOP_KEYS.iter().copied()) {
+                    Some(s) => {
+                        // The section meant is as good as missing.
+                        self.broken.push(s.to_string());
+                        format!("did you mean `{s}`?")
+                    }
+                    None => format!("the top-level keys are {}", backticked(&TOP_KEYS)),
+                };
+                let location = self.source.key(&key);
+                self.diags.push(
+                    Diagnostic::of(
+                        crate::error::DiagnosticKind::UnknownKey,
+                        key.clone(),
+                        format!("unknown key `{key}`"),
+                    )
+                    .with_hint(hint)
+                    .at(location),
+                );
+                continue;
+            }
+            sections.insert(key, v);
+        }
+        sections
     }
 
     fn list_section<T: DeserializeOwned>(

@@ -56,21 +56,7 @@ const OPTIONAL_BLOCKS: [&str; 4] = ["aging", "buffer", "polarization", "loss"];
 /// `stages[2].efficiency`), which the checker's messages use. The value put in has no place in
 /// the file.
 pub(crate) fn apply(root: &mut Node<'_>, o: &Override) -> Result<String, Diagnostic> {
-    if super::depth::check(&o.value).is_some() {
-        return Err(Diagnostic::new(
-            format!("--set {}", o.path),
-            format!(
-                "the value is nested too deep: more than {} levels of lists and mappings",
-                super::depth::MAX_DEPTH
-            ),
-        )
-        .with_hint("give a plain value such as `90 mA` or a short list such as `[1 V, 3 V]`"));
-    }
-    // A value that is not YAML on its own (`a: b: c`) is taken as text.
-    let value = super::yaml::read(&o.value).map_or_else(
-        |_| Node::detached(Kind::Str(Cow::Owned(o.value.clone()))),
-        |v| v.detach(),
-    );
+    let value = override_value(o)?;
     let fail = |msg: String, hint: Option<String>| {
         Diagnostic::new(format!("--set {}", o.path), msg).with_hint_opt(hint)
     };
@@ -124,24 +110,7 @@ pub(crate) fn apply(root: &mut Node<'_>, o: &Override) -> Result<String, Diagnos
                 node = &mut map[at].1;
             }
             Kind::Seq(items) => {
-                let id = |it: &Node<'_>| it.get("id").and_then(Node::as_str).map(str::to_string);
-                let by_id = items.iter().position(|it| id(it).as_deref() == Some(*seg));
-                let pos = by_id.or_else(|| seg.parse::<usize>().ok().filter(|&i| i < items.len()));
-                let Some(i) = pos else {
-                    let ids: Vec<String> = items.iter().filter_map(id).collect();
-                    let hint = match did_you_mean(seg, ids.iter().map(String::as_str)) {
-                        Some(s) => format!("did you mean `{s}`?"),
-                        None if ids.is_empty() => format!(
-                            "address items by position, 0 to {}",
-                            items.len().saturating_sub(1)
-                        ),
-                        None => format!("the ids here are {}", super::backticked(&ids)),
-                    };
-                    return Err(fail(
-                        format!("no item `{seg}` in `{}`", prefix(&segments, n)),
-                        Some(hint),
-                    ));
-                };
+                let i = item_index(items, (&segments, n), &fail)?;
                 index_path = format!("{index_path}[{i}]");
                 node = &mut items[i];
             }
@@ -158,6 +127,53 @@ pub(crate) fn apply(root: &mut Node<'_>, o: &Override) -> Result<String, Diagnos
     }
     *node = value;
     Ok(index_path)
+}
+
+/// The value of `o` as a document node: its YAML, or the text itself when it is not YAML on
+/// its own (`a: b: c`); an error when it is nested too deep.
+fn override_value(o: &Override) -> Result<Node<'static>, Diagnostic> {
+    if super::depth::check(&o.value).is_some() {
+        return Err(Diagnostic::new(
+            format!("--set {}", o.path),
+            format!(
+                "the value is nested too deep: more than {} levels of lists and mappings",
+                super::depth::MAX_DEPTH
+            ),
+        )
+        .with_hint("give a plain value such as `90 mA` or a short list such as `[1 V, 3 V]`"));
+    }
+    Ok(super::yaml::read(&o.value).map_or_else(
+        |_| Node::detached(Kind::Str(Cow::Owned(o.value.clone()))),
+        |v| v.detach(),
+    ))
+}
+
+/// The position in `items` of path segment `n` of `segments`: the item with that `id`, else
+/// the item at that index; an error naming the ids (or the positions) when there is none.
+fn item_index(
+    items: &[Node<'_>],
+    (segments, n): (&[&str], usize),
+    fail: &dyn Fn(String, Option<String>) -> Diagnostic,
+) -> Result<usize, Diagnostic> {
+    let seg = segments[n];
+    let id = |it: &Node<'_>| it.get("id").and_then(Node::as_str).map(str::to_string);
+    let by_id = items.iter().position(|it| id(it).as_deref() == Some(seg));
+    let pos = by_id.or_else(|| seg.parse::<usize>().ok().filter(|&i| i < items.len()));
+    pos.ok_or_else(|| {
+        let ids: Vec<String> = items.iter().filter_map(id).collect();
+        let hint = match did_you_mean(seg, ids.iter().map(String::as_str)) {
+            Some(s) => format!("did you mean `{s}`?"),
+            None if ids.is_empty() => format!(
+                "address items by position, 0 to {}",
+                items.len().saturating_sub(1)
+            ),
+            None => format!("the ids here are {}", super::backticked(&ids)),
+        };
+        fail(
+            format!("no item `{seg}` in `{}`", prefix(segments, n)),
+            Some(hint),
+        )
+    })
 }
 
 fn unknown(

@@ -111,8 +111,20 @@ pub fn parse_quantity(text: &str, expected: &[Dim]) -> Result<Quantity, UnitErro
             number: number_text.to_string(),
         });
     }
+    with_unit(text, (number, number_text), &unit, expected)
+}
+
+/// The quantity `number` (written `number_text`) in `unit`, of one of the `expected` kinds
+/// (any if empty); `text` is the whole value as written, for messages.
+fn with_unit(
+    text: &str,
+    (number, number_text): (f64, &str),
+    unit: &str,
+    expected: &[Dim],
+) -> Result<Quantity, UnitError> {
+    let expected_vec = || expected.to_vec();
     let accepts = |dim: Dim| expected.is_empty() || expected.contains(&dim);
-    match lookup(&unit) {
+    match lookup(unit) {
         Lookup::Found(def, exp) => {
             if !accepts(def.dim) {
                 return Err(UnitError::WrongDimension {
@@ -125,7 +137,9 @@ pub fn parse_quantity(text: &str, expected: &[Dim]) -> Result<Quantity, UnitErro
             if value.is_finite() {
                 Ok(Quantity::new(value, def.dim))
             } else {
-                Err(not_finite())
+                Err(UnitError::NotFinite {
+                    text: text.to_string(),
+                })
             }
         }
         Lookup::NoPrefix(prefix, def) if accepts(def.dim) => Err(UnitError::PrefixNotAllowed {
@@ -137,8 +151,8 @@ pub fn parse_quantity(text: &str, expected: &[Dim]) -> Result<Quantity, UnitErro
         Lookup::NoPrefix(..) | Lookup::Unknown => Err(UnitError::UnknownUnit {
             text: text.to_string(),
             number: number_text.to_string(),
-            suggestion: suggest(&unit, expected),
-            unit: unit.into_owned(),
+            suggestion: suggest(unit, expected),
+            unit: unit.to_string(),
             expected: expected_vec(),
         }),
     }

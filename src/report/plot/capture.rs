@@ -58,6 +58,32 @@ fn current_unit(peak: f64) -> (&'static str, f64) {
     }
 }
 
+/// The lowest and highest sample of capture `c` in each of `cols` columns of time, in time
+/// order, as points on axes scaled by `tk` (time) and `ik` (current).
+fn envelope(c: &Capture, cols: usize, tk: f64, ik: f64) -> Vec<(f64, f64)> {
+    let span = c.duration_s();
+    let mut lo = vec![f64::INFINITY; cols];
+    let mut hi = vec![f64::NEG_INFINITY; cols];
+    let mut t = 0.0;
+    for (&i, &d) in c.current().iter().zip(c.dt()) {
+        let k = (((t / span) * cols as f64) as usize).min(cols - 1);
+        lo[k] = lo[k].min(i);
+        hi[k] = hi[k].max(i);
+        t += d;
+    }
+    let mut pts = Vec::with_capacity(2 * cols);
+    for k in 0..cols {
+        if lo[k].is_finite() {
+            let x = (k as f64 + 0.5) / cols as f64 * span * tk;
+            pts.push((x, lo[k] * ik));
+            if hi[k] > lo[k] {
+                pts.push((x, hi[k] * ik));
+            }
+        }
+    }
+    pts
+}
+
 impl Painter for Picture<'_> {
     fn paint<DB: DrawingBackend>(&self, root: &Canvas<DB>) -> Result<(), PlotError>
     where
@@ -113,27 +139,7 @@ impl Painter for Picture<'_> {
             .axis_desc_style(("sans-serif", ty.axis))
             .label_style(("sans-serif", ty.body))
             .draw()?;
-        // The lowest and highest sample in each of about 2 x width columns, in time order.
-        let cols = (2 * w as usize).max(1);
-        let mut lo = vec![f64::INFINITY; cols];
-        let mut hi = vec![f64::NEG_INFINITY; cols];
-        let mut t = 0.0;
-        for (&i, &d) in c.current().iter().zip(c.dt()) {
-            let k = (((t / span) * cols as f64) as usize).min(cols - 1);
-            lo[k] = lo[k].min(i);
-            hi[k] = hi[k].max(i);
-            t += d;
-        }
-        let mut pts = Vec::with_capacity(2 * cols);
-        for k in 0..cols {
-            if lo[k].is_finite() {
-                let x = (k as f64 + 0.5) / cols as f64 * span * tk;
-                pts.push((x, lo[k] * ik));
-                if hi[k] > lo[k] {
-                    pts.push((x, hi[k] * ik));
-                }
-            }
-        }
+        let pts = envelope(c, (2 * w as usize).max(1), tk, ik);
         let mut steps = Vec::with_capacity(2 * z.segments.len());
         let mut t = 0.0;
         for s in &z.segments {

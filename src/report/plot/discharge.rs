@@ -44,7 +44,6 @@ struct Discharge<'a> {
     run: &'a RunResult,
 }
 
-/// Tick text: integers bare, others with up to three decimals.
 /// The state-of-charge panel under a discharge chart: time in `unit` up to `x_hi`, 0..100 %.
 pub(super) fn soc_panel<DB: DrawingBackend>(
     area: &Canvas<DB>,
@@ -53,14 +52,7 @@ pub(super) fn soc_panel<DB: DrawingBackend>(
     ty: Type,
     pad: i32,
     y_area: u32,
-) -> Result<
-    ChartContext<
-        '_,
-        DB,
-        Cartesian2d<plotters::coord::types::RangedCoordf64, plotters::coord::types::RangedCoordf64>,
-    >,
-    PlotError,
-> {
+) -> Result<Chart<'_, DB>, PlotError> {
     let mut sc = ChartBuilder::on(area)
         .margin_top(6)
         .margin_right(pad)
@@ -81,6 +73,7 @@ pub(super) fn soc_panel<DB: DrawingBackend>(
     Ok(sc)
 }
 
+/// Tick text: integers bare, others with up to three decimals.
 pub(super) fn tick(x: f64) -> String {
     let s = format!("{x:.3}");
     let s = s.trim_end_matches('0').trim_end_matches('.');
@@ -221,16 +214,102 @@ impl Painter for Discharge<'_> {
         let (w, h) = root.dim_in_pixel();
         let ty = Type::for_width(w);
         let pad = (ty.body * 1.2) as i32;
-        let t_end = r.end.t_s.max(r.trace.last().map_or(0.0, |p| p.t_s));
-        let unit = TimeUnit::for_span(t_end);
-        let trace = decimate(&r.trace, MAX_POINTS);
-        let pass: f64 = d.profile.iter().map(crate::model::Step::duration).sum();
-        let band = voltage_band(&r.trace, (w / 3) as usize, pass);
-        let span = r.trace.last().map_or(0.0, |p| p.t_s);
-        let minima = bucket_minima(&r.trace, mark_count((w / 9) as usize, span, pass));
         let band_list = bands(d, r.end.t_s);
         let (band_legend, band_colour) = band_keys(d, &band_list);
+        let y = self.header_and_legend(root, ty, pad, band_legend)?;
 
+        let body = root.margin(y + 4, pad / 2, pad / 2, pad);
+        let body_h = px(h) - y - 4 - pad / 2;
+        let (top, bottom) = body.split_vertically(body_h * 62 / 100);
+        let t_end = r.end.t_s.max(r.trace.last().map_or(0.0, |p| p.t_s));
+        let v_min = r
+            .trace
+            .iter()
+            .map(|p| p.voltage)
+            .fold(f64::INFINITY, f64::min);
+        let v_max = r
+            .trace
+            .iter()
+            .map(|p| p.ocv.max(p.voltage))
+            .fold(f64::NEG_INFINITY, f64::max);
+        let cutoff = d.pack.cutoff_v();
+        let (v_lo, v_hi) = volt_range(v_min.min(cutoff), v_max);
+        let unit = TimeUnit::for_span(t_end);
+        let frame = Frame {
+            ty,
+            pad,
+            unit,
+            x_hi: t_end / unit.seconds * 1.04,
+            v_range: (v_lo, v_hi),
+            cutoff,
+            y_area: (ty.body * 4.0) as u32,
+            bands: band_list,
+            band_colour,
+            trace: decimate(&r.trace, MAX_POINTS),
+        };
+        let vc = self.voltage_panel(root, &top, &frame)?;
+        let mut sc = soc_panel(&bottom, frame.x_hi, unit, ty, pad, frame.y_area)?;
+        sc.draw_series(frame.bands.iter().zip(&frame.band_colour).map(|(b, &c)| {
+            Rectangle::new(
+                [(b.t0 / unit.seconds, 0.0), (b.t1 / unit.seconds, 100.0)],
+                fill(c + 4).mix(0.22).filled(),
+            )
+        }))?;
+        let soc: Vec<(f64, f64)> = frame
+            .trace
+            .iter()
+            .map(|p| (p.t_s / unit.seconds, p.soc * 100.0))
+            .collect();
+        sc.draw_series(AreaSeries::new(soc.clone(), 0.0, GREEN.mix(0.12)))?;
+        sc.draw_series(LineSeries::new(soc, GREEN.stroke_width(2)))?;
+        self.mark_end(root, &vc, &sc, &frame)
+    }
+}
+
+/// A chart with a linear axis of numbers each way.
+pub(super) type Chart<'a, DB> = ChartContext<
+    'a,
+    DB,
+    Cartesian2d<plotters::coord::types::RangedCoordf64, plotters::coord::types::RangedCoordf64>,
+>;
+
+/// What the panels of a discharge chart share: type and padding, axes, bands and the trace.
+struct Frame {
+    /// Type sizes.
+    ty: Type,
+    /// Padding around the chart, px.
+    pad: i32,
+    /// The time axis' unit.
+    unit: TimeUnit,
+    /// The time axis' end, in `unit`.
+    x_hi: f64,
+    /// The voltage axis' limits, V.
+    v_range: (f64, f64),
+    /// The pack's cutoff voltage, V.
+    cutoff: f64,
+    /// Width of the value axis' labels, px.
+    y_area: u32,
+    /// Long stretches of one mode, shaded.
+    bands: Vec<Band>,
+    /// Each band's fill colour index.
+    band_colour: Vec<usize>,
+    /// The trace, decimated to at most [`MAX_POINTS`].
+    trace: Vec<TracePoint>,
+}
+
+impl Discharge<'_> {
+    /// Title, the runtime sentence and the legend; returns the y below them.
+    fn header_and_legend<DB: DrawingBackend>(
+        &self,
+        root: &Canvas<DB>,
+        ty: Type,
+        pad: i32,
+        band_legend: Vec<(Swatch, String)>,
+    ) -> Result<i32, PlotError>
+    where
+        DB::ErrorType: 'static,
+    {
+        let (d, r) = (self.design, self.run);
         let sentence = format!(
             "Runtime {} at {} ambient: it stops because {}.",
             fmt_duration(r.end.t_s),
@@ -265,34 +344,35 @@ impl Painter for Discharge<'_> {
             (Swatch::Mark(Shape::Diamond, INK, true), "end".into()),
         ];
         keys.extend(band_legend);
-        let width = px(w) - 2 * pad;
+        let width = px(root.dim_in_pixel().0) - 2 * pad;
         y += legend(root, &keys, (pad, y), width, ty.body, false)?;
+        Ok(y)
+    }
 
-        let body = root.margin(y + 4, pad / 2, pad / 2, pad);
-        let body_h = px(h) - y - 4 - pad / 2;
-        let (top, bottom) = body.split_vertically(body_h * 62 / 100);
-        let v_min = r
-            .trace
-            .iter()
-            .map(|p| p.voltage)
-            .fold(f64::INFINITY, f64::min);
-        let v_max = r
-            .trace
-            .iter()
-            .map(|p| p.ocv.max(p.voltage))
-            .fold(f64::NEG_INFINITY, f64::max);
-        let cutoff = d.pack.cutoff_v();
-        let (v_lo, v_hi) = volt_range(v_min.min(cutoff), v_max);
-        let x_hi = t_end / unit.seconds * 1.04;
-        let y_area = (ty.body * 4.0) as u32;
-        let x_area = (ty.body * 2.0) as u32;
-
-        let mut vc = ChartBuilder::on(&top)
+    /// The voltage panel on `top`: bands, the terminal-voltage band and its lowest points, the
+    /// open-circuit voltage, the cutoff and the bands' names.
+    fn voltage_panel<'a, DB: DrawingBackend>(
+        &self,
+        root: &Canvas<DB>,
+        top: &'a Canvas<DB>,
+        f: &Frame,
+    ) -> Result<Chart<'a, DB>, PlotError>
+    where
+        DB::ErrorType: 'static,
+    {
+        let (d, r) = (self.design, self.run);
+        let (ty, unit, (v_lo, v_hi)) = (f.ty, f.unit, f.v_range);
+        let w = root.dim_in_pixel().0;
+        let pass: f64 = d.profile.iter().map(crate::model::Step::duration).sum();
+        let band = voltage_band(&r.trace, (w / 3) as usize, pass);
+        let span = r.trace.last().map_or(0.0, |p| p.t_s);
+        let minima = bucket_minima(&r.trace, mark_count((w / 9) as usize, span, pass));
+        let mut vc = ChartBuilder::on(top)
             .margin_top(4)
-            .margin_right(pad)
-            .x_label_area_size(x_area)
-            .y_label_area_size(y_area)
-            .build_cartesian_2d(0.0..x_hi, v_lo..v_hi)?;
+            .margin_right(f.pad)
+            .x_label_area_size((ty.body * 2.0) as u32)
+            .y_label_area_size(f.y_area)
+            .build_cartesian_2d(0.0..f.x_hi, v_lo..v_hi)?;
         vc.configure_mesh()
             .light_line_style(MESH_LIGHT)
             .bold_line_style(MESH_BOLD)
@@ -302,15 +382,12 @@ impl Painter for Discharge<'_> {
             .x_label_formatter(&|x| tick(*x))
             .y_label_formatter(&|v| format!("{v:.2}"))
             .draw()?;
-        vc.draw_series(band_list.iter().zip(&band_colour).map(|(b, &c)| {
+        vc.draw_series(f.bands.iter().zip(&f.band_colour).map(|(b, &c)| {
             Rectangle::new(
                 [(b.t0 / unit.seconds, v_lo), (b.t1 / unit.seconds, v_hi)],
                 fill(c + 4).mix(0.22).filled(),
             )
         }))?;
-        let pts = |f: fn(&TracePoint) -> f64, list: &[TracePoint]| -> Vec<(f64, f64)> {
-            list.iter().map(|p| (p.t_s / unit.seconds, f(p))).collect()
-        };
         // The terminal voltage as a band from its lowest to its highest value near each time,
         // and the lowest points (the pulses) as dots: a line through the lowest points would
         // suggest the pack sits that low between pulses.
@@ -332,24 +409,39 @@ impl Painter for Discharge<'_> {
                 .iter()
                 .map(|p| Circle::new((p.t_s / unit.seconds, p.voltage), dot, BLUE.filled())),
         )?;
-        vc.draw_series(DashedLineSeries::new(
-            pts(|p| p.ocv, &trace),
-            12,
-            6,
-            ORANGE.stroke_width(2),
-        ))?;
-        let cut_l = vc.backend_coord(&(0.0, cutoff));
-        let cut_r = vc.backend_coord(&(x_hi, cutoff));
+        let ocv: Vec<(f64, f64)> = f
+            .trace
+            .iter()
+            .map(|p| (p.t_s / unit.seconds, p.ocv))
+            .collect();
+        vc.draw_series(DashedLineSeries::new(ocv, 12, 6, ORANGE.stroke_width(2)))?;
+        self.cutoff_and_band_names(root, &vc, f)?;
+        Ok(vc)
+    }
+
+    /// The cutoff line with its value, and the bands' names where they fit along the top of
+    /// the voltage panel.
+    fn cutoff_and_band_names<DB: DrawingBackend>(
+        &self,
+        root: &Canvas<DB>,
+        vc: &Chart<'_, DB>,
+        f: &Frame,
+    ) -> Result<(), PlotError>
+    where
+        DB::ErrorType: 'static,
+    {
+        let (ty, unit, v_hi) = (f.ty, f.unit, f.v_range.1);
+        let cut_l = vc.backend_coord(&(0.0, f.cutoff));
+        let cut_r = vc.backend_coord(&(f.x_hi, f.cutoff));
         pixel_line(root, vec![cut_l, cut_r], VERMILLION, 2, Dash::Medium)?;
         label(
             root,
-            &format!("cutoff {}", fmt_eng(cutoff, "V")),
+            &format!("cutoff {}", fmt_eng(f.cutoff, "V")),
             (cut_l.0 + 6, cut_l.1 - 4),
             &text(ty.body, VERMILLION, HPos::Left, VPos::Bottom),
         )?;
-        // Band names where they fit, along the top of the voltage panel.
-        for b in &band_list {
-            let name = &d.modes[b.mode].name;
+        for b in &f.bands {
+            let name = &self.design.modes[b.mode].name;
             let l = vc.backend_coord(&(b.t0 / unit.seconds, v_hi));
             let rr = vc.backend_coord(&(b.t1 / unit.seconds, v_hi));
             if rr.0 - l.0 > text_width(root, name, ty.scaled(0.9)) + 8 {
@@ -362,25 +454,25 @@ impl Painter for Discharge<'_> {
                 )?;
             }
         }
+        Ok(())
+    }
 
-        let mut sc = soc_panel(&bottom, x_hi, unit, ty, pad, y_area)?;
-        sc.draw_series(band_list.iter().zip(&band_colour).map(|(b, &c)| {
-            Rectangle::new(
-                [(b.t0 / unit.seconds, 0.0), (b.t1 / unit.seconds, 100.0)],
-                fill(c + 4).mix(0.22).filled(),
-            )
-        }))?;
-        let soc: Vec<(f64, f64)> = trace
-            .iter()
-            .map(|p| (p.t_s / unit.seconds, p.soc * 100.0))
-            .collect();
-        sc.draw_series(AreaSeries::new(soc.clone(), 0.0, GREEN.mix(0.12)))?;
-        sc.draw_series(LineSeries::new(soc, GREEN.stroke_width(2)))?;
-
-        // The end: a vertical guide through both panels and a marker in each.
-        let te = r.end.t_s / unit.seconds;
-        let v_end = at_time(&r.trace, r.end.t_s).map_or(cutoff, |p| p.voltage);
-        let top_px = vc.backend_coord(&(te, v_hi));
+    /// The end: a vertical guide through both panels, a marker in each, the time and reason
+    /// beside the voltage one and the charge left beside the other.
+    fn mark_end<DB: DrawingBackend>(
+        &self,
+        root: &Canvas<DB>,
+        vc: &Chart<'_, DB>,
+        sc: &Chart<'_, DB>,
+        f: &Frame,
+    ) -> Result<(), PlotError>
+    where
+        DB::ErrorType: 'static,
+    {
+        let (d, r, ty) = (self.design, self.run, f.ty);
+        let te = r.end.t_s / f.unit.seconds;
+        let v_end = at_time(&r.trace, r.end.t_s).map_or(f.cutoff, |p| p.voltage);
+        let top_px = vc.backend_coord(&(te, f.v_range.1));
         let bottom_px = sc.backend_coord(&(te, 0.0));
         pixel_line(root, vec![top_px, bottom_px], GREY, 1, Dash::Dots)?;
         let mv = vc.backend_coord(&(te, v_end));
@@ -397,7 +489,7 @@ impl Painter for Discharge<'_> {
             fmt_duration(r.end.t_s),
             end_words(d, &r.end)
         );
-        let right = mv.0 > px(w) / 2;
+        let right = mv.0 > px(root.dim_in_pixel().0) / 2;
         let dx = if right { -2 * r_mark } else { 2 * r_mark };
         let above = (ty.body * 1.6) as i32;
         let ly = (mv.1 - above).max(top_px.1 + (ty.body * 2.2) as i32);

@@ -9,7 +9,7 @@
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, VPos};
 
-use super::discharge::{header, tick};
+use super::discharge::{Chart, header, tick};
 use super::profile::mode_seconds;
 use super::style::{
     GREY, INK, MESH_BOLD, Swatch, Type, fill, label, legend, nice_ceiling, px, text, text_width,
@@ -139,49 +139,12 @@ impl Painter for Losses<'_> {
     where
         DB::ErrorType: 'static,
     {
-        let (d, r, bars) = (self.design, self.run, &self.bars);
+        let (r, bars) = (self.run, &self.bars);
         let w = root.dim_in_pixel().0;
         let ty = Type::for_width(w);
         let pad = (ty.body * 1.2) as i32;
         let total: f64 = bars.iter().map(|b| b.total_j).sum();
-        let from_cells = r.ledger.cell_energy_j();
-        let mut lines = vec![format!(
-            "Over the runtime of {}: {} of the energy from the cells was lost on the way.",
-            fmt_duration(r.end.t_s),
-            if from_cells > 0.0 {
-                fmt_percent(total / from_cells)
-            } else {
-                "none".into()
-            }
-        )];
-        lines.push(
-            "Bar lengths are the run's totals; the split by mode is estimated from each mode's \
-             time share and its operating point along the run."
-                .into(),
-        );
-        let mut y = header(root, &format!("Energy lost: {}", d.title), &lines, ty, pad)?;
-        let used: Vec<usize> = (0..d.modes.len())
-            .filter(|&m| {
-                bars.iter()
-                    .any(|b| b.by_mode.get(m).is_some_and(|e| *e > 0.0))
-            })
-            .collect();
-        let mut keys: Vec<(Swatch, String)> = used
-            .iter()
-            .map(|&m| {
-                (
-                    Swatch::Block(fill(m), 0.85),
-                    format!("mode `{}`", d.modes[m].name),
-                )
-            })
-            .collect();
-        if bars.iter().any(|b| b.by_mode.is_empty() && b.total_j > 0.0) {
-            keys.push((
-                Swatch::Block(GREY, 0.35),
-                "not split (no operating point)".into(),
-            ));
-        }
-        y += legend(root, &keys, (pad, y), px(w) - 2 * pad, ty.body, false)?;
+        let y = self.caption(root, ty, pad, total)?;
 
         let (factor, symbol) = energy_unit(bars[0].total_j);
         let n = bars.len();
@@ -235,52 +198,143 @@ impl Painter for Losses<'_> {
         let half = (1.5 * ty.body / row_px).min(0.32);
         for (rank, b) in bars.iter().enumerate() {
             let row = (n - 1 - rank) as f64;
-            let (y0, y1) = (row + 0.5 - half, row + 0.5 + half);
-            let parts: Vec<(f64, RGBColor)> = if b.by_mode.is_empty() {
-                vec![(b.total_j, GREY)]
-            } else {
-                b.by_mode
-                    .iter()
-                    .enumerate()
-                    .map(|(m, e)| (*e, fill(m)))
-                    .collect()
-            };
-            let mut x = 0.0;
-            for (e, colour) in parts {
-                if e <= 0.0 {
-                    continue;
-                }
-                let x1 = x + e * factor;
-                ch.plotting_area()
-                    .draw(&Rectangle::new([(x, y0), (x1, y1)], colour.filled()))?;
-                ch.plotting_area()
-                    .draw(&Rectangle::new([(x, y0), (x1, y1)], WHITE.stroke_width(1)))?;
-                x = x1;
-            }
-            let mid = ch.backend_coord(&(x, row + 0.5));
-            let axis = ch.backend_coord(&(0.0, row + 0.5));
-            // The value right of the bar; where the canvas is too narrow for it, the energy
-            // alone, and else the energy inside the bar's end.
-            let room = px(w) - pad / 2 - (mid.0 + 6);
-            let energy = fmt_eng(b.total_j / 3600.0, "Wh");
-            let (value, at, anchor, ink) = if text_width(root, &values[rank], ty.body) <= room {
-                (values[rank].as_str(), mid.0 + 6, HPos::Left, INK)
-            } else if text_width(root, &energy, ty.body) <= room {
-                (energy.as_str(), mid.0 + 6, HPos::Left, INK)
-            } else {
-                (energy.as_str(), mid.0 - 6, HPos::Right, WHITE)
-            };
-            label(
-                root,
-                value,
-                (at, mid.1),
-                &text(ty.body, ink, anchor, VPos::Center),
-            )?;
-            let name = text(ty.body, INK, HPos::Right, VPos::Center);
-            label(root, &names[rank], (axis.0 - 8, axis.1), &name)?;
+            let x = draw_bar(&ch, b, row, half, factor)?;
+            let words = (values[rank].as_str(), names[rank].as_str());
+            label_bar(root, &ch, (x, row), b.total_j, words, (ty, pad))?;
         }
         Ok(())
     }
+}
+
+impl Losses<'_> {
+    /// Title, the sentences on the share lost and the split by mode, and the legend (each mode
+    /// with a loss, and the bars not split); returns the y below them.
+    fn caption<DB: DrawingBackend>(
+        &self,
+        root: &Canvas<DB>,
+        ty: Type,
+        pad: i32,
+        total: f64,
+    ) -> Result<i32, PlotError>
+    where
+        DB::ErrorType: 'static,
+    {
+        let (d, r, bars) = (self.design, self.run, &self.bars);
+        let w = root.dim_in_pixel().0;
+        let from_cells = r.ledger.cell_energy_j();
+        let mut lines = vec![format!(
+            "Over the runtime of {}: {} of the energy from the cells was lost on the way.",
+            fmt_duration(r.end.t_s),
+            if from_cells > 0.0 {
+                fmt_percent(total / from_cells)
+            } else {
+                "none".into()
+            }
+        )];
+        lines.push(
+            "Bar lengths are the run's totals; the split by mode is estimated from each mode's \
+             time share and its operating point along the run."
+                .into(),
+        );
+        let mut y = header(root, &format!("Energy lost: {}", d.title), &lines, ty, pad)?;
+        let used: Vec<usize> = (0..d.modes.len())
+            .filter(|&m| {
+                bars.iter()
+                    .any(|b| b.by_mode.get(m).is_some_and(|e| *e > 0.0))
+            })
+            .collect();
+        let mut keys: Vec<(Swatch, String)> = used
+            .iter()
+            .map(|&m| {
+                (
+                    Swatch::Block(fill(m), 0.85),
+                    format!("mode `{}`", d.modes[m].name),
+                )
+            })
+            .collect();
+        if bars.iter().any(|b| b.by_mode.is_empty() && b.total_j > 0.0) {
+            keys.push((
+                Swatch::Block(GREY, 0.35),
+                "not split (no operating point)".into(),
+            ));
+        }
+        y += legend(root, &keys, (pad, y), px(w) - 2 * pad, ty.body, false)?;
+        Ok(y)
+    }
+}
+
+/// Bar `b` in the row starting at `row`, `half` a row thick either side of its middle: one
+/// part per mode in that mode's colour (grey when not split), energies scaled by `factor`;
+/// returns where it ends on the axis.
+fn draw_bar<DB: DrawingBackend>(
+    ch: &Chart<'_, DB>,
+    b: &Bar,
+    row: f64,
+    half: f64,
+    factor: f64,
+) -> Result<f64, PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    let (y0, y1) = (row + 0.5 - half, row + 0.5 + half);
+    let parts: Vec<(f64, RGBColor)> = if b.by_mode.is_empty() {
+        vec![(b.total_j, GREY)]
+    } else {
+        b.by_mode
+            .iter()
+            .enumerate()
+            .map(|(m, e)| (*e, fill(m)))
+            .collect()
+    };
+    let mut x = 0.0;
+    for (e, colour) in parts {
+        if e <= 0.0 {
+            continue;
+        }
+        let x1 = x + e * factor;
+        ch.plotting_area()
+            .draw(&Rectangle::new([(x, y0), (x1, y1)], colour.filled()))?;
+        ch.plotting_area()
+            .draw(&Rectangle::new([(x, y0), (x1, y1)], WHITE.stroke_width(1)))?;
+        x = x1;
+    }
+    Ok(x)
+}
+
+/// The words of the bar ending at `x` in the row starting at `row`: its value right of the bar
+/// (where the canvas is too narrow for it, the energy `total_j` alone, and else the energy
+/// inside the bar's end), and its name left of the axis.
+fn label_bar<DB: DrawingBackend>(
+    root: &Canvas<DB>,
+    ch: &Chart<'_, DB>,
+    (x, row): (f64, f64),
+    total_j: f64,
+    (value_words, name_words): (&str, &str),
+    (ty, pad): (Type, i32),
+) -> Result<(), PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    let w = root.dim_in_pixel().0;
+    let mid = ch.backend_coord(&(x, row + 0.5));
+    let axis = ch.backend_coord(&(0.0, row + 0.5));
+    let room = px(w) - pad / 2 - (mid.0 + 6);
+    let energy = fmt_eng(total_j / 3600.0, "Wh");
+    let (value, at, anchor, ink) = if text_width(root, value_words, ty.body) <= room {
+        (value_words, mid.0 + 6, HPos::Left, INK)
+    } else if text_width(root, &energy, ty.body) <= room {
+        (energy.as_str(), mid.0 + 6, HPos::Left, INK)
+    } else {
+        (energy.as_str(), mid.0 - 6, HPos::Right, WHITE)
+    };
+    label(
+        root,
+        value,
+        (at, mid.1),
+        &text(ty.body, ink, anchor, VPos::Center),
+    )?;
+    let name = text(ty.body, INK, HPos::Right, VPos::Center);
+    label(root, name_words, (axis.0 - 8, axis.1), &name)
 }
 
 /// The words beside a bar: its energy and its share of all losses.

@@ -5,7 +5,7 @@
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, VPos};
 
-use super::discharge::{Px, header, overlaps, tick};
+use super::discharge::{Chart, Px, header, overlaps, tick};
 use super::style::{
     BLUE, Dash, GREEN, GREY, INK, MESH_BOLD, ORANGE, PURPLE, SKY, Shape, Swatch, TimeUnit, Type,
     VERMILLION, YELLOW, label, legend, marker, pixel_line, px, text, text_width,
@@ -284,17 +284,14 @@ fn percentile_marks(sp: &Spread, unit: TimeUnit) -> Vec<Mark> {
 }
 
 impl Painter for Histogram<'_> {
-    #[allow(clippy::too_many_lines)]
     fn paint<DB: DrawingBackend>(&self, root: &Canvas<DB>) -> Result<(), PlotError>
     where
         DB::ErrorType: 'static,
     {
-        let (d, sp, units) = (self.design, self.spread, &self.units);
+        let (sp, units) = (self.spread, &self.units);
         let w = root.dim_in_pixel().0;
         let ty = Type::for_width(w);
         let pad = (ty.body * 1.2) as i32;
-        let n = sp.samples.len();
-        let s = &sp.summary;
         let nominal = sp.nominal.runtime.as_ref().ok().copied();
         let target = sp.reach;
 
@@ -319,32 +316,7 @@ impl Painter for Histogram<'_> {
             .unwrap_or(1)
             .max(1);
 
-        let mut lines = vec![format!(
-            "{n} simulated units (seed {}): half run longer than {}, and 90 % between {} and {}.",
-            sp.options.seed,
-            in_unit(s.p50, unit),
-            in_unit(s.p5, unit),
-            in_unit(s.p95, unit)
-        )];
-        lines.push(if sp.failed == 0 {
-            "Every simulated unit gave a runtime.".into()
-        } else {
-            format!(
-                "{} of the {n} runs gave no runtime (the simulation failed) and are not drawn.",
-                sp.failed
-            )
-        });
-        let mut y = header(
-            root,
-            &format!("Runtime across units: {}", d.title),
-            &lines,
-            ty,
-            pad,
-        )?;
-
-        let keys = histogram_keys(sp, target.is_some(), nominal.is_some());
-        y += legend(root, &keys, (pad, y), px(w) - 2 * pad, ty.body, false)?;
-
+        let y = self.caption(root, unit, ty, pad)?;
         let marks = percentile_marks(sp, unit);
         // The runtime axis: the bins, the target and the design as written, a bin of room on
         // either side, never below zero.
@@ -367,107 +339,227 @@ impl Painter for Histogram<'_> {
         // on the whole body gives the marks' places across (the same in the final one).
         let probe = chart(&body)?;
         let row_h = (ty.body * 1.6) as i32;
-        let right_edge = px(w) - pad / 2;
-        let mut rows: Vec<Vec<Px>> = Vec::new();
-        let mut order: Vec<usize> = (0..marks.len()).collect();
-        order.sort_by(|&a, &b| marks[a].at_s.total_cmp(&marks[b].at_s));
-        let mut slot = vec![(0usize, 0i32); marks.len()];
-        for &k in &order {
-            let x = probe.backend_coord(&(marks[k].at_s / unit.seconds, 0.0)).0;
-            let tw = text_width(root, &marks[k].words, ty.body);
-            // Kept inside the canvas: the centre moves in from an edge.
-            let cx = x.clamp(pad / 2 + tw / 2, right_edge - tw / 2);
-            let rect: Px = ((cx - tw / 2 - 4, 0), (cx + tw / 2 + 4, row_h));
-            let row = rows
-                .iter()
-                .position(|r| r.iter().all(|b| !overlaps(*b, rect)))
-                .unwrap_or_else(|| {
-                    rows.push(Vec::new());
-                    rows.len() - 1
-                });
-            rows[row].push(rect);
-            slot[k] = (row, cx);
-        }
-        let strip = px_len(rows.len()) * row_h + 4;
+        let (rows, slot) = place_marks(root, &probe, &marks, unit, ty, pad);
+        let strip = px_len(rows) * row_h + 4;
         let area = body.margin(strip, 0, 0, 0);
         let mut ch = chart(&area)?;
-        ch.configure_mesh()
-            .light_line_style(WHITE)
-            .bold_line_style(MESH_BOLD)
-            .x_desc(format!("runtime ({})", unit.symbol))
-            .y_desc("simulated units")
-            .axis_desc_style(("sans-serif", ty.axis))
-            .label_style(("sans-serif", ty.body))
-            .x_label_formatter(&|x| tick(*x))
-            .y_label_formatter(&|v| {
-                if (v - v.round()).abs() < 1e-9 {
-                    format!("{v:.0}")
-                } else {
-                    String::new()
-                }
-            })
-            .draw()?;
-        // Bars: each bin's units stacked by end reason, the most common reason at the bottom.
-        for (b, c) in counts.iter().enumerate() {
-            let x0 = first + width * b as f64;
-            let mut base = 0usize;
-            for (k, &m) in c.iter().enumerate() {
-                if m == 0 {
-                    continue;
-                }
-                let (y0, y1) = (base as f64, (base + m) as f64);
-                ch.plotting_area().draw(&Rectangle::new(
-                    [(x0, y0), (x0 + width, y1)],
-                    end_fill(reasons[k]).mix(0.85).filled(),
-                ))?;
-                ch.plotting_area().draw(&Rectangle::new(
-                    [(x0, y0), (x0 + width, y1)],
-                    WHITE.stroke_width(1),
-                ))?;
-                base += m;
-            }
-        }
+        draw_mesh(&mut ch, unit, ty)?;
+        draw_bars(&ch, &counts, &reasons, first, width)?;
         if let Some(t) = nominal {
             let at = ch.backend_coord(&(t / unit.seconds, 0.0));
             marker(root, at, Shape::Diamond, (ty.body * 0.45) as i32, INK, true)?;
         }
-        let top = ch.backend_coord(&(x_lo, y_hi)).1;
-        let bottom = ch.backend_coord(&(x_lo, 0.0)).1;
-        let strip_top = y + 2;
-        // The lines and their leads first, then the words on white over any lead they cross.
-        for (k, m) in marks.iter().enumerate() {
-            let row = slot[k].0;
-            let x = ch.backend_coord(&(m.at_s / unit.seconds, 0.0)).0;
-            let ly = strip_top + px_len(row) * row_h + row_h / 2;
-            pixel_line(
-                root,
-                vec![(x, ly + row_h / 2 - 2), (x, top)],
-                GREY,
-                1,
-                Dash::Solid,
-            )?;
-            pixel_line(root, vec![(x, top), (x, bottom)], m.colour, 2, m.dash)?;
-        }
-        for (k, m) in marks.iter().enumerate() {
-            let (row, cx) = slot[k];
-            let ly = strip_top + px_len(row) * row_h + row_h / 2;
-            let tw = text_width(root, &m.words, ty.body);
-            root.draw(&Rectangle::new(
-                [
-                    (cx - tw / 2 - 3, ly - row_h / 2 + 2),
-                    (cx + tw / 2 + 3, ly + row_h / 2 - 2),
-                ],
-                WHITE.filled(),
-            ))?;
-            label(
-                root,
-                &m.words,
-                (cx, ly),
-                &text(ty.body, m.colour, HPos::Center, VPos::Center),
-            )?;
-        }
-        Ok(())
+        let lines = MarkLines {
+            top: ch.backend_coord(&(x_lo, y_hi)).1,
+            bottom: ch.backend_coord(&(x_lo, 0.0)).1,
+            strip_top: y + 2,
+            row_h,
+        };
+        let across: Vec<i32> = marks
+            .iter()
+            .map(|m| ch.backend_coord(&(m.at_s / unit.seconds, 0.0)).0)
+            .collect();
+        draw_marks(root, &marks, &across, &slot, &lines, ty)
     }
+}
+
+impl Histogram<'_> {
+    /// Title, the sentences on the percentiles and the failed runs, and the legend; returns the
+    /// y below them.
+    fn caption<DB: DrawingBackend>(
+        &self,
+        root: &Canvas<DB>,
+        unit: TimeUnit,
+        ty: Type,
+        pad: i32,
+    ) -> Result<i32, PlotError>
+    where
+        DB::ErrorType: 'static,
+    {
+        let sp = self.spread;
+        let n = sp.samples.len();
+        let s = &sp.summary;
+        let mut lines = vec![format!(
+            "{n} simulated units (seed {}): half run longer than {}, and 90 % between {} and {}.",
+            sp.options.seed,
+            in_unit(s.p50, unit),
+            in_unit(s.p5, unit),
+            in_unit(s.p95, unit)
+        )];
+        lines.push(if sp.failed == 0 {
+            "Every simulated unit gave a runtime.".into()
+        } else {
+            format!(
+                "{} of the {n} runs gave no runtime (the simulation failed) and are not drawn.",
+                sp.failed
+            )
+        });
+        let mut y = header(
+            root,
+            &format!("Runtime across units: {}", self.design.title),
+            &lines,
+            ty,
+            pad,
+        )?;
+        let nominal = sp.nominal.runtime.is_ok();
+        let keys = histogram_keys(sp, sp.reach.is_some(), nominal);
+        let w = root.dim_in_pixel().0;
+        y += legend(root, &keys, (pad, y), px(w) - 2 * pad, ty.body, false)?;
+        Ok(y)
+    }
+}
+
+/// The row of words each mark goes in above the chart (the first where it overlaps no other)
+/// and its centre across, kept inside the canvas; and the number of rows.
+fn place_marks<DB: DrawingBackend>(
+    root: &Canvas<DB>,
+    probe: &Chart<'_, DB>,
+    marks: &[Mark],
+    unit: TimeUnit,
+    ty: Type,
+    pad: i32,
+) -> (usize, Vec<(usize, i32)>) {
+    let row_h = (ty.body * 1.6) as i32;
+    let right_edge = px(root.dim_in_pixel().0) - pad / 2;
+    let mut rows: Vec<Vec<Px>> = Vec::new();
+    let mut order: Vec<usize> = (0..marks.len()).collect();
+    order.sort_by(|&a, &b| marks[a].at_s.total_cmp(&marks[b].at_s));
+    let mut slot = vec![(0usize, 0i32); marks.len()];
+    for &k in &order {
+        let x = probe.backend_coord(&(marks[k].at_s / unit.seconds, 0.0)).0;
+        let tw = text_width(root, &marks[k].words, ty.body);
+        // Kept inside the canvas: the centre moves in from an edge.
+        let cx = x.clamp(pad / 2 + tw / 2, right_edge - tw / 2);
+        let rect: Px = ((cx - tw / 2 - 4, 0), (cx + tw / 2 + 4, row_h));
+        let row = rows
+            .iter()
+            .position(|r| r.iter().all(|b| !overlaps(*b, rect)))
+            .unwrap_or_else(|| {
+                rows.push(Vec::new());
+                rows.len() - 1
+            });
+        rows[row].push(rect);
+        slot[k] = (row, cx);
+    }
+    (rows.len(), slot)
+}
+
+/// The histogram's grid and axes: runtime in `unit` across, whole numbers of units up.
+fn draw_mesh<DB: DrawingBackend>(
+    ch: &mut Chart<'_, DB>,
+    unit: TimeUnit,
+    ty: Type,
+) -> Result<(), PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    ch.configure_mesh()
+        .light_line_style(WHITE)
+        .bold_line_style(MESH_BOLD)
+        .x_desc(format!("runtime ({})", unit.symbol))
+        .y_desc("simulated units")
+        .axis_desc_style(("sans-serif", ty.axis))
+        .label_style(("sans-serif", ty.body))
+        .x_label_formatter(&|x| tick(*x))
+        .y_label_formatter(&|v| {
+            if (v - v.round()).abs() < 1e-9 {
+                format!("{v:.0}")
+            } else {
+                String::new()
+            }
+        })
+        .draw()?;
+    Ok(())
+}
+
+/// The bars: each bin's units stacked by end reason, the most common reason at the bottom.
+fn draw_bars<DB: DrawingBackend>(
+    ch: &Chart<'_, DB>,
+    counts: &[Vec<usize>],
+    reasons: &[EndReason],
+    first: f64,
+    width: f64,
+) -> Result<(), PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    for (b, c) in counts.iter().enumerate() {
+        let x0 = first + width * b as f64;
+        let mut base = 0usize;
+        for (k, &m) in c.iter().enumerate() {
+            if m == 0 {
+                continue;
+            }
+            let (y0, y1) = (base as f64, (base + m) as f64);
+            ch.plotting_area().draw(&Rectangle::new(
+                [(x0, y0), (x0 + width, y1)],
+                end_fill(reasons[k]).mix(0.85).filled(),
+            ))?;
+            ch.plotting_area().draw(&Rectangle::new(
+                [(x0, y0), (x0 + width, y1)],
+                WHITE.stroke_width(1),
+            ))?;
+            base += m;
+        }
+    }
+    Ok(())
+}
+
+/// Where the marks' lines and words go, px: the chart's top and bottom, the top of the strip of
+/// words above it and the height of a row of words.
+struct MarkLines {
+    top: i32,
+    bottom: i32,
+    strip_top: i32,
+    row_h: i32,
+}
+
+/// The marks: each line (at `across[k]`, px) and its lead first, then the words on white over
+/// any lead they cross, in the row and centre of `slot`.
+fn draw_marks<DB: DrawingBackend>(
+    root: &Canvas<DB>,
+    marks: &[Mark],
+    across: &[i32],
+    slot: &[(usize, i32)],
+    p: &MarkLines,
+    ty: Type,
+) -> Result<(), PlotError>
+where
+    DB::ErrorType: 'static,
+{
+    let row_h = p.row_h;
+    for (k, m) in marks.iter().enumerate() {
+        let row = slot[k].0;
+        let x = across[k];
+        let ly = p.strip_top + px_len(row) * row_h + row_h / 2;
+        pixel_line(
+            root,
+            vec![(x, ly + row_h / 2 - 2), (x, p.top)],
+            GREY,
+            1,
+            Dash::Solid,
+        )?;
+        pixel_line(root, vec![(x, p.top), (x, p.bottom)], m.colour, 2, m.dash)?;
+    }
+    for (k, m) in marks.iter().enumerate() {
+        let (row, cx) = slot[k];
+        let ly = p.strip_top + px_len(row) * row_h + row_h / 2;
+        let tw = text_width(root, &m.words, ty.body);
+        root.draw(&Rectangle::new(
+            [
+                (cx - tw / 2 - 3, ly - row_h / 2 + 2),
+                (cx + tw / 2 + 3, ly + row_h / 2 - 2),
+            ],
+            WHITE.filled(),
+        ))?;
+        label(
+            root,
+            &m.words,
+            (cx, ly),
+            &text(ty.body, m.colour, HPos::Center, VPos::Center),
+        )?;
+    }
+    Ok(())
 }
 
 /// A count of rows as pixels' multiplier.
@@ -529,18 +621,17 @@ const LOW: RGBColor = BLUE;
 const HIGH: RGBColor = ORANGE;
 
 impl Painter for Tornado<'_> {
-    #[allow(clippy::too_many_lines)]
     fn paint<DB: DrawingBackend>(&self, root: &Canvas<DB>) -> Result<(), PlotError>
     where
         DB::ErrorType: 'static,
     {
-        let (d, sp, nom) = (self.design, self.spread, self.nominal);
+        let (sp, nom) = (self.spread, self.nominal);
         let w = root.dim_in_pixel().0;
         let ty = Type::for_width(w);
         let pad = (ty.body * 1.2) as i32;
-        let swings = &sp.swings;
-        let n = swings.len();
-        let ends: Vec<(Option<f64>, Option<f64>)> = swings
+        let n = sp.swings.len();
+        let ends: Vec<(Option<f64>, Option<f64>)> = sp
+            .swings
             .iter()
             .map(|x| {
                 (
@@ -562,52 +653,8 @@ impl Painter for Tornado<'_> {
         let x_lo = (lo_s / unit.seconds - 0.07 * span).max(0.0);
         let x_hi = hi_s / unit.seconds + 0.07 * span;
 
-        let lines = vec![
-            "Each varied value at its low and at its high bound, the others as designed; the \
-             largest swing on top."
-                .to_string(),
-        ];
-        let mut y = header(
-            root,
-            &format!("What moves the runtime: {}", d.title),
-            &lines,
-            ty,
-            pad,
-        )?;
-        let mut keys = vec![
-            (
-                Swatch::Block(LOW, 0.9),
-                "value at its low bound".to_string(),
-            ),
-            (Swatch::Block(HIGH, 0.9), "value at its high bound".into()),
-            (
-                Swatch::Line(INK, 2, Dash::Solid),
-                format!("as designed: {}", in_unit(nom, unit)),
-            ),
-        ];
-        if ends.iter().any(|(a, b)| a.is_none() || b.is_none()) {
-            keys.push((
-                Swatch::Mark(Shape::Square, VERMILLION, false),
-                "run gave no result".into(),
-            ));
-        }
-        y += legend(root, &keys, (pad, y), px(w) - 2 * pad, ty.body, false)?;
-
-        // Each row's words left of the chart: the path, and the bounds under it.
-        let names: Vec<(String, String)> = swings
-            .iter()
-            .map(|x| {
-                let k = &sp.tolerances[x.tolerance].knob;
-                (
-                    x.path.clone(),
-                    format!(
-                        "low {} · high {}",
-                        fmt_value(d, k, x.bounds.0),
-                        fmt_value(d, k, x.bounds.1)
-                    ),
-                )
-            })
-            .collect();
+        let y = self.caption(root, unit, ty, pad, &ends)?;
+        let names = self.row_names();
         let small = ty.scaled(0.9);
         let name_w = names
             .iter()
@@ -632,96 +679,231 @@ impl Painter for Tornado<'_> {
             .x_label_formatter(&|x| tick(*x))
             .draw()?;
         let row_px = f64::from(ch.plotting_area().dim_in_pixel().1) / n as f64;
-        // Two lines of words beside a bar when the row has room for them, one otherwise.
-        let two_lines = row_px >= 2.7 * ty.body;
-        let half = (1.3 * ty.body / row_px).min(0.3);
-        let nom_u = nom / unit.seconds;
-        for (rank, (lo, hi)) in ends.iter().enumerate() {
+        let rows = Rows {
+            // Two lines of words beside a bar when the row has room for them, one otherwise.
+            two_lines: row_px >= 2.7 * ty.body,
+            half: (1.3 * ty.body / row_px).min(0.3),
+            nom_u: nom / unit.seconds,
+            unit_s: unit.seconds,
+            x_lo,
+            ty,
+        };
+        for (rank, &(lo, hi)) in ends.iter().enumerate() {
             let row = (n - 1 - rank) as f64 + 0.5;
-            let (y0, y1) = (row - half, row + half);
-            // The longer part first, so that the shorter stays in sight when both lie on the
-            // same side of the design as written.
-            let mut parts: Vec<(f64, RGBColor)> = [(lo, LOW), (hi, HIGH)]
-                .iter()
-                .filter_map(|(t, c)| t.map(|t| (t / unit.seconds, *c)))
-                .collect();
-            parts.sort_by(|a, b| (b.0 - nom_u).abs().total_cmp(&(a.0 - nom_u).abs()));
-            let centre = ch.backend_coord(&(nom_u, y0));
-            let still = parts.iter().all(|p| (p.0 - nom_u).abs() <= 0.0);
-            for (t, c) in parts {
-                // In pixels: a part that moves the runtime at all shows at least 3 pixels past
-                // the line as designed (which is 2 wide), so a small swing is not hidden by it.
-                let (end, bottom) = ch.backend_coord(&(t, y1));
-                let end = if t < nom_u {
-                    end.min(centre.0 - 3)
-                } else if t > nom_u {
-                    end.max(centre.0 + 3)
-                } else {
-                    continue;
-                };
-                let rect = [(centre.0.min(end), centre.1), (centre.0.max(end), bottom)];
-                root.draw(&Rectangle::new(rect, c.mix(0.9).filled()))?;
-                root.draw(&Rectangle::new(rect, WHITE.stroke_width(1)))?;
-            }
-            if still && failed_none(*lo, *hi) {
-                let at = ch.backend_coord(&(nom_u, row));
-                label(
-                    root,
-                    "no change",
-                    (at.0 + 6, at.1),
-                    &text(small, GREY, HPos::Left, VPos::Center),
-                )?;
-            }
-            // A failed bound: a hollow square on the line as designed and its words beside it,
-            // on the side away from the other bound's bar.
-            let failed: Vec<(&str, Option<f64>)> = [("low", lo, hi), ("high", hi, lo)]
-                .iter()
-                .filter(|(_, t, _)| t.is_none())
-                .map(|(which, _, other)| (*which, **other))
-                .collect();
-            if !failed.is_empty() {
-                let at = ch.backend_coord(&(nom_u, row));
-                let other_left = failed[0].1.is_some_and(|t| t / unit.seconds < nom_u);
-                let words = if failed.len() == 2 {
-                    "no result at either bound".to_string()
-                } else {
-                    format!("no result at the {} bound", failed[0].0)
-                };
-                let r = (ty.body * 0.4) as i32;
-                marker(root, at, Shape::Square, r, VERMILLION, false)?;
-                let (dx, anchor) = if other_left {
-                    (2 * r + 4, HPos::Left)
-                } else {
-                    (-2 * r - 4, HPos::Right)
-                };
-                label(
-                    root,
-                    &words,
-                    (at.0 + dx, at.1),
-                    &text(small, VERMILLION, anchor, VPos::Center),
-                )?;
-            }
-            let axis = ch.backend_coord(&(x_lo, row));
-            let (path, bounds) = &names[rank];
-            let right = text(ty.body, INK, HPos::Right, VPos::Center);
-            if two_lines {
-                let gap = (ty.body * 0.62) as i32;
-                label(root, path, (axis.0 - 8, axis.1 - gap), &right)?;
-                label(
-                    root,
-                    bounds,
-                    (axis.0 - 8, axis.1 + gap),
-                    &text(small, GREY, HPos::Right, VPos::Center),
-                )?;
-            } else {
-                label(root, path, (axis.0 - 8, axis.1), &right)?;
-            }
+            rows.draw_bar(root, &ch, row, (lo, hi))?;
+            rows.mark_failed(root, &ch, row, (lo, hi))?;
+            rows.name_row(root, &ch, row, &names[rank])?;
         }
         // The runtime as designed, across every row.
-        let top = ch.backend_coord(&(nom_u, n as f64));
-        let bottom = ch.backend_coord(&(nom_u, 0.0));
+        let top = ch.backend_coord(&(rows.nom_u, n as f64));
+        let bottom = ch.backend_coord(&(rows.nom_u, 0.0));
         pixel_line(root, vec![top, bottom], INK, 2, Dash::Solid)?;
         Ok(())
+    }
+}
+
+impl Tornado<'_> {
+    /// Title, the sentence on how the bars are made, and the legend; returns the y below them.
+    fn caption<DB: DrawingBackend>(
+        &self,
+        root: &Canvas<DB>,
+        unit: TimeUnit,
+        ty: Type,
+        pad: i32,
+        ends: &[(Option<f64>, Option<f64>)],
+    ) -> Result<i32, PlotError>
+    where
+        DB::ErrorType: 'static,
+    {
+        let lines = vec![
+            "Each varied value at its low and at its high bound, the others as designed; the \
+             largest swing on top."
+                .to_string(),
+        ];
+        let mut y = header(
+            root,
+            &format!("What moves the runtime: {}", self.design.title),
+            &lines,
+            ty,
+            pad,
+        )?;
+        let mut keys = vec![
+            (
+                Swatch::Block(LOW, 0.9),
+                "value at its low bound".to_string(),
+            ),
+            (Swatch::Block(HIGH, 0.9), "value at its high bound".into()),
+            (
+                Swatch::Line(INK, 2, Dash::Solid),
+                format!("as designed: {}", in_unit(self.nominal, unit)),
+            ),
+        ];
+        if ends.iter().any(|(a, b)| a.is_none() || b.is_none()) {
+            keys.push((
+                Swatch::Mark(Shape::Square, VERMILLION, false),
+                "run gave no result".into(),
+            ));
+        }
+        let w = root.dim_in_pixel().0;
+        y += legend(root, &keys, (pad, y), px(w) - 2 * pad, ty.body, false)?;
+        Ok(y)
+    }
+
+    /// Each row's words left of the chart: the path, and the bounds under it.
+    fn row_names(&self) -> Vec<(String, String)> {
+        let (d, sp) = (self.design, self.spread);
+        sp.swings
+            .iter()
+            .map(|x| {
+                let k = &sp.tolerances[x.tolerance].knob;
+                (
+                    x.path.clone(),
+                    format!(
+                        "low {} · high {}",
+                        fmt_value(d, k, x.bounds.0),
+                        fmt_value(d, k, x.bounds.1)
+                    ),
+                )
+            })
+            .collect()
+    }
+}
+
+/// How the rows of a tornado chart are drawn.
+struct Rows {
+    /// Two lines of words beside each bar (else one).
+    two_lines: bool,
+    /// Half a bar's height, in rows.
+    half: f64,
+    /// The runtime as designed, in the axis' unit.
+    nom_u: f64,
+    /// Seconds per unit of the runtime axis.
+    unit_s: f64,
+    /// The runtime axis' start.
+    x_lo: f64,
+    /// Type sizes.
+    ty: Type,
+}
+
+impl Rows {
+    /// The bar of the row centred at `row`: from the runtime as designed toward each bound's
+    /// runtime, or "no change" when neither bound moves it.
+    fn draw_bar<DB: DrawingBackend>(
+        &self,
+        root: &Canvas<DB>,
+        ch: &Chart<'_, DB>,
+        row: f64,
+        (lo, hi): (Option<f64>, Option<f64>),
+    ) -> Result<(), PlotError>
+    where
+        DB::ErrorType: 'static,
+    {
+        let nom_u = self.nom_u;
+        let (y0, y1) = (row - self.half, row + self.half);
+        // The longer part first, so that the shorter stays in sight when both lie on the
+        // same side of the design as written.
+        let mut parts: Vec<(f64, RGBColor)> = [(lo, LOW), (hi, HIGH)]
+            .iter()
+            .filter_map(|(t, c)| t.map(|t| (t / self.unit_s, *c)))
+            .collect();
+        parts.sort_by(|a, b| (b.0 - nom_u).abs().total_cmp(&(a.0 - nom_u).abs()));
+        let centre = ch.backend_coord(&(nom_u, y0));
+        let still = parts.iter().all(|p| (p.0 - nom_u).abs() <= 0.0);
+        for (t, c) in parts {
+            // In pixels: a part that moves the runtime at all shows at least 3 pixels past
+            // the line as designed (which is 2 wide), so a small swing is not hidden by it.
+            let (end, bottom) = ch.backend_coord(&(t, y1));
+            let end = if t < nom_u {
+                end.min(centre.0 - 3)
+            } else if t > nom_u {
+                end.max(centre.0 + 3)
+            } else {
+                continue;
+            };
+            let rect = [(centre.0.min(end), centre.1), (centre.0.max(end), bottom)];
+            root.draw(&Rectangle::new(rect, c.mix(0.9).filled()))?;
+            root.draw(&Rectangle::new(rect, WHITE.stroke_width(1)))?;
+        }
+        if still && failed_none(lo, hi) {
+            let at = ch.backend_coord(&(nom_u, row));
+            label(
+                root,
+                "no change",
+                (at.0 + 6, at.1),
+                &text(self.ty.scaled(0.9), GREY, HPos::Left, VPos::Center),
+            )?;
+        }
+        Ok(())
+    }
+
+    /// A failed bound: a hollow square on the line as designed and its words beside it, on the
+    /// side away from the other bound's bar.
+    fn mark_failed<DB: DrawingBackend>(
+        &self,
+        root: &Canvas<DB>,
+        ch: &Chart<'_, DB>,
+        row: f64,
+        (lo, hi): (Option<f64>, Option<f64>),
+    ) -> Result<(), PlotError>
+    where
+        DB::ErrorType: 'static,
+    {
+        let failed: Vec<(&str, Option<f64>)> = [("low", lo, hi), ("high", hi, lo)]
+            .iter()
+            .filter(|(_, t, _)| t.is_none())
+            .map(|(which, _, other)| (*which, *other))
+            .collect();
+        if failed.is_empty() {
+            return Ok(());
+        }
+        let at = ch.backend_coord(&(self.nom_u, row));
+        let other_left = failed[0].1.is_some_and(|t| t / self.unit_s < self.nom_u);
+        let words = if failed.len() == 2 {
+            "no result at either bound".to_string()
+        } else {
+            format!("no result at the {} bound", failed[0].0)
+        };
+        let r = (self.ty.body * 0.4) as i32;
+        marker(root, at, Shape::Square, r, VERMILLION, false)?;
+        let (dx, anchor) = if other_left {
+            (2 * r + 4, HPos::Left)
+        } else {
+            (-2 * r - 4, HPos::Right)
+        };
+        label(
+            root,
+            &words,
+            (at.0 + dx, at.1),
+            &text(self.ty.scaled(0.9), VERMILLION, anchor, VPos::Center),
+        )
+    }
+
+    /// The row's path left of the axis, and its bounds under it when there is room.
+    fn name_row<DB: DrawingBackend>(
+        &self,
+        root: &Canvas<DB>,
+        ch: &Chart<'_, DB>,
+        row: f64,
+        (path, bounds): &(String, String),
+    ) -> Result<(), PlotError>
+    where
+        DB::ErrorType: 'static,
+    {
+        let ty = self.ty;
+        let axis = ch.backend_coord(&(self.x_lo, row));
+        let right = text(ty.body, INK, HPos::Right, VPos::Center);
+        if self.two_lines {
+            let gap = (ty.body * 0.62) as i32;
+            label(root, path, (axis.0 - 8, axis.1 - gap), &right)?;
+            label(
+                root,
+                bounds,
+                (axis.0 - 8, axis.1 + gap),
+                &text(ty.scaled(0.9), GREY, HPos::Right, VPos::Center),
+            )
+        } else {
+            label(root, path, (axis.0 - 8, axis.1), &right)
+        }
     }
 }
 
