@@ -2,21 +2,10 @@
 //! limiter draining it, the fast solver against the reference, and bad blocks.
 
 use joulepath::Design;
-use joulepath::solve::{EndReason, RunOptions, RunResult, run};
+use joulepath::solve::EndReason;
 
+use crate::runtime::{design, exact, fast};
 use crate::util::close;
-
-fn design(text: &str) -> Design {
-    Design::from_text(text).unwrap_or_else(|e| panic!("{e}\n{text}"))
-}
-
-fn fast(d: &Design) -> RunResult {
-    run(d, &RunOptions::for_design(d)).expect("the run gives a result")
-}
-
-fn exact(d: &Design) -> RunResult {
-    run(d, &RunOptions::reference(d)).expect("the reference gives a result")
-}
 
 /// A small coin-like cell (1 mAh, so the reference runs quickly) with a radio pulse of
 /// `pulse` for 5 ms each second and 2 µA between, and `buffer` (a YAML mapping or empty).

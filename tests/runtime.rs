@@ -7,15 +7,16 @@ use joulepath::solve::{EndReason, RunOptions, RunResult, run};
 
 use crate::util::{Test, close, example_files};
 
-fn design(text: &str) -> Design {
+/// A checked design from `text` (the runtime and buffer tests share these three helpers).
+pub(crate) fn design(text: &str) -> Design {
     Design::from_text(text).unwrap_or_else(|e| panic!("{e}\n{text}"))
 }
 
-fn fast(d: &Design) -> RunResult {
+pub(crate) fn fast(d: &Design) -> RunResult {
     run(d, &RunOptions::for_design(d)).expect("the run gives a result")
 }
 
-fn exact(d: &Design) -> RunResult {
+pub(crate) fn exact(d: &Design) -> RunResult {
     run(d, &RunOptions::reference(d)).expect("the reference gives a result")
 }
 

@@ -5,7 +5,9 @@ use std::path::Path;
 
 use super::{Capture, MAX_BYTES, MAX_SAMPLES};
 use crate::error::Diagnostic;
-use crate::fit::header::{data_lines, named_unit, split_into};
+use crate::fit::header::{
+    data_lines, missing_column, named_twice, named_unit, split_into, width_error,
+};
 use crate::units::fmt_eng;
 
 /// A gap: a step between samples more than this many times the median step (common practice,
@@ -110,23 +112,12 @@ fn header(row: &str, line: usize, sep: char, name: &str) -> Result<Layout, Diagn
         };
         let slot = &mut found[kind as usize];
         if let Some((first, _)) = slot {
-            return err(
-                format!(
-                    "the header names {} twice, in columns {} and {}",
-                    kind.word(),
-                    *first + 1,
-                    i + 1
-                ),
-                format!("keep one of each: {HEADER_EXAMPLE}"),
-            );
+            let (what, fix) = named_twice(kind.word(), *first, i, HEADER_EXAMPLE);
+            return err(what, fix);
         }
         *slot = Some((i, scale));
     }
-    let missing = |what: &str| {
-        Diagnostic::new(name, format!("the header has no {what} column"))
-            .with_hint(format!("write the header as {HEADER_EXAMPLE}"))
-            .at_line_col(line, 1)
-    };
+    let missing = |what: &str| missing_column(name, what, HEADER_EXAMPLE, line);
     let time = found[0].ok_or_else(|| missing("time"))?;
     let current = found[1].ok_or_else(|| missing("current"))?;
     Ok(Layout {
@@ -326,17 +317,7 @@ fn read_row(
     allow_negative: bool,
 ) -> Result<(f64, f64, Option<f64>), Diagnostic> {
     if fields.len() != lay.columns {
-        return Err(Diagnostic::new(
-            name,
-            format!(
-                "line {line} has {} {}; the header names {} columns",
-                fields.len(),
-                if fields.len() == 1 { "value" } else { "values" },
-                lay.columns
-            ),
-        )
-        .with_hint("write one value per column on every row, separated like the header")
-        .at_line_col(line, 1));
+        return Err(width_error(fields.len(), lay.columns, line, name));
     }
     let t = number(fields[lay.time.0], "time", line, name)? * lay.time.1;
     let i = number(fields[lay.current.0], "current", line, name)? * lay.current.1;

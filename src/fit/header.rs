@@ -1,6 +1,7 @@
 //! The header row of a curve file: which column is capacity, which is voltage, and their units.
 
 use super::FitError;
+use crate::error::Diagnostic;
 
 /// A column of the CSV file.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -203,5 +204,43 @@ fn unit_hint(kind: Column) -> String {
         "{} takes {} (prefixes are case-sensitive)",
         kind.word(),
         names.join(" or ")
+    )
+}
+
+/// A data row of a CSV file (`name`) with `found` values where its header names `columns`.
+pub(crate) fn width_error(found: usize, columns: usize, line: usize, name: &str) -> Diagnostic {
+    Diagnostic::new(
+        name,
+        format!(
+            "line {line} has {found} {}; the header names {columns} columns",
+            if found == 1 { "value" } else { "values" },
+        ),
+    )
+    .with_hint("write one value per column on every row, separated like the header")
+    .at_line_col(line, 1)
+}
+
+/// A header (on `line` of `name`) without a `what` column; `example` is a good header.
+pub(crate) fn missing_column(name: &str, what: &str, example: &str, line: usize) -> Diagnostic {
+    Diagnostic::new(name, format!("the header has no {what} column"))
+        .with_hint(format!("write the header as {example}"))
+        .at_line_col(line, 1)
+}
+
+/// The words for a header that names `what` in two columns (0-based `first` and `second`), and
+/// the fix, given a good header `example`.
+pub(crate) fn named_twice(
+    what: &str,
+    first: usize,
+    second: usize,
+    example: &str,
+) -> (String, String) {
+    (
+        format!(
+            "the header names {what} twice, in columns {} and {}",
+            first + 1,
+            second + 1
+        ),
+        format!("keep one of each: {example}"),
     )
 }

@@ -6,7 +6,9 @@ use std::path::Path;
 use super::Recorded;
 use crate::capture::read_capped;
 use crate::error::Diagnostic;
-use crate::fit::header::{data_lines, named_unit, split_into};
+use crate::fit::header::{
+    data_lines, missing_column, named_twice, named_unit, split_into, width_error,
+};
 
 /// Largest ambient file, bytes (4 MiB: twenty years of hourly rows fit in well under it).
 pub const MAX_AMBIENT_BYTES: usize = 4 * 1024 * 1024;
@@ -108,23 +110,12 @@ fn header(row: &str, line: usize, sep: char, name: &str) -> Result<Layout, Diagn
         };
         let slot = &mut found[kind as usize];
         if let Some((first, _, _)) = slot {
-            return err(
-                format!(
-                    "the header names {} twice, in columns {} and {}",
-                    kind.word(),
-                    *first + 1,
-                    i + 1
-                ),
-                format!("keep one of each: {HEADER_EXAMPLE}"),
-            );
+            let (what, fix) = named_twice(kind.word(), *first, i, HEADER_EXAMPLE);
+            return err(what, fix);
         }
         *slot = Some((i, scale, offset));
     }
-    let missing = |what: &str| {
-        Diagnostic::new(name, format!("the header has no {what} column"))
-            .with_hint(format!("write the header as {HEADER_EXAMPLE}"))
-            .at_line_col(line, 1)
-    };
+    let missing = |what: &str| missing_column(name, what, HEADER_EXAMPLE, line);
     Ok(Layout {
         time: found[0].ok_or_else(|| missing("time"))?,
         temperature: found[1].ok_or_else(|| missing("temperature"))?,
@@ -289,17 +280,7 @@ fn read_row<'a>(
     fields.clear();
     split_into(row, sep, fields);
     if fields.len() != lay.columns {
-        return Err(Diagnostic::new(
-            name,
-            format!(
-                "line {line} has {} {}; the header names {} columns",
-                fields.len(),
-                if fields.len() == 1 { "value" } else { "values" },
-                lay.columns
-            ),
-        )
-        .with_hint("write one value per column on every row, separated like the header")
-        .at_line_col(line, 1));
+        return Err(width_error(fields.len(), lay.columns, line, name));
     }
     let (tc, ts, _) = lay.time;
     let (vc, vs, vo) = lay.temperature;
