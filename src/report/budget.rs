@@ -4,15 +4,17 @@ use std::io::{self, Write};
 
 use serde::Serialize;
 
-use super::json::BudgetJson;
+use super::json::{BudgetJson, LoadJson, ModeJson, StageJson};
 use super::rows::{CsvRow, write_rows};
 use super::text::{Align, TextTable};
 use super::{Format, caution_for, warnings, wrap, write_warnings};
 use crate::model::Design;
-use crate::solve::{ModeBudget, OperatingPoint, Solution, junction_c};
+use crate::solve::{ModeBudget, OperatingPoint, Solution};
 use crate::units::{fmt_celsius, fmt_eng, fmt_percent};
 
-/// Write the budget of `modes` at `soc` in `format`.
+/// Write the budget of `modes` at `soc` in `format`. The rows are built once
+/// ([`BudgetJson::new`]: the pack, each stage and each load of every mode); the JSON is those
+/// rows, the CSV a flat view of them ([`budget_csv_rows`]) and the text table reads them too.
 pub fn write_budget(
     w: &mut dyn Write,
     d: &Design,
@@ -20,13 +22,14 @@ pub fn write_budget(
     modes: &[ModeBudget],
     format: Format,
 ) -> io::Result<()> {
+    let rows = BudgetJson::new(d, soc, modes);
     match format {
         Format::Json => {
-            serde_json::to_writer_pretty(&mut *w, &BudgetJson::new(d, soc, modes))?;
+            serde_json::to_writer_pretty(&mut *w, &rows)?;
             writeln!(w)
         }
-        Format::Csv => write_rows(w, &budget_csv_rows(d, modes)),
-        Format::Table => write_table(w, d, soc, modes),
+        Format::Csv => write_rows(w, &budget_csv_rows(d, &rows)),
+        Format::Table => write_table(w, d, modes, &rows),
     }
 }
 
@@ -34,18 +37,24 @@ fn opt_eng(x: Option<f64>, unit: &str) -> String {
     x.map_or_else(|| "—".into(), |v| fmt_eng(v, unit))
 }
 
-fn write_table(w: &mut dyn Write, d: &Design, soc: f64, modes: &[ModeBudget]) -> io::Result<()> {
+/// The text table of the budget: a heading, then each mode from its rows (`rows.modes`, in the
+/// order of `modes`), then the warnings and the caution.
+fn write_table(
+    w: &mut dyn Write,
+    d: &Design,
+    modes: &[ModeBudget],
+    rows: &BudgetJson,
+) -> io::Result<()> {
     writeln!(w, "{}", d.title)?;
     writeln!(
         w,
         "budget at {} state of charge, {} ambient, polarization settled",
-        fmt_percent(soc),
+        fmt_percent(rows.soc),
         fmt_celsius(d.ambient_c)
     )?;
-    for m in modes {
-        let mode = &d.modes[m.mode];
+    for (m, mj) in modes.iter().zip(&rows.modes) {
         writeln!(w)?;
-        writeln!(w, "mode `{}`", mode.name)?;
+        writeln!(w, "mode `{}`", mj.mode)?;
         let p = match &m.solution {
             Solution::Collapse { ocv, resistance } => {
                 writeln!(
@@ -59,41 +68,7 @@ fn write_table(w: &mut dyn Write, d: &Design, soc: f64, modes: &[ModeBudget]) ->
             }
             Solution::Point(p) => p,
         };
-        let cutoff = d.pack.cutoff_v();
-        writeln!(
-            w,
-            "  pack  {} at {} (open circuit {}), {} out, {} lost inside{}",
-            fmt_eng(p.pack.current, "A"),
-            fmt_eng(p.pack.voltage, "V"),
-            fmt_eng(p.pack.ocv, "V"),
-            fmt_eng(p.pack.power(), "W"),
-            fmt_eng(p.pack.loss, "W"),
-            if p.pack.voltage < cutoff {
-                format!("; BELOW the {} pack cutoff", fmt_eng(cutoff, "V"))
-            } else {
-                String::new()
-            }
-        )?;
-        if !d.stages.is_empty() {
-            writeln!(w)?;
-            stage_table(d, p).write(w, "  ")?;
-        }
-        if !d.loads.is_empty() {
-            writeln!(w)?;
-            load_table(d, p).write(w, "  ")?;
-        }
-        if !m.violations.is_empty() {
-            writeln!(w)?;
-            writeln!(w, "  violations:")?;
-            for v in &m.violations {
-                writeln!(
-                    w,
-                    "  - {}: {}",
-                    v.kind.name(),
-                    super::violation_detail(d, v)
-                )?;
-            }
-        }
+        write_mode(w, d, p, mj)?;
     }
     writeln!(w)?;
     write_warnings(w, &warnings(d, d.ambient_c), 96)?;
@@ -103,8 +78,47 @@ fn write_table(w: &mut dyn Write, d: &Design, soc: f64, modes: &[ModeBudget]) ->
     Ok(())
 }
 
-/// The stages at operating point `p`: state, voltages, currents, loss, efficiency, junction.
-fn stage_table(d: &Design, p: &OperatingPoint) -> TextTable {
+/// One mode with an operating point `p` in the text table: the pack's line, the stage and load
+/// tables and the violations, from the mode's rows `mj`.
+fn write_mode(w: &mut dyn Write, d: &Design, p: &OperatingPoint, mj: &ModeJson) -> io::Result<()> {
+    let b = &mj.battery;
+    let cutoff = d.pack.cutoff_v();
+    let voltage = b.voltage_v.unwrap_or(b.open_circuit_v);
+    writeln!(
+        w,
+        "  pack  {} at {} (open circuit {}), {} out, {} lost inside{}",
+        opt_eng(b.current_a, "A"),
+        fmt_eng(voltage, "V"),
+        fmt_eng(b.open_circuit_v, "V"),
+        opt_eng(b.power_w, "W"),
+        opt_eng(b.loss_w, "W"),
+        if voltage < cutoff {
+            format!("; BELOW the {} pack cutoff", fmt_eng(cutoff, "V"))
+        } else {
+            String::new()
+        }
+    )?;
+    if !mj.stages.is_empty() {
+        writeln!(w)?;
+        stage_table(&mj.stages).write(w, "  ")?;
+    }
+    if !mj.loads.is_empty() {
+        writeln!(w)?;
+        load_table(d, p, &mj.loads).write(w, "  ")?;
+    }
+    if !mj.violations.is_empty() {
+        writeln!(w)?;
+        writeln!(w, "  violations:")?;
+        for v in &mj.violations {
+            writeln!(w, "  - {}: {}", v.kind, v.detail)?;
+        }
+    }
+    Ok(())
+}
+
+/// The stages of one mode from their rows: state, voltages, currents, loss, efficiency,
+/// junction.
+fn stage_table(rows: &[StageJson]) -> TextTable {
     let mut t = TextTable::new(&[
         ("stage", Align::Left),
         ("kind", Align::Left),
@@ -117,25 +131,26 @@ fn stage_table(d: &Design, p: &OperatingPoint) -> TextTable {
         ("eff", Align::Right),
         ("Tj", Align::Right),
     ]);
-    for (k, (s, sp)) in d.stages.iter().zip(&p.stages).enumerate() {
+    for s in rows {
         t.row(vec![
             s.id.clone(),
-            s.kind_name().into(),
-            sp.state.name().into(),
-            fmt_eng(sp.vin, "V"),
-            fmt_eng(sp.iin, "A"),
-            fmt_eng(sp.vout, "V"),
-            fmt_eng(sp.iout, "A"),
-            fmt_eng(sp.loss, "W"),
-            sp.efficiency().map_or_else(|| "—".into(), fmt_percent),
-            junction_c(d, k, sp.loss, d.ambient_c).map_or_else(|| "—".into(), fmt_celsius),
+            s.kind.clone(),
+            s.state.clone(),
+            fmt_eng(s.vin_v, "V"),
+            fmt_eng(s.iin_a, "A"),
+            fmt_eng(s.vout_v, "V"),
+            fmt_eng(s.iout_a, "A"),
+            fmt_eng(s.loss_w, "W"),
+            s.efficiency.map_or_else(|| "—".into(), fmt_percent),
+            s.junction_c.map_or_else(|| "—".into(), fmt_celsius),
         ]);
     }
     t
 }
 
-/// The loads at operating point `p`: rail, state, supply, current, power and a note.
-fn load_table(d: &Design, p: &OperatingPoint) -> TextTable {
+/// The loads of one mode from their rows: rail, state, supply, current, power and a note (the
+/// rail off, or the supply below the load's minimum, from the operating point `p`).
+fn load_table(d: &Design, p: &OperatingPoint, rows: &[LoadJson]) -> TextTable {
     let mut t = TextTable::new(&[
         ("load", Align::Left),
         ("rail", Align::Left),
@@ -145,21 +160,21 @@ fn load_table(d: &Design, p: &OperatingPoint) -> TextTable {
         ("P", Align::Right),
         ("note", Align::Left),
     ]);
-    for (l, lp) in d.loads.iter().zip(&p.loads) {
+    for ((l, lp), row) in d.loads.iter().zip(&p.loads).zip(rows) {
         let note = if !lp.live {
             "rail off".to_string()
-        } else if lp.state.is_some() && l.v_min.is_some_and(|v| lp.voltage < v) {
+        } else if lp.state.is_some() && l.v_min.is_some_and(|v| row.voltage_v < v) {
             format!("below its {} minimum", opt_eng(l.v_min, "V"))
         } else {
             String::new()
         };
         t.row(vec![
-            l.id.clone(),
+            row.id.clone(),
             d.rail_name(l.rail).into(),
-            l.state_name(lp.state).into(),
-            fmt_eng(lp.voltage, "V"),
-            fmt_eng(lp.current, "A"),
-            fmt_eng(lp.power, "W"),
+            row.state.clone(),
+            fmt_eng(row.voltage_v, "V"),
+            fmt_eng(row.current_a, "A"),
+            fmt_eng(row.power_w, "W"),
             note,
         ]);
     }
@@ -218,73 +233,68 @@ impl CsvRow for BudgetCsvRow {
     ];
 }
 
-/// The rows of `budget --format csv`.
-pub fn budget_csv_rows(d: &Design, modes: &[ModeBudget]) -> Vec<BudgetCsvRow> {
+/// The rows of `budget --format csv`: a flat view of the budget's rows `b` (one computation for
+/// the JSON, the CSV and the text table), the pack, each stage and each load of every mode.
+pub fn budget_csv_rows(d: &Design, b: &BudgetJson) -> Vec<BudgetCsvRow> {
+    let cutoff = d.pack.cutoff_v();
     let mut rows = Vec::new();
-    for m in modes {
-        let mode = d.modes[m.mode].name.clone();
-        let pack = |state: &str| BudgetCsvRow {
-            mode: mode.clone(),
-            element: "battery",
-            id: "battery".into(),
-            kind: "pack".into(),
-            state: state.into(),
+    for m in &b.modes {
+        rows.push(pack_csv_row(m, cutoff));
+        rows.extend(m.stages.iter().map(|s| BudgetCsvRow {
+            mode: m.mode.clone(),
+            element: "stage",
+            id: s.id.clone(),
+            kind: s.kind.clone(),
+            state: s.state.clone(),
+            vin_v: Some(s.vin_v),
+            iin_a: Some(s.iin_a),
+            vout_v: Some(s.vout_v),
+            iout_a: Some(s.iout_a),
+            power_w: Some(s.vout_v * s.iout_a),
+            loss_w: Some(s.loss_w),
+            efficiency: s.efficiency,
+            junction_c: s.junction_c,
+        }));
+        rows.extend(m.loads.iter().map(|l| BudgetCsvRow {
+            mode: m.mode.clone(),
+            element: "load",
+            id: l.id.clone(),
+            kind: "load".into(),
+            state: l.state.clone(),
+            vin_v: Some(l.voltage_v),
+            iin_a: Some(l.current_a),
+            power_w: Some(l.power_w),
             ..BudgetCsvRow::default()
-        };
-        let p = match &m.solution {
-            Solution::Collapse { ocv, .. } => {
-                rows.push(BudgetCsvRow {
-                    vin_v: Some(*ocv),
-                    ..pack("collapse")
-                });
-                continue;
-            }
-            Solution::Point(p) => p,
-        };
-        let state = if p.pack.voltage < d.pack.cutoff_v() {
-            "below_cutoff"
-        } else {
-            "ok"
-        };
-        rows.push(BudgetCsvRow {
-            vin_v: Some(p.pack.ocv),
-            iin_a: Some(p.pack.current),
-            vout_v: Some(p.pack.voltage),
-            iout_a: Some(p.pack.current),
-            power_w: Some(p.pack.power()),
-            loss_w: Some(p.pack.loss),
-            ..pack(state)
-        });
-        for (k, (s, sp)) in d.stages.iter().zip(&p.stages).enumerate() {
-            rows.push(BudgetCsvRow {
-                mode: mode.clone(),
-                element: "stage",
-                id: s.id.clone(),
-                kind: s.kind_name().into(),
-                state: sp.state.name().into(),
-                vin_v: Some(sp.vin),
-                iin_a: Some(sp.iin),
-                vout_v: Some(sp.vout),
-                iout_a: Some(sp.iout),
-                power_w: Some(sp.vout * sp.iout),
-                loss_w: Some(sp.loss),
-                efficiency: sp.efficiency(),
-                junction_c: junction_c(d, k, sp.loss, d.ambient_c),
-            });
-        }
-        for (l, lp) in d.loads.iter().zip(&p.loads) {
-            rows.push(BudgetCsvRow {
-                mode: mode.clone(),
-                element: "load",
-                id: l.id.clone(),
-                kind: "load".into(),
-                state: l.state_name(lp.state).into(),
-                vin_v: Some(lp.voltage),
-                iin_a: Some(lp.current),
-                power_w: Some(lp.power),
-                ..BudgetCsvRow::default()
-            });
-        }
+        }));
     }
     rows
+}
+
+/// The pack's CSV row of mode `m`: its state `collapse`, `below_cutoff` (under the pack's
+/// `cutoff`) or `ok`, its
+/// open-circuit voltage in `vin_v` and, with an operating point, its current in `iin_a` and
+/// `iout_a`, terminal voltage in `vout_v`, power and internal loss.
+fn pack_csv_row(m: &ModeJson, cutoff: f64) -> BudgetCsvRow {
+    let b = &m.battery;
+    let state = if m.collapse {
+        "collapse"
+    } else if b.voltage_v.is_some_and(|v| v < cutoff) {
+        "below_cutoff"
+    } else {
+        "ok"
+    };
+    BudgetCsvRow {
+        mode: m.mode.clone(),
+        element: "battery",
+        id: "battery".into(),
+        kind: "pack".into(),
+        state: state.into(),
+        vin_v: Some(b.open_circuit_v),
+        iin_a: b.current_a,
+        vout_v: b.voltage_v,
+        iout_a: b.current_a,
+        power_w: b.power_w,
+        loss_w: b.loss_w,
+        ..BudgetCsvRow::default()
+    }
 }
