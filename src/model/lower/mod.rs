@@ -28,7 +28,7 @@ use crate::hash::FastMap;
 use crate::spec::{
     AmbientSpec, CellRef, CellSpec, ChemistrySpec, DesignSpec, DrawSpec, Efficiency,
     LedTopologySpec, Partial, Qty, QuiescentFromSpec, ResistanceSpec, SourceMap, StageKindSpec,
-    StageSpec, StepSpec, backticked,
+    StageSpec, StepSpec, VinCurveSpec, backticked,
 };
 use crate::tree::{MAX_DEPTH, Tree, TreeError};
 use crate::units::{Dim, Quantity, fmt_eng, fmt_percent, parse_quantity, physical};

@@ -78,6 +78,8 @@ impl Lower<'_> {
         }
     }
 
+    /// Stage `s` at `path` checked into the model: every key it has is read and checked (each
+    /// problem reported, in the order of the keys below), none if any is wrong.
     pub(super) fn stage(&mut self, s: &StageSpec, path: &str) -> Option<Stage> {
         let kind = match s.kind {
             StageKindSpec::Buck => StageKind::Buck,
@@ -91,7 +93,69 @@ impl Lower<'_> {
         let kn = if led { "LED driver" } else { kind.name() };
         let before = self.diags.len();
         let led_current = self.led_driver_keys(s, path, led.then_some(kind), kn);
-        let setpoint = match (&s.output, kind) {
+        let setpoint = self.setpoint(s, path, kind, led, kn);
+        let loss = self.loss_model(s, kind, path);
+        let supply = self.stage_supply(s, path);
+        self.keys_of_kind(s, path, kind, led, kn);
+        let paths = self.stage_paths(s, path, kind, led);
+        let theta = self.opt(
+            s.theta_ja.as_ref(),
+            format_args!("{path}.theta_ja"),
+            Dim::ThermalResistance,
+            Bound::AboveZero,
+        );
+        let tj_max = self.opt(
+            s.tj_max.as_ref(),
+            format_args!("{path}.tj_max"),
+            Dim::Temperature,
+            Bound::Any,
+        );
+        if s.id.trim().is_empty() {
+            self.err(
+                &format!("{path}.id"),
+                "the id is empty",
+                Some("give the stage a short name such as `buck-3v3`".into()),
+            );
+        }
+        if self.diags.len() > before {
+            return None;
+        }
+        let (supply, paths) = (supply?, paths?);
+        Some(Stage {
+            id: s.id.clone(),
+            kind,
+            input: 0,
+            setpoint: setpoint?,
+            loss: loss?,
+            quiescent: supply.quiescent,
+            shutdown: supply.shutdown,
+            input_min: supply.input_min,
+            input_max: supply.input_max,
+            max_output_current: supply.max_output_current,
+            input_current_limit: paths.input_current_limit,
+            dropout: paths.dropout,
+            bypass_drop: paths.bypass_drop,
+            bypass_resistance: paths.bypass_resistance,
+            quiescent_from_output: s.quiescent_from == Some(QuiescentFromSpec::Output),
+            on_resistance: paths.on_resistance,
+            theta_ja: theta?,
+            tj_max: tj_max?.unwrap_or(125.0),
+            led_current: led_current?,
+        })
+    }
+
+    /// The output setpoint of stage `s` (a `kind` stage, `kn` in messages): its `output`, 0 for
+    /// a switch (whose output follows its input) and for an LED driver (set from its LEDs'
+    /// voltage once the loads are known); none after an error.
+    fn setpoint(
+        &mut self,
+        s: &StageSpec,
+        path: &str,
+        kind: StageKind,
+        led: bool,
+        kn: &str,
+    ) -> Option<f64> {
+        match (&s.output, kind) {
             // Set from the LED string's voltage at the set current, once the loads are known.
             (None, _) if led => Some(0.0),
             (Some(_), _) if led => {
@@ -125,8 +189,13 @@ impl Lower<'_> {
                 );
                 None
             }
-        };
-        let loss = self.loss_model(s, kind, path);
+        }
+    }
+
+    /// The keys of stage `s` every kind takes that bound its supply: `quiescent`, `shutdown`
+    /// (0 when absent), `input_range` and `max_output_current`; none after an error (every key
+    /// is still checked).
+    fn stage_supply(&mut self, s: &StageSpec, path: &str) -> Option<StageSupply> {
         let quiescent = self.opt(
             s.quiescent.as_ref(),
             format_args!("{path}.quiescent"),
@@ -146,10 +215,20 @@ impl Lower<'_> {
             Dim::Current,
             Bound::AboveZero,
         );
-        let dropout_default = match kind {
-            StageKind::Linear => 0.2,
-            _ => 0.1,
-        };
+        let (input_min, input_max) = range?;
+        Some(StageSupply {
+            quiescent: quiescent?.unwrap_or(0.0),
+            shutdown: shutdown?.unwrap_or(0.0),
+            input_min,
+            input_max,
+            max_output_current: max_out?,
+        })
+    }
+
+    /// Refuse each key stage `s` has that its kind does not take (`dropout`, `bypass_drop`,
+    /// `on_resistance`, `bypass_resistance`, `quiescent_from`, `input_current_limit`), with the
+    /// kinds that take it.
+    fn keys_of_kind(&mut self, s: &StageSpec, path: &str, kind: StageKind, led: bool, kn: &str) {
         let takes_dropout = matches!(kind, StageKind::Buck | StageKind::Linear) && !led;
         self.not_for(
             !takes_dropout && s.dropout.is_some(),
@@ -162,41 +241,50 @@ impl Lower<'_> {
                 "buck and linear stages"
             },
         );
-        self.not_for(
-            kind != StageKind::Boost && s.bypass_drop.is_some(),
-            path,
-            "bypass_drop",
-            kn,
-            "boost stages",
-        );
-        self.not_for(
-            kind != StageKind::Switch && s.on_resistance.is_some(),
-            path,
-            "on_resistance",
-            kn,
-            "switch stages",
-        );
-        self.not_for(
-            kind != StageKind::Boost && s.bypass_resistance.is_some(),
-            path,
-            "bypass_resistance",
-            kn,
-            "boost stages",
-        );
-        self.not_for(
-            !kind.is_switching() && s.quiescent_from.is_some(),
-            path,
-            "quiescent_from",
-            kn,
-            "switching stages (buck, boost, buck-boost)",
-        );
-        self.not_for(
-            !kind.is_switching() && s.input_current_limit.is_some(),
-            path,
-            "input_current_limit",
-            kn,
-            "switching stages (buck, boost, buck-boost)",
-        );
+        let switching = "switching stages (buck, boost, buck-boost)";
+        for (present, key, which) in [
+            (
+                kind != StageKind::Boost && s.bypass_drop.is_some(),
+                "bypass_drop",
+                "boost stages",
+            ),
+            (
+                kind != StageKind::Switch && s.on_resistance.is_some(),
+                "on_resistance",
+                "switch stages",
+            ),
+            (
+                kind != StageKind::Boost && s.bypass_resistance.is_some(),
+                "bypass_resistance",
+                "boost stages",
+            ),
+            (
+                !kind.is_switching() && s.quiescent_from.is_some(),
+                "quiescent_from",
+                switching,
+            ),
+            (
+                !kind.is_switching() && s.input_current_limit.is_some(),
+                "input_current_limit",
+                switching,
+            ),
+        ] {
+            self.not_for(present, path, key, kn, which);
+        }
+    }
+
+    /// The keys of stage `s` of `kind` that shape its current path: `input_current_limit`,
+    /// `bypass_resistance`, `dropout` (an LED driver's `headroom`; 0.2 V for a linear stage,
+    /// 0.1 V for the others by default), `bypass_drop` (0.4 V, or 0 for a synchronous bypass
+    /// given by `bypass_resistance` alone) and `on_resistance` (which a switch needs); none
+    /// after an error (every key is still checked).
+    fn stage_paths(
+        &mut self,
+        s: &StageSpec,
+        path: &str,
+        kind: StageKind,
+        led: bool,
+    ) -> Option<StagePaths> {
         let input_limit = self.opt(
             s.input_current_limit.as_ref(),
             format_args!("{path}.input_current_limit"),
@@ -209,21 +297,17 @@ impl Lower<'_> {
             Dim::Resistance,
             Bound::AtLeastZero,
         );
-        let dropout = if led {
-            self.opt(
-                s.headroom.as_ref(),
-                format_args!("{path}.headroom"),
-                Dim::Voltage,
-                Bound::AtLeastZero,
-            )
+        let (dropout_key, dropout_q) = if led {
+            ("headroom", s.headroom.as_ref())
         } else {
-            self.opt(
-                s.dropout.as_ref(),
-                format_args!("{path}.dropout"),
-                Dim::Voltage,
-                Bound::AtLeastZero,
-            )
+            ("dropout", s.dropout.as_ref())
         };
+        let dropout = self.opt(
+            dropout_q,
+            format_args!("{path}.{dropout_key}"),
+            Dim::Voltage,
+            Bound::AtLeastZero,
+        );
         let bypass = self.opt(
             s.bypass_drop.as_ref(),
             format_args!("{path}.bypass_drop"),
@@ -246,41 +330,10 @@ impl Lower<'_> {
                 Bound::AtLeastZero,
             ),
         };
-        let theta = self.opt(
-            s.theta_ja.as_ref(),
-            format_args!("{path}.theta_ja"),
-            Dim::ThermalResistance,
-            Bound::AboveZero,
-        );
-        let tj_max = self.opt(
-            s.tj_max.as_ref(),
-            format_args!("{path}.tj_max"),
-            Dim::Temperature,
-            Bound::Any,
-        );
-        if s.id.trim().is_empty() {
-            self.err(
-                &format!("{path}.id"),
-                "the id is empty",
-                Some("give the stage a short name such as `buck-3v3`".into()),
-            );
-        }
-        if self.diags.len() > before {
-            return None;
-        }
-        let (input_min, input_max) = range?;
-        Some(Stage {
-            id: s.id.clone(),
-            kind,
-            input: 0,
-            setpoint: setpoint?,
-            loss: loss?,
-            quiescent: quiescent?.unwrap_or(0.0),
-            shutdown: shutdown?.unwrap_or(0.0),
-            input_min,
-            input_max,
-            max_output_current: max_out?,
+        let dropout_default = if kind == StageKind::Linear { 0.2 } else { 0.1 };
+        Some(StagePaths {
             input_current_limit: input_limit?,
+            bypass_resistance: bypass_r?.unwrap_or(0.0),
             dropout: dropout?.unwrap_or(dropout_default),
             // A synchronous pass-through (`bypass_resistance` alone) has no diode drop.
             bypass_drop: bypass?.unwrap_or(if s.bypass_resistance.is_some() {
@@ -288,12 +341,7 @@ impl Lower<'_> {
             } else {
                 0.4
             }),
-            bypass_resistance: bypass_r?.unwrap_or(0.0),
-            quiescent_from_output: s.quiescent_from == Some(QuiescentFromSpec::Output),
             on_resistance: ron?.unwrap_or(0.0),
-            theta_ja: theta?,
-            tj_max: tj_max?.unwrap_or(125.0),
-            led_current: led_current?,
         })
     }
 
@@ -340,6 +388,9 @@ impl Lower<'_> {
         .map(Some)
     }
 
+    /// The loss model of stage `s` of `kind`: none for a linear stage or a switch (which take no
+    /// `efficiency` or `loss`), else exactly one of `loss` (drop and resistance terms) and
+    /// `efficiency` (a constant, a curve or curves per input voltage); none after an error.
     pub(super) fn loss_model(
         &mut self,
         s: &StageSpec,
@@ -410,44 +461,48 @@ impl Lower<'_> {
                 let c = self.curve(rows, &format!("{path}.efficiency"))?;
                 Some(LossModel::Curves(vec![(None, c)]))
             }
-            (Some(Efficiency::PerVin(list)), None) => {
-                let mut curves = Vec::new();
-                for (i, vc) in list.iter().enumerate() {
-                    let p = format!("{path}.efficiency[{i}]");
-                    let v = self.value(
-                        &vc.vin,
-                        format_args!("{p}.vin"),
-                        Dim::Voltage,
-                        Bound::AboveZero,
-                    );
-                    let c = self.curve(&vc.curve, &format!("{p}.curve"));
-                    if let (Some(v), Some(c)) = (v, c) {
-                        curves.push((Some(v), c));
-                    }
-                }
-                if curves.len() != list.len() {
-                    return None;
-                }
-                if curves.is_empty() {
-                    self.err(
-                        &format!("{path}.efficiency"),
-                        "the list of efficiency curves is empty",
-                        Some("give at least one `{ vin: 3 V, curve: [[1 mA, 75 %], [100 mA, 90 %]] }`, or a constant such as `90 %`".into()),
-                    );
-                    return None;
-                }
-                curves.sort_by(|a, b| a.0.unwrap_or(0.0).total_cmp(&b.0.unwrap_or(0.0)));
-                if curves.windows(2).any(|w| w[0].0 == w[1].0) {
-                    self.err(
-                        &format!("{path}.efficiency"),
-                        "two efficiency curves are at the same input voltage",
-                        Some("keep one curve per `vin`".into()),
-                    );
-                    return None;
-                }
-                Some(LossModel::Curves(curves))
+            (Some(Efficiency::PerVin(list)), None) => self.per_vin_curves(list, path),
+        }
+    }
+
+    /// Efficiency curves per input voltage (`efficiency: [{ vin, curve }, ...]`) of the stage at
+    /// `path`, sorted by `vin`: at least one, each at its own input voltage.
+    fn per_vin_curves(&mut self, list: &[VinCurveSpec], path: &str) -> Option<LossModel> {
+        let mut curves = Vec::new();
+        for (i, vc) in list.iter().enumerate() {
+            let p = format!("{path}.efficiency[{i}]");
+            let v = self.value(
+                &vc.vin,
+                format_args!("{p}.vin"),
+                Dim::Voltage,
+                Bound::AboveZero,
+            );
+            let c = self.curve(&vc.curve, &format!("{p}.curve"));
+            if let (Some(v), Some(c)) = (v, c) {
+                curves.push((Some(v), c));
             }
         }
+        if curves.len() != list.len() {
+            return None;
+        }
+        if curves.is_empty() {
+            self.err(
+                &format!("{path}.efficiency"),
+                "the list of efficiency curves is empty",
+                Some("give at least one `{ vin: 3 V, curve: [[1 mA, 75 %], [100 mA, 90 %]] }`, or a constant such as `90 %`".into()),
+            );
+            return None;
+        }
+        curves.sort_by(|a, b| a.0.unwrap_or(0.0).total_cmp(&b.0.unwrap_or(0.0)));
+        if curves.windows(2).any(|w| w[0].0 == w[1].0) {
+            self.err(
+                &format!("{path}.efficiency"),
+                "two efficiency curves are at the same input voltage",
+                Some("keep one curve per `vin`".into()),
+            );
+            return None;
+        }
+        Some(LossModel::Curves(curves))
     }
 
     pub(super) fn curve(&mut self, rows: &[Vec<Qty>], path: &str) -> Option<EffCurve> {
@@ -506,4 +561,22 @@ fn led_topology(s: &StageSpec) -> StageKind {
         Some(LedTopologySpec::Boost) => StageKind::Boost,
         Some(LedTopologySpec::BuckBoost) => StageKind::BuckBoost,
     }
+}
+
+/// A stage's supply keys, checked (`Lower::stage_supply`).
+struct StageSupply {
+    quiescent: f64,
+    shutdown: f64,
+    input_min: Option<f64>,
+    input_max: Option<f64>,
+    max_output_current: Option<f64>,
+}
+
+/// A stage's current-path keys, checked, defaults applied (`Lower::stage_paths`).
+struct StagePaths {
+    input_current_limit: Option<f64>,
+    bypass_resistance: f64,
+    dropout: f64,
+    bypass_drop: f64,
+    on_resistance: f64,
 }
