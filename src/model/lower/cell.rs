@@ -140,109 +140,10 @@ impl Lower<'_> {
 
     /// A cell from its own keys (a custom cell, or a preset merged with its overrides).
     pub(super) fn custom_cell(&mut self, name: &str, c: &CellSpec, path: &str) -> Option<Cell> {
-        let missing = |lw: &mut Self, key: &str, example: &str| {
-            lw.err(
-                path,
-                format!("cell `{name}` has no `{key}`"),
-                Some(format!("add `{key}: {example}`")),
-            );
-        };
-        let ocv = match &c.ocv {
-            Some(rows) => {
-                let t =
-                    self.soc_table(rows, &format!("{path}.ocv"), Dim::Voltage, Bound::AboveZero);
-                if let Some(t) = &t {
-                    if !t.is_non_decreasing() {
-                        self.err(
-                            &format!("{path}.ocv"),
-                            format!("the open-circuit voltage of cell `{name}` falls as the state of charge rises"),
-                            Some("check the rows for a typing error: OCV must not fall from one SoC to a higher one".into()),
-                        );
-                        return None;
-                    }
-                }
-                t
-            }
-            None => {
-                missing(self, "ocv", "[[0 %, 3.0 V], [100 %, 4.2 V]]");
-                None
-            }
-        };
-        let capacity = match &c.capacity {
-            Some(q) => {
-                match self.quantity(
-                    q,
-                    format_args!("{path}.capacity"),
-                    &[Dim::Charge, Dim::Energy],
-                ) {
-                    Some(v) if v.value() > 0.0 => Some(v),
-                    Some(_) => {
-                        self.err(
-                            &format!("{path}.capacity"),
-                            "the capacity must be above zero",
-                            Some("give the rated capacity, such as `600 mAh` or `2.2 Wh`".into()),
-                        );
-                        None
-                    }
-                    None => None,
-                }
-            }
-            None => {
-                missing(self, "capacity", "600 mAh");
-                None
-            }
-        };
-        // A capacity in Wh becomes charge through the mean OCV over the full range.
-        let capacity_c = match (capacity, &ocv) {
-            (Some(q), _) if q.dim() == Dim::Charge => Some(q.value()),
-            (Some(q), Some(t)) => Some(q.value() / t.mean(0.0, 1.0)),
-            _ => None,
-        };
-        let resistance = match &c.resistance {
-            Some(ResistanceSpec::Constant(q)) => self
-                .value(
-                    q,
-                    format_args!("{path}.resistance"),
-                    Dim::Resistance,
-                    Bound::AtLeastZero,
-                )
-                .map(Table::constant),
-            Some(ResistanceSpec::Table(rows)) => self.soc_table(
-                rows,
-                &format!("{path}.resistance"),
-                Dim::Resistance,
-                Bound::AtLeastZero,
-            ),
-            None => {
-                missing(self, "resistance", "150 mΩ");
-                None
-            }
-        };
-        let cutoff = match &c.cutoff {
-            Some(q) => self.value(
-                q,
-                format_args!("{path}.cutoff"),
-                Dim::Voltage,
-                Bound::AboveZero,
-            ),
-            None => {
-                missing(self, "cutoff", "3.0 V");
-                None
-            }
-        };
-        if let (Some(cut), Some(t)) = (cutoff, &ocv) {
-            if cut >= t.at(1.0) {
-                self.err(
-                    &format!("{path}.cutoff"),
-                    format!(
-                        "the cutoff {} is not below the full-charge OCV {}",
-                        fmt_eng(cut, "V"),
-                        fmt_eng(t.at(1.0), "V")
-                    ),
-                    Some("the cutoff is the end-of-discharge voltage under load".into()),
-                );
-            }
-        }
+        let ocv = self.cell_ocv(name, c, path)?;
+        let capacity_c = self.cell_capacity(name, c, path, ocv.as_ref());
+        let resistance = self.cell_resistance(name, c, path);
+        let cutoff = self.cell_cutoff(name, c, path, ocv.as_ref());
         let rated = match (&c.rated_current, capacity_c) {
             (Some(q), _) => self.value(
                 q,
@@ -255,39 +156,8 @@ impl Lower<'_> {
             }
             (None, None) => None,
         };
-        let polarization = match &c.polarization {
-            None => Some(None),
-            Some(p) => {
-                let r = self.value(
-                    &p.resistance,
-                    format_args!("{path}.polarization.resistance"),
-                    Dim::Resistance,
-                    Bound::AtLeastZero,
-                );
-                let tau = self.value(
-                    &p.time_constant,
-                    format_args!("{path}.polarization.time_constant"),
-                    Dim::Time,
-                    Bound::AboveZero,
-                );
-                r.zip(tau).map(Some)
-            }
-        };
-        let peukert = match &c.peukert {
-            None => Some(1.0),
-            Some(q) => match self.quantity(q, format_args!("{path}.peukert"), &[Dim::Number]) {
-                Some(k) if (1.0..=2.0).contains(&k.value()) => Some(k.value()),
-                Some(_) => {
-                    self.err(
-                        &format!("{path}.peukert"),
-                        format!("the Peukert exponent `{}` is outside [1, 2]", q.text()),
-                        Some("typical values are 1.0 to 1.3; 1 means no rate effect".into()),
-                    );
-                    None
-                }
-                None => None,
-            },
-        };
+        let polarization = self.polarization(c, path);
+        let peukert = self.peukert(c, path);
         let rate_window = self.opt(
             c.rate_window.as_ref(),
             format_args!("{path}.rate_window"),
@@ -335,6 +205,181 @@ impl Lower<'_> {
             mass_kg: mass?,
             size: size?,
         })
+    }
+
+    /// Report that cell `name` at `path` lacks `key`, with an `example` value to add.
+    fn missing_key(&mut self, path: &str, name: &str, key: &str, example: &str) {
+        self.err(
+            path,
+            format!("cell `{name}` has no `{key}`"),
+            Some(format!("add `{key}: {example}`")),
+        );
+    }
+
+    /// Cell `name`'s open-circuit voltage table (`ocv`, required): `Some(None)` when missing or
+    /// unreadable; `None` when it falls as the state of charge rises, which stops the cell's
+    /// checks.
+    #[allow(clippy::option_option)]
+    fn cell_ocv(&mut self, name: &str, c: &CellSpec, path: &str) -> Option<Option<Table>> {
+        let Some(rows) = &c.ocv else {
+            self.missing_key(path, name, "ocv", "[[0 %, 3.0 V], [100 %, 4.2 V]]");
+            return Some(None);
+        };
+        let t = self.soc_table(rows, &format!("{path}.ocv"), Dim::Voltage, Bound::AboveZero);
+        if let Some(t) = &t {
+            if !t.is_non_decreasing() {
+                self.err(
+                    &format!("{path}.ocv"),
+                    format!("the open-circuit voltage of cell `{name}` falls as the state of charge rises"),
+                    Some("check the rows for a typing error: OCV must not fall from one SoC to a higher one".into()),
+                );
+                return None;
+            }
+        }
+        Some(t)
+    }
+
+    /// Cell `name`'s capacity as charge, C (`capacity`, required, above zero): a capacity in Wh
+    /// becomes charge through the mean of `ocv` over the full range.
+    fn cell_capacity(
+        &mut self,
+        name: &str,
+        c: &CellSpec,
+        path: &str,
+        ocv: Option<&Table>,
+    ) -> Option<f64> {
+        let capacity = match &c.capacity {
+            Some(q) => {
+                match self.quantity(
+                    q,
+                    format_args!("{path}.capacity"),
+                    &[Dim::Charge, Dim::Energy],
+                ) {
+                    Some(v) if v.value() > 0.0 => Some(v),
+                    Some(_) => {
+                        self.err(
+                            &format!("{path}.capacity"),
+                            "the capacity must be above zero",
+                            Some("give the rated capacity, such as `600 mAh` or `2.2 Wh`".into()),
+                        );
+                        None
+                    }
+                    None => None,
+                }
+            }
+            None => {
+                self.missing_key(path, name, "capacity", "600 mAh");
+                None
+            }
+        };
+        match (capacity, ocv) {
+            (Some(q), _) if q.dim() == Dim::Charge => Some(q.value()),
+            (Some(q), Some(t)) => Some(q.value() / t.mean(0.0, 1.0)),
+            _ => None,
+        }
+    }
+
+    /// Cell `name`'s internal resistance (`resistance`, required): a constant or a table against
+    /// the state of charge.
+    fn cell_resistance(&mut self, name: &str, c: &CellSpec, path: &str) -> Option<Table> {
+        match &c.resistance {
+            Some(ResistanceSpec::Constant(q)) => self
+                .value(
+                    q,
+                    format_args!("{path}.resistance"),
+                    Dim::Resistance,
+                    Bound::AtLeastZero,
+                )
+                .map(Table::constant),
+            Some(ResistanceSpec::Table(rows)) => self.soc_table(
+                rows,
+                &format!("{path}.resistance"),
+                Dim::Resistance,
+                Bound::AtLeastZero,
+            ),
+            None => {
+                self.missing_key(path, name, "resistance", "150 mΩ");
+                None
+            }
+        }
+    }
+
+    /// Cell `name`'s cutoff voltage (`cutoff`, required), which must be below the full-charge
+    /// voltage of `ocv` (a cutoff at or above it is reported but still returned).
+    fn cell_cutoff(
+        &mut self,
+        name: &str,
+        c: &CellSpec,
+        path: &str,
+        ocv: Option<&Table>,
+    ) -> Option<f64> {
+        let cutoff = match &c.cutoff {
+            Some(q) => self.value(
+                q,
+                format_args!("{path}.cutoff"),
+                Dim::Voltage,
+                Bound::AboveZero,
+            ),
+            None => {
+                self.missing_key(path, name, "cutoff", "3.0 V");
+                None
+            }
+        };
+        if let (Some(cut), Some(t)) = (cutoff, ocv) {
+            if cut >= t.at(1.0) {
+                self.err(
+                    &format!("{path}.cutoff"),
+                    format!(
+                        "the cutoff {} is not below the full-charge OCV {}",
+                        fmt_eng(cut, "V"),
+                        fmt_eng(t.at(1.0), "V")
+                    ),
+                    Some("the cutoff is the end-of-discharge voltage under load".into()),
+                );
+            }
+        }
+        cutoff
+    }
+
+    /// A cell's polarization branch (`polarization: { resistance, time_constant }`): `Some(None)`
+    /// without one, none after an error.
+    #[allow(clippy::option_option)]
+    fn polarization(&mut self, c: &CellSpec, path: &str) -> Option<Option<(f64, f64)>> {
+        let Some(p) = &c.polarization else {
+            return Some(None);
+        };
+        let r = self.value(
+            &p.resistance,
+            format_args!("{path}.polarization.resistance"),
+            Dim::Resistance,
+            Bound::AtLeastZero,
+        );
+        let tau = self.value(
+            &p.time_constant,
+            format_args!("{path}.polarization.time_constant"),
+            Dim::Time,
+            Bound::AboveZero,
+        );
+        r.zip(tau).map(Some)
+    }
+
+    /// A cell's Peukert exponent (`peukert`, 1 by default, within [1, 2]).
+    fn peukert(&mut self, c: &CellSpec, path: &str) -> Option<f64> {
+        let Some(q) = &c.peukert else {
+            return Some(1.0);
+        };
+        match self.quantity(q, format_args!("{path}.peukert"), &[Dim::Number]) {
+            Some(k) if (1.0..=2.0).contains(&k.value()) => Some(k.value()),
+            Some(_) => {
+                self.err(
+                    &format!("{path}.peukert"),
+                    format!("the Peukert exponent `{}` is outside [1, 2]", q.text()),
+                    Some("typical values are 1.0 to 1.3; 1 means no rate effect".into()),
+                );
+                None
+            }
+            None => None,
+        }
     }
 
     /// A cell's pulse limit: `max_pulse_current` with its `max_pulse_length`, both or neither,
