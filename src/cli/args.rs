@@ -41,246 +41,294 @@ pub enum FormatArg {
 #[derive(Debug, Subcommand)]
 pub enum Command {
     /// Check a design file and print its power tree.
-    Check {
-        /// The design file (YAML).
-        file: PathBuf,
-    },
+    Check(CheckArgs),
     /// The operating point of every mode: pack, stages and loads.
-    Budget {
-        /// The design file (YAML).
-        file: PathBuf,
-        /// Override one value of the design, e.g. `--set battery.parallel=2` or
-        /// `--set loads.radio.draw.tx="90 mA"` (list items by id); may be repeated.
-        #[arg(long = "set", value_name = "PATH=VALUE")]
-        sets: Vec<String>,
-        /// State of charge of the pack (default: the design's `battery.start`), e.g. `30%` or 0.3.
-        #[arg(long, value_parser = parse_soc)]
-        soc: Option<f64>,
-        /// Only this mode.
-        #[arg(long)]
-        mode: Option<String>,
-        /// Output format.
-        #[arg(long, value_enum, default_value_t = FormatArg::Table)]
-        format: FormatArg,
-        /// Write to this file instead of standard output.
-        #[arg(short = 'o', long = "output")]
-        output: Option<PathBuf>,
-    },
+    Budget(BudgetArgs),
     /// How long the product runs in the way it is used, why it stops, and where the energy goes.
-    Runtime {
-        /// The design file (YAML).
-        file: PathBuf,
-        /// Override one value of the design, e.g. `--set battery.parallel=2` or
-        /// `--set loads.radio.draw.tx="90 mA"` (list items by id); may be repeated.
-        #[arg(long = "set", value_name = "PATH=VALUE")]
-        sets: Vec<String>,
-        #[command(flatten)]
-        run: RunArgs,
-        /// Add a decimated time series (t, SoC, OCV, V, I) that keeps the pulses' lowest voltages:
-        /// with `--format json` beside the result, with `--format csv` alone (a table leaves it out).
-        #[arg(long)]
-        trace: bool,
-        /// Output format.
-        #[arg(long, value_enum, default_value_t = FormatArg::Table)]
-        format: FormatArg,
-        /// Write to this file instead of standard output.
-        #[arg(short = 'o', long = "output")]
-        output: Option<PathBuf>,
-    },
+    Runtime(RuntimeArgs),
     /// The stages and the pack ranked by the energy they turn into heat over the runtime.
-    Heat {
-        /// The design file (YAML).
-        file: PathBuf,
-        /// Override one value of the design, e.g. `--set battery.parallel=2` or
-        /// `--set loads.radio.draw.tx="90 mA"` (list items by id); may be repeated.
-        #[arg(long = "set", value_name = "PATH=VALUE")]
-        sets: Vec<String>,
-        #[command(flatten)]
-        run: RunArgs,
-        /// Output format.
-        #[arg(long, value_enum, default_value_t = FormatArg::Table)]
-        format: FormatArg,
-        /// Write to this file instead of standard output.
-        #[arg(short = 'o', long = "output")]
-        output: Option<PathBuf>,
-    },
+    Heat(HeatArgs),
     /// Runtime across units: a Monte Carlo over the design's `tolerances:` (percentiles, the
     /// share reaching a target, why units stop, what moves the runtime most, the corners).
-    Spread {
-        /// The design file (YAML), with a `tolerances:` block.
-        file: PathBuf,
-        /// Override one value of the design (as for `runtime`); may be repeated.
-        #[arg(long = "set", value_name = "PATH=VALUE")]
-        sets: Vec<String>,
-        #[command(flatten)]
-        run: RunArgs,
-        /// Number of simulated units.
-        #[arg(long, default_value_t = 1000, value_parser = clap::value_parser!(u32).range(1..=1_000_000))]
-        samples: u32,
-        /// Seed of the random draws: the same seed gives the same numbers on any machine and
-        /// any number of cores.
-        #[arg(long, default_value_t = 1)]
-        seed: u64,
-        /// The life every unit should reach, e.g. `2 y` or `90 d`: the share that does is shown.
-        #[arg(long, value_parser = parse_duration)]
-        target: Option<f64>,
-        /// Also run the worst and best case: every value at the bound that shortens (resp.
-        /// lengthens) the runtime.
-        #[arg(long)]
-        corners: bool,
-        /// Output format (CSV: one row per simulated unit, its runtime, end and values).
-        #[arg(long, value_enum, default_value_t = FormatArg::Table)]
-        format: FormatArg,
-        /// Write to this file instead of standard output.
-        #[arg(short = 'o', long = "output")]
-        output: Option<PathBuf>,
-        #[command(flatten)]
-        pictures: SpreadPictures,
-    },
+    Spread(SpreadArgs),
     /// The built-in cell presets, or one of them in full.
-    Cells {
-        /// A preset to show in full: every parameter, its OCV curve and where its values come from.
-        name: Option<String>,
-        /// Output format (JSON and CSV give the summary: chemistry, designated nominal voltage,
-        /// mean open-circuit voltage, capacity, energy, cutoff).
-        #[arg(long, value_enum, default_value_t = FormatArg::Table)]
-        format: FormatArg,
-        /// Write to this file instead of standard output.
-        #[arg(short = 'o', long = "output")]
-        output: Option<PathBuf>,
-    },
+    Cells(CellsArgs),
     /// The runtime analysis of several designs side by side, and which one wins.
     ///
     /// Each `--set` applies to the file before it (one before every file applies to all), so one
     /// file can be compared with its variants: `compare a.yaml a.yaml --set battery.parallel=2`.
-    Compare {
-        /// The design files, each optionally followed by its own `--set` overrides.
-        #[arg(required = true, num_args = 1..)]
-        files: Vec<PathBuf>,
-        /// Override one value of the design file before it; may be repeated.
-        #[arg(long = "set", value_name = "PATH=VALUE")]
-        sets: Vec<String>,
-        #[command(flatten)]
-        run: RunArgs,
-        /// A chart of every design's discharge (SVG or PNG, by the extension).
-        #[arg(long)]
-        plot: Option<PathBuf>,
-        /// Output format.
-        #[arg(long, value_enum, default_value_t = FormatArg::Table)]
-        format: FormatArg,
-        /// Write to this file instead of standard output.
-        #[arg(short = 'o', long = "output")]
-        output: Option<PathBuf>,
-        /// The files with their own overrides, from where each `--set` stands on the command line
-        /// (filled in by `cli::parse`).
-        #[arg(skip)]
-        groups: Vec<Group>,
-    },
+    Compare(CompareArgs),
     /// A cell fitted from datasheet discharge curves, printed as a `cells:` block.
-    FitCell {
-        /// A discharge curve at a constant current: `CURRENT:FILE`, e.g. `"200 mA:low.csv"`; the
-        /// CSV has a header naming each column's quantity and unit (`capacity [mAh]`,
-        /// `voltage [V]`). Two or more curves.
-        #[arg(long = "curve", value_name = "CURRENT:FILE", required = true)]
-        curves: Vec<String>,
-        /// Name of the fitted cell (default `fitted-cell`).
-        #[arg(long)]
-        name: Option<String>,
-        /// Current of the capacity rating (default the lowest curve current), e.g. `200 mA`.
-        #[arg(long)]
-        rated_current: Option<String>,
-        /// End-of-discharge voltage (default the lowest final voltage of the curves), e.g. `3.0 V`.
-        #[arg(long)]
-        cutoff: Option<String>,
-        /// Output format: table (YAML block and report), json (the cell and the report) or csv
-        /// (the fitted table, a row per state of charge).
-        #[arg(long, value_enum, default_value_t = FormatArg::Table)]
-        format: FormatArg,
-        /// Write to this file instead of standard output.
-        #[arg(short = 'o', long = "output")]
-        output: Option<PathBuf>,
-    },
+    FitCell(FitCellArgs),
     /// A measured current capture (CSV of time and current): its duration, mean, RMS and peak
     /// current, charge per event, the segments a design runs it as, and a suggested `modes:`
     /// block.
-    Capture {
-        /// The capture: a header naming each column's quantity and unit (`time [ms]`,
-        /// `current [mA]`, optionally `voltage [V]`), then one row per sample.
-        file: PathBuf,
-        /// The cell the terminal-voltage tolerance is held on: a built-in preset, taken alone
-        /// (one cell) at 25 °C.
-        #[arg(long, default_value = "li-mno2-cr2032")]
-        cell: String,
-        /// How far the segments may move the cell's lowest terminal voltage, e.g. `5 mV`.
-        #[arg(long, default_value = "5 mV")]
-        tolerance: String,
-        /// The load's id in the suggested block (default: the file's name).
-        #[arg(long)]
-        load: Option<String>,
-        /// Accept negative samples (a probe's offset), which a design refuses.
-        #[arg(long)]
-        allow_negative: bool,
-        /// Also draw the capture and its segments to this file (`.svg` or `.png`).
-        #[arg(long, value_name = "FILE")]
-        plot: Option<PathBuf>,
-        /// Output format: table (the figures, the segments and the suggested block) or json.
-        #[arg(long, value_enum, default_value_t = FormatArg::Table)]
-        format: FormatArg,
-        /// Write to this file instead of standard output.
-        #[arg(short = 'o', long = "output")]
-        output: Option<PathBuf>,
-    },
+    Capture(CaptureArgs),
     /// A picture of the discharge, the losses or the converters' efficiency (SVG or PNG, by the
     /// output's extension).
-    Plot {
-        /// The design file (YAML).
-        file: PathBuf,
-        /// Override one value of the design (as for `runtime`); may be repeated.
-        #[arg(long = "set", value_name = "PATH=VALUE")]
-        sets: Vec<String>,
-        #[command(flatten)]
-        run: RunArgs,
-        /// What to draw.
-        #[arg(long, value_enum, default_value_t = PlotKind::Discharge)]
-        kind: PlotKind,
-        /// The picture to write: `.svg` or `.png`.
-        #[arg(short = 'o', long = "output", required = true)]
-        output: PathBuf,
-        /// Width in pixels.
-        #[arg(long, default_value_t = 1200)]
-        width: u32,
-        /// Height in pixels.
-        #[arg(long, default_value_t = 800)]
-        height: u32,
-    },
+    Plot(PlotArgs),
     /// One self-contained HTML report: the tree, the budget of every mode, the runtime and its
     /// end, the heat ranking, the violations, the pictures and the caution.
-    Report {
-        /// The design file (YAML).
-        file: PathBuf,
-        /// Override one value of the design; may be repeated.
-        #[arg(long = "set", value_name = "PATH=VALUE")]
-        sets: Vec<String>,
-        #[command(flatten)]
-        run: RunArgs,
-        /// State of charge of the budget tables (default: the design's `battery.start`).
-        #[arg(long, value_parser = parse_soc)]
-        soc: Option<f64>,
-        #[command(flatten)]
-        spread: ReportSpread,
-        /// The HTML file to write.
-        #[arg(short = 'o', long = "output", required = true)]
-        output: PathBuf,
-    },
+    Report(ReportArgs),
     /// The lightest (or smallest) pack that keeps the design running for a target time: every
     /// cell in every count in series and parallel, ranked.
     Size(SizeArgs),
     /// Print the JSON Schema of the design file.
-    Schema {
-        /// Write to this file instead of standard output.
-        #[arg(short = 'o', long = "output")]
-        output: Option<PathBuf>,
-    },
+    Schema(SchemaArgs),
+}
+
+/// The arguments of `check`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct CheckArgs {
+    /// The design file (YAML).
+    pub file: PathBuf,
+}
+
+/// The arguments of `budget`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct BudgetArgs {
+    /// The design file (YAML).
+    pub file: PathBuf,
+    /// Override one value of the design, e.g. `--set battery.parallel=2` or
+    /// `--set loads.radio.draw.tx="90 mA"` (list items by id); may be repeated.
+    #[arg(long = "set", value_name = "PATH=VALUE")]
+    pub sets: Vec<String>,
+    /// State of charge of the pack (default: the design's `battery.start`), e.g. `30%` or 0.3.
+    #[arg(long, value_parser = parse_soc)]
+    pub soc: Option<f64>,
+    /// Only this mode.
+    #[arg(long)]
+    pub mode: Option<String>,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = FormatArg::Table)]
+    pub format: FormatArg,
+    /// Write to this file instead of standard output.
+    #[arg(short = 'o', long = "output")]
+    pub output: Option<PathBuf>,
+}
+
+/// The arguments of `runtime`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct RuntimeArgs {
+    /// The design file (YAML).
+    pub file: PathBuf,
+    /// Override one value of the design, e.g. `--set battery.parallel=2` or
+    /// `--set loads.radio.draw.tx="90 mA"` (list items by id); may be repeated.
+    #[arg(long = "set", value_name = "PATH=VALUE")]
+    pub sets: Vec<String>,
+    #[command(flatten)]
+    pub run: RunArgs,
+    /// Add a decimated time series (t, SoC, OCV, V, I) that keeps the pulses' lowest voltages:
+    /// with `--format json` beside the result, with `--format csv` alone (a table leaves it out).
+    #[arg(long)]
+    pub trace: bool,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = FormatArg::Table)]
+    pub format: FormatArg,
+    /// Write to this file instead of standard output.
+    #[arg(short = 'o', long = "output")]
+    pub output: Option<PathBuf>,
+}
+
+/// The arguments of `heat`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct HeatArgs {
+    /// The design file (YAML).
+    pub file: PathBuf,
+    /// Override one value of the design, e.g. `--set battery.parallel=2` or
+    /// `--set loads.radio.draw.tx="90 mA"` (list items by id); may be repeated.
+    #[arg(long = "set", value_name = "PATH=VALUE")]
+    pub sets: Vec<String>,
+    #[command(flatten)]
+    pub run: RunArgs,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = FormatArg::Table)]
+    pub format: FormatArg,
+    /// Write to this file instead of standard output.
+    #[arg(short = 'o', long = "output")]
+    pub output: Option<PathBuf>,
+}
+
+/// The arguments of `spread`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct SpreadArgs {
+    /// The design file (YAML), with a `tolerances:` block.
+    pub file: PathBuf,
+    /// Override one value of the design (as for `runtime`); may be repeated.
+    #[arg(long = "set", value_name = "PATH=VALUE")]
+    pub sets: Vec<String>,
+    #[command(flatten)]
+    pub run: RunArgs,
+    /// Number of simulated units.
+    #[arg(long, default_value_t = 1000, value_parser = clap::value_parser!(u32).range(1..=1_000_000))]
+    pub samples: u32,
+    /// Seed of the random draws: the same seed gives the same numbers on any machine and
+    /// any number of cores.
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+    /// The life every unit should reach, e.g. `2 y` or `90 d`: the share that does is shown.
+    #[arg(long, value_parser = parse_duration)]
+    pub target: Option<f64>,
+    /// Also run the worst and best case: every value at the bound that shortens (resp.
+    /// lengthens) the runtime.
+    #[arg(long)]
+    pub corners: bool,
+    /// Output format (CSV: one row per simulated unit, its runtime, end and values).
+    #[arg(long, value_enum, default_value_t = FormatArg::Table)]
+    pub format: FormatArg,
+    /// Write to this file instead of standard output.
+    #[arg(short = 'o', long = "output")]
+    pub output: Option<PathBuf>,
+    #[command(flatten)]
+    pub pictures: SpreadPictures,
+}
+
+/// The arguments of `cells`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct CellsArgs {
+    /// A preset to show in full: every parameter, its OCV curve and where its values come from.
+    pub name: Option<String>,
+    /// Output format (JSON and CSV give the summary: chemistry, designated nominal voltage,
+    /// mean open-circuit voltage, capacity, energy, cutoff).
+    #[arg(long, value_enum, default_value_t = FormatArg::Table)]
+    pub format: FormatArg,
+    /// Write to this file instead of standard output.
+    #[arg(short = 'o', long = "output")]
+    pub output: Option<PathBuf>,
+}
+
+/// The arguments of `compare`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct CompareArgs {
+    /// The design files, each optionally followed by its own `--set` overrides.
+    #[arg(required = true, num_args = 1..)]
+    pub files: Vec<PathBuf>,
+    /// Override one value of the design file before it; may be repeated.
+    #[arg(long = "set", value_name = "PATH=VALUE")]
+    pub sets: Vec<String>,
+    #[command(flatten)]
+    pub run: RunArgs,
+    /// A chart of every design's discharge (SVG or PNG, by the extension).
+    #[arg(long)]
+    pub plot: Option<PathBuf>,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = FormatArg::Table)]
+    pub format: FormatArg,
+    /// Write to this file instead of standard output.
+    #[arg(short = 'o', long = "output")]
+    pub output: Option<PathBuf>,
+    /// The files with their own overrides, from where each `--set` stands on the command line
+    /// (filled in by `cli::parse`).
+    #[arg(skip)]
+    pub groups: Vec<Group>,
+}
+
+/// The arguments of `fit-cell`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct FitCellArgs {
+    /// A discharge curve at a constant current: `CURRENT:FILE`, e.g. `"200 mA:low.csv"`; the
+    /// CSV has a header naming each column's quantity and unit (`capacity [mAh]`,
+    /// `voltage [V]`). Two or more curves.
+    #[arg(long = "curve", value_name = "CURRENT:FILE", required = true)]
+    pub curves: Vec<String>,
+    /// Name of the fitted cell (default `fitted-cell`).
+    #[arg(long)]
+    pub name: Option<String>,
+    /// Current of the capacity rating (default the lowest curve current), e.g. `200 mA`.
+    #[arg(long)]
+    pub rated_current: Option<String>,
+    /// End-of-discharge voltage (default the lowest final voltage of the curves), e.g. `3.0 V`.
+    #[arg(long)]
+    pub cutoff: Option<String>,
+    /// Output format: table (YAML block and report), json (the cell and the report) or csv
+    /// (the fitted table, a row per state of charge).
+    #[arg(long, value_enum, default_value_t = FormatArg::Table)]
+    pub format: FormatArg,
+    /// Write to this file instead of standard output.
+    #[arg(short = 'o', long = "output")]
+    pub output: Option<PathBuf>,
+}
+
+/// The arguments of `capture`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct CaptureArgs {
+    /// The capture: a header naming each column's quantity and unit (`time [ms]`,
+    /// `current [mA]`, optionally `voltage [V]`), then one row per sample.
+    pub file: PathBuf,
+    /// The cell the terminal-voltage tolerance is held on: a built-in preset, taken alone
+    /// (one cell) at 25 °C.
+    #[arg(long, default_value = "li-mno2-cr2032")]
+    pub cell: String,
+    /// How far the segments may move the cell's lowest terminal voltage, e.g. `5 mV`.
+    #[arg(long, default_value = "5 mV")]
+    pub tolerance: String,
+    /// The load's id in the suggested block (default: the file's name).
+    #[arg(long)]
+    pub load: Option<String>,
+    /// Accept negative samples (a probe's offset), which a design refuses.
+    #[arg(long)]
+    pub allow_negative: bool,
+    /// Also draw the capture and its segments to this file (`.svg` or `.png`).
+    #[arg(long, value_name = "FILE")]
+    pub plot: Option<PathBuf>,
+    /// Output format: table (the figures, the segments and the suggested block) or json.
+    #[arg(long, value_enum, default_value_t = FormatArg::Table)]
+    pub format: FormatArg,
+    /// Write to this file instead of standard output.
+    #[arg(short = 'o', long = "output")]
+    pub output: Option<PathBuf>,
+}
+
+/// The arguments of `plot`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct PlotArgs {
+    /// The design file (YAML).
+    pub file: PathBuf,
+    /// Override one value of the design (as for `runtime`); may be repeated.
+    #[arg(long = "set", value_name = "PATH=VALUE")]
+    pub sets: Vec<String>,
+    #[command(flatten)]
+    pub run: RunArgs,
+    /// What to draw.
+    #[arg(long, value_enum, default_value_t = PlotKind::Discharge)]
+    pub kind: PlotKind,
+    /// The picture to write: `.svg` or `.png`.
+    #[arg(short = 'o', long = "output", required = true)]
+    pub output: PathBuf,
+    /// Width in pixels.
+    #[arg(long, default_value_t = 1200)]
+    pub width: u32,
+    /// Height in pixels.
+    #[arg(long, default_value_t = 800)]
+    pub height: u32,
+}
+
+/// The arguments of `report`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct ReportArgs {
+    /// The design file (YAML).
+    pub file: PathBuf,
+    /// Override one value of the design; may be repeated.
+    #[arg(long = "set", value_name = "PATH=VALUE")]
+    pub sets: Vec<String>,
+    #[command(flatten)]
+    pub run: RunArgs,
+    /// State of charge of the budget tables (default: the design's `battery.start`).
+    #[arg(long, value_parser = parse_soc)]
+    pub soc: Option<f64>,
+    #[command(flatten)]
+    pub spread: ReportSpread,
+    /// The HTML file to write.
+    #[arg(short = 'o', long = "output", required = true)]
+    pub output: PathBuf,
+}
+
+/// The arguments of `schema`.
+#[derive(Debug, Clone, clap::Args)]
+pub struct SchemaArgs {
+    /// Write to this file instead of standard output.
+    #[arg(short = 'o', long = "output")]
+    pub output: Option<PathBuf>,
 }
 
 /// The pictures `spread` can also write.

@@ -11,18 +11,8 @@ use joulepath::model::{Pack, Preset};
 use joulepath::report::plot;
 use joulepath::units::{Dim, fmt_eng};
 
-use super::args::{FormatArg, parse_with};
+use super::args::{CaptureArgs, FormatArg, parse_with};
 use super::run::{Failure, emit};
-
-/// The arguments of `capture`.
-pub struct CaptureArgs<'a> {
-    pub file: &'a Path,
-    pub cell: &'a str,
-    pub tolerance: &'a str,
-    pub load: Option<&'a str>,
-    pub allow_negative: bool,
-    pub plot: Option<&'a Path>,
-}
 
 /// A load id from a file name: letters, digits and hyphens.
 fn id_of(path: &Path) -> String {
@@ -39,11 +29,7 @@ fn id_of(path: &Path) -> String {
 }
 
 /// Run `capture`.
-pub fn capture_command(
-    a: &CaptureArgs<'_>,
-    f: FormatArg,
-    buf: &mut Vec<u8>,
-) -> Result<(), Failure> {
+pub fn capture_command(a: &CaptureArgs, buf: &mut Vec<u8>) -> Result<(), Failure> {
     let tolerance_v = parse_with(a.tolerance.trim(), Dim::Voltage)
         .map_err(|e| Failure::Usage(format!("`--tolerance {}`: {e}", a.tolerance)))?;
     if tolerance_v.is_nan() || tolerance_v < 0.0 {
@@ -53,23 +39,23 @@ pub fn capture_command(
             fmt_eng(DEFAULT_TOLERANCE_V, "V")
         )));
     }
-    if Preset::text(a.cell).is_none() {
+    if Preset::text(&a.cell).is_none() {
         return Err(Failure::Usage(format!(
             "unknown cell preset `{}` ({})",
             a.cell,
-            Preset::suggestion(a.cell)
+            Preset::suggestion(&a.cell)
         )));
     }
-    let picture = match a.plot {
+    let picture = match a.plot.as_deref() {
         Some(p) => Some((p, super::pictures::format_of(p)?)),
         None => None,
     };
-    let cap = read_capture_file(a.file, a.allow_negative).map_err(|d| {
+    let cap = read_capture_file(&a.file, a.allow_negative).map_err(|d| {
         // The text for the source line, when the file is small enough to be shown.
-        let text = std::fs::metadata(a.file)
+        let text = std::fs::metadata(&a.file)
             .ok()
             .filter(|m| m.len() <= MAX_BYTES as u64)
-            .and_then(|_| std::fs::read_to_string(a.file).ok())
+            .and_then(|_| std::fs::read_to_string(&a.file).ok())
             .unwrap_or_default();
         Failure::Invalid {
             file: a.file.to_path_buf(),
@@ -77,7 +63,7 @@ pub fn capture_command(
             diagnostics: vec![d],
         }
     })?;
-    let preset = Preset::load(a.cell).map_err(|e| Failure::Input(e.to_string()))?;
+    let preset = Preset::load(&a.cell).map_err(|e| Failure::Input(e.to_string()))?;
     let pack = Pack::one_cell(preset.cell().clone());
     let sens = sensitivity(&pack, 25.0, 1.0);
     let on = format!("one {} cell at 25 °C", a.cell);
@@ -88,7 +74,10 @@ pub fn capture_command(
             fmt_eng(tolerance_v, "V")
         ))
     })?;
-    let load = a.load.map_or_else(|| id_of(a.file), str::to_string);
+    let load = a
+        .load
+        .as_deref()
+        .map_or_else(|| id_of(&a.file), str::to_string);
     if let Some((path, fmt)) = picture {
         let bytes = plot::capture(&cap, &z, &on, fmt, (1200, 700))
             .map_err(|e| Failure::Input(format!("cannot draw the picture: {e}")))?;
@@ -96,7 +85,7 @@ pub fn capture_command(
     }
     let s = summarize(&cap, &z, &on, &load, &sens);
     let io_fail = |e: std::io::Error| Failure::Input(format!("cannot write the output: {e}"));
-    match f {
+    match a.format {
         FormatArg::Json => {
             serde_json::to_writer_pretty(&mut *buf, &s)
                 .map_err(|e| Failure::Input(e.to_string()))?;

@@ -82,9 +82,8 @@ mod tests {
         let words = std::iter::once("joulepath").chain(line.split_whitespace());
         let m = Args::command().try_get_matches_from(words).expect("parses");
         let mut a = Args::from_arg_matches(&m).expect("args");
-        if let (Command::Compare { groups, .. }, Some((_, sub))) = (&mut a.command, m.subcommand())
-        {
-            *groups = super::groups(sub);
+        if let (Command::Compare(c), Some((_, sub))) = (&mut a.command, m.subcommand()) {
+            c.groups = super::groups(sub);
         }
         a
     }
@@ -93,7 +92,8 @@ mod tests {
     fn groups_take_their_own_sets() {
         let a =
             parse("compare a.yaml b.yaml --set battery.parallel=2 --format json a.yaml --set=x=1");
-        let Command::Compare { groups, format, .. } = a.command else {
+        let Command::Compare(super::super::args::CompareArgs { groups, format, .. }) = a.command
+        else {
             panic!("compare")
         };
         assert_eq!(groups.len(), 3);
@@ -106,7 +106,7 @@ mod tests {
     #[test]
     fn a_set_before_the_files_applies_to_all() {
         let a = parse("compare --set ambient=0degC a.yaml b.yaml --set x=1");
-        let Command::Compare { groups, .. } = a.command else {
+        let Command::Compare(super::super::args::CompareArgs { groups, .. }) = a.command else {
             panic!("compare")
         };
         assert_eq!(groups[0].sets, ["ambient=0degC"]);
@@ -116,7 +116,9 @@ mod tests {
     #[test]
     fn one_design_needs_a_variant() {
         let g = |line: &str| {
-            let Command::Compare { groups, .. } = parse(line).command else {
+            let Command::Compare(super::super::args::CompareArgs { groups, .. }) =
+                parse(line).command
+            else {
                 panic!("compare")
             };
             super::check(&groups)

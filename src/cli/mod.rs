@@ -19,10 +19,8 @@ use clap::{CommandFactory, FromArgMatches};
 pub fn parse() -> Args {
     let matches = Args::command().get_matches();
     let mut args = Args::from_arg_matches(&matches).unwrap_or_else(|e| e.exit());
-    if let (args::Command::Compare { groups, .. }, Some((_, sub))) =
-        (&mut args.command, matches.subcommand())
-    {
-        *groups = groups::groups(sub);
+    if let (args::Command::Compare(c), Some((_, sub))) = (&mut args.command, matches.subcommand()) {
+        c.groups = groups::groups(sub);
     }
     args
 }

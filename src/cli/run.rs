@@ -17,8 +17,10 @@ use joulepath::report::{
 use joulepath::solve::budget;
 use joulepath::spec::Override;
 
-use super::args::{Args, Command, FormatArg, ReportSpread, RunArgs, parse_with};
-use super::capture::CaptureArgs;
+use super::args::{
+    Args, BudgetArgs, Command, FitCellArgs, FormatArg, HeatArgs, PlotArgs, ReportSpread, RunArgs,
+    RuntimeArgs, SpreadArgs, parse_with,
+};
 use super::groups::{Group, check as check_groups};
 use super::pictures::{
     SpreadPicture, compare_plot, draw_spread, plot_command, report_command, run_with_progress,
@@ -267,139 +269,45 @@ fn report_with_spread(
     report_command(d, &run_options(d, ra, true), soc, sp)
 }
 
-/// Run the command line.
+/// Run the command line: each command has its own function.
 pub fn run(args: &Args) -> Result<(), Failure> {
     match &args.command {
-        Command::Check { file } => check_command(file),
-        Command::Budget {
-            file,
-            sets,
-            soc,
-            mode,
-            format: f,
-            output,
-        } => {
-            let d = load_with(file, sets)?;
-            budget_command(&d, *soc, mode.as_deref(), *f, output.as_deref())
-        }
-        Command::Runtime {
-            file,
-            sets,
-            run: ra,
-            trace,
-            format: f,
-            output,
-        } => runtime_command(&load_with(file, sets)?, ra, *trace, *f, output.as_deref()),
-        Command::Heat {
-            file,
-            sets,
-            run: ra,
-            format: f,
-            output,
-        } => heat_command(&load_with(file, sets)?, ra, *f, output.as_deref()),
-        Command::Spread {
-            file,
-            sets,
-            run: ra,
-            samples,
-            seed,
-            target,
-            corners,
-            format: f,
-            output,
-            pictures,
-        } => {
-            let to_draw = spread_pictures(pictures)?;
-            let d = load_with(file, sets)?;
-            let sp = spread_command(d, ra, *samples as usize, *seed, *target, *corners)?;
-            write_spread_outputs(&sp, &to_draw, *f, output.as_deref())
-        }
-        Command::Cells {
-            name,
-            format: f,
-            output,
-        } => {
+        Command::Check(a) => check_command(&a.file),
+        Command::Budget(a) => budget_command(a),
+        Command::Runtime(a) => runtime_command(a),
+        Command::Heat(a) => heat_command(a),
+        Command::Spread(a) => spread_file_command(a),
+        Command::Cells(a) => {
             let mut buf = Vec::new();
-            cells_command(name.as_deref(), format(*f), &mut buf)?;
-            emit(&buf, output.as_deref())
+            cells_command(a.name.as_deref(), format(a.format), &mut buf)?;
+            emit(&buf, a.output.as_deref())
         }
-        Command::Compare {
-            run: ra,
-            plot,
-            format: f,
-            output,
-            groups,
-            ..
-        } => {
-            check_groups(groups).map_err(Failure::Usage)?;
-            compare(groups, ra, plot.as_deref(), *f, output.as_deref())
+        Command::Compare(a) => {
+            check_groups(&a.groups).map_err(Failure::Usage)?;
+            compare(
+                &a.groups,
+                &a.run,
+                a.plot.as_deref(),
+                a.format,
+                a.output.as_deref(),
+            )
         }
-        Command::FitCell {
-            curves,
-            name,
-            rated_current,
-            cutoff,
-            format: f,
-            output,
-        } => {
+        Command::FitCell(a) => fit_cell_command(a),
+        Command::Capture(a) => {
             let mut buf = Vec::new();
-            let (rated, cutoff) = (rated_current.as_deref(), cutoff.as_deref());
-            fit_cell(curves, name.as_deref(), rated, cutoff, format(*f), &mut buf)?;
-            emit(&buf, output.as_deref())
+            super::capture::capture_command(a, &mut buf)?;
+            emit(&buf, a.output.as_deref())
         }
-        Command::Capture {
-            file,
-            cell,
-            tolerance,
-            load,
-            allow_negative,
-            plot,
-            format: f,
-            output,
-        } => {
-            let c = CaptureArgs {
-                file,
-                cell,
-                tolerance,
-                load: load.as_deref(),
-                allow_negative: *allow_negative,
-                plot: plot.as_deref(),
-            };
-            let mut buf = Vec::new();
-            super::capture::capture_command(&c, *f, &mut buf)?;
-            emit(&buf, output.as_deref())
-        }
-        Command::Plot {
-            file,
-            sets,
-            run: ra,
-            kind,
-            output,
-            width,
-            height,
-        } => {
-            let d = load_with(file, sets)?;
-            let opt = run_options(&d, ra, true);
-            warn(&d, opt.ambient_c);
-            let bytes = plot_command(&d, &opt, *kind, output, (*width, *height))?;
-            emit(&bytes, Some(output))
-        }
-        Command::Report {
-            file,
-            sets,
-            run: ra,
-            soc,
-            spread,
-            output,
-        } => {
-            let d = load_with(file, sets)?;
-            let bytes = report_with_spread(&d, ra, *soc, spread)?;
-            emit(&bytes, Some(output))
+        Command::Plot(a) => plot_file_command(a),
+        Command::Report(a) => {
+            let d = load_with(&a.file, &a.sets)?;
+            let bytes = report_with_spread(&d, &a.run, a.soc, &a.spread)?;
+            emit(&bytes, Some(&a.output))
         }
         Command::Size(a) => super::size::size_command(a),
-        Command::Schema { output } => emit(
+        Command::Schema(a) => emit(
             joulepath::spec::design_schema().as_bytes(),
-            output.as_deref(),
+            a.output.as_deref(),
         ),
     }
 }
@@ -419,51 +327,54 @@ fn check_command(file: &Path) -> Result<(), Failure> {
     emit(&buf, None)
 }
 
-/// `joulepath budget`: the operating point of the modes asked for, at `soc` (default: the
+/// `joulepath budget`: the operating point of the modes asked for, at `--soc` (default: the
 /// pack's start).
-fn budget_command(
-    d: &Design,
-    soc: Option<f64>,
-    mode: Option<&str>,
-    f: FormatArg,
-    output: Option<&Path>,
-) -> Result<(), Failure> {
-    let modes = budget_modes(d, mode)?;
-    let soc = soc.unwrap_or(d.pack().start_soc());
+fn budget_command(a: &BudgetArgs) -> Result<(), Failure> {
+    let d = &load_with(&a.file, &a.sets)?;
+    let modes = budget_modes(d, a.mode.as_deref())?;
+    let soc = a.soc.unwrap_or(d.pack().start_soc());
     let result = budget(d, soc, &modes);
     let mut buf = Vec::new();
-    write_budget(&mut buf, d, soc, &result, format(f)).map_err(io_fail)?;
-    warn_beside(d, d.ambient_c(), f);
-    emit(&buf, output)
+    write_budget(&mut buf, d, soc, &result, format(a.format)).map_err(io_fail)?;
+    warn_beside(d, d.ambient_c(), a.format);
+    emit(&buf, a.output.as_deref())
 }
 
-/// `joulepath runtime`: one run of the design, with its time series when `trace` is set.
-fn runtime_command(
-    d: &Design,
-    ra: &RunArgs,
-    trace: bool,
-    f: FormatArg,
-    output: Option<&Path>,
-) -> Result<(), Failure> {
-    let result = run_with_progress(d, &run_options(d, ra, trace), "simulating")?;
+/// `joulepath runtime`: one run of the design, with its time series under `--trace`.
+fn runtime_command(a: &RuntimeArgs) -> Result<(), Failure> {
+    let d = &load_with(&a.file, &a.sets)?;
+    let result = run_with_progress(d, &run_options(d, &a.run, a.trace), "simulating")?;
     let mut buf = Vec::new();
-    write_runtime(&mut buf, d, &result, format(f), trace).map_err(io_fail)?;
-    warn_beside(d, result.ambient_c, f);
-    emit(&buf, output)
+    write_runtime(&mut buf, d, &result, format(a.format), a.trace).map_err(io_fail)?;
+    warn_beside(d, result.ambient_c, a.format);
+    emit(&buf, a.output.as_deref())
 }
 
 /// `joulepath heat`: one run of the design, its heat per stage.
-fn heat_command(
-    d: &Design,
-    ra: &RunArgs,
-    f: FormatArg,
-    output: Option<&Path>,
-) -> Result<(), Failure> {
-    let result = run_with_progress(d, &run_options(d, ra, false), "simulating")?;
+fn heat_command(a: &HeatArgs) -> Result<(), Failure> {
+    let d = &load_with(&a.file, &a.sets)?;
+    let result = run_with_progress(d, &run_options(d, &a.run, false), "simulating")?;
     let mut buf = Vec::new();
-    write_heat(&mut buf, d, &result, format(f)).map_err(io_fail)?;
-    warn_beside(d, result.ambient_c, f);
-    emit(&buf, output)
+    write_heat(&mut buf, d, &result, format(a.format)).map_err(io_fail)?;
+    warn_beside(d, result.ambient_c, a.format);
+    emit(&buf, a.output.as_deref())
+}
+
+/// `joulepath spread`: the pictures' files are checked before the design is read and run.
+fn spread_file_command(a: &SpreadArgs) -> Result<(), Failure> {
+    let to_draw = spread_pictures(&a.pictures)?;
+    let d = load_with(&a.file, &a.sets)?;
+    let sp = spread_command(d, &a.run, a.samples as usize, a.seed, a.target, a.corners)?;
+    write_spread_outputs(&sp, &to_draw, a.format, a.output.as_deref())
+}
+
+/// `joulepath plot`: one run of the design with its trace, drawn to `-o`.
+fn plot_file_command(a: &PlotArgs) -> Result<(), Failure> {
+    let d = load_with(&a.file, &a.sets)?;
+    let opt = run_options(&d, &a.run, true);
+    warn(&d, opt.ambient_c);
+    let bytes = plot_command(&d, &opt, a.kind, &a.output, (a.width, a.height))?;
+    emit(&bytes, Some(&a.output))
 }
 
 /// Write a finished spread: its table (or JSON, CSV) and the pictures asked for.
@@ -581,6 +492,16 @@ fn compare(
     emit(&buf, output)
 }
 
+/// `joulepath fit-cell`: the cell fitted from the `--curve` files.
+fn fit_cell_command(a: &FitCellArgs) -> Result<(), Failure> {
+    let mut buf = Vec::new();
+    let (rated, cutoff) = (a.rated_current.as_deref(), a.cutoff.as_deref());
+    let name = a.name.as_deref();
+    fit_cell(&a.curves, name, rated, cutoff, format(a.format), &mut buf)?;
+    emit(&buf, a.output.as_deref())
+}
+
+/// The fitted cell of `curves` (each `CURRENT:FILE`) into `buf` in `fmt`.
 fn fit_cell(
     curves: &[String],
     name: Option<&str>,
