@@ -168,84 +168,8 @@ pub(crate) fn knob(d: &Design, pack_cell: &str, path: &str) -> Result<Knob, Miss
             "aging.resistance" => Ok(Knob::AgingResistance),
             k => Err(unknown("the pack's values", k, &BATTERY_KEYS)),
         },
-        [Seg::Name("stages"), rest @ ..] => {
-            let i = item(
-                "stages",
-                rest.first(),
-                d.stages.iter().map(|s| s.id.as_str()),
-            )?;
-            match stage_knob(i, &rest[1..]) {
-                Ok(Knob::StageOutput(_)) if d.stages[i].led_current.is_some() => Err((
-                    format!(
-                        "`{}` is an LED driver: its output follows from its LED and cannot vary",
-                        d.stages[i].id
-                    ),
-                    "vary the driver's `current` instead".into(),
-                )),
-                Ok(Knob::StageLedCurrent(_)) if d.stages[i].led_current.is_none() => Err((
-                    format!(
-                        "`{}` is not an LED driver: it has no `current`",
-                        d.stages[i].id
-                    ),
-                    "vary `output` for a regulator's setpoint".into(),
-                )),
-                k => k,
-            }
-        }
-        [Seg::Name("loads"), rest @ ..] => {
-            let l = item("loads", rest.first(), d.loads.iter().map(|x| x.id.as_str()))?;
-            let load = &d.loads[l];
-            match &rest[1..] {
-                [Seg::Name("draw"), Seg::Name(state)]
-                    if load.captured.iter().any(|c| load.states[c.state].0 == *state) =>
-                {
-                    Err((
-                        format!(
-                            "the state `{state}` of `{}` follows a capture, whose draw cannot vary",
-                            load.id
-                        ),
-                        "vary the profile step's `for`, or give the state a value instead of a capture".into(),
-                    ))
-                }
-                [Seg::Name("draw"), Seg::Name(state)]
-                    if load
-                        .states
-                        .iter()
-                        .any(|(n, d)| n == state && matches!(d, Draw::Led { .. })) =>
-                {
-                    Err((
-                        format!(
-                            "the state `{state}` of `{}` is an LED, whose law cannot vary",
-                            load.id
-                        ),
-                        "its driver holds its current: vary the driver's `current` instead".into(),
-                    ))
-                }
-                [Seg::Name("draw"), Seg::Name(state)] => load
-                    .states
-                    .iter()
-                    .position(|(n, _)| n == state)
-                    .map(|s| Knob::LoadDraw(l, s))
-                    .ok_or_else(|| {
-                        let names: Vec<&str> =
-                            load.states.iter().map(|(n, _)| n.as_str()).collect();
-                        let hint = match did_you_mean(state, names.iter().copied()) {
-                            Some(s) => format!("did you mean `{s}`?"),
-                            None => {
-                                format!("the states of `{}` are {}", load.id, backticked(&names))
-                            }
-                        };
-                        (format!("load `{}` has no state `{state}`", load.id), hint)
-                    }),
-                _ => Err((
-                    format!(
-                        "`{}` is not a value of a load that can vary",
-                        dotted(&rest[1..])
-                    ),
-                    "vary what a load draws in one state: `loads.ID.draw.STATE`".into(),
-                )),
-            }
-        }
+        [Seg::Name("stages"), rest @ ..] => stages_knob(d, rest),
+        [Seg::Name("loads"), rest @ ..] => loads_knob(d, rest),
         [Seg::Name("profile"), rest @ ..] => profile_knob(d, rest),
         [Seg::Name(first), ..] => {
             let hint = match did_you_mean(first, top.iter().copied()) {
@@ -264,6 +188,95 @@ pub(crate) fn knob(d: &Design, pack_cell: &str, path: &str) -> Result<Knob, Miss
     }
 }
 
+/// The value of a stage of `d` that `rest` (after `stages`) names: the stage by id or index,
+/// then its key; an LED driver's `current` varies, not its `output`.
+fn stages_knob(d: &Design, rest: &[Seg<'_>]) -> Result<Knob, Miss> {
+    let i = item(
+        "stages",
+        rest.first(),
+        d.stages.iter().map(|s| s.id.as_str()),
+    )?;
+    match stage_knob(i, &rest[1..]) {
+        Ok(Knob::StageOutput(_)) if d.stages[i].led_current.is_some() => Err((
+            format!(
+                "`{}` is an LED driver: its output follows from its LED and cannot vary",
+                d.stages[i].id
+            ),
+            "vary the driver's `current` instead".into(),
+        )),
+        Ok(Knob::StageLedCurrent(_)) if d.stages[i].led_current.is_none() => Err((
+            format!(
+                "`{}` is not an LED driver: it has no `current`",
+                d.stages[i].id
+            ),
+            "vary `output` for a regulator's setpoint".into(),
+        )),
+        k => k,
+    }
+}
+
+/// The value of a load of `d` that `rest` (after `loads`) names: `ID.draw.STATE`, the draw of
+/// one state given as a value (not a capture, not an LED).
+fn loads_knob(d: &Design, rest: &[Seg<'_>]) -> Result<Knob, Miss> {
+    let l = item("loads", rest.first(), d.loads.iter().map(|x| x.id.as_str()))?;
+    let load = &d.loads[l];
+    match &rest[1..] {
+        [Seg::Name("draw"), Seg::Name(state)]
+            if load
+                .captured
+                .iter()
+                .any(|c| load.states[c.state].0 == *state) =>
+        {
+            Err((
+                format!(
+                    "the state `{state}` of `{}` follows a capture, whose draw cannot vary",
+                    load.id
+                ),
+                "vary the profile step's `for`, or give the state a value instead of a capture"
+                    .into(),
+            ))
+        }
+        [Seg::Name("draw"), Seg::Name(state)]
+            if load
+                .states
+                .iter()
+                .any(|(n, d)| n == state && matches!(d, Draw::Led { .. })) =>
+        {
+            Err((
+                format!(
+                    "the state `{state}` of `{}` is an LED, whose law cannot vary",
+                    load.id
+                ),
+                "its driver holds its current: vary the driver's `current` instead".into(),
+            ))
+        }
+        [Seg::Name("draw"), Seg::Name(state)] => load
+            .states
+            .iter()
+            .position(|(n, _)| n == state)
+            .map(|s| Knob::LoadDraw(l, s))
+            .ok_or_else(|| {
+                let names: Vec<&str> = load.states.iter().map(|(n, _)| n.as_str()).collect();
+                let hint = match did_you_mean(state, names.iter().copied()) {
+                    Some(s) => format!("did you mean `{s}`?"),
+                    None => {
+                        format!("the states of `{}` are {}", load.id, backticked(&names))
+                    }
+                };
+                (format!("load `{}` has no state `{state}`", load.id), hint)
+            }),
+        _ => Err((
+            format!(
+                "`{}` is not a value of a load that can vary",
+                dotted(&rest[1..])
+            ),
+            "vary what a load draws in one state: `loads.ID.draw.STATE`".into(),
+        )),
+    }
+}
+
+/// The value of a profile item of `d` that `rest` (after `profile`) names: `[i]` items through
+/// `.repeat`, then `for` or `times`.
 fn profile_knob(d: &Design, rest: &[Seg<'_>]) -> Result<Knob, Miss> {
     let mut at = Vec::new();
     let mut segs = rest;
@@ -282,62 +295,12 @@ fn profile_knob(d: &Design, rest: &[Seg<'_>]) -> Result<Knob, Miss> {
             ));
         }
         let here = step(&d.profile, &at);
-        // A step in a mode with captures is a block of the captures' segments, which the file
-        // does not write: only its duration can vary, and only when the file gives one.
-        if let Some(Step::Repeat { steps, until }) = here {
-            let captured = steps
-                .iter()
-                .all(|s| matches!(s, Step::Hold { mode, .. } if d.modes[*mode].part_of.is_some()));
-            if captured {
-                return match (&segs[1..], until) {
-                    ([Seg::Name("for")], RepeatUntil::Seconds(_)) => Ok(Knob::StepFor(at)),
-                    ([Seg::Name("for")], RepeatUntil::Times(_)) => Err((
-                        format!(
-                            "`profile{}` lasts one capture (`for: capture`), which cannot vary",
-                            index_text(&at)
-                        ),
-                        "give the step a duration to vary it, such as `for: 10 ms`".into(),
-                    )),
-                    _ => Err((
-                        format!(
-                            "`profile{}` is a step in a mode with a capture: only its `for` can vary",
-                            index_text(&at)
-                        ),
-                        format!("vary `profile{}.for`", index_text(&at)),
-                    )),
-                };
-            }
+        if let Some(found) = captured_step_knob(d, here, &at, &segs[1..]) {
+            return found;
         }
         match &segs[1..] {
-            [Seg::Name("for")] => {
-                return match here {
-                    Some(Step::Repeat {
-                        until: RepeatUntil::Times(_),
-                        ..
-                    }) => Err((
-                        format!(
-                            "`profile{}` runs a number of `times`, not `for` a duration",
-                            index_text(&at)
-                        ),
-                        format!("vary `profile{}.times`", index_text(&at)),
-                    )),
-                    _ => Ok(Knob::StepFor(at)),
-                };
-            }
-            [Seg::Name("times")] => {
-                return match step(&d.profile, &at) {
-                    Some(Step::Repeat {
-                        until: RepeatUntil::Times(_),
-                        ..
-                    }) => Ok(Knob::RepeatTimes(at)),
-                    _ => Err((
-                        format!("`profile{}` has no `times`", index_text(&at)),
-                        format!("vary `profile{}.for`", index_text(&at)),
-                    )),
-                };
-            }
             [Seg::Name("repeat"), more @ ..] => {
-                if !matches!(step(&d.profile, &at), Some(Step::Repeat { .. })) {
+                if !matches!(here, Some(Step::Repeat { .. })) {
                     return Err((
                         format!("`profile{}` is no repeat block", index_text(&at)),
                         format!("vary `profile{}.for`", index_text(&at)),
@@ -345,16 +308,78 @@ fn profile_knob(d: &Design, rest: &[Seg<'_>]) -> Result<Knob, Miss> {
                 }
                 segs = more;
             }
-            other => {
-                return Err((
-                    format!(
-                        "`{}` is not a value of a profile item that can vary",
-                        dotted(other)
-                    ),
-                    "vary a duration (`.for`) or a number of passes (`.times`)".into(),
-                ));
-            }
+            other => return step_knob(here, at, other),
         }
+    }
+}
+
+/// A step in a mode with captures is a block of the captures' segments, which the file does
+/// not write: only its duration can vary, and only when the file gives one. The value `key`
+/// names of step `here` at `at` when it is such a block, none for another step.
+fn captured_step_knob(
+    d: &Design,
+    here: Option<&Step>,
+    at: &[usize],
+    key: &[Seg<'_>],
+) -> Option<Result<Knob, Miss>> {
+    let Some(Step::Repeat { steps, until }) = here else {
+        return None;
+    };
+    let captured = steps
+        .iter()
+        .all(|s| matches!(s, Step::Hold { mode, .. } if d.modes[*mode].part_of.is_some()));
+    if !captured {
+        return None;
+    }
+    Some(match (key, until) {
+        ([Seg::Name("for")], RepeatUntil::Seconds(_)) => Ok(Knob::StepFor(at.to_vec())),
+        ([Seg::Name("for")], RepeatUntil::Times(_)) => Err((
+            format!(
+                "`profile{}` lasts one capture (`for: capture`), which cannot vary",
+                index_text(at)
+            ),
+            "give the step a duration to vary it, such as `for: 10 ms`".into(),
+        )),
+        _ => Err((
+            format!(
+                "`profile{}` is a step in a mode with a capture: only its `for` can vary",
+                index_text(at)
+            ),
+            format!("vary `profile{}.for`", index_text(at)),
+        )),
+    })
+}
+
+/// The value `key` (`for` or `times`) of profile step `here` at `at`.
+fn step_knob(here: Option<&Step>, at: Vec<usize>, key: &[Seg<'_>]) -> Result<Knob, Miss> {
+    let times = matches!(
+        here,
+        Some(Step::Repeat {
+            until: RepeatUntil::Times(_),
+            ..
+        })
+    );
+    match key {
+        [Seg::Name("for")] if times => Err((
+            format!(
+                "`profile{}` runs a number of `times`, not `for` a duration",
+                index_text(&at)
+            ),
+            format!("vary `profile{}.times`", index_text(&at)),
+        )),
+        [Seg::Name("for")] => Ok(Knob::StepFor(at)),
+        [Seg::Name("times")] if times => Ok(Knob::RepeatTimes(at)),
+        [Seg::Name("times")] => Err((
+            format!("`profile{}` has no `times`", index_text(&at)),
+            format!("vary `profile{}.for`", index_text(&at)),
+        )),
+        other => Err((
+            format!(
+                "`{}` is not a value of a profile item that can vary",
+                dotted(other)
+            ),
+            "vary a duration (`.for`) or a number of passes (`.times`)".into(),
+        )),
     }
 }
 
@@ -446,6 +471,8 @@ impl Lower<'_> {
         self.quantity(q, at, &[dim]).map(Quantity::value)
     }
 
+    /// The spread `t` of a value `knob` of `d` (nominal `nominal`) in the value's unit: its
+    /// values read and checked, those it gives as its own within the value's physical range.
     fn dist(
         &mut self,
         t: &ToleranceSpec,
@@ -455,8 +482,15 @@ impl Lower<'_> {
         at: &str,
     ) -> Option<Dist> {
         let dim = knob.dim(d);
-        let range = knob.range();
-        let dist = match t {
+        let dist = self.spread_dist(t, dim, nominal, at)?;
+        self.own_values_physical(t, &dist, knob.range(), dim, at)
+            .then_some(dist)
+    }
+
+    /// The spread `t` read in the unit of `dim`: a band `±x` around `nominal` (a normal with
+    /// sigma a third of it), a normal, a uniform between two bounds or a pick among choices.
+    fn spread_dist(&mut self, t: &ToleranceSpec, dim: Dim, nominal: f64, at: &str) -> Option<Dist> {
+        Some(match t {
             ToleranceSpec::Band(q) => {
                 let band = self.spread_value(q, dim, Some(nominal), at)?;
                 if band.is_nan() || band <= 0.0 {
@@ -520,9 +554,22 @@ impl Lower<'_> {
                 }
                 Dist::Pick(out)
             }
-        };
+        })
+    }
+
+    /// Whether the values spread `t` gives as its own (a mean, bounds, choices; read into
+    /// `dist`) are physical: within `range`, and whole where the value is; each problem
+    /// reported.
+    fn own_values_physical(
+        &mut self,
+        t: &ToleranceSpec,
+        dist: &Dist,
+        range: crate::model::Range,
+        dim: Dim,
+        at: &str,
+    ) -> bool {
         // The values a spread gives as its own (a mean, bounds, choices) must be physical.
-        let (own, texts): (Vec<f64>, Vec<&str>) = match (&dist, t) {
+        let (own, texts): (Vec<f64>, Vec<&str>) = match (dist, t) {
             (Dist::Normal { mean, .. }, ToleranceSpec::Normal { mean: q, .. }) => {
                 (vec![*mean], vec![q.text()])
             }
@@ -544,7 +591,7 @@ impl Lower<'_> {
                 ),
                 Some("give values the design could have".into()),
             );
-            return None;
+            return false;
         }
         if range.whole && own.iter().any(|v| v.fract() != 0.0) {
             self.err(
@@ -552,9 +599,9 @@ impl Lower<'_> {
                 "this value is a whole number",
                 Some("give whole numbers, e.g. `{ pick: [1, 2] }`".into()),
             );
-            return None;
+            return false;
         }
-        Some(dist)
+        true
     }
 }
 
