@@ -16,6 +16,7 @@ use std::collections::HashMap;
 use std::fmt::Display;
 
 use super::cell::{Cell, CellSize, Chemistry};
+use super::climate::Climate;
 use super::load::{Captured, Draw, Load};
 use super::mode::{Mode, RepeatUntil, Step};
 use super::pack::Pack;
@@ -262,69 +263,17 @@ impl Lower<'_> {
         }
     }
 
+    /// The checked design of `spec`: every section checked (each problem reported), then the
+    /// parts joined (rails, LED setpoints, captures, profile, tolerances); none after an error.
     fn design(&mut self, spec: &DesignSpec) -> Option<Design> {
-        let (ambient_c, climate) = match &spec.ambient {
-            None => (Some(25.0), Some(None)),
-            Some(AmbientSpec::Constant(q)) => (
-                self.value(q, "ambient", Dim::Temperature, Bound::Any),
-                Some(None),
-            ),
-            Some(AmbientSpec::Climate(c)) => match self.climate(c) {
-                Some((mean, climate)) => (Some(mean), Some(Some(climate))),
-                None => (None, None),
-            },
-        };
+        let (ambient_c, climate) = self.ambient(spec);
         // Every custom cell is checked, whether used or not.
         let mut cells: HashMap<&str, Option<Cell>> = HashMap::new();
         for (name, c) in &spec.cells {
             let cell = self.cell(name, c, &format!("cells.{name}"));
             cells.insert(name.as_str(), cell);
         }
-        let cell = match &spec.battery.cell {
-            CellRef::Inline(c) => {
-                let name = match &c.preset {
-                    Some(p) if given_keys(c).is_empty() => p.clone(),
-                    Some(p) => format!("{p}, modified"),
-                    None => "inline".to_string(),
-                };
-                self.cell(&name, c, "battery.cell")
-            }
-            // A key of `cells` first, else a built-in preset.
-            CellRef::Name(n) => match cells.get(n.as_str()) {
-                Some(c) => c.clone(),
-                None if Preset::text(n).is_some() => {
-                    let c = CellSpec {
-                        preset: Some(n.clone()),
-                        ..CellSpec::default()
-                    };
-                    self.cell(n, &c, "battery.cell")
-                }
-                None => {
-                    let names: Vec<&str> = spec.cells.keys().map(String::as_str).collect();
-                    let mut all = names.clone();
-                    for p in Preset::names() {
-                        all.push(p);
-                    }
-                    let hint = match did_you_mean(n, all.into_iter()) {
-                        Some(s) => format!("did you mean `{s}`?"),
-                        None if names.is_empty() => {
-                            "define it under `cells:` (capacity, ocv, resistance, cutoff), write the cell inline, or name a built-in preset (`joulepath cells` lists them)".into()
-                        }
-                        None => format!(
-                            "the cells defined are {}; `joulepath cells` lists the built-in presets",
-                            backticked(&names)
-                        ),
-                    };
-                    self.err_of(
-                        DiagnosticKind::UnknownId,
-                        "battery.cell",
-                        format!("unknown cell `{n}`"),
-                        Some(hint),
-                    );
-                    None
-                }
-            },
-        };
+        let cell = self.pack_cell(spec, &cells);
         let pack = self.pack(spec, cell);
         let stages = self.stages(&spec.stages);
         let loads = self.loads(spec);
@@ -386,6 +335,82 @@ impl Lower<'_> {
         };
         design.tolerances = self.tolerances(spec, &design)?;
         Some(design)
+    }
+
+    /// The ambient of `spec`: its temperature (25 °C by default; a climate's yearly mean) and
+    /// its climate (none for a constant ambient); `None` parts after an error.
+    #[allow(clippy::option_option)]
+    fn ambient(&mut self, spec: &DesignSpec) -> (Option<f64>, Option<Option<Climate>>) {
+        match &spec.ambient {
+            None => (Some(25.0), Some(None)),
+            Some(AmbientSpec::Constant(q)) => (
+                self.value(q, "ambient", Dim::Temperature, Bound::Any),
+                Some(None),
+            ),
+            Some(AmbientSpec::Climate(c)) => match self.climate(c) {
+                Some((mean, climate)) => (Some(mean), Some(Some(climate))),
+                None => (None, None),
+            },
+        }
+    }
+
+    /// The pack's cell, `battery.cell`: inline, or by name a key of `cells` (already checked,
+    /// in `cells`) first, else a built-in preset.
+    fn pack_cell(
+        &mut self,
+        spec: &DesignSpec,
+        cells: &HashMap<&str, Option<Cell>>,
+    ) -> Option<Cell> {
+        match &spec.battery.cell {
+            CellRef::Inline(c) => {
+                let name = match &c.preset {
+                    Some(p) if given_keys(c).is_empty() => p.clone(),
+                    Some(p) => format!("{p}, modified"),
+                    None => "inline".to_string(),
+                };
+                self.cell(&name, c, "battery.cell")
+            }
+            // A key of `cells` first, else a built-in preset.
+            CellRef::Name(n) => match cells.get(n.as_str()) {
+                Some(c) => c.clone(),
+                None if Preset::text(n).is_some() => {
+                    let c = CellSpec {
+                        preset: Some(n.clone()),
+                        ..CellSpec::default()
+                    };
+                    self.cell(n, &c, "battery.cell")
+                }
+                None => {
+                    self.unknown_cell(spec, n);
+                    None
+                }
+            },
+        }
+    }
+
+    /// Report `battery.cell: n` naming neither a key of `cells` nor a preset.
+    fn unknown_cell(&mut self, spec: &DesignSpec, n: &str) {
+        let names: Vec<&str> = spec.cells.keys().map(String::as_str).collect();
+        let mut all = names.clone();
+        for p in Preset::names() {
+            all.push(p);
+        }
+        let hint = match did_you_mean(n, all.into_iter()) {
+            Some(s) => format!("did you mean `{s}`?"),
+            None if names.is_empty() => {
+                "define it under `cells:` (capacity, ocv, resistance, cutoff), write the cell inline, or name a built-in preset (`joulepath cells` lists them)".into()
+            }
+            None => format!(
+                "the cells defined are {}; `joulepath cells` lists the built-in presets",
+                backticked(&names)
+            ),
+        };
+        self.err_of(
+            DiagnosticKind::UnknownId,
+            "battery.cell",
+            format!("unknown cell `{n}`"),
+            Some(hint),
+        );
     }
 }
 
