@@ -5,7 +5,11 @@
 #[allow(clippy::wildcard_imports)]
 use super::*;
 
-use crate::capture::{CompressError, DEFAULT_TOLERANCE_V, MAX_SEGMENTS, compress, sensitivity};
+use std::sync::Arc;
+
+use crate::capture::{
+    Capture, CompressError, Compressed, DEFAULT_TOLERANCE_V, MAX_SEGMENTS, compress, sensitivity,
+};
 use crate::spec::{CaptureScale, CaptureSpec, DrawSpec};
 
 /// Internal mark of a step `for: capture` until the profile is expanded.
@@ -55,21 +59,7 @@ impl Lower<'_> {
         ambient_c: f64,
     ) -> Option<()> {
         let file_path = format!("{path}.capture");
-        let cap = match self.source.capture(&c.capture) {
-            Ok(x) => x,
-            Err(d) => {
-                let at = d.location().map_or_else(String::new, |l| {
-                    format!(" (line {}, column {})", l.line, l.col)
-                });
-                let msg = if d.message().starts_with("line ") || at.is_empty() {
-                    format!("capture `{}`: {}", c.capture, d.message())
-                } else {
-                    format!("capture `{}`{at}: {}", c.capture, d.message())
-                };
-                self.err(&file_path, msg, d.hint().map(str::to_string));
-                return None;
-            }
-        };
+        let cap = self.captured_file(c, &file_path)?;
         let tolerance_v = match &c.tolerance {
             None => DEFAULT_TOLERANCE_V,
             Some(q) => self.value(
@@ -79,28 +69,7 @@ impl Lower<'_> {
                 Bound::AtLeastZero,
             )?,
         };
-        let power = match (c.scale, cap.voltage().is_some()) {
-            (None, true) => {
-                self.err(
-                    path,
-                    format!("the capture `{}` has a voltage column, so say how the draw scales with the rail's voltage", c.capture),
-                    Some("add `scale: current` (the captured current at any voltage) or `scale: power` (the captured power)".into()),
-                );
-                return None;
-            }
-            (Some(CaptureScale::Power), false) => {
-                self.err(
-                    &format!("{path}.scale"),
-                    format!(
-                        "`scale: power` needs a voltage column, and the capture `{}` has none",
-                        c.capture
-                    ),
-                    Some("add a `voltage [V]` column to the capture, or remove `scale`".into()),
-                );
-                return None;
-            }
-            (s, _) => s == Some(CaptureScale::Power),
-        };
+        let power = self.scales_with_power(c, path, cap.voltage().is_some())?;
         let values: Vec<f64> = if power {
             cap.power().unwrap_or_default()
         } else {
@@ -115,50 +84,91 @@ impl Lower<'_> {
         let sens = sensitivity(pack, ambient_c, gain);
         let comp = match compress(&values, cap.dt(), &sens, tolerance_v, MAX_SEGMENTS) {
             Ok(x) => x,
-            Err(CompressError::TooMany { max, at_sample }) => {
+            Err(e) => {
+                self.compress_failed(c, path, &e, tolerance_v, cap.len());
+                return None;
+            }
+        };
+        load_segments(load, state, c, &cap, &values, &comp, power, tolerance_v);
+        Some(())
+    }
+
+    /// The capture file `c` names, read (and cached) relative to the design's directory; its
+    /// problem reported at `file_path` (with the capture's line and column) when it cannot be.
+    fn captured_file(&mut self, c: &CaptureSpec, file_path: &str) -> Option<Arc<Capture>> {
+        match self.source.capture(&c.capture) {
+            Ok(x) => Some(x),
+            Err(d) => {
+                let at = d.location().map_or_else(String::new, |l| {
+                    format!(" (line {}, column {})", l.line, l.col)
+                });
+                let msg = if d.message().starts_with("line ") || at.is_empty() {
+                    format!("capture `{}`: {}", c.capture, d.message())
+                } else {
+                    format!("capture `{}`{at}: {}", c.capture, d.message())
+                };
+                self.err(file_path, msg, d.hint().map(str::to_string));
+                None
+            }
+        }
+    }
+
+    /// Whether the captured draw of `c` scales as a power (`scale: power`) rather than as a
+    /// current: a capture with a voltage column must say, and a power needs that column.
+    fn scales_with_power(
+        &mut self,
+        c: &CaptureSpec,
+        path: &str,
+        has_voltage: bool,
+    ) -> Option<bool> {
+        match (c.scale, has_voltage) {
+            (None, true) => {
                 self.err(
                     path,
-                    format!(
-                        "the capture `{}` needs more than {max} segments to keep the pack's lowest terminal voltage within {} (the first {max} reach sample {at_sample} of {})",
-                        c.capture,
-                        fmt_eng(tolerance_v, "V"),
-                        cap.len()
-                    ),
-                    Some("raise `tolerance` (e.g. `tolerance: 20 mV`), or cut the capture to one event".into()),
+                    format!("the capture `{}` has a voltage column, so say how the draw scales with the rail's voltage", c.capture),
+                    Some("add `scale: current` (the captured current at any voltage) or `scale: power` (the captured power)".into()),
                 );
-                return None;
+                None
             }
-            Err(e) => {
-                self.err(path, e.to_string(), None);
-                return None;
+            (Some(CaptureScale::Power), false) => {
+                self.err(
+                    &format!("{path}.scale"),
+                    format!(
+                        "`scale: power` needs a voltage column, and the capture `{}` has none",
+                        c.capture
+                    ),
+                    Some("add a `voltage [V]` column to the capture, or remove `scale`".into()),
+                );
+                None
             }
-        };
-        let make = |x: f64| {
-            if power {
-                Draw::Power(x)
-            } else {
-                Draw::Current(x)
-            }
-        };
-        let duration_s = cap.duration_s();
-        let total: f64 = values.iter().zip(cap.dt()).map(|(v, t)| v * t).sum();
-        let name = load.states[state].0.clone();
-        load.states[state].1 = make(total / duration_s);
-        let mut segments = Vec::with_capacity(comp.segments.len());
-        for s in &comp.segments {
-            segments.push((s.seconds, load.states.len()));
-            load.states.push((name.clone(), make(s.value)));
+            (s, _) => Some(s == Some(CaptureScale::Power)),
         }
-        load.captured.push(Captured {
-            state,
-            file: c.capture.clone(),
-            samples: cap.len(),
-            duration_s,
-            segments,
-            tolerance_v,
-            bound_v: comp.bound_v,
-        });
-        Some(())
+    }
+
+    /// Report that capture `c` (of `samples` samples) could not be compressed within
+    /// `tolerance_v`.
+    fn compress_failed(
+        &mut self,
+        c: &CaptureSpec,
+        path: &str,
+        e: &CompressError,
+        tolerance_v: f64,
+        samples: usize,
+    ) {
+        if let CompressError::TooMany { max, at_sample } = e {
+            self.err(
+                path,
+                format!(
+                    "the capture `{}` needs more than {max} segments to keep the pack's lowest terminal voltage within {} (the first {max} reach sample {at_sample} of {})",
+                    c.capture,
+                    fmt_eng(tolerance_v, "V"),
+                    samples
+                ),
+                Some("raise `tolerance` (e.g. `tolerance: 20 mV`), or cut the capture to one event".into()),
+            );
+        } else {
+            self.err(path, e.to_string(), None);
+        }
     }
 
     /// Each step in a mode with captured loads becomes a block of the captures' segments,
@@ -243,55 +253,14 @@ impl Lower<'_> {
         loads: &[Load],
         added: &mut usize,
     ) -> Option<Vec<Step>> {
-        let caps: Vec<(usize, &Captured)> = modes[m]
-            .load_states
-            .iter()
-            .enumerate()
-            .filter_map(|(l, s)| {
-                let s = (*s)?;
-                loads[l]
-                    .captured
-                    .iter()
-                    .find(|c| c.state == s)
-                    .map(|c| (l, c))
-            })
-            .collect();
+        let caps = captures_of_mode(&modes[m], loads);
         let first = caps.first()?;
         let name = modes[m].name.clone();
-        for (l, c) in &caps[1..] {
-            if (c.duration_s - first.1.duration_s).abs() > 1e-9 * first.1.duration_s {
-                self.err(
-                    &format!("modes.{name}"),
-                    format!(
-                        "in mode `{name}`, `{}` follows `{}` ({}) and `{}` follows `{}` ({}): captures in one mode must last the same",
-                        loads[first.0].id,
-                        first.1.file,
-                        fmt_eng(first.1.duration_s, "s"),
-                        loads[*l].id,
-                        c.file,
-                        fmt_eng(c.duration_s, "s")
-                    ),
-                    Some("cut the captures to the same event, or put the loads in different modes".into()),
-                );
-                return Some(Vec::new());
-            }
+        if !self.same_durations(&name, &caps, loads) {
+            return Some(Vec::new());
         }
-        // The union of the segments' boundaries: each piece takes every load's segment there.
-        let mut cuts: Vec<f64> = Vec::new();
-        for (_, c) in &caps {
-            let mut t = 0.0;
-            for &(s, _) in &c.segments {
-                t += s;
-                cuts.push(t);
-            }
-        }
-        cuts.sort_by(f64::total_cmp);
         let span = first.1.duration_s;
-        // Boundaries closer than a billionth of the capture are one.
-        cuts.dedup_by(|a, b| (*a - *b).abs() <= 1e-9 * span);
-        if let Some(last) = cuts.last_mut() {
-            *last = span;
-        }
+        let cuts = segment_cuts(&caps, span);
         if *added + cuts.len() > MAX_CAPTURE_STEPS {
             self.err(
                 &format!("modes.{name}"),
@@ -334,6 +303,109 @@ impl Lower<'_> {
         }
         Some(out)
     }
+
+    /// Whether the captures `caps` of mode `name` all last the same (reported if not: a mode's
+    /// pieces take every capture's segment at the same time).
+    fn same_durations(&mut self, name: &str, caps: &[(usize, &Captured)], loads: &[Load]) -> bool {
+        let first = caps[0];
+        for (l, c) in &caps[1..] {
+            if (c.duration_s - first.1.duration_s).abs() > 1e-9 * first.1.duration_s {
+                self.err(
+                    &format!("modes.{name}"),
+                    format!(
+                        "in mode `{name}`, `{}` follows `{}` ({}) and `{}` follows `{}` ({}): captures in one mode must last the same",
+                        loads[first.0].id,
+                        first.1.file,
+                        fmt_eng(first.1.duration_s, "s"),
+                        loads[*l].id,
+                        c.file,
+                        fmt_eng(c.duration_s, "s")
+                    ),
+                    Some("cut the captures to the same event, or put the loads in different modes".into()),
+                );
+                return false;
+            }
+        }
+        true
+    }
+}
+
+/// The loads of `mode` that follow a capture in it, each with its capture.
+fn captures_of_mode<'l>(mode: &Mode, loads: &'l [Load]) -> Vec<(usize, &'l Captured)> {
+    mode.load_states
+        .iter()
+        .enumerate()
+        .filter_map(|(l, s)| {
+            let s = (*s)?;
+            loads[l]
+                .captured
+                .iter()
+                .find(|c| c.state == s)
+                .map(|c| (l, c))
+        })
+        .collect()
+}
+
+/// The ends of a mode's pieces: the union of the boundaries of the segments of `caps`, which
+/// all last `span`.
+fn segment_cuts(caps: &[(usize, &Captured)], span: f64) -> Vec<f64> {
+    // The union of the segments' boundaries: each piece takes every load's segment there.
+    let mut cuts: Vec<f64> = Vec::new();
+    for (_, c) in caps {
+        let mut t = 0.0;
+        for &(s, _) in &c.segments {
+            t += s;
+            cuts.push(t);
+        }
+    }
+    cuts.sort_by(f64::total_cmp);
+    // Boundaries closer than a billionth of the capture are one.
+    cuts.dedup_by(|a, b| (*a - *b).abs() <= 1e-9 * span);
+    if let Some(last) = cuts.last_mut() {
+        *last = span;
+    }
+    cuts
+}
+
+/// Give `load`'s captured `state` the mean of the capture's `values` (a power when `power`, else
+/// a current) and add the segments of `comp` as new states of the same name, recorded in
+/// `load.captured`.
+#[allow(clippy::too_many_arguments)]
+fn load_segments(
+    load: &mut Load,
+    state: usize,
+    c: &CaptureSpec,
+    cap: &Capture,
+    values: &[f64],
+    comp: &Compressed,
+    power: bool,
+    tolerance_v: f64,
+) {
+    let make = |x: f64| {
+        if power {
+            Draw::Power(x)
+        } else {
+            Draw::Current(x)
+        }
+    };
+    let duration_s = cap.duration_s();
+    let total: f64 = values.iter().zip(cap.dt()).map(|(v, t)| v * t).sum();
+    let name = load.states[state].0.clone();
+    load.states[state].1 = make(total / duration_s);
+    let mut segments = Vec::with_capacity(comp.segments.len());
+    for s in &comp.segments {
+        segments.push((s.seconds, load.states.len()));
+        load.states.push((name.clone(), make(s.value)));
+    }
+    load.captured.push(Captured {
+        state,
+        file: c.capture.clone(),
+        samples: cap.len(),
+        duration_s,
+        segments,
+        tolerance_v,
+        bound_v: comp.bound_v,
+    });
 }
 
 /// The lowest voltage of a rail while the product runs: the pack's cutoff, or a stage's
