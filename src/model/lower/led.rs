@@ -20,11 +20,24 @@ impl Lower<'_> {
         loads: &mut [Load],
     ) -> bool {
         let before = self.diags.len();
+        let laws = self.led_laws(spec, stages, loads);
+        self.driver_setpoints(tree, stages, loads, &laws);
+        self.diags.len() == before
+    }
+
+    /// Each LED load's law (knee, resistance) from its LED draws, set as its states' draws;
+    /// each draw on an LED driver's rail must be an LED, and each LED draw on one, with the same
+    /// law in every state. None for a load with no LED (or a problem, reported).
+    fn led_laws(
+        &mut self,
+        spec: &DesignSpec,
+        stages: &[Stage],
+        loads: &mut [Load],
+    ) -> Vec<Option<(f64, f64)>> {
         let rail_name = |stages: &[Stage], rail: usize| {
             rail.checked_sub(1)
                 .map_or_else(|| BATTERY.to_string(), |k| stages[k].id.clone())
         };
-        // The law of each LED load (knee, resistance), if it has one.
         let mut laws: Vec<Option<(f64, f64)>> = vec![None; loads.len()];
         for (i, l) in spec.loads.iter().enumerate() {
             let rail = loads[i].rail;
@@ -84,6 +97,18 @@ impl Lower<'_> {
                 }
             }
         }
+        laws
+    }
+
+    /// Each LED driver's output voltage: its LED load's voltage at the set current (`laws`,
+    /// from `led_laws`); a driver feeds no stage and drives exactly one load.
+    fn driver_setpoints(
+        &mut self,
+        tree: &Tree,
+        stages: &mut [Stage],
+        loads: &[Load],
+        laws: &[Option<(f64, f64)>],
+    ) {
         for k in 0..stages.len() {
             let Some(i_set) = stages[k].led_current else {
                 continue;
@@ -123,7 +148,6 @@ impl Lower<'_> {
                 stages[k].setpoint = knee + i_set * r;
             }
         }
-        self.diags.len() == before
     }
 
     /// One LED draw's law for a string: (knee, resistance) of `count` LEDs in series, each with
