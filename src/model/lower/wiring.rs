@@ -2,117 +2,128 @@
 
 #[allow(clippy::wildcard_imports)]
 use super::*;
+use crate::spec::LoadSpec;
 
 impl Lower<'_> {
+    /// Every load of `spec` checked into the model (each problem reported); none if any is
+    /// wrong.
     pub(super) fn loads(&mut self, spec: &DesignSpec) -> Option<Vec<Load>> {
         let mut out = Vec::with_capacity(spec.loads.len());
         let mut ok = true;
         for (i, l) in spec.loads.iter().enumerate() {
-            // Paths are written only for a message: ten thousand loads check in milliseconds.
-            let path = || format!("loads[{i}]");
-            let before = self.diags.len();
-            let range = self.range(
-                l.voltage_range.as_ref(),
-                format_args!("loads[{i}].voltage_range"),
-            );
-            let mut states = Vec::with_capacity(l.draw.len());
-            if l.draw.is_empty() {
-                self.err(
-                    &format!("{}.draw", path()),
-                    format!("the load `{}` has no states", l.id),
-                    Some("add e.g. `draw: { run: 6 mA }`".into()),
-                );
+            match self.load(i, l) {
+                Some(x) => out.push(x),
+                None => ok = false,
             }
-            for (name, q) in &l.draw {
-                let p = || format!("loads[{i}].draw.{name}");
-                if name == "off" {
-                    self.err(
-                        &p(),
-                        "`off` is a state every load has, drawing nothing",
-                        Some("name this state differently".into()),
-                    );
-                    continue;
-                }
-                // A capture's draw is its mean, set once the pack and the rail are known.
-                let q = match q {
-                    DrawSpec::Value(q) => q,
-                    DrawSpec::Capture(_) => {
-                        states.push((name.clone(), Draw::Current(0.0)));
-                        continue;
-                    }
-                    // An LED's law is set with its driver's current (`led_strings`).
-                    DrawSpec::Led(_) => {
-                        states.push((
-                            name.clone(),
-                            Draw::Led {
-                                knee: 0.0,
-                                resistance: f64::INFINITY,
-                            },
-                        ));
-                        continue;
-                    }
-                };
-                let Some(v) = self.quantity(
-                    q,
-                    format_args!("loads[{i}].draw.{name}"),
-                    &[Dim::Current, Dim::Power, Dim::Resistance],
-                ) else {
-                    continue;
-                };
-                let draw = match v.dim() {
-                    Dim::Current => Draw::Current(v.value()),
-                    Dim::Power => Draw::Power(v.value()),
-                    _ => Draw::Resistance(v.value()),
-                };
-                let bad = match draw {
-                    Draw::Resistance(r) => r <= 0.0,
-                    Draw::Current(x) | Draw::Power(x) => x < 0.0,
-                    Draw::Led { .. } => false,
-                };
-                if bad {
-                    self.err(
-                        &p(),
-                        format!("the draw `{}` must be above zero", q.text()),
-                        Some("give a current, power or resistance above zero, such as `6 mA`; for no draw leave the state out and use `off`".into()),
-                    );
-                    continue;
-                }
-                states.push((name.clone(), draw));
-            }
-            let default = match l.default.as_deref() {
-                None | Some("off") => None,
-                Some(d) => {
-                    let k = states.iter().position(|(n, _)| n == d);
-                    if k.is_none() {
-                        self.unknown_state(&format!("{}.default", path()), &l.id, d, &states);
-                    }
-                    k
-                }
-            };
-            if l.id.trim().is_empty() {
-                self.err(
-                    &format!("{}.id", path()),
-                    "the id is empty",
-                    Some("give the load a short name such as `mcu`".into()),
-                );
-            }
-            if self.diags.len() > before {
-                ok = false;
-                continue;
-            }
-            let (v_min, v_max) = range?;
-            out.push(Load {
-                id: l.id.clone(),
-                rail: 0,
-                v_min,
-                v_max,
-                file_states: states.len(),
-                states,
-                default,
-                captured: Vec::new(),
-            });
         }
         ok.then_some(out)
+    }
+
+    /// Load `l`, the `i`th: its voltage range, its states' draws, its default state and its
+    /// id; none after a problem (reported). Its rail is set later, from the tree.
+    fn load(&mut self, i: usize, l: &LoadSpec) -> Option<Load> {
+        // Paths are written only for a message: ten thousand loads check in milliseconds.
+        let path = || format!("loads[{i}]");
+        let before = self.diags.len();
+        let range = self.range(
+            l.voltage_range.as_ref(),
+            format_args!("loads[{i}].voltage_range"),
+        );
+        let mut states = Vec::with_capacity(l.draw.len());
+        if l.draw.is_empty() {
+            self.err(
+                &format!("{}.draw", path()),
+                format!("the load `{}` has no states", l.id),
+                Some("add e.g. `draw: { run: 6 mA }`".into()),
+            );
+        }
+        for (name, q) in &l.draw {
+            if let Some(draw) = self.load_draw(i, name, q) {
+                states.push((String::clone(name), draw));
+            }
+        }
+        let default = match l.default.as_deref() {
+            None | Some("off") => None,
+            Some(d) => {
+                let k = states.iter().position(|(n, _)| n == d);
+                if k.is_none() {
+                    self.unknown_state(&format!("{}.default", path()), &l.id, d, &states);
+                }
+                k
+            }
+        };
+        if l.id.trim().is_empty() {
+            self.err(
+                &format!("{}.id", path()),
+                "the id is empty",
+                Some("give the load a short name such as `mcu`".into()),
+            );
+        }
+        if self.diags.len() > before {
+            return None;
+        }
+        let (v_min, v_max) = range?;
+        Some(Load {
+            id: l.id.clone(),
+            rail: 0,
+            v_min,
+            v_max,
+            file_states: states.len(),
+            states,
+            default,
+            captured: Vec::new(),
+        })
+    }
+
+    /// The draw of state `name` of the `i`th load: a current, power or resistance above zero;
+    /// a capture's mean and an LED's law are set later (once the pack, the rails and the
+    /// drivers are known). None when the state is left out (a problem, reported).
+    fn load_draw(&mut self, i: usize, name: &str, q: &DrawSpec) -> Option<Draw> {
+        let p = || format!("loads[{i}].draw.{name}");
+        if name == "off" {
+            self.err(
+                &p(),
+                "`off` is a state every load has, drawing nothing",
+                Some("name this state differently".into()),
+            );
+            return None;
+        }
+        // A capture's draw is its mean, set once the pack and the rail are known.
+        let q = match q {
+            DrawSpec::Value(q) => q,
+            DrawSpec::Capture(_) => return Some(Draw::Current(0.0)),
+            // An LED's law is set with its driver's current (`led_strings`).
+            DrawSpec::Led(_) => {
+                return Some(Draw::Led {
+                    knee: 0.0,
+                    resistance: f64::INFINITY,
+                });
+            }
+        };
+        let v = self.quantity(
+            q,
+            format_args!("loads[{i}].draw.{name}"),
+            &[Dim::Current, Dim::Power, Dim::Resistance],
+        )?;
+        let draw = match v.dim() {
+            Dim::Current => Draw::Current(v.value()),
+            Dim::Power => Draw::Power(v.value()),
+            _ => Draw::Resistance(v.value()),
+        };
+        let bad = match draw {
+            Draw::Resistance(r) => r <= 0.0,
+            Draw::Current(x) | Draw::Power(x) => x < 0.0,
+            Draw::Led { .. } => false,
+        };
+        if bad {
+            self.err(
+                &p(),
+                format!("the draw `{}` must be above zero", q.text()),
+                Some("give a current, power or resistance above zero, such as `6 mA`; for no draw leave the state out and use `off`".into()),
+            );
+            return None;
+        }
+        Some(draw)
     }
 
     pub(super) fn unknown_state(
@@ -301,19 +312,7 @@ impl Lower<'_> {
                 let p = || format!("modes.{name}.{key}");
                 if let Some(&li) = load_ids.get(key.as_str()) {
                     let l = &spec.loads[li];
-                    if value == "off" {
-                        load_states[li] = None;
-                        continue;
-                    }
-                    let states = || l.draw.keys().filter(|k| *k != "off");
-                    if let Some(k) = states().position(|s| s == value) {
-                        load_states[li] = Some(k);
-                    } else {
-                        let named: Vec<(String, Draw)> =
-                            states().map(|s| (s.clone(), Draw::Current(0.0))).collect();
-                        self.unknown_state(&p(), key, value, &named);
-                        ok = false;
-                    }
+                    ok &= self.mode_load_state(l, name, key, value, &mut load_states[li]);
                 } else if let Some(&si) = stage_ids.get(key.as_str()) {
                     match value.as_str() {
                         "off" => stage_on[si] = false,
@@ -328,24 +327,7 @@ impl Lower<'_> {
                         }
                     }
                 } else {
-                    let names: Vec<&str> = spec
-                        .loads
-                        .iter()
-                        .map(|l| l.id.as_str())
-                        .chain(spec.stages.iter().map(|s| s.id.as_str()))
-                        .collect();
-                    let hint = match did_you_mean(key, names.iter().copied()) {
-                        Some(s) => format!("did you mean `{s}`?"),
-                        None => {
-                            "a mode names loads (with a state) and stages (with `off`)".to_string()
-                        }
-                    };
-                    self.err_of(
-                        DiagnosticKind::UnknownId,
-                        &p(),
-                        format!("mode `{name}` names `{key}`, which is neither a load nor a stage"),
-                        Some(hint),
-                    );
+                    self.unknown_mode_key(spec, name, key, &p());
                     ok = false;
                 }
             }
@@ -359,5 +341,51 @@ impl Lower<'_> {
             });
         }
         ok.then_some(out)
+    }
+
+    /// Set `state` (a load's state in mode `mode`) to `value`, a state of load `l` (`key` in
+    /// the mode) or `off`. False when `l` has no such state (reported).
+    fn mode_load_state(
+        &mut self,
+        l: &LoadSpec,
+        mode: &str,
+        key: &str,
+        value: &str,
+        state: &mut Option<usize>,
+    ) -> bool {
+        if value == "off" {
+            *state = None;
+            return true;
+        }
+        let states = || l.draw.keys().filter(|k| *k != "off");
+        if let Some(k) = states().position(|s| s == value) {
+            *state = Some(k);
+            true
+        } else {
+            let named: Vec<(String, Draw)> =
+                states().map(|s| (s.clone(), Draw::Current(0.0))).collect();
+            self.unknown_state(&format!("modes.{mode}.{key}"), key, value, &named);
+            false
+        }
+    }
+
+    /// Report `key` of mode `name` (at `path`), which names neither a load nor a stage.
+    fn unknown_mode_key(&mut self, spec: &DesignSpec, name: &str, key: &str, path: &str) {
+        let names: Vec<&str> = spec
+            .loads
+            .iter()
+            .map(|l| l.id.as_str())
+            .chain(spec.stages.iter().map(|s| s.id.as_str()))
+            .collect();
+        let hint = match did_you_mean(key, names.iter().copied()) {
+            Some(s) => format!("did you mean `{s}`?"),
+            None => "a mode names loads (with a state) and stages (with `off`)".to_string(),
+        };
+        self.err_of(
+            DiagnosticKind::UnknownId,
+            path,
+            format!("mode `{name}` names `{key}`, which is neither a load nor a stage"),
+            Some(hint),
+        );
     }
 }
