@@ -26,74 +26,15 @@ impl Lower<'_> {
             );
             return None;
         }
-        let mean = match (&c.mean, &c.monthly) {
-            (Some(_), Some(_)) => {
-                self.err(
-                    "ambient",
-                    "`mean` and `monthly` both give the mean ambient",
-                    Some("keep `monthly` (twelve means, January first) for a yearly cycle, or `mean` for none".into()),
-                );
-                None
-            }
-            (None, None) => {
-                self.err(
-                    "ambient",
-                    "a climate needs `mean` or `monthly`",
-                    Some("add `mean: 20 °C`, or `monthly: [...]` with twelve temperatures, January first".into()),
-                );
-                None
-            }
-            (Some(q), None) => self
-                .value(q, "ambient.mean", Dim::Temperature, Bound::Any)
-                .map(|m| (m, None)),
-            (None, Some(list)) => self.monthly(list),
-        };
+        let mean = self.climate_mean(c);
         let start_month = match &c.start_month {
             None => Some(0),
             Some(q) => self
                 .count(Some(q), "ambient.start_month", 12)
                 .map(|m| m as usize - 1),
         };
-        let daily_range = match &c.daily_range {
-            None => Some(0.0),
-            Some(q) => {
-                let v = self.value(
-                    q,
-                    "ambient.daily_range",
-                    Dim::Temperature,
-                    Bound::AtLeastZero,
-                );
-                match v {
-                    Some(r) if r <= 100.0 => Some(r),
-                    Some(_) => {
-                        self.err_of(
-                            DiagnosticKind::OutOfRange,
-                            "ambient.daily_range",
-                            format!("a daily range of `{}` is beyond 100 °C", q.text()),
-                            Some("give the warmest less the coldest hour of a day in °C, such as `10 °C`".into()),
-                        );
-                        None
-                    }
-                    None => None,
-                }
-            }
-        };
-        let warmest = match &c.warmest {
-            None => Some(WARMEST_DEFAULT_S),
-            Some(q) => match self.value(q, "ambient.warmest", Dim::Time, Bound::AtLeastZero) {
-                Some(t) if t < 86_400.0 => Some(t),
-                Some(_) => {
-                    self.err_of(
-                        DiagnosticKind::OutOfRange,
-                        "ambient.warmest",
-                        format!("`{}` is not a time of day", q.text()),
-                        Some("give the hours after midnight, from `0 h` to under `24 h`, such as `15 h`".into()),
-                    );
-                    None
-                }
-                None => None,
-            },
-        };
+        let daily_range = self.daily_range(c);
+        let warmest = self.warmest(c);
         let ((mean, monthly_c), start_month, daily_range_c, warmest_s) =
             (mean?, start_month?, daily_range?, warmest?);
         let climate = Climate::new(monthly_c, start_month, daily_range_c, warmest_s);
@@ -113,6 +54,82 @@ impl Lower<'_> {
             return None;
         }
         Some((mean, climate))
+    }
+
+    /// A climate's mean: `mean` (no yearly cycle) or `monthly` (twelve means), exactly one;
+    /// the mean, and each month's mean less it (none for `mean`).
+    fn climate_mean(&mut self, c: &ClimateSpec) -> Option<(f64, Option<[f64; 12]>)> {
+        match (&c.mean, &c.monthly) {
+            (Some(_), Some(_)) => {
+                self.err(
+                "ambient",
+                "`mean` and `monthly` both give the mean ambient",
+                Some("keep `monthly` (twelve means, January first) for a yearly cycle, or `mean` for none".into()),
+            );
+                None
+            }
+            (None, None) => {
+                self.err(
+                "ambient",
+                "a climate needs `mean` or `monthly`",
+                Some("add `mean: 20 °C`, or `monthly: [...]` with twelve temperatures, January first".into()),
+            );
+                None
+            }
+            (Some(q), None) => self
+                .value(q, "ambient.mean", Dim::Temperature, Bound::Any)
+                .map(|m| (m, None)),
+            (None, Some(list)) => self.monthly(list),
+        }
+    }
+
+    /// A climate's daily swing, warmest less coldest hour (`daily_range`, 0 by default, at most
+    /// 100 °C).
+    fn daily_range(&mut self, c: &ClimateSpec) -> Option<f64> {
+        match &c.daily_range {
+            None => Some(0.0),
+            Some(q) => {
+                let v = self.value(
+                    q,
+                    "ambient.daily_range",
+                    Dim::Temperature,
+                    Bound::AtLeastZero,
+                );
+                match v {
+                    Some(r) if r <= 100.0 => Some(r),
+                    Some(_) => {
+                        self.err_of(
+                        DiagnosticKind::OutOfRange,
+                        "ambient.daily_range",
+                        format!("a daily range of `{}` is beyond 100 °C", q.text()),
+                        Some("give the warmest less the coldest hour of a day in °C, such as `10 °C`".into()),
+                    );
+                        None
+                    }
+                    None => None,
+                }
+            }
+        }
+    }
+
+    /// The warmest hour of a climate's day (`warmest`, s after midnight, 15:00 by default).
+    fn warmest(&mut self, c: &ClimateSpec) -> Option<f64> {
+        match &c.warmest {
+            None => Some(WARMEST_DEFAULT_S),
+            Some(q) => match self.value(q, "ambient.warmest", Dim::Time, Bound::AtLeastZero) {
+                Some(t) if t < 86_400.0 => Some(t),
+                Some(_) => {
+                    self.err_of(
+                    DiagnosticKind::OutOfRange,
+                    "ambient.warmest",
+                    format!("`{}` is not a time of day", q.text()),
+                    Some("give the hours after midnight, from `0 h` to under `24 h`, such as `15 h`".into()),
+                );
+                    None
+                }
+                None => None,
+            },
+        }
     }
 
     /// A recorded ambient: the file's time-weighted mean and the series around it. The file is
