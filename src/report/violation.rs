@@ -26,24 +26,8 @@ pub fn excess_detail(d: &Design, e: &Excess) -> String {
         Excess::ContinuousCurrent {
             current_a,
             limit_a,
-            held_beyond_pulse: Some((hold_s, pulse_s)),
-        } => format!(
-            "the pack gives {} for {} at a stretch, longer than its {} pulses: \
-above its {} continuous limit",
-            fmt_eng(current_a, "A"),
-            fmt_duration(hold_s),
-            fmt_duration(pulse_s),
-            fmt_eng(limit_a, "A")
-        ),
-        Excess::ContinuousCurrent {
-            current_a,
-            limit_a,
-            held_beyond_pulse: None,
-        } => format!(
-            "the pack gives {}, above its {} continuous limit",
-            fmt_eng(current_a, "A"),
-            fmt_eng(limit_a, "A")
-        ),
+            held_beyond_pulse,
+        } => continuous_detail(current_a, limit_a, held_beyond_pulse),
         Excess::StageCurrent {
             stage,
             current_a,
@@ -98,6 +82,31 @@ above its {} continuous limit",
             d.loads[load].id,
             d.loads[load].states[state].0,
             d.rail_name(rail)
+        ),
+    }
+}
+
+/// The sentence of a continuous current `current_a` above the pack's `limit_a`, held
+/// `(hold_s, pulse_s)`: longer than the pulses the pack may give above it, when it has a pulse
+/// limit.
+fn continuous_detail(
+    current_a: f64,
+    limit_a: f64,
+    held_beyond_pulse: Option<(f64, f64)>,
+) -> String {
+    match held_beyond_pulse {
+        Some((hold_s, pulse_s)) => format!(
+            "the pack gives {} for {} at a stretch, longer than its {} pulses: \
+above its {} continuous limit",
+            fmt_eng(current_a, "A"),
+            fmt_duration(hold_s),
+            fmt_duration(pulse_s),
+            fmt_eng(limit_a, "A")
+        ),
+        None => format!(
+            "the pack gives {}, above its {} continuous limit",
+            fmt_eng(current_a, "A"),
+            fmt_eng(limit_a, "A")
         ),
     }
 }
