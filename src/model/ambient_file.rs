@@ -201,6 +201,31 @@ pub fn read_ambient(
         .find(|c| head.contains(*c))
         .unwrap_or(',');
     let lay = header(head, header_line, sep, name).map_err(|d| vec![d])?;
+    let (times, temps) = read_rows(lines, sep, &lay, name)?;
+    if times.len() < 2 {
+        return Err(vec![
+            Diagnostic::new(
+                name,
+                format!(
+                    "the file has {} row{}; an ambient over time needs at least two",
+                    times.len(),
+                    if times.len() == 1 { "" } else { "s" }
+                ),
+            )
+            .with_hint("add one row per time (time, temperature), or give the ambient as one temperature such as `ambient: 20 °C`"),
+        ]);
+    }
+    Ok(Recorded::new(&times, &temps, repeat))
+}
+
+/// The times (s) and temperatures (°C) of the data rows `lines` (after the header), at most
+/// `MAX_AMBIENT_ROWS`; every bad row reported (the first `MAX_REPORTED`, then their count).
+fn read_rows<'a>(
+    lines: impl Iterator<Item = (usize, &'a str)>,
+    sep: char,
+    lay: &Layout,
+    name: &str,
+) -> Result<(Vec<f64>, Vec<f64>), Vec<Diagnostic>> {
     let mut times: Vec<f64> = Vec::new();
     let mut temps: Vec<f64> = Vec::new();
     let mut bad: Vec<Diagnostic> = Vec::new();
@@ -224,7 +249,7 @@ pub fn read_ambient(
             row,
             line,
             sep,
-            &lay,
+            lay,
             name,
             times.last().copied(),
             &mut fields,
@@ -248,23 +273,11 @@ pub fn read_ambient(
                 .with_hint("fix the rows above, then check the file again"),
         );
     }
-    if !bad.is_empty() {
-        return Err(bad);
+    if bad.is_empty() {
+        Ok((times, temps))
+    } else {
+        Err(bad)
     }
-    if times.len() < 2 {
-        return Err(vec![
-            Diagnostic::new(
-                name,
-                format!(
-                    "the file has {} row{}; an ambient over time needs at least two",
-                    times.len(),
-                    if times.len() == 1 { "" } else { "s" }
-                ),
-            )
-            .with_hint("add one row per time (time, temperature), or give the ambient as one temperature such as `ambient: 20 °C`"),
-        ]);
-    }
-    Ok(Recorded::new(&times, &temps, repeat))
 }
 
 /// One row: its time (s) and temperature (°C), checked against the time of the row before.
