@@ -58,7 +58,7 @@ pub fn capture_command(a: &CaptureArgs, buf: &mut Vec<u8>) -> Result<(), Failure
             .and_then(|_| std::fs::read_to_string(&a.file).ok())
             .unwrap_or_default();
         Failure::Invalid {
-            file: a.file.to_path_buf(),
+            file: a.file.clone(),
             text,
             diagnostics: vec![d],
         }

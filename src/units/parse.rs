@@ -174,10 +174,10 @@ mod tests {
         (a - b).abs() <= 1e-12 * a.abs().max(b.abs()).max(1e-300)
     }
 
-    #[test]
-    fn valid_values() {
+    /// Spellings of each kind of quantity and their values in SI units.
+    const VALID: &[(&str, Dim, f64)] = {
         use Dim::*;
-        let cases: &[(&str, Dim, f64)] = &[
+        &[
             ("3.3 V", Voltage, 3.3),
             ("3.3V", Voltage, 3.3),
             ("  -1.8 mV\t", Voltage, -1.8e-3),
@@ -249,8 +249,12 @@ mod tests {
             (".5 V", Voltage, 0.5),
             ("2. V", Voltage, 2.0),
             ("+5 V", Voltage, 5.0),
-        ];
-        for &(text, dim, want) in cases {
+        ]
+    };
+
+    #[test]
+    fn valid_values() {
+        for &(text, dim, want) in VALID {
             let q = parse_quantity(text, &[dim]).unwrap_or_else(|e| panic!("{text}: {e}"));
             assert_eq!(q.dim(), dim, "{text}");
             assert!(close(q.value(), want), "{text}: {} != {want}", q.value());
