@@ -322,20 +322,7 @@ impl Knob {
             Knob::AgingCapacity => d.pack.aging_capacity = v,
             Knob::AgingResistance => d.pack.aging_resistance = v,
             Knob::StageOutput(i) => d.stages[*i].setpoint = v,
-            Knob::StageLedCurrent(i) => {
-                // The output where the driver's LED (the one load on its rail) draws `v`.
-                let law = d.tree.loads_on(*i + 1).first().and_then(|&l| {
-                    d.loads[l].states.iter().find_map(|(_, draw)| match *draw {
-                        Draw::Led { knee, resistance } => Some((knee, resistance)),
-                        _ => None,
-                    })
-                });
-                let st = &mut d.stages[*i];
-                st.led_current = Some(v);
-                if let Some((knee, r)) = law {
-                    st.setpoint = knee + v * r;
-                }
-            }
+            Knob::StageLedCurrent(i) => set_led_current(d, *i, v),
             Knob::StageQuiescent(i) => d.stages[*i].quiescent = v,
             Knob::StageShutdown(i) => d.stages[*i].shutdown = v,
             Knob::StageEfficiency(i) => d.stages[*i].loss = LossModel::Constant(v),
@@ -353,18 +340,7 @@ impl Knob {
                     *resistance = v;
                 }
             }
-            Knob::LoadDraw(l, s) => {
-                let draw = &mut d.loads[*l].states[*s].1;
-                *draw = match *draw {
-                    Draw::Current(_) => Draw::Current(v),
-                    Draw::Power(_) => Draw::Power(v),
-                    Draw::Resistance(_) => Draw::Resistance(v),
-                    // Never reached: the checker refuses a tolerance on an LED's draw (its
-                    // driver's setpoint follows from it).
-                    led @ Draw::Led { .. } => led,
-                };
-                super::lower::refresh_draws(d);
-            }
+            Knob::LoadDraw(l, s) => set_load_draw(d, *l, *s, v),
             Knob::StepFor(at) => set_step_for(d, at, v),
             Knob::RepeatTimes(at) => {
                 if let Some(Step::Repeat {
@@ -377,6 +353,37 @@ impl Knob {
             }
         }
     }
+}
+
+/// Set LED driver `i`'s current to `v`, A, and its output to the voltage where its LED (the
+/// one load on its rail) draws `v`.
+fn set_led_current(d: &mut Design, i: usize, v: f64) {
+    let law = d.tree.loads_on(i + 1).first().and_then(|&l| {
+        d.loads[l].states.iter().find_map(|(_, draw)| match *draw {
+            Draw::Led { knee, resistance } => Some((knee, resistance)),
+            _ => None,
+        })
+    });
+    let st = &mut d.stages[i];
+    st.led_current = Some(v);
+    if let Some((knee, r)) = law {
+        st.setpoint = knee + v * r;
+    }
+}
+
+/// Set the draw of state `s` of load `l` to `v` (in the draw's own kind: current, power or
+/// resistance) and refresh the modes' per-rail draws.
+fn set_load_draw(d: &mut Design, l: usize, s: usize, v: f64) {
+    let draw = &mut d.loads[l].states[s].1;
+    *draw = match *draw {
+        Draw::Current(_) => Draw::Current(v),
+        Draw::Power(_) => Draw::Power(v),
+        Draw::Resistance(_) => Draw::Resistance(v),
+        // Never reached: the checker refuses a tolerance on an LED's draw (its driver's
+        // setpoint follows from it).
+        led @ Draw::Led { .. } => led,
+    };
+    super::lower::refresh_draws(d);
 }
 
 /// Set the cell's resistance at half charge to `v`, Ω, scaling its whole table (a table that
