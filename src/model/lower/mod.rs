@@ -3,8 +3,11 @@
 
 mod capture;
 mod cell;
+mod cell_keys;
 mod climate;
+mod knob_path;
 mod led;
+mod loss;
 mod profile;
 mod stage;
 mod tolerance;
