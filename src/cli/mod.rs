@@ -3,6 +3,7 @@
 mod args;
 mod capture;
 mod files;
+mod fit_cell;
 mod groups;
 mod pictures;
 mod render;
