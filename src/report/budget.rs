@@ -83,16 +83,15 @@ fn write_table(
 fn write_mode(w: &mut dyn Write, d: &Design, p: &OperatingPoint, mj: &ModeJson) -> io::Result<()> {
     let b = &mj.battery;
     let cutoff = d.pack.cutoff_v();
-    let voltage = b.voltage_v.unwrap_or(b.open_circuit_v);
     writeln!(
         w,
         "  pack  {} at {} (open circuit {}), {} out, {} lost inside{}",
         opt_eng(b.current_a, "A"),
-        fmt_eng(voltage, "V"),
+        opt_eng(b.voltage_v, "V"),
         fmt_eng(b.open_circuit_v, "V"),
         opt_eng(b.power_w, "W"),
         opt_eng(b.loss_w, "W"),
-        if voltage < cutoff {
+        if b.voltage_v.is_some_and(|v| v < cutoff) {
             format!("; BELOW the {} pack cutoff", fmt_eng(cutoff, "V"))
         } else {
             String::new()
