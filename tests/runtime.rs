@@ -593,7 +593,7 @@ fn trace_keeps_the_pulse_minima() {
     );
 }
 
-mod agreement {
+pub(crate) mod agreement {
     //! The fast solver against the chronological reference on random designs (DESIGN section 6:
     //! runtime within 0.2 %, the same end reason).
 
@@ -606,7 +606,7 @@ mod agreement {
     use crate::util::close;
 
     #[derive(Debug, Clone)]
-    struct Gen {
+    pub(crate) struct Gen {
         ocv: (f64, f64, f64),
         cut: f64,
         r: f64,
@@ -619,7 +619,7 @@ mod agreement {
         inner_times: u64,
     }
 
-    fn designs() -> impl Strategy<Value = Gen> {
+    pub(crate) fn designs() -> impl Strategy<Value = Gen> {
         (
             (2.5f64..3.2, 0.1f64..0.6, 0.0f64..0.8),
             (-1.5f64..0.5, 0.0f64..12.0),
@@ -660,7 +660,7 @@ mod agreement {
             )
     }
 
-    fn text(g: &Gen) -> String {
+    pub(crate) fn text(g: &Gen) -> String {
         let (lo, span, bend) = g.ocv;
         let hi = lo + span;
         let mid = lo + span * (0.5 + 0.4 * bend);
@@ -729,7 +729,7 @@ mod agreement {
         s
     }
 
-    fn config() -> Config {
+    pub(crate) fn config() -> Config {
         let env = |k: &str| std::env::var(k).ok().and_then(|v| v.parse::<u64>().ok());
         Config {
             cases: env("JOULEPATH_AGREEMENT_CASES").map_or(32, |c| c as u32),

@@ -70,6 +70,10 @@ pub const SKIP_MIN_PASSES: u64 = 3;
 /// A step whose pack voltage moves by less than this share takes its start point as its mean
 /// point (the energy error is of this order).
 pub const MEAN_POINT_REL: f64 = 1e-4;
+/// Rounds of the mean point of a step with a buffer capacitor: its mean voltage from the
+/// node's current, that current from the voltage (a contraction where the cells' resistance is
+/// small beside the load's; three rounds take a settling capacitor to a part in 1e-6).
+pub const MEAN_POINT_BUFFER_ITER: usize = 3;
 /// Bisection steps locating the end inside a step (2^-60 of the step).
 pub const END_BISECT_ITER: usize = 60;
 /// Stretches of state of charge in a trace (each keeps its first and its lowest point).

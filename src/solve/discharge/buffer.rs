@@ -24,6 +24,11 @@ pub(super) struct CapStep {
     pub r: f64,
     /// The node's current (the tree's and the leakage).
     pub i: f64,
+    /// How fast the cells' side moves along the step, V/s: the open-circuit voltage falling
+    /// with the charge drawn, less the growth of R I and of the polarization. `e` is taken
+    /// at the step's start and moves at this rate, so that a capacitor settling within the
+    /// step follows it (lagging by `drift` x its time constant) instead of a voltage held.
+    pub drift: f64,
     pub b: Buffer,
 }
 
@@ -43,22 +48,34 @@ impl CapStep {
 
     /// The boundaries x_l (the cells at the limit below it) and x_b (the cells cut off above
     /// it); infinite without a limiter.
-    fn bounds(&self) -> (f64, f64) {
+    fn bounds(&self, t0: f64) -> (f64, f64) {
         match self.b.current_limit {
             Some(l) => {
-                let top = self.e + self.b.esr * self.i;
+                let top = self.e + self.drift * t0 + self.b.esr * self.i;
                 (top - self.rt() * l, top)
             }
             None => (f64::NEG_INFINITY, f64::INFINITY),
         }
     }
 
-    /// The region at capacitor voltage `x`, and how long the path stays in it (infinite when
-    /// it never leaves).
-    fn region(&self, x: f64) -> (Region, f64) {
+    /// The region boundary (x_l or x_b, `t0` seconds into the step) nearest to `x`.
+    fn boundary_near(&self, x: f64, t0: f64) -> f64 {
+        let (lo, hi) = self.bounds(t0);
+        let near = if (x - lo).abs() <= (x - hi).abs() {
+            lo
+        } else {
+            hi
+        };
+        if near.is_finite() { near } else { x }
+    }
+
+    /// The region at capacitor voltage `x`, `t0` seconds into the step, and how long the path
+    /// stays in it (infinite when it never leaves; the boundaries are held where they are at
+    /// `t0`). A shared region's target is the one at `t0`.
+    fn region(&self, x: f64, t0: f64) -> (Region, f64) {
         let c = self.b.capacitance;
-        let (lo, hi) = self.bounds();
-        let target = self.e - self.r * self.i;
+        let (lo, hi) = self.bounds(t0);
+        let target = self.e + self.drift * t0 - self.r * self.i;
         let limit = self.b.current_limit.unwrap_or(f64::INFINITY);
         if x > hi {
             // Cut off: the capacitor alone feeds the node, down to x_b.
@@ -70,7 +87,10 @@ impl CapStep {
             };
             return (Region::Ramp { slope }, t);
         }
-        if x < lo || (x <= lo && self.i > limit) {
+        // At x_l to within rounding (where a shared stretch ended) with the node taking more
+        // than the limit: the limiter holds from here (else the path would stall there).
+        let at_lo = x <= lo + 1e-12 * (lo.abs() + 1.0);
+        if x < lo || (at_lo && self.i > limit) {
             let slope = (limit - self.i) / c;
             let t = if slope > 0.0 {
                 (lo - x) / slope
@@ -90,30 +110,39 @@ impl CapStep {
         (Region::Shared { target, tau }, t.max(0.0))
     }
 
-    /// The capacitor voltage after `dt` from `x0`, and its time average over the step.
-    pub(super) fn path(&self, x0: f64, dt: f64) -> (f64, f64) {
+    /// The capacitor voltage after `dt` from `x0`, its time average over the step, and the
+    /// log of d x(dt) / d x0 (the time spent shared over -tau: the straight lines keep a
+    /// change as it is).
+    pub(super) fn path(&self, x0: f64, dt: f64) -> (f64, f64, f64) {
         if dt <= 0.0 {
-            return (x0, x0);
+            return (x0, x0, 0.0);
         }
-        let (mut x, mut left, mut area) = (x0, dt, 0.0);
+        let (mut x, mut left, mut area, mut ln) = (x0, dt, 0.0, 0.0);
+        let g = self.drift;
         for round in 0..4 {
-            let (region, stay) = self.region(x);
+            let (region, stay) = self.region(x, dt - left);
             // The last round takes the rest of the step in its region (the path has crossed
             // every boundary it can by then).
-            let seg = if round == 3 { left } else { stay.min(left) };
+            let on_boundary = round < 3 && stay < left;
+            let seg = if on_boundary { stay } else { left };
             match region {
                 Region::Ramp { slope } => {
                     area += x * seg + 0.5 * slope * seg * seg;
                     x += slope * seg;
                 }
                 Region::Shared { target, tau } => {
+                    // Toward a target moving at g from `target`: x follows it g tau behind,
+                    // x(t) = T(t) - g tau + (x0 - T(0) + g tau) e^(-t / tau) (a first-order lag
+                    // on a ramp; textbook linear ODE).
+                    let ramp = target * seg + 0.5 * g * seg * seg;
+                    ln -= if tau > 0.0 { seg / tau } else { f64::INFINITY };
                     if tau > 0.0 {
-                        let kept = (-seg / tau).exp();
-                        area += target * seg + (x - target) * tau * -(-seg / tau).exp_m1();
-                        x = target + (x - target) * kept;
+                        let gap = x - target + g * tau;
+                        area += ramp - g * tau * seg + gap * tau * -(-seg / tau).exp_m1();
+                        x = target + g * seg - g * tau + gap * (-seg / tau).exp();
                     } else {
-                        area += target * seg;
-                        x = target;
+                        area += ramp;
+                        x = target + g * seg;
                     }
                 }
             }
@@ -121,8 +150,12 @@ impl CapStep {
             if left <= 0.0 {
                 break;
             }
+            if on_boundary {
+                // The segment ended on a boundary: start the next one on it exactly.
+                x = self.boundary_near(x, dt - left);
+            }
         }
-        (x, area / dt)
+        (x, area / dt, ln)
     }
 
     /// The longest step from `x0` over which the capacitor voltage moves by at most `allowed`
@@ -132,7 +165,7 @@ impl CapStep {
         if allowed.is_nan() || allowed <= 0.0 {
             return f64::INFINITY;
         }
-        let (region, stay) = self.region(x0);
+        let (region, stay) = self.region(x0, 0.0);
         match region {
             Region::Shared { target, tau } => {
                 let gap = (x0 - target).abs();
@@ -140,7 +173,12 @@ impl CapStep {
                     return f64::INFINITY;
                 }
                 if gap <= allowed {
-                    return stay.max(f64::MIN_POSITIVE);
+                    // Up to the limiter's boundary, and on along its straight line for the move
+                    // allowed there (steps would shrink toward the boundary otherwise).
+                    let ramp = self.b.current_limit.map_or(f64::INFINITY, |l| {
+                        allowed * self.b.capacitance / (self.i - l).abs()
+                    });
+                    return (stay + ramp).max(f64::MIN_POSITIVE);
                 }
                 (-tau * (-allowed / gap).ln_1p()).max(f64::MIN_POSITIVE)
             }
@@ -166,29 +204,49 @@ impl Sim<'_> {
     /// then their open-circuit voltage behind R0 + R1.
     pub(super) fn cap_step(&self, p: &OperatingPoint, dt: f64) -> Option<CapStep> {
         let b = self.c.d.pack.buffer?;
-        let r0 = self.c.d.pack.r0(self.soc(), self.ambient());
-        let (e, r) = match self.pol() {
-            Some((r1, tau)) if dt > 20.0 * tau => (p.pack.ocv, r0 + r1),
-            _ => (p.pack.ocv - self.vp, r0),
+        let pack = &self.c.d.pack;
+        let t = self.ambient();
+        let i = p.buffer.map_or(p.pack.current, |bp| bp.node_current);
+        let s0 = self.soc().max(0.0);
+        let r0 = pack.r0(s0, t);
+        let settled = self.pol().filter(|&(_, tau)| dt > 20.0 * tau);
+        let (e, r) = match (self.pol(), settled) {
+            (Some((r1, _)), Some(_)) => (pack.ocv(s0), r0 + r1),
+            _ => (pack.ocv(s0) - self.vp, r0),
         };
-        Some(CapStep {
-            e,
-            r,
-            i: p.buffer.map_or(p.pack.current, |bp| bp.node_current),
-            b,
-        })
+        // Where the cells' side is at the step's end, at the rate the node's current draws.
+        let drift = if dt > 0.0 && dt.is_finite() {
+            // The cells' own current at `p` (the capacitor takes or gives the rest of the
+            // node's) draws the charge and drives the polarization.
+            let i_cells = p.pack.current;
+            let rate = self.rate(i_cells, dt);
+            let s1 = (s0 - rate * dt).max(0.0);
+            let (e1, r1_) = match (self.pol(), settled) {
+                (Some((r1, _)), Some(_)) => (pack.ocv(s1), pack.r0(s1, t) + r1),
+                (Some(_), None) => (
+                    pack.ocv(s1) - self.evolve(i_cells, rate, dt).1,
+                    pack.r0(s1, t),
+                ),
+                _ => (pack.ocv(s1), pack.r0(s1, t)),
+            };
+            let g = ((e1 - e) - i * (r1_ - r)) / dt;
+            if g.is_finite() { g } else { 0.0 }
+        } else {
+            0.0
+        };
+        Some(CapStep { e, r, i, drift, b })
     }
 
-    /// The capacitor voltage after `dt` at `p`'s node current, and the cells' mean current
-    /// over the step (from the capacitor's charge balance); the voltage now and `p`'s pack
-    /// current without a buffer.
-    pub(super) fn cap_after(&self, p: &OperatingPoint, dt: f64) -> (f64, f64) {
+    /// The capacitor voltage after `dt` at `p`'s node current, the cells' mean current over
+    /// the step (from the capacitor's charge balance) and the log of the path's decay
+    /// ([`CapStep::path`]); the voltage now and `p`'s pack current without a buffer.
+    pub(super) fn cap_after(&self, p: &OperatingPoint, dt: f64) -> (f64, f64, f64) {
         match self.cap_step(p, dt) {
             Some(cs) if dt > 0.0 => {
-                let (x1, _) = cs.path(self.vb, dt);
-                (x1, cs.i - cs.b.capacitance * (self.vb - x1) / dt)
+                let (x1, _, ln) = cs.path(self.vb, dt);
+                (x1, cs.i - cs.b.capacitance * (self.vb - x1) / dt, ln)
             }
-            _ => (self.vb, p.pack.current),
+            _ => (self.vb, p.pack.current, 0.0),
         }
     }
 
@@ -241,7 +299,9 @@ impl Sim<'_> {
             } else {
                 1.0
             };
-            let allowed = self.c.max_dvp() * p.node().0.abs() * scale;
+            // The allowance scales with the cells' open-circuit voltage, not the node's, which
+            // a drained capacitor takes to nothing (steps would shrink to nothing with it).
+            let allowed = self.c.max_dvp() * p.pack.ocv.max(p.node().0).abs() * scale;
             cs.step_limit(self.vb, dt, allowed)
         })
     }
@@ -257,6 +317,7 @@ mod tests {
             e: 3.0,
             r: 10.0,
             i,
+            drift: 0.0,
             b: Buffer {
                 capacitance: 1e-3,
                 esr: 0.5,
@@ -275,7 +336,7 @@ mod tests {
         let tau = 1e-3 * 10.5;
         let target = 3.0 - 10.0 * 1e-3;
         for &t in &[1e-4, 5e-3, 0.02, 0.5] {
-            let (x, mean) = s.path(2.5, t);
+            let (x, mean, _) = s.path(2.5, t);
             let want = target + (2.5 - target) * (-t / tau).exp();
             assert!((x - want).abs() < 1e-12, "{t}: {x} vs {want}");
             let want_mean = target + (2.5 - target) * tau / t * (1.0 - (-t / tau).exp());
@@ -292,11 +353,11 @@ mod tests {
         let xl = 3.0 + 0.5 * 0.5e-3 - 10.5 * 2e-3;
         let slope = (2e-3 - 0.5e-3) / 1e-3;
         let t_ramp = (xl - 2.0) / slope;
-        let (x, _) = s.path(2.0, 0.5 * t_ramp);
+        let (x, _, _) = s.path(2.0, 0.5 * t_ramp);
         assert!((x - (2.0 + slope * 0.5 * t_ramp)).abs() < 1e-12);
         let tau = 1e-3 * 10.5;
         let target = 3.0 - 10.0 * 0.5e-3;
-        let (x, _) = s.path(2.0, t_ramp + tau);
+        let (x, _, _) = s.path(2.0, t_ramp + tau);
         let want = target + (xl - target) * (-1.0_f64).exp();
         assert!((x - want).abs() < 1e-9, "{x} vs {want}");
     }
@@ -305,13 +366,13 @@ mod tests {
     #[test]
     fn a_load_above_the_limit_drains_the_capacitor() {
         let s = step(Some(2e-3), 12e-3);
-        let (x, mean) = s.path(2.9, 0.1);
+        let (x, mean, _) = s.path(2.9, 0.1);
         // 2.9 V lies below x_l = 3 + 0.5 x 12e-3 - 10.5 x 2e-3 = 2.985 V: the cells give the
         // limit and the capacitor falls at (12 - 2) mA / 1 mF = 10 V/s.
         assert!((x - 1.9).abs() < 1e-12, "{x}");
         assert!((mean - 2.4).abs() < 1e-12, "{mean}");
         // From above x_l it first relaxes toward x* = 2.88 V, reaches x_l, then ramps.
-        let (x, _) = s.path(3.0, 0.1);
+        let (x, _, _) = s.path(3.0, 0.1);
         assert!(x < 1.9 + 0.115 && x > 1.9 + 0.05, "{x}");
     }
 }

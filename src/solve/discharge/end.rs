@@ -19,12 +19,12 @@ impl Sim<'_> {
     }
 
     /// The smallest margin, in volts, between `p` and an end condition that follows the pack
-    /// voltage: the pack above its cutoff, running stages above their minimum input, drawing
+    /// voltage: the pack (and a buffer's node) above its cutoff, running stages above their minimum input, drawing
     /// loads above their minimum supply. Rails behind a regulating stage only make it
     /// conservative.
     pub(super) fn voltage_margin(&self, p: &OperatingPoint) -> f64 {
         let d = self.c.d;
-        let mut m = p.pack.voltage - self.c.cutoff;
+        let mut m = p.pack.voltage.min(p.node().0) - self.c.cutoff;
         for (st, sp) in d.stages.iter().zip(&p.stages) {
             if let (true, Some(min)) = (sp.state.is_running(), st.input_min) {
                 m = m.min(sp.vin - min);
@@ -63,7 +63,9 @@ impl Sim<'_> {
     /// The end condition holding at `p`, if any, in the contract's order after collapse.
     pub(super) fn condition(&self, p: &OperatingPoint) -> Option<(EndReason, String)> {
         let d = self.c.d;
-        if p.pack.voltage < self.c.cutoff {
+        // With a buffer capacitor the product sees its node: a capacitor drained below the
+        // cutoff behind a limiter stops the run as the cells' own terminals would.
+        if p.pack.voltage.min(p.node().0) < self.c.cutoff {
             return Some((EndReason::Cutoff, "battery".into()));
         }
         let below = &self.c.draws_below[p.mode];

@@ -31,9 +31,9 @@ use std::rc::Rc;
 use super::check::{Violation, ViolationKind, violations_where};
 use super::ledger::{Ledger, TracePoint, Tracer};
 use super::numerics::{
-    END_BISECT_ITER, MEAN_POINT_REL, SKIP_ABS_BUDGET, SKIP_FIRST_DS, SKIP_MAX_DS, SKIP_MIN_PASSES,
-    STEP_MAX_DS_EXACT, STEP_MAX_DS_FAST, STEP_MAX_DVP_EXACT, STEP_MAX_DVP_FAST, TRACE_BUCKETS,
-    TRACE_PROBES_PER_SKIP, WORK_LIMIT_EXACT, WORK_LIMIT_FAST,
+    END_BISECT_ITER, MEAN_POINT_BUFFER_ITER, MEAN_POINT_REL, SKIP_ABS_BUDGET, SKIP_FIRST_DS,
+    SKIP_MAX_DS, SKIP_MIN_PASSES, STEP_MAX_DS_EXACT, STEP_MAX_DS_FAST, STEP_MAX_DVP_EXACT,
+    STEP_MAX_DVP_FAST, TRACE_BUCKETS, TRACE_PROBES_PER_SKIP, WORK_LIMIT_EXACT, WORK_LIMIT_FAST,
 };
 use super::point::{OperatingPoint, PackState, Solution, StageState, solve_point_buffered};
 use super::sum2::Sum2;
@@ -615,6 +615,11 @@ struct Sim<'a> {
     i_seen: f64,
     /// The buffer capacitor's voltage (0 without a buffer).
     vb: f64,
+    /// The log of how much a change of the capacitor's voltage at the start of the current pass
+    /// survives to now, d vb / d vb(start): -t / (C (R0 + Rc)) summed over the time shared with
+    /// the cells, nothing over the limiter's straight lines (the flow's own sensitivity, f(x1) /
+    /// f(x0) of a one-dimensional flow whose speed is continuous across the regions).
+    vb_ln: f64,
     ledger: Ledger,
     peaks: Vec<Peak>,
     /// Violations so far and the (kind, subject) pairs among them, shared between a run and its
@@ -651,7 +656,8 @@ struct Delta {
     /// The same two for the current the rate law sees (`Sim::i_seen`).
     seen_ln_decay: f64,
     seen_offset: f64,
-    /// The same two for the buffer capacitor's voltage (`Sim::vb`).
+    /// The same two for the buffer capacitor's voltage (`Sim::vb`) less the cells'
+    /// open-circuit voltage.
     buf_ln_decay: f64,
     buf_offset: f64,
     /// The buffer's periodic voltage at the start of a pass, b / (1 - a), and its voltage at
@@ -662,6 +668,26 @@ struct Delta {
 }
 
 impl Delta {
+    /// The buffer capacitor's periodic voltage less the cells' open-circuit voltage, b / (1 - a)
+    /// in the lag's coordinate; `None` without a buffer or where it settles over far more
+    /// passes than a stretch (a of 1 to within 1e-9).
+    fn vb_u_star(&self) -> Option<f64> {
+        let l = self.buf_ln_decay;
+        (l < -1e-9 && self.buf_offset.is_finite()).then(|| self.buf_offset / -l.exp_m1())
+    }
+
+    /// [`Delta::vb_u_star`] where the capacitor is a state of its own across passes: it keeps
+    /// over e^-5 of a change through a pass. One that settles within a pass follows the
+    /// cells (their polarization included) and its periodic voltage is theirs: the stretch's
+    /// rates and the pass's end already hold it.
+    fn vb_u_star_slow(&self) -> Option<f64> {
+        if self.buf_ln_decay > -5.0 {
+            self.vb_u_star()
+        } else {
+            None
+        }
+    }
+
     /// The weighted sum of three passes' changes (weights summing to 1); polarization as in the
     /// last (the end of a stretch, where the state lands).
     fn blend(parts: [(f64, &Delta); 3]) -> Delta {
@@ -686,29 +712,39 @@ impl Delta {
     }
 
     /// The changes of a pass of length `pass` that started at (`s0`, `vp0`, `seen0`: the
-    /// current the rate law saw, `vb0`: the buffer's voltage) and ended in `after`, with
+    /// current the rate law saw, `vb0`: the buffer's voltage, `vb_ln`: the log of its decay
+    /// over the pass) and ended in `after`, with
     /// `ledger` the pass's own totals.
     fn of(
         s0: Sum2,
-        (vp0, seen0, vb0): (f64, f64, f64),
+        (vp0, seen0, vb0, vb_ln): (f64, f64, f64, f64),
         after: &Sim,
         pass: f64,
         ledger: Ledger,
     ) -> Self {
-        // The buffer relaxes with C (R + Rc) at the cells' resistance of the pass's end (a
-        // limiter's ramps are followed by the stretch's nodes).
-        let buf_ln_decay = after.c.d.pack.buffer.map_or(f64::NEG_INFINITY, |b| {
-            let r = after.c.d.pack.r0(after.soc().max(0.0), after.ambient());
-            let tau = b.capacitance * (r + b.esr);
-            if tau > 0.0 {
-                -pass / tau
-            } else {
-                f64::NEG_INFINITY
-            }
-        });
-        let buf_offset = after.vb - buf_ln_decay.exp() * vb0;
+        // The buffer's decay over the pass is the one its path had (`Sim::vb_ln`): e^(-T / (C
+        // (R + Rc))) while shared with the cells throughout, 1 along a limiter's straight lines.
+        let buf_ln_decay = if after.c.d.pack.buffer.is_some() {
+            vb_ln
+        } else {
+            f64::NEG_INFINITY
+        };
+        // The lag is taken on the capacitor's voltage less the cells' open-circuit voltage,
+        // u = x - OCV(s): u1 = a u0 + b_u with b_u = x1 - a x0 + a OCV0 - OCV1. A stretch then
+        // follows the open-circuit voltage down, lagging behind its fall as the pass did.
+        let (ocv0, ocv1) = if after.c.d.pack.buffer.is_some() {
+            let pack = &after.c.d.pack;
+            (
+                pack.ocv(s0.value().max(0.0)),
+                pack.ocv(after.soc().max(0.0)),
+            )
+        } else {
+            (0.0, 0.0)
+        };
+        let a = buf_ln_decay.exp();
+        let buf_offset = after.vb - a * vb0 + a * ocv0 - ocv1;
         let vb_star = if buf_ln_decay < -1e-9 {
-            buf_offset / -buf_ln_decay.exp_m1()
+            ocv0 + buf_offset / -buf_ln_decay.exp_m1()
         } else {
             after.vb
         };
@@ -759,6 +795,7 @@ impl<'a> Sim<'a> {
             } else {
                 0.0
             },
+            vb_ln: 0.0,
             ledger: Ledger::new(d.stages.len(), d.loads.len()),
             peaks: vec![
                 Peak {
@@ -830,6 +867,7 @@ impl<'a> Sim<'a> {
     /// exact however small against the run's; `None` if the product stopped in it.
     fn run_pass(&mut self, steps: &[Step], pass: f64) -> Option<Delta> {
         let (s0, vp0, seen0, vb0) = (self.s, self.vp, self.i_seen, self.vb);
+        let ln_outer = std::mem::replace(&mut self.vb_ln, 0.0);
         let speculative = self.speculative;
         self.c.count(|c| {
             c.passes += 1;
@@ -840,7 +878,9 @@ impl<'a> Sim<'a> {
         let stopped = self.steps(steps, pass);
         let local = std::mem::replace(&mut self.ledger, total);
         self.ledger.add_scaled(&local, 1.0);
-        (!stopped).then(|| Delta::of(s0, (vp0, seen0, vb0), self, pass, local))
+        let ln = self.vb_ln;
+        self.vb_ln = ln_outer + ln;
+        (!stopped).then(|| Delta::of(s0, (vp0, seen0, vb0, ln), self, pass, local))
     }
 
     fn solve(&self, mode: usize, s: f64, vp: f64, vb: f64) -> Solution {
@@ -936,7 +976,23 @@ impl<'a> Sim<'a> {
         if self.pack_shift(start, sm, vm, xm) <= rel * start.pack.voltage.abs() {
             return Cow::Borrowed(start);
         }
-        let sol = self.solve(mode, sm, vm, xm);
+        let mut sol = self.solve(mode, sm, vm, xm);
+        // With a buffer capacitor, its mean voltage follows from the node's current and that
+        // current from the voltage: the start's current is the first guess, then the mean
+        // point's own (a capacitor settling within the step sits where the node draws what
+        // the cells give at the step's own current, not the start's).
+        if self.c.d.pack.buffer.is_some() {
+            let mut x = xm;
+            for _ in 0..MEAN_POINT_BUFFER_ITER {
+                let Solution::Point(p) = &sol else { break };
+                let next = self.cap_mean(p, dt);
+                if !next.is_finite() || (next - x).abs() <= 1e-9 * x.abs() {
+                    break;
+                }
+                x = next;
+                sol = self.solve(mode, sm, vm, x);
+            }
+        }
         match sol {
             Solution::Point(p) if self.condition(&p).is_none() => Cow::Owned(p),
             _ => Cow::Borrowed(start),
@@ -1099,7 +1155,7 @@ impl<'a> Sim<'a> {
             }
             let mut pm = self.mean_point(mode, &p, rate0, dt);
             // With a buffer the cells' current over the step follows from the capacitor's path.
-            let (x1, i) = self.cap_after(&pm, dt);
+            let (x1, i, ln1) = self.cap_after(&pm, dt);
             if pm.buffer.is_some() {
                 self.buffer_step(pm.to_mut(), i, x1, dt);
             }
@@ -1114,6 +1170,7 @@ impl<'a> Sim<'a> {
                 self.s.add(-rate * dt);
                 self.vp = vp1;
                 self.vb = x1;
+                self.vb_ln += ln1;
                 self.i_seen = self.seen_after(i, dt);
                 left -= dt;
                 if self.now() >= self.c.opt.horizon_s * (1.0 - 1e-15) {
@@ -1146,7 +1203,8 @@ impl<'a> Sim<'a> {
                 }
                 self.ledger.add_point(&pm, hi, &self.c.v_max);
                 let (sh, vh) = self.evolve(i, rate, hi);
-                let xh = self.cap_after(&pm, hi).0;
+                let (xh, _, ln_h) = self.cap_after(&pm, hi);
+                self.vb_ln += ln_h;
                 self.t.add(hi);
                 self.s.add(-rate * hi);
                 self.vp = vh;
@@ -1167,6 +1225,7 @@ impl<'a> Sim<'a> {
             self.s.add(-rate * dt);
             self.vp = vp1;
             self.vb = x1;
+            self.vb_ln += ln1;
             self.i_seen = self.seen_after(i, dt);
             left -= dt;
             if let Solution::Point(q) = &end_sol {

@@ -13,7 +13,11 @@ use crate::solve::numerics::{SKIP_LINEAR_REL, SKIP_MIN_RUN_PASSES, SKIP_NOISE_RE
 impl<'a> Sim<'a> {
     /// Advance `k` passes of length `pass` at the rates of `delta`.
     pub(super) fn advance(&mut self, k: f64, pass: f64, delta: &Delta) {
-        let ocv_before = self.c.d.pack.ocv(self.soc().max(0.0));
+        let ocv_before = if self.c.d.pack.buffer.is_some() {
+            self.c.d.pack.ocv(self.soc().max(0.0))
+        } else {
+            0.0
+        };
         self.t.add(k * pass);
         self.s.add(-k * delta.ds);
         self.ledger.add_scaled(&delta.ledger, k);
@@ -25,13 +29,63 @@ impl<'a> Sim<'a> {
         if self.c.window.is_some() {
             self.i_seen = lag(self.i_seen, k, delta.seen_ln_decay, delta.seen_offset);
         }
-        // And so is the buffer capacitor's voltage, which besides follows the cells' open-circuit
-        // voltage down the stretch: a pass's charge is tiny beside the capacitor's, and starting
-        // one a few millivolts off would move it by C dV.
+        // And so is the buffer capacitor's voltage less the cells' open-circuit voltage, so that
+        // it follows that voltage down the stretch, lagging as in the pass: a pass's charge is
+        // tiny beside the capacitor's, and starting one a few millivolts off would move it by
+        // C dV.
         if self.c.d.pack.buffer.is_some() {
-            let shift = self.c.d.pack.ocv(self.soc().max(0.0)) - ocv_before;
-            self.vb = lag(self.vb, k, delta.buf_ln_decay, delta.buf_offset) + shift;
+            let u1 = lag(
+                self.vb - ocv_before,
+                k,
+                delta.buf_ln_decay,
+                delta.buf_offset,
+            );
+            if k > 0.0 {
+                self.vb_ln += k * delta.buf_ln_decay;
+            }
+            let ocv_after = self.c.d.pack.ocv(self.soc().max(0.0));
+            self.vb = ocv_after + u1;
         }
+    }
+
+    /// Book the charge a buffer capacitor that started a stretch of `k` passes `u0` away from
+    /// the cells' open-circuit voltage gives up (or takes) while it settles onto the periodic
+    /// path of the stretch's first pass `first`: the passes' rates hold the periodic path's
+    /// charge only (its drift with the cells included), and the rest, `-C (d0 - dk)` with d the
+    /// distance from the periodic voltage (dk = a^k d0), comes from or goes to the cells
+    /// (Kirchhoff's current law at the node). The energy goes with it at the capacitor's
+    /// voltage, the difference to the open-circuit voltage being the cells' loss.
+    fn settle_buffer_charge(&mut self, u0: f64, k: f64, first: &Delta) {
+        let Some(c) = self.c.d.pack.buffer.map(|b| b.capacitance) else {
+            return;
+        };
+        let Some(u_star) = first.vb_u_star_slow() else {
+            // Settling over far more passes than the stretch: the passes' rates already hold
+            // the drift the stretch continues.
+            return;
+        };
+        let delta = first;
+        let d0 = u0 - u_star;
+        let d1 = (k * first.buf_ln_decay).exp() * d0;
+        // The cells' extra charge and its share of the state of charge, at the pass's ratio.
+        let dq = -c * (d0 - d1);
+        let per_c = if delta.ledger.charge_c > 0.0 && delta.ds > 0.0 {
+            delta.ds / delta.ledger.charge_c
+        } else {
+            1.0 / self.q()
+        };
+        if !(dq.is_finite() && per_c.is_finite()) || k <= 0.0 {
+            return;
+        }
+        self.s.add(-dq * per_c);
+        let ocv = self.c.d.pack.ocv(self.soc().max(0.0));
+        let x = ocv + u_star + d1;
+        let l = &mut self.ledger;
+        l.charge_c += dq;
+        l.ocv_energy_j += dq * ocv;
+        l.energy_j += dq * x;
+        l.pack_loss_j += dq * (ocv - x);
+        l.buffer_out_j -= dq * x;
     }
 
     /// Whether a run that stops within `within` passes of `pass` seconds from now lasts fewer
@@ -266,7 +320,15 @@ impl<'a> Sim<'a> {
                         let wk = (0.5 * k - x0) / (k + 0.5 - x0);
                         let rates = Delta::blend([(1.0 - wk, delta), (0.0, delta), (wk, &rk)]);
                         self.c.fit.set(0.0);
-                        return Some(self.take_stretch(probe, steps, pass, k, delta, &rates, rk));
+                        return Some(self.take_stretch(
+                            probe,
+                            steps,
+                            pass,
+                            k,
+                            (delta, delta),
+                            &rates,
+                            rk,
+                        ));
                     }
                     // The rates bend: three nodes.
                     *linear = false;
@@ -294,15 +356,22 @@ impl<'a> Sim<'a> {
                 break;
             }
             let settled = |d: &Delta, n: f64| (n * d.ln_decay).exp() < 0.05;
-            if self.c.pol.is_some()
+            let pol_off = self.c.pol.is_some()
                 && settled(&rm, h)
-                && (rm.vp_star - start_mid.vp).abs() > 1e-3 * rm.vp_star.abs()
-            {
+                && (rm.vp_star - start_mid.vp).abs() > 1e-3 * rm.vp_star.abs();
+            let buf_off = self.buffer_off(&rm, start_mid.vb, h);
+            if pol_off || buf_off {
                 // The middle pass started from the periodic polarization of the start's currents;
                 // near the power limit the current is steep in V_p, so run it again from its own
-                // periodic value.
+                // periodic value. The same for a buffer capacitor whose periodic voltage moved
+                // with the cells' resistance: each pass's charge holds C times its distance.
                 let mut again = start_mid;
-                again.vp = rm.vp_star;
+                if pol_off {
+                    again.vp = rm.vp_star;
+                }
+                if buf_off {
+                    again.vb = rm.vb_star;
+                }
                 let Some(r) = again.run_pass(steps, pass) else {
                     if self.speculative {
                         return self.stopped_like(&again);
@@ -323,6 +392,11 @@ impl<'a> Sim<'a> {
             probe.advance(k, pass, &rm);
             if settled(&rm, k) {
                 probe.vp += (toward_end.vp_star - rm.vp_star) * (1.0 - rm.decay.powf(k));
+            }
+            // And the buffer's, less the open-circuit voltage, to the end's.
+            if let (Some(um), Some(u0)) = (rm.vb_u_star_slow(), delta.vb_u_star_slow()) {
+                let settle = -(k * rm.buf_ln_decay).exp_m1();
+                probe.vb += (um - u0) * (k - h) / (h + 0.5 - x0) * settle;
             }
             let Some(rk) = probe.run_pass(steps, pass) else {
                 if self.speculative {
@@ -361,9 +435,22 @@ impl<'a> Sim<'a> {
             self.c.fit.set(bend / (SKIP_REL_ERR * rm.ds.abs()));
             // Whether the next stretch of this block may try two nodes.
             *linear = (rk.ds - delta.ds).abs() <= SKIP_LINEAR_REL * delta.ds.abs();
-            return Some(self.take_stretch(probe, steps, pass, k, &rm, &rates, rk));
+            return Some(self.take_stretch(probe, steps, pass, k, (delta, &rm), &rates, rk));
         }
         self.run_pass(steps, pass).map(|d| (1.0, d))
+    }
+
+    /// Whether the middle pass `rm` of a stretch, started with its buffer capacitor at `vb`
+    /// after `h` passes, is to run again from its own periodic voltage: the capacitor settles
+    /// within the `h` passes and its distance from that voltage holds over 1e-4 of the pass's
+    /// charge.
+    fn buffer_off(&self, rm: &Delta, vb: f64, h: f64) -> bool {
+        let Some(b) = self.c.d.pack.buffer else {
+            return false;
+        };
+        rm.vb_u_star_slow().is_some()
+            && (h * rm.buf_ln_decay).exp() < 0.05
+            && b.capacitance * (rm.vb_star - vb).abs() > 1e-4 * rm.ledger.charge_c.abs()
     }
 
     /// Inside a speculative pass (one that only measures rates or finds that the product
@@ -377,7 +464,8 @@ impl<'a> Sim<'a> {
     }
 
     /// Take a stretch of `k` passes ending with the end pass run in `probe` (whose changes are
-    /// `rk`), which reached it at the rates `used`: its state moves to the stretch's `rates`
+    /// `rk`), which reached it at the rates `used` from the stretch's first pass `first`: its
+    /// state moves to the stretch's `rates`
     /// (the difference is of the order of the error estimate, so the end pass's own changes
     /// stand). Returns the passes done and the last pass's changes.
     #[allow(clippy::too_many_arguments)]
@@ -387,11 +475,15 @@ impl<'a> Sim<'a> {
         steps: &[Step],
         pass: f64,
         k: f64,
-        used: &Delta,
+        (first, used): (&Delta, &Delta),
         rates: &Delta,
         rk: Delta,
     ) -> (f64, Delta) {
         probe.s.add(-k * (rates.ds - used.ds));
+        if self.c.d.pack.buffer.is_some() {
+            let u0 = self.vb - self.c.d.pack.ocv(self.soc().max(0.0));
+            probe.settle_buffer_charge(u0, k, first);
+        }
         probe.ledger.add_scaled(&rates.ledger, k);
         probe.ledger.add_scaled(&used.ledger, -k);
         probe.trace_skipped(self, steps, pass, k, rates);
