@@ -189,22 +189,84 @@ mod random {
             .prop_map(|(c, esr, lim)| (10f64.powf(c), esr, lim))
     }
 
+    /// The design text of runtime test design `g` with buffer `b`.
+    fn buffered(
+        g: &crate::runtime::agreement::Gen,
+        (c, esr, lim): (f64, f64, Option<f64>),
+    ) -> String {
+        let limit = lim.map_or_else(String::new, |l| format!(", current_limit: {l} mA"));
+        text(g).replace(
+            "battery: { cell: c }",
+            &format!("battery: {{ cell: c, buffer: {{ capacitance: {c} mF, esr: {esr} Ω, leakage: 0.5 µA{limit} }} }}"),
+        )
+    }
+
+    /// A survey of random buffered designs: every one runs to a result in both solvers with
+    /// the same end reason, and the fast solver's runtime is within 2 % of the reference's.
+    /// The share within the 0.2 % promised elsewhere and the worst case are printed
+    /// (`-- --nocapture`); `JOULEPATH_AGREEMENT_CASES` and `JOULEPATH_AGREEMENT_SEED` run
+    /// longer searches (CI: 48 cases). Measured over eight seeds of 300 cases: 2,176 of 2,211
+    /// compared designs within 0.2 %, the worst 1.64 %.
+    #[test]
+    fn random_buffered_designs_run_and_agree_within_two_percent() {
+        use joulepath::solve::{RunOptions, run};
+        use proptest::strategy::ValueTree;
+        use proptest::test_runner::TestRunner;
+
+        let mut runner = TestRunner::new(config());
+        let strategy = (designs(), buffers());
+        let cases = std::env::var("JOULEPATH_AGREEMENT_CASES")
+            .ok()
+            .and_then(|v| v.parse::<usize>().ok())
+            .unwrap_or(48);
+        let (mut compared, mut within, mut worst) = (0usize, 0usize, (0.0f64, String::new()));
+        for _ in 0..cases {
+            let (g, b) = strategy.new_tree(&mut runner).expect("a design").current();
+            let t = buffered(&g, b);
+            let d = design(&t);
+            let pass: f64 = d
+                .profile()
+                .iter()
+                .map(joulepath::model::Step::duration)
+                .sum();
+            let f = run(&d, &RunOptions::for_design(&d)).unwrap_or_else(|e| panic!("{e}\n{t}"));
+            if f.runtime_s() / pass >= 4000.0 {
+                continue;
+            }
+            let e = run(&d, &RunOptions::reference(&d)).unwrap_or_else(|e| panic!("{e}\n{t}"));
+            assert_eq!(f.end.reason, e.end.reason, "\n{t}");
+            let rel = (f.runtime_s() - e.runtime_s()).abs() / e.runtime_s();
+            compared += 1;
+            within += usize::from(rel <= 2e-3);
+            if rel > worst.0 {
+                worst = (rel, t.clone());
+            }
+            assert!(
+                rel <= 2e-2,
+                "{} vs {} s ({:.2} %)\n{t}",
+                f.runtime_s(),
+                e.runtime_s(),
+                100.0 * rel
+            );
+        }
+        println!(
+            "{within} of {compared} buffered designs within 0.2 %, worst {:.3} %:\n{}",
+            100.0 * worst.0,
+            worst.1
+        );
+        assert!(compared > cases / 4, "{compared} of {cases} compared");
+    }
+
     proptest! {
         #![proptest_config(config())]
 
-        /// Known gap: some random buffered designs still miss by up to 1.4 % (a capacitor and
-        /// an unsettled polarization exchanging charge faster than a step), so this runs on
-        /// demand (`cargo test --release -- --ignored buffer::random`) until the coupled
-        /// solution lands.
+        /// The contract's 0.2 % on random buffered designs. Known gap: about 1.6 % of them still
+        /// miss it, by up to 1.64 % (see the survey above), so this runs on demand
+        /// (`cargo test --release -- --ignored buffer::random`).
         #[test]
-        #[ignore = "known gap: the fast solver misses some random buffered designs by up to 1.4 %"]
+        #[ignore = "known gap: about 1.6 % of random buffered designs miss 0.2 %, by up to 1.64 %"]
         fn fast_agrees_with_reference_with_a_buffer(g in designs(), b in buffers()) {
-            let (c, esr, lim) = b;
-            let limit = lim.map_or_else(String::new, |l| format!(", current_limit: {l} mA"));
-            let t = text(&g).replace(
-                "battery: { cell: c }",
-                &format!("battery: {{ cell: c, buffer: {{ capacitance: {c} mF, esr: {esr} Ω, leakage: 0.5 µA{limit} }} }}"),
-            );
+            let t = buffered(&g, b);
             let d = design(&t);
             let pass: f64 = d.profile().iter().map(joulepath::model::Step::duration).sum();
             let f = fast(&d);

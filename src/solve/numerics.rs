@@ -85,3 +85,7 @@ pub const WORK_LIMIT_FAST: u64 = 2_000_000;
 /// Work limit of the chronological reference (it executes every pass: a year of 10 s cycles is
 /// tens of millions of points).
 pub const WORK_LIMIT_EXACT: u64 = 2_000_000_000;
+
+/// Times in a row a step is cut to a quarter because the buffer's limiter took over within it
+/// (six: a 4096th of the step).
+pub const LIMITER_RETRIES: u32 = 6;

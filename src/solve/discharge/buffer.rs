@@ -16,6 +16,9 @@
 use super::*;
 use crate::model::Buffer;
 
+/// Sub-steps over which a nonlinear rate law is averaged along a buffered step.
+const RATE_SUB_STEPS: usize = 16;
+
 /// The circuit of a step: the cells, the capacitor and the node's current held.
 #[derive(Debug, Clone, Copy)]
 pub(super) struct CapStep {
@@ -29,7 +32,51 @@ pub(super) struct CapStep {
     /// at the step's start and moves at this rate, so that a capacitor settling within the
     /// step follows it (lagging by `drift` x its time constant) instead of a voltage held.
     pub drift: f64,
+    /// The polarization (R1, its time constant, its voltage at the step's start) where it
+    /// moves with the capacitor within the step and no limiter splits the path: the two are
+    /// then solved together ([`CapStep::coupled`]) and `e` is the open-circuit voltage alone.
+    pub pol: Option<(f64, f64, f64)>,
     pub b: Buffer,
+}
+
+/// A 2 x 2 matrix, row by row.
+type Mat2 = [[f64; 2]; 2];
+
+/// e^(A t) for a 2 x 2 matrix with real eigenvalues (an RC network's), from its trace and
+/// determinant: e^(s t) (cosh(q t) I + sinh(q t) / q (A - s I)) with s the mean eigenvalue and
+/// q half their distance (Cayley-Hamilton; Moler & Van Loan, "Nineteen dubious ways to compute
+/// the exponential of a matrix", 2003, section 3, from memory), each exponential taken on its
+/// own so that a stiff pair neither overflows nor cancels.
+fn exp2(a: Mat2, t: f64) -> Mat2 {
+    let s = 0.5 * (a[0][0] + a[1][1]);
+    let det = a[0][0] * a[1][1] - a[0][1] * a[1][0];
+    let q = (s * s - det).max(0.0).sqrt();
+    let (e1, e2) = (((s + q) * t).exp(), ((s - q) * t).exp());
+    let ch = 0.5 * (e1 + e2);
+    let sh_q = if q * t > 1e-6 {
+        0.5 * (e1 - e2) / q
+    } else {
+        t * (s * t).exp() * (1.0 + (q * t).powi(2) / 6.0)
+    };
+    [
+        [ch + sh_q * (a[0][0] - s), sh_q * a[0][1]],
+        [sh_q * a[1][0], ch + sh_q * (a[1][1] - s)],
+    ]
+}
+
+fn mul2(m: Mat2, v: [f64; 2]) -> [f64; 2] {
+    [
+        m[0][0] * v[0] + m[0][1] * v[1],
+        m[1][0] * v[0] + m[1][1] * v[1],
+    ]
+}
+
+fn inv2(a: Mat2) -> Mat2 {
+    let det = a[0][0] * a[1][1] - a[0][1] * a[1][0];
+    [
+        [a[1][1] / det, -a[0][1] / det],
+        [-a[1][0] / det, a[0][0] / det],
+    ]
 }
 
 /// Where the capacitor's voltage is moving, in a region of the limiter.
@@ -56,6 +103,13 @@ impl CapStep {
             }
             None => (f64::NEG_INFINITY, f64::INFINITY),
         }
+    }
+
+    /// The current that moves the capacitor behind limit `l`, for step control: the node's
+    /// distance from the limit, at least a hundredth of the node's current (common practice,
+    /// no source: a margin for a current that grows as the node falls).
+    fn ramp_current(&self, l: f64) -> f64 {
+        (self.i - l).abs().max(0.01 * self.i.abs())
     }
 
     /// The region boundary (x_l or x_b, `t0` seconds into the step) nearest to `x`.
@@ -110,12 +164,59 @@ impl CapStep {
         (Region::Shared { target, tau }, t.max(0.0))
     }
 
+    /// The capacitor's and the polarization's voltages after `t` from `x0` and the
+    /// polarization's voltage at the step's start, and their means over `t`, where the two
+    /// move together (`pol` set, no limiter), and the log of d x(t) / d x0.
+    ///
+    /// # Formula
+    ///
+    /// With the node drawing I, the cells at E behind R0 and R1 || tau, the capacitor behind
+    /// Rc: its current is (E - v - R0 I - x) / (R0 + Rc) (Kirchhoff's laws), so
+    /// C dx/dt = (E - v - R0 I - x) / (R0 + Rc) and tau dv/dt = R1 (I + that current) - v: a
+    /// linear system y' = A y + b with equilibrium x* = E - (R0 + R1) I, v* = R1 I, moving at
+    /// p1 = (g, 0) as E drifts. Its solution is y(t) = y*(t) + A^-1 p1 + e^(A t) d0 with
+    /// d0 = y0 - y*(0) - A^-1 p1 (linear ODE with a ramp forcing), and its mean over t follows
+    /// from the integral of e^(A t), A^-1 (e^(A t) - I).
+    pub(super) fn coupled(&self, x0: f64, t: f64) -> Option<([f64; 2], [f64; 2], f64)> {
+        let (r1, tau, v0) = self.pol?;
+        let rs = self.r + self.b.esr;
+        let c = self.b.capacitance;
+        if !(rs > 0.0 && c > 0.0 && tau > 0.0 && t > 0.0) {
+            return None;
+        }
+        let a: Mat2 = [
+            [-1.0 / (c * rs), -1.0 / (c * rs)],
+            [-r1 / (rs * tau), -(1.0 + r1 / rs) / tau],
+        ];
+        let ai = inv2(a);
+        let star = [self.e - (self.r + r1) * self.i, r1 * self.i];
+        let p1 = [self.drift, 0.0];
+        let lag = mul2(ai, p1);
+        let d0 = [x0 - star[0] - lag[0], v0 - star[1] - lag[1]];
+        let m = exp2(a, t);
+        let dt_ = mul2(m, d0);
+        let end = [
+            star[0] + p1[0] * t + lag[0] + dt_[0],
+            star[1] + lag[1] + dt_[1],
+        ];
+        let moved = mul2(ai, [dt_[0] - d0[0], dt_[1] - d0[1]]);
+        let mean = [
+            star[0] + 0.5 * p1[0] * t + lag[0] + moved[0] / t,
+            star[1] + lag[1] + moved[1] / t,
+        ];
+        let ok = end.iter().chain(&mean).all(|v| v.is_finite());
+        ok.then(|| (end, mean, m[0][0].max(f64::MIN_POSITIVE).ln()))
+    }
+
     /// The capacitor voltage after `dt` from `x0`, its time average over the step, and the
     /// log of d x(dt) / d x0 (the time spent shared over -tau: the straight lines keep a
     /// change as it is).
     pub(super) fn path(&self, x0: f64, dt: f64) -> (f64, f64, f64) {
         if dt <= 0.0 {
             return (x0, x0, 0.0);
+        }
+        if let Some((end, mean, ln)) = self.coupled(x0, dt) {
+            return (end[0], mean[0], ln);
         }
         let (mut x, mut left, mut area, mut ln) = (x0, dt, 0.0, 0.0);
         let g = self.drift;
@@ -159,13 +260,19 @@ impl CapStep {
     }
 
     /// The longest step from `x0` over which the capacitor voltage moves by at most `allowed`
-    /// volts, except that a capacitor settling far within the step (over 20 time constants,
+    /// volts (and, with `cut`, that ends where the path leaves its region), except that a capacitor settling far within the step (over 20 time constants,
     /// as the polarization) is not followed: the step's mean averages its transient.
-    pub(super) fn step_limit(&self, x0: f64, dt: f64, allowed: f64) -> f64 {
+    pub(super) fn step_limit(&self, x0: f64, dt: f64, allowed: f64, cut: bool) -> f64 {
         if allowed.is_nan() || allowed <= 0.0 {
             return f64::INFINITY;
         }
         let (region, stay) = self.region(x0, 0.0);
+        // Where the rate law is not linear in the current, a step does not straddle the
+        // limiter's boundaries: the cells' current jumps there (the limit, or nothing), and
+        // the law taken on the step's mean current would miss the mean of its own values.
+        if cut && stay.is_finite() && stay > 1e-9 * dt && stay < dt {
+            return stay;
+        }
         match region {
             Region::Shared { target, tau } => {
                 let gap = (x0 - target).abs();
@@ -176,17 +283,26 @@ impl CapStep {
                     // Up to the limiter's boundary, and on along its straight line for the move
                     // allowed there (steps would shrink toward the boundary otherwise).
                     let ramp = self.b.current_limit.map_or(f64::INFINITY, |l| {
-                        allowed * self.b.capacitance / (self.i - l).abs()
+                        allowed * self.b.capacitance / self.ramp_current(l)
                     });
                     return (stay + ramp).max(f64::MIN_POSITIVE);
                 }
                 (-tau * (-allowed / gap).ln_1p()).max(f64::MIN_POSITIVE)
             }
             Region::Ramp { slope } => {
-                let by_move = if slope == 0.0 {
+                // Near the limit a node whose current grows as its voltage falls (a constant
+                // power) drains the capacitor ever faster: the move is judged at the larger of
+                // the current's distance from the limit and a hundredth of it.
+                let drain = match self.b.current_limit {
+                    Some(l) if slope < 0.0 && self.i > l => {
+                        self.ramp_current(l) / self.b.capacitance
+                    }
+                    _ => slope.abs(),
+                };
+                let by_move = if drain == 0.0 {
                     f64::INFINITY
                 } else {
-                    allowed / slope.abs()
+                    allowed / drain
                 };
                 // A ramp that ends at its boundary within the allowed move: the step may run on
                 // into the next region, whose limit the next step applies.
@@ -210,8 +326,15 @@ impl Sim<'_> {
         let s0 = self.soc().max(0.0);
         let r0 = pack.r0(s0, t);
         let settled = self.pol().filter(|&(_, tau)| dt > 20.0 * tau);
+        // A polarization that moves within the step, without a limiter: solved with the
+        // capacitor (they trade charge through R0 + Rc faster than either settles alone).
+        let pol = match (self.pol(), settled) {
+            (Some((r1, tau)), None) if b.current_limit.is_none() => Some((r1, tau, self.vp)),
+            _ => None,
+        };
         let (e, r) = match (self.pol(), settled) {
             (Some((r1, _)), Some(_)) => (pack.ocv(s0), r0 + r1),
+            _ if pol.is_some() => (pack.ocv(s0), r0),
             _ => (pack.ocv(s0) - self.vp, r0),
         };
         // Where the cells' side is at the step's end, at the rate the node's current draws.
@@ -223,7 +346,7 @@ impl Sim<'_> {
             let s1 = (s0 - rate * dt).max(0.0);
             let (e1, r1_) = match (self.pol(), settled) {
                 (Some((r1, _)), Some(_)) => (pack.ocv(s1), pack.r0(s1, t) + r1),
-                (Some(_), None) => (
+                (Some(_), None) if pol.is_none() => (
                     pack.ocv(s1) - self.evolve(i_cells, rate, dt).1,
                     pack.r0(s1, t),
                 ),
@@ -234,7 +357,14 @@ impl Sim<'_> {
         } else {
             0.0
         };
-        Some(CapStep { e, r, i, drift, b })
+        Some(CapStep {
+            e,
+            r,
+            i,
+            drift,
+            pol,
+            b,
+        })
     }
 
     /// The capacitor voltage after `dt` at `p`'s node current, the cells' mean current over
@@ -248,6 +378,43 @@ impl Sim<'_> {
             }
             _ => (self.vb, p.pack.current, 0.0),
         }
+    }
+
+    /// The rate of fall of the state of charge over a step of `dt` from `p` whose cells give
+    /// `i` on the mean: [`Sim::rate`] of `i`, except where a buffer capacitor moves the cells'
+    /// current along the step and the rate law is not linear in it (Peukert without a rate
+    /// window). The law is then averaged over the path's own currents, taken on sixteen
+    /// sub-steps from the capacitor's charge balance: the law of the mean current would
+    /// understate a current that swings (the law is convex).
+    pub(super) fn rate_on_path(&self, p: &OperatingPoint, i: f64, dt: f64) -> f64 {
+        let nonlinear = self.c.window.is_none() && self.c.d.pack.cell().peukert() > 1.0;
+        let cs = match self.cap_step(p, dt) {
+            Some(cs) if nonlinear && dt > 0.0 && dt.is_finite() => cs,
+            _ => return self.rate(i, dt),
+        };
+        let c = cs.b.capacitance;
+        let h = dt / RATE_SUB_STEPS as f64;
+        let (mut x, mut sum) = (self.vb, 0.0);
+        for j in 1..=RATE_SUB_STEPS {
+            let next = cs.path(self.vb, h * j as f64).0;
+            sum += self.rate(cs.i - c * (x - next) / h, h);
+            x = next;
+        }
+        let mean = sum / RATE_SUB_STEPS as f64;
+        if mean.is_finite() {
+            mean
+        } else {
+            self.rate(i, dt)
+        }
+    }
+
+    /// The polarization's voltage after `dt` from `p`, and its mean over the step, where it
+    /// moves with the buffer capacitor ([`CapStep::coupled`]); `None` elsewhere (it then
+    /// follows the cells' current alone).
+    pub(super) fn pol_with_cap(&self, p: &OperatingPoint, dt: f64) -> Option<(f64, f64)> {
+        let cs = self.cap_step(p, dt)?;
+        cs.coupled(self.vb, dt)
+            .map(|(end, mean, _)| (end[1], mean[1]))
     }
 
     /// Make the mean point `m` of a step of `dt` that takes the capacitor from its voltage now
@@ -302,7 +469,8 @@ impl Sim<'_> {
             // The allowance scales with the cells' open-circuit voltage, not the node's, which
             // a drained capacitor takes to nothing (steps would shrink to nothing with it).
             let allowed = self.c.max_dvp() * p.pack.ocv.max(p.node().0).abs() * scale;
-            cs.step_limit(self.vb, dt, allowed)
+            let nonlinear = self.c.window.is_none() && self.c.d.pack.cell().peukert() > 1.0;
+            cs.step_limit(self.vb, dt, allowed, nonlinear)
         })
     }
 }
@@ -318,6 +486,7 @@ mod tests {
             r: 10.0,
             i,
             drift: 0.0,
+            pol: None,
             b: Buffer {
                 capacitance: 1e-3,
                 esr: 0.5,
@@ -360,6 +529,49 @@ mod tests {
         let (x, _, _) = s.path(2.0, t_ramp + tau);
         let want = target + (xl - target) * (-1.0_f64).exp();
         assert!((x - want).abs() < 1e-9, "{x} vs {want}");
+    }
+
+    /// The capacitor and the polarization solved together match a classical fourth-order
+    /// Runge-Kutta integration of the same two equations (Kirchhoff's laws at the node), end
+    /// and mean, with the cells' side drifting (a stiff pair: 0.1 ms against 20 ms).
+    #[test]
+    fn coupled_capacitor_and_polarization_match_runge_kutta() {
+        let mut cs = step(None, 30e-3);
+        cs.r = 2.0;
+        cs.drift = -0.05;
+        cs.b.capacitance = 100e-6;
+        let (r1, tau, v0) = (5.0, 0.02, 0.01);
+        cs.pol = Some((r1, tau, v0));
+        let rs = cs.r + cs.b.esr;
+        let f = |t: f64, y: [f64; 2]| {
+            let e = cs.e + cs.drift * t;
+            let ic = (e - y[1] - cs.r * cs.i - y[0]) / rs;
+            [ic / cs.b.capacitance, (r1 * (cs.i + ic) - y[1]) / tau]
+        };
+        let t_end = 0.05;
+        let n = 200_000;
+        let h = t_end / f64::from(n);
+        let (mut y, mut t, mut area) = ([2.9, v0], 0.0, [0.0, 0.0]);
+        for _ in 0..n {
+            let k1 = f(t, y);
+            let k2 = f(t + h / 2.0, [y[0] + h / 2.0 * k1[0], y[1] + h / 2.0 * k1[1]]);
+            let k3 = f(t + h / 2.0, [y[0] + h / 2.0 * k2[0], y[1] + h / 2.0 * k2[1]]);
+            let k4 = f(t + h, [y[0] + h * k3[0], y[1] + h * k3[1]]);
+            let next = [
+                y[0] + h / 6.0 * (k1[0] + 2.0 * k2[0] + 2.0 * k3[0] + k4[0]),
+                y[1] + h / 6.0 * (k1[1] + 2.0 * k2[1] + 2.0 * k3[1] + k4[1]),
+            ];
+            // Trapezoids for the means.
+            area[0] += 0.5 * h * (y[0] + next[0]);
+            area[1] += 0.5 * h * (y[1] + next[1]);
+            y = next;
+            t += h;
+        }
+        let (end, mean, _) = cs.coupled(2.9, t_end).expect("a solution");
+        for k in 0..2 {
+            assert!((end[k] - y[k]).abs() < 1e-9, "{k}: {} vs {}", end[k], y[k]);
+            assert!((mean[k] - area[k] / t_end).abs() < 1e-8, "{k}: {}", mean[k]);
+        }
     }
 
     /// A node taking more than the limit drains the capacitor at (I - L) / C for ever.

@@ -31,9 +31,10 @@ use std::rc::Rc;
 use super::check::{Violation, ViolationKind, violations_where};
 use super::ledger::{Ledger, TracePoint, Tracer};
 use super::numerics::{
-    END_BISECT_ITER, MEAN_POINT_BUFFER_ITER, MEAN_POINT_REL, SKIP_ABS_BUDGET, SKIP_FIRST_DS,
-    SKIP_MAX_DS, SKIP_MIN_PASSES, STEP_MAX_DS_EXACT, STEP_MAX_DS_FAST, STEP_MAX_DVP_EXACT,
-    STEP_MAX_DVP_FAST, TRACE_BUCKETS, TRACE_PROBES_PER_SKIP, WORK_LIMIT_EXACT, WORK_LIMIT_FAST,
+    END_BISECT_ITER, LIMITER_RETRIES, MEAN_POINT_BUFFER_ITER, MEAN_POINT_REL, SKIP_ABS_BUDGET,
+    SKIP_FIRST_DS, SKIP_MAX_DS, SKIP_MIN_PASSES, STEP_MAX_DS_EXACT, STEP_MAX_DS_FAST,
+    STEP_MAX_DVP_EXACT, STEP_MAX_DVP_FAST, TRACE_BUCKETS, TRACE_PROBES_PER_SKIP, WORK_LIMIT_EXACT,
+    WORK_LIMIT_FAST,
 };
 use super::point::{OperatingPoint, PackState, Solution, StageState, solve_point_buffered};
 use super::sum2::Sum2;
@@ -964,8 +965,11 @@ impl<'a> Sim<'a> {
         rate: f64,
         dt: f64,
     ) -> Cow<'p, OperatingPoint> {
-        let (sm, vm) = self.mean_state(start.pack.current, rate, dt);
+        let (sm, mut vm) = self.mean_state(start.pack.current, rate, dt);
         let xm = self.cap_mean(start, dt);
+        if let Some((_, v)) = self.pol_with_cap(start, dt) {
+            vm = v;
+        }
         // A step so short that the pack barely moves: the start point is the mean point (the
         // reference always solves the mean state).
         let rel = if self.c.fine.get() {
@@ -990,11 +994,19 @@ impl<'a> Sim<'a> {
                     break;
                 }
                 x = next;
-                sol = self.solve(mode, sm, vm, x);
+                let v = self.pol_with_cap(p, dt).map_or(vm, |(_, v)| v);
+                sol = self.solve(mode, sm, v, x);
             }
         }
         match sol {
-            Solution::Point(p) if self.condition(&p).is_none() => Cow::Owned(p),
+            // With a buffer the start point's current is the capacitor's transient, no stand-in
+            // for the step: the mean point holds even where it meets an end condition (the
+            // crossing is then found inside the step from its settled path).
+            Solution::Point(p)
+                if self.condition(&p).is_none() || self.c.d.pack.buffer.is_some() =>
+            {
+                Cow::Owned(p)
+            }
             _ => Cow::Borrowed(start),
         }
     }
@@ -1122,6 +1134,9 @@ impl<'a> Sim<'a> {
     fn hold(&mut self, mode: usize, dur: f64) -> bool {
         let mut left = dur;
         let mut next: Option<Solution> = None;
+        // A shorter step after one whose end found the buffer's limiter taking over, and how
+        // many times in a row ([`Sim::limiter_engages`]).
+        let (mut cap_dt, mut cap_retries) = (f64::INFINITY, 0u32);
         while left > 1e-12 * dur {
             if self.halted(mode) {
                 return true;
@@ -1153,18 +1168,23 @@ impl<'a> Sim<'a> {
             if let Some(c) = &self.c.opt.climate {
                 dt = dt.min(c.step_s());
             }
+            dt = dt.min(cap_dt);
             let mut pm = self.mean_point(mode, &p, rate0, dt);
             // With a buffer the cells' current over the step follows from the capacitor's path.
             let (x1, i, ln1) = self.cap_after(&pm, dt);
             if pm.buffer.is_some() {
                 self.buffer_step(pm.to_mut(), i, x1, dt);
             }
-            let rate = self.rate(i, dt);
+            let rate = self.rate_on_path(&pm, i, dt);
             if self.refuse_non_finite(mode, i, rate) {
                 return true;
             }
-            let (s1, vp1) = self.evolve(i, rate, dt);
-            if self.surely_clear(&p, i, s1, vp1, x1) {
+            let (s1, mut vp1) = self.evolve(i, rate, dt);
+            if let Some((v, _)) = self.pol_with_cap(&pm, dt) {
+                vp1 = v;
+            }
+            let watch = self.limiter_may_engage(&pm);
+            if watch.is_none() && self.surely_clear(&p, i, s1, vp1, x1) {
                 self.ledger.add_point(&pm, dt, &self.c.v_max);
                 self.t.add(dt);
                 self.s.add(-rate * dt);
@@ -1180,6 +1200,19 @@ impl<'a> Sim<'a> {
                 continue;
             }
             let end_sol = self.solve(mode, s1, vp1, x1);
+            if cap_retries < LIMITER_RETRIES
+                && watch.is_some_and(|l| Self::limiter_engages(&end_sol, l))
+            {
+                // The node's current crossed the limit within the step (a constant power as
+                // the cells fall): the capacitor starts to drain there, which the step's held
+                // current misses. Shorter steps find where.
+                cap_dt = 0.25 * dt;
+                cap_retries += 1;
+                drop(pm);
+                next = Some(Solution::Point(p));
+                continue;
+            }
+            (cap_dt, cap_retries) = (f64::INFINITY, 0);
             if self.verdict(&end_sol, s1).is_some() {
                 if !self.speculative && !self.c.fine.get() {
                     // The end lies in this step: from here on, steps as fine as the reference's,
@@ -1193,7 +1226,10 @@ impl<'a> Sim<'a> {
                     if mid <= lo || mid >= hi {
                         break;
                     }
-                    let (sm, vm) = self.evolve(i, rate, mid);
+                    let (sm, mut vm) = self.evolve(i, rate, mid);
+                    if let Some((v, _)) = self.pol_with_cap(&pm, mid) {
+                        vm = v;
+                    }
                     let xm = self.cap_after(&pm, mid).0;
                     if self.verdict(&self.solve(mode, sm, vm, xm), sm).is_some() {
                         hi = mid;
@@ -1202,7 +1238,10 @@ impl<'a> Sim<'a> {
                     }
                 }
                 self.ledger.add_point(&pm, hi, &self.c.v_max);
-                let (sh, vh) = self.evolve(i, rate, hi);
+                let (sh, mut vh) = self.evolve(i, rate, hi);
+                if let Some((v, _)) = self.pol_with_cap(&pm, hi) {
+                    vh = v;
+                }
                 let (xh, _, ln_h) = self.cap_after(&pm, hi);
                 self.vb_ln += ln_h;
                 self.t.add(hi);
@@ -1238,6 +1277,19 @@ impl<'a> Sim<'a> {
             next = Some(end_sol);
         }
         false
+    }
+
+    /// The buffer's current limit where a step from mean point `p` is to be watched for the
+    /// node's current crossing it: a limiter, and the node taking no more than the limit at
+    /// `p` (the step's held current then drains nothing).
+    fn limiter_may_engage(&self, p: &OperatingPoint) -> Option<f64> {
+        let limit = self.c.d.pack.buffer?.current_limit?;
+        p.buffer.filter(|b| b.node_current <= limit).map(|_| limit)
+    }
+
+    /// Whether the node takes more than `limit` at `sol`.
+    fn limiter_engages(sol: &Solution, limit: f64) -> bool {
+        matches!(sol, Solution::Point(q) if q.buffer.is_some_and(|b| b.node_current > limit))
     }
 
     /// Execute `steps` for at most `budget` seconds; true if the product stopped.
