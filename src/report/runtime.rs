@@ -46,6 +46,10 @@ pub fn end_sentence(d: &Design, r: &RunResult) -> String {
         EndReason::Collapse => format!(
             "the pack could no longer give the power the tree demands{mode} (voltage collapse) with {soc} charge left"
         ),
+        EndReason::Cutoff if d.pack.buffer().is_some() => format!(
+            "the voltage under load, at the buffer capacitor's node or at the cells, fell below the pack's {} cutoff{mode} with {soc} charge left",
+            fmt_eng(d.pack.cutoff_v(), "V")
+        ),
         EndReason::Cutoff => format!(
             "the pack's voltage under load fell below its {} cutoff{mode} with {soc} charge left",
             fmt_eng(d.pack.cutoff_v(), "V")

@@ -401,6 +401,10 @@ pub fn end_words(design: &crate::Design, end: &crate::solve::End) -> String {
     use crate::units::fmt_eng;
     match end.reason {
         EndReason::Collapse => "collapse: the pack cannot give the power".into(),
+        EndReason::Cutoff if design.pack.buffer().is_some() => format!(
+            "cutoff: node or cells under load below {}",
+            fmt_eng(design.pack.cutoff_v(), "V")
+        ),
         EndReason::Cutoff => format!(
             "cutoff: under load below {}",
             fmt_eng(design.pack.cutoff_v(), "V")
