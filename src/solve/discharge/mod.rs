@@ -342,12 +342,39 @@ fn run_inner(
     (r, counts)
 }
 
+/// A run with progress reported to `progress`, its counts written to `counts`.
 fn run_counting(
     design: &Design,
     opt: &RunOptions,
     progress: Option<&dyn Fn(f64)>,
     counts: &mut RunCounts,
 ) -> Result<RunResult, RunError> {
+    check_options(opt)?;
+    let mut ctx = Ctx::new(design, opt);
+    ctx.progress = progress;
+    let mut sim = Sim::new(&ctx);
+    let stopped = run_profile(&mut sim, design, opt);
+    *counts = RunCounts {
+        points: ctx.work.get(),
+        ..ctx.counts.get()
+    };
+    if let Some(e) = ctx.fault.borrow_mut().take() {
+        return Err(e);
+    }
+    if !stopped {
+        // Every pass ran and the product still runs: only possible when the profile's pass
+        // has no duration left, which the checker forbids.
+        return Err(RunError::NonFinite {
+            what: "profile duration",
+            t_s: sim.t.value(),
+            mode: 0,
+        });
+    }
+    Ok(run_result(sim, &ctx, design, opt))
+}
+
+/// Refuse run options out of range: the horizon, and the ambient with the climate's swing.
+fn check_options(opt: &RunOptions) -> Result<(), RunError> {
     if !(opt.horizon_s > 0.0 && opt.horizon_s <= MAX_HORIZON_S) {
         return Err(RunError::Options {
             option: "horizon",
@@ -372,9 +399,11 @@ fn run_counting(
             }
         }
     }
-    let mut ctx = Ctx::new(design, opt);
-    ctx.progress = progress;
-    let mut sim = Sim::new(&ctx);
+    Ok(())
+}
+
+/// Run `design`'s profile, repeated until the product stops; true if it stopped.
+fn run_profile(sim: &mut Sim, design: &Design, opt: &RunOptions) -> bool {
     let pass: f64 = design.profile.iter().map(Step::duration).sum();
     // With a daily swing of the ambient, a profile far shorter than a day runs in blocks of
     // about a day: the rates of a whole day are smooth from one day to the next, those of a
@@ -389,27 +418,16 @@ fn run_counting(
         },
         until: crate::model::RepeatUntil::Times(per_day.max(1.0) as u64),
     }];
-    let stopped = if daily {
+    if daily {
         sim.passes(&days, per_day * pass, f64::INFINITY)
     } else {
         sim.passes(&design.profile, pass, f64::INFINITY)
-    };
-    *counts = RunCounts {
-        points: ctx.work.get(),
-        ..ctx.counts.get()
-    };
-    if let Some(e) = ctx.fault.borrow_mut().take() {
-        return Err(e);
     }
-    if !stopped {
-        // Every pass ran and the product still runs: only possible when the profile's pass
-        // has no duration left, which the checker forbids.
-        return Err(RunError::NonFinite {
-            what: "profile duration",
-            t_s: sim.t.value(),
-            mode: 0,
-        });
-    }
+}
+
+/// The result of a run that stopped: its end (the horizon where none was recorded), totals,
+/// peaks, violations and trace, the ambient and the pack's stored energy.
+fn run_result(sim: Sim, ctx: &Ctx, design: &Design, opt: &RunOptions) -> RunResult {
     let end = sim.end.clone().unwrap_or(End {
         reason: EndReason::Horizon,
         t_s: sim.t.value(),
@@ -421,7 +439,7 @@ fn run_counting(
     let pack = &design.pack;
     let s0 = pack.start_soc;
     let stored = ctx.q * f64::from(pack.series) * pack.cell.ocv.mean(0.0, s0) * s0;
-    Ok(RunResult {
+    RunResult {
         end,
         ledger: sim.ledger,
         peaks: sim.peaks,
@@ -434,7 +452,7 @@ fn run_counting(
         }),
         capacity_c: ctx.q,
         stored_energy_j: stored,
-    })
+    }
 }
 
 /// What does not change during a run.
