@@ -790,7 +790,7 @@ impl Walker<'_> {
                 (vout, iout, iin, (vin - vout) * iout + vin * q)
             }
             _ => {
-                let iout = self.rail_current(out, vout, rec.as_deref_mut());
+                let iout = self.rail_current(out, vout, rec);
                 let loss = st.regulating_loss(vin, vout, iout);
                 let pin = vout * iout + loss;
                 let iin = if vin > 0.0 {

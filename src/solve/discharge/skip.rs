@@ -280,13 +280,13 @@ impl<'a> Sim<'a> {
         };
         if *linear && k >= min && !self.c.failed() {
             match self.two_nodes(&st, k, &mut stop, linear) {
-                Try::Done(r) => return r,
+                Try::Done(r) => return *r,
                 Try::Again(n) => k = n,
             }
         }
         while k >= min && !self.c.failed() {
             match self.three_nodes(&st, k, &mut stop, linear) {
-                Try::Done(r) => return r,
+                Try::Done(r) => return *r,
                 Try::Again(n) => k = n,
             }
         }
@@ -340,7 +340,7 @@ impl<'a> Sim<'a> {
         shorter: f64,
     ) -> Try {
         if self.speculative {
-            return Try::Done(self.stopped_like(probe));
+            return Try::Done(Box::new(self.stopped_like(probe)));
         }
         if self.stop_found(stop.within, stop.pass, probe, pass, within) {
             Try::Again(0.0)
@@ -372,7 +372,7 @@ impl<'a> Sim<'a> {
         let rates = Delta::blend([(1.0 - wk, delta), (0.0, delta), (wk, &rk)]);
         self.c.fit.set(0.0);
         let taken = self.take_stretch(probe, st.steps, pass, k, (delta, delta), &rates, rk);
-        Try::Done(Some(taken))
+        Try::Done(Box::new(Some(taken)))
     }
 
     /// One three-node try of a stretch of `k` passes: the middle pass ([`Sim::middle_pass`])
@@ -382,8 +382,8 @@ impl<'a> Sim<'a> {
         let (delta, pass) = (st.delta, st.pass);
         let h = (k / 2.0).floor();
         let rm = match self.middle_pass(st, h, stop) {
-            Middle::Rates(rm) => rm,
-            Middle::Ended(t) => return t,
+            Ok(rm) => rm,
+            Err(t) => return t,
         };
         let mut probe = self.end_probe(st, k, h, &rm);
         let Some(rk) = probe.run_pass(st.steps, pass) else {
@@ -401,24 +401,25 @@ impl<'a> Sim<'a> {
         // Whether the next stretch of this block may try two nodes.
         *linear = (rk.ds - delta.ds).abs() <= SKIP_LINEAR_REL * delta.ds.abs();
         let taken = self.take_stretch(probe, st.steps, pass, k, (delta, &rm), &rates, rk);
-        Try::Done(Some(taken))
+        Try::Done(Box::new(Some(taken)))
     }
 
     /// The middle pass of a three-node try, `h` passes into the stretch at the start's rates,
     /// run again from its own periodic polarization or buffer voltage where the one it started
-    /// from was far off. [`Middle::Ended`] where it stops the product or gains charge.
-    fn middle_pass(&mut self, st: &Stretch, h: f64, stop: &mut StopSeen) -> Middle {
+    /// from was far off; `Err` with what the try came to where it stops the product or gains
+    /// charge.
+    fn middle_pass(&mut self, st: &Stretch, h: f64, stop: &mut StopSeen) -> Result<Delta, Try> {
         let (delta, pass) = (st.delta, st.pass);
         let mut mid = self.clone();
         mid.speculative = true;
         mid.advance(h, pass, delta);
         let start_mid = mid.clone();
         let Some(mut rm) = mid.run_pass(st.steps, pass) else {
-            return Middle::Ended(self.probe_stopped(&mid, stop, pass, h + 1.0, h));
+            return Err(self.probe_stopped(&mid, stop, pass, h + 1.0, h));
         };
         if rm.ds.is_nan() || (rm.ds <= 0.0 && delta.ds > 0.0) {
             // A pass in the middle that gains charge cannot be extrapolated: pass by pass.
-            return Middle::Ended(Try::Again(0.0));
+            return Err(Try::Again(0.0));
         }
         let pol_off = self.c.pol.is_some()
             && settled(&rm, h)
@@ -437,11 +438,11 @@ impl<'a> Sim<'a> {
                 again.vb = rm.vb_star;
             }
             let Some(r) = again.run_pass(st.steps, pass) else {
-                return Middle::Ended(self.probe_stopped(&again, stop, pass, h + 1.0, h));
+                return Err(self.probe_stopped(&again, stop, pass, h + 1.0, h));
             };
             rm = r;
         }
-        Middle::Rates(rm)
+        Ok(rm)
     }
 
     /// The state the end pass of a stretch of `k` passes starts from, carried there at the
@@ -591,18 +592,10 @@ struct StopSeen<'s> {
 /// What a try at a stretch of passes came to.
 enum Try {
     /// Finished: `None` if the product stopped, else the passes done and the last pass's
-    /// changes.
-    Done(Option<(f64, Delta)>),
+    /// changes (boxed: a pass's changes are large beside a count).
+    Done(Box<Option<(f64, Delta)>>),
     /// Try again with this many passes (below [`SKIP_MIN_PASSES`], the pass runs exactly).
     Again(f64),
-}
-
-/// The middle pass of a three-node try: its changes, or what the try came to without them.
-enum Middle {
-    /// The middle pass's changes.
-    Rates(Delta),
-    /// The try ended at the middle pass.
-    Ended(Try),
 }
 
 /// Whether the polarization of passes changing by `d` settles within `n` passes.
