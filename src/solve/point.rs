@@ -285,14 +285,7 @@ pub fn solve_point_buffered(
     v_cap: Option<f64>,
 ) -> Solution {
     let pack = &design.pack;
-    let ocv = pack.ocv(at.soc);
-    let r0 = pack.r0(at.soc, at.ambient_c);
-    let pol = pack.polarization(at.ambient_c);
-    let (v_open, r) = match (at.v_pol, pol) {
-        (Some(vp), _) => (ocv - vp, r0),
-        (None, Some((r1, _))) => (ocv, r0 + r1),
-        (None, None) => (ocv, r0),
-    };
+    let (ocv, v_open, r) = pack_source(design, at);
     let leak = pack.buffer.map_or(0.0, |b| b.leakage);
     let split = pack.buffer.zip(v_cap).map(|(b, x)| Split {
         e: v_open,
@@ -304,7 +297,6 @@ pub fn solve_point_buffered(
     });
     // Empty until a stage is locked out (most points have none): `Walker::is_locked`.
     let mut locked: Vec<bool> = Vec::new();
-    let size = design.stages.len() + design.loads.len();
     loop {
         let walker = Walker {
             d: design,
@@ -312,25 +304,7 @@ pub fn solve_point_buffered(
             locked: &locked,
         };
         let mut demand = |v: f64| walker.rail_current(0, v, None) + leak;
-        let (mut regime, mut source) = (BufferRegime::Shared, (v_open, r));
-        let mut s = match &split {
-            Some(sp) => {
-                source = sp.source(regime);
-                settle(source.0, source.1, &mut demand)
-            }
-            None => settle(v_open, r, &mut demand),
-        };
-        if let (Some(sp), Settle::Point { current, .. }) = (&split, s) {
-            // The cells' current beyond the limiter's range: settled again in the regime it
-            // calls for (the node's voltage falls with its current in every regime, so one
-            // change is enough).
-            let wanted = sp.regime(current).0;
-            if wanted != regime {
-                regime = wanted;
-                source = sp.source(regime);
-                s = settle(source.0, source.1, &mut demand);
-            }
-        }
+        let (s, regime, source) = settle_node(split.as_ref(), v_open, r, &mut demand);
         let Settle::Point {
             v_a, v_b, alpha, ..
         } = s
@@ -340,22 +314,10 @@ pub fn solve_point_buffered(
                 resistance: source.1,
             };
         };
-        // The record buffers are kept per thread between points (a discharge solves thousands).
-        let (mut rec_a, mut rec_b) = RECORDS.take();
-        rec_a.clear();
-        rec_b.clear();
-        rec_a.reserve(size);
-        rec_b.reserve(size);
-        let ia = walker.rail_current(0, v_a, Some(&mut rec_a));
-        let ib = walker.rail_current(0, v_b, Some(&mut rec_b));
-        blend(&mut rec_a, &rec_b, alpha);
-        let current = alpha * ia + (1.0 - alpha) * ib + leak;
-        let voltage = alpha * v_a + (1.0 - alpha) * v_b;
-        let mut point = assemble(design, mode, ocv, voltage, current, &rec_a);
+        let mut point = point_between(&walker, mode, ocv, (v_a, v_b, alpha), leak);
         if let Some(sp) = &split {
             buffered(&mut point, sp, regime);
         }
-        RECORDS.set((rec_a, rec_b));
         let newly = lockouts(design, &walker, &point);
         if newly.is_empty() {
             return Solution::Point(point);
@@ -365,6 +327,82 @@ pub fn solve_point_buffered(
             locked[k] = true;
         }
     }
+}
+
+/// The pack of `design` as a source at state `at`: its open-circuit voltage, and the
+/// open-circuit voltage and resistance seen at its terminals (behind the polarization where
+/// its voltage is given, with the polarization's resistance where it is not).
+fn pack_source(design: &Design, at: PackState) -> (f64, f64, f64) {
+    let pack = &design.pack;
+    let ocv = pack.ocv(at.soc);
+    let r0 = pack.r0(at.soc, at.ambient_c);
+    let pol = pack.polarization(at.ambient_c);
+    let (v_open, r) = match (at.v_pol, pol) {
+        (Some(vp), _) => (ocv - vp, r0),
+        (None, Some((r1, _))) => (ocv, r0 + r1),
+        (None, None) => (ocv, r0),
+    };
+    (ocv, v_open, r)
+}
+
+/// `demand` settled on the pack (`v_open` behind `r`), or, with a buffer capacitor (`split`),
+/// on its node: first with the capacitor sharing the current, then again in the regime the
+/// cells' current calls for. Returns the settled point, the regime and the source (open
+/// voltage, resistance) it was settled on.
+fn settle_node(
+    split: Option<&Split>,
+    v_open: f64,
+    r: f64,
+    demand: &mut dyn FnMut(f64) -> f64,
+) -> (Settle, BufferRegime, (f64, f64)) {
+    let (mut regime, mut source) = (BufferRegime::Shared, (v_open, r));
+    let mut s = match split {
+        Some(sp) => {
+            source = sp.source(regime);
+            settle(source.0, source.1, demand)
+        }
+        None => settle(v_open, r, demand),
+    };
+    if let (Some(sp), Settle::Point { current, .. }) = (split, s) {
+        // The cells' current beyond the limiter's range: settled again in the regime it
+        // calls for (the node's voltage falls with its current in every regime, so one
+        // change is enough).
+        let wanted = sp.regime(current).0;
+        if wanted != regime {
+            regime = wanted;
+            source = sp.source(regime);
+            s = settle(source.0, source.1, demand);
+        }
+    }
+    (s, regime, source)
+}
+
+/// The operating point of `mode` where the pack settled between `v_a` and `v_b`, blended by
+/// `alpha` (a converter switching at a state boundary, time-averaged): the tree walked at
+/// both voltages, with the buffer's leakage `leak` added to the pack's current.
+fn point_between(
+    walker: &Walker,
+    mode: usize,
+    ocv: f64,
+    (v_a, v_b, alpha): (f64, f64, f64),
+    leak: f64,
+) -> OperatingPoint {
+    let design = walker.d;
+    let size = design.stages.len() + design.loads.len();
+    // The record buffers are kept per thread between points (a discharge solves thousands).
+    let (mut rec_a, mut rec_b) = RECORDS.take();
+    rec_a.clear();
+    rec_b.clear();
+    rec_a.reserve(size);
+    rec_b.reserve(size);
+    let ia = walker.rail_current(0, v_a, Some(&mut rec_a));
+    let ib = walker.rail_current(0, v_b, Some(&mut rec_b));
+    blend(&mut rec_a, &rec_b, alpha);
+    let current = alpha * ia + (1.0 - alpha) * ib + leak;
+    let voltage = alpha * v_a + (1.0 - alpha) * v_b;
+    let point = assemble(design, mode, ocv, voltage, current, &rec_a);
+    RECORDS.set((rec_a, rec_b));
+    point
 }
 
 /// Split the node's current of `p` between the cells and the capacitor in `regime`: the pack
@@ -616,53 +654,13 @@ impl Walker<'_> {
     /// Input current of stage `k` at input voltage `vin`.
     fn stage_input(&self, k: usize, vin: f64, rec: Option<&mut Vec<Rec>>) -> f64 {
         let st = &self.d.stages[k];
-        let out = k + 1;
         if !self.mode.stage_on[k] || self.is_locked(k) {
-            let state = if self.mode.stage_on[k] {
-                StageState::Undervoltage
-            } else {
-                StageState::Off
-            };
             if let Some(r) = rec {
-                r.push(Rec::Stage(
-                    k,
-                    StagePoint {
-                        state,
-                        vin,
-                        iin: st.shutdown,
-                        vout: 0.0,
-                        iout: 0.0,
-                        loss: vin.max(0.0) * st.shutdown,
-                    },
-                ));
-                self.dead(out, r);
+                self.record_off(k, vin, r);
             }
             return st.shutdown;
         }
-        let q = st.quiescent;
-        let (mut state, mut vout) = state_and_output(st, vin);
-        if let Some(limit) = st.input_current_limit {
-            if state == StageState::Regulating {
-                if let Some(v) = self.limited_output(k, vin, limit) {
-                    (state, vout) = (StageState::Limited, v);
-                }
-            }
-        }
-        if state == StageState::Bypass && st.bypass_resistance > 0.0 {
-            // A synchronous pass-through sags with its current: the boost stays in bypass only
-            // while the settled output is at or above the setpoint, and regulates below it.
-            let v_pass = match settle(vout, st.bypass_resistance, &mut |v| {
-                self.rail_current(out, v, None)
-            }) {
-                Settle::Point {
-                    v_a, v_b, alpha, ..
-                } => alpha * v_a + (1.0 - alpha) * v_b,
-                Settle::Collapse => 0.0,
-            };
-            if v_pass < st.setpoint {
-                (state, vout) = (StageState::Regulating, st.setpoint);
-            }
-        }
+        let (state, vout) = self.stage_state(k, vin);
         // Record the stage before its subtree; its figures are filled in after the walk below.
         let slot = rec.as_ref().map(|r| r.len());
         let mut rec = rec;
@@ -679,7 +677,92 @@ impl Walker<'_> {
                 },
             ));
         }
-        let (vout, iout, iin, loss) = match (st.kind, state) {
+        let (vout, iout, iin, loss) = self.stage_figures(k, vin, state, vout, rec.as_deref_mut());
+        if let (Some(r), Some(slot)) = (rec, slot) {
+            r[slot] = Rec::Stage(
+                k,
+                StagePoint {
+                    state,
+                    vin,
+                    iin,
+                    vout,
+                    iout,
+                    loss,
+                },
+            );
+        }
+        iin
+    }
+
+    /// Record stage `k`, off or locked out at input `vin`, drawing its shutdown current, and
+    /// everything below it as dead.
+    fn record_off(&self, k: usize, vin: f64, r: &mut Vec<Rec>) {
+        let st = &self.d.stages[k];
+        let state = if self.mode.stage_on[k] {
+            StageState::Undervoltage
+        } else {
+            StageState::Off
+        };
+        r.push(Rec::Stage(
+            k,
+            StagePoint {
+                state,
+                vin,
+                iin: st.shutdown,
+                vout: 0.0,
+                iout: 0.0,
+                loss: vin.max(0.0) * st.shutdown,
+            },
+        ));
+        self.dead(k + 1, r);
+    }
+
+    /// The state and output voltage of running stage `k` at input `vin`: from the input alone,
+    /// then limited where a switching stage's input current limit holds it below its setpoint,
+    /// and regulating where a boost's resistive bypass would sag below the setpoint.
+    fn stage_state(&self, k: usize, vin: f64) -> (StageState, f64) {
+        let st = &self.d.stages[k];
+        let (mut state, mut vout) = state_and_output(st, vin);
+        if let Some(limit) = st.input_current_limit {
+            if state == StageState::Regulating {
+                if let Some(v) = self.limited_output(k, vin, limit) {
+                    (state, vout) = (StageState::Limited, v);
+                }
+            }
+        }
+        if state == StageState::Bypass && st.bypass_resistance > 0.0 {
+            // A synchronous pass-through sags with its current: the boost stays in bypass only
+            // while the settled output is at or above the setpoint, and regulates below it.
+            let v_pass = match settle(vout, st.bypass_resistance, &mut |v| {
+                self.rail_current(k + 1, v, None)
+            }) {
+                Settle::Point {
+                    v_a, v_b, alpha, ..
+                } => alpha * v_a + (1.0 - alpha) * v_b,
+                Settle::Collapse => 0.0,
+            };
+            if v_pass < st.setpoint {
+                (state, vout) = (StageState::Regulating, st.setpoint);
+            }
+        }
+        (state, vout)
+    }
+
+    /// The figures of running stage `k` in `state` at input `vin` and output `vout`, walking
+    /// its subtree (recorded into `rec`): the output voltage as settled, output current, input
+    /// current and loss.
+    fn stage_figures(
+        &self,
+        k: usize,
+        vin: f64,
+        state: StageState,
+        vout: f64,
+        mut rec: Option<&mut Vec<Rec>>,
+    ) -> (f64, f64, f64, f64) {
+        let st = &self.d.stages[k];
+        let out = k + 1;
+        let q = st.quiescent;
+        match (st.kind, state) {
             (StageKind::Switch, _) => {
                 let (vout, iout) = self.pass_output(k, vin, st.on_resistance, rec.as_deref_mut());
                 let iin = iout + q;
@@ -707,7 +790,7 @@ impl Walker<'_> {
                 (vout, iout, iin, (vin - vout) * iout + vin * q)
             }
             _ => {
-                let iout = self.rail_current(out, vout, rec.as_deref_mut());
+                let iout = self.rail_current(out, vout, rec);
                 let loss = st.regulating_loss(vin, vout, iout);
                 let pin = vout * iout + loss;
                 let iin = if vin > 0.0 {
@@ -719,21 +802,7 @@ impl Walker<'_> {
                 };
                 (vout, iout, iin, loss)
             }
-        };
-        if let (Some(r), Some(slot)) = (rec, slot) {
-            r[slot] = Rec::Stage(
-                k,
-                StagePoint {
-                    state,
-                    vin,
-                    iin,
-                    vout,
-                    iout,
-                    loss,
-                },
-            );
         }
-        iin
     }
 
     /// The output voltage of switching stage `k` at input `vin` when regulating would draw more

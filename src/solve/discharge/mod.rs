@@ -342,12 +342,39 @@ fn run_inner(
     (r, counts)
 }
 
+/// A run with progress reported to `progress`, its counts written to `counts`.
 fn run_counting(
     design: &Design,
     opt: &RunOptions,
     progress: Option<&dyn Fn(f64)>,
     counts: &mut RunCounts,
 ) -> Result<RunResult, RunError> {
+    check_options(opt)?;
+    let mut ctx = Ctx::new(design, opt);
+    ctx.progress = progress;
+    let mut sim = Sim::new(&ctx);
+    let stopped = run_profile(&mut sim, design, opt);
+    *counts = RunCounts {
+        points: ctx.work.get(),
+        ..ctx.counts.get()
+    };
+    if let Some(e) = ctx.fault.borrow_mut().take() {
+        return Err(e);
+    }
+    if !stopped {
+        // Every pass ran and the product still runs: only possible when the profile's pass
+        // has no duration left, which the checker forbids.
+        return Err(RunError::NonFinite {
+            what: "profile duration",
+            t_s: sim.t.value(),
+            mode: 0,
+        });
+    }
+    Ok(run_result(sim, &ctx, design, opt))
+}
+
+/// Refuse run options out of range: the horizon, and the ambient with the climate's swing.
+fn check_options(opt: &RunOptions) -> Result<(), RunError> {
     if !(opt.horizon_s > 0.0 && opt.horizon_s <= MAX_HORIZON_S) {
         return Err(RunError::Options {
             option: "horizon",
@@ -372,9 +399,11 @@ fn run_counting(
             }
         }
     }
-    let mut ctx = Ctx::new(design, opt);
-    ctx.progress = progress;
-    let mut sim = Sim::new(&ctx);
+    Ok(())
+}
+
+/// Run `design`'s profile, repeated until the product stops; true if it stopped.
+fn run_profile(sim: &mut Sim, design: &Design, opt: &RunOptions) -> bool {
     let pass: f64 = design.profile.iter().map(Step::duration).sum();
     // With a daily swing of the ambient, a profile far shorter than a day runs in blocks of
     // about a day: the rates of a whole day are smooth from one day to the next, those of a
@@ -389,27 +418,16 @@ fn run_counting(
         },
         until: crate::model::RepeatUntil::Times(per_day.max(1.0) as u64),
     }];
-    let stopped = if daily {
+    if daily {
         sim.passes(&days, per_day * pass, f64::INFINITY)
     } else {
         sim.passes(&design.profile, pass, f64::INFINITY)
-    };
-    *counts = RunCounts {
-        points: ctx.work.get(),
-        ..ctx.counts.get()
-    };
-    if let Some(e) = ctx.fault.borrow_mut().take() {
-        return Err(e);
     }
-    if !stopped {
-        // Every pass ran and the product still runs: only possible when the profile's pass
-        // has no duration left, which the checker forbids.
-        return Err(RunError::NonFinite {
-            what: "profile duration",
-            t_s: sim.t.value(),
-            mode: 0,
-        });
-    }
+}
+
+/// The result of a run that stopped: its end (the horizon where none was recorded), totals,
+/// peaks, violations and trace, the ambient and the pack's stored energy.
+fn run_result(sim: Sim, ctx: &Ctx, design: &Design, opt: &RunOptions) -> RunResult {
     let end = sim.end.clone().unwrap_or(End {
         reason: EndReason::Horizon,
         t_s: sim.t.value(),
@@ -421,7 +439,7 @@ fn run_counting(
     let pack = &design.pack;
     let s0 = pack.start_soc;
     let stored = ctx.q * f64::from(pack.series) * pack.cell.ocv.mean(0.0, s0) * s0;
-    Ok(RunResult {
+    RunResult {
         end,
         ledger: sim.ledger,
         peaks: sim.peaks,
@@ -434,7 +452,7 @@ fn run_counting(
         }),
         capacity_c: ctx.q,
         stored_energy_j: stored,
-    })
+    }
 }
 
 /// What does not change during a run.
@@ -640,6 +658,24 @@ struct Sim<'a> {
     /// the one the product stopped in: the end falls on one of its passes.
     block_pass: f64,
     end_pass: f64,
+}
+
+/// The cells' side of a step held at its mean point: the cells' current and the rate of
+/// discharge it gives.
+#[derive(Clone, Copy)]
+struct Held {
+    i: f64,
+    rate: f64,
+}
+
+/// The state some time into a step: state of charge, polarization voltage, the buffer
+/// capacitor's voltage and the log of the decay its path had ([`Sim::vb_ln`]).
+#[derive(Clone, Copy)]
+struct StepEnd {
+    s: f64,
+    vp: f64,
+    x: f64,
+    ln: f64,
 }
 
 /// What one pass of a block changed.
@@ -1138,63 +1174,31 @@ impl<'a> Sim<'a> {
         // many times in a row ([`Sim::limiter_engages`]).
         let (mut cap_dt, mut cap_retries) = (f64::INFINITY, 0u32);
         while left > 1e-12 * dur {
-            if self.halted(mode) {
+            let Some(p) = self.step_start(mode, next.take()) else {
                 return true;
-            }
-            self.c.count(|c| c.steps += 1);
-            let sol = next
-                .take()
-                .unwrap_or_else(|| self.solve(mode, self.soc(), self.vp, self.vb));
-            if let Some((reason, subject)) = self.verdict(&sol, self.soc()) {
-                if let Solution::Point(p) = &sol {
-                    self.observe(p);
-                }
-                self.stop(reason, Some(mode), subject);
-                return true;
-            }
-            let Solution::Point(p) = sol else { return true };
-            self.observe(&p);
+            };
             let rate0 = self.rate(p.pack.current, 0.0);
             if self.refuse_non_finite(mode, p.pack.current, rate0) {
                 return true;
             }
-            let mut dt = left.min(self.c.opt.horizon_s - self.now());
-            if rate0 > 0.0 {
-                dt = dt.min(self.c.max_ds() / rate0);
-            }
-            dt = dt.min(self.polarization_step(&p, dt));
-            dt = dt.min(self.cap_step_limit(&p, dt));
-            // The ambient is held over a step: at most an hour with a daily swing.
-            if let Some(c) = &self.c.opt.climate {
-                dt = dt.min(c.step_s());
-            }
-            dt = dt.min(cap_dt);
+            let dt = self.step_length(&p, rate0, left, cap_dt);
             let mut pm = self.mean_point(mode, &p, rate0, dt);
-            // With a buffer the cells' current over the step follows from the capacitor's path.
-            let (x1, i, ln1) = self.cap_after(&pm, dt);
-            if pm.buffer.is_some() {
-                self.buffer_step(pm.to_mut(), i, x1, dt);
-            }
-            let rate = self.rate_on_path(&pm, i, dt);
-            if self.refuse_non_finite(mode, i, rate) {
+            let (held, end) = self.step_path(&mut pm, dt);
+            if self.refuse_non_finite(mode, held.i, held.rate) {
                 return true;
             }
-            let (s1, mut vp1) = self.evolve(i, rate, dt);
-            if let Some((v, _)) = self.pol_with_cap(&pm, dt) {
-                vp1 = v;
-            }
+            let StepEnd {
+                s: s1,
+                vp: vp1,
+                x: x1,
+                ..
+            } = end;
+            let i = held.i;
             let watch = self.limiter_may_engage(&pm);
             if watch.is_none() && self.surely_clear(&p, i, s1, vp1, x1) {
-                self.ledger.add_point(&pm, dt, &self.c.v_max);
-                self.t.add(dt);
-                self.s.add(-rate * dt);
-                self.vp = vp1;
-                self.vb = x1;
-                self.vb_ln += ln1;
-                self.i_seen = self.seen_after(i, dt);
+                self.take_step(&pm, held, dt, end);
                 left -= dt;
-                if self.now() >= self.c.opt.horizon_s * (1.0 - 1e-15) {
-                    self.stop(EndReason::Horizon, Some(mode), "battery".into());
+                if self.past_horizon(mode) {
                     return true;
                 }
                 continue;
@@ -1220,63 +1224,140 @@ impl<'a> Sim<'a> {
                     self.c.fine.set(true);
                     continue;
                 }
-                let (mut lo, mut hi) = (0.0, dt);
-                for _ in 0..END_BISECT_ITER {
-                    let mid = 0.5 * (lo + hi);
-                    if mid <= lo || mid >= hi {
-                        break;
-                    }
-                    let (sm, mut vm) = self.evolve(i, rate, mid);
-                    if let Some((v, _)) = self.pol_with_cap(&pm, mid) {
-                        vm = v;
-                    }
-                    let xm = self.cap_after(&pm, mid).0;
-                    if self.verdict(&self.solve(mode, sm, vm, xm), sm).is_some() {
-                        hi = mid;
-                    } else {
-                        lo = mid;
-                    }
-                }
-                self.ledger.add_point(&pm, hi, &self.c.v_max);
-                let (sh, mut vh) = self.evolve(i, rate, hi);
-                if let Some((v, _)) = self.pol_with_cap(&pm, hi) {
-                    vh = v;
-                }
-                let (xh, _, ln_h) = self.cap_after(&pm, hi);
-                self.vb_ln += ln_h;
-                self.t.add(hi);
-                self.s.add(-rate * hi);
-                self.vp = vh;
-                self.vb = xh;
-                self.i_seen = self.seen_after(i, hi);
-                let sol = self.solve(mode, sh, vh, xh);
-                if let Solution::Point(q) = &sol {
-                    self.offer_trace(q, self.now(), sh);
-                }
-                let (reason, subject) = self
-                    .verdict(&sol, sh)
-                    .unwrap_or((EndReason::Empty, "battery".into()));
-                self.stop(reason, Some(mode), subject);
+                self.stop_within(mode, &pm, held, dt);
                 return true;
             }
-            self.ledger.add_point(&pm, dt, &self.c.v_max);
-            self.t.add(dt);
-            self.s.add(-rate * dt);
-            self.vp = vp1;
-            self.vb = x1;
-            self.vb_ln += ln1;
-            self.i_seen = self.seen_after(i, dt);
+            self.take_step(&pm, held, dt, end);
             left -= dt;
             if let Solution::Point(q) = &end_sol {
                 self.offer_trace(q, self.now(), s1);
             }
-            if self.now() >= self.c.opt.horizon_s * (1.0 - 1e-15) {
-                self.stop(EndReason::Horizon, Some(mode), "battery".into());
+            if self.past_horizon(mode) {
                 return true;
             }
             next = Some(end_sol);
         }
         false
+    }
+
+    /// The operating point a step of `mode` starts from (`next`, the last step's end, or the
+    /// present state solved afresh), observed; `None` where the product stops there (the stop
+    /// is recorded).
+    fn step_start(&mut self, mode: usize, next: Option<Solution>) -> Option<OperatingPoint> {
+        if self.halted(mode) {
+            return None;
+        }
+        self.c.count(|c| c.steps += 1);
+        let sol = next.unwrap_or_else(|| self.solve(mode, self.soc(), self.vp, self.vb));
+        if let Some((reason, subject)) = self.verdict(&sol, self.soc()) {
+            if let Solution::Point(p) = &sol {
+                self.observe(p);
+            }
+            self.stop(reason, Some(mode), subject);
+            return None;
+        }
+        let Solution::Point(p) = sol else { return None };
+        self.observe(&p);
+        Some(p)
+    }
+
+    /// The length of a step from start point `p` (discharging at `rate0`) with `left` seconds
+    /// of the phase to go: no further than the horizon, and shortened to the step allowances
+    /// of the state of charge, the polarization, the buffer capacitor, the ambient and
+    /// `cap_dt` (the limiter's retries).
+    fn step_length(&self, p: &OperatingPoint, rate0: f64, left: f64, cap_dt: f64) -> f64 {
+        let mut dt = left.min(self.c.opt.horizon_s - self.now());
+        if rate0 > 0.0 {
+            dt = dt.min(self.c.max_ds() / rate0);
+        }
+        dt = dt.min(self.polarization_step(p, dt));
+        dt = dt.min(self.cap_step_limit(p, dt));
+        // The ambient is held over a step: at most an hour with a daily swing.
+        if let Some(c) = &self.c.opt.climate {
+            dt = dt.min(c.step_s());
+        }
+        dt.min(cap_dt)
+    }
+
+    /// What a step of `dt` at mean point `pm` holds and where it ends. With a buffer the
+    /// cells' current over the step follows from the capacitor's path, and `pm` takes the
+    /// step's totals ([`Sim::buffer_step`]).
+    fn step_path(&self, pm: &mut Cow<'_, OperatingPoint>, dt: f64) -> (Held, StepEnd) {
+        let (x, i, ln) = self.cap_after(pm, dt);
+        if pm.buffer.is_some() {
+            self.buffer_step(pm.to_mut(), i, x, dt);
+        }
+        let rate = self.rate_on_path(pm, i, dt);
+        let (s, mut vp) = self.evolve(i, rate, dt);
+        if let Some((v, _)) = self.pol_with_cap(pm, dt) {
+            vp = v;
+        }
+        (Held { i, rate }, StepEnd { s, vp, x, ln })
+    }
+
+    /// The state `dt` into a step held at mean point `pm` and `held`: the state of charge, the
+    /// polarization (moved with the capacitor where it has one) and the capacitor's path.
+    fn step_end(&self, pm: &OperatingPoint, held: Held, dt: f64) -> StepEnd {
+        let (s, mut vp) = self.evolve(held.i, held.rate, dt);
+        if let Some((v, _)) = self.pol_with_cap(pm, dt) {
+            vp = v;
+        }
+        let (x, _, ln) = self.cap_after(pm, dt);
+        StepEnd { s, vp, x, ln }
+    }
+
+    /// Take a step of `dt` held at mean point `pm` and `held`, ending at `end`: the ledger's
+    /// totals, time, state of charge, polarization, capacitor and the current seen by the
+    /// rate's window move on.
+    fn take_step(&mut self, pm: &OperatingPoint, held: Held, dt: f64, end: StepEnd) {
+        self.ledger.add_point(pm, dt, &self.c.v_max);
+        self.t.add(dt);
+        self.s.add(-held.rate * dt);
+        self.vp = end.vp;
+        self.vb = end.x;
+        self.vb_ln += end.ln;
+        self.i_seen = self.seen_after(held.i, dt);
+    }
+
+    /// Whether the run has reached its horizon; the stop is then recorded.
+    fn past_horizon(&mut self, mode: usize) -> bool {
+        if self.now() >= self.c.opt.horizon_s * (1.0 - 1e-15) {
+            self.stop(EndReason::Horizon, Some(mode), "battery".into());
+            return true;
+        }
+        false
+    }
+
+    /// The product stops within a step of `dt` held at mean point `pm` and `held`: the first
+    /// failing instant is bisected, the step is taken up to it and the stop recorded with the
+    /// reason found there.
+    fn stop_within(&mut self, mode: usize, pm: &OperatingPoint, held: Held, dt: f64) {
+        let (mut lo, mut hi) = (0.0, dt);
+        for _ in 0..END_BISECT_ITER {
+            let mid = 0.5 * (lo + hi);
+            if mid <= lo || mid >= hi {
+                break;
+            }
+            let m = self.step_end(pm, held, mid);
+            if self
+                .verdict(&self.solve(mode, m.s, m.vp, m.x), m.s)
+                .is_some()
+            {
+                hi = mid;
+            } else {
+                lo = mid;
+            }
+        }
+        let end = self.step_end(pm, held, hi);
+        self.take_step(pm, held, hi, end);
+        let sol = self.solve(mode, end.s, end.vp, end.x);
+        if let Solution::Point(q) = &sol {
+            self.offer_trace(q, self.now(), end.s);
+        }
+        let (reason, subject) = self
+            .verdict(&sol, end.s)
+            .unwrap_or((EndReason::Empty, "battery".into()));
+        self.stop(reason, Some(mode), subject);
     }
 
     /// The buffer's current limit where a step from mean point `p` is to be watched for the

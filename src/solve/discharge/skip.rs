@@ -267,8 +267,37 @@ impl<'a> Sim<'a> {
         linear: &mut bool,
     ) -> Option<(f64, Delta)> {
         let min = SKIP_MIN_PASSES as f64;
-        // The start node: the pass before the stretch (at -1/2), or, when its polarization was
-        // still far from periodic, the first pass run again from the periodic value (at 1/2).
+        let (x0, first) = self.start_node(steps, pass, delta);
+        let st = Stretch {
+            steps,
+            pass,
+            x0,
+            delta: &first,
+        };
+        let mut stop = StopSeen {
+            within: stop_within,
+            pass: stop_pass,
+        };
+        if *linear && k >= min && !self.c.failed() {
+            match self.two_nodes(&st, k, &mut stop, linear) {
+                Try::Done(r) => return *r,
+                Try::Again(n) => k = n,
+            }
+        }
+        while k >= min && !self.c.failed() {
+            match self.three_nodes(&st, k, &mut stop, linear) {
+                Try::Done(r) => return *r,
+                Try::Again(n) => k = n,
+            }
+        }
+        self.run_pass(steps, pass).map(|d| (1.0, d))
+    }
+
+    /// The start node of a stretch after a pass that changed things by `delta`: that pass (at
+    /// -1/2), or, when its polarization was still far from periodic, the first pass run again
+    /// from the periodic value (at 1/2). Returns the node's place, in passes from the
+    /// stretch's start, and its changes.
+    fn start_node(&self, steps: &[Step], pass: f64, delta: &Delta) -> (f64, Delta) {
         let mut x0 = -0.5;
         let mut first = delta.clone();
         // (Only where the polarization settles within a pass or two; a slower one is followed by
@@ -295,149 +324,167 @@ impl<'a> Sim<'a> {
                 x0 = 0.5;
             }
         }
-        let delta = &first;
-        if *linear && k >= min && !self.c.failed() {
-            // The end pass first, reached at the start's rates: where the rates did not move
-            // over the stretch, the line through the two nodes is the stretch (no middle pass).
-            let mut probe = self.clone();
-            probe.speculative = true;
-            probe.advance(k, pass, delta);
-            match probe.run_pass(steps, pass) {
-                None => {
-                    if self.speculative {
-                        return self.stopped_like(&probe);
-                    }
-                    if self.stop_found(stop_within, stop_pass, &probe, pass, k + 1.0) {
-                        k = 0.0;
-                    } else {
-                        k = (k / 2.0).floor();
-                    }
-                }
-                Some(rk) => {
-                    let flat = (rk.ds - delta.ds).abs() <= SKIP_LINEAR_REL * delta.ds.abs()
-                        && (rk.ds > 0.0 || delta.ds <= 0.0);
-                    if flat {
-                        let wk = (0.5 * k - x0) / (k + 0.5 - x0);
-                        let rates = Delta::blend([(1.0 - wk, delta), (0.0, delta), (wk, &rk)]);
-                        self.c.fit.set(0.0);
-                        return Some(self.take_stretch(
-                            probe,
-                            steps,
-                            pass,
-                            k,
-                            (delta, delta),
-                            &rates,
-                            rk,
-                        ));
-                    }
-                    // The rates bend: three nodes.
-                    *linear = false;
-                }
-            }
+        (x0, first)
+    }
+
+    /// A simulated pass, `probe`, stopped the product `within` passes from the stretch's
+    /// start. A speculative pass stops with it ([`Sim::stopped_like`]); otherwise the stop is
+    /// recorded and the stretch shortened to `shorter` passes, or given up where the run is
+    /// then short enough to go pass by pass ([`Sim::stop_found`]).
+    fn probe_stopped(
+        &mut self,
+        probe: &Sim,
+        stop: &mut StopSeen,
+        pass: f64,
+        within: f64,
+        shorter: f64,
+    ) -> Try {
+        if self.speculative {
+            return Try::Done(Box::new(self.stopped_like(probe)));
         }
-        while k >= min && !self.c.failed() {
-            let h = (k / 2.0).floor();
-            let mut mid = self.clone();
-            mid.speculative = true;
-            mid.advance(h, pass, delta);
-            let start_mid = mid.clone();
-            let Some(mut rm) = mid.run_pass(steps, pass) else {
-                if self.speculative {
-                    return self.stopped_like(&mid);
-                }
-                if self.stop_found(stop_within, stop_pass, &mid, pass, h + 1.0) {
-                    break;
-                }
-                k = h;
-                continue;
-            };
-            if rm.ds.is_nan() || (rm.ds <= 0.0 && delta.ds > 0.0) {
-                // A pass in the middle that gains charge cannot be extrapolated: pass by pass.
-                break;
-            }
-            let settled = |d: &Delta, n: f64| (n * d.ln_decay).exp() < 0.05;
-            let pol_off = self.c.pol.is_some()
-                && settled(&rm, h)
-                && (rm.vp_star - start_mid.vp).abs() > 1e-3 * rm.vp_star.abs();
-            let buf_off = self.buffer_off(&rm, start_mid.vb, h);
-            if pol_off || buf_off {
-                // The middle pass started from the periodic polarization of the start's currents;
-                // near the power limit the current is steep in V_p, so run it again from its own
-                // periodic value. The same for a buffer capacitor whose periodic voltage moved
-                // with the cells' resistance: each pass's charge holds C times its distance.
-                let mut again = start_mid;
-                if pol_off {
-                    again.vp = rm.vp_star;
-                }
-                if buf_off {
-                    again.vb = rm.vb_star;
-                }
-                let Some(r) = again.run_pass(steps, pass) else {
-                    if self.speculative {
-                        return self.stopped_like(&again);
-                    }
-                    if self.stop_found(stop_within, stop_pass, &again, pass, h + 1.0) {
-                        break;
-                    }
-                    k = h;
-                    continue;
-                };
-                rm = r;
-            }
-            // The end pass starts from the periodic polarization extrapolated along the stretch.
-            let mut toward_end = rm.clone();
-            toward_end.vp_star = rm.vp_star + (rm.vp_star - delta.vp_star) * (k - h) / (h + 1.0);
-            let mut probe = self.clone();
-            probe.speculative = true;
-            probe.advance(k, pass, &rm);
-            if settled(&rm, k) {
-                probe.vp += (toward_end.vp_star - rm.vp_star) * (1.0 - rm.decay.powf(k));
-            }
-            // And the buffer's, less the open-circuit voltage, to the end's.
-            if let (Some(um), Some(u0)) = (rm.vb_u_star_slow(), delta.vb_u_star_slow()) {
-                let settle = -(k * rm.buf_ln_decay).exp_m1();
-                probe.vb += (um - u0) * (k - h) / (h + 0.5 - x0) * settle;
-            }
-            let Some(rk) = probe.run_pass(steps, pass) else {
-                if self.speculative {
-                    return self.stopped_like(&probe);
-                }
-                if self.stop_found(stop_within, stop_pass, &probe, pass, k + 1.0) {
-                    break;
-                }
-                k = h;
-                continue;
-            };
-            let (w, bend) = stretch_weights(x0, h, k, [delta.ds, rm.ds, rk.ds]);
-            let smooth = bend <= SKIP_REL_ERR * rm.ds.abs();
-            // Where the rates are not smooth, the run's own stretch may spend the budget.
-            // Each stretch of the run's own earns a share of what it takes.
-            let earned = if self.speculative {
-                0.0
-            } else {
-                SKIP_NOISE_REL * k * rm.ds.abs()
-            };
-            let within_budget =
-                !smooth && !self.speculative && bend * k <= self.c.slack.get() + earned;
-            if within_budget {
-                self.c.slack.set(self.c.slack.get() + earned - bend * k);
-            } else if smooth {
-                self.c.slack.set(self.c.slack.get() + earned);
-            }
-            if bend.is_nan() || !(smooth || within_budget) {
-                k = h;
-                continue;
-            }
-            // The end pass was reached at the middle's rates (the midpoint rule); move its state
-            // to the parabola's: the difference is of the order of the error estimate, so the
-            // end pass's own changes stand.
-            let rates = Delta::blend([(w[0], delta), (w[1], &rm), (w[2], &rk)]);
-            self.c.fit.set(bend / (SKIP_REL_ERR * rm.ds.abs()));
-            // Whether the next stretch of this block may try two nodes.
-            *linear = (rk.ds - delta.ds).abs() <= SKIP_LINEAR_REL * delta.ds.abs();
-            return Some(self.take_stretch(probe, steps, pass, k, (delta, &rm), &rates, rk));
+        if self.stop_found(stop.within, stop.pass, probe, pass, within) {
+            Try::Again(0.0)
+        } else {
+            Try::Again(shorter)
         }
-        self.run_pass(steps, pass).map(|d| (1.0, d))
+    }
+
+    /// The two-node try of a stretch of `k` passes: the end pass first, reached at the start's
+    /// rates. Where the rates did not move over the stretch, the line through the two nodes is
+    /// the stretch (no middle pass); where they bend, `linear` is cleared and three nodes
+    /// follow.
+    fn two_nodes(&mut self, st: &Stretch, k: f64, stop: &mut StopSeen, linear: &mut bool) -> Try {
+        let (delta, pass, x0) = (st.delta, st.pass, st.x0);
+        let mut probe = self.clone();
+        probe.speculative = true;
+        probe.advance(k, pass, delta);
+        let Some(rk) = probe.run_pass(st.steps, pass) else {
+            return self.probe_stopped(&probe, stop, pass, k + 1.0, (k / 2.0).floor());
+        };
+        let flat = (rk.ds - delta.ds).abs() <= SKIP_LINEAR_REL * delta.ds.abs()
+            && (rk.ds > 0.0 || delta.ds <= 0.0);
+        if !flat {
+            // The rates bend: three nodes.
+            *linear = false;
+            return Try::Again(k);
+        }
+        let wk = (0.5 * k - x0) / (k + 0.5 - x0);
+        let rates = Delta::blend([(1.0 - wk, delta), (0.0, delta), (wk, &rk)]);
+        self.c.fit.set(0.0);
+        let taken = self.take_stretch(probe, st.steps, pass, k, (delta, delta), &rates, rk);
+        Try::Done(Box::new(Some(taken)))
+    }
+
+    /// One three-node try of a stretch of `k` passes: the middle pass ([`Sim::middle_pass`])
+    /// and the end pass ([`Sim::end_probe`]) with the start node give the parabola; the
+    /// stretch is taken where its bend is allowed ([`Sim::bend_allowed`]), else halved.
+    fn three_nodes(&mut self, st: &Stretch, k: f64, stop: &mut StopSeen, linear: &mut bool) -> Try {
+        let (delta, pass) = (st.delta, st.pass);
+        let h = (k / 2.0).floor();
+        let rm = match self.middle_pass(st, h, stop) {
+            Ok(rm) => rm,
+            Err(t) => return t,
+        };
+        let mut probe = self.end_probe(st, k, h, &rm);
+        let Some(rk) = probe.run_pass(st.steps, pass) else {
+            return self.probe_stopped(&probe, stop, pass, k + 1.0, h);
+        };
+        let (w, bend) = stretch_weights(st.x0, h, k, [delta.ds, rm.ds, rk.ds]);
+        if !self.bend_allowed(bend, k, rm.ds) {
+            return Try::Again(h);
+        }
+        // The end pass was reached at the middle's rates (the midpoint rule); move its state
+        // to the parabola's: the difference is of the order of the error estimate, so the
+        // end pass's own changes stand.
+        let rates = Delta::blend([(w[0], delta), (w[1], &rm), (w[2], &rk)]);
+        self.c.fit.set(bend / (SKIP_REL_ERR * rm.ds.abs()));
+        // Whether the next stretch of this block may try two nodes.
+        *linear = (rk.ds - delta.ds).abs() <= SKIP_LINEAR_REL * delta.ds.abs();
+        let taken = self.take_stretch(probe, st.steps, pass, k, (delta, &rm), &rates, rk);
+        Try::Done(Box::new(Some(taken)))
+    }
+
+    /// The middle pass of a three-node try, `h` passes into the stretch at the start's rates,
+    /// run again from its own periodic polarization or buffer voltage where the one it started
+    /// from was far off; `Err` with what the try came to where it stops the product or gains
+    /// charge.
+    fn middle_pass(&mut self, st: &Stretch, h: f64, stop: &mut StopSeen) -> Result<Delta, Try> {
+        let (delta, pass) = (st.delta, st.pass);
+        let mut mid = self.clone();
+        mid.speculative = true;
+        mid.advance(h, pass, delta);
+        let start_mid = mid.clone();
+        let Some(mut rm) = mid.run_pass(st.steps, pass) else {
+            return Err(self.probe_stopped(&mid, stop, pass, h + 1.0, h));
+        };
+        if rm.ds.is_nan() || (rm.ds <= 0.0 && delta.ds > 0.0) {
+            // A pass in the middle that gains charge cannot be extrapolated: pass by pass.
+            return Err(Try::Again(0.0));
+        }
+        let pol_off = self.c.pol.is_some()
+            && settled(&rm, h)
+            && (rm.vp_star - start_mid.vp).abs() > 1e-3 * rm.vp_star.abs();
+        let buf_off = self.buffer_off(&rm, start_mid.vb, h);
+        if pol_off || buf_off {
+            // The middle pass started from the periodic polarization of the start's currents;
+            // near the power limit the current is steep in V_p, so run it again from its own
+            // periodic value. The same for a buffer capacitor whose periodic voltage moved
+            // with the cells' resistance: each pass's charge holds C times its distance.
+            let mut again = start_mid;
+            if pol_off {
+                again.vp = rm.vp_star;
+            }
+            if buf_off {
+                again.vb = rm.vb_star;
+            }
+            let Some(r) = again.run_pass(st.steps, pass) else {
+                return Err(self.probe_stopped(&again, stop, pass, h + 1.0, h));
+            };
+            rm = r;
+        }
+        Ok(rm)
+    }
+
+    /// The state the end pass of a stretch of `k` passes starts from, carried there at the
+    /// rates of the middle pass `rm` (`h` passes in): its polarization moved toward the
+    /// periodic value extrapolated along the stretch, and its buffer capacitor, less the
+    /// cells' open-circuit voltage, toward the end's.
+    fn end_probe(&self, st: &Stretch, k: f64, h: f64, rm: &Delta) -> Sim<'a> {
+        let delta = st.delta;
+        // The end pass starts from the periodic polarization extrapolated along the stretch.
+        let vp_star_end = rm.vp_star + (rm.vp_star - delta.vp_star) * (k - h) / (h + 1.0);
+        let mut probe = self.clone();
+        probe.speculative = true;
+        probe.advance(k, st.pass, rm);
+        if settled(rm, k) {
+            probe.vp += (vp_star_end - rm.vp_star) * (1.0 - rm.decay.powf(k));
+        }
+        // And the buffer's, less the open-circuit voltage, to the end's.
+        if let (Some(um), Some(u0)) = (rm.vb_u_star_slow(), delta.vb_u_star_slow()) {
+            let settle = -(k * rm.buf_ln_decay).exp_m1();
+            probe.vb += (um - u0) * (k - h) / (h + 0.5 - st.x0) * settle;
+        }
+        probe
+    }
+
+    /// Whether a stretch of `k` passes whose parabola bends by `bend` (the middle pass falling
+    /// by `ds_mid`) is taken: where the rates are smooth, or where the run's own stretch may
+    /// spend the budget of what such stretches earned (each earns a share of what it takes).
+    /// The budget is booked here.
+    fn bend_allowed(&self, bend: f64, k: f64, ds_mid: f64) -> bool {
+        let smooth = bend <= SKIP_REL_ERR * ds_mid.abs();
+        let earned = if self.speculative {
+            0.0
+        } else {
+            SKIP_NOISE_REL * k * ds_mid.abs()
+        };
+        let within_budget = !smooth && !self.speculative && bend * k <= self.c.slack.get() + earned;
+        if within_budget {
+            self.c.slack.set(self.c.slack.get() + earned - bend * k);
+        } else if smooth {
+            self.c.slack.set(self.c.slack.get() + earned);
+        }
+        !bend.is_nan() && (smooth || within_budget)
     }
 
     /// Whether the middle pass `rm` of a stretch, started with its buffer capacitor at `vb`
@@ -524,6 +571,36 @@ impl<'a> Sim<'a> {
             j += 1.0;
         }
     }
+}
+
+/// The fixed parts of a stretch's tries: the block's steps and pass length, and the start
+/// node's place `x0` (in passes from the stretch's start) and changes `delta`.
+struct Stretch<'s> {
+    steps: &'s [Step],
+    pass: f64,
+    x0: f64,
+    delta: &'s Delta,
+}
+
+/// Where a simulated pass found the product stopping: within how many passes of the present
+/// state, and the pass length of the block the stop falls in.
+struct StopSeen<'s> {
+    within: &'s mut Option<f64>,
+    pass: &'s mut f64,
+}
+
+/// What a try at a stretch of passes came to.
+enum Try {
+    /// Finished: `None` if the product stopped, else the passes done and the last pass's
+    /// changes (boxed: a pass's changes are large beside a count).
+    Done(Box<Option<(f64, Delta)>>),
+    /// Try again with this many passes (below [`SKIP_MIN_PASSES`], the pass runs exactly).
+    Again(f64),
+}
+
+/// Whether the polarization of passes changing by `d` settles within `n` passes.
+fn settled(d: &Delta, n: f64) -> bool {
+    (n * d.ln_decay).exp() < 0.05
 }
 
 /// A first-order lag after `k` passes that each take it from x to e^l x + b: e^(kl) x + b (1 -
