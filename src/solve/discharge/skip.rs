@@ -60,17 +60,17 @@ impl<'a> Sim<'a> {
             return;
         };
         let Some(u_star) = first.vb_u_star_slow() else {
-            // Settling over far more passes than the stretch: the passes' rates already hold
-            // the drift the stretch continues.
+            // A capacitor that settles within a pass follows the cells (the pass's own end holds
+            // it), and one that settles over far more passes than the stretch drifts as the
+            // passes' rates already hold: nothing to book.
             return;
         };
-        let delta = first;
         let d0 = u0 - u_star;
         let d1 = (k * first.buf_ln_decay).exp() * d0;
         // The cells' extra charge and its share of the state of charge, at the pass's ratio.
         let dq = -c * (d0 - d1);
-        let per_c = if delta.ledger.charge_c > 0.0 && delta.ds > 0.0 {
-            delta.ds / delta.ledger.charge_c
+        let per_c = if first.ledger.charge_c > 0.0 && first.ds > 0.0 {
+            first.ds / first.ledger.charge_c
         } else {
             1.0 / self.q()
         };
