@@ -53,6 +53,7 @@ pub fn fit(curves: &[Curve], opts: &FitOptions) -> Result<Fit, FitError> {
     for p in &mut rows {
         p.ocv_v = p.ocv_v.max(1e-3);
     }
+    check_conditioning(curves, &rows, lowest, highest)?;
     let (Some(ocv), Some(resistance)) = (
         table(&rows, |p| p.ocv_v),
         table(&rows, |p| p.resistance_ohm),
@@ -82,6 +83,38 @@ pub fn fit(curves: &[Curve], opts: &FitOptions) -> Result<Fit, FitError> {
     note_table(&mut f, adjusted);
     note_capacities(&mut f);
     Ok(f)
+}
+
+/// An error where the fitted open-circuit voltage runs above twice the highest voltage the
+/// curves hold: the resistance and the OCV were not separated (currents too close, or voltages
+/// that do not fall with current), and the extrapolation blew up. A cell's OCV is its loaded
+/// voltage plus R I; twice the loaded voltage would mean half the voltage lost inside it at
+/// the curves' currents (common practice, no source).
+fn check_conditioning(
+    curves: &[Curve],
+    rows: &[SocPoint],
+    lowest: f64,
+    highest: f64,
+) -> Result<(), FitError> {
+    let v_max = curves
+        .iter()
+        .flat_map(|c| c.points().iter().map(|p| p.1))
+        .fold(0.0, f64::max);
+    let ocv_max = rows.iter().map(|p| p.ocv_v).fold(0.0, f64::max);
+    if ocv_max.is_finite() && ocv_max <= 2.0 * v_max {
+        return Ok(());
+    }
+    Err(FitError::new(
+        "",
+        format!(
+            "the fitted open-circuit voltage reaches {}, over twice the curves' highest voltage {}: the curves at {} to {} do not separate the resistance from the open-circuit voltage",
+            fmt_eng(ocv_max, "V"),
+            fmt_eng(v_max, "V"),
+            fmt_eng(lowest, "A"),
+            fmt_eng(highest, "A")
+        ),
+    )
+    .with_hint("give curves at currents at least 1.5 times apart whose voltages fall with current"))
 }
 
 /// The warnings on the capacity law: capacities that rise with current (a raw exponent
