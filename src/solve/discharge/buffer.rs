@@ -368,16 +368,29 @@ impl Sim<'_> {
     }
 
     /// The capacitor voltage after `dt` at `p`'s node current, the cells' mean current over
-    /// the step (from the capacitor's charge balance) and the log of the path's decay
-    /// ([`CapStep::path`]); the voltage now and `p`'s pack current without a buffer.
-    pub(super) fn cap_after(&self, p: &OperatingPoint, dt: f64) -> (f64, f64, f64) {
+    /// the step (from the capacitor's charge balance), the log of the path's decay
+    /// ([`CapStep::path`]) and, where it moves with the capacitor ([`CapStep::coupled`]), the
+    /// polarization's voltage; the voltage now and `p`'s pack current without a buffer.
+    pub(super) fn cap_after(&self, p: &OperatingPoint, dt: f64) -> (f64, f64, f64, Option<f64>) {
         match self.cap_step(p, dt) {
             Some(cs) if dt > 0.0 => {
-                let (x1, _, ln) = cs.path(self.vb, dt);
-                (x1, cs.i - cs.b.capacitance * (self.vb - x1) / dt, ln)
+                let (x1, ln, vp) = match cs.coupled(self.vb, dt) {
+                    Some((end, _, ln)) => (end[0], ln, Some(end[1])),
+                    None => {
+                        let (x1, _, ln) = cs.path(self.vb, dt);
+                        (x1, ln, None)
+                    }
+                };
+                (x1, cs.i - cs.b.capacitance * (self.vb - x1) / dt, ln, vp)
             }
-            _ => (self.vb, p.pack.current, 0.0),
+            _ => (self.vb, p.pack.current, 0.0, None),
         }
+    }
+
+    /// Whether the rate law is not linear in the instantaneous current (Peukert without a rate
+    /// window), so that a step's mean current does not stand for its charge.
+    fn rate_law_nonlinear(&self) -> bool {
+        self.c.window.is_none() && self.c.d.pack.cell().peukert() > 1.0
     }
 
     /// The rate of fall of the state of charge over a step of `dt` from `p` whose cells give
@@ -387,9 +400,8 @@ impl Sim<'_> {
     /// sub-steps from the capacitor's charge balance: the law of the mean current would
     /// understate a current that swings (the law is convex).
     pub(super) fn rate_on_path(&self, p: &OperatingPoint, i: f64, dt: f64) -> f64 {
-        let nonlinear = self.c.window.is_none() && self.c.d.pack.cell().peukert() > 1.0;
         let cs = match self.cap_step(p, dt) {
-            Some(cs) if nonlinear && dt > 0.0 && dt.is_finite() => cs,
+            Some(cs) if self.rate_law_nonlinear() && dt > 0.0 && dt.is_finite() => cs,
             _ => return self.rate(i, dt),
         };
         let c = cs.b.capacitance;
@@ -406,15 +418,6 @@ impl Sim<'_> {
         } else {
             self.rate(i, dt)
         }
-    }
-
-    /// The polarization's voltage after `dt` from `p`, and its mean over the step, where it
-    /// moves with the buffer capacitor ([`CapStep::coupled`]); `None` elsewhere (it then
-    /// follows the cells' current alone).
-    pub(super) fn pol_with_cap(&self, p: &OperatingPoint, dt: f64) -> Option<(f64, f64)> {
-        let cs = self.cap_step(p, dt)?;
-        cs.coupled(self.vb, dt)
-            .map(|(end, mean, _)| (end[1], mean[1]))
     }
 
     /// Make the mean point `m` of a step of `dt` that takes the capacitor from its voltage now
@@ -446,10 +449,16 @@ impl Sim<'_> {
     }
 
     /// The capacitor's mean voltage over a step of `dt` from `p` (the voltage now without a
-    /// buffer).
-    pub(super) fn cap_mean(&self, p: &OperatingPoint, dt: f64) -> f64 {
-        self.cap_step(p, dt)
-            .map_or(self.vb, |cs| cs.path(self.vb, dt).1)
+    /// buffer) and, where it moves with the capacitor ([`CapStep::coupled`]), the
+    /// polarization's.
+    pub(super) fn cap_mean(&self, p: &OperatingPoint, dt: f64) -> (f64, Option<f64>) {
+        let Some(cs) = self.cap_step(p, dt) else {
+            return (self.vb, None);
+        };
+        match cs.coupled(self.vb, dt) {
+            Some((_, mean, _)) => (mean[0], Some(mean[1])),
+            None => (cs.path(self.vb, dt).1, None),
+        }
     }
 
     /// The longest step from `p` that keeps the capacitor's move within the polarization's
@@ -469,8 +478,7 @@ impl Sim<'_> {
             // The allowance scales with the cells' open-circuit voltage, not the node's, which
             // a drained capacitor takes to nothing (steps would shrink to nothing with it).
             let allowed = self.c.max_dvp() * p.pack.ocv.max(p.node().0).abs() * scale;
-            let nonlinear = self.c.window.is_none() && self.c.d.pack.cell().peukert() > 1.0;
-            cs.step_limit(self.vb, dt, allowed, nonlinear)
+            cs.step_limit(self.vb, dt, allowed, self.rate_law_nonlinear())
         })
     }
 }

@@ -1002,8 +1002,8 @@ impl<'a> Sim<'a> {
         dt: f64,
     ) -> Cow<'p, OperatingPoint> {
         let (sm, mut vm) = self.mean_state(start.pack.current, rate, dt);
-        let xm = self.cap_mean(start, dt);
-        if let Some((_, v)) = self.pol_with_cap(start, dt) {
+        let (xm, v_cap) = self.cap_mean(start, dt);
+        if let Some(v) = v_cap {
             vm = v;
         }
         // A step so short that the pack barely moves: the start point is the mean point (the
@@ -1025,12 +1025,12 @@ impl<'a> Sim<'a> {
             let mut x = xm;
             for _ in 0..MEAN_POINT_BUFFER_ITER {
                 let Solution::Point(p) = &sol else { break };
-                let next = self.cap_mean(p, dt);
+                let (next, v) = self.cap_mean(p, dt);
                 if !next.is_finite() || (next - x).abs() <= 1e-9 * x.abs() {
                     break;
                 }
                 x = next;
-                let v = self.pol_with_cap(p, dt).map_or(vm, |(_, v)| v);
+                let v = v.unwrap_or(vm);
                 sol = self.solve(mode, sm, v, x);
             }
         }
@@ -1283,13 +1283,15 @@ impl<'a> Sim<'a> {
     /// cells' current over the step follows from the capacitor's path, and `pm` takes the
     /// step's totals ([`Sim::buffer_step`]).
     fn step_path(&self, pm: &mut Cow<'_, OperatingPoint>, dt: f64) -> (Held, StepEnd) {
-        let (x, i, ln) = self.cap_after(pm, dt);
+        let (x, i, ln, _) = self.cap_after(pm, dt);
         if pm.buffer.is_some() {
             self.buffer_step(pm.to_mut(), i, x, dt);
         }
         let rate = self.rate_on_path(pm, i, dt);
         let (s, mut vp) = self.evolve(i, rate, dt);
-        if let Some((v, _)) = self.pol_with_cap(pm, dt) {
+        // The polarization moved with the capacitor is taken from `pm` holding the step's
+        // totals (its cells' mean current sets the drift), as the end search's states are.
+        if let (_, _, _, Some(v)) = self.cap_after(pm, dt) {
             vp = v;
         }
         (Held { i, rate }, StepEnd { s, vp, x, ln })
@@ -1299,10 +1301,10 @@ impl<'a> Sim<'a> {
     /// polarization (moved with the capacitor where it has one) and the capacitor's path.
     fn step_end(&self, pm: &OperatingPoint, held: Held, dt: f64) -> StepEnd {
         let (s, mut vp) = self.evolve(held.i, held.rate, dt);
-        if let Some((v, _)) = self.pol_with_cap(pm, dt) {
+        let (x, _, ln, v_cap) = self.cap_after(pm, dt);
+        if let Some(v) = v_cap {
             vp = v;
         }
-        let (x, _, ln) = self.cap_after(pm, dt);
         StepEnd { s, vp, x, ln }
     }
 
