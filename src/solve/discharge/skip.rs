@@ -126,8 +126,8 @@ impl<'a> Sim<'a> {
         stop_pass: f64,
     ) -> f64 {
         // A run of few passes (to empty at the last pass's fall, or to the stop a skip found) is
-        // executed pass by pass (the innermost blocks with the reference's steps): its end falls on a pass, and one
-        // pass more or less would be more than the 0.2 % the fast solver promises. A block
+        // executed pass by pass (the innermost blocks with the reference's polarization steps):
+        // its end falls on a pass, and one pass more or less would be more than the 0.2 % the fast solver promises. A block
         // holding repeat blocks skips until a skip finds where the end falls: inside a nested
         // block, the run is counted in that block's (shorter) passes.
         // Until then the end may fall in the shortest of them.
@@ -142,9 +142,9 @@ impl<'a> Sim<'a> {
         );
         if stops_soon {
             // Where the passes hold repeat blocks, those skip on their own and the end falls on
-            // one of their passes: fine steps are for the innermost blocks.
+            // one of their passes: fine polarization steps are for the innermost blocks.
             if !steps.iter().any(|s| matches!(s, Step::Repeat { .. })) {
-                self.c.fine.set(true);
+                self.c.fine_pol.set(true);
             }
             return 0.0;
         }
