@@ -1225,7 +1225,13 @@ impl<'a> Sim<'a> {
                 continue;
             }
             (cap_dt, cap_retries) = (f64::INFINITY, 0);
-            if self.verdict(&end_sol, s1).is_some() {
+            if let Some((reason, subject)) = self.verdict(&end_sol, s1) {
+                if self.speculative && !self.trace_probe {
+                    // A pass simulated to measure rates only tells its caller that it stops
+                    // (and in which block): where within the step does not matter there.
+                    self.stop(reason, Some(mode), subject);
+                    return true;
+                }
                 if !self.speculative && !self.c.fine.get() {
                     // The end lies in this step: from here on, steps as fine as the reference's,
                     // so that the instant is found as it would be there. The step is taken again.
