@@ -701,6 +701,8 @@ struct Delta {
     /// The same two for the current the rate law sees (`Sim::i_seen`).
     seen_ln_decay: f64,
     seen_offset: f64,
+    /// The current the rate law saw at the start of the pass (NaN before the first step).
+    seen_start: f64,
     /// The same two for the buffer capacitor's voltage (`Sim::vb`) less the cells'
     /// open-circuit voltage.
     buf_ln_decay: f64,
@@ -713,6 +715,12 @@ struct Delta {
 }
 
 impl Delta {
+    /// The rate law's filtered current at the start of a pass with the same currents every
+    /// pass, b / (1 - a); NaN without a window.
+    fn seen_star(&self) -> f64 {
+        self.seen_offset / -self.seen_ln_decay.exp_m1()
+    }
+
     /// The buffer capacitor's periodic voltage less the cells' open-circuit voltage, b / (1 - a)
     /// in the lag's coordinate; `None` without a buffer or where it settles over far more
     /// passes than a stretch (a of 1 to within 1e-9).
@@ -748,6 +756,7 @@ impl Delta {
             offset: parts[2].1.offset,
             seen_ln_decay: parts[2].1.seen_ln_decay,
             seen_offset: parts[2].1.seen_offset,
+            seen_start: parts[2].1.seen_start,
             buf_ln_decay: parts[2].1.buf_ln_decay,
             buf_offset: parts[2].1.buf_offset,
             vb_star: parts[2].1.vb_star,
@@ -796,6 +805,7 @@ impl Delta {
         let seen_ln_decay = after.c.window.map_or(f64::NEG_INFINITY, |tau| -pass / tau);
         // Before the first step the filter had no value: it starts at the first step's current,
         // taken as the pass's own periodic value.
+        let seen_start = seen0;
         let seen0 = if seen0.is_nan() { after.i_seen } else { seen0 };
         let seen_offset = after.i_seen - seen_ln_decay.exp() * seen0;
         let ln_decay = after
@@ -811,6 +821,7 @@ impl Delta {
             offset: b,
             seen_ln_decay,
             seen_offset,
+            seen_start,
             buf_ln_decay,
             buf_offset,
             vb_star,

@@ -294,8 +294,8 @@ impl<'a> Sim<'a> {
     }
 
     /// The start node of a stretch after a pass that changed things by `delta`: that pass (at
-    /// -1/2), or, when its polarization was still far from periodic, the first pass run again
-    /// from the periodic value (at 1/2). Returns the node's place, in passes from the
+    /// -1/2), or, when its polarization, buffer voltage or rate-law current was still far from
+    /// periodic, the first pass run again from the periodic values (at 1/2). Returns the node's place, in passes from the
     /// stretch's start, and its changes.
     fn start_node(&self, steps: &[Step], pass: f64, delta: &Delta) -> (f64, Delta) {
         let mut x0 = -0.5;
@@ -310,11 +310,20 @@ impl<'a> Sim<'a> {
         let vb_off = self.c.d.pack.buffer.is_some()
             && delta.buf_ln_decay < -std::f64::consts::LN_2
             && (delta.vb_start - delta.vb_star).abs() > 1e-4 * delta.vb_star.abs();
-        if vp_off || vb_off {
+        // And for the current the rate law sees, where its window settles within a pass (the
+        // first pass of a run starts its filter at the first step's current).
+        let seen_off = self.c.window.is_some()
+            && delta.seen_ln_decay < -std::f64::consts::LN_2
+            && (delta.seen_start.is_nan()
+                || (delta.seen_start - delta.seen_star()).abs() > 1e-3 * delta.seen_star().abs());
+        if vp_off || vb_off || seen_off {
             let mut again = self.clone();
             again.speculative = true;
             if vp_off {
                 again.vp = delta.vp_star;
+            }
+            if seen_off {
+                again.i_seen = delta.seen_star();
             }
             if vb_off {
                 again.vb = delta.vb_star;
