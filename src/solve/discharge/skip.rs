@@ -310,12 +310,15 @@ impl<'a> Sim<'a> {
         let vb_off = self.c.d.pack.buffer.is_some()
             && delta.buf_ln_decay < -std::f64::consts::LN_2
             && (delta.vb_start - delta.vb_star).abs() > 1e-4 * delta.vb_star.abs();
-        // And for the current the rate law sees, where its window settles within a pass (the
-        // first pass of a run starts its filter at the first step's current).
+        // And for the current the rate law sees, where its window settles within a pass and the
+        // pass started far enough from its periodic value to move the pass's charge: the
+        // filter's excess lasts a window, tau / T of the pass (the first pass of a run starts
+        // its filter at the first step's current).
         let seen_off = self.c.window.is_some()
             && delta.seen_ln_decay < -std::f64::consts::LN_2
             && (delta.seen_start.is_nan()
-                || (delta.seen_start - delta.seen_star()).abs() > 1e-3 * delta.seen_star().abs());
+                || (delta.seen_start - delta.seen_star()).abs() / -delta.seen_ln_decay
+                    > 1e-4 * delta.seen_star().abs());
         if vp_off || vb_off || seen_off {
             let mut again = self.clone();
             again.speculative = true;
