@@ -337,11 +337,29 @@ impl Sim<'_> {
             _ if pol.is_some() => (pack.ocv(s0), r0),
             _ => (pack.ocv(s0) - self.vp, r0),
         };
+        let mut cs = CapStep {
+            e,
+            r,
+            i,
+            drift: 0.0,
+            pol,
+            b,
+        };
         // Where the cells' side is at the step's end, at the rate the node's current draws.
         let drift = if dt > 0.0 && dt.is_finite() {
-            // The cells' own current at `p` (the capacitor takes or gives the rest of the
-            // node's) draws the charge and drives the polarization.
-            let i_cells = p.pack.current;
+            // The cells' mean current over the step (the capacitor takes or gives the rest of
+            // the node's) draws the charge and drives the polarization: from the charge
+            // balance of the path without drift. The current of `p` itself is that of an
+            // instant, which after a change of mode holds the capacitor's recharge: over a
+            // step far longer than the capacitor's time constant it would move the cells'
+            // side by tens of millivolts that never happen.
+            let x1 = cs.path(self.vb, dt).0;
+            let i_cells = i - b.capacitance * (self.vb - x1) / dt;
+            let i_cells = if i_cells.is_finite() {
+                i_cells
+            } else {
+                p.pack.current
+            };
             let rate = self.rate(i_cells, dt);
             let s1 = (s0 - rate * dt).max(0.0);
             let (e1, r1_) = match (self.pol(), settled) {
@@ -357,14 +375,8 @@ impl Sim<'_> {
         } else {
             0.0
         };
-        Some(CapStep {
-            e,
-            r,
-            i,
-            drift,
-            pol,
-            b,
-        })
+        cs.drift = drift;
+        Some(cs)
     }
 
     /// The capacitor voltage after `dt` at `p`'s node current, the cells' mean current over

@@ -144,6 +144,11 @@ impl<'a> Sim<'a> {
             // Where the passes hold repeat blocks, those skip on their own and the end falls on
             // one of their passes: fine polarization steps are for the innermost blocks.
             if !steps.iter().any(|s| matches!(s, Step::Repeat { .. })) {
+                // With a buffer capacitor, the reference's steps throughout: a step far longer
+                // than the capacitor's time constant holds its path only approximately.
+                if self.c.d.pack.buffer.is_some() {
+                    self.c.fine.set(true);
+                }
                 self.c.fine_pol.set(true);
             }
             return 0.0;
