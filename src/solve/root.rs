@@ -55,7 +55,8 @@ pub fn settle(v_open: f64, r: f64, demand: &mut dyn FnMut(f64) -> f64) -> Settle
     let g = |v: f64, fv: f64| (v_open - v) / r - fv;
     // Fixed-point iteration on the current from the no-sag guess: for a demand that rises as the
     // voltage falls it climbs monotonically to the lowest-current balance without passing it.
-    let mut v_upper = v_open;
+    // The lowest voltage known to be above the balance, and the demand there.
+    let (mut v_upper, mut f_upper) = (v_open, f_top);
     let mut i = f_top;
     for _ in 0..FIXED_POINT_MAX_ITER {
         let v = v_open - r * i;
@@ -70,12 +71,12 @@ pub fn settle(v_open: f64, r: f64, demand: &mut dyn FnMut(f64) -> f64) -> Settle
             if up < v_upper {
                 let fu = f(up);
                 if g(up, fu) < 0.0 {
-                    return bisect(v_open, r, &mut f, v, up);
+                    return bisect(v_open, r, &mut f, (v, fv), (up, fu));
                 }
             }
-            return bisect(v_open, r, &mut f, v, v_upper);
+            return bisect(v_open, r, &mut f, (v, fv), (v_upper, f_upper));
         }
-        v_upper = v;
+        (v_upper, f_upper) = (v, fv);
         if fv - i <= FIXED_POINT_REL * fv {
             // Converged from below: a point a hair lower should already balance.
             // The line current (v_open - V) / r loses digits when r I is small next to
@@ -92,17 +93,17 @@ pub fn settle(v_open: f64, r: f64, demand: &mut dyn FnMut(f64) -> f64) -> Settle
                     if up < v_upper {
                         let fu = f(up);
                         if g(up, fu) < 0.0 {
-                            return bisect(v_open, r, &mut f, probe, up);
+                            return bisect(v_open, r, &mut f, (probe, fp), (up, fu));
                         }
                     }
-                    return bisect(v_open, r, &mut f, probe, v_upper);
+                    return bisect(v_open, r, &mut f, (probe, fp), (v_upper, f_upper));
                 }
             }
         }
         i = fv;
     }
     // Slow or no convergence (near the power limit, or a demand that falls with voltage).
-    scan_down(v_open, r, &mut f, v_upper)
+    scan_down(v_open, r, &mut f, (v_upper, f_upper))
 }
 
 /// The cases settled without a search: a source with no voltage (a point at 0 V when nothing
@@ -142,25 +143,39 @@ fn settled_at_once(v_open: f64, r: f64, f: &mut dyn FnMut(f64) -> f64) -> Result
     Ok(f_top)
 }
 
-/// Scan down from `v_upper`, a voltage known to be above the balance, in [`SCAN_STEPS`] steps,
-/// and bisect the first step that crosses it; a collapse when none does.
-fn scan_down(v_open: f64, r: f64, f: &mut dyn FnMut(f64) -> f64, v_upper: f64) -> Settle {
+/// Scan down from `v_upper`, a voltage known to be above the balance (with the demand there),
+/// in [`SCAN_STEPS`] steps, and bisect the first step that crosses it; a collapse when none
+/// does.
+fn scan_down(
+    v_open: f64,
+    r: f64,
+    f: &mut dyn FnMut(f64) -> f64,
+    (v_upper, f_upper): (f64, f64),
+) -> Settle {
     let g = |v: f64, fv: f64| (v_open - v) / r - fv;
     let step = v_upper / SCAN_STEPS as f64;
-    let mut prev = v_upper;
+    let mut prev = (v_upper, f_upper);
     for j in 1..SCAN_STEPS {
         let v = v_upper - step * j as f64;
         let fv = f(v);
         if g(v, fv) >= 0.0 {
-            return bisect(v_open, r, f, v, prev);
+            return bisect(v_open, r, f, (v, fv), prev);
         }
-        prev = v;
+        prev = (v, fv);
     }
     Settle::Collapse
 }
 
-/// Narrow [lo, hi] (g(lo) >= 0 > g(hi)) to a hair and weigh the two ends.
-fn bisect(v_open: f64, r: f64, f: &mut dyn FnMut(f64) -> f64, mut lo: f64, mut hi: f64) -> Settle {
+/// Narrow [lo, hi] (g(lo) >= 0 > g(hi)) to a hair and weigh the two ends. Each end comes with
+/// the demand there (the demand is a function of the voltage alone: the values already found
+/// are not asked for again).
+fn bisect(
+    v_open: f64,
+    r: f64,
+    f: &mut dyn FnMut(f64) -> f64,
+    (mut lo, mut fb): (f64, f64),
+    (mut hi, mut fa): (f64, f64),
+) -> Settle {
     for _ in 0..BISECT_MAX_ITER {
         if hi - lo <= BISECT_REL * hi {
             break;
@@ -168,12 +183,11 @@ fn bisect(v_open: f64, r: f64, f: &mut dyn FnMut(f64) -> f64, mut lo: f64, mut h
         let mid = 0.5 * (lo + hi);
         let fm = f(mid);
         if (v_open - mid) / r - fm >= 0.0 {
-            lo = mid;
+            (lo, fb) = (mid, fm);
         } else {
-            hi = mid;
+            (hi, fa) = (mid, fm);
         }
     }
-    let (fa, fb) = (f(hi), f(lo));
     let target = (v_open - 0.5 * (hi + lo)) / r;
     let alpha = if fa.is_finite() && fa - fb > f64::EPSILON * fa.abs().max(1e-300) {
         ((target - fb) / (fa - fb)).clamp(0.0, 1.0)
