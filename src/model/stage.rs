@@ -172,13 +172,20 @@ impl LossMemo {
     }
 
     /// The loss per watt out of curve `k` of `curves` at the current the memo is for.
+    #[inline]
     fn per_w(&mut self, curves: &[(Option<f64>, EffCurve)], k: usize) -> f64 {
-        let slot = &mut self.slots[k % 2];
-        if let Some((kept, per_w)) = *slot {
+        if let Some((kept, per_w)) = self.slots[k % 2] {
             if kept == k {
                 return per_w;
             }
         }
+        self.read(curves, k)
+    }
+
+    /// [`LossMemo::per_w`] where the memo does not hold curve `k`: the curve read and kept.
+    #[cold]
+    #[inline(never)]
+    fn read(&mut self, curves: &[(Option<f64>, EffCurve)], k: usize) -> f64 {
         let log_iout = *self
             .log_iout
             .get_or_insert_with(|| f64::from_bits(self.iout).log10());
