@@ -2,7 +2,7 @@
 //! every stage and load. Voltages flow down the tree and currents up; the pack current is
 //! settled by a bracketed search ([`settle`]), and so is the output of every load switch.
 
-use std::cell::Cell;
+use std::cell::{Cell, RefCell};
 
 use super::root::{Settle, settle};
 use crate::model::{Design, LossMemo, LossModel, Mode, Stage, StageKind};
@@ -284,6 +284,22 @@ pub fn solve_point_buffered(
     at: PackState,
     v_cap: Option<f64>,
 ) -> Solution {
+    // The buffers are kept per thread between points (a discharge solves thousands); a solve
+    // inside a solve, should there ever be one, works in buffers of its own.
+    SCRATCH.with(|cell| match cell.try_borrow_mut() {
+        Ok(mut scratch) => solve_in(design, mode, at, v_cap, &mut scratch),
+        Err(_) => solve_in(design, mode, at, v_cap, &mut Scratch::default()),
+    })
+}
+
+/// [`solve_point_buffered`] in the buffers `scratch`.
+fn solve_in(
+    design: &Design,
+    mode: usize,
+    at: PackState,
+    v_cap: Option<f64>,
+    scratch: &mut Scratch,
+) -> Solution {
     let pack = &design.pack;
     let (ocv, v_open, r) = pack_source(design, at);
     let leak = pack.buffer.map_or(0.0, |b| b.leakage);
@@ -295,11 +311,9 @@ pub fn solve_point_buffered(
         leak,
         limit: b.current_limit,
     });
-    // The buffers are kept per thread between points (a discharge solves thousands).
-    let mut scratch = SCRATCH.take();
     // Empty until a stage is locked out (most points have none): `Walker::is_locked`.
     let mut locked: Vec<bool> = Vec::new();
-    let solution = loop {
+    loop {
         scratch.forget(design.tree.rails());
         let walker = Walker {
             d: design,
@@ -314,7 +328,7 @@ pub fn solve_point_buffered(
             v_a, v_b, alpha, ..
         } = s
         else {
-            break Solution::Collapse {
+            return Solution::Collapse {
                 ocv,
                 resistance: source.1,
             };
@@ -326,15 +340,13 @@ pub fn solve_point_buffered(
         }
         let newly = lockouts(design, &walker, &point);
         if newly.is_empty() {
-            break Solution::Point(point);
+            return Solution::Point(point);
         }
         locked.resize(design.stages.len(), false);
         for k in newly {
             locked[k] = true;
         }
-    };
-    SCRATCH.set(scratch);
-    solution
+    }
 }
 
 /// The pack of `design` as a source at state `at`: its open-circuit voltage, and the
@@ -470,10 +482,10 @@ fn lockouts(design: &Design, walker: &Walker, p: &OperatingPoint) -> Vec<usize> 
 }
 
 thread_local! {
-    /// Scratch buffers for [`solve_point`], reused from point to point on a thread (taken out
+    /// Scratch buffers for [`solve_point`], reused from point to point on a thread (borrowed
     /// while in use, so a nested solve would only allocate afresh).
-    static SCRATCH: Cell<Scratch> = const {
-        Cell::new(Scratch {
+    static SCRATCH: RefCell<Scratch> = const {
+        RefCell::new(Scratch {
             rec_a: Vec::new(),
             rec_b: Vec::new(),
             memo: Vec::new(),
