@@ -23,7 +23,7 @@ pub use load::{Captured, Draw, Load};
 pub use mode::{Mode, RepeatUntil, Step, longest_holds};
 pub use pack::{Buffer, Pack};
 pub use presets::{Nominal, PRESETS, Preset};
-pub use stage::{EffCurve, LossModel, Stage, StageKind};
+pub use stage::{EffCurve, LossMemo, LossModel, Stage, StageKind};
 pub use table::{Table, TableError};
 pub use tolerance::{Dist, Knob, Range, Tolerance};
 

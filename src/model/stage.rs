@@ -103,12 +103,95 @@ impl EffCurve {
     /// [`EffCurve::loss`] with log10(`iout`) already taken (`log_iout` is only read when `iout`
     /// is at or above the lowest tabulated current): several curves at one point share it.
     fn loss_at_log(&self, vin: f64, vout: f64, iout: f64, log_iout: f64, q: f64) -> f64 {
+        self.loss_with(vin, vout, iout, q, || self.loss_per_w_at_log(log_iout))
+    }
+
+    /// The loss per watt out, 1/eta - 1, at log10 of the output current.
+    fn loss_per_w_at_log(&self, log_iout: f64) -> f64 {
+        1.0 / self.eta_vs_log_i.at(log_iout) - 1.0
+    }
+
+    /// [`EffCurve::loss`] with the loss per watt out at `iout` given by `per_w` (only asked for
+    /// at or above the lowest tabulated current, where the curve is read).
+    fn loss_with(
+        &self,
+        vin: f64,
+        vout: f64,
+        iout: f64,
+        q: f64,
+        per_w: impl FnOnce() -> f64,
+    ) -> f64 {
         if iout >= self.i_lo {
-            vout * iout * (1.0 / self.eta_vs_log_i.at(log_iout) - 1.0)
+            vout * iout * per_w()
         } else {
             let floor = vin * q;
             floor + (vout * self.i_lo * self.loss_per_w_lo - floor) * iout / self.i_lo
         }
+    }
+}
+
+/// What a stage's efficiency curves gave at one output current, kept from one loss to the
+/// next ([`LossModel::loss_memo`]). While the pack's voltage is searched, a converter's input
+/// voltage changes from call to call but its output current often does not; the curves are
+/// read (a logarithm and a table lookup each) only when it does. The loss is the same, bit for
+/// bit, as [`LossModel::loss`] gives.
+#[derive(Debug, Clone, Copy)]
+pub struct LossMemo {
+    /// The output current (its bits) the entries are for.
+    iout: u64,
+    /// log10 of that current, once taken.
+    log_iout: Option<f64>,
+    /// Two curves, by index, with their loss per watt out at that current: curve `k` is kept
+    /// in slot `k % 2`, so the two curves an input voltage falls between never evict each
+    /// other.
+    slots: [Option<(usize, f64)>; 2],
+}
+
+impl Default for LossMemo {
+    fn default() -> Self {
+        Self::EMPTY
+    }
+}
+
+impl LossMemo {
+    /// A memo that holds nothing.
+    pub const EMPTY: Self = Self {
+        iout: 0,
+        log_iout: None,
+        slots: [None, None],
+    };
+
+    /// Forget the entries unless they are for output current `iout`.
+    fn renew(&mut self, iout: f64) {
+        if self.iout != iout.to_bits() {
+            *self = Self {
+                iout: iout.to_bits(),
+                ..Self::EMPTY
+            };
+        }
+    }
+
+    /// The loss per watt out of curve `k` of `curves` at the current the memo is for.
+    #[inline]
+    fn per_w(&mut self, curves: &[(Option<f64>, EffCurve)], k: usize) -> f64 {
+        if let Some((kept, per_w)) = self.slots[k % 2] {
+            if kept == k {
+                return per_w;
+            }
+        }
+        self.read(curves, k)
+    }
+
+    /// [`LossMemo::per_w`] where the memo does not hold curve `k`: the curve read and kept.
+    #[cold]
+    #[inline(never)]
+    fn read(&mut self, curves: &[(Option<f64>, EffCurve)], k: usize) -> f64 {
+        let log_iout = *self
+            .log_iout
+            .get_or_insert_with(|| f64::from_bits(self.iout).log10());
+        let per_w = curves[k].1.loss_per_w_at_log(log_iout);
+        self.slots[k % 2] = Some((k, per_w));
+        per_w
     }
 }
 
@@ -147,8 +230,26 @@ impl LossModel {
             LossModel::Terms { drop, resistance } => {
                 vin * q + drop * iout + resistance * iout * iout
             }
-            LossModel::Curves(curves) => curves_loss(curves, vin, vout, iout, q),
+            LossModel::Curves(curves) => {
+                // One logarithm for every curve (the costliest part of a lookup).
+                let lg = iout.log10();
+                curves_loss(curves, vin, vout, iout, q, |k| {
+                    curves[k].1.loss_per_w_at_log(lg)
+                })
+            }
             LossModel::None => 0.0,
+        }
+    }
+
+    /// [`LossModel::loss`], the curves read through `memo` (kept by the caller for this model
+    /// alone: a memo filled by another model gives wrong answers).
+    pub fn loss_memo(&self, vin: f64, vout: f64, iout: f64, q: f64, memo: &mut LossMemo) -> f64 {
+        match self {
+            LossModel::Curves(curves) => {
+                memo.renew(iout);
+                curves_loss(curves, vin, vout, iout, q, |k| memo.per_w(curves, k))
+            }
+            _ => self.loss(vin, vout, iout, q),
         }
     }
 
@@ -161,31 +262,36 @@ impl LossModel {
     }
 }
 
-/// Between curves the loss is linear in Vin; outside them, the nearest curve.
-fn curves_loss(curves: &[(Option<f64>, EffCurve)], vin: f64, vout: f64, iout: f64, q: f64) -> f64 {
-    let first = &curves[0];
-    let last = &curves[curves.len() - 1];
-    // One logarithm for every curve (the costliest part of a lookup).
-    let lg = iout.log10();
-    let (Some(v_first), Some(v_last)) = (first.0, last.0) else {
-        return first.1.loss_at_log(vin, vout, iout, lg, q);
+/// Between curves the loss is linear in Vin; outside them, the nearest curve. `per_w(k)` is
+/// the loss per watt out of curve `k` at `iout`.
+fn curves_loss(
+    curves: &[(Option<f64>, EffCurve)],
+    vin: f64,
+    vout: f64,
+    iout: f64,
+    q: f64,
+    mut per_w: impl FnMut(usize) -> f64,
+) -> f64 {
+    let n = curves.len();
+    let mut loss = |k: usize| curves[k].1.loss_with(vin, vout, iout, q, || per_w(k));
+    let (Some(v_first), Some(v_last)) = (curves[0].0, curves[n - 1].0) else {
+        return loss(0);
     };
     if vin <= v_first {
-        return first.1.loss_at_log(vin, vout, iout, lg, q);
+        return loss(0);
     }
     if vin >= v_last {
-        return last.1.loss_at_log(vin, vout, iout, lg, q);
+        return loss(n - 1);
     }
     let k = curves
         .iter()
         .position(|(v, _)| v.is_some_and(|v| v > vin))
-        .unwrap_or(curves.len() - 1)
+        .unwrap_or(n - 1)
         .max(1);
-    let (va, ca) = (&curves[k - 1].0, &curves[k - 1].1);
-    let (vb, cb) = (&curves[k].0, &curves[k].1);
-    let (va, vb) = (va.unwrap_or(vin), vb.unwrap_or(vin));
-    let la = ca.loss_at_log(vin, vout, iout, lg, q);
-    let lb = cb.loss_at_log(vin, vout, iout, lg, q);
+    let va = curves[k - 1].0.unwrap_or(vin);
+    let vb = curves[k].0.unwrap_or(vin);
+    let la = loss(k - 1);
+    let lb = loss(k);
     la + (lb - la) * (vin - va) / (vb - va)
 }
 
@@ -267,11 +373,17 @@ impl Stage {
     /// assert!((st.regulating_loss(1.2, 3.3, 0.0) - 3.3 * 5e-6 / 0.85).abs() < 1e-15);
     /// ```
     pub fn regulating_loss(&self, vin: f64, vout: f64, iout: f64) -> f64 {
+        self.regulating_loss_memo(vin, vout, iout, &mut LossMemo::default())
+    }
+
+    /// [`Stage::regulating_loss`], the curves read through `memo` (kept by the caller for this
+    /// stage alone; see [`LossModel::loss_memo`]).
+    pub fn regulating_loss_memo(&self, vin: f64, vout: f64, iout: f64, memo: &mut LossMemo) -> f64 {
         if self.quiescent_from_output {
             let q = self.quiescent;
-            vout * q + self.loss.loss(vin, vout, iout + q, 0.0)
+            vout * q + self.loss.loss_memo(vin, vout, iout + q, 0.0, memo)
         } else {
-            self.loss.loss(vin, vout, iout, self.quiescent)
+            self.loss.loss_memo(vin, vout, iout, self.quiescent, memo)
         }
     }
 }

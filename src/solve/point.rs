@@ -2,10 +2,10 @@
 //! every stage and load. Voltages flow down the tree and currents up; the pack current is
 //! settled by a bracketed search ([`settle`]), and so is the output of every load switch.
 
-use std::cell::Cell;
+use std::cell::{Cell, RefCell};
 
 use super::root::{Settle, settle};
-use crate::model::{Design, Mode, Stage, StageKind};
+use crate::model::{Design, LossMemo, LossModel, Mode, Stage, StageKind};
 
 /// The regulation state of a stage at an operating point.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -284,6 +284,22 @@ pub fn solve_point_buffered(
     at: PackState,
     v_cap: Option<f64>,
 ) -> Solution {
+    // The buffers are kept per thread between points (a discharge solves thousands); a solve
+    // inside a solve, should there ever be one, works in buffers of its own.
+    SCRATCH.with(|cell| match cell.try_borrow_mut() {
+        Ok(mut scratch) => solve_in(design, mode, at, v_cap, &mut scratch),
+        Err(_) => solve_in(design, mode, at, v_cap, &mut Scratch::default()),
+    })
+}
+
+/// [`solve_point_buffered`] in the buffers `scratch`.
+fn solve_in(
+    design: &Design,
+    mode: usize,
+    at: PackState,
+    v_cap: Option<f64>,
+    scratch: &mut Scratch,
+) -> Solution {
     let pack = &design.pack;
     let (ocv, v_open, r) = pack_source(design, at);
     let leak = pack.buffer.map_or(0.0, |b| b.leakage);
@@ -298,12 +314,15 @@ pub fn solve_point_buffered(
     // Empty until a stage is locked out (most points have none): `Walker::is_locked`.
     let mut locked: Vec<bool> = Vec::new();
     loop {
+        scratch.forget(design.tree.rails());
         let walker = Walker {
             d: design,
             mode: &design.modes[mode],
             locked: &locked,
+            memo: &scratch.memo,
+            losses: &scratch.losses,
         };
-        let mut demand = |v: f64| walker.rail_current(0, v, None) + leak;
+        let mut demand = |v: f64| walker.current(0, v) + leak;
         let (s, regime, source) = settle_node(split.as_ref(), v_open, r, &mut demand);
         let Settle::Point {
             v_a, v_b, alpha, ..
@@ -314,7 +333,8 @@ pub fn solve_point_buffered(
                 resistance: source.1,
             };
         };
-        let mut point = point_between(&walker, mode, ocv, (v_a, v_b, alpha), leak);
+        let records = (&mut scratch.rec_a, &mut scratch.rec_b);
+        let mut point = point_between(&walker, mode, ocv, (v_a, v_b, alpha), leak, records);
         if let Some(sp) = &split {
             buffered(&mut point, sp, regime);
         }
@@ -386,23 +406,20 @@ fn point_between(
     ocv: f64,
     (v_a, v_b, alpha): (f64, f64, f64),
     leak: f64,
+    (rec_a, rec_b): (&mut Vec<Rec>, &mut Vec<Rec>),
 ) -> OperatingPoint {
     let design = walker.d;
     let size = design.stages.len() + design.loads.len();
-    // The record buffers are kept per thread between points (a discharge solves thousands).
-    let (mut rec_a, mut rec_b) = RECORDS.take();
     rec_a.clear();
     rec_b.clear();
     rec_a.reserve(size);
     rec_b.reserve(size);
-    let ia = walker.rail_current(0, v_a, Some(&mut rec_a));
-    let ib = walker.rail_current(0, v_b, Some(&mut rec_b));
-    blend(&mut rec_a, &rec_b, alpha);
+    let ia = walker.rail_current(0, v_a, Some(rec_a));
+    let ib = walker.rail_current(0, v_b, Some(rec_b));
+    blend(rec_a, rec_b, alpha);
     let current = alpha * ia + (1.0 - alpha) * ib + leak;
     let voltage = alpha * v_a + (1.0 - alpha) * v_b;
-    let point = assemble(design, mode, ocv, voltage, current, &rec_a);
-    RECORDS.set((rec_a, rec_b));
-    point
+    assemble(design, mode, ocv, voltage, current, rec_a)
 }
 
 /// Split the node's current of `p` between the cells and the capacitor in `regime`: the pack
@@ -465,9 +482,38 @@ fn lockouts(design: &Design, walker: &Walker, p: &OperatingPoint) -> Vec<usize> 
 }
 
 thread_local! {
-    /// Scratch record buffers for [`solve_point`], reused from point to point on a thread
-    /// (taken out while in use, so a nested solve would only allocate afresh).
-    static RECORDS: Cell<(Vec<Rec>, Vec<Rec>)> = const { Cell::new((Vec::new(), Vec::new())) };
+    /// Scratch buffers for [`solve_point`], reused from point to point on a thread (borrowed
+    /// while in use, so a nested solve would only allocate afresh).
+    static SCRATCH: RefCell<Scratch> = const {
+        RefCell::new(Scratch {
+            rec_a: Vec::new(),
+            rec_b: Vec::new(),
+            memo: Vec::new(),
+            losses: Vec::new(),
+        })
+    };
+}
+
+/// The buffers one solve works in: the records of the two walks a point is blended from, and
+/// the memos of rail currents ([`Walker::memo`]) and stage losses ([`Walker::losses`]).
+#[derive(Default)]
+struct Scratch {
+    rec_a: Vec<Rec>,
+    rec_b: Vec<Rec>,
+    memo: Vec<Cell<Option<(u64, f64)>>>,
+    losses: Vec<Cell<LossMemo>>,
+}
+
+impl Scratch {
+    /// Empty the memos for a new walker over `rails` rails (a new mode, design or set of
+    /// locked-out stages changes what every rail draws; the stages are one fewer than the
+    /// rails).
+    fn forget(&mut self, rails: usize) {
+        self.memo.clear();
+        self.memo.resize(rails, Cell::new(None));
+        self.losses.clear();
+        self.losses.resize(rails - 1, Cell::new(LossMemo::EMPTY));
+    }
 }
 
 #[derive(Debug, Clone, Copy)]
@@ -570,6 +616,15 @@ struct Walker<'a> {
     mode: &'a Mode,
     /// Stages locked out, by index (empty: none).
     locked: &'a [bool],
+    /// Per rail, the last voltage (its bits) it was walked at without recording, and the
+    /// current found. While the pack's voltage is searched, a regulator's output rail is asked
+    /// for its current at the same setpoint again and again: the memo answers without walking
+    /// its subtree again (the walk is a pure function of the rail and the voltage for one
+    /// walker, so the answer is the same, bit for bit).
+    memo: &'a [Cell<Option<(u64, f64)>>],
+    /// Per stage, what its efficiency curves gave at the output current last asked for (the
+    /// same current again and again while the pack's voltage is searched).
+    losses: &'a [Cell<LossMemo>],
 }
 
 impl Walker<'_> {
@@ -578,19 +633,68 @@ impl Walker<'_> {
         self.locked.get(k).copied().unwrap_or(false)
     }
 
-    /// Current drawn from `rail` at voltage `v` by everything on it.
-    fn rail_current(&self, rail: usize, v: f64, mut rec: Option<&mut Vec<Rec>>) -> f64 {
-        let mut total = 0.0;
-        if rec.is_none() {
-            // The hot path: only the sum, from this mode's draws on the rail.
-            for d in &self.mode.rail_draws[rail] {
-                total += d.current(v);
-            }
-            for &k in self.d.tree.stages_on(rail) {
-                total += self.stage_input(k, v, None);
-            }
-            return total;
+    /// [`Stage::regulating_loss`] of stage `k`, its efficiency curves read through its memo.
+    fn regulating_loss(&self, k: usize, vin: f64, vout: f64, iout: f64) -> f64 {
+        let st = &self.d.stages[k];
+        if !matches!(st.loss, LossModel::Curves(_)) {
+            return st.regulating_loss(vin, vout, iout);
         }
+        let mut memo = self.losses[k].get();
+        let loss = st.regulating_loss_memo(vin, vout, iout, &mut memo);
+        self.losses[k].set(memo);
+        loss
+    }
+
+    /// Current drawn from `rail` at voltage `v` by everything on it, recording every stage and
+    /// load on the way into `rec` when given.
+    fn rail_current(&self, rail: usize, v: f64, rec: Option<&mut Vec<Rec>>) -> f64 {
+        match rec {
+            None => self.current(rail, v),
+            Some(r) => self.record_rail(rail, v, r),
+        }
+    }
+
+    /// Current drawn from `rail` at voltage `v`, without recording: the hot path of the
+    /// search, answered from the memo where the rail was just asked the same.
+    #[inline]
+    fn current(&self, rail: usize, v: f64) -> f64 {
+        let key = v.to_bits();
+        if let Some((k, i)) = self.memo[rail].get() {
+            if k == key {
+                return i;
+            }
+        }
+        let i = self.walk(rail, v);
+        self.memo[rail].set(Some((key, i)));
+        i
+    }
+
+    /// [`Walker::current`] walked: the sum of this mode's draws on the rail and the input
+    /// currents of the stages it feeds.
+    #[inline(never)]
+    fn walk(&self, rail: usize, v: f64) -> f64 {
+        let mut total = 0.0;
+        for d in &self.mode.rail_draws[rail] {
+            total += d.current(v);
+        }
+        for &k in self.d.tree.stages_on(rail) {
+            total += self.stage_current(k, v);
+        }
+        total
+    }
+
+    /// Input current of stage `k` at input voltage `vin`, without recording.
+    fn stage_current(&self, k: usize, vin: f64) -> f64 {
+        if !self.mode.stage_on[k] || self.is_locked(k) {
+            return self.d.stages[k].shutdown;
+        }
+        let (state, vout) = self.stage_state(k, vin);
+        self.stage_figures(k, vin, state, vout, None).2
+    }
+
+    /// [`Walker::rail_current`], recording into `rec`.
+    fn record_rail(&self, rail: usize, v: f64, rec: &mut Vec<Rec>) -> f64 {
+        let mut total = 0.0;
         for &l in self.d.tree.loads_on(rail) {
             let state = self.mode.load_states[l];
             let (i, p) = match state {
@@ -602,21 +706,19 @@ impl Walker<'_> {
                 None => (0.0, 0.0),
             };
             total += i;
-            if let Some(r) = rec.as_deref_mut() {
-                r.push(Rec::Load(
-                    l,
-                    LoadPoint {
-                        state,
-                        live: true,
-                        voltage: v,
-                        current: i,
-                        power: p,
-                    },
-                ));
-            }
+            rec.push(Rec::Load(
+                l,
+                LoadPoint {
+                    state,
+                    live: true,
+                    voltage: v,
+                    current: i,
+                    power: p,
+                },
+            ));
         }
         for &k in self.d.tree.stages_on(rail) {
-            total += self.stage_input(k, v, rec.as_deref_mut());
+            total += self.record_stage(k, v, rec);
         }
         total
     }
@@ -651,46 +753,29 @@ impl Walker<'_> {
         }
     }
 
-    /// Input current of stage `k` at input voltage `vin`.
-    fn stage_input(&self, k: usize, vin: f64, rec: Option<&mut Vec<Rec>>) -> f64 {
+    /// Input current of stage `k` at input voltage `vin`, recording it and its subtree into
+    /// `r`.
+    fn record_stage(&self, k: usize, vin: f64, r: &mut Vec<Rec>) -> f64 {
         let st = &self.d.stages[k];
         if !self.mode.stage_on[k] || self.is_locked(k) {
-            if let Some(r) = rec {
-                self.record_off(k, vin, r);
-            }
+            self.record_off(k, vin, r);
             return st.shutdown;
         }
         let (state, vout) = self.stage_state(k, vin);
         // Record the stage before its subtree; its figures are filled in after the walk below.
-        let slot = rec.as_ref().map(|r| r.len());
-        let mut rec = rec;
-        if let Some(r) = rec.as_deref_mut() {
-            r.push(Rec::Stage(
-                k,
-                StagePoint {
-                    state,
-                    vin,
-                    iin: 0.0,
-                    vout,
-                    iout: 0.0,
-                    loss: 0.0,
-                },
-            ));
-        }
-        let (vout, iout, iin, loss) = self.stage_figures(k, vin, state, vout, rec.as_deref_mut());
-        if let (Some(r), Some(slot)) = (rec, slot) {
-            r[slot] = Rec::Stage(
-                k,
-                StagePoint {
-                    state,
-                    vin,
-                    iin,
-                    vout,
-                    iout,
-                    loss,
-                },
-            );
-        }
+        let slot = r.len();
+        let mut point = StagePoint {
+            state,
+            vin,
+            iin: 0.0,
+            vout,
+            iout: 0.0,
+            loss: 0.0,
+        };
+        r.push(Rec::Stage(k, point));
+        let (vout, iout, iin, loss) = self.stage_figures(k, vin, state, vout, Some(r));
+        (point.vout, point.iout, point.iin, point.loss) = (vout, iout, iin, loss);
+        r[slot] = Rec::Stage(k, point);
         iin
     }
 
@@ -720,6 +805,7 @@ impl Walker<'_> {
     /// The state and output voltage of running stage `k` at input `vin`: from the input alone,
     /// then limited where a switching stage's input current limit holds it below its setpoint,
     /// and regulating where a boost's resistive bypass would sag below the setpoint.
+    #[inline]
     fn stage_state(&self, k: usize, vin: f64) -> (StageState, f64) {
         let st = &self.d.stages[k];
         let (mut state, mut vout) = state_and_output(st, vin);
@@ -733,9 +819,7 @@ impl Walker<'_> {
         if state == StageState::Bypass && st.bypass_resistance > 0.0 {
             // A synchronous pass-through sags with its current: the boost stays in bypass only
             // while the settled output is at or above the setpoint, and regulates below it.
-            let v_pass = match settle(vout, st.bypass_resistance, &mut |v| {
-                self.rail_current(k + 1, v, None)
-            }) {
+            let v_pass = match settle(vout, st.bypass_resistance, &mut |v| self.current(k + 1, v)) {
                 Settle::Point {
                     v_a, v_b, alpha, ..
                 } => alpha * v_a + (1.0 - alpha) * v_b,
@@ -751,6 +835,7 @@ impl Walker<'_> {
     /// The figures of running stage `k` in `state` at input `vin` and output `vout`, walking
     /// its subtree (recorded into `rec`): the output voltage as settled, output current, input
     /// current and loss.
+    #[inline]
     fn stage_figures(
         &self,
         k: usize,
@@ -791,7 +876,7 @@ impl Walker<'_> {
             }
             _ => {
                 let iout = self.rail_current(out, vout, rec);
-                let loss = st.regulating_loss(vin, vout, iout);
+                let loss = self.regulating_loss(k, vin, vout, iout);
                 let pin = vout * iout + loss;
                 let iin = if vin > 0.0 {
                     pin / vin
@@ -815,8 +900,8 @@ impl Walker<'_> {
         let st = &self.d.stages[k];
         let out = k + 1;
         let excess = |v: f64| {
-            let iout = self.rail_current(out, v, None);
-            v * iout + st.regulating_loss(vin, v, iout) - vin * limit
+            let iout = self.current(out, v);
+            v * iout + self.regulating_loss(k, vin, v, iout) - vin * limit
         };
         if vin.is_nan() || vin <= 0.0 || excess(st.setpoint) <= 0.0 {
             return None;
@@ -847,7 +932,7 @@ impl Walker<'_> {
     /// settled like the pack.
     fn pass_output(&self, k: usize, vin: f64, r: f64, rec: Option<&mut Vec<Rec>>) -> (f64, f64) {
         let out = k + 1;
-        let s = settle(vin, r, &mut |v| self.rail_current(out, v, None));
+        let s = settle(vin, r, &mut |v| self.current(out, v));
         let Settle::Point {
             v_a,
             v_b,
