@@ -640,6 +640,9 @@ struct Sim<'a> {
     /// The pack current as the rate law sees it: filtered over the cell's rate window, from
     /// the current of the run's first step (NaN before it; unused without a window).
     i_seen: f64,
+    /// The current of the run's first step, where the filter started (NaN before it): the
+    /// first pass's lag starts there.
+    seen_first: f64,
     /// The buffer capacitor's voltage (0 without a buffer).
     vb: f64,
     /// The log of how much a change of the capacitor's voltage at the start of the current pass
@@ -803,10 +806,14 @@ impl Delta {
             after.vb
         };
         let seen_ln_decay = after.c.window.map_or(f64::NEG_INFINITY, |tau| -pass / tau);
-        // Before the first step the filter had no value: it starts at the first step's current,
-        // taken as the pass's own periodic value.
+        // Before the first step the filter had no value: it starts at the first step's current
+        // (`Sim::seen_first`).
         let seen_start = seen0;
-        let seen0 = if seen0.is_nan() { after.i_seen } else { seen0 };
+        let seen0 = match (seen0.is_nan(), after.seen_first.is_nan()) {
+            (false, _) => seen0,
+            (true, false) => after.seen_first,
+            (true, true) => after.i_seen,
+        };
         let seen_offset = after.i_seen - seen_ln_decay.exp() * seen0;
         let ln_decay = after
             .c
@@ -845,6 +852,7 @@ impl<'a> Sim<'a> {
             s: Sum2::new(d.pack.start_soc),
             vp: 0.0,
             i_seen: f64::NAN,
+            seen_first: f64::NAN,
             // The capacitor starts charged to the cells' open-circuit voltage.
             vb: if d.pack.buffer.is_some() {
                 d.pack.ocv(d.pack.start_soc)
@@ -1343,6 +1351,9 @@ impl<'a> Sim<'a> {
         self.vp = end.vp;
         self.vb = end.x;
         self.vb_ln += end.ln;
+        if self.i_seen.is_nan() {
+            self.seen_first = held.i;
+        }
         self.i_seen = self.seen_after(held.i, dt);
     }
 

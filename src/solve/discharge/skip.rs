@@ -8,9 +8,31 @@
 
 #[allow(clippy::wildcard_imports)]
 use super::*;
-use crate::solve::numerics::{SKIP_LINEAR_REL, SKIP_MIN_RUN_PASSES, SKIP_NOISE_REL, SKIP_REL_ERR};
+use crate::solve::numerics::{
+    SKIP_BUFFER_LINEAR_REL, SKIP_BUFFER_REL_ERR, SKIP_LINEAR_REL, SKIP_MIN_PASSES_OPEN,
+    SKIP_MIN_RUN_PASSES, SKIP_NOISE_REL, SKIP_REL_ERR,
+};
 
 impl<'a> Sim<'a> {
+    /// The bend a stretch may have ([`SKIP_REL_ERR`]; tighter with a buffer capacitor).
+    fn rel_err(&self) -> f64 {
+        if self.c.d.pack.buffer.is_some() {
+            SKIP_BUFFER_REL_ERR
+        } else {
+            SKIP_REL_ERR
+        }
+    }
+
+    /// The difference of two nodes' falls under which a stretch is taken along their line
+    /// ([`SKIP_LINEAR_REL`]; tighter with a buffer capacitor).
+    fn linear_rel(&self) -> f64 {
+        if self.c.d.pack.buffer.is_some() {
+            SKIP_BUFFER_LINEAR_REL
+        } else {
+            SKIP_LINEAR_REL
+        }
+    }
+
     /// Advance `k` passes of length `pass` at the rates of `delta`.
     pub(super) fn advance(&mut self, k: f64, pass: f64, delta: &Delta) {
         let ocv_before = if self.c.d.pack.buffer.is_some() {
@@ -172,8 +194,9 @@ impl<'a> Sim<'a> {
             .min(to_horizon)
             .min(remaining - 1.0)
             .min(stop_within.unwrap_or(f64::INFINITY));
-        if k.is_finite() && k > 0.0 {
-            k.floor()
+        let k = k.floor();
+        if k.is_finite() && (k >= SKIP_MIN_PASSES_OPEN || (k > 0.0 && k >= remaining - 1.0)) {
+            k
         } else {
             0.0
         }
@@ -271,7 +294,8 @@ impl<'a> Sim<'a> {
         (stop_within, stop_pass): (&mut Option<f64>, &mut f64),
         linear: &mut bool,
     ) -> Option<(f64, Delta)> {
-        let min = SKIP_MIN_PASSES as f64;
+        // A stretch of two finishes its block (`plan_skip`); halved ones stop at three.
+        let min = SKIP_MIN_PASSES_OPEN.min(k);
         let (x0, first) = self.start_node(steps, pass, delta);
         let st = Stretch {
             steps,
@@ -283,6 +307,7 @@ impl<'a> Sim<'a> {
             within: stop_within,
             pass: stop_pass,
         };
+        let mut spare = None;
         if *linear && k >= min && !self.c.failed() {
             match self.two_nodes(&st, k, &mut stop, linear) {
                 Try::Done(r) => return *r,
@@ -290,7 +315,7 @@ impl<'a> Sim<'a> {
             }
         }
         while k >= min && !self.c.failed() {
-            match self.three_nodes(&st, k, &mut stop, linear) {
+            match self.three_nodes(&st, k, (&mut stop, &mut spare), linear) {
                 Try::Done(r) => return *r,
                 Try::Again(n) => k = n,
             }
@@ -378,7 +403,7 @@ impl<'a> Sim<'a> {
         let Some(rk) = probe.run_pass(st.steps, pass) else {
             return self.probe_stopped(&probe, stop, pass, k + 1.0, (k / 2.0).floor());
         };
-        let flat = (rk.ds - delta.ds).abs() <= SKIP_LINEAR_REL * delta.ds.abs()
+        let flat = (rk.ds - delta.ds).abs() <= self.linear_rel() * delta.ds.abs()
             && (rk.ds > 0.0 || delta.ds <= 0.0);
         if !flat {
             // The rates bend: three nodes.
@@ -395,37 +420,63 @@ impl<'a> Sim<'a> {
     /// One three-node try of a stretch of `k` passes: the middle pass ([`Sim::middle_pass`])
     /// and the end pass ([`Sim::end_probe`]) with the start node give the parabola; the
     /// stretch is taken where its bend is allowed ([`Sim::bend_allowed`]), else halved.
-    fn three_nodes(&mut self, st: &Stretch, k: f64, stop: &mut StopSeen, linear: &mut bool) -> Try {
+    fn three_nodes(
+        &mut self,
+        st: &Stretch,
+        k: f64,
+        (stop, spare): (&mut StopSeen, &mut Option<Spare<'a>>),
+        linear: &mut bool,
+    ) -> Try {
         let (delta, pass) = (st.delta, st.pass);
         let h = (k / 2.0).floor();
-        let rm = match self.middle_pass(st, h, stop) {
-            Ok(rm) => rm,
+        let (rm, mid) = match self.middle_pass(st, h, stop) {
+            Ok(r) => r,
             Err(t) => return t,
         };
-        let mut probe = self.end_probe(st, k, h, &rm);
-        let Some(rk) = probe.run_pass(st.steps, pass) else {
-            return self.probe_stopped(&probe, stop, pass, k + 1.0, h);
+        // The end pass: the middle pass of the try before, where that was halved to this one
+        // (it lies k passes in, reached at the start's rates) and the lagging states settle
+        // within a pass (a slow one would carry the start's offsets to the end), or one reached
+        // at this middle's rates.
+        let settles = delta.decay < 0.5
+            && delta.seen_ln_decay < -std::f64::consts::LN_2
+            && delta.buf_ln_decay < -5.0;
+        let (probe, rk, used) = match spare.take().filter(|sp| settles && (sp.at - k).abs() < 0.5) {
+            Some(sp) => (sp.sim, sp.delta, delta),
+            None => {
+                let mut probe = self.end_probe(st, k, h, &rm);
+                let Some(rk) = probe.run_pass(st.steps, pass) else {
+                    *spare = Some(Spare::new(h, mid, &rm));
+                    return self.probe_stopped(&probe, stop, pass, k + 1.0, h);
+                };
+                (probe, rk, &rm)
+            }
         };
         let (w, bend) = stretch_weights(st.x0, h, k, [delta.ds, rm.ds, rk.ds]);
         if !self.bend_allowed(bend, k, rm.ds) {
+            *spare = Some(Spare::new(h, mid, &rm));
             return Try::Again(h);
         }
         // The end pass was reached at the middle's rates (the midpoint rule); move its state
         // to the parabola's: the difference is of the order of the error estimate, so the
         // end pass's own changes stand.
         let rates = Delta::blend([(w[0], delta), (w[1], &rm), (w[2], &rk)]);
-        self.c.fit.set(bend / (SKIP_REL_ERR * rm.ds.abs()));
+        self.c.fit.set(bend / (self.rel_err() * rm.ds.abs()));
         // Whether the next stretch of this block may try two nodes.
-        *linear = (rk.ds - delta.ds).abs() <= SKIP_LINEAR_REL * delta.ds.abs();
-        let taken = self.take_stretch(probe, st.steps, pass, k, (delta, &rm), &rates, rk);
+        *linear = (rk.ds - delta.ds).abs() <= self.linear_rel() * delta.ds.abs();
+        let taken = self.take_stretch(probe, st.steps, pass, k, (delta, used), &rates, rk);
         Try::Done(Box::new(Some(taken)))
     }
 
     /// The middle pass of a three-node try, `h` passes into the stretch at the start's rates,
     /// run again from its own periodic polarization or buffer voltage where the one it started
-    /// from was far off; `Err` with what the try came to where it stops the product or gains
-    /// charge.
-    fn middle_pass(&mut self, st: &Stretch, h: f64, stop: &mut StopSeen) -> Result<Delta, Try> {
+    /// from was far off, with the state after it; `Err` with what the try came to where it
+    /// stops the product or gains charge.
+    fn middle_pass(
+        &mut self,
+        st: &Stretch,
+        h: f64,
+        stop: &mut StopSeen,
+    ) -> Result<(Delta, Sim<'a>), Try> {
         let (delta, pass) = (st.delta, st.pass);
         let mut mid = self.clone();
         mid.speculative = true;
@@ -458,8 +509,9 @@ impl<'a> Sim<'a> {
                 return Err(self.probe_stopped(&again, stop, pass, h + 1.0, h));
             };
             rm = r;
+            mid = again;
         }
-        Ok(rm)
+        Ok((rm, mid))
     }
 
     /// The state the end pass of a stretch of `k` passes starts from, carried there at the
@@ -489,7 +541,7 @@ impl<'a> Sim<'a> {
     /// spend the budget of what such stretches earned (each earns a share of what it takes).
     /// The budget is booked here.
     fn bend_allowed(&self, bend: f64, k: f64, ds_mid: f64) -> bool {
-        let smooth = bend <= SKIP_REL_ERR * ds_mid.abs();
+        let smooth = bend <= self.rel_err() * ds_mid.abs();
         let earned = if self.speculative {
             0.0
         } else {
@@ -616,6 +668,24 @@ struct Stretch<'s> {
 struct StopSeen<'s> {
     within: &'s mut Option<f64>,
     pass: &'s mut f64,
+}
+
+/// The middle pass of a three-node try that was halved: the end pass of the next try, whose
+/// stretch ends where it lies (`at` passes in), with the state after it and its changes.
+struct Spare<'a> {
+    at: f64,
+    sim: Sim<'a>,
+    delta: Delta,
+}
+
+impl<'a> Spare<'a> {
+    fn new(at: f64, sim: Sim<'a>, delta: &Delta) -> Self {
+        Self {
+            at,
+            sim,
+            delta: delta.clone(),
+        }
+    }
 }
 
 /// What a try at a stretch of passes came to.
