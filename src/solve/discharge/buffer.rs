@@ -260,8 +260,9 @@ impl CapStep {
     }
 
     /// The longest step from `x0` over which the capacitor voltage moves by at most `allowed`
-    /// volts (and, with `cut`, that ends where the path leaves its region), except that a capacitor settling far within the step (over 20 time constants,
-    /// as the polarization) is not followed: the step's mean averages its transient.
+    /// volts (and, with `cut`, that ends where the path leaves its region), except that a
+    /// capacitor settling far within the step (over 20 time constants, as the polarization)
+    /// is not followed: the step's mean averages its transient.
     pub(super) fn step_limit(&self, x0: f64, dt: f64, allowed: f64, cut: bool) -> f64 {
         if allowed.is_nan() || allowed <= 0.0 {
             return f64::INFINITY;

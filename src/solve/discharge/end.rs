@@ -19,9 +19,9 @@ impl Sim<'_> {
     }
 
     /// The smallest margin, in volts, between `p` and an end condition that follows the pack
-    /// voltage: the pack (and a buffer's node) above its cutoff, running stages above their minimum input, drawing
-    /// loads above their minimum supply. Rails behind a regulating stage only make it
-    /// conservative.
+    /// voltage: the pack (and a buffer's node) above its cutoff, running stages above their
+    /// minimum input, drawing loads above their minimum supply. Rails behind a regulating
+    /// stage only make it conservative.
     pub(super) fn voltage_margin(&self, p: &OperatingPoint) -> f64 {
         let d = self.c.d;
         let mut m = p.pack.voltage.min(p.node().0) - self.c.cutoff;

@@ -149,10 +149,10 @@ impl<'a> Sim<'a> {
     ) -> f64 {
         // A run of few passes (to empty at the last pass's fall, or to the stop a skip found) is
         // executed pass by pass (the innermost blocks with the reference's polarization steps):
-        // its end falls on a pass, and one pass more or less would be more than the 0.2 % the fast solver promises. A block
-        // holding repeat blocks skips until a skip finds where the end falls: inside a nested
-        // block, the run is counted in that block's (shorter) passes.
-        // Until then the end may fall in the shortest of them.
+        // its end falls on a pass, and one pass more or less would be more than the 0.2 % the
+        // fast solver promises. A block holding repeat blocks skips until a skip finds where
+        // the end falls: inside a nested block, the run is counted in that block's (shorter)
+        // passes. Until then the end may fall in the shortest of them.
         let to_empty = if delta.ds > 0.0 {
             self.soc() / delta.ds
         } else {
@@ -325,8 +325,8 @@ impl<'a> Sim<'a> {
 
     /// The start node of a stretch after a pass that changed things by `delta`: that pass (at
     /// -1/2), or, when its polarization, buffer voltage or rate-law current was still far from
-    /// periodic, the first pass run again from the periodic values (at 1/2). Returns the node's place, in passes from the
-    /// stretch's start, and its changes.
+    /// periodic, the first pass run again from the periodic values (at 1/2). Returns the
+    /// node's place, in passes from the stretch's start, and its changes.
     fn start_node(&self, steps: &[Step], pass: f64, delta: &Delta) -> (f64, Delta) {
         let mut x0 = -0.5;
         let mut first = delta.clone();
