@@ -732,6 +732,13 @@ impl Delta {
         (l < -1e-9 && self.buf_offset.is_finite()).then(|| self.buf_offset / -l.exp_m1())
     }
 
+    /// Whether every lagging state (polarization, the rate law's filtered current, a buffer
+    /// capacitor) settles within a pass: the state a pass ends in then does not carry the
+    /// offsets of the passes before it.
+    fn lags_settle(&self) -> bool {
+        self.decay < 0.5 && self.seen_ln_decay < -std::f64::consts::LN_2 && self.buf_ln_decay < -5.0
+    }
+
     /// [`Delta::vb_u_star`] where the capacitor is a state of its own across passes: it keeps
     /// over e^-5 of a change through a pass. One that settles within a pass follows the
     /// cells (their polarization included) and its periodic voltage is theirs: the stretch's

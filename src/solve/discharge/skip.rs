@@ -284,7 +284,8 @@ impl<'a> Sim<'a> {
     /// short in passes: [`Sim::stop_soon`]). The accepted stretch ends with the end pass, its
     /// state moved from the middle's rates to the parabola's.
     ///
-    /// Below [`SKIP_MIN_PASSES`] the pass is executed exactly.
+    /// Below [`SKIP_MIN_PASSES_OPEN`] (or the stretch's own `k` where it is shorter and finishes
+    /// its block) the pass is executed exactly.
     pub(super) fn skip(
         &mut self,
         steps: &[Step],
@@ -437,9 +438,7 @@ impl<'a> Sim<'a> {
         // (it lies k passes in, reached at the start's rates) and the lagging states settle
         // within a pass (a slow one would carry the start's offsets to the end), or one reached
         // at this middle's rates.
-        let settles = delta.decay < 0.5
-            && delta.seen_ln_decay < -std::f64::consts::LN_2
-            && delta.buf_ln_decay < -5.0;
+        let settles = delta.lags_settle();
         let (probe, rk, used) = match spare.take().filter(|sp| settles && (sp.at - k).abs() < 0.5) {
             Some(sp) => (sp.sim, sp.delta, delta),
             None => {
@@ -456,9 +455,10 @@ impl<'a> Sim<'a> {
             *spare = Some(Spare::new(h, mid, &rm));
             return Try::Again(h);
         }
-        // The end pass was reached at the middle's rates (the midpoint rule); move its state
-        // to the parabola's: the difference is of the order of the error estimate, so the
-        // end pass's own changes stand.
+        // The end pass was reached at the middle's rates (the midpoint rule) or, kept from the
+        // try before, at the start's (`used`); move its state to the parabola's: the
+        // difference is of the order of the error estimate, so the end pass's own changes
+        // stand.
         let rates = Delta::blend([(w[0], delta), (w[1], &rm), (w[2], &rk)]);
         self.c.fit.set(bend / (self.rel_err() * rm.ds.abs()));
         // Whether the next stretch of this block may try two nodes.
@@ -693,7 +693,8 @@ enum Try {
     /// Finished: `None` if the product stopped, else the passes done and the last pass's
     /// changes (boxed: a pass's changes are large beside a count).
     Done(Box<Option<(f64, Delta)>>),
-    /// Try again with this many passes (below [`SKIP_MIN_PASSES`], the pass runs exactly).
+    /// Try again with this many passes (below the least a stretch may have, the pass runs
+    /// exactly).
     Again(f64),
 }
 
