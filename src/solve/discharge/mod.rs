@@ -31,10 +31,10 @@ use std::rc::Rc;
 use super::check::{Violation, ViolationKind, violations_where};
 use super::ledger::{Ledger, TracePoint, Tracer};
 use super::numerics::{
-    END_BISECT_ITER, LIMITER_RETRIES, MEAN_POINT_BUFFER_ITER, MEAN_POINT_REL, SKIP_ABS_BUDGET,
-    SKIP_FIRST_DS, SKIP_MAX_DS, SKIP_MIN_PASSES, STEP_MAX_DS_EXACT, STEP_MAX_DS_FAST,
-    STEP_MAX_DVP_EXACT, STEP_MAX_DVP_FAST, TRACE_BUCKETS, TRACE_PROBES_PER_SKIP, WORK_LIMIT_EXACT,
-    WORK_LIMIT_FAST,
+    END_BISECT_ITER, END_TIME_REL, LIMITER_RETRIES, MEAN_POINT_BUFFER_ITER, MEAN_POINT_REL,
+    SKIP_ABS_BUDGET, SKIP_FIRST_DS, SKIP_MAX_DS, SKIP_MIN_PASSES, STEP_MAX_DS_EXACT,
+    STEP_MAX_DS_FAST, STEP_MAX_DVP_EXACT, STEP_MAX_DVP_FAST, TRACE_BUCKETS, TRACE_PROBES_PER_SKIP,
+    WORK_LIMIT_EXACT, WORK_LIMIT_FAST,
 };
 use super::point::{OperatingPoint, PackState, Solution, StageState, solve_point_buffered};
 use super::sum2::Sum2;
@@ -1378,9 +1378,14 @@ impl<'a> Sim<'a> {
     /// reason found there.
     fn stop_within(&mut self, mode: usize, pm: &OperatingPoint, held: Held, dt: f64) {
         let (mut lo, mut hi) = (0.0, dt);
+        let tol = if self.c.opt.exact {
+            0.0
+        } else {
+            END_TIME_REL * (self.now() + dt)
+        };
         for _ in 0..END_BISECT_ITER {
             let mid = 0.5 * (lo + hi);
-            if mid <= lo || mid >= hi {
+            if mid <= lo || mid >= hi || hi - lo <= tol {
                 break;
             }
             let m = self.step_end(pm, held, mid);

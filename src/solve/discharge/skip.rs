@@ -310,7 +310,7 @@ impl<'a> Sim<'a> {
         };
         let mut spare = None;
         if *linear && k >= min && !self.c.failed() {
-            match self.two_nodes(&st, k, &mut stop, linear) {
+            match self.two_nodes(&st, k, (&mut stop, &mut spare), linear) {
                 Try::Done(r) => return *r,
                 Try::Again(n) => k = n,
             }
@@ -396,7 +396,13 @@ impl<'a> Sim<'a> {
     /// rates. Where the rates did not move over the stretch, the line through the two nodes is
     /// the stretch (no middle pass); where they bend, `linear` is cleared and three nodes
     /// follow.
-    fn two_nodes(&mut self, st: &Stretch, k: f64, stop: &mut StopSeen, linear: &mut bool) -> Try {
+    fn two_nodes(
+        &mut self,
+        st: &Stretch,
+        k: f64,
+        (stop, spare): (&mut StopSeen, &mut Option<Spare<'a>>),
+        linear: &mut bool,
+    ) -> Try {
         let (delta, pass, x0) = (st.delta, st.pass, st.x0);
         let mut probe = self.clone();
         probe.speculative = true;
@@ -407,8 +413,10 @@ impl<'a> Sim<'a> {
         let flat = (rk.ds - delta.ds).abs() <= self.linear_rel() * delta.ds.abs()
             && (rk.ds > 0.0 || delta.ds <= 0.0);
         if !flat {
-            // The rates bend: three nodes.
+            // The rates bend: three nodes, whose end pass this one is (reached at the start's
+            // rates, as a halved try's middle pass is).
             *linear = false;
+            *spare = Some(Spare::new(k, probe, &rk));
             return Try::Again(k);
         }
         let wk = (0.5 * k - x0) / (k + 0.5 - x0);
