@@ -165,7 +165,7 @@ fn stage_loss_table(entries: &[Entry<'_>], names: &[String]) -> Option<TextTable
         for e in entries {
             r.push(e.design.stages.iter().position(|s| s.id == id).map_or_else(
                 || "—".into(),
-                |k| fmt_eng(e.run.ledger.stage_loss_j[k] / 3600.0, "Wh"),
+                |k| fmt_eng(e.run.ledger.stage_loss_j()[k] / 3600.0, "Wh"),
             ));
         }
         t.row(r);
@@ -176,8 +176,8 @@ fn stage_loss_table(entries: &[Entry<'_>], names: &[String]) -> Option<TextTable
 fn biggest(e: &Entry<'_>) -> Option<(String, f64)> {
     let l = &e.run.ledger;
     let k = (0..e.design.stages.len())
-        .max_by(|&a, &b| l.stage_loss_j[a].total_cmp(&l.stage_loss_j[b]))?;
-    Some((e.design.stages[k].id.clone(), l.stage_loss_j[k]))
+        .max_by(|&a, &b| l.stage_loss_j()[a].total_cmp(&l.stage_loss_j()[b]))?;
+    Some((e.design.stages[k].id.clone(), l.stage_loss_j()[k]))
 }
 
 /// The comparison in plain sentences: who wins on runtime, heat and violations, and why.
@@ -393,7 +393,7 @@ fn facts(entries: &[Entry<'_>]) -> Vec<String> {
         }
         let l = &e.run.ledger;
         for (k, st) in e.design.stages.iter().enumerate() {
-            let (o, loss) = (l.stage_out_j[k], l.stage_loss_j[k]);
+            let (o, loss) = (l.stage_out_j()[k], l.stage_loss_j()[k]);
             if st.kind.is_switching() && o > 0.0 {
                 out.push(format!(
                     "in {}, `{}` ({}) averages {} efficiency over the run",

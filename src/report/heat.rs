@@ -79,9 +79,9 @@ pub fn heat_ranking(d: &Design, r: &RunResult) -> Vec<HeatRow> {
         .map(|(k, s)| HeatRow {
             id: s.id.clone(),
             kind: s.kind_name().into(),
-            loss_wh: l.stage_loss_j[k] / 3600.0,
-            share_of_losses: share(l.stage_loss_j[k], total),
-            share_of_cell_energy: share(l.stage_loss_j[k], from_cells),
+            loss_wh: l.stage_loss_j()[k] / 3600.0,
+            share_of_losses: share(l.stage_loss_j()[k], total),
+            share_of_cell_energy: share(l.stage_loss_j()[k], from_cells),
             peak_loss_w: Some(r.peaks[k].loss_w),
             peak_mode: r.peaks[k].mode.map(|m| d.modes[m].name.clone()),
             max_junction_c: junction_c(d, k, r.peaks[k].loss_w, r.ambient_c),

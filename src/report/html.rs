@@ -321,7 +321,7 @@ fn runtime_section(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<(
             .iter()
             .enumerate()
             .map(|(k, load)| {
-                let e = l.load_energy_j[k];
+                let e = l.load_energy_j()[k];
                 vec![
                     format!("<code>{}</code>", esc(&load.id)),
                     esc(&fmt_eng(e / 3600.0, "Wh")),

@@ -343,9 +343,9 @@ impl RuntimeJson {
                 .enumerate()
                 .map(|(k, s)| RunStageJson {
                     id: s.id.clone(),
-                    loss_wh: wh(r.ledger.stage_loss_j[k]),
+                    loss_wh: wh(r.ledger.stage_loss_j()[k]),
                     average_loss_w: if t > 0.0 {
-                        r.ledger.stage_loss_j[k] / t
+                        r.ledger.stage_loss_j()[k] / t
                     } else {
                         0.0
                     },
@@ -364,9 +364,9 @@ impl RuntimeJson {
                 .enumerate()
                 .map(|(l, load)| RunLoadJson {
                     id: load.id.clone(),
-                    energy_wh: wh(r.ledger.load_energy_j[l]),
-                    on_s: r.ledger.load_on_s[l],
-                    above_max_s: r.ledger.load_high_s[l],
+                    energy_wh: wh(r.ledger.load_energy_j()[l]),
+                    on_s: r.ledger.load_on_s()[l],
+                    above_max_s: r.ledger.load_high_s()[l],
                 })
                 .collect(),
             ambient_range_c: r.ambient_range_c.map(|(lo, hi)| [lo, hi]),

@@ -189,7 +189,7 @@ fn load_table(d: &Design, r: &RunResult) -> TextTable {
         ("average", Align::Right),
     ]);
     for (k, load) in d.loads.iter().enumerate() {
-        let e = l.load_energy_j[k];
+        let e = l.load_energy_j()[k];
         tl.row(vec![
             load.id.clone(),
             fmt_eng(e / 3600.0, "Wh"),
@@ -372,8 +372,8 @@ pub fn regulation_facts(d: &Design, r: &RunResult) -> Vec<Fact> {
             FactKind::AboveMax,
             &load.id,
             load.v_max,
-            l.load_high_s[k],
-            l.load_on_s[k],
+            l.load_high_s()[k],
+            l.load_on_s()[k],
         );
     }
     out

@@ -292,7 +292,7 @@ fn stage_violations(design: &Design, p: &OperatingPoint, ambient_c: f64, found: 
 /// that is off.
 fn rail_violations(design: &Design, p: &OperatingPoint, found: &mut Found<'_>) {
     let mode = &design.modes[p.mode];
-    for (rail, subject) in (0..design.tree.rails()).map(|r| (r, design.rail_name(r).to_string())) {
+    for (rail, subject) in (0..design.tree.rails()).map(|r| (r, design.rail_name(r))) {
         let live = rail == 0 || p.stages[rail - 1].state.is_running();
         let v = if rail == 0 {
             p.pack.voltage
@@ -304,7 +304,7 @@ fn rail_violations(design: &Design, p: &OperatingPoint, found: &mut Found<'_>) {
             if live {
                 if let Some(max) = load.v_max {
                     if v > max {
-                        found.push(ViolationKind::RailHigh, &subject, &|| Excess::RailVoltage {
+                        found.push(ViolationKind::RailHigh, subject, &|| Excess::RailVoltage {
                             rail,
                             voltage_v: v,
                             limit_v: max,

@@ -31,19 +31,14 @@ pub struct Ledger {
     /// Energy the buffer capacitor gave up: its stored energy at the start less at the end, J
     /// (about 0 over whole pulses).
     pub buffer_out_j: f64,
-    /// Energy lost in each stage, J.
-    pub stage_loss_j: Vec<f64>,
-    /// Energy taken by each load, J.
-    pub load_energy_j: Vec<f64>,
-    /// Energy each stage delivered at its output, J.
-    pub stage_out_j: Vec<f64>,
-    /// Time each stage spent in each state, s, indexed by state: 0 regulating, 1 dropout,
-    /// 2 bypass, 3 on, 4 off, 5 undervoltage, 6 limited.
-    pub stage_state_s: Vec<[f64; 7]>,
-    /// Time each load was on (its rail live, its state not `off`), s.
-    pub load_on_s: Vec<f64>,
-    /// Time each load was on with its rail above its maximum supply, s.
-    pub load_high_s: Vec<f64>,
+    /// Stage count, load count.
+    stages: usize,
+    loads: usize,
+    /// The per-stage and per-load totals in one allocation (a ledger is cloned for every
+    /// simulated pass): each stage's loss (J), output energy (J) and time in each state (s, 7 a
+    /// stage, indexed by [`state_index`]), then each load's energy (J), time on (s) and time on
+    /// above its maximum supply (s). Read them with [`Ledger::stage_loss_j`] and its siblings.
+    parts: Vec<f64>,
 }
 
 /// Position of a state in [`Ledger::stage_state_s`]: regulating, dropout, bypass, on, off,
@@ -70,13 +65,45 @@ impl Ledger {
             pack_loss_j: 0.0,
             buffer_loss_j: 0.0,
             buffer_out_j: 0.0,
-            stage_loss_j: vec![0.0; stages],
-            load_energy_j: vec![0.0; loads],
-            stage_out_j: vec![0.0; stages],
-            stage_state_s: vec![[0.0; 7]; stages],
-            load_on_s: vec![0.0; loads],
-            load_high_s: vec![0.0; loads],
+            stages,
+            loads,
+            parts: vec![0.0; 9 * stages + 3 * loads],
         }
+    }
+
+    /// Energy lost in each stage, J.
+    pub fn stage_loss_j(&self) -> &[f64] {
+        &self.parts[..self.stages]
+    }
+
+    /// Energy each stage delivered at its output, J.
+    pub fn stage_out_j(&self) -> &[f64] {
+        &self.parts[self.stages..2 * self.stages]
+    }
+
+    /// Time stage `k` spent in each state, s, indexed by state: 0 regulating, 1 dropout,
+    /// 2 bypass, 3 on, 4 off, 5 undervoltage, 6 limited ([`state_index`]).
+    pub fn stage_state_s(&self, k: usize) -> &[f64] {
+        let at = 2 * self.stages + 7 * k;
+        &self.parts[at..at + 7]
+    }
+
+    /// Energy taken by each load, J.
+    pub fn load_energy_j(&self) -> &[f64] {
+        let at = 9 * self.stages;
+        &self.parts[at..at + self.loads]
+    }
+
+    /// Time each load was on (its rail live, its state not `off`), s.
+    pub fn load_on_s(&self) -> &[f64] {
+        let at = 9 * self.stages + self.loads;
+        &self.parts[at..at + self.loads]
+    }
+
+    /// Time each load was on with its rail above its maximum supply, s.
+    pub fn load_high_s(&self) -> &[f64] {
+        let at = 9 * self.stages + 2 * self.loads;
+        &self.parts[at..at + self.loads]
     }
 
     /// Add operating point `p` held for `dt` seconds; `v_max` gives each load's maximum supply.
@@ -89,24 +116,30 @@ impl Ledger {
             self.buffer_loss_j += b.loss * dt;
             self.buffer_out_j += b.stored_power * dt;
         }
-        for (k, s) in p.stages.iter().enumerate() {
-            self.stage_loss_j[k] += s.loss * dt;
-            self.stage_out_j[k] += s.vout * s.iout * dt;
-            self.stage_state_s[k][state_index(s.state)] += dt;
+        let (ns, nl) = (self.stages, self.loads);
+        let (stage_part, load_part) = self.parts.split_at_mut(9 * ns);
+        let (loss, rest) = stage_part.split_at_mut(ns);
+        let (out, states) = rest.split_at_mut(ns);
+        for (k, s) in p.stages.iter().enumerate().take(ns) {
+            loss[k] += s.loss * dt;
+            out[k] += s.vout * s.iout * dt;
+            states[7 * k + state_index(s.state)] += dt;
         }
-        for (l, lp) in p.loads.iter().enumerate() {
-            self.load_energy_j[l] += lp.power * dt;
+        let (energy, rest) = load_part.split_at_mut(nl);
+        let (on, high) = rest.split_at_mut(nl);
+        for (l, lp) in p.loads.iter().enumerate().take(nl) {
+            energy[l] += lp.power * dt;
             if !lp.live || lp.state.is_none() {
                 continue;
             }
-            self.load_on_s[l] += dt;
+            on[l] += dt;
             if v_max
                 .get(l)
                 .copied()
                 .flatten()
                 .is_some_and(|m| lp.voltage > m)
             {
-                self.load_high_s[l] += dt;
+                high[l] += dt;
             }
         }
     }
@@ -119,36 +152,19 @@ impl Ledger {
         self.pack_loss_j += k * delta.pack_loss_j;
         self.buffer_loss_j += k * delta.buffer_loss_j;
         self.buffer_out_j += k * delta.buffer_out_j;
-        for (a, b) in self.stage_loss_j.iter_mut().zip(&delta.stage_loss_j) {
-            *a += k * b;
-        }
-        for (a, b) in self.load_energy_j.iter_mut().zip(&delta.load_energy_j) {
-            *a += k * b;
-        }
-        for (a, b) in self.stage_out_j.iter_mut().zip(&delta.stage_out_j) {
-            *a += k * b;
-        }
-        for (a, b) in self.stage_state_s.iter_mut().zip(&delta.stage_state_s) {
-            for (x, y) in a.iter_mut().zip(b) {
-                *x += k * y;
-            }
-        }
-        for (a, b) in self.load_on_s.iter_mut().zip(&delta.load_on_s) {
-            *a += k * b;
-        }
-        for (a, b) in self.load_high_s.iter_mut().zip(&delta.load_high_s) {
+        for (a, b) in self.parts.iter_mut().zip(&delta.parts) {
             *a += k * b;
         }
     }
 
     /// Energy taken by all loads, J.
     pub fn load_energy_total(&self) -> f64 {
-        self.load_energy_j.iter().sum()
+        self.load_energy_j().iter().sum()
     }
 
     /// Energy lost in all stages, J.
     pub fn stage_loss_total(&self) -> f64 {
-        self.stage_loss_j.iter().sum()
+        self.stage_loss_j().iter().sum()
     }
 
     /// Energy from the cells, J: open-circuit voltage x current over the run, which is the
@@ -174,7 +190,7 @@ impl Ledger {
     /// enabled, so it counts).
     pub fn stage_on_s(&self, k: usize) -> f64 {
         let off = state_index(StageState::Off);
-        (self.stage_state_s[k].iter().enumerate())
+        (self.stage_state_s(k).iter().enumerate())
             .filter(|&(i, _)| i != off)
             .map(|(_, s)| s)
             .sum()
@@ -182,7 +198,7 @@ impl Ledger {
 
     /// Time stage `k` spent in `state`, s.
     pub fn stage_time_s(&self, k: usize, state: StageState) -> f64 {
-        self.stage_state_s[k][state_index(state)]
+        self.stage_state_s(k)[state_index(state)]
     }
 }
 

@@ -96,7 +96,7 @@ fn split(d: &Design, r: &RunResult) -> Vec<Bar> {
                 ("battery".to_string(), "pack".to_string(), l.pack_loss_j)
             } else {
                 let s = &d.stages[k];
-                (s.id.clone(), s.kind_name().to_string(), l.stage_loss_j[k])
+                (s.id.clone(), s.kind_name().to_string(), l.stage_loss_j()[k])
             };
             let est_sum: f64 = est.iter().map(|row| row[k]).sum();
             let by_mode = if est_sum > 0.0 {
