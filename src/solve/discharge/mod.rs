@@ -669,6 +669,9 @@ struct Sim<'a> {
     /// the one the product stopped in: the end falls on one of its passes.
     block_pass: f64,
     end_pass: f64,
+    /// The least voltage margin to an end condition ([`Sim::voltage_margin`]) at the points of
+    /// the current pass so far, the one it stopped at included (infinite before the first).
+    margin: f64,
 }
 
 /// The cells' side of a step held at its mean point: the cells' current and the rate of
@@ -714,6 +717,8 @@ struct Delta {
     /// the start of this pass.
     vb_star: f64,
     vb_start: f64,
+    /// The pass's least voltage margin to an end condition, V ([`Sim::margin`]).
+    margin: f64,
     ledger: Ledger,
 }
 
@@ -771,6 +776,7 @@ impl Delta {
             buf_offset: parts[2].1.buf_offset,
             vb_star: parts[2].1.vb_star,
             vb_start: parts[2].1.vb_start,
+            margin: parts[2].1.margin,
             ledger,
         }
     }
@@ -845,6 +851,7 @@ impl Delta {
             } else {
                 after.vp
             },
+            margin: after.margin,
             ledger,
         }
     }
@@ -886,6 +893,7 @@ impl<'a> Sim<'a> {
             end: None,
             block_pass: f64::INFINITY,
             end_pass: f64::INFINITY,
+            margin: f64::INFINITY,
         }
     }
 
@@ -939,6 +947,7 @@ impl<'a> Sim<'a> {
     fn run_pass(&mut self, steps: &[Step], pass: f64) -> Option<Delta> {
         let (s0, vp0, seen0, vb0) = (self.s, self.vp, self.i_seen, self.vb);
         let ln_outer = std::mem::replace(&mut self.vb_ln, 0.0);
+        let margin_outer = std::mem::replace(&mut self.margin, f64::INFINITY);
         let speculative = self.speculative;
         self.c.count(|c| {
             c.passes += 1;
@@ -951,7 +960,9 @@ impl<'a> Sim<'a> {
         self.ledger.add_scaled(&local, 1.0);
         let ln = self.vb_ln;
         self.vb_ln = ln_outer + ln;
-        (!stopped).then(|| Delta::of(s0, (vp0, seen0, vb0, ln), self, pass, local))
+        let delta = (!stopped).then(|| Delta::of(s0, (vp0, seen0, vb0, ln), self, pass, local));
+        self.margin = self.margin.min(margin_outer);
+        delta
     }
 
     fn solve(&self, mode: usize, s: f64, vp: f64, vb: f64) -> Solution {
@@ -1254,7 +1265,11 @@ impl<'a> Sim<'a> {
             if let Some((reason, subject)) = self.verdict(&end_sol, s1) {
                 if self.speculative && !self.trace_probe {
                     // A pass simulated to measure rates only tells its caller that it stops
-                    // (and in which block): where within the step does not matter there.
+                    // (and in which block), and by how much: where within the step does not
+                    // matter there.
+                    if let Solution::Point(q) = &end_sol {
+                        self.margin = self.margin.min(self.voltage_margin(q));
+                    }
                     self.stop(reason, Some(mode), subject);
                     return true;
                 }
@@ -1289,6 +1304,9 @@ impl<'a> Sim<'a> {
         }
         self.c.count(|c| c.steps += 1);
         let sol = next.unwrap_or_else(|| self.solve(mode, self.soc(), self.vp, self.vb));
+        if let Solution::Point(p) = &sol {
+            self.margin = self.margin.min(self.voltage_margin(p));
+        }
         if let Some((reason, subject)) = self.verdict(&sol, self.soc()) {
             if let Solution::Point(p) = &sol {
                 self.observe(p);

@@ -219,22 +219,27 @@ impl<'a> Sim<'a> {
         let mut stop_within: Option<f64> = None;
         // The pass length of the block that stop falls in (this one or a nested one).
         let mut stop_pass = pass;
+        // The stretch estimated to end one pass before that stop, in passes from the current
+        // state ([`Sim::aim_before_stop`]): no stretch goes further while it stands.
+        let mut stop_aim: Option<f64> = None;
         // Whether this block's stretches try two nodes first: as its last stretch measured
         // (the block runs again and again inside the passes of the blocks around it).
         let block = steps.as_ptr() as usize;
         let mut linear = self.c.linear_hint(block);
         while done < n {
             if let Some(delta) = last.as_ref() {
-                let k = self.plan_skip(delta, n - done, pass, steps, stop_within, stop_pass);
+                let k = self
+                    .plan_skip(delta, n - done, pass, steps, stop_within, stop_pass)
+                    .min(stop_aim.unwrap_or(f64::INFINITY));
                 let allowed = !self.c.opt.exact || delta.ds == 0.0;
                 if allowed && k >= SKIP_MIN_PASSES as f64 {
-                    let mut found = None;
+                    let (mut found, mut aimed) = (None, None);
                     let skipped = self.skip(
                         steps,
                         pass,
                         k,
                         delta,
-                        (&mut found, &mut stop_pass),
+                        (&mut found, &mut stop_pass, &mut aimed),
                         &mut linear,
                     );
                     if !self.trace_probe {
@@ -250,6 +255,7 @@ impl<'a> Sim<'a> {
                             last = Some(d);
                             stop_within =
                                 found.or(stop_within).map(|c| c - j).filter(|&c| c >= 1.0);
+                            stop_aim = aimed.or(stop_aim).map(|c| c - j).filter(|&c| c >= 0.0);
                             continue;
                         }
                     }
@@ -261,6 +267,7 @@ impl<'a> Sim<'a> {
             last = Some(delta);
             done += 1.0;
             stop_within = stop_within.map(|c| c - 1.0).filter(|&c| c >= 1.0);
+            stop_aim = stop_aim.map(|c| c - 1.0).filter(|&c| c >= 0.0);
             if let Some(report) = self.c.progress {
                 let s0 = self.c.d.pack.start_soc;
                 let used = if s0 > 0.0 { 1.0 - self.soc() / s0 } else { 0.0 };
@@ -292,7 +299,7 @@ impl<'a> Sim<'a> {
         pass: f64,
         mut k: f64,
         delta: &Delta,
-        (stop_within, stop_pass): (&mut Option<f64>, &mut f64),
+        (stop_within, stop_pass, aim): (&mut Option<f64>, &mut f64, &mut Option<f64>),
         linear: &mut bool,
     ) -> Option<(f64, Delta)> {
         // A stretch of two finishes its block (`plan_skip`); halved ones stop at three.
@@ -307,6 +314,8 @@ impl<'a> Sim<'a> {
         let mut stop = StopSeen {
             within: stop_within,
             pass: stop_pass,
+            start_margin: first.margin,
+            aim,
         };
         let mut spare = None;
         if *linear && k >= min && !self.c.failed() {
@@ -372,8 +381,9 @@ impl<'a> Sim<'a> {
 
     /// A simulated pass, `probe`, stopped the product `within` passes from the stretch's
     /// start. A speculative pass stops with it ([`Sim::stopped_like`]); otherwise the stop is
-    /// recorded and the stretch shortened to `shorter` passes, or given up where the run is
-    /// then short enough to go pass by pass ([`Sim::stop_found`]).
+    /// recorded and the stretch shortened to end before the pass the stop is estimated to fall
+    /// in ([`Sim::aim_before_stop`]), or to `shorter` passes where that cannot be estimated, or
+    /// given up where the run is then short enough to go pass by pass ([`Sim::stop_found`]).
     fn probe_stopped(
         &mut self,
         probe: &Sim,
@@ -388,8 +398,35 @@ impl<'a> Sim<'a> {
         if self.stop_found(stop.within, stop.pass, probe, pass, within) {
             Try::Again(0.0)
         } else {
-            Try::Again(shorter)
+            let aim = self.aim_before_stop(probe, stop.start_margin, within);
+            *stop.aim = aim;
+            Try::Again(aim.map_or(shorter, |a| a.min(shorter)))
         }
+    }
+
+    /// The stretch that ends one pass before the product stops, where a simulated pass
+    /// `within` passes in stopped it: the line through the stretch's start and the stop crosses
+    /// zero in the margin that ran out (state of charge for an empty pack; the least voltage
+    /// margin to an end condition, [`Sim::voltage_margin`], for a voltage end; `start_margin`
+    /// is the start node's), and the stretch ends the pass before (regula falsi: halving the
+    /// stretch instead took a simulated pass per halving, a third of a run's operating points
+    /// near the end of a long one). A margin that falls ever faster toward the end (a cell's
+    /// knee) puts the crossing early, so that the stretch falls short rather than stopping
+    /// again. `None` where the stop has no such margin (a collapse).
+    fn aim_before_stop(&self, probe: &Sim, start_margin: f64, within: f64) -> Option<f64> {
+        let (x0, m0, m1) = match probe.end.as_ref()?.reason {
+            EndReason::Empty => (0.0, self.soc(), probe.soc()),
+            EndReason::Cutoff | EndReason::Undervoltage | EndReason::Rail => {
+                (-0.5, start_margin, probe.margin)
+            }
+            EndReason::Collapse | EndReason::Horizon => return None,
+        };
+        if !(m0 > 0.0 && m0.is_finite() && m1 <= 0.0 && m1.is_finite()) {
+            return None;
+        }
+        // The probe's pass starts `within - 1` passes in; the stop lies inside it.
+        let x = x0 + (within - 1.0 - x0) * m0 / (m0 - m1);
+        Some((x.floor() - 1.0).clamp(0.0, within - 2.0))
     }
 
     /// The two-node try of a stretch of `k` passes: the end pass first, reached at the start's
@@ -676,6 +713,10 @@ struct Stretch<'s> {
 struct StopSeen<'s> {
     within: &'s mut Option<f64>,
     pass: &'s mut f64,
+    /// The least voltage margin of the stretch's start node, V (`Delta::margin`).
+    start_margin: f64,
+    /// The stretch estimated to end one pass before the stop ([`Sim::aim_before_stop`]).
+    aim: &'s mut Option<f64>,
 }
 
 /// The middle pass of a three-node try that was halved: the end pass of the next try, whose
