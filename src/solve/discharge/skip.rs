@@ -233,7 +233,7 @@ impl<'a> Sim<'a> {
                     .min(stop_aim.unwrap_or(f64::INFINITY));
                 let allowed = !self.c.opt.exact || delta.ds == 0.0;
                 if allowed && k >= SKIP_MIN_PASSES as f64 {
-                    let (mut found, mut aimed) = (None, None);
+                    let (mut found, mut aimed) = (None, stop_aim);
                     let skipped = self.skip(
                         steps,
                         pass,
@@ -255,7 +255,7 @@ impl<'a> Sim<'a> {
                             last = Some(d);
                             stop_within =
                                 found.or(stop_within).map(|c| c - j).filter(|&c| c >= 1.0);
-                            stop_aim = aimed.or(stop_aim).map(|c| c - j).filter(|&c| c >= 0.0);
+                            stop_aim = aimed.map(|c| c - j).filter(|&c| c >= 0.0);
                             continue;
                         }
                     }
@@ -399,6 +399,9 @@ impl<'a> Sim<'a> {
             Try::Again(0.0)
         } else {
             let aim = self.aim_before_stop(probe, stop.start_margin, within);
+            // At most the halved stretch, whose bend is smaller: near the end of a long run the
+            // stretches are held by their bend (an aim of 41 days on the handheld meter was
+            // halved for it, costing a try).
             *stop.aim = aim;
             Try::Again(aim.map_or(shorter, |a| a.min(shorter)))
         }
@@ -415,7 +418,8 @@ impl<'a> Sim<'a> {
     /// again. `None` where the stop has no such margin (a collapse).
     fn aim_before_stop(&self, probe: &Sim, start_margin: f64, within: f64) -> Option<f64> {
         let (x0, m0, m1) = match probe.end.as_ref()?.reason {
-            EndReason::Empty => (0.0, self.soc(), probe.soc()),
+            // (A simulated pass stops at the start of the step that empties the pack.)
+            EndReason::Empty => (0.0, self.soc(), probe.soc().min(0.0)),
             EndReason::Cutoff | EndReason::Undervoltage | EndReason::Rail => {
                 (-0.5, start_margin, probe.margin)
             }
