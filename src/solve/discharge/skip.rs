@@ -115,12 +115,18 @@ impl<'a> Sim<'a> {
     /// falls in (this one or one nested in it): the end falls on one of them and one weighs
     /// more than the 0.2 % promised, so this block runs pass by pass from here.
     fn stop_soon(&self, pass: f64, within: f64, stop_pass: f64) -> bool {
-        (self.now() + within * pass) / stop_pass < SKIP_MIN_RUN_PASSES
+        stop_pass > 0.0 && (self.now() + within * pass) / stop_pass < SKIP_MIN_RUN_PASSES
     }
 
     /// Record that `probe`, a simulated pass, stopped the product within `within` passes, and
     /// the pass length of the block it stopped in (`stop_pass`); true if that makes the run
     /// short enough to go pass by pass from here ([`Sim::stop_soon`]).
+    ///
+    /// An empty pack's stop does not fall on a pass: the state of charge crosses zero at a time
+    /// that moves with it continuously (a pulse that crosses a voltage limit once a pass moves
+    /// the stop by a whole pass), so it records no pass length (0) and never makes the run
+    /// go pass by pass (a handheld meter whose cells emptied in the night's sleep, a step of
+    /// the profile itself, ran its last 45 days pass by pass: 1,250 points against 450).
     fn stop_found(
         &self,
         stop_within: &mut Option<f64>,
@@ -130,8 +136,12 @@ impl<'a> Sim<'a> {
         within: f64,
     ) -> bool {
         *stop_within = Some(within);
-        *stop_pass = probe.end_pass;
-        self.stop_soon(pass, within, probe.end_pass)
+        let empty = probe
+            .end
+            .as_ref()
+            .is_some_and(|e| e.reason == EndReason::Empty);
+        *stop_pass = if empty { 0.0 } else { probe.end_pass };
+        !empty && self.stop_soon(pass, within, probe.end_pass)
     }
 
     /// How many passes the fast solver may skip after a pass that changed things by `delta`,
