@@ -611,6 +611,16 @@ impl<'a> Ctx<'a> {
         self.reach.borrow_mut().insert(block, next);
     }
 
+    /// After `block` ran a pass exactly that fell by `ds` because its reach allowed no stretch:
+    /// the reach grows by that pass, so that a block cut to almost nothing by a halving (at a
+    /// jump in the rates) tries a stretch again after a few passes rather than never.
+    fn grow_reach(&self, block: usize, ds: f64) {
+        if ds > 0.0 {
+            let next = (self.reach(block) + ds).min(SKIP_MAX_DS);
+            self.reach.borrow_mut().insert(block, next);
+        }
+    }
+
     /// Record whether the last stretch of `block` was straight.
     fn set_linear_hint(&self, block: usize, linear: bool) {
         let mut bent = self.bent.borrow_mut();

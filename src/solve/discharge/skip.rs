@@ -274,6 +274,12 @@ impl<'a> Sim<'a> {
             let Some(delta) = self.run_pass(steps, pass) else {
                 return true;
             };
+            if !self.trace_probe
+                && !self.c.opt.exact
+                && self.c.reach(block) < SKIP_MIN_PASSES_OPEN * delta.ds
+            {
+                self.c.grow_reach(block, delta.ds);
+            }
             last = Some(delta);
             done += 1.0;
             stop_within = stop_within.map(|c| c - 1.0).filter(|&c| c >= 1.0);
