@@ -203,7 +203,8 @@ impl<'a> Sim<'a> {
         k = k
             .min(to_horizon)
             .min(remaining - 1.0)
-            .min(stop_within.unwrap_or(f64::INFINITY));
+            // The pass `w - 1` in is known to stop: the stretch's end pass comes before it.
+            .min(stop_within.map_or(f64::INFINITY, |w| w - 2.0));
         let k = k.floor();
         if k.is_finite() && (k >= SKIP_MIN_PASSES_OPEN || (k > 0.0 && k >= remaining - 1.0)) {
             k
