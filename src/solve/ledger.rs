@@ -82,7 +82,7 @@ impl Ledger {
     }
 
     /// Time stage `k` spent in each state, s, indexed by state: 0 regulating, 1 dropout,
-    /// 2 bypass, 3 on, 4 off, 5 undervoltage, 6 limited ([`state_index`]).
+    /// 2 bypass, 3 on, 4 off, 5 undervoltage, 6 limited.
     pub fn stage_state_s(&self, k: usize) -> &[f64] {
         let at = 2 * self.stages + 7 * k;
         &self.parts[at..at + 7]

@@ -12,10 +12,25 @@ impl Sim<'_> {
         let pack = &self.c.d.pack;
         let t = self.ambient();
         let i = p.pack.current;
-        (pack.ocv(s) - pack.ocv(self.soc())).abs()
-            + (pack.r0(s, t) - pack.r0(self.soc(), t)).abs() * i
+        let (ocv_here, r0_here) = self.pack_here(t);
+        (pack.ocv(s) - ocv_here).abs()
+            + (pack.r0(s, t) - r0_here).abs() * i
             + (vp - self.vp).abs()
             + (vb - self.vb).abs()
+    }
+
+    /// The pack's open-circuit voltage and ohmic resistance at the present state of charge and
+    /// ambient `t`, remembered until the state moves (a step reads them several times).
+    fn pack_here(&self, t: f64) -> (f64, f64) {
+        let soc = self.soc();
+        let (s0, t0, ocv, r0) = self.here.get();
+        if s0.to_bits() == soc.to_bits() && t0.to_bits() == t.to_bits() {
+            return (ocv, r0);
+        }
+        let pack = &self.c.d.pack;
+        let (ocv, r0) = (pack.ocv(soc), pack.r0(soc, t));
+        self.here.set((soc, t, ocv, r0));
+        (ocv, r0)
     }
 
     /// The smallest margin, in volts, between `p` and an end condition that follows the pack
