@@ -452,7 +452,8 @@ impl<'a> Sim<'a> {
         }
         // The probe's pass starts `within - 1` passes in; the stop lies inside it.
         let x = x0 + (within - 1.0 - x0) * m0 / (m0 - m1);
-        Some((x.floor() - 1.0).clamp(0.0, within - 2.0))
+        // (`max` then `min`, not `clamp`, which panics should `within` ever be under 2.)
+        Some((x.floor() - 1.0).min(within - 2.0).max(0.0))
     }
 
     /// The two-node try of a stretch of `k` passes: the end pass first, reached at the start's
