@@ -32,9 +32,9 @@ use super::check::{Violation, ViolationKind, violations_where};
 use super::ledger::{Ledger, TracePoint, Tracer};
 use super::numerics::{
     END_BISECT_ITER, END_TIME_REL, LIMITER_RETRIES, MEAN_POINT_BUFFER_ITER, MEAN_POINT_REL,
-    SKIP_ABS_BUDGET, SKIP_FIRST_DS, SKIP_MAX_DS, SKIP_MIN_PASSES, STEP_MAX_DS_EXACT,
-    STEP_MAX_DS_FAST, STEP_MAX_DVP_EXACT, STEP_MAX_DVP_FAST, TRACE_BUCKETS, TRACE_PROBES_PER_SKIP,
-    WORK_LIMIT_EXACT, WORK_LIMIT_FAST,
+    SKIP_ABS_BUDGET, SKIP_FIRST_DS, SKIP_MAX_DS, SKIP_MIN_PASSES, SKIP_MIN_PASSES_OPEN,
+    STEP_MAX_DS_EXACT, STEP_MAX_DS_FAST, STEP_MAX_DVP_EXACT, STEP_MAX_DVP_FAST, TRACE_BUCKETS,
+    TRACE_PROBES_PER_SKIP, WORK_LIMIT_EXACT, WORK_LIMIT_FAST,
 };
 use super::point::{OperatingPoint, PackState, Solution, StageState, solve_point_buffered};
 use super::sum2::Sum2;
@@ -611,11 +611,11 @@ impl<'a> Ctx<'a> {
         self.reach.borrow_mut().insert(block, next);
     }
 
-    /// After `block` ran a pass exactly that fell by `ds` because its reach allowed no stretch:
-    /// the reach grows by that pass, so that a block cut to almost nothing by a halving (at a
-    /// jump in the rates) tries a stretch again after a few passes rather than never.
+    /// After `block` ran a pass exactly that fell by `ds`: where its reach holds less than the
+    /// least stretch, it grows by that pass, so that a block cut to almost nothing by a halving
+    /// (at a jump in the rates) tries a stretch again after a few passes rather than never.
     fn grow_reach(&self, block: usize, ds: f64) {
-        if ds > 0.0 {
+        if ds > 0.0 && self.reach(block) < SKIP_MIN_PASSES_OPEN * ds {
             let next = (self.reach(block) + ds).min(SKIP_MAX_DS);
             self.reach.borrow_mut().insert(block, next);
         }

@@ -275,10 +275,7 @@ impl<'a> Sim<'a> {
             let Some(delta) = self.run_pass(steps, pass) else {
                 return true;
             };
-            if !self.trace_probe
-                && !self.c.opt.exact
-                && self.c.reach(block) < SKIP_MIN_PASSES_OPEN * delta.ds
-            {
+            if !self.trace_probe && !self.c.opt.exact {
                 self.c.grow_reach(block, delta.ds);
             }
             last = Some(delta);
@@ -746,8 +743,9 @@ struct StopSeen<'s> {
     aim: &'s mut Option<f64>,
 }
 
-/// The middle pass of a three-node try that was halved: the end pass of the next try, whose
-/// stretch ends where it lies (`at` passes in), with the state after it and its changes.
+/// A pass simulated `at` passes into a stretch at the start's rates that the next try can use as
+/// its end pass: the middle pass of a three-node try that was halved, or the end pass of a
+/// two-node try whose rates bent. With the state after it and its changes.
 struct Spare<'a> {
     at: f64,
     sim: Sim<'a>,
