@@ -1276,14 +1276,15 @@ impl<'a> Sim<'a> {
                 continue;
             }
             (cap_dt, cap_retries) = (f64::INFINITY, 0);
+            if let Solution::Point(q) = &end_sol {
+                // The end of a pulse: a pass's least margin lies at a step's end.
+                self.margin = self.margin.min(self.voltage_margin(q));
+            }
             if let Some((reason, subject)) = self.verdict(&end_sol, s1) {
                 if self.speculative && !self.trace_probe {
                     // A pass simulated to measure rates only tells its caller that it stops
                     // (and in which block), and by how much: where within the step does not
                     // matter there.
-                    if let Solution::Point(q) = &end_sol {
-                        self.margin = self.margin.min(self.voltage_margin(q));
-                    }
                     self.stop(reason, Some(mode), subject);
                     return true;
                 }

@@ -230,27 +230,33 @@ impl<'a> Sim<'a> {
         let mut stop_within: Option<f64> = None;
         // The pass length of the block that stop falls in (this one or a nested one).
         let mut stop_pass = pass;
-        // The stretch estimated to end one pass before that stop, in passes from the current
-        // state ([`Sim::aim_before_stop`]): no stretch goes further while it stands.
-        let mut stop_aim: Option<f64> = None;
+        // The margin the simulated pass that found that stop ended with: with the last pass's
+        // own, it places the stretch that ends one pass before the stop
+        // ([`Sim::aim_before_stop`]), no stretch going further while it stands. Placed afresh
+        // from each pass nearer the stop (regula falsi keeping the stopping end), since a
+        // margin that falls ever faster toward the end puts each estimate early.
+        let mut stop_end: Option<StopMargin> = None;
         // Whether this block's stretches try two nodes first: as its last stretch measured
         // (the block runs again and again inside the passes of the blocks around it).
         let block = steps.as_ptr() as usize;
         let mut linear = self.c.linear_hint(block);
         while done < n {
             if let Some(delta) = last.as_ref() {
+                let aim = stop_within
+                    .zip(stop_end)
+                    .and_then(|(w, end)| self.aim_before_stop(delta.margin, w, end));
                 let k = self
                     .plan_skip(delta, n - done, pass, steps, stop_within, stop_pass)
-                    .min(stop_aim.unwrap_or(f64::INFINITY));
+                    .min(aim.unwrap_or(f64::INFINITY));
                 let allowed = !self.c.opt.exact || delta.ds == 0.0;
                 if allowed && k >= SKIP_MIN_PASSES as f64 {
-                    let (mut found, mut aimed) = (None, stop_aim);
+                    let (mut found, mut end) = (None, None);
                     let skipped = self.skip(
                         steps,
                         pass,
                         k,
                         delta,
-                        (&mut found, &mut stop_pass, &mut aimed),
+                        (&mut found, &mut stop_pass, &mut end),
                         &mut linear,
                     );
                     if !self.trace_probe {
@@ -264,9 +270,14 @@ impl<'a> Sim<'a> {
                             }
                             done += j;
                             last = Some(d);
+                            if found.is_some() {
+                                stop_end = end;
+                            }
                             stop_within =
                                 found.or(stop_within).map(|c| c - j).filter(|&c| c >= 1.0);
-                            stop_aim = aimed.map(|c| c - j).filter(|&c| c >= 0.0);
+                            if stop_within.is_none() {
+                                stop_end = None;
+                            }
                             continue;
                         }
                     }
@@ -281,7 +292,9 @@ impl<'a> Sim<'a> {
             last = Some(delta);
             done += 1.0;
             stop_within = stop_within.map(|c| c - 1.0).filter(|&c| c >= 1.0);
-            stop_aim = stop_aim.map(|c| c - 1.0).filter(|&c| c >= 0.0);
+            if stop_within.is_none() {
+                stop_end = None;
+            }
             if let Some(report) = self.c.progress {
                 let s0 = self.c.d.pack.start_soc;
                 let used = if s0 > 0.0 { 1.0 - self.soc() / s0 } else { 0.0 };
@@ -313,7 +326,7 @@ impl<'a> Sim<'a> {
         pass: f64,
         mut k: f64,
         delta: &Delta,
-        (stop_within, stop_pass, aim): (&mut Option<f64>, &mut f64, &mut Option<f64>),
+        (stop_within, stop_pass, end): (&mut Option<f64>, &mut f64, &mut Option<StopMargin>),
         linear: &mut bool,
     ) -> Option<(f64, Delta)> {
         // A stretch of two finishes its block (`plan_skip`); halved ones stop at three.
@@ -329,17 +342,19 @@ impl<'a> Sim<'a> {
             within: stop_within,
             pass: stop_pass,
             start_margin: first.margin,
-            aim,
+            end,
         };
         let mut spare = None;
-        if *linear && k >= min && !self.c.failed() {
-            match self.two_nodes(&st, k, (&mut stop, &mut spare), linear) {
-                Try::Done(r) => return *r,
-                Try::Again(n) => k = n,
-            }
-        }
+        // Two nodes while the rates hold straight (again after a stop, at the shorter stretch
+        // it aims at), three once they bend.
         while k >= min && !self.c.failed() {
-            match self.three_nodes(&st, k, (&mut stop, &mut spare), linear) {
+            let seen = (&mut stop, &mut spare);
+            let tried = if *linear {
+                self.two_nodes(&st, k, seen, linear)
+            } else {
+                self.three_nodes(&st, k, seen, linear)
+            };
+            match tried {
                 Try::Done(r) => return *r,
                 Try::Again(n) => k = n,
             }
@@ -417,33 +432,35 @@ impl<'a> Sim<'a> {
         if self.stop_found(stop.within, stop.pass, probe, pass, within) {
             Try::Again(0.0)
         } else {
-            let aim = self.aim_before_stop(probe, stop.start_margin, within);
+            *stop.end = StopMargin::of(probe);
+            let aim = stop
+                .end
+                .and_then(|end| self.aim_before_stop(stop.start_margin, within, end));
             // At most the halved stretch, whose bend is smaller: near the end of a long run the
             // stretches are held by their bend (an aim of 41 days on the handheld meter was
             // halved for it, costing a try).
-            *stop.aim = aim;
             Try::Again(aim.map_or(shorter, |a| a.min(shorter)))
         }
     }
 
     /// The stretch that ends one pass before the product stops, where a simulated pass
-    /// `within` passes in stopped it: the line through the stretch's start and the stop crosses
-    /// zero in the margin that ran out (state of charge for an empty pack; the least voltage
-    /// margin to an end condition, [`Sim::voltage_margin`], for a voltage end; `start_margin`
-    /// is the start node's), and the stretch ends the pass before (regula falsi: halving the
-    /// stretch instead took a simulated pass per halving, a third of a run's operating points
-    /// near the end of a long one). A margin that falls ever faster toward the end (a cell's
-    /// knee) puts the crossing early, so that the stretch falls short rather than stopping
-    /// again. `None` where the stop has no such margin (a collapse).
-    fn aim_before_stop(&self, probe: &Sim, start_margin: f64, within: f64) -> Option<f64> {
-        let (x0, m0, m1) = match probe.end.as_ref()?.reason {
+    /// `within` passes in stopped it with margin `end`: the line through the last pass (or the
+    /// stretch's start node), whose margin was `margin`, and the stop crosses zero in the
+    /// margin that ran out (state of charge for an empty pack, taken at the present state; the
+    /// least voltage margin to an end condition, [`Sim::voltage_margin`], for a voltage end),
+    /// and the stretch ends the pass before (regula falsi: halving the stretch instead took a
+    /// simulated pass per halving, a third of a run's operating points near the end of a long
+    /// one). A margin that falls ever faster toward the end (a cell's knee) puts the crossing
+    /// early, so that the stretch falls short rather than stopping again. `None` where the
+    /// margins do not bracket zero.
+    fn aim_before_stop(&self, margin: f64, within: f64, end: StopMargin) -> Option<f64> {
+        let (x0, m0) = if end.empty {
             // (A simulated pass stops at the start of the step that empties the pack.)
-            EndReason::Empty => (0.0, self.soc(), probe.soc().min(0.0)),
-            EndReason::Cutoff | EndReason::Undervoltage | EndReason::Rail => {
-                (-0.5, start_margin, probe.margin)
-            }
-            EndReason::Collapse | EndReason::Horizon => return None,
+            (0.0, self.soc())
+        } else {
+            (-0.5, margin)
         };
+        let m1 = end.margin;
         if !(m0 > 0.0 && m0.is_finite() && m1 <= 0.0 && m1.is_finite()) {
             return None;
         }
@@ -656,6 +673,7 @@ impl<'a> Sim<'a> {
     /// `None` (stopped) with `probe`'s end.
     fn stopped_like(&mut self, probe: &Sim) -> Option<(f64, Delta)> {
         self.end.clone_from(&probe.end);
+        self.margin = self.margin.min(probe.margin);
         self.end_pass = probe.end_pass;
         None
     }
@@ -739,8 +757,28 @@ struct StopSeen<'s> {
     pass: &'s mut f64,
     /// The least voltage margin of the stretch's start node, V (`Delta::margin`).
     start_margin: f64,
-    /// The stretch estimated to end one pass before the stop ([`Sim::aim_before_stop`]).
-    aim: &'s mut Option<f64>,
+    /// The margin the stopping pass ended with, where it has one.
+    end: &'s mut Option<StopMargin>,
+}
+
+/// The margin that ran out in a simulated pass that stopped the product: the state of charge
+/// for an empty pack, else the least voltage margin to an end condition (negative or zero).
+#[derive(Debug, Clone, Copy)]
+pub(super) struct StopMargin {
+    empty: bool,
+    margin: f64,
+}
+
+impl StopMargin {
+    /// The margin `probe` stopped with; `None` for a stop without one (a collapse).
+    fn of(probe: &Sim) -> Option<Self> {
+        let (empty, margin) = match probe.end.as_ref()?.reason {
+            EndReason::Empty => (true, probe.soc().min(0.0)),
+            EndReason::Cutoff | EndReason::Undervoltage | EndReason::Rail => (false, probe.margin),
+            EndReason::Collapse | EndReason::Horizon => return None,
+        };
+        Some(Self { empty, margin })
+    }
 }
 
 /// A pass simulated `at` passes into a stretch at the start's rates that the next try can use as
