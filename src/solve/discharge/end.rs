@@ -54,17 +54,17 @@ impl Sim<'_> {
         m
     }
 
-    /// Whether a step from `p` to (`s1`, `vp1`) at current `i` surely meets no end condition, so
-    /// that its end state need not be solved: the pack stays far from its power limit (above
-    /// 60 % of the open-circuit voltage, where a constant-power demand amplifies a sag at most
-    /// threefold) and the estimated sag is under a quarter of the margin.
+    /// Whether a step from `p` (whose voltage margin is `margin`, [`Sim::voltage_margin`]) to
+    /// (`s1`, `vp1`, `vb1`) at current `i` surely meets no end condition, so that its end state
+    /// need not be solved: the pack stays far from its power limit (above 60 % of the
+    /// open-circuit voltage, where a constant-power demand amplifies a sag at most threefold)
+    /// and the estimated sag is under a quarter of the margin.
     pub(super) fn surely_clear(
         &self,
         p: &OperatingPoint,
+        margin: f64,
         i: f64,
-        s1: f64,
-        vp1: f64,
-        vb1: f64,
+        (s1, vp1, vb1): (f64, f64, f64),
     ) -> bool {
         if s1 <= 0.0 {
             return false;
@@ -72,7 +72,7 @@ impl Sim<'_> {
         let v_open = p.pack.ocv - self.vp;
         let r0 = self.c.d.pack.r0(self.soc(), self.ambient());
         let sag = self.pack_shift(p, s1, vp1, vb1) + (i - p.pack.current).abs() * r0;
-        p.pack.voltage > 0.6 * v_open && 4.0 * sag < self.voltage_margin(p)
+        p.pack.voltage > 0.6 * v_open && 4.0 * sag < margin
     }
 
     /// The end condition holding at `p`, if any, in the contract's order after collapse.

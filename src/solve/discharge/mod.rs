@@ -24,7 +24,6 @@ mod skip;
 
 use std::borrow::Cow;
 use std::cell::{Cell, RefCell};
-use std::collections::{HashMap, HashSet};
 use std::fmt;
 use std::rc::Rc;
 
@@ -38,6 +37,7 @@ use super::numerics::{
 };
 use super::point::{OperatingPoint, PackState, Solution, StageState, solve_point_buffered};
 use super::sum2::Sum2;
+use crate::hash::{FastMap, FastSet};
 use crate::model::{Climate, Design, Step};
 
 /// A year of 365.25 days, s.
@@ -489,11 +489,11 @@ struct Ctx<'a> {
     counts: Cell<RunCounts>,
     /// Repeat blocks (by the address of their steps) whose last stretch bent, so that their
     /// next one takes three nodes at once (`Sim::skip`).
-    bent: RefCell<HashSet<usize>>,
+    bent: RefCell<FastSet<usize>>,
     /// Repeat blocks (by the address of their steps) and the fall in state of charge their next
     /// stretch may cover: it grows while stretches are taken whole and shrinks to what was taken
     /// when one is halved (`Sim::passes`).
-    reach: RefCell<HashMap<usize, f64>>,
+    reach: RefCell<FastMap<usize, f64>>,
     /// The last stretch taken: its curvature term as a share of what it may be (0 for a
     /// stretch taken along a line), for [`Ctx::set_reach`].
     fit: Cell<f64>,
@@ -541,8 +541,8 @@ impl<'a> Ctx<'a> {
             work: Cell::new(0),
             fault: RefCell::new(None),
             counts: Cell::new(RunCounts::default()),
-            bent: RefCell::new(HashSet::new()),
-            reach: RefCell::new(HashMap::new()),
+            bent: RefCell::new(FastSet::default()),
+            reach: RefCell::new(FastMap::default()),
             fit: Cell::new(0.0),
             slack: Cell::new(SKIP_ABS_BUDGET * d.pack.start_soc),
         }
@@ -665,7 +665,7 @@ struct Sim<'a> {
     /// Violations so far and the (kind, subject) pairs among them, shared between a run and its
     /// probes until one adds to them (a probe is a cheap copy).
     violations: Rc<Vec<Violation>>,
-    seen: Rc<HashMap<ViolationKind, HashSet<String>>>,
+    seen: Rc<FastMap<ViolationKind, FastSet<String>>>,
     tracer: Option<Tracer>,
     /// A trace probe: it only gives points to the trace, does not probe again inside its skips
     /// and its solves do not count toward the work limit (they are at most a fixed multiple of
@@ -1233,7 +1233,7 @@ impl<'a> Sim<'a> {
         // many times in a row ([`Sim::limiter_engages`]).
         let (mut cap_dt, mut cap_retries) = (f64::INFINITY, 0u32);
         while left > 1e-12 * dur {
-            let Some(p) = self.step_start(mode, next.take()) else {
+            let Some((p, margin)) = self.step_start(mode, next.take()) else {
                 return true;
             };
             let rate0 = self.rate(p.pack.current, 0.0);
@@ -1254,7 +1254,7 @@ impl<'a> Sim<'a> {
             } = end;
             let i = held.i;
             let watch = self.limiter_may_engage(&pm);
-            if watch.is_none() && self.surely_clear(&p, i, s1, vp1, x1) {
+            if watch.is_none() && self.surely_clear(&p, margin, i, (s1, vp1, x1)) {
                 self.take_step(&pm, held, dt, end);
                 left -= dt;
                 if self.past_horizon(mode) {
@@ -1311,17 +1311,19 @@ impl<'a> Sim<'a> {
     }
 
     /// The operating point a step of `mode` starts from (`next`, the last step's end, or the
-    /// present state solved afresh), observed; `None` where the product stops there (the stop
-    /// is recorded).
-    fn step_start(&mut self, mode: usize, next: Option<Solution>) -> Option<OperatingPoint> {
+    /// present state solved afresh), observed, with its voltage margin
+    /// ([`Sim::voltage_margin`]); `None` where the product stops there (the stop is recorded).
+    fn step_start(&mut self, mode: usize, next: Option<Solution>) -> Option<(OperatingPoint, f64)> {
         if self.halted(mode) {
             return None;
         }
         self.c.count(|c| c.steps += 1);
         let sol = next.unwrap_or_else(|| self.solve(mode, self.soc(), self.vp, self.vb));
-        if let Solution::Point(p) = &sol {
-            self.margin = self.margin.min(self.voltage_margin(p));
-        }
+        let margin = match &sol {
+            Solution::Point(p) => self.voltage_margin(p),
+            Solution::Collapse { .. } => f64::INFINITY,
+        };
+        self.margin = self.margin.min(margin);
         if let Some((reason, subject)) = self.verdict(&sol, self.soc()) {
             if let Solution::Point(p) = &sol {
                 self.observe(p);
@@ -1331,7 +1333,7 @@ impl<'a> Sim<'a> {
         }
         let Solution::Point(p) = sol else { return None };
         self.observe(&p);
-        Some(p)
+        Some((p, margin))
     }
 
     /// The length of a step from start point `p` (discharging at `rate0`) with `left` seconds
