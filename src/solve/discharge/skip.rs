@@ -236,15 +236,21 @@ impl<'a> Sim<'a> {
         // from each pass nearer the stop (regula falsi keeping the stopping end), since a
         // margin that falls ever faster toward the end puts each estimate early.
         let mut stop_end: Option<StopMargin> = None;
+        // The least voltage margin of the pass before `last`, and where that pass ended in
+        // passes from the present state: with `last`'s, the line toward a voltage stop.
+        let mut before: Option<(f64, f64)> = None;
         // Whether this block's stretches try two nodes first: as its last stretch measured
         // (the block runs again and again inside the passes of the blocks around it).
         let block = steps.as_ptr() as usize;
         let mut linear = self.c.linear_hint(block);
         while done < n {
             if let Some(delta) = last.as_ref() {
-                let aim = stop_within
-                    .zip(stop_end)
-                    .and_then(|(w, end)| self.aim_before_stop(delta.margin, w, end));
+                let aim =
+                    Self::aim_ahead(before, delta.margin, stop_within, stop_end).or_else(|| {
+                        stop_within
+                            .zip(stop_end)
+                            .and_then(|(w, end)| self.aim_before_stop(delta.margin, w, end))
+                    });
                 let k = self
                     .plan_skip(delta, n - done, pass, steps, stop_within, stop_pass)
                     .min(aim.unwrap_or(f64::INFINITY));
@@ -269,6 +275,7 @@ impl<'a> Sim<'a> {
                                 self.c.set_reach(block, k * delta.ds, (j - 1.0) * delta.ds);
                             }
                             done += j;
+                            before = last.as_ref().map(|l| (-j, l.margin));
                             last = Some(d);
                             if found.is_some() {
                                 stop_end = end;
@@ -289,6 +296,7 @@ impl<'a> Sim<'a> {
             if !self.trace_probe && !self.c.opt.exact {
                 self.c.grow_reach(block, delta.ds);
             }
+            before = last.as_ref().map(|l| (-1.0, l.margin));
             last = Some(delta);
             done += 1.0;
             stop_within = stop_within.map(|c| c - 1.0).filter(|&c| c >= 1.0);
@@ -424,7 +432,7 @@ impl<'a> Sim<'a> {
         stop: &mut StopSeen,
         pass: f64,
         within: f64,
-        shorter: f64,
+        (shorter, straight): (f64, bool),
     ) -> Try {
         if self.speculative {
             return Try::Done(Box::new(self.stopped_like(probe)));
@@ -436,10 +444,10 @@ impl<'a> Sim<'a> {
             let aim = stop
                 .end
                 .and_then(|end| self.aim_before_stop(stop.start_margin, within, end));
-            // At most the halved stretch, whose bend is smaller: near the end of a long run the
-            // stretches are held by their bend (an aim of 41 days on the handheld meter was
-            // halved for it, costing a try).
-            Try::Again(aim.map_or(shorter, |a| a.min(shorter)))
+            // At most the halved stretch, whose bend is smaller, unless the block's rates are
+            // straight: near the end of a long run the stretches are held by their bend (an aim
+            // of 41 days on the handheld meter was halved for it, costing a try).
+            Try::Again(aim.map_or(shorter, |a| if straight { a } else { a.min(shorter) }))
         }
     }
 
@@ -470,6 +478,60 @@ impl<'a> Sim<'a> {
         Some((x.floor() - 1.0).min(within - 2.0).max(0.0))
     }
 
+    /// The stretch that ends one pass before the product stops on a voltage, placed from the
+    /// least voltage margins of the last two passes (`before`, with where that pass ended in
+    /// passes from the present state, and `margin`, the last pass's): where they fall, the line
+    /// through them crosses zero at the stop (a margin that falls as steadily as a cell's
+    /// resistance rises gives it to within a pass or two). Where a simulated pass found the
+    /// product stopping `within` passes in with margin `end`, the parabola through the three
+    /// crosses zero between the last pass and that one: the line from the last pass to a
+    /// stop found deep beyond it, where the margin falls ever faster, lands early, a stretch of
+    /// its own for each try, and the line through the last two passes late. `None` for an
+    /// empty pack and where the margins give no crossing.
+    fn aim_ahead(
+        before: Option<(f64, f64)>,
+        margin: f64,
+        within: Option<f64>,
+        end: Option<StopMargin>,
+    ) -> Option<f64> {
+        let (xb, mb) = before?;
+        if !(margin > 0.0 && mb.is_finite() && xb < 0.0) || end.is_some_and(|e| e.empty) {
+            return None;
+        }
+        // Each margin is placed at the end of its pass: whatever the place of a pass's deepest
+        // sag within it, the same for every pass, a margin crossing zero `x` passes from now
+        // stops the pass `floor(x)` in. (A stopping pass's margin is placed at its start, where
+        // a stop deep beyond the last pass is found: early by at most a pass.)
+        let d1 = (margin - mb) / -xb;
+        let x = match within.zip(end) {
+            Some((w, e)) => {
+                let (xs, m1) = (w - 1.0, e.margin);
+                if !(m1 <= 0.0 && m1.is_finite() && xs > 0.0) {
+                    return None;
+                }
+                // Newton's form through (0, margin), (xs, m1) and (xb, mb); it changes sign on
+                // (0, xs], where halving finds the crossing.
+                let d2 = (m1 - margin) / xs;
+                let c = (d2 - d1) / (xs - xb);
+                let m = |x: f64| margin + d2 * x + c * x * (x - xs);
+                let (mut lo, mut hi) = (0.0, xs);
+                for _ in 0..64 {
+                    let mid = 0.5 * (lo + hi);
+                    if m(mid) > 0.0 {
+                        lo = mid;
+                    } else {
+                        hi = mid;
+                    }
+                }
+                lo
+            }
+            None if d1 < 0.0 && d1.is_finite() => margin / -d1,
+            None => return None,
+        };
+        let aim = (x.floor() - 1.0).max(0.0);
+        Some(within.map_or(aim, |w| aim.min(w - 2.0).max(0.0)))
+    }
+
     /// The two-node try of a stretch of `k` passes: the end pass first, reached at the start's
     /// rates. Where the rates did not move over the stretch, the line through the two nodes is
     /// the stretch (no middle pass); where they bend, `linear` is cleared and three nodes
@@ -486,7 +548,7 @@ impl<'a> Sim<'a> {
         probe.speculative = true;
         probe.advance(k, pass, delta);
         let Some(rk) = probe.run_pass(st.steps, pass) else {
-            return self.probe_stopped(&probe, stop, pass, k + 1.0, (k / 2.0).floor());
+            return self.probe_stopped(&probe, stop, pass, k + 1.0, ((k / 2.0).floor(), true));
         };
         let flat = (rk.ds - delta.ds).abs() <= self.linear_rel() * delta.ds.abs()
             && (rk.ds > 0.0 || delta.ds <= 0.0);
@@ -531,7 +593,7 @@ impl<'a> Sim<'a> {
                 let mut probe = self.end_probe(st, k, h, &rm);
                 let Some(rk) = probe.run_pass(st.steps, pass) else {
                     *spare = Some(Spare::new(h, mid, &rm));
-                    return self.probe_stopped(&probe, stop, pass, k + 1.0, h);
+                    return self.probe_stopped(&probe, stop, pass, k + 1.0, (h, false));
                 };
                 (probe, rk, &rm)
             }
@@ -569,7 +631,7 @@ impl<'a> Sim<'a> {
         mid.advance(h, pass, delta);
         let start_mid = mid.clone();
         let Some(mut rm) = mid.run_pass(st.steps, pass) else {
-            return Err(self.probe_stopped(&mid, stop, pass, h + 1.0, h));
+            return Err(self.probe_stopped(&mid, stop, pass, h + 1.0, (h, false)));
         };
         if rm.ds.is_nan() || (rm.ds <= 0.0 && delta.ds > 0.0) {
             // A pass in the middle that gains charge cannot be extrapolated: pass by pass.
@@ -592,7 +654,7 @@ impl<'a> Sim<'a> {
                 again.vb = rm.vb_star;
             }
             let Some(r) = again.run_pass(st.steps, pass) else {
-                return Err(self.probe_stopped(&again, stop, pass, h + 1.0, h));
+                return Err(self.probe_stopped(&again, stop, pass, h + 1.0, (h, false)));
             };
             rm = r;
             mid = again;
