@@ -414,6 +414,11 @@ fn point_between(
     rec_b.clear();
     rec_a.reserve(size);
     rec_b.reserve(size);
+    if v_a.to_bits() == v_b.to_bits() {
+        // One point: one walk.
+        let current = walker.rail_current(0, v_a, Some(rec_a)) + leak;
+        return assemble(design, mode, ocv, v_a, current, rec_a);
+    }
     let ia = walker.rail_current(0, v_a, Some(rec_a));
     let ib = walker.rail_current(0, v_b, Some(rec_b));
     blend(rec_a, rec_b, alpha);
@@ -946,6 +951,9 @@ impl Walker<'_> {
             return (0.0, f64::INFINITY);
         };
         if let Some(r) = rec {
+            if v_a.to_bits() == v_b.to_bits() {
+                return (v_a, self.rail_current(out, v_a, Some(r)));
+            }
             // The subtree's records at both voltages, blended in place at the end of `r`.
             let from = r.len();
             let ia = self.rail_current(out, v_a, Some(r));

@@ -29,6 +29,12 @@ pub enum Settle {
     },
 }
 
+/// The relative difference of the demand at the two ends of a settled bracket under which the
+/// demand counts as continuous there (the bracket is [`BISECT_REL`] wide: a smooth demand moves
+/// by about that share times its slope, far below this; a converter switching state moves it by
+/// its whole quiescent or loss step).
+const CONTINUOUS_REL: f64 = 1e-11;
+
 fn finite_or_inf(x: f64) -> f64 {
     if x.is_nan() { f64::INFINITY } else { x }
 }
@@ -240,6 +246,17 @@ fn bisect(
     } else {
         (0.0, 0.0)
     };
+    if fa.is_finite() && (fa - fb).abs() <= CONTINUOUS_REL * fa.abs().max(fb.abs()) {
+        // The demand is continuous across the bracket (no converter at a state boundary):
+        // both ends are the same point to within rounding, so the upper one stands for it and
+        // the caller walks the tree once instead of twice.
+        return Settle::Point {
+            v_a: hi,
+            v_b: hi,
+            alpha: 1.0,
+            current: fa,
+        };
+    }
     Settle::Point {
         v_a: hi,
         v_b: lo,
