@@ -151,6 +151,65 @@ fn fast_agrees_with_the_reference_on_buffered_designs() {
     }
 }
 
+/// A design of the random survey below (values as drawn) whose end falls within a fraction of a
+/// millivolt of the cutoff at the end of a pulse: a difference of 0.2 % in a pass's charge moves
+/// it by a whole pass, so fast and reference must agree in the charge itself.
+fn survey_case(buffer: &str, stage: &str, loads: &str, profile: &str, cell: &str) -> String {
+    format!(
+        "cells:\n  c: {{ capacity: 2 mAh, rated_current: 1 mA, {cell} }}\nbattery: {{ cell: c, buffer: {buffer} }}\n{stage}loads:\n{loads}modes: {{ m0: {{ l0: on }}, m1: {{ l1: on }} }}\nprofile:\n{profile}"
+    )
+}
+
+#[test]
+fn a_peukert_cell_recharging_its_buffer_after_a_pulse_agrees_with_the_reference() {
+    // The cells recharge the capacitor within some ten milliseconds after a half-second pulse,
+    // at first at 16 mA; averaged over a 4.6-s rest in sixteen equal parts, the convex rate law
+    // (Peukert, k = 1.09) weighed that recharge at 0.5 mA: the pass's charge came 0.2 % short
+    // and the run took one pulse more than the reference (9.8 %).
+    let text = survey_case(
+        "{ capacitance: 0.8044430361334767 mF, esr: 0.4637846054236724 Ω, leakage: 0.5 µA }",
+        "",
+        "  - { id: l0, rail: battery, draw: { on: 169.7686118231831 Ω, sleep: 3 µA }, default: sleep }\n  - { id: l1, rail: battery, draw: { on: 0 A } }\n",
+        "  - repeat:\n      - { mode: m1, for: 4.63346300893837 s }\n    times: 4\n  - { mode: m0, for: 0.48828032630725743 s }\n",
+        "peukert: 1.094616816862042, self_discharge: 4.443060984239062 %/month, ocv: [[0 %, 2.6679943275580893 V], [30 %, 2.8359631508243495 V], [100 %, 2.9659202191475083 V]], resistance: [[0 %, 28.239313023222216 Ω], [100 %, 9.413104341074073 Ω]], cutoff: 2.803071142078738 V",
+    );
+    let d = design(&text);
+    let (f, e) = (fast(&d), exact(&d));
+    assert_eq!(f.end.reason, e.end.reason);
+    assert!(
+        close(f.runtime_s(), e.runtime_s(), 2e-3),
+        "fast {} s vs reference {} s",
+        f.runtime_s(),
+        e.runtime_s()
+    );
+}
+
+#[test]
+fn a_burst_of_pulses_draining_the_buffer_runs_pass_by_pass() {
+    // A burst of four 0.125-s pulses every 4.8 s drains a 16 mF capacitor (time constant
+    // 0.17 s) across the burst: skipping the burst's middle two passes as if the capacitor's
+    // path were periodic put the burst's charge 0.6 % off, and counting the run in the
+    // burst's short passes let the block of bursts skip although it ends after 45 of them:
+    // one burst more than the reference (2.3 %).
+    let text = survey_case(
+        "{ capacitance: 16.1605148149087 mF, esr: 0.5028334677175641 Ω, leakage: 0.5 µA }",
+        "stages: [{ id: conv, kind: boost, input: battery, output: 3.3 V, efficiency: [[100 µA, 70 %], [10 mA, 90 %]], quiescent: 8 µA, input_range: [2.2 V, 5 V] }]\n",
+        "  - { id: l0, rail: battery, draw: { on: 13.272672299748683 mA, sleep: 3 µA }, default: sleep }\n  - { id: l1, rail: battery, draw: { on: 37.53750657015604 mW, sleep: 3 µA }, default: sleep }\n",
+        "  - repeat:\n      - { mode: m1, for: 0.12547351439826318 s }\n    times: 4\n  - { mode: m0, for: 4.285143344125435 s }\n",
+        "peukert: 1.1396335155576744, self_discharge: 3.081446751587883 %/month, ocv: [[0 %, 2.5620243178684023 V], [30 %, 2.8267143439467812 V], [100 %, 2.9090209931039888 V]], resistance: [[0 %, 29.70344762513216 Ω], [100 %, 9.901149208377387 Ω]], cutoff: 2.2671283012501995 V",
+    )
+    .replace("m1: { l1: on }", "m1: { l0: on, l1: on }");
+    let d = design(&text);
+    let (f, e) = (fast(&d), exact(&d));
+    assert_eq!(f.end.reason, e.end.reason);
+    assert!(
+        close(f.runtime_s(), e.runtime_s(), 2e-3),
+        "fast {} s vs reference {} s",
+        f.runtime_s(),
+        e.runtime_s()
+    );
+}
+
 #[test]
 fn bad_buffers_are_refused_at_their_place() {
     let cases = [
@@ -264,7 +323,7 @@ mod random {
         /// miss it, by up to 1.64 % (see the survey above), so this runs on demand
         /// (`cargo test --release -- --ignored buffer::random`).
         #[test]
-        #[ignore = "known gap: about 1.6 % of random buffered designs miss 0.2 %, by up to 1.64 %"]
+        #[ignore = "known gap: about 1.5 % of random buffered designs miss 0.2 %, by up to 1.64 % (one in 2,200 by 4.1 %)"]
         fn fast_agrees_with_reference_with_a_buffer(g in designs(), b in buffers()) {
             let t = buffered(&g, b);
             let d = design(&t);

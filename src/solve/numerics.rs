@@ -79,6 +79,12 @@ pub const SKIP_BUFFER_LINEAR_REL: f64 = 1e-4;
 /// on a pass, and with fewer passes one pass more or less is beyond 0.2 % of the runtime. The
 /// estimate overstates runs that end on a voltage long before empty, hence the margin over 500.
 pub const SKIP_MIN_RUN_PASSES: f64 = 2000.0;
+/// Fewest of a block's longest stretches of plain steps between its nested repeat blocks that a
+/// run must span for the block to skip: a voltage end falls on a cluster of the nested block's
+/// passes, one per pass of the block, and one cluster more or less is then at most 0.2 % of the
+/// runtime (common practice, no source: the promise itself, the plain steps being at most the
+/// whole pass).
+pub const SKIP_MIN_RUN_GAPS: f64 = 500.0;
 /// Fewest passes worth skipping: two where they finish their block (a block of four passes,
 /// four sessions a day, runs its first and last and skips the two between), else
 /// [`SKIP_MIN_PASSES_OPEN`].
