@@ -72,6 +72,17 @@ pub fn settle(v_open: f64, r: f64, demand: &mut dyn FnMut(f64) -> f64) -> Settle
             break;
         }
         let fv = f(v);
+        if fv.to_bits() == i.to_bits() {
+            // The demand is the same at v as at the iterate above it (a constant current): v
+            // is where the line gives it, and the iteration, which never passes the highest
+            // balance, stands on it.
+            return Settle::Point {
+                v_a: v,
+                v_b: v,
+                alpha: 1.0,
+                current: fv,
+            };
+        }
         if g(v, fv) >= 0.0 {
             // The balance is at or just above v: try a bracket a few units in the last place
             // wide before bisecting the whole step.
@@ -354,6 +365,22 @@ mod tests {
         assert!(((v - v_exact) / v_exact).abs() < 1e-13, "{v} vs {v_exact}");
         assert!(((v * i - p) / p).abs() < 1e-12);
         assert!(calls <= 5, "{calls} demand evaluations");
+    }
+
+    #[test]
+    fn a_constant_current_settles_at_once() {
+        // Ohm's law: 20 mA through 15 ohm from 3 V leaves 2.7 V. The demand is the same at the
+        // first iterate as at the open-circuit voltage, so two evaluations settle it.
+        let mut calls = 0;
+        let (v, i) = point(settle(3.0, 15.0, &mut |_| {
+            calls += 1;
+            0.02
+        }));
+        assert!(
+            (v - 2.7).abs() < 1e-14 && (i - 0.02).abs() < 1e-17,
+            "{v} {i}"
+        );
+        assert_eq!(calls, 2);
     }
 
     #[test]
