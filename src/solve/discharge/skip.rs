@@ -519,7 +519,9 @@ impl<'a> Sim<'a> {
         end: Option<StopMargin>,
     ) -> Option<f64> {
         let (xb, mb) = before?;
-        if !(margin > 0.0 && mb.is_finite() && xb < 0.0) || end.is_some_and(|e| e.empty) {
+        if !(margin > 0.0 && margin.is_finite() && mb.is_finite() && xb < 0.0)
+            || end.is_some_and(|e| e.empty)
+        {
             return None;
         }
         // Each margin is placed at the end of its pass: whatever the place of a pass's deepest
@@ -547,7 +549,8 @@ impl<'a> Sim<'a> {
                         hi = mid;
                     }
                 }
-                lo
+                // (The first place where the margin is no longer above zero, as the line's.)
+                hi
             }
             None if d1 < 0.0 && d1.is_finite() => margin / -d1,
             None => return None,
@@ -972,7 +975,49 @@ fn stretch_weights(x0: f64, h: f64, k: f64, r: [f64; 3]) -> ([f64; 3], f64) {
 
 #[cfg(test)]
 mod tests {
-    use super::stretch_weights;
+    use super::{Sim, StopMargin, stretch_weights};
+
+    #[test]
+    fn aims_follow_the_margins_line_and_parabola() {
+        // A margin falling 0.05 V a pass from 0.5 V (the last pass's, placed at 0; the one ten
+        // passes before at 1.0 V) crosses zero 10 passes ahead: the stop falls in pass 10, and
+        // the stretch ends with pass 9. A stop found 20 passes in on the same line changes
+        // nothing (the parabola through three points of a line is the line).
+        let voltage = |margin| {
+            Some(StopMargin {
+                empty: false,
+                margin,
+            })
+        };
+        assert_eq!(
+            Sim::aim_ahead(Some((-10.0, 1.0)), 0.5, None, None),
+            Some(9.0)
+        );
+        let on_line = voltage(0.5 - 0.05 * 19.0);
+        assert_eq!(
+            Sim::aim_ahead(Some((-10.0, 1.0)), 0.5, Some(20.0), on_line),
+            Some(9.0)
+        );
+        // A margin that falls ever faster (m(x) = 0.5 - 0.05 x - 0.002 x^2, from -10 to 19):
+        // its zero lies at x = 7.07, so the stop falls in pass 7; the parabola finds it where
+        // the line through the last two passes (at 10) would stop the stretch's end pass.
+        let m = |x: f64| 0.5 - 0.05 * x - 0.002 * x * x;
+        assert_eq!(
+            Sim::aim_ahead(Some((-10.0, m(-10.0))), 0.5, Some(20.0), voltage(m(19.0))),
+            Some(6.0)
+        );
+        // A rising margin gives no crossing; an empty pack's stop is left to the state of
+        // charge.
+        assert_eq!(Sim::aim_ahead(Some((-10.0, 0.4)), 0.5, None, None), None);
+        let empty = Some(StopMargin {
+            empty: true,
+            margin: 0.0,
+        });
+        assert_eq!(
+            Sim::aim_ahead(Some((-10.0, 1.0)), 0.5, Some(20.0), empty),
+            None
+        );
+    }
 
     #[test]
     fn stretch_weights_integrate_quadratics_exactly() {
