@@ -80,7 +80,19 @@ impl Pack {
 
     /// Ohmic resistance of the pack at SoC `s` and ambient temperature.
     pub fn r0(&self, s: f64, ambient_c: f64) -> f64 {
-        self.cell.resistance.at(s) * self.scale_r(ambient_c)
+        self.r0_scaled(s, self.scale_r(ambient_c))
+    }
+
+    /// The factor of the cell's tabulated resistance at ambient `ambient_c` (strings, the
+    /// temperature table, aging): [`Pack::r0`] is the table at the SoC times it.
+    pub(crate) fn r0_scale(&self, ambient_c: f64) -> f64 {
+        self.scale_r(ambient_c)
+    }
+
+    /// [`Pack::r0`] at SoC `s` with the factor `scale` already read ([`Pack::r0_scale`]): the
+    /// same value, for a caller that reads many states at one ambient.
+    pub(crate) fn r0_scaled(&self, s: f64, scale: f64) -> f64 {
+        self.cell.resistance.at(s) * scale
     }
 
     /// Polarization resistance of the pack and its time constant, if the cell has the branch.

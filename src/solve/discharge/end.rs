@@ -12,25 +12,33 @@ impl Sim<'_> {
         let pack = &self.c.d.pack;
         let t = self.ambient();
         let i = p.pack.current;
-        let (ocv_here, r0_here) = self.pack_here(t);
+        let (ocv_here, r0_here, scale) = self.pack_here(t);
         (pack.ocv(s) - ocv_here).abs()
-            + (pack.r0(s, t) - r0_here).abs() * i
+            + (pack.r0_scaled(s, scale) - r0_here).abs() * i
             + (vp - self.vp).abs()
             + (vb - self.vb).abs()
     }
 
     /// The pack's open-circuit voltage and ohmic resistance at the present state of charge and
-    /// ambient `t`, remembered until the state moves (a step reads them several times).
-    fn pack_here(&self, t: f64) -> (f64, f64) {
+    /// ambient `t`, and the resistance's factor at `t` ([`Pack::r0_scale`]), remembered until
+    /// the state moves (a step reads them several times).
+    ///
+    /// [`Pack::r0_scale`]: crate::model::Pack::r0_scale
+    fn pack_here(&self, t: f64) -> (f64, f64, f64) {
         let soc = self.soc();
-        let (s0, t0, ocv, r0) = self.here.get();
+        let (s0, t0, ocv, r0, scale) = self.here.get();
         if s0.to_bits() == soc.to_bits() && t0.to_bits() == t.to_bits() {
-            return (ocv, r0);
+            return (ocv, r0, scale);
         }
         let pack = &self.c.d.pack;
-        let (ocv, r0) = (pack.ocv(soc), pack.r0(soc, t));
-        self.here.set((soc, t, ocv, r0));
-        (ocv, r0)
+        let scale = if t0.to_bits() == t.to_bits() {
+            scale
+        } else {
+            pack.r0_scale(t)
+        };
+        let (ocv, r0) = (pack.ocv(soc), pack.r0_scaled(soc, scale));
+        self.here.set((soc, t, ocv, r0, scale));
+        (ocv, r0, scale)
     }
 
     /// The smallest margin, in volts, between `p` and an end condition that follows the pack
@@ -70,7 +78,7 @@ impl Sim<'_> {
             return false;
         }
         let v_open = p.pack.ocv - self.vp;
-        let r0 = self.c.d.pack.r0(self.soc(), self.ambient());
+        let r0 = self.pack_here(self.ambient()).1;
         let sag = self.pack_shift(p, s1, vp1, vb1) + (i - p.pack.current).abs() * r0;
         p.pack.voltage > 0.6 * v_open && 4.0 * sag < margin
     }

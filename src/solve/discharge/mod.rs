@@ -683,8 +683,9 @@ struct Sim<'a> {
     /// the current pass so far, the one it stopped at included (infinite before the first).
     margin: f64,
     /// The pack's open-circuit voltage and ohmic resistance at the present state, read by
-    /// [`Sim::pack_shift`] several times a step: (state of charge, ambient, OCV, R0).
-    here: std::cell::Cell<(f64, f64, f64, f64)>,
+    /// [`Sim::pack_shift`] several times a step: (state of charge, ambient, OCV, R0, the factor of
+    /// the resistance table at the ambient).
+    here: std::cell::Cell<(f64, f64, f64, f64, f64)>,
 }
 
 /// The cells' side of a step held at its mean point: the cells' current and the rate of
@@ -907,7 +908,7 @@ impl<'a> Sim<'a> {
             block_pass: f64::INFINITY,
             end_pass: f64::INFINITY,
             margin: f64::INFINITY,
-            here: std::cell::Cell::new((f64::NAN, f64::NAN, 0.0, 0.0)),
+            here: std::cell::Cell::new((f64::NAN, f64::NAN, 0.0, 0.0, 0.0)),
         }
     }
 
