@@ -4,7 +4,7 @@
 use joulepath::Design;
 use joulepath::solve::EndReason;
 
-use crate::runtime::{design, exact, fast};
+use crate::runtime::{assert_fast_agrees, design, exact, fast};
 use crate::util::close;
 
 /// A small coin-like cell (1 mAh, so the reference runs quickly) with a radio pulse of
@@ -139,15 +139,7 @@ fn fast_agrees_with_the_reference_on_buffered_designs() {
                 "[[0 %, 2.9 V], [100 %, 3.0 V]]",
                 "[[0 %, 2.5 V], [100 %, 3.1 V]]",
             );
-        let d = design(&text);
-        let (f, e) = (fast(&d), exact(&d));
-        assert_eq!(f.end.reason, e.end.reason, "{buffer}");
-        assert!(
-            close(f.runtime_s(), e.runtime_s(), 2e-3),
-            "{buffer}: fast {} s vs reference {} s",
-            f.runtime_s(),
-            e.runtime_s()
-        );
+        assert_fast_agrees(&design(&text), buffer);
     }
 }
 
@@ -173,15 +165,7 @@ fn a_peukert_cell_recharging_its_buffer_after_a_pulse_agrees_with_the_reference(
         "  - repeat:\n      - { mode: m1, for: 4.63346300893837 s }\n    times: 4\n  - { mode: m0, for: 0.48828032630725743 s }\n",
         "peukert: 1.094616816862042, self_discharge: 4.443060984239062 %/month, ocv: [[0 %, 2.6679943275580893 V], [30 %, 2.8359631508243495 V], [100 %, 2.9659202191475083 V]], resistance: [[0 %, 28.239313023222216 Ω], [100 %, 9.413104341074073 Ω]], cutoff: 2.803071142078738 V",
     );
-    let d = design(&text);
-    let (f, e) = (fast(&d), exact(&d));
-    assert_eq!(f.end.reason, e.end.reason);
-    assert!(
-        close(f.runtime_s(), e.runtime_s(), 2e-3),
-        "fast {} s vs reference {} s",
-        f.runtime_s(),
-        e.runtime_s()
-    );
+    assert_fast_agrees(&design(&text), "survey case");
 }
 
 #[test]
@@ -199,15 +183,7 @@ fn a_burst_of_pulses_draining_the_buffer_runs_pass_by_pass() {
         "peukert: 1.1396335155576744, self_discharge: 3.081446751587883 %/month, ocv: [[0 %, 2.5620243178684023 V], [30 %, 2.8267143439467812 V], [100 %, 2.9090209931039888 V]], resistance: [[0 %, 29.70344762513216 Ω], [100 %, 9.901149208377387 Ω]], cutoff: 2.2671283012501995 V",
     )
     .replace("m1: { l1: on }", "m1: { l0: on, l1: on }");
-    let d = design(&text);
-    let (f, e) = (fast(&d), exact(&d));
-    assert_eq!(f.end.reason, e.end.reason);
-    assert!(
-        close(f.runtime_s(), e.runtime_s(), 2e-3),
-        "fast {} s vs reference {} s",
-        f.runtime_s(),
-        e.runtime_s()
-    );
+    assert_fast_agrees(&design(&text), "survey case");
 }
 
 #[test]

@@ -20,6 +20,19 @@ pub(crate) fn exact(d: &Design) -> RunResult {
     run(d, &RunOptions::reference(d)).expect("the reference gives a result")
 }
 
+/// DESIGN section 6: the fast solver ends for the reference's reason and within 0.2 % of its
+/// runtime on `d` (`what` names the case in a failure).
+pub(crate) fn assert_fast_agrees(d: &Design, what: &str) {
+    let (f, e) = (fast(d), exact(d));
+    assert_eq!(f.end.reason, e.end.reason, "{what}");
+    assert!(
+        close(f.runtime_s(), e.runtime_s(), 2e-3),
+        "{what}: fast {} s vs reference {} s",
+        f.runtime_s(),
+        e.runtime_s()
+    );
+}
+
 /// Energy drawn from the open-circuit voltage = load energy + stage losses + pack loss.
 fn assert_energy_balance(r: &RunResult, what: &str) {
     let l = &r.ledger;
@@ -511,14 +524,7 @@ fn fast_solver_agrees_with_the_reference_on_small_examples() {
         .find(|p| p.ends_with("field-logger.yaml"))
         .unwrap();
     let d = Design::from_file(&f).unwrap();
-    let (a, b) = (fast(&d), exact(&d));
-    assert_eq!(a.end.reason, b.end.reason);
-    assert!(
-        close(a.runtime_s(), b.runtime_s(), 2e-3),
-        "{} vs {}",
-        a.runtime_s(),
-        b.runtime_s()
-    );
+    assert_fast_agrees(&d, "field logger");
 }
 
 #[test]

@@ -67,7 +67,9 @@ impl Pack {
         }
     }
 
-    fn scale_r(&self, ambient_c: f64) -> f64 {
+    /// The factor of the cell's tabulated resistance at ambient `ambient_c` (strings, the
+    /// temperature table, aging): [`Pack::r0`] is the table at the SoC times it.
+    pub(crate) fn scale_r(&self, ambient_c: f64) -> f64 {
         f64::from(self.series) / f64::from(self.parallel)
             * self.cell.temp_resistance.at(ambient_c)
             * self.aging_resistance
@@ -83,13 +85,7 @@ impl Pack {
         self.r0_scaled(s, self.scale_r(ambient_c))
     }
 
-    /// The factor of the cell's tabulated resistance at ambient `ambient_c` (strings, the
-    /// temperature table, aging): [`Pack::r0`] is the table at the SoC times it.
-    pub(crate) fn r0_scale(&self, ambient_c: f64) -> f64 {
-        self.scale_r(ambient_c)
-    }
-
-    /// [`Pack::r0`] at SoC `s` with the factor `scale` already read ([`Pack::r0_scale`]): the
+    /// [`Pack::r0`] at SoC `s` with the factor `scale` already read ([`Pack::scale_r`]): the
     /// same value, for a caller that reads many states at one ambient.
     pub(crate) fn r0_scaled(&self, s: f64, scale: f64) -> f64 {
         self.cell.resistance.at(s) * scale

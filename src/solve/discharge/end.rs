@@ -20,10 +20,10 @@ impl Sim<'_> {
     }
 
     /// The pack's open-circuit voltage and ohmic resistance at the present state of charge and
-    /// ambient `t`, and the resistance's factor at `t` ([`Pack::r0_scale`]), remembered until
+    /// ambient `t`, and the resistance's factor at `t` ([`Pack::scale_r`]), remembered until
     /// the state moves (a step reads them several times).
     ///
-    /// [`Pack::r0_scale`]: crate::model::Pack::r0_scale
+    /// [`Pack::scale_r`]: crate::model::Pack::scale_r
     fn pack_here(&self, t: f64) -> (f64, f64, f64) {
         let soc = self.soc();
         let (s0, t0, ocv, r0, scale) = self.here.get();
@@ -34,7 +34,7 @@ impl Sim<'_> {
         let scale = if t0.to_bits() == t.to_bits() {
             scale
         } else {
-            pack.r0_scale(t)
+            pack.scale_r(t)
         };
         let (ocv, r0) = (pack.ocv(soc), pack.r0_scaled(soc, scale));
         self.here.set((soc, t, ocv, r0, scale));
