@@ -17,6 +17,7 @@ mod led;
 mod plots;
 mod presets;
 mod properties;
+mod rail_buffer;
 mod reference;
 mod reports;
 mod runtime;

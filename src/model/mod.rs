@@ -254,6 +254,11 @@ impl Design {
         &self.tree
     }
 
+    /// Whether a stage has a buffer capacitor on its output rail.
+    pub fn has_rail_buffers(&self) -> bool {
+        self.stages.iter().any(|s| s.buffer.is_some())
+    }
+
     /// The values that spread from unit to unit (`tolerances:`), in file order.
     pub fn tolerances(&self) -> &[Tolerance] {
         &self.tolerances

@@ -1,5 +1,6 @@
 //! Stages: converters, regulators and switches, and the loss models of switching stages.
 
+use super::pack::Buffer;
 use super::table::Table;
 
 /// What a stage is.
@@ -340,6 +341,9 @@ pub struct Stage {
     /// its `setpoint` the LED string's voltage at this current, so that it regulates like a
     /// regulator of that kind; `dropout` is its headroom.
     pub(crate) led_current: Option<f64>,
+    /// A buffer capacitor on the output rail (a switching stage with an input current limit;
+    /// its `current_limit` is `None`: the stage's limit is the limiter).
+    pub(crate) buffer: Option<Buffer>,
 }
 
 impl Stage {
@@ -413,6 +417,11 @@ impl Stage {
     /// Loss model of a switching stage.
     pub fn loss(&self) -> &LossModel {
         &self.loss
+    }
+
+    /// The buffer capacitor on the output rail, if any.
+    pub fn buffer(&self) -> Option<Buffer> {
+        self.buffer
     }
 
     /// Quiescent current at zero load while enabled, A.

@@ -311,7 +311,7 @@ fn runtime_section(w: &mut dyn Write, d: &Design, r: &RunResult) -> io::Result<(
         )?;
     }
     let l = &r.ledger;
-    for sentence in energy_sentences(r) {
+    for sentence in energy_sentences(d, r) {
         writeln!(w, "<p>{}.</p>", prose(&capitalize(&sentence)))?;
     }
     if !d.loads.is_empty() {

@@ -253,8 +253,8 @@ pub struct RunBatteryJson {
     pub average_power_w: f64,
     /// Internal loss.
     pub loss_wh: f64,
-    /// Loss in the buffer capacitor across the pack (series resistance, leakage, limiter);
-    /// only for a design with one.
+    /// Loss in the buffer capacitors, across the pack (series resistance, leakage, limiter)
+    /// and on stages' rails (series resistance, leakage); only for a design with one.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub buffer_loss_wh: Option<f64>,
 }
@@ -335,7 +335,8 @@ impl RuntimeJson {
                 average_current_a: r.average_current_a(),
                 average_power_w: r.average_power_w(),
                 loss_wh: wh(r.ledger.pack_loss_j),
-                buffer_loss_wh: d.pack.buffer.map(|_| wh(r.ledger.buffer_loss_j)),
+                buffer_loss_wh: (d.pack.buffer.is_some() || d.has_rail_buffers())
+                    .then(|| wh(r.ledger.buffer_loss_j)),
             },
             stages: d
                 .stages

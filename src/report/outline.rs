@@ -234,6 +234,14 @@ fn stage_text(s: &Stage) -> String {
     if let Some(limit) = s.input_current_limit {
         parts.push(format!("input limit {}", fmt_eng(limit, "A")));
     }
+    if let Some(b) = s.buffer {
+        parts.push(format!(
+            "buffer {} on its rail (series resistance {}, leakage {})",
+            fmt_eng(b.capacitance, "F"),
+            fmt_eng(b.esr, "Ω"),
+            fmt_eng(b.leakage, "A")
+        ));
+    }
     if let (Some(lo), Some(hi)) = (s.input_min, s.input_max) {
         parts.push(format!("input {}..{}", fmt_eng(lo, "V"), fmt_eng(hi, "V")));
     }

@@ -89,7 +89,7 @@ pub fn end_sentence(d: &Design, r: &RunResult) -> String {
 fn write_table(w: &mut dyn Write, d: &Design, r: &RunResult, trace: bool) -> io::Result<()> {
     write_headline(w, d, r)?;
     writeln!(w)?;
-    for sentence in energy_sentences(r) {
+    for sentence in energy_sentences(d, r) {
         for line in wrap(&sentence, 96) {
             writeln!(w, "{line}")?;
         }
@@ -233,7 +233,7 @@ fn stage_table(d: &Design, r: &RunResult) -> TextTable {
 
 /// Where the energy went, in the names every report uses: the energy from the cells (open-circuit
 /// voltage x current, the pack's internal loss included) and the energy at the pack terminals.
-pub fn energy_sentences(r: &RunResult) -> Vec<String> {
+pub fn energy_sentences(d: &Design, r: &RunResult) -> Vec<String> {
     let l = &r.ledger;
     let wh = |j: f64| fmt_eng(j / 3600.0, "Wh");
     let mut out = vec![format!(
@@ -246,8 +246,18 @@ pub fn energy_sentences(r: &RunResult) -> Vec<String> {
         fmt_eng(r.average_power_w(), "W"),
     )];
     if l.buffer_loss_j != 0.0 || l.buffer_out_j != 0.0 {
+        let limiter = "series resistance, leakage, limiter, recharging through the cells";
+        let (what, how, whose) = match (d.pack.buffer().is_some(), d.has_rail_buffers()) {
+            (true, false) => ("the buffer capacitor", limiter, "its"),
+            (false, _) => (
+                "the buffer capacitors on the stages' rails",
+                "series resistance, leakage",
+                "their",
+            ),
+            (true, true) => ("the buffer capacitors", limiter, "their"),
+        };
         out.push(format!(
-            "the buffer capacitor lost {} (series resistance, leakage, limiter, recharging through the cells) and gave {} from its store",
+            "{what} lost {} ({how}) and gave {} from {whose} store",
             wh(l.buffer_loss_j),
             wh(l.buffer_out_j)
         ));

@@ -26,10 +26,11 @@ pub struct Ledger {
     pub ocv_energy_j: f64,
     /// Internal loss of the pack, J.
     pub pack_loss_j: f64,
-    /// Loss in the buffer capacitor across the pack (series resistance, leakage, limiter), J.
+    /// Loss in the buffer capacitors, the one across the pack (series resistance, leakage,
+    /// limiter) and those on stages' rails (series resistance, leakage), J.
     pub buffer_loss_j: f64,
-    /// Energy the buffer capacitor gave up: its stored energy at the start less at the end, J
-    /// (about 0 over whole pulses).
+    /// Energy the buffer capacitors gave up: their stored energy at the start less at the end,
+    /// J (about 0 over whole pulses).
     pub buffer_out_j: f64,
     /// Stage count, load count.
     stages: usize,
@@ -113,6 +114,10 @@ impl Ledger {
         self.ocv_energy_j += p.pack.ocv * p.pack.current * dt;
         self.pack_loss_j += p.pack.loss * dt;
         if let Some(b) = &p.buffer {
+            self.buffer_loss_j += b.loss * dt;
+            self.buffer_out_j += b.stored_power * dt;
+        }
+        for b in &p.rail_buffers {
             self.buffer_loss_j += b.loss * dt;
             self.buffer_out_j += b.stored_power * dt;
         }

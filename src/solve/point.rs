@@ -5,7 +5,7 @@
 use std::cell::{Cell, RefCell};
 
 use super::root::{Settle, settle};
-use crate::model::{Design, LossMemo, LossModel, Mode, Stage, StageKind};
+use crate::model::{Buffer, Design, LossMemo, LossModel, Mode, Stage, StageKind};
 
 /// The regulation state of a stage at an operating point.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -121,15 +121,22 @@ pub struct OperatingPoint {
     /// The buffer capacitor across the pack, if the design has one and the point was solved
     /// with its voltage.
     pub buffer: Option<BufferPoint>,
+    /// The buffer capacitors on stages' output rails, in stage order (empty without any).
+    pub rail_buffers: Vec<RailBufferPoint>,
 }
 
 impl OperatingPoint {
-    /// Sum of load powers plus stage losses, plus the buffer's losses less the power its
-    /// capacitor gives up: equals the pack's terminal power.
+    /// Sum of load powers plus stage losses, plus the buffers' losses less the power their
+    /// capacitors give up: equals the pack's terminal power.
     pub fn delivered_plus_losses(&self) -> f64 {
         self.loads.iter().map(|l| l.power).sum::<f64>()
             + self.stages.iter().map(|s| s.loss).sum::<f64>()
             + self.buffer.map_or(0.0, |b| b.loss - b.stored_power)
+            + self
+                .rail_buffers
+                .iter()
+                .map(|b| b.loss - b.stored_power)
+                .sum::<f64>()
     }
 
     /// The voltage and current of the node the tree draws from: the pack's terminals, or the
@@ -171,6 +178,55 @@ pub struct BufferPoint {
     pub stored_power: f64,
     /// How the cells feed the node.
     pub regime: BufferRegime,
+}
+
+/// How a buffer capacitor on a stage's output rail moves at an operating point.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum RailBufferState {
+    /// At the setpoint, the stage regulating: it carries its leakage alone.
+    Settled,
+    /// Below the setpoint, the stage regulating and recharging it through its series
+    /// resistance: an exponential toward the setpoint with time constant C x ESR.
+    Topping,
+    /// The stage at its input current limit: the capacitor gives (or takes) the difference
+    /// between the stage's output and the rail's draw, its voltage a state of its own.
+    Limited,
+    /// The stage passes its input through (dropout, bypass): the capacitor follows the rail.
+    Following,
+    /// The stage off or its rail dead: the capacitor keeps its charge less its leakage.
+    Holding,
+}
+
+impl RailBufferState {
+    /// The name used in reports and JSON.
+    pub fn name(self) -> &'static str {
+        match self {
+            RailBufferState::Settled => "settled",
+            RailBufferState::Topping => "topping",
+            RailBufferState::Limited => "limited",
+            RailBufferState::Following => "following",
+            RailBufferState::Holding => "holding",
+        }
+    }
+}
+
+/// A buffer capacitor on a stage's output rail at an operating point (SI units).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RailBufferPoint {
+    /// The stage whose output rail it is on.
+    pub stage: usize,
+    /// Capacitor voltage (behind its series resistance).
+    pub v_cap: f64,
+    /// The rail's voltage.
+    pub node_voltage: f64,
+    /// Current out of the capacitor's store (negative while it charges).
+    pub current: f64,
+    /// Loss: series resistance and leakage, W.
+    pub loss: f64,
+    /// Power the capacitor gives from its store (negative while it charges), W.
+    pub stored_power: f64,
+    /// How it moves.
+    pub state: RailBufferState,
 }
 
 /// The cells and a buffer capacitor as one source for the node (see [`crate::model::Buffer`]).
@@ -284,20 +340,33 @@ pub fn solve_point_buffered(
     at: PackState,
     v_cap: Option<f64>,
 ) -> Solution {
-    // The buffers are kept per thread between points (a discharge solves thousands); a solve
-    // inside a solve, should there ever be one, works in buffers of its own.
-    SCRATCH.with(|cell| match cell.try_borrow_mut() {
-        Ok(mut scratch) => solve_in(design, mode, at, v_cap, &mut scratch),
-        Err(_) => solve_in(design, mode, at, v_cap, &mut Scratch::default()),
-    })
+    solve_point_state(design, mode, at, v_cap, &[])
 }
 
-/// [`solve_point_buffered`] in the buffers `scratch`.
-fn solve_in(
+/// [`solve_point_buffered`] with the buffer capacitors on stages' output rails at the voltages
+/// `rails` gives, as (stage index, voltage) pairs; a buffered stage not named there has its
+/// capacitor settled at the stage's setpoint.
+pub fn solve_point_state(
     design: &Design,
     mode: usize,
     at: PackState,
     v_cap: Option<f64>,
+    rails: &[(usize, f64)],
+) -> Solution {
+    // The buffers are kept per thread between points (a discharge solves thousands); a solve
+    // inside a solve, should there ever be one, works in buffers of its own.
+    SCRATCH.with(|cell| match cell.try_borrow_mut() {
+        Ok(mut scratch) => solve_in(design, mode, at, (v_cap, rails), &mut scratch),
+        Err(_) => solve_in(design, mode, at, (v_cap, rails), &mut Scratch::default()),
+    })
+}
+
+/// [`solve_point_state`] in the buffers `scratch`.
+fn solve_in(
+    design: &Design,
+    mode: usize,
+    at: PackState,
+    (v_cap, rails): (Option<f64>, &[(usize, f64)]),
     scratch: &mut Scratch,
 ) -> Solution {
     let pack = &design.pack;
@@ -321,6 +390,7 @@ fn solve_in(
             locked: &locked,
             memo: &scratch.memo,
             losses: &scratch.losses,
+            rails,
         };
         let mut demand = |v: f64| walker.current(0, v) + leak;
         let (s, regime, source) = settle_node(split.as_ref(), v_open, r, &mut demand);
@@ -337,6 +407,9 @@ fn solve_in(
         let mut point = point_between(&walker, mode, ocv, (v_a, v_b, alpha), leak, records);
         if let Some(sp) = &split {
             buffered(&mut point, sp, regime);
+        }
+        if design.has_rail_buffers() {
+            point.rail_buffers = rail_buffer_points(&walker, &point);
         }
         let newly = lockouts(design, &walker, &point);
         if newly.is_empty() {
@@ -611,7 +684,67 @@ fn assemble(
         stages,
         loads,
         buffer: None,
+        rail_buffers: Vec::new(),
     }
+}
+
+/// The buffer capacitors on the stages' rails at point `p`, walked by `walker`: each one's
+/// current is what its stage gives the rail less what the rail draws and the leakage.
+fn rail_buffer_points(walker: &Walker, p: &OperatingPoint) -> Vec<RailBufferPoint> {
+    let d = walker.d;
+    let mut out = Vec::new();
+    for (k, st) in d.stages.iter().enumerate() {
+        let Some(b) = st.buffer else { continue };
+        let x = walker.cap_voltage(k);
+        let sp = &p.stages[k];
+        let rail = k + 1;
+        let draw = d
+            .tree
+            .loads_on(rail)
+            .iter()
+            .map(|&l| p.loads[l].current)
+            .sum::<f64>()
+            + d.tree
+                .stages_on(rail)
+                .iter()
+                .map(|&j| p.stages[j].iin)
+                .sum::<f64>();
+        let (state, current, node) = match sp.state {
+            StageState::Regulating if x >= st.setpoint => (RailBufferState::Settled, 0.0, sp.vout),
+            StageState::Regulating => (
+                RailBufferState::Topping,
+                draw + b.leakage - sp.iout,
+                sp.vout,
+            ),
+            StageState::Limited if sp.vout > 0.0 => (
+                RailBufferState::Limited,
+                draw + b.leakage - sp.iout,
+                sp.vout,
+            ),
+            StageState::Dropout | StageState::Bypass => (RailBufferState::Following, 0.0, sp.vout),
+            _ => (
+                RailBufferState::Holding,
+                if x > 0.0 { b.leakage } else { 0.0 },
+                0.0,
+            ),
+        };
+        // Held: the leakage comes from the store, at the capacitor's own voltage.
+        let v_leak = if state == RailBufferState::Holding {
+            x
+        } else {
+            node
+        };
+        out.push(RailBufferPoint {
+            stage: k,
+            v_cap: x,
+            node_voltage: node,
+            current,
+            loss: b.esr * current * current + v_leak * b.leakage,
+            stored_power: x * current,
+            state,
+        });
+    }
+    out
 }
 
 /// Walks the tree for one mode: the current a rail draws at a voltage, optionally recording
@@ -630,9 +763,21 @@ struct Walker<'a> {
     /// Per stage, what its efficiency curves gave at the output current last asked for (the
     /// same current again and again while the pack's voltage is searched).
     losses: &'a [Cell<LossMemo>],
+    /// The voltages of the buffer capacitors on stages' rails, (stage, voltage); a buffered
+    /// stage not named has its capacitor at its setpoint.
+    rails: &'a [(usize, f64)],
 }
 
 impl Walker<'_> {
+    /// The voltage of the buffer capacitor on stage `k`'s rail: as given, else the stage's
+    /// setpoint (settled).
+    fn cap_voltage(&self, k: usize) -> f64 {
+        self.rails
+            .iter()
+            .find(|(j, _)| *j == k)
+            .map_or(self.d.stages[k].setpoint, |&(_, x)| x)
+    }
+
     /// Whether stage `k` is locked out (`locked` is empty while none is).
     fn is_locked(&self, k: usize) -> bool {
         self.locked.get(k).copied().unwrap_or(false)
@@ -814,6 +959,11 @@ impl Walker<'_> {
     fn stage_state(&self, k: usize, vin: f64) -> (StageState, f64) {
         let st = &self.d.stages[k];
         let (mut state, mut vout) = state_and_output(st, vin);
+        if let (Some(b), Some(limit), StageState::Regulating) =
+            (st.buffer, st.input_current_limit, state)
+        {
+            return self.buffered_state(k, vin, b, limit);
+        }
         if let Some(limit) = st.input_current_limit {
             if state == StageState::Regulating {
                 if let Some(v) = self.limited_output(k, vin, limit) {
@@ -858,6 +1008,16 @@ impl Walker<'_> {
                 let iin = iout + q;
                 (vout, iout, iin, vin * iin - vout * iout)
             }
+            (_, StageState::Limited | StageState::Regulating) if st.buffer.is_some() => {
+                self.buffered_figures(k, vin, state, vout, rec)
+            }
+            (_, StageState::Dropout | StageState::Bypass) if st.buffer.is_some() => {
+                // The capacitor follows the passed-through rail: the stage gives its leakage.
+                let leak = st.buffer.map_or(0.0, |b| b.leakage);
+                let iout = self.rail_current(out, vout, rec.as_deref_mut()) + leak;
+                let iin = iout + q;
+                (vout, iout, iin, (vin - vout) * iout + vin * q)
+            }
             (_, StageState::Limited) if vout <= 0.0 => {
                 // The output collapsed at the limit: the rail is dead and the limit current is
                 // all lost in the stage.
@@ -893,6 +1053,140 @@ impl Walker<'_> {
                 (vout, iout, iin, loss)
             }
         }
+    }
+
+    /// The state and rail voltage of switching stage `k` at input `vin` (where its input lets it
+    /// regulate) with buffer capacitor `b` on its rail and input current limit `limit`:
+    /// regulating at the setpoint where the limit covers the rail's draw there, the leakage and
+    /// the recharge through the capacitor's series resistance; limited otherwise, at the rail
+    /// voltage where the stage's output at its limit, the rail's draw and the capacitor's
+    /// current balance (the capacitor's own voltage where it has no series resistance).
+    fn buffered_state(&self, k: usize, vin: f64, b: Buffer, limit: f64) -> (StageState, f64) {
+        let set = self.d.stages[k].setpoint;
+        let out = k + 1;
+        let x = self.cap_voltage(k).min(set);
+        if b.esr <= 0.0 {
+            let fits = x >= set
+                && self.current(out, set) + b.leakage <= self.output_at_limit(k, vin, set, limit);
+            return if fits {
+                (StageState::Regulating, set)
+            } else {
+                (StageState::Limited, x)
+            };
+        }
+        let need = self.current(out, set) + b.leakage + (set - x) / b.esr;
+        if need <= self.output_at_limit(k, vin, set, limit) {
+            return (StageState::Regulating, set);
+        }
+        // The stage's surplus at rail voltage v: its output at the limit less the rail's draw,
+        // the leakage and the capacitor's charging current (v - x) / ESR. It is negative at the
+        // setpoint; bisection below it (NaN, a constant power at 0 V, counts as a surplus).
+        let surplus = |v: f64| {
+            self.output_at_limit(k, vin, v, limit)
+                - self.current(out, v)
+                - b.leakage
+                - (v - x) / b.esr
+        };
+        let (mut lo, mut hi) = (0.0_f64, set);
+        for _ in 0..80 {
+            let mid = 0.5 * (lo + hi);
+            if mid <= lo || mid >= hi {
+                break;
+            }
+            let g = surplus(mid);
+            if g.is_nan() || g > 0.0 {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+        (StageState::Limited, lo)
+    }
+
+    /// The output current of switching stage `k` at its input current limit `limit`, input
+    /// `vin` and output `v`: where V I + L(Vin, V, I) = Vin x limit (false position, Illinois
+    /// variant; the loss rises with the current). 0 where the limit does not cover the stage's
+    /// loss at no load; a rail at or below 0 V is taken at a millionth of the setpoint.
+    fn output_at_limit(&self, k: usize, vin: f64, v: f64, limit: f64) -> f64 {
+        let p = vin * limit;
+        let v = v.max(1e-6 * self.d.stages[k].setpoint);
+        if p.is_nan() || v.is_nan() || p <= 0.0 || v <= 0.0 {
+            return 0.0;
+        }
+        let f = |i: f64| v * i + self.regulating_loss(k, vin, v, i) - p;
+        let (mut lo, mut hi) = (0.0_f64, p / v);
+        let (mut f_lo, mut f_hi) = (f(lo), f(hi));
+        if f_lo.is_nan() || f_lo >= 0.0 {
+            return 0.0;
+        }
+        if f_hi.is_nan() || f_hi <= 0.0 {
+            return hi;
+        }
+        let mut side = 0i8;
+        for _ in 0..100 {
+            let mut i = (lo * f_hi - hi * f_lo) / (f_hi - f_lo);
+            if i.is_nan() || i <= lo || i >= hi {
+                i = 0.5 * (lo + hi);
+            }
+            let fi = f(i);
+            if fi.is_nan() {
+                break;
+            }
+            if fi > 0.0 {
+                (hi, f_hi) = (i, fi);
+                if side == 1 {
+                    f_lo *= 0.5;
+                }
+                side = 1;
+            } else {
+                (lo, f_lo) = (i, fi);
+                if side == -1 {
+                    f_hi *= 0.5;
+                }
+                side = -1;
+            }
+            if fi.abs() <= 1e-15 * p {
+                return i;
+            }
+            if hi - lo <= 1e-14 * hi {
+                break;
+            }
+        }
+        lo
+    }
+
+    /// The figures of switching stage `k` with a buffer capacitor on its rail, regulating or
+    /// at its limit ([`Walker::buffered_state`]) with input `vin` and rail voltage `v`:
+    /// regulating, the stage gives the rail's draw, the leakage and the capacitor's recharge;
+    /// limited, it gives its output at the limit and draws the limit.
+    fn buffered_figures(
+        &self,
+        k: usize,
+        vin: f64,
+        state: StageState,
+        v: f64,
+        rec: Option<&mut Vec<Rec>>,
+    ) -> (f64, f64, f64, f64) {
+        let st = &self.d.stages[k];
+        let Some(b) = st.buffer else {
+            return (v, 0.0, 0.0, 0.0);
+        };
+        let draw = self.rail_current(k + 1, v, rec);
+        if state == StageState::Limited {
+            let limit = input_limit_or_zero(st);
+            let iout = self.output_at_limit(k, vin, v, limit);
+            return (v, iout, limit, vin * limit - v * iout);
+        }
+        let x = self.cap_voltage(k).min(st.setpoint);
+        let charge = if b.esr > 0.0 { (v - x) / b.esr } else { 0.0 };
+        let iout = draw + b.leakage + charge;
+        let loss = self.regulating_loss(k, vin, v, iout);
+        let iin = if vin > 0.0 {
+            (v * iout + loss) / vin
+        } else {
+            0.0
+        };
+        (v, iout, iin, loss)
     }
 
     /// The output voltage of switching stage `k` at input `vin` when regulating would draw more

@@ -418,6 +418,11 @@ pub struct StageSpec {
     /// Switch: on resistance.
     #[serde(default)]
     pub on_resistance: Option<Qty>,
+    /// Switching stages with an `input_current_limit`: a buffer capacitor on the stage's output
+    /// rail, recharged by the stage at its limit (`current_limit` is not taken: the stage's
+    /// limit is the limiter).
+    #[serde(default)]
+    pub buffer: Option<BufferSpec>,
     /// Junction-to-ambient thermal resistance.
     #[serde(default)]
     pub theta_ja: Option<Qty>,

@@ -221,7 +221,7 @@ impl Lower<'_> {
         }
         let buffer = match &b.buffer {
             None => Some(None),
-            Some(spec) => self.buffer(spec).map(Some),
+            Some(spec) => self.buffer(spec, "battery.buffer").map(Some),
         };
         Some(Pack {
             buffer: buffer?,
@@ -236,29 +236,29 @@ impl Lower<'_> {
 }
 
 impl Lower<'_> {
-    /// The buffer capacitor across the pack.
-    fn buffer(&mut self, b: &BufferSpec) -> Option<Buffer> {
+    /// A buffer capacitor written at `path` (`battery.buffer`, or a stage's).
+    pub(super) fn buffer(&mut self, b: &BufferSpec, path: &str) -> Option<Buffer> {
         let c = self.value(
             &b.capacitance,
-            "battery.buffer.capacitance",
+            format_args!("{path}.capacitance"),
             Dim::Capacitance,
             Bound::AboveZero,
         );
         let esr = self.opt(
             b.esr.as_ref(),
-            "battery.buffer.esr",
+            format_args!("{path}.esr"),
             Dim::Resistance,
             Bound::AtLeastZero,
         );
         let leak = self.opt(
             b.leakage.as_ref(),
-            "battery.buffer.leakage",
+            format_args!("{path}.leakage"),
             Dim::Current,
             Bound::AtLeastZero,
         );
         let limit = self.opt(
             b.current_limit.as_ref(),
-            "battery.buffer.current_limit",
+            format_args!("{path}.current_limit"),
             Dim::Current,
             Bound::AboveZero,
         );

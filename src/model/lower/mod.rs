@@ -22,7 +22,7 @@ use super::cell::{Cell, CellSize, Chemistry};
 use super::climate::Climate;
 use super::load::{Captured, Draw, Load};
 use super::mode::{Mode, RepeatUntil, Step};
-use super::pack::Pack;
+use super::pack::{Buffer, Pack};
 use super::presets::{self, Preset};
 use super::stage::{EffCurve, LossModel, Stage, StageKind};
 use super::table::{Table, TableError};

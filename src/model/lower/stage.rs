@@ -57,6 +57,23 @@ impl Lower<'_> {
                 None => ok = false,
             }
         }
+        let max = crate::solve::MAX_RAIL_BUFFERS;
+        if let Some(i) = specs
+            .iter()
+            .enumerate()
+            .filter(|(_, s)| s.buffer.is_some())
+            .nth(max)
+            .map(|(i, _)| i)
+        {
+            self.err(
+                &format!("stages[{i}].buffer"),
+                format!("more than {max} stages have a buffer capacitor on their rail"),
+                Some(format!(
+                    "keep the {max} that matter; a capacitor behind a regulating stage only leaks"
+                )),
+            );
+            ok = false;
+        }
         ok.then_some(out)
     }
 
@@ -98,6 +115,7 @@ impl Lower<'_> {
         let supply = self.stage_supply(s, path);
         self.keys_of_kind(s, path, kind, led, kn);
         let paths = self.stage_paths(s, path, kind, led);
+        let buffer = self.stage_buffer(s, path, kind, led, kn);
         let theta = self.opt(
             s.theta_ja.as_ref(),
             format_args!("{path}.theta_ja"),
@@ -120,7 +138,7 @@ impl Lower<'_> {
         if self.diags.len() > before {
             return None;
         }
-        let (supply, paths) = (supply?, paths?);
+        let (supply, paths, buffer) = (supply?, paths?, buffer?);
         Some(Stage {
             id: s.id.clone(),
             kind,
@@ -141,7 +159,67 @@ impl Lower<'_> {
             theta_ja: theta?,
             tj_max: tj_max?.unwrap_or(125.0),
             led_current: led_current?,
+            buffer,
         })
+    }
+
+    /// The buffer capacitor on stage `s`'s output rail, if it has one: only a switching stage
+    /// with an `input_current_limit` takes one (the stage recharges it at its limit, the limit
+    /// being the limiter), and it has no `current_limit` of its own; `None` after an error.
+    fn stage_buffer(
+        &mut self,
+        s: &StageSpec,
+        path: &str,
+        kind: StageKind,
+        led: bool,
+        kn: &str,
+    ) -> Option<Option<Buffer>> {
+        let Some(b) = &s.buffer else {
+            return Some(None);
+        };
+        let at = format!("{path}.buffer");
+        if led || !kind.is_switching() {
+            self.err(
+                &at,
+                format!("a {kn} stage takes no buffer capacitor on its output rail"),
+                Some(
+                    "a rail's buffer sits behind a switching stage (buck, boost, buck-boost) \
+                     with an `input_current_limit`; to buffer the cells' pulses, put it across \
+                     the pack (`battery.buffer`)"
+                        .into(),
+                ),
+            );
+            return None;
+        }
+        if s.input_current_limit.is_none() {
+            self.err(
+                &at,
+                format!(
+                    "the stage `{}` has a buffer capacitor but no `input_current_limit`",
+                    s.id
+                ),
+                Some(
+                    "the stage recharges its rail's capacitor at its input current limit: add \
+                     e.g. `input_current_limit: 10 mA` (without a limit the capacitor would sit \
+                     at the setpoint and only leak; leave the buffer out then)"
+                        .into(),
+                ),
+            );
+            return None;
+        }
+        if b.current_limit.is_some() {
+            self.err(
+                &format!("{at}.current_limit"),
+                "a stage's buffer capacitor has no current limit of its own",
+                Some(
+                    "the stage's `input_current_limit` limits what it draws to recharge the \
+                     capacitor; remove `current_limit` here"
+                        .into(),
+                ),
+            );
+            return None;
+        }
+        self.buffer(b, &at).map(Some)
     }
 
     /// The output setpoint of stage `s` (a `kind` stage, `kn` in messages): its `output`, 0 for

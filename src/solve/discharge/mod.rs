@@ -20,7 +20,11 @@
 
 mod buffer;
 mod end;
+mod rails;
 mod skip;
+
+pub use rails::MAX_RAIL_BUFFERS;
+use rails::Rails;
 
 use std::borrow::Cow;
 use std::cell::{Cell, RefCell};
@@ -35,7 +39,9 @@ use super::numerics::{
     STEP_MAX_DS_EXACT, STEP_MAX_DS_FAST, STEP_MAX_DVP_EXACT, STEP_MAX_DVP_FAST, TRACE_BUCKETS,
     TRACE_PROBES_PER_SKIP, WORK_LIMIT_EXACT, WORK_LIMIT_FAST,
 };
-use super::point::{OperatingPoint, PackState, Solution, StageState, solve_point_buffered};
+use super::point::{
+    OperatingPoint, PackState, RailBufferState, Solution, StageState, solve_point_state,
+};
 use super::sum2::Sum2;
 use crate::hash::{FastMap, FastSet};
 use crate::model::{Climate, Design, Step};
@@ -660,6 +666,8 @@ struct Sim<'a> {
     /// the cells, nothing over the limiter's straight lines (the flow's own sensitivity, f(x1) /
     /// f(x0) of a one-dimensional flow whose speed is continuous across the regions).
     vb_ln: f64,
+    /// The voltages of the buffer capacitors on stages' rails.
+    rx: Rails,
     ledger: Ledger,
     peaks: Vec<Peak>,
     /// Violations so far and the (kind, subject) pairs among them, shared between a run and its
@@ -704,6 +712,8 @@ struct StepEnd {
     vp: f64,
     x: f64,
     ln: f64,
+    /// The buffer capacitors on stages' rails.
+    rx: Rails,
 }
 
 /// What one pass of a block changed.
@@ -733,6 +743,9 @@ struct Delta {
     vb_start: f64,
     /// The pass's least voltage margin to an end condition, V ([`Sim::margin`]).
     margin: f64,
+    /// Whether the buffer capacitors on stages' rails ended the pass where they started it
+    /// (recharged): only then are the passes alike and a stretch of them may be skipped.
+    rails_return: bool,
     ledger: Ledger,
 }
 
@@ -791,6 +804,7 @@ impl Delta {
             vb_star: parts[2].1.vb_star,
             vb_start: parts[2].1.vb_start,
             margin: parts[2].1.margin,
+            rails_return: parts.iter().all(|(_, d)| d.rails_return),
             ledger,
         }
     }
@@ -804,7 +818,7 @@ impl Delta {
         (vp0, seen0, vb0, vb_ln): (f64, f64, f64, f64),
         after: &Sim,
         pass: f64,
-        ledger: Ledger,
+        (ledger, rails_return): (Ledger, bool),
     ) -> Self {
         // The buffer's decay over the pass is the one its path had (`Sim::vb_ln`): e^(-T / (C
         // (R + Rc))) while shared with the cells throughout, 1 along a limiter's straight lines.
@@ -866,6 +880,7 @@ impl Delta {
                 after.vp
             },
             margin: after.margin,
+            rails_return,
             ledger,
         }
     }
@@ -888,6 +903,7 @@ impl<'a> Sim<'a> {
                 0.0
             },
             vb_ln: 0.0,
+            rx: Rails::charged(d),
             ledger: Ledger::new(d.stages.len(), d.loads.len()),
             peaks: vec![
                 Peak {
@@ -961,6 +977,7 @@ impl<'a> Sim<'a> {
     /// exact however small against the run's; `None` if the product stopped in it.
     fn run_pass(&mut self, steps: &[Step], pass: f64) -> Option<Delta> {
         let (s0, vp0, seen0, vb0) = (self.s, self.vp, self.i_seen, self.vb);
+        let rx0 = self.rx;
         let ln_outer = std::mem::replace(&mut self.vb_ln, 0.0);
         let margin_outer = std::mem::replace(&mut self.margin, f64::INFINITY);
         let speculative = self.speculative;
@@ -975,12 +992,19 @@ impl<'a> Sim<'a> {
         self.ledger.add_scaled(&local, 1.0);
         let ln = self.vb_ln;
         self.vb_ln = ln_outer + ln;
-        let delta = (!stopped).then(|| Delta::of(s0, (vp0, seen0, vb0, ln), self, pass, local));
+        let back = rx0.returned(&self.rx, self.c.d);
+        let delta =
+            (!stopped).then(|| Delta::of(s0, (vp0, seen0, vb0, ln), self, pass, (local, back)));
         self.margin = self.margin.min(margin_outer);
         delta
     }
 
     fn solve(&self, mode: usize, s: f64, vp: f64, vb: f64) -> Solution {
+        self.solve_rails(mode, s, vp, vb, &self.rx)
+    }
+
+    /// [`Sim::solve`] with the rail capacitors at `rx`.
+    fn solve_rails(&self, mode: usize, s: f64, vp: f64, vb: f64, rx: &Rails) -> Solution {
         let c = self.c;
         if !self.trace_probe {
             c.work.set(c.work.get().saturating_add(1));
@@ -991,7 +1015,7 @@ impl<'a> Sim<'a> {
             ambient_c: self.ambient(),
         };
         let vb = self.c.d.pack.buffer.map(|_| vb);
-        solve_point_buffered(self.c.d, mode, at, vb)
+        solve_point_state(self.c.d, mode, at, vb, rx.as_slice())
     }
 
     /// Rate of fall of the SoC, per second, at pack current `i` held for `dt` (Peukert-effective
@@ -1073,10 +1097,15 @@ impl<'a> Sim<'a> {
         } else {
             MEAN_POINT_REL
         };
-        if self.pack_shift(start, sm, vm, xm) <= rel * start.pack.voltage.abs() {
+        let rails_still = start
+            .rail_buffers
+            .iter()
+            .all(|b| b.state == RailBufferState::Settled);
+        if rails_still && self.pack_shift(start, sm, vm, xm) <= rel * start.pack.voltage.abs() {
             return Cow::Borrowed(start);
         }
-        let mut sol = self.solve(mode, sm, vm, xm);
+        let rxm = self.rails_at(start, dt, true);
+        let mut sol = self.solve_rails(mode, sm, vm, xm, &rxm);
         // With a buffer capacitor, its mean voltage follows from the node's current and that
         // current from the voltage: the start's current is the first guess, then the mean
         // point's own (a capacitor settling within the step sits where the node draws what
@@ -1091,7 +1120,7 @@ impl<'a> Sim<'a> {
                 }
                 x = next;
                 let v = v.unwrap_or(vm);
-                sol = self.solve(mode, sm, v, x);
+                sol = self.solve_rails(mode, sm, v, x, &rxm);
             }
         }
         match sol {
@@ -1194,7 +1223,7 @@ impl<'a> Sim<'a> {
             "state of charge"
         } else if !self.vp.is_finite() {
             "polarization voltage"
-        } else if !self.vb.is_finite() {
+        } else if !self.vb.is_finite() || !self.rx.finite() {
             "buffer capacitor voltage"
         } else if !self.now().is_finite() {
             "time"
@@ -1251,11 +1280,15 @@ impl<'a> Sim<'a> {
                 s: s1,
                 vp: vp1,
                 x: x1,
+                rx: rx1,
                 ..
             } = end;
             let i = held.i;
             let watch = self.limiter_may_engage(&pm);
-            if watch.is_none() && self.surely_clear(&p, margin, i, (s1, vp1, x1)) {
+            if watch.is_none()
+                && !Self::rails_moving(&p)
+                && self.surely_clear(&p, margin, i, (s1, vp1, x1))
+            {
                 self.take_step(&pm, held, dt, end);
                 left -= dt;
                 if self.past_horizon(mode) {
@@ -1263,7 +1296,7 @@ impl<'a> Sim<'a> {
                 }
                 continue;
             }
-            let end_sol = self.solve(mode, s1, vp1, x1);
+            let end_sol = self.solve_rails(mode, s1, vp1, x1, &rx1);
             if cap_retries < LIMITER_RETRIES
                 && watch.is_some_and(|l| Self::limiter_engages(&end_sol, l))
             {
@@ -1348,6 +1381,7 @@ impl<'a> Sim<'a> {
         }
         dt = dt.min(self.polarization_step(p, dt));
         dt = dt.min(self.cap_step_limit(p, dt));
+        dt = dt.min(self.rails_step_limit(p));
         // The ambient is held over a step: at most an hour with a daily swing.
         if let Some(c) = &self.c.opt.climate {
             dt = dt.min(c.step_s());
@@ -1370,7 +1404,8 @@ impl<'a> Sim<'a> {
         if let (_, _, _, Some(v)) = self.cap_after(pm, dt) {
             vp = v;
         }
-        (Held { i, rate }, StepEnd { s, vp, x, ln })
+        let rx = self.rails_at(pm, dt, false);
+        (Held { i, rate }, StepEnd { s, vp, x, ln, rx })
     }
 
     /// The state `dt` into a step held at mean point `pm` and `held`: the state of charge, the
@@ -1381,7 +1416,8 @@ impl<'a> Sim<'a> {
         if let Some(v) = v_cap {
             vp = v;
         }
-        StepEnd { s, vp, x, ln }
+        let rx = self.rails_at(pm, dt, false);
+        StepEnd { s, vp, x, ln, rx }
     }
 
     /// Take a step of `dt` held at mean point `pm` and `held`, ending at `end`: the ledger's
@@ -1394,6 +1430,7 @@ impl<'a> Sim<'a> {
         self.vp = end.vp;
         self.vb = end.x;
         self.vb_ln += end.ln;
+        self.rx = end.rx;
         if self.i_seen.is_nan() {
             self.seen_first = held.i;
         }
@@ -1426,7 +1463,7 @@ impl<'a> Sim<'a> {
             }
             let m = self.step_end(pm, held, mid);
             if self
-                .verdict(&self.solve(mode, m.s, m.vp, m.x), m.s)
+                .verdict(&self.solve_rails(mode, m.s, m.vp, m.x, &m.rx), m.s)
                 .is_some()
             {
                 hi = mid;
@@ -1436,7 +1473,7 @@ impl<'a> Sim<'a> {
         }
         let end = self.step_end(pm, held, hi);
         self.take_step(pm, held, hi, end);
-        let sol = self.solve(mode, end.s, end.vp, end.x);
+        let sol = self.solve_rails(mode, end.s, end.vp, end.x, &end.rx);
         if let Solution::Point(q) = &sol {
             self.offer_trace(q, self.now(), end.s);
         }

@@ -1,0 +1,181 @@
+//! The buffer capacitors on stages' output rails along a step (see
+//! [`crate::solve::RailBufferState`]).
+//!
+//! # Formula
+//!
+//! A capacitor C at voltage x on a stage's rail moves by its current out of the store, I:
+//! C dx/dt = -I. Behind a stage at its input current limit (or off, drawing only the leakage)
+//! the step holds I at its mean point, a straight line; the step is cut so that x moves by at
+//! most [`RAIL_STEP_DV`] of the setpoint, and a recharge lands on the setpoint. Behind a
+//! regulating stage it recharges through its series resistance R: an exponential toward the
+//! setpoint with time constant R C, followed exactly, its mean over the step taken in closed
+//! form (the current, linear in x, then has its exact mean). Behind a stage passing its input
+//! through (dropout, bypass) it follows the rail.
+
+#[allow(clippy::wildcard_imports)]
+use super::*;
+use crate::solve::RailBufferState;
+
+/// The most buffer capacitors on stages' rails a design may have.
+pub const MAX_RAIL_BUFFERS: usize = 8;
+
+/// The most a rail capacitor's voltage moves in a step, a fraction of its stage's setpoint
+/// (common practice, no source: a stage's output at its limit, about its input power over x,
+/// then changes by about 1 % over a step, which the mean point takes to second order).
+const RAIL_STEP_DV: f64 = 0.01;
+
+/// Within this fraction of the setpoint a recharging capacitor is at it (a landing step's end
+/// differs from the line its start planned by the curvature of the recharge).
+const RAIL_SNAP: f64 = 1e-9;
+
+/// The voltages of the buffer capacitors on stages' rails, (stage, voltage), in stage order;
+/// the first `n` are used.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub(super) struct Rails {
+    n: usize,
+    v: [(usize, f64); MAX_RAIL_BUFFERS],
+}
+
+impl Rails {
+    /// Every rail capacitor of `d` at its stage's setpoint (charged, as at the start).
+    pub(super) fn charged(d: &Design) -> Self {
+        let mut r = Self {
+            n: 0,
+            v: [(0, 0.0); MAX_RAIL_BUFFERS],
+        };
+        for (k, st) in d.stages().iter().enumerate() {
+            if st.buffer().is_some() && r.n < MAX_RAIL_BUFFERS {
+                r.v[r.n] = (k, st.setpoint());
+                r.n += 1;
+            }
+        }
+        r
+    }
+
+    pub(super) fn as_slice(&self) -> &[(usize, f64)] {
+        &self.v[..self.n]
+    }
+
+    /// Whether every voltage is finite.
+    pub(super) fn finite(&self) -> bool {
+        self.as_slice().iter().all(|(_, x)| x.is_finite())
+    }
+
+    /// Whether `other` holds the same voltages to within [`RAIL_SNAP`] of each setpoint: a
+    /// pass that ends where it started.
+    pub(super) fn returned(&self, other: &Self, d: &Design) -> bool {
+        self.as_slice()
+            .iter()
+            .zip(other.as_slice())
+            .all(|(&(k, a), &(_, b))| (a - b).abs() <= RAIL_SNAP * d.stages()[k].setpoint())
+    }
+}
+
+impl Sim<'_> {
+    /// The rail capacitors `t` seconds into a step from their present voltages, moving as at
+    /// point `p` (the step's mean point for its end, its start for its mean): `mean` gives the
+    /// mean over `[0, t]` instead of the value at `t`.
+    pub(super) fn rails_at(&self, p: &OperatingPoint, t: f64, mean: bool) -> Rails {
+        let mut out = self.rx;
+        let d = self.c.d;
+        for (slot, b) in out.v[..out.n].iter_mut().zip(&p.rail_buffers) {
+            let x0 = slot.1;
+            let st = &d.stages()[b.stage];
+            let set = st.setpoint();
+            let Some(buf) = st.buffer() else { continue };
+            slot.1 = match b.state {
+                RailBufferState::Settled => set,
+                RailBufferState::Following => b.node_voltage,
+                RailBufferState::Topping => topping(x0, set, buf.esr * buf.capacitance, t, mean),
+                RailBufferState::Limited | RailBufferState::Holding => {
+                    let slope = -b.current / buf.capacitance;
+                    // A recharge hands over to the regulating stage where the rail reaches the
+                    // setpoint: the capacitor at the setpoint less the recharge current's drop
+                    // across its series resistance, then an exponential (at once without one).
+                    let handover = set + buf.esr * b.current;
+                    let t_b = if slope > 0.0 && b.state == RailBufferState::Limited {
+                        ((handover - x0) / slope).max(0.0)
+                    } else {
+                        f64::INFINITY
+                    };
+                    if t <= t_b {
+                        let x = x0 + slope * if mean { 0.5 * t } else { t };
+                        let x = x.clamp(0.0, set);
+                        if !mean && set - x <= RAIL_SNAP * set {
+                            set
+                        } else {
+                            x
+                        }
+                    } else {
+                        let x_b = x0 + slope * t_b;
+                        let tau = buf.esr * buf.capacitance;
+                        let after = topping(x_b, set, tau, t - t_b, mean);
+                        if mean {
+                            (0.5 * (x0 + x_b) * t_b + after * (t - t_b)) / t
+                        } else {
+                            after
+                        }
+                    }
+                }
+            };
+        }
+        out
+    }
+
+    /// Whether a rail capacitor moves at `p` along a line (its stage at its limit, or off):
+    /// its end state then differs from the start's and must be solved.
+    pub(super) fn rails_moving(p: &OperatingPoint) -> bool {
+        p.rail_buffers.iter().any(|b| {
+            matches!(b.state, RailBufferState::Limited | RailBufferState::Holding)
+                && b.current != 0.0
+        })
+    }
+
+    /// The longest step from `p` over which each rail capacitor moving along a line moves by
+    /// at most [`RAIL_STEP_DV`] of its setpoint, a recharge landing on where its stage takes
+    /// over again (the setpoint less the drop of the recharge current across the series
+    /// resistance).
+    pub(super) fn rails_step_limit(&self, p: &OperatingPoint) -> f64 {
+        let d = self.c.d;
+        let mut dt = f64::INFINITY;
+        for (&(_, x0), b) in self.rx.as_slice().iter().zip(&p.rail_buffers) {
+            let st = &d.stages()[b.stage];
+            let Some(buf) = st.buffer() else { continue };
+            if !matches!(b.state, RailBufferState::Limited | RailBufferState::Holding) {
+                continue;
+            }
+            let speed = b.current.abs() / buf.capacitance;
+            if speed.is_nan() || speed <= 0.0 {
+                continue;
+            }
+            let set = st.setpoint();
+            let allowed = RAIL_STEP_DV * set;
+            dt = dt.min(allowed / speed);
+            if b.current < 0.0 {
+                let gap = set + buf.esr * b.current - x0;
+                if gap > 0.0 && gap <= allowed {
+                    dt = dt.min(gap / speed);
+                }
+            }
+        }
+        dt
+    }
+}
+
+/// A capacitor at `x0` recharged toward `set` with time constant `tau`, `t` seconds on (its
+/// mean over them with `mean`); at the setpoint at once without a time constant, and exactly on
+/// it within [`RAIL_SNAP`].
+fn topping(x0: f64, set: f64, tau: f64, t: f64, mean: bool) -> f64 {
+    let gap = set - x0;
+    if tau.is_nan() || tau <= 0.0 {
+        return set;
+    }
+    if t.is_nan() || t <= 0.0 {
+        return x0;
+    }
+    if mean {
+        return set - gap * (tau / t) * -(-t / tau).exp_m1();
+    }
+    let x = set - gap * (-t / tau).exp();
+    if set - x <= RAIL_SNAP * set { set } else { x }
+}
