@@ -747,6 +747,8 @@ struct Extreme {
     sleep_a: f64,
     power_w: f64,
     buck: Option<(f64, f64)>,
+    /// The buck's input current limit (A) and a buffer capacitor on its rail (F, Ω).
+    rail_buffer: Option<(f64, f64, f64)>,
     on_s: f64,
     off_s: f64,
     times: Option<u64>,
@@ -811,12 +813,17 @@ fn extreme() -> impl Strategy<Value = Extreme> {
                 0u64..=1_000_000_000_000_000_000,
             ]),
             magnitude(-40.0, 85.0),
+            prop::option::of((
+                magnitude(1e-4, 0.1),
+                magnitude(1e-6, 1.0),
+                magnitude(0.0, 10.0),
+            )),
         ),
     )
         .prop_map(
             |(
                 (capacity_mah, ocv_lo, ocv_span, r_ohm, pol, series, start),
-                (draw_a, sleep_a, power_w, buck, on_s, off_s, times, ambient_c),
+                (draw_a, sleep_a, power_w, buck, on_s, off_s, times, ambient_c, rail_buffer),
             )| Extreme {
                 capacity_mah,
                 ocv_lo,
@@ -829,6 +836,7 @@ fn extreme() -> impl Strategy<Value = Extreme> {
                 sleep_a,
                 power_w,
                 buck,
+                rail_buffer,
                 on_s,
                 off_s,
                 times,
@@ -868,9 +876,17 @@ impl Extreme {
             q(self.start * 100.0, "%")
         );
         let rail = if let Some((v, eta)) = self.buck {
+            let buffered = self.rail_buffer.map_or(String::new(), |(l, c, esr)| {
+                format!(
+                    ", input_current_limit: {}, buffer: {{ capacitance: {}, esr: {} }}",
+                    q(l, "A"),
+                    q(c, "F"),
+                    q(esr, "Ω")
+                )
+            });
             let _ = writeln!(
                 s,
-                "stages:\n  - {{ id: reg, kind: buck, input: battery, output: {}, efficiency: {} }}",
+                "stages:\n  - {{ id: reg, kind: buck, input: battery, output: {}, efficiency: {}{buffered} }}",
                 q(v, "V"),
                 q(eta * 100.0, "%")
             );

@@ -211,3 +211,166 @@ profile: [{{ mode: on, for: 1 h }}]
         assert!(err.contains(wanted), "{stage}: {err}");
     }
 }
+
+mod random {
+    //! The fast solver against the reference on the random designs of the runtime tests whose
+    //! converter (a buck or a boost) gets an input current limit and a buffer capacitor on its
+    //! rail (DESIGN section 6: within 0.2 %, the same end reason).
+
+    use joulepath::solve::{RunOptions, run};
+    use proptest::prelude::*;
+    use proptest::strategy::ValueTree;
+    use proptest::test_runner::TestRunner;
+
+    use crate::runtime::agreement::{Gen, config, designs, text};
+    use crate::runtime::design;
+
+    /// A rail buffer: input current limit in mA (1 to 30), capacitance in mF (10 µF to 100 mF),
+    /// series resistance in Ω.
+    fn buffers() -> impl Strategy<Value = (f64, f64, f64)> {
+        (0.0f64..1.5, -2.0f64..2.0, 0.0f64..1.0)
+            .prop_map(|(l, c, esr)| (10f64.powf(l), 10f64.powf(c), esr))
+    }
+
+    /// The text of design `g` with its converter limited and buffered; `None` for a design
+    /// without a buck or a boost.
+    fn buffered(g: &Gen, (limit, c, esr): (f64, f64, f64)) -> Option<String> {
+        let t = text(g);
+        ["buck", "boost"].iter().find_map(|kind| {
+            let at = format!("{{ id: conv, kind: {kind},");
+            t.contains(&at).then(|| {
+                t.replace(
+                    &at,
+                    &format!(
+                        "{at} input_current_limit: {limit} mA, buffer: {{ capacitance: {c} mF, esr: {esr} Ω, leakage: 0.5 µA }},"
+                    ),
+                )
+            })
+        })
+    }
+
+    /// A survey of random designs with a rail buffer: every one runs to a result in both
+    /// solvers with the same end reason, the fast solver within 0.2 % of the reference
+    /// (`JOULEPATH_AGREEMENT_CASES` and `JOULEPATH_AGREEMENT_SEED` run longer searches; CI: 48
+    /// cases, about half of them with a buck or a boost). The worst case is printed
+    /// (`-- --nocapture`).
+    #[test]
+    fn random_rail_buffered_designs_agree_with_the_reference() {
+        let mut runner = TestRunner::new(config());
+        let strategy = (designs(), buffers());
+        let cases = std::env::var("JOULEPATH_AGREEMENT_CASES")
+            .ok()
+            .and_then(|v| v.parse::<usize>().ok())
+            .unwrap_or(48);
+        let (mut compared, mut worst) = (0usize, (0.0f64, String::new()));
+        for _ in 0..cases {
+            let (g, b) = strategy.new_tree(&mut runner).expect("a design").current();
+            let Some(t) = buffered(&g, b) else { continue };
+            let d = design(&t);
+            let pass: f64 = d
+                .profile()
+                .iter()
+                .map(joulepath::model::Step::duration)
+                .sum();
+            let f = run(&d, &RunOptions::for_design(&d)).unwrap_or_else(|e| panic!("{e}\n{t}"));
+            if f.runtime_s() / pass >= 4000.0 {
+                continue;
+            }
+            let e = run(&d, &RunOptions::reference(&d)).unwrap_or_else(|e| panic!("{e}\n{t}"));
+            assert_eq!(f.end.reason, e.end.reason, "\n{t}");
+            let gap = (f.runtime_s() - e.runtime_s()).abs();
+            let rel = if gap == 0.0 { 0.0 } else { gap / e.runtime_s() };
+            compared += 1;
+            if rel > worst.0 {
+                worst = (rel, t.clone());
+            }
+            assert!(
+                rel <= 2e-3,
+                "{} vs {} s ({:.3} %)\n{t}",
+                f.runtime_s(),
+                e.runtime_s(),
+                100.0 * rel
+            );
+        }
+        println!(
+            "{compared} rail-buffered designs compared, worst {:.4} %:\n{}",
+            100.0 * worst.0,
+            worst.1
+        );
+        assert!(compared > cases / 8, "{compared} of {cases} compared");
+    }
+}
+
+mod points {
+    //! Every operating point of random designs with rail buffers at random voltages balances
+    //! energy (DESIGN section 5: the pack's power is the loads' plus the losses, here with the
+    //! capacitors' losses less what their stores give) and keeps each capacitor's state in step
+    //! with its stage's.
+
+    use joulepath::solve::{PackState, RailBufferState, Solution, StageState, solve_point_state};
+    use proptest::prelude::*;
+
+    use crate::runtime::design;
+
+    /// (kind, limit mA, capacitance mF, ESR Ω, leakage µA, voltage as a share of the setpoint,
+    /// load kind, load size).
+    type Gen = (usize, f64, f64, f64, f64, f64, usize, f64);
+
+    fn text(g: &Gen, ocv: f64) -> String {
+        let (kind, limit, c, esr, leak, _, load, size) = *g;
+        let (kind, out) = [("buck", 1.8), ("boost", 5.0), ("buck-boost", 3.3)][kind % 3];
+        let draw = match load % 3 {
+            0 => format!("{} mA", 50.0 * size),
+            1 => format!("{} mW", 150.0 * size),
+            _ => format!("{} Ω", 10.0 + 1000.0 * size),
+        };
+        format!(
+            "cells:
+  c: {{ capacity: 1 Ah, ocv: [[0 %, {lo} V], [100 %, {ocv} V]], resistance: 0.5 Ω, cutoff: 1 V }}
+battery: {{ cell: c }}
+stages:
+  - {{ id: s, kind: {kind}, input: battery, output: {out} V, efficiency: [[1 mA, 70 %], [100 mA, 92 %]], quiescent: 3 µA, input_current_limit: {limit} mA, buffer: {{ capacitance: {c} mF, esr: {esr} Ω, leakage: {leak} µA }} }}
+  - {{ id: ldo, kind: linear, input: s, output: 1.2 V }}
+loads:
+  - {{ id: a, rail: s, draw: {{ on: {draw}, idle: 4 µA }}, default: idle }}
+  - {{ id: b, rail: ldo, draw: {{ on: 2 mA }} }}
+modes: {{ busy: {{ a: on }}, idle: {{}}, off: {{ s: off }} }}
+profile: [{{ mode: busy, for: 1 s }}]
+",
+            lo = 0.8 * ocv
+        )
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig { cases: 300, failure_persistence: None, .. ProptestConfig::default() })]
+
+        #[test]
+        fn every_buffered_point_balances(
+            g in (0usize..3, 0.5f64..100.0, 0.01f64..10.0, 0.0f64..2.0, 0.0f64..50.0, 0.0f64..=1.0, 0usize..3, 0.0f64..1.0),
+            ocv in 1.5f64..4.5,
+        ) {
+            let t = text(&g, ocv);
+            let d = design(&t);
+            let set = d.stages()[0].setpoint();
+            let x = g.5 * set;
+            for m in 0..d.modes().len() {
+                let at = PackState { soc: 0.7, v_pol: None, ambient_c: 25.0 };
+                let Solution::Point(p) = solve_point_state(&d, m, at, None, &[(0, x)]) else { continue };
+                let (a, b) = (p.pack.power(), p.delivered_plus_losses());
+                prop_assert!((a - b).abs() <= 1e-9 * a.abs().max(b.abs()) + 1e-15, "{a} vs {b} in mode {m}, x = {x}\n{t}");
+                let rb = p.rail_buffers[0];
+                let sp = p.stages[0];
+                prop_assert!(rb.current.is_finite() && rb.node_voltage.is_finite(), "{rb:?}\n{t}");
+                prop_assert!(rb.node_voltage <= set * (1.0 + 1e-12), "{rb:?}\n{t}");
+                let expected = match sp.state {
+                    StageState::Regulating if x >= set => RailBufferState::Settled,
+                    StageState::Regulating => RailBufferState::Topping,
+                    StageState::Limited if sp.vout > 0.0 => RailBufferState::Limited,
+                    StageState::Dropout | StageState::Bypass => RailBufferState::Following,
+                    _ => RailBufferState::Holding,
+                };
+                prop_assert_eq!(rb.state, expected, "{:?}\n{}", sp, t);
+            }
+        }
+    }
+}

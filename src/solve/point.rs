@@ -408,9 +408,6 @@ fn solve_in(
         if let Some(sp) = &split {
             buffered(&mut point, sp, regime);
         }
-        if design.has_rail_buffers() {
-            point.rail_buffers = rail_buffer_points(&walker, &point);
-        }
         let newly = lockouts(design, &walker, &point);
         if newly.is_empty() {
             return Solution::Point(point);
@@ -598,6 +595,8 @@ impl Scratch {
 enum Rec {
     Stage(usize, StagePoint),
     Load(usize, LoadPoint),
+    /// The buffer capacitor on a stage's rail, after the stage and its subtree.
+    Cap(RailBufferPoint),
 }
 
 /// Weighted average of two walks of the same tree (same order of records), into the first.
@@ -635,6 +634,14 @@ fn blend(a: &mut [Rec], b: &[Rec], alpha: f64) {
                     power: mix(la.power, lb.power),
                 },
             ),
+            (Rec::Cap(ca), Rec::Cap(cb)) => Rec::Cap(RailBufferPoint {
+                v_cap: ca.v_cap,
+                node_voltage: mix(ca.node_voltage, cb.node_voltage),
+                current: mix(ca.current, cb.current),
+                loss: mix(ca.loss, cb.loss),
+                stored_power: mix(ca.stored_power, cb.stored_power),
+                ..*ca
+            }),
             (other, _) => *other,
         };
     }
@@ -667,12 +674,15 @@ fn assemble(
         };
         d.loads.len()
     ];
+    let mut rail_buffers = Vec::new();
     for r in rec {
         match *r {
             Rec::Stage(k, s) => stages[k] = s,
             Rec::Load(l, p) => loads[l] = p,
+            Rec::Cap(c) => rail_buffers.push(c),
         }
     }
+    rail_buffers.sort_by_key(|c| c.stage);
     OperatingPoint {
         mode,
         pack: PackPoint {
@@ -684,67 +694,55 @@ fn assemble(
         stages,
         loads,
         buffer: None,
-        rail_buffers: Vec::new(),
+        rail_buffers,
     }
 }
 
-/// The buffer capacitors on the stages' rails at point `p`, walked by `walker`: each one's
-/// current is what its stage gives the rail less what the rail draws and the leakage.
-fn rail_buffer_points(walker: &Walker, p: &OperatingPoint) -> Vec<RailBufferPoint> {
-    let d = walker.d;
-    let mut out = Vec::new();
-    for (k, st) in d.stages.iter().enumerate() {
-        let Some(b) = st.buffer else { continue };
-        let x = walker.cap_voltage(k);
-        let sp = &p.stages[k];
-        let rail = k + 1;
-        let draw = d
-            .tree
-            .loads_on(rail)
-            .iter()
-            .map(|&l| p.loads[l].current)
-            .sum::<f64>()
-            + d.tree
-                .stages_on(rail)
-                .iter()
-                .map(|&j| p.stages[j].iin)
-                .sum::<f64>();
-        let (state, current, node) = match sp.state {
-            StageState::Regulating if x >= st.setpoint => (RailBufferState::Settled, 0.0, sp.vout),
-            StageState::Regulating => (
-                RailBufferState::Topping,
-                draw + b.leakage - sp.iout,
-                sp.vout,
-            ),
-            StageState::Limited if sp.vout > 0.0 => (
-                RailBufferState::Limited,
-                draw + b.leakage - sp.iout,
-                sp.vout,
-            ),
-            StageState::Dropout | StageState::Bypass => (RailBufferState::Following, 0.0, sp.vout),
-            _ => (
-                RailBufferState::Holding,
-                if x > 0.0 { b.leakage } else { 0.0 },
-                0.0,
-            ),
-        };
-        // Held: the leakage comes from the store, at the capacitor's own voltage.
-        let v_leak = if state == RailBufferState::Holding {
-            x
-        } else {
-            node
-        };
-        out.push(RailBufferPoint {
-            stage: k,
-            v_cap: x,
-            node_voltage: node,
-            current,
-            loss: b.esr * current * current + v_leak * b.leakage,
-            stored_power: x * current,
-            state,
-        });
+/// The buffer capacitor `b` (at voltage `x`) on the rail of a stage at point `sp`, the rail
+/// drawing `draw` (its loads and the stages on it): its current is what the stage gives the rail
+/// less the draw and the leakage.
+fn rail_buffer_point(
+    k: usize,
+    b: Buffer,
+    x: f64,
+    setpoint: f64,
+    sp: &StagePoint,
+    draw: f64,
+) -> RailBufferPoint {
+    let (state, current, node) = match sp.state {
+        StageState::Regulating if x >= setpoint => (RailBufferState::Settled, 0.0, sp.vout),
+        StageState::Regulating => (
+            RailBufferState::Topping,
+            draw + b.leakage - sp.iout,
+            sp.vout,
+        ),
+        StageState::Limited if sp.vout > 0.0 => (
+            RailBufferState::Limited,
+            draw + b.leakage - sp.iout,
+            sp.vout,
+        ),
+        StageState::Dropout | StageState::Bypass => (RailBufferState::Following, 0.0, sp.vout),
+        _ => (
+            RailBufferState::Holding,
+            if x > 0.0 { b.leakage } else { 0.0 },
+            0.0,
+        ),
+    };
+    // Held: the leakage runs down the store inside the capacitor, at its own voltage.
+    let loss = if state == RailBufferState::Holding {
+        x * current
+    } else {
+        b.esr * current * current + node * b.leakage
+    };
+    RailBufferPoint {
+        stage: k,
+        v_cap: x,
+        node_voltage: node,
+        current,
+        loss,
+        stored_power: x * current,
+        state,
     }
-    out
 }
 
 /// Walks the tree for one mode: the current a rail draws at a voltage, optionally recording
@@ -888,19 +886,37 @@ impl Walker<'_> {
             ));
         }
         for &k in self.d.tree.stages_on(rail) {
-            rec.push(Rec::Stage(
-                k,
-                StagePoint {
-                    state: StageState::Off,
-                    vin: 0.0,
-                    iin: 0.0,
-                    vout: 0.0,
-                    iout: 0.0,
-                    loss: 0.0,
-                },
-            ));
+            let off = StagePoint {
+                state: StageState::Off,
+                vin: 0.0,
+                iin: 0.0,
+                vout: 0.0,
+                iout: 0.0,
+                loss: 0.0,
+            };
+            rec.push(Rec::Stage(k, off));
+            let from = rec.len();
             self.dead(k + 1, rec);
+            self.record_cap(k, &off, rec, from);
         }
+    }
+
+    /// After stage `k` (at `sp`) and its subtree, recorded in `r` from `from` on: its rail's
+    /// buffer capacitor, if it has one.
+    fn record_cap(&self, k: usize, sp: &StagePoint, r: &mut Vec<Rec>, from: usize) {
+        let st = &self.d.stages[k];
+        let Some(b) = st.buffer else { return };
+        let rail = k + 1;
+        let mut draw = 0.0;
+        for rec in &r[from..] {
+            match rec {
+                Rec::Load(l, lp) if self.d.loads[*l].rail == rail => draw += lp.current,
+                Rec::Stage(j, sj) if self.d.stages[*j].input == rail => draw += sj.iin,
+                _ => {}
+            }
+        }
+        let x = self.cap_voltage(k);
+        r.push(Rec::Cap(rail_buffer_point(k, b, x, st.setpoint, sp, draw)));
     }
 
     /// Input current of stage `k` at input voltage `vin`, recording it and its subtree into
@@ -926,6 +942,7 @@ impl Walker<'_> {
         let (vout, iout, iin, loss) = self.stage_figures(k, vin, state, vout, Some(r));
         (point.vout, point.iout, point.iin, point.loss) = (vout, iout, iin, loss);
         r[slot] = Rec::Stage(k, point);
+        self.record_cap(k, &point, r, slot + 1);
         iin
     }
 
@@ -938,18 +955,18 @@ impl Walker<'_> {
         } else {
             StageState::Off
         };
-        r.push(Rec::Stage(
-            k,
-            StagePoint {
-                state,
-                vin,
-                iin: st.shutdown,
-                vout: 0.0,
-                iout: 0.0,
-                loss: vin.max(0.0) * st.shutdown,
-            },
-        ));
+        let point = StagePoint {
+            state,
+            vin,
+            iin: st.shutdown,
+            vout: 0.0,
+            iout: 0.0,
+            loss: vin.max(0.0) * st.shutdown,
+        };
+        r.push(Rec::Stage(k, point));
+        let from = r.len();
         self.dead(k + 1, r);
+        self.record_cap(k, &point, r, from);
     }
 
     /// The state and output voltage of running stage `k` at input `vin`: from the input alone,
@@ -1008,6 +1025,15 @@ impl Walker<'_> {
                 let iin = iout + q;
                 (vout, iout, iin, vin * iin - vout * iout)
             }
+            (_, StageState::Limited) if vout <= 0.0 => {
+                // The output collapsed at the limit: the rail is dead and the limit current is
+                // all lost in the stage (a rail capacitor keeps its charge).
+                if let Some(r) = rec.as_deref_mut() {
+                    self.dead(out, r);
+                }
+                let iin = input_limit_or_zero(st);
+                (0.0, 0.0, iin, vin * iin)
+            }
             (_, StageState::Limited | StageState::Regulating) if st.buffer.is_some() => {
                 self.buffered_figures(k, vin, state, vout, rec)
             }
@@ -1017,15 +1043,6 @@ impl Walker<'_> {
                 let iout = self.rail_current(out, vout, rec.as_deref_mut()) + leak;
                 let iin = iout + q;
                 (vout, iout, iin, (vin - vout) * iout + vin * q)
-            }
-            (_, StageState::Limited) if vout <= 0.0 => {
-                // The output collapsed at the limit: the rail is dead and the limit current is
-                // all lost in the stage.
-                if let Some(r) = rec.as_deref_mut() {
-                    self.dead(out, r);
-                }
-                let iin = input_limit_or_zero(st);
-                (0.0, 0.0, iin, vin * iin)
             }
             (_, StageState::Bypass) if st.bypass_resistance > 0.0 => {
                 // Vout = Vin - bypass_drop - Iout x bypass_resistance, settled like a switch.
@@ -1066,6 +1083,10 @@ impl Walker<'_> {
         let out = k + 1;
         let x = self.cap_voltage(k).min(set);
         if b.esr <= 0.0 {
+            if x <= 0.0 && !self.current(out, 0.0).is_finite() {
+                // A constant power on a drained capacitor: the rail collapses.
+                return (StageState::Limited, 0.0);
+            }
             let fits = x >= set
                 && self.current(out, set) + b.leakage <= self.output_at_limit(k, vin, set, limit);
             return if fits {
@@ -1081,6 +1102,8 @@ impl Walker<'_> {
         // The stage's surplus at rail voltage v: its output at the limit less the rail's draw,
         // the leakage and the capacitor's charging current (v - x) / ESR. It is negative at the
         // setpoint; bisection below it (NaN, a constant power at 0 V, counts as a surplus).
+        // Where it is negative all the way down (a constant power beyond what the stage and
+        // the capacitor give), the bisection ends at 0 V: the rail collapses.
         let surplus = |v: f64| {
             self.output_at_limit(k, vin, v, limit)
                 - self.current(out, v)
@@ -1106,10 +1129,13 @@ impl Walker<'_> {
     /// The output current of switching stage `k` at its input current limit `limit`, input
     /// `vin` and output `v`: where V I + L(Vin, V, I) = Vin x limit (false position, Illinois
     /// variant; the loss rises with the current). 0 where the limit does not cover the stage's
-    /// loss at no load; a rail at or below 0 V is taken at a millionth of the setpoint.
+    /// loss at no load. Below half the setpoint the stage gives the current it gives there:
+    /// a converter's output current is bounded by its switch current, and the power balance
+    /// alone would give an unbounded current into a drained capacitor (common practice, no
+    /// source).
     fn output_at_limit(&self, k: usize, vin: f64, v: f64, limit: f64) -> f64 {
         let p = vin * limit;
-        let v = v.max(1e-6 * self.d.stages[k].setpoint);
+        let v = v.max(0.5 * self.d.stages[k].setpoint);
         if p.is_nan() || v.is_nan() || p <= 0.0 || v <= 0.0 {
             return 0.0;
         }

@@ -1104,8 +1104,16 @@ impl<'a> Sim<'a> {
         if rails_still && self.pack_shift(start, sm, vm, xm) <= rel * start.pack.voltage.abs() {
             return Cow::Borrowed(start);
         }
-        let rxm = self.rails_at(start, dt, true);
+        let mut rxm = self.rails_at(start, dt, true);
         let mut sol = self.solve_rails(mode, sm, vm, xm, &rxm);
+        // A rail capacitor settling toward a balance within the step: its mean from the
+        // exponential through the two points (see [`Sim::rails_stiff_mean`]).
+        if let Solution::Point(p) = &sol {
+            if let Some(rx) = self.rails_stiff_mean(start, p, &rxm, dt) {
+                rxm = rx;
+                sol = self.solve_rails(mode, sm, vm, xm, &rxm);
+            }
+        }
         // With a buffer capacitor, its mean voltage follows from the node's current and that
         // current from the voltage: the start's current is the first guess, then the mean
         // point's own (a capacitor settling within the step sits where the node draws what
@@ -1272,7 +1280,10 @@ impl<'a> Sim<'a> {
             }
             let dt = self.step_length(&p, rate0, left, cap_dt);
             let mut pm = self.mean_point(mode, &p, rate0, dt);
-            let (held, end) = self.step_path(&mut pm, dt);
+            let (held, mut end) = self.step_path(&mut pm, dt);
+            if !self.rx.is_empty() {
+                end.rx = self.rails_past_collapse(&p, &pm, dt, end.rx);
+            }
             if self.refuse_non_finite(mode, held.i, held.rate) {
                 return true;
             }

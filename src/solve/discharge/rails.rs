@@ -56,6 +56,10 @@ impl Rails {
         &self.v[..self.n]
     }
 
+    pub(super) fn is_empty(&self) -> bool {
+        self.n == 0
+    }
+
     /// Whether every voltage is finite.
     pub(super) fn finite(&self) -> bool {
         self.as_slice().iter().all(|(_, x)| x.is_finite())
@@ -120,6 +124,82 @@ impl Sim<'_> {
             };
         }
         out
+    }
+
+    /// Where a rail capacitor moving along a line settles within a step of `dt` toward the
+    /// voltage where the stage's output and the rail's draw balance (a limited stage feeding a
+    /// draw it cannot hold, its capacitor drained to that balance): the mean voltages over the
+    /// step from the exponential through the start point `start` and the first mean point
+    /// `pm` at `rxm` (the capacitor's current taken linear in its voltage between them,
+    /// C dx/dt = -k (x - x_eq): time constant C / k). `None` where none settles within a
+    /// fifth of its time constant (the line is then good to second order).
+    ///
+    /// The step's end, `x0 - I(mean) dt / C`, is then the exponential's end exactly where the
+    /// current is linear: a step far longer than the time constant lands on the balance
+    /// instead of oscillating about it (exponential Euler; from memory).
+    pub(super) fn rails_stiff_mean(
+        &self,
+        start: &OperatingPoint,
+        pm: &OperatingPoint,
+        rxm: &Rails,
+        dt: f64,
+    ) -> Option<Rails> {
+        let d = self.c.d;
+        let mut out = *rxm;
+        let mut changed = false;
+        let moving =
+            |s: RailBufferState| matches!(s, RailBufferState::Limited | RailBufferState::Holding);
+        for (i, (b0, bm)) in start.rail_buffers.iter().zip(&pm.rail_buffers).enumerate() {
+            if !(moving(b0.state) && moving(bm.state)) || i >= self.rx.n {
+                continue;
+            }
+            let (x0, xm) = (self.rx.v[i].1, rxm.v[i].1);
+            let st = &d.stages()[b0.stage];
+            let Some(buf) = st.buffer() else { continue };
+            if (xm - x0).abs() <= 1e-12 * st.setpoint() {
+                continue;
+            }
+            let k = (bm.current - b0.current) / (xm - x0);
+            let tau = buf.capacitance / k;
+            if k.is_nan() || k <= 0.0 || dt < 0.2 * tau {
+                continue;
+            }
+            let x_eq = x0 - b0.current / k;
+            let mean = x_eq + (x0 - x_eq) * (tau / dt) * -(-dt / tau).exp_m1();
+            out.v[i].1 = mean.clamp(0.0, st.setpoint());
+            changed = true;
+        }
+        changed.then_some(out)
+    }
+
+    /// `end` (the rail capacitors at the end of a step from `start` held at mean point `pm`,
+    /// `dt` long) with each capacitor that drains at `start` and whose rail has collapsed at
+    /// `pm` (a constant power beyond what it gives) taken at least as far down as the start's
+    /// drain goes: the collapse lies within the step, and a mean point that no longer drains
+    /// it would leave it where it started, step after step.
+    pub(super) fn rails_past_collapse(
+        &self,
+        start: &OperatingPoint,
+        pm: &OperatingPoint,
+        dt: f64,
+        mut end: Rails,
+    ) -> Rails {
+        let d = self.c.d;
+        for (i, (b0, bm)) in start.rail_buffers.iter().zip(&pm.rail_buffers).enumerate() {
+            if i >= end.n
+                || b0.state != RailBufferState::Limited
+                || bm.state != RailBufferState::Holding
+                || b0.current <= 0.0
+            {
+                continue;
+            }
+            let Some(buf) = d.stages()[b0.stage].buffer() else {
+                continue;
+            };
+            let drained = (self.rx.v[i].1 - b0.current * dt / buf.capacitance).max(0.0);
+            end.v[i].1 = end.v[i].1.min(drained);
+        }
+        end
     }
 
     /// Whether a rail capacitor moves at `p` along a line (its stage at its limit, or off):
