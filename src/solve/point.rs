@@ -682,7 +682,9 @@ fn assemble(
             Rec::Cap(c) => rail_buffers.push(c),
         }
     }
-    rail_buffers.sort_by_key(|c| c.stage);
+    if rail_buffers.len() > 1 {
+        rail_buffers.sort_by_key(|c| c.stage);
+    }
     OperatingPoint {
         mode,
         pack: PackPoint {
@@ -942,7 +944,9 @@ impl Walker<'_> {
         let (vout, iout, iin, loss) = self.stage_figures(k, vin, state, vout, Some(r));
         (point.vout, point.iout, point.iin, point.loss) = (vout, iout, iin, loss);
         r[slot] = Rec::Stage(k, point);
-        self.record_cap(k, &point, r, slot + 1);
+        if st.buffer.is_some() {
+            self.record_cap(k, &point, r, slot + 1);
+        }
         iin
     }
 
@@ -976,10 +980,8 @@ impl Walker<'_> {
     fn stage_state(&self, k: usize, vin: f64) -> (StageState, f64) {
         let st = &self.d.stages[k];
         let (mut state, mut vout) = state_and_output(st, vin);
-        if let (Some(b), Some(limit), StageState::Regulating) =
-            (st.buffer, st.input_current_limit, state)
-        {
-            return self.buffered_state(k, vin, b, limit);
+        if state == StageState::Regulating && st.buffer.is_some() {
+            return self.buffered_state(k, vin);
         }
         if let Some(limit) = st.input_current_limit {
             if state == StageState::Regulating {
@@ -1034,16 +1036,13 @@ impl Walker<'_> {
                 let iin = input_limit_or_zero(st);
                 (0.0, 0.0, iin, vin * iin)
             }
-            (_, StageState::Limited | StageState::Regulating) if st.buffer.is_some() => {
-                self.buffered_figures(k, vin, state, vout, rec)
-            }
-            (_, StageState::Dropout | StageState::Bypass) if st.buffer.is_some() => {
-                // The capacitor follows the passed-through rail: the stage gives its leakage.
-                let leak = st.buffer.map_or(0.0, |b| b.leakage);
-                let iout = self.rail_current(out, vout, rec.as_deref_mut()) + leak;
-                let iin = iout + q;
-                (vout, iout, iin, (vin - vout) * iout + vin * q)
-            }
+            (
+                _,
+                StageState::Limited
+                | StageState::Regulating
+                | StageState::Dropout
+                | StageState::Bypass,
+            ) if st.buffer.is_some() => self.buffered_figures(k, vin, state, vout, rec),
             (_, StageState::Bypass) if st.bypass_resistance > 0.0 => {
                 // Vout = Vin - bypass_drop - Iout x bypass_resistance, settled like a switch.
                 let (vout, iout) =
@@ -1073,13 +1072,19 @@ impl Walker<'_> {
     }
 
     /// The state and rail voltage of switching stage `k` at input `vin` (where its input lets it
-    /// regulate) with buffer capacitor `b` on its rail and input current limit `limit`:
+    /// regulate) with a buffer capacitor on its rail and an input current limit:
     /// regulating at the setpoint where the limit covers the rail's draw there, the leakage and
     /// the recharge through the capacitor's series resistance; limited otherwise, at the rail
     /// voltage where the stage's output at its limit, the rail's draw and the capacitor's
     /// current balance (the capacitor's own voltage where it has no series resistance).
-    fn buffered_state(&self, k: usize, vin: f64, b: Buffer, limit: f64) -> (StageState, f64) {
-        let set = self.d.stages[k].setpoint;
+    #[cold]
+    #[inline(never)]
+    fn buffered_state(&self, k: usize, vin: f64) -> (StageState, f64) {
+        let st = &self.d.stages[k];
+        let (Some(b), Some(limit)) = (st.buffer, st.input_current_limit) else {
+            return (StageState::Regulating, st.setpoint);
+        };
+        let set = st.setpoint;
         let out = k + 1;
         let x = self.cap_voltage(k).min(set);
         if b.esr <= 0.0 {
@@ -1184,7 +1189,10 @@ impl Walker<'_> {
     /// The figures of switching stage `k` with a buffer capacitor on its rail, regulating or
     /// at its limit ([`Walker::buffered_state`]) with input `vin` and rail voltage `v`:
     /// regulating, the stage gives the rail's draw, the leakage and the capacitor's recharge;
-    /// limited, it gives its output at the limit and draws the limit.
+    /// limited, it gives its output at the limit and draws the limit; passing its input
+    /// through, the draw and the leakage.
+    #[cold]
+    #[inline(never)]
     fn buffered_figures(
         &self,
         k: usize,
@@ -1198,6 +1206,13 @@ impl Walker<'_> {
             return (v, 0.0, 0.0, 0.0);
         };
         let draw = self.rail_current(k + 1, v, rec);
+        if matches!(state, StageState::Dropout | StageState::Bypass) {
+            // The capacitor follows the passed-through rail: the stage gives its leakage.
+            let iout = draw + b.leakage;
+            let q = st.quiescent;
+            let iin = iout + q;
+            return (v, iout, iin, (vin - v) * iout + vin * q);
+        }
         if state == StageState::Limited {
             let limit = input_limit_or_zero(st);
             let iout = self.output_at_limit(k, vin, v, limit);

@@ -472,6 +472,9 @@ struct Ctx<'a> {
     /// where the law sees the current of the instant (a window of zero, or no rate effect).
     window: Option<f64>,
     i_self: f64,
+    /// Whether a stage has a buffer capacitor on its rail (all the rails' work is skipped
+    /// without one).
+    rails: bool,
     cutoff: f64,
     /// Whether steps are as fine as the reference's: always in the reference, and in the fast
     /// solver once the end is found within a step (the instant is then found as there).
@@ -539,6 +542,7 @@ impl<'a> Ctx<'a> {
             window: (d.pack.cell.peukert > 1.0 && d.pack.cell.rate_window_s > 0.0)
                 .then_some(d.pack.cell.rate_window_s),
             i_self: d.pack.self_discharge_a(opt.ambient_c),
+            rails: d.has_rail_buffers(),
             cutoff: d.pack.cutoff_v(),
             fine: Cell::new(opt.exact),
             fine_pol: Cell::new(false),
@@ -992,7 +996,7 @@ impl<'a> Sim<'a> {
         self.ledger.add_scaled(&local, 1.0);
         let ln = self.vb_ln;
         self.vb_ln = ln_outer + ln;
-        let back = rx0.returned(&self.rx, self.c.d);
+        let back = !self.c.rails || rx0.returned(&self.rx, self.c.d);
         let delta =
             (!stopped).then(|| Delta::of(s0, (vp0, seen0, vb0, ln), self, pass, (local, back)));
         self.margin = self.margin.min(margin_outer);
@@ -1004,6 +1008,7 @@ impl<'a> Sim<'a> {
     }
 
     /// [`Sim::solve`] with the rail capacitors at `rx`.
+    #[inline]
     fn solve_rails(&self, mode: usize, s: f64, vp: f64, vb: f64, rx: &Rails) -> Solution {
         let c = self.c;
         if !self.trace_probe {
@@ -1015,7 +1020,11 @@ impl<'a> Sim<'a> {
             ambient_c: self.ambient(),
         };
         let vb = self.c.d.pack.buffer.map(|_| vb);
-        solve_point_state(self.c.d, mode, at, vb, rx.as_slice())
+        if !c.rails {
+            return solve_point_state(self.c.d, mode, at, vb, &[]);
+        }
+        let (pairs, n) = rx.pairs();
+        solve_point_state(self.c.d, mode, at, vb, &pairs[..n])
     }
 
     /// Rate of fall of the SoC, per second, at pack current `i` held for `dt` (Peukert-effective
@@ -1097,10 +1106,11 @@ impl<'a> Sim<'a> {
         } else {
             MEAN_POINT_REL
         };
-        let rails_still = start
-            .rail_buffers
-            .iter()
-            .all(|b| b.state == RailBufferState::Settled);
+        let rails_still = !self.c.rails
+            || start
+                .rail_buffers
+                .iter()
+                .all(|b| b.state == RailBufferState::Settled);
         if rails_still && self.pack_shift(start, sm, vm, xm) <= rel * start.pack.voltage.abs() {
             return Cow::Borrowed(start);
         }
@@ -1108,7 +1118,7 @@ impl<'a> Sim<'a> {
         let mut sol = self.solve_rails(mode, sm, vm, xm, &rxm);
         // A rail capacitor settling toward a balance within the step: its mean from the
         // exponential through the two points (see [`Sim::rails_stiff_mean`]).
-        if let Solution::Point(p) = &sol {
+        if let (true, Solution::Point(p)) = (self.c.rails, &sol) {
             if let Some(rx) = self.rails_stiff_mean(start, p, &rxm, dt) {
                 rxm = rx;
                 sol = self.solve_rails(mode, sm, vm, xm, &rxm);
@@ -1281,7 +1291,7 @@ impl<'a> Sim<'a> {
             let dt = self.step_length(&p, rate0, left, cap_dt);
             let mut pm = self.mean_point(mode, &p, rate0, dt);
             let (held, mut end) = self.step_path(&mut pm, dt);
-            if !self.rx.is_empty() {
+            if self.c.rails {
                 end.rx = self.rails_past_collapse(&p, &pm, dt, end.rx);
             }
             if self.refuse_non_finite(mode, held.i, held.rate) {
@@ -1297,7 +1307,7 @@ impl<'a> Sim<'a> {
             let i = held.i;
             let watch = self.limiter_may_engage(&pm);
             if watch.is_none()
-                && !Self::rails_moving(&p)
+                && !(self.c.rails && Self::rails_moving(&p))
                 && self.surely_clear(&p, margin, i, (s1, vp1, x1))
             {
                 self.take_step(&pm, held, dt, end);
@@ -1392,7 +1402,9 @@ impl<'a> Sim<'a> {
         }
         dt = dt.min(self.polarization_step(p, dt));
         dt = dt.min(self.cap_step_limit(p, dt));
-        dt = dt.min(self.rails_step_limit(p));
+        if self.c.rails {
+            dt = dt.min(self.rails_step_limit(p));
+        }
         // The ambient is held over a step: at most an hour with a daily swing.
         if let Some(c) = &self.c.opt.climate {
             dt = dt.min(c.step_s());

@@ -17,7 +17,7 @@ use super::*;
 use crate::solve::RailBufferState;
 
 /// The most buffer capacitors on stages' rails a design may have.
-pub const MAX_RAIL_BUFFERS: usize = 8;
+pub const MAX_RAIL_BUFFERS: usize = 4;
 
 /// The most a rail capacitor's voltage moves in a step, a fraction of its stage's setpoint
 /// (common practice, no source: a stage's output at its limit, about its input power over x,
@@ -28,50 +28,62 @@ const RAIL_STEP_DV: f64 = 0.01;
 /// differs from the line its start planned by the curvature of the recharge).
 const RAIL_SNAP: f64 = 1e-9;
 
-/// The voltages of the buffer capacitors on stages' rails, (stage, voltage), in stage order;
-/// the first `n` are used.
+/// The voltages of the buffer capacitors on stages' rails (`x`), and their stages (`k`), in
+/// stage order; the first `n` are used. Small, since every step's end state carries a copy.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub(super) struct Rails {
-    n: usize,
-    v: [(usize, f64); MAX_RAIL_BUFFERS],
+    x: [f64; MAX_RAIL_BUFFERS],
+    k: [u32; MAX_RAIL_BUFFERS],
+    n: u8,
 }
 
 impl Rails {
     /// Every rail capacitor of `d` at its stage's setpoint (charged, as at the start).
     pub(super) fn charged(d: &Design) -> Self {
         let mut r = Self {
+            x: [0.0; MAX_RAIL_BUFFERS],
+            k: [0; MAX_RAIL_BUFFERS],
             n: 0,
-            v: [(0, 0.0); MAX_RAIL_BUFFERS],
         };
         for (k, st) in d.stages().iter().enumerate() {
-            if st.buffer().is_some() && r.n < MAX_RAIL_BUFFERS {
-                r.v[r.n] = (k, st.setpoint());
+            let i = usize::from(r.n);
+            if let (true, true, Ok(k)) = (
+                st.buffer().is_some(),
+                i < MAX_RAIL_BUFFERS,
+                u32::try_from(k),
+            ) {
+                (r.x[i], r.k[i]) = (st.setpoint(), k);
                 r.n += 1;
             }
         }
         r
     }
 
-    pub(super) fn as_slice(&self) -> &[(usize, f64)] {
-        &self.v[..self.n]
+    fn len(&self) -> usize {
+        usize::from(self.n)
     }
 
-    pub(super) fn is_empty(&self) -> bool {
-        self.n == 0
+    /// (stage, voltage) pairs, the first [`Rails::len`] used.
+    pub(super) fn pairs(&self) -> ([(usize, f64); MAX_RAIL_BUFFERS], usize) {
+        let mut out = [(0, 0.0); MAX_RAIL_BUFFERS];
+        for (o, (&k, &x)) in out.iter_mut().zip(self.k.iter().zip(&self.x)) {
+            *o = (k as usize, x);
+        }
+        (out, self.len())
     }
 
     /// Whether every voltage is finite.
     pub(super) fn finite(&self) -> bool {
-        self.as_slice().iter().all(|(_, x)| x.is_finite())
+        self.x[..self.len()].iter().all(|x| x.is_finite())
     }
 
     /// Whether `other` holds the same voltages to within [`RAIL_SNAP`] of each setpoint: a
     /// pass that ends where it started.
     pub(super) fn returned(&self, other: &Self, d: &Design) -> bool {
-        self.as_slice()
-            .iter()
-            .zip(other.as_slice())
-            .all(|(&(k, a), &(_, b))| (a - b).abs() <= RAIL_SNAP * d.stages()[k].setpoint())
+        (0..self.len()).all(|i| {
+            let set = d.stages()[self.k[i] as usize].setpoint();
+            (self.x[i] - other.x[i]).abs() <= RAIL_SNAP * set
+        })
     }
 }
 
@@ -79,15 +91,20 @@ impl Sim<'_> {
     /// The rail capacitors `t` seconds into a step from their present voltages, moving as at
     /// point `p` (the step's mean point for its end, its start for its mean): `mean` gives the
     /// mean over `[0, t]` instead of the value at `t`.
+    #[inline]
     pub(super) fn rails_at(&self, p: &OperatingPoint, t: f64, mean: bool) -> Rails {
         let mut out = self.rx;
+        if !self.c.rails {
+            return out;
+        }
         let d = self.c.d;
-        for (slot, b) in out.v[..out.n].iter_mut().zip(&p.rail_buffers) {
-            let x0 = slot.1;
+        let n = out.len();
+        for (slot, b) in out.x[..n].iter_mut().zip(&p.rail_buffers) {
+            let x0 = *slot;
             let st = &d.stages()[b.stage];
             let set = st.setpoint();
             let Some(buf) = st.buffer() else { continue };
-            slot.1 = match b.state {
+            *slot = match b.state {
                 RailBufferState::Settled => set,
                 RailBufferState::Following => b.node_voltage,
                 RailBufferState::Topping => topping(x0, set, buf.esr * buf.capacitance, t, mean),
@@ -150,10 +167,10 @@ impl Sim<'_> {
         let moving =
             |s: RailBufferState| matches!(s, RailBufferState::Limited | RailBufferState::Holding);
         for (i, (b0, bm)) in start.rail_buffers.iter().zip(&pm.rail_buffers).enumerate() {
-            if !(moving(b0.state) && moving(bm.state)) || i >= self.rx.n {
+            if !(moving(b0.state) && moving(bm.state)) || i >= self.rx.len() {
                 continue;
             }
-            let (x0, xm) = (self.rx.v[i].1, rxm.v[i].1);
+            let (x0, xm) = (self.rx.x[i], rxm.x[i]);
             let st = &d.stages()[b0.stage];
             let Some(buf) = st.buffer() else { continue };
             if (xm - x0).abs() <= 1e-12 * st.setpoint() {
@@ -166,7 +183,7 @@ impl Sim<'_> {
             }
             let x_eq = x0 - b0.current / k;
             let mean = x_eq + (x0 - x_eq) * (tau / dt) * -(-dt / tau).exp_m1();
-            out.v[i].1 = mean.clamp(0.0, st.setpoint());
+            out.x[i] = mean.clamp(0.0, st.setpoint());
             changed = true;
         }
         changed.then_some(out)
@@ -186,7 +203,7 @@ impl Sim<'_> {
     ) -> Rails {
         let d = self.c.d;
         for (i, (b0, bm)) in start.rail_buffers.iter().zip(&pm.rail_buffers).enumerate() {
-            if i >= end.n
+            if i >= end.len()
                 || b0.state != RailBufferState::Limited
                 || bm.state != RailBufferState::Holding
                 || b0.current <= 0.0
@@ -196,8 +213,8 @@ impl Sim<'_> {
             let Some(buf) = d.stages()[b0.stage].buffer() else {
                 continue;
             };
-            let drained = (self.rx.v[i].1 - b0.current * dt / buf.capacitance).max(0.0);
-            end.v[i].1 = end.v[i].1.min(drained);
+            let drained = (self.rx.x[i] - b0.current * dt / buf.capacitance).max(0.0);
+            end.x[i] = end.x[i].min(drained);
         }
         end
     }
@@ -218,7 +235,7 @@ impl Sim<'_> {
     pub(super) fn rails_step_limit(&self, p: &OperatingPoint) -> f64 {
         let d = self.c.d;
         let mut dt = f64::INFINITY;
-        for (&(_, x0), b) in self.rx.as_slice().iter().zip(&p.rail_buffers) {
+        for (&x0, b) in self.rx.x[..self.rx.len()].iter().zip(&p.rail_buffers) {
             let st = &d.stages()[b.stage];
             let Some(buf) = st.buffer() else { continue };
             if !matches!(b.state, RailBufferState::Limited | RailBufferState::Holding) {
