@@ -186,6 +186,40 @@ fn a_burst_of_pulses_draining_the_buffer_runs_pass_by_pass() {
     assert_fast_agrees(&design(&text), "survey case");
 }
 
+/// A boost behind a limiter whose input current crosses the limit at the end of a pulse,
+/// within 0.01 % of it: whether a pulse drains the capacitor turns on how the cells fell since
+/// the last one, and the fast solver's own steps found the collapse ten pulses late (4.1 %).
+/// Planning the last passes, where they hold a nested block, now takes the reference's steps
+/// as it did without one.
+#[test]
+fn a_boost_at_the_knife_edge_of_its_limiter_agrees_with_the_reference() {
+    let text = survey_case(
+        "{ capacitance: 0.013491382021149526 mF, esr: 0.7514170722830698 Ω, leakage: 0.5 µA, current_limit: 11.255319047163587 mA }",
+        "stages: [{ id: conv, kind: boost, input: battery, output: 3.3 V, efficiency: [[100 µA, 70 %], [10 mA, 90 %]], quiescent: 8 µA, input_range: [2.2 V, 5 V] }]\n",
+        "  - { id: l0, rail: conv, draw: { on: 7.558070250799819 mA, sleep: 3 µA }, default: sleep }\n  - { id: l1, rail: battery, draw: { on: 9.880259955587823 mW, sleep: 3 µA }, default: sleep }\n",
+        "  - repeat:\n      - { mode: m1, for: 2.422607606643708 s }\n    times: 1\n  - { mode: m0, for: 0.653143488784402 s }\n",
+        "peukert: 1.1631195442689402, self_discharge: 0.9970190740344824 %/month, ocv: [[0 %, 2.564138913258386 V], [30 %, 2.754223024041544 V], [100 %, 2.9212996988773514 V]], resistance: [[0 %, 27.520303731226697 Ω], [100 %, 9.173434577075566 Ω]], cutoff: 2.0544531645992974 V, polarization: { resistance: 1.66672350429603 Ω, time_constant: 23.665934400667762 s }",
+    );
+    assert_fast_agrees(&design(&text), "limiter's knife edge");
+}
+
+/// Where the reference's steps cost more than the fast solver may spend (a limiter at the
+/// knife edge for hundreds of pulses: the reference solves 3.3 million points), the fast
+/// solver spends its budget of them and goes on in its own steps: a result, not the work limit,
+/// still within 0.2 % of the reference.
+#[test]
+fn the_reference_steps_near_the_end_stay_within_the_fast_work_limit() {
+    let text = survey_case(
+        "{ capacitance: 0.011246731323826364 mF, esr: 0.516651589497492 Ω, leakage: 0.5 µA, current_limit: 14.523758253731833 mA }",
+        "stages: [{ id: conv, kind: linear, input: battery, output: 2.0 V, quiescent: 2 µA }]\n",
+        "  - { id: l0, rail: battery, draw: { on: 165.80824550425476 Ω, sleep: 3 µA }, default: sleep }\n  - { id: l1, rail: battery, draw: { on: 0 A } }\n",
+        "  - repeat:\n      - { mode: m1, for: 1.8009067758249517 s }\n    times: 1\n  - { mode: m0, for: 1.9550419671927834 s }\n",
+        "peukert: 1.0611684847443752, self_discharge: 0.6441508143959601 %/month, ocv: [[0 %, 2.617100201978974 V], [30 %, 2.998403671576076 V], [100 %, 3.1808059198904473 V]], resistance: [[0 %, 25.26393448728657 Ω], [100 %, 8.42131149576219 Ω]], cutoff: 2.3040181913404694 V",
+    )
+    .replace("m0: { l0: on }, m1: { l1: on }", "m0: { l0: on }, m1: {}");
+    assert_fast_agrees(&design(&text), "reference steps beyond the budget");
+}
+
 #[test]
 fn bad_buffers_are_refused_at_their_place() {
     let cases = [
@@ -237,13 +271,13 @@ mod random {
     }
 
     /// A survey of random buffered designs: every one runs to a result in both solvers with
-    /// the same end reason, and the fast solver's runtime is within 2 % of the reference's.
+    /// the same end reason, and the fast solver's runtime is within 1 % of the reference's.
     /// The share within the 0.2 % promised elsewhere and the worst case are printed
     /// (`-- --nocapture`); `JOULEPATH_AGREEMENT_CASES` and `JOULEPATH_AGREEMENT_SEED` run
-    /// longer searches (CI: 48 cases). Measured over eight seeds of 300 cases: 2,176 of 2,211
-    /// compared designs within 0.2 %, the worst 1.64 %.
+    /// longer searches (CI: 48 cases). Measured over eight seeds of 300 cases: 2,169 of 2,198
+    /// compared designs within 0.2 %, the worst 0.69 %.
     #[test]
-    fn random_buffered_designs_run_and_agree_within_two_percent() {
+    fn random_buffered_designs_run_and_agree_within_one_percent() {
         use joulepath::solve::{RunOptions, run};
         use proptest::strategy::ValueTree;
         use proptest::test_runner::TestRunner;
@@ -277,7 +311,7 @@ mod random {
                 worst = (rel, t.clone());
             }
             assert!(
-                rel <= 2e-2,
+                rel <= 1e-2,
                 "{} vs {} s ({:.2} %)\n{t}",
                 f.runtime_s(),
                 e.runtime_s(),
@@ -295,11 +329,11 @@ mod random {
     proptest! {
         #![proptest_config(config())]
 
-        /// The contract's 0.2 % on random buffered designs. Known gap: about 1.6 % of them still
-        /// miss it, by up to 1.64 % (see the survey above), so this runs on demand
+        /// The contract's 0.2 % on random buffered designs. Known gap: about 1.3 % of them still
+        /// miss it, by up to 0.69 % (see the survey above), so this runs on demand
         /// (`cargo test --release -- --ignored buffer::random`).
         #[test]
-        #[ignore = "known gap: about 1.5 % of random buffered designs miss 0.2 %, by up to 1.64 % (one in 2,200 by 4.1 %)"]
+        #[ignore = "known gap: about 1.3 % of random buffered designs miss 0.2 %, by up to 0.69 %"]
         fn fast_agrees_with_reference_with_a_buffer(g in designs(), b in buffers()) {
             let t = buffered(&g, b);
             let d = design(&t);

@@ -118,3 +118,10 @@ pub const WORK_LIMIT_EXACT: u64 = 2_000_000_000;
 /// Times in a row a step is cut to a quarter because the buffer's limiter took over within it
 /// (six: a 4096th of the step).
 pub const LIMITER_RETRIES: u32 = 6;
+
+/// The most operating points the fast solver spends in the reference's steps once a block
+/// whose passes hold nested blocks finds the end a few passes off, with a buffer across the
+/// pack; then its own steps again (a capacitor behind its limiter near the knife edge can make
+/// the reference's steps a thousand a second). A fifth of [`WORK_LIMIT_FAST`] (common practice,
+/// no source).
+pub const FINE_NESTED_BUDGET: u64 = WORK_LIMIT_FAST / 5;

@@ -34,10 +34,10 @@ use std::rc::Rc;
 use super::check::{Violation, ViolationKind, violations_where};
 use super::ledger::{Ledger, TracePoint, Tracer};
 use super::numerics::{
-    END_BISECT_ITER, END_TIME_REL, LIMITER_RETRIES, MEAN_POINT_BUFFER_ITER, MEAN_POINT_REL,
-    SKIP_ABS_BUDGET, SKIP_FIRST_DS, SKIP_MAX_DS, SKIP_MIN_PASSES, SKIP_MIN_PASSES_OPEN,
-    STEP_MAX_DS_EXACT, STEP_MAX_DS_FAST, STEP_MAX_DVP_EXACT, STEP_MAX_DVP_FAST, TRACE_BUCKETS,
-    TRACE_PROBES_PER_SKIP, WORK_LIMIT_EXACT, WORK_LIMIT_FAST,
+    END_BISECT_ITER, END_TIME_REL, FINE_NESTED_BUDGET, LIMITER_RETRIES, MEAN_POINT_BUFFER_ITER,
+    MEAN_POINT_REL, SKIP_ABS_BUDGET, SKIP_FIRST_DS, SKIP_MAX_DS, SKIP_MIN_PASSES,
+    SKIP_MIN_PASSES_OPEN, STEP_MAX_DS_EXACT, STEP_MAX_DS_FAST, STEP_MAX_DVP_EXACT,
+    STEP_MAX_DVP_FAST, TRACE_BUCKETS, TRACE_PROBES_PER_SKIP, WORK_LIMIT_EXACT, WORK_LIMIT_FAST,
 };
 use super::point::{
     OperatingPoint, PackState, RailBufferState, Solution, StageState, solve_point_state,
@@ -479,6 +479,12 @@ struct Ctx<'a> {
     /// Whether steps are as fine as the reference's: always in the reference, and in the fast
     /// solver once the end is found within a step (the instant is then found as there).
     fine: Cell<bool>,
+    /// With a buffer across the pack, the work count at which the planning of a block whose
+    /// passes hold nested blocks found the end a few passes off and took the reference's steps
+    /// (`None`: it has not), and whether that has used up its budget
+    /// ([`FINE_NESTED_BUDGET`]): it then gives the fast solver's steps back for good.
+    fine_nested: Cell<Option<u64>>,
+    fine_nested_spent: Cell<bool>,
     /// Whether the polarization is followed in the reference's steps while the state of charge
     /// keeps the fast solver's: once the run is found to last few passes, executed pass by pass
     /// (a polarization time constant shorter than a pulse near the power limit then weighs in
@@ -545,6 +551,8 @@ impl<'a> Ctx<'a> {
             rails: d.has_rail_buffers(),
             cutoff: d.pack.cutoff_v(),
             fine: Cell::new(opt.exact),
+            fine_nested: Cell::new(None),
+            fine_nested_spent: Cell::new(false),
             fine_pol: Cell::new(false),
             draws_below,
             v_max: d.loads.iter().map(|l| l.v_max).collect(),
@@ -1396,6 +1404,16 @@ impl<'a> Sim<'a> {
     /// of the state of charge, the polarization, the buffer capacitor, the ambient and
     /// `cap_dt` (the limiter's retries).
     fn step_length(&self, p: &OperatingPoint, rate0: f64, left: f64, cap_dt: f64) -> f64 {
+        let c = self.c;
+        if let Some(from) = c.fine_nested.get() {
+            if c.work.get().saturating_sub(from) > FINE_NESTED_BUDGET {
+                // The reference's steps cost more here than the fast solver may spend: its own
+                // steps again (the end is then found as before).
+                c.fine.set(false);
+                c.fine_nested.set(None);
+                c.fine_nested_spent.set(true);
+            }
+        }
         let mut dt = left.min(self.c.opt.horizon_s - self.now());
         if rate0 > 0.0 {
             dt = dt.min(self.c.max_ds() / rate0);

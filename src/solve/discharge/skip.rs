@@ -192,12 +192,21 @@ impl<'a> Sim<'a> {
         if stops_soon {
             // Where the passes hold repeat blocks, those skip on their own and the end falls on
             // one of their passes: fine polarization steps are for the innermost blocks.
-            if !steps.iter().any(|s| matches!(s, Step::Repeat { .. })) {
-                // With a buffer capacitor, the reference's steps throughout: a step far longer
-                // than the capacitor's time constant holds its path only approximately.
-                if self.c.d.pack.buffer.is_some() {
+            let nested = steps.iter().any(|s| matches!(s, Step::Repeat { .. }));
+            // With a buffer capacitor, the reference's steps throughout: a step far longer
+            // than the capacitor's time constant holds its path only approximately (whether a
+            // pulse drains a capacitor behind its limiter can turn on the last millivolt). Where
+            // the passes hold nested blocks, the end may still be far in steps: a budget bounds
+            // them ([`Ctx::fine_nested`]).
+            if self.c.d.pack.buffer.is_some() {
+                if !nested {
                     self.c.fine.set(true);
+                } else if !self.c.fine_nested_spent.get() && !self.c.fine.get() {
+                    self.c.fine.set(true);
+                    self.c.fine_nested.set(Some(self.c.work.get()));
                 }
+            }
+            if !nested {
                 self.c.fine_pol.set(true);
             }
             return 0.0;
