@@ -375,3 +375,45 @@ profile: [{{ mode: busy, for: 1 s }}]
         }
     }
 }
+
+/// A spread over the rail capacitor's capacitance reaches the model: with C uniform in
+/// [1 mF, 4 mF], the rail stays above the radio's 3.2 V through the pulse where
+/// C >= 2 (P - eta Vin L) T_p / (3.3^2 - 3.2^2) = 2.338 mF (the capacitor's energy balance, as
+/// above): the unit at the low bound stops in its first pulse, the one at the high bound runs to
+/// empty, and a share (4 - 2.338) / 3 = 55.4 % of units does (binomial standard error
+/// sqrt(p (1 - p) / N)).
+#[test]
+fn a_spread_of_the_rail_capacitance_splits_the_units_where_the_energy_balance_says() {
+    use joulepath::spread::{SpreadOptions, spread};
+    let text = pulsed("{ capacitance: 2 mF }", "[3.2 V, 3.6 V]")
+        + "tolerances:\n  stages.boost.buffer.capacitance: [1 mF, 4 mF]\n";
+    let d = design(&text);
+    let mut o = SpreadOptions::for_design(&d);
+    o.samples = 400;
+    o.seed = 11;
+    let s = spread(&d, &o).expect("spread");
+    let swing = &s.swings[0];
+    assert_eq!(swing.at.0.end, Some(EndReason::Rail), "{:?}", swing.at.0);
+    assert_eq!(swing.at.1.end, Some(EndReason::Empty), "{:?}", swing.at.1);
+    let c_min = 2.0 * (P - ETA * VIN * LIMIT) * T_P / (SET * SET - 3.2 * 3.2);
+    assert!(close(c_min, 2.338e-3, 1e-3), "{c_min}");
+    let n = s.samples.len() as f64;
+    let running = s
+        .samples
+        .iter()
+        .filter(|u| u.end == Some(EndReason::Empty))
+        .count() as f64
+        / n;
+    let p = (4e-3 - c_min) / 3e-3;
+    let se = (p * (1.0 - p) / n).sqrt();
+    assert!((running - p).abs() < 4.0 * se, "{running} vs {p}");
+    // Each unit ends as its own capacitance says.
+    for u in &s.samples {
+        let runs = u.values[0] >= c_min;
+        let ended_empty = u.end == Some(EndReason::Empty);
+        assert!(
+            runs == ended_empty || (u.values[0] - c_min).abs() < 1e-3 * c_min,
+            "{u:?}"
+        );
+    }
+}

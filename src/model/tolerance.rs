@@ -168,6 +168,22 @@ pub enum Knob {
     StageLossDrop(usize),
     /// A stage's conduction loss term, Ω.
     StageLossResistance(usize),
+    /// A stage's input current limit, A.
+    StageInputLimit(usize),
+    /// The capacitance of the buffer capacitor on a stage's rail, F.
+    StageBufferCapacitance(usize),
+    /// Its series resistance, Ω.
+    StageBufferEsr(usize),
+    /// Its leakage current, A.
+    StageBufferLeakage(usize),
+    /// The capacitance of the buffer capacitor across the pack, F.
+    BufferCapacitance,
+    /// Its series resistance, Ω.
+    BufferEsr,
+    /// Its leakage current, A.
+    BufferLeakage,
+    /// Its limiter's limit, A.
+    BufferLimit,
     /// What a load draws in one state: (load, state).
     LoadDraw(usize, usize),
     /// The duration of a profile item (a step or a repeat block), by its indices down the
@@ -186,7 +202,10 @@ impl Knob {
             Knob::CellResistance
             | Knob::CellPolarizationR
             | Knob::StageOnResistance(_)
-            | Knob::StageLossResistance(_) => Dim::Resistance,
+            | Knob::StageLossResistance(_)
+            | Knob::StageBufferEsr(_)
+            | Knob::BufferEsr => Dim::Resistance,
+            Knob::StageBufferCapacitance(_) | Knob::BufferCapacitance => Dim::Capacitance,
             Knob::CellSelfDischarge => Dim::Rate,
             Knob::CellPeukert
             | Knob::Series
@@ -201,7 +220,11 @@ impl Knob {
             Knob::CellRatedCurrent
             | Knob::StageQuiescent(_)
             | Knob::StageShutdown(_)
-            | Knob::StageLedCurrent(_) => Dim::Current,
+            | Knob::StageLedCurrent(_)
+            | Knob::StageInputLimit(_)
+            | Knob::StageBufferLeakage(_)
+            | Knob::BufferLeakage
+            | Knob::BufferLimit => Dim::Current,
             Knob::CellPolarizationTau | Knob::StepFor(_) => Dim::Time,
             Knob::StartSoc | Knob::AgingCapacity | Knob::StageEfficiency(_) => Dim::Fraction,
             Knob::StageThetaJa(_) => Dim::ThermalResistance,
@@ -212,6 +235,28 @@ impl Knob {
                 // Never varied: the checker refuses a tolerance on an LED's draw.
                 Draw::Led { .. } => Dim::Voltage,
             },
+        }
+    }
+
+    /// What to do where the design lacks the part whose value this is (a buffer capacitor, a
+    /// limiter, an input current limit); `None` for the other values.
+    pub fn absent_hint(&self) -> Option<&'static str> {
+        match self {
+            Knob::BufferCapacitance | Knob::BufferEsr | Knob::BufferLeakage => Some(
+                "the design has no buffer across the pack: add `battery.buffer` to vary it, or drop the line",
+            ),
+            Knob::BufferLimit => Some(
+                "the pack's buffer has no limiter: give it a `current_limit` to vary it, or drop the line",
+            ),
+            Knob::StageInputLimit(_) => Some(
+                "the stage has no `input_current_limit`: give it one to vary it, or drop the line",
+            ),
+            Knob::StageBufferCapacitance(_)
+            | Knob::StageBufferEsr(_)
+            | Knob::StageBufferLeakage(_) => Some(
+                "the stage has no buffer on its rail: give it a `buffer` to vary it, or drop the line",
+            ),
+            _ => None,
         }
     }
 
@@ -229,6 +274,10 @@ impl Knob {
             | Knob::StageLedCurrent(_)
             | Knob::StageThetaJa(_)
             | Knob::CellRatedCurrent
+            | Knob::StageInputLimit(_)
+            | Knob::StageBufferCapacitance(_)
+            | Knob::BufferCapacitance
+            | Knob::BufferLimit
             | Knob::StepFor(_) => POSITIVE,
             _ => NON_NEGATIVE,
         }
@@ -272,6 +321,20 @@ impl Knob {
                 LossModel::Terms { resistance, .. } => resistance,
                 _ => f64::NAN,
             },
+            Knob::StageInputLimit(i) => d.stages[*i].input_current_limit.unwrap_or(f64::NAN),
+            Knob::StageBufferCapacitance(i) => {
+                d.stages[*i].buffer.map_or(f64::NAN, |b| b.capacitance)
+            }
+            Knob::StageBufferEsr(i) => d.stages[*i].buffer.map_or(f64::NAN, |b| b.esr),
+            Knob::StageBufferLeakage(i) => d.stages[*i].buffer.map_or(f64::NAN, |b| b.leakage),
+            Knob::BufferCapacitance => d.pack.buffer.map_or(f64::NAN, |b| b.capacitance),
+            Knob::BufferEsr => d.pack.buffer.map_or(f64::NAN, |b| b.esr),
+            Knob::BufferLeakage => d.pack.buffer.map_or(f64::NAN, |b| b.leakage),
+            Knob::BufferLimit => d
+                .pack
+                .buffer
+                .and_then(|b| b.current_limit)
+                .unwrap_or(f64::NAN),
             Knob::LoadDraw(l, s) => match d.loads[*l].states[*s].1 {
                 Draw::Current(x) | Draw::Power(x) | Draw::Resistance(x) => x,
                 Draw::Led { knee, .. } => knee,
@@ -338,6 +401,51 @@ impl Knob {
             Knob::StageLossResistance(i) => {
                 if let LossModel::Terms { resistance, .. } = &mut d.stages[*i].loss {
                     *resistance = v;
+                }
+            }
+            Knob::StageInputLimit(i) => {
+                if let Some(l) = &mut d.stages[*i].input_current_limit {
+                    *l = v;
+                }
+            }
+            Knob::StageBufferCapacitance(i) => {
+                if let Some(b) = &mut d.stages[*i].buffer {
+                    b.capacitance = v;
+                }
+            }
+            Knob::StageBufferEsr(i) => {
+                if let Some(b) = &mut d.stages[*i].buffer {
+                    b.esr = v;
+                }
+            }
+            Knob::StageBufferLeakage(i) => {
+                if let Some(b) = &mut d.stages[*i].buffer {
+                    b.leakage = v;
+                }
+            }
+            Knob::BufferCapacitance => {
+                if let Some(b) = &mut d.pack.buffer {
+                    b.capacitance = v;
+                }
+            }
+            Knob::BufferEsr => {
+                if let Some(b) = &mut d.pack.buffer {
+                    b.esr = v;
+                }
+            }
+            Knob::BufferLeakage => {
+                if let Some(b) = &mut d.pack.buffer {
+                    b.leakage = v;
+                }
+            }
+            Knob::BufferLimit => {
+                if let Some(l) = d
+                    .pack
+                    .buffer
+                    .as_mut()
+                    .and_then(|b| b.current_limit.as_mut())
+                {
+                    *l = v;
                 }
             }
             Knob::LoadDraw(l, s) => set_load_draw(d, *l, *s, v),

@@ -17,7 +17,7 @@ const CELL_KEYS: [&str; 8] = [
     "polarization.resistance",
     "polarization.time_constant",
 ];
-const STAGE_KEYS: [&str; 12] = [
+const STAGE_KEYS: [&str; 16] = [
     "output",
     "current",
     "headroom",
@@ -30,13 +30,21 @@ const STAGE_KEYS: [&str; 12] = [
     "theta_ja",
     "loss.drop",
     "loss.resistance",
+    "input_current_limit",
+    "buffer.capacitance",
+    "buffer.esr",
+    "buffer.leakage",
 ];
-const BATTERY_KEYS: [&str; 6] = [
+const BATTERY_KEYS: [&str; 10] = [
     "series",
     "parallel",
     "start",
     "aging.capacity",
     "aging.resistance",
+    "buffer.capacitance",
+    "buffer.esr",
+    "buffer.leakage",
+    "buffer.current_limit",
     "cell.<key>",
 ];
 
@@ -99,6 +107,10 @@ fn stage_knob(i: usize, rest: &[Seg<'_>]) -> Result<Knob, Miss> {
         "theta_ja" => Knob::StageThetaJa(i),
         "loss.drop" => Knob::StageLossDrop(i),
         "loss.resistance" => Knob::StageLossResistance(i),
+        "input_current_limit" => Knob::StageInputLimit(i),
+        "buffer.capacitance" => Knob::StageBufferCapacitance(i),
+        "buffer.esr" => Knob::StageBufferEsr(i),
+        "buffer.leakage" => Knob::StageBufferLeakage(i),
         _ => return Err(unknown("a stage's values", &key, &STAGE_KEYS)),
     })
 }
@@ -160,6 +172,10 @@ pub(super) fn knob(d: &Design, pack_cell: &str, path: &str) -> Result<Knob, Miss
             "start" => Ok(Knob::StartSoc),
             "aging.capacity" => Ok(Knob::AgingCapacity),
             "aging.resistance" => Ok(Knob::AgingResistance),
+            "buffer.capacitance" => Ok(Knob::BufferCapacitance),
+            "buffer.esr" => Ok(Knob::BufferEsr),
+            "buffer.leakage" => Ok(Knob::BufferLeakage),
+            "buffer.current_limit" => Ok(Knob::BufferLimit),
             k => Err(unknown("the pack's values", k, &BATTERY_KEYS)),
         },
         [Seg::Name("stages"), rest @ ..] => stages_knob(d, rest),

@@ -57,7 +57,7 @@ impl Lower<'_> {
                 self.err(
                     &at,
                     format!("`{path}` has no single value in this design to vary"),
-                    Some("a curve or table cannot vary as one number; vary a value the design gives as one number (a constant efficiency, `loss.drop`, a polarization the cell has)".into()),
+                    Some(knob.absent_hint().unwrap_or("a curve or table cannot vary as one number; vary a value the design gives as one number (a constant efficiency, `loss.drop`, a polarization the cell has)").into()),
                 );
                 ok = false;
                 continue;
