@@ -93,10 +93,17 @@ impl Sim<'_> {
     /// mean over `[0, t]` instead of the value at `t`.
     #[inline]
     pub(super) fn rails_at(&self, p: &OperatingPoint, t: f64, mean: bool) -> Rails {
-        let mut out = self.rx;
-        if !self.c.rails {
-            return out;
+        if self.c.rails {
+            self.rails_moved(p, t, mean)
+        } else {
+            self.rx
         }
+    }
+
+    /// [`Sim::rails_at`] for a design with rail buffers.
+    #[inline(never)]
+    fn rails_moved(&self, p: &OperatingPoint, t: f64, mean: bool) -> Rails {
+        let mut out = self.rx;
         let d = self.c.d;
         let n = out.len();
         for (slot, b) in out.x[..n].iter_mut().zip(&p.rail_buffers) {
