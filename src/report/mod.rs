@@ -124,6 +124,75 @@ pub fn caution_for<'a>(designs: impl IntoIterator<Item = &'a Design>) -> String 
 pub fn warnings(d: &Design, ambient_c: f64) -> Vec<String> {
     let mut out = table_warning(d, ambient_c);
     out.extend(default_warnings(d, ambient_c));
+    out.extend(rail_buffer_warnings(d, ambient_c));
+    out
+}
+
+/// Warnings about buffer capacitors on stages' rails too small for a mode: with the pack full
+/// and the capacitor at the setpoint, a mode where the stage is at its limit drains the
+/// capacitor by the difference I between the rail's draw and what the stage gives; over the
+/// mode's longest stretch T the rail falls by about I T / C + ESR I (the capacitor's charge
+/// balance, held at its start: an estimate). Where that takes it below a drawing load's
+/// minimum supply, the warning says so and gives C = I T / (setpoint - minimum - ESR I), the
+/// capacitance that would hold it by that estimate.
+fn rail_buffer_warnings(d: &Design, ambient_c: f64) -> Vec<String> {
+    use crate::solve::{PackState, RailBufferState, Solution, solve_point};
+    let mut out = Vec::new();
+    for (k, st) in d.stages.iter().enumerate() {
+        let Some(b) = st.buffer else { continue };
+        for (m, mode) in d.modes.iter().enumerate() {
+            let hold = mode.longest_hold_s();
+            if !(mode.stage_on[k] && hold > 0.0 && hold.is_finite()) {
+                continue;
+            }
+            let at = PackState {
+                soc: 1.0,
+                v_pol: None,
+                ambient_c,
+            };
+            let Solution::Point(p) = solve_point(d, m, at) else {
+                continue;
+            };
+            let Some(rb) = p.rail_buffers.iter().find(|r| r.stage == k) else {
+                continue;
+            };
+            if rb.state != RailBufferState::Limited || rb.current <= 0.0 {
+                continue;
+            }
+            let i = rb.current;
+            let low = st.setpoint - i * hold / b.capacitance - b.esr * i;
+            let needs = d.tree.loads_on(k + 1).iter().filter_map(|&l| {
+                let load = &d.loads[l];
+                let drawing = mode.load_states[l].is_some_and(|s| load.states[s].1.is_drawing());
+                load.v_min
+                    .filter(|&v| drawing && low < v)
+                    .map(|v| (load, v))
+            });
+            let Some((load, v_min)) = needs.max_by(|a, b| a.1.total_cmp(&b.1)) else {
+                continue;
+            };
+            let room = st.setpoint - v_min - b.esr * i;
+            let fix = if room > 0.0 {
+                format!("about {} would hold it", fmt_eng(i * hold / room, "F"))
+            } else {
+                "its series resistance alone drops the rail below it; a capacitor of lower ESR, \
+or a higher `input_current_limit`, would hold it"
+                    .to_string()
+            };
+            out.push(format!(
+                "the buffer capacitor on `{}`'s rail falls to about {} in mode `{}`, below `{}`'s \
+minimum {} (the stage at its limit gives {} less than the rail draws, for up to {}); {fix} \
+(an estimate with the pack full: check with `runtime`)",
+                st.id,
+                fmt_eng(low.max(0.0), "V"),
+                mode.name,
+                load.id,
+                fmt_eng(v_min, "V"),
+                fmt_eng(i, "A"),
+                crate::units::fmt_duration(hold)
+            ));
+        }
+    }
     out
 }
 
