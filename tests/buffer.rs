@@ -247,7 +247,7 @@ mod random {
 
     use proptest::prelude::*;
 
-    use crate::runtime::agreement::{config, designs, text};
+    use crate::runtime::agreement::{config, designs, fast_against_reference, survey_cases, text};
     use crate::runtime::{design, exact, fast};
     use crate::util::close;
 
@@ -278,45 +278,25 @@ mod random {
     /// compared designs within 0.2 %, the worst 0.69 %.
     #[test]
     fn random_buffered_designs_run_and_agree_within_one_percent() {
-        use joulepath::solve::{RunOptions, run};
         use proptest::strategy::ValueTree;
         use proptest::test_runner::TestRunner;
 
         let mut runner = TestRunner::new(config());
         let strategy = (designs(), buffers());
-        let cases = std::env::var("JOULEPATH_AGREEMENT_CASES")
-            .ok()
-            .and_then(|v| v.parse::<usize>().ok())
-            .unwrap_or(48);
+        let cases = survey_cases();
         let (mut compared, mut within, mut worst) = (0usize, 0usize, (0.0f64, String::new()));
         for _ in 0..cases {
             let (g, b) = strategy.new_tree(&mut runner).expect("a design").current();
             let t = buffered(&g, b);
-            let d = design(&t);
-            let pass: f64 = d
-                .profile()
-                .iter()
-                .map(joulepath::model::Step::duration)
-                .sum();
-            let f = run(&d, &RunOptions::for_design(&d)).unwrap_or_else(|e| panic!("{e}\n{t}"));
-            if f.runtime_s() / pass >= 4000.0 {
+            let Some((f, e, rel)) = fast_against_reference(&t) else {
                 continue;
-            }
-            let e = run(&d, &RunOptions::reference(&d)).unwrap_or_else(|e| panic!("{e}\n{t}"));
-            assert_eq!(f.end.reason, e.end.reason, "\n{t}");
-            let rel = (f.runtime_s() - e.runtime_s()).abs() / e.runtime_s();
+            };
             compared += 1;
             within += usize::from(rel <= 2e-3);
             if rel > worst.0 {
                 worst = (rel, t.clone());
             }
-            assert!(
-                rel <= 1e-2,
-                "{} vs {} s ({:.2} %)\n{t}",
-                f.runtime_s(),
-                e.runtime_s(),
-                100.0 * rel
-            );
+            assert!(rel <= 1e-2, "{f} vs {e} s ({:.2} %)\n{t}", 100.0 * rel);
         }
         println!(
             "{within} of {compared} buffered designs within 0.2 %, worst {:.3} %:\n{}",

@@ -217,13 +217,13 @@ mod random {
     //! converter (a buck or a boost) gets an input current limit and a buffer capacitor on its
     //! rail (DESIGN section 6: within 0.2 %, the same end reason).
 
-    use joulepath::solve::{RunOptions, run};
     use proptest::prelude::*;
     use proptest::strategy::ValueTree;
     use proptest::test_runner::TestRunner;
 
-    use crate::runtime::agreement::{Gen, config, designs, text};
-    use crate::runtime::design;
+    use crate::runtime::agreement::{
+        Gen, config, designs, fast_against_reference, survey_cases, text,
+    };
 
     /// A rail buffer: input current limit in mA (1 to 30), capacitance in mF (10 µF to 100 mF),
     /// series resistance in Ω.
@@ -259,39 +259,19 @@ mod random {
     fn random_rail_buffered_designs_agree_with_the_reference() {
         let mut runner = TestRunner::new(config());
         let strategy = (designs(), buffers());
-        let cases = std::env::var("JOULEPATH_AGREEMENT_CASES")
-            .ok()
-            .and_then(|v| v.parse::<usize>().ok())
-            .unwrap_or(48);
+        let cases = survey_cases();
         let (mut compared, mut worst) = (0usize, (0.0f64, String::new()));
         for _ in 0..cases {
             let (g, b) = strategy.new_tree(&mut runner).expect("a design").current();
             let Some(t) = buffered(&g, b) else { continue };
-            let d = design(&t);
-            let pass: f64 = d
-                .profile()
-                .iter()
-                .map(joulepath::model::Step::duration)
-                .sum();
-            let f = run(&d, &RunOptions::for_design(&d)).unwrap_or_else(|e| panic!("{e}\n{t}"));
-            if f.runtime_s() / pass >= 4000.0 {
+            let Some((f, e, rel)) = fast_against_reference(&t) else {
                 continue;
-            }
-            let e = run(&d, &RunOptions::reference(&d)).unwrap_or_else(|e| panic!("{e}\n{t}"));
-            assert_eq!(f.end.reason, e.end.reason, "\n{t}");
-            let gap = (f.runtime_s() - e.runtime_s()).abs();
-            let rel = if gap == 0.0 { 0.0 } else { gap / e.runtime_s() };
+            };
             compared += 1;
             if rel > worst.0 {
                 worst = (rel, t.clone());
             }
-            assert!(
-                rel <= 2e-3,
-                "{} vs {} s ({:.3} %)\n{t}",
-                f.runtime_s(),
-                e.runtime_s(),
-                100.0 * rel
-            );
+            assert!(rel <= 2e-3, "{f} vs {e} s ({:.3} %)\n{t}", 100.0 * rel);
         }
         println!(
             "{compared} rail-buffered designs compared, worst {:.4} %:\n{}",

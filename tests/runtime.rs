@@ -735,6 +735,36 @@ pub(crate) mod agreement {
         s
     }
 
+    /// The cases a survey draws: `JOULEPATH_AGREEMENT_CASES`, 48 without it.
+    pub(crate) fn survey_cases() -> usize {
+        std::env::var("JOULEPATH_AGREEMENT_CASES")
+            .ok()
+            .and_then(|v| v.parse::<usize>().ok())
+            .unwrap_or(48)
+    }
+
+    /// One design of a survey, `text`, in both solvers: `None` where the fast run lasts 4000
+    /// passes or more (the reference would take too long), else the fast and the reference
+    /// runtimes and their relative gap, once both gave a result and ended for the same reason.
+    pub(crate) fn fast_against_reference(text: &str) -> Option<(f64, f64, f64)> {
+        use joulepath::solve::{RunOptions, run};
+        let d = design(text);
+        let pass: f64 = d
+            .profile()
+            .iter()
+            .map(joulepath::model::Step::duration)
+            .sum();
+        let f = run(&d, &RunOptions::for_design(&d)).unwrap_or_else(|e| panic!("{e}\n{text}"));
+        if f.runtime_s() / pass >= 4000.0 {
+            return None;
+        }
+        let e = run(&d, &RunOptions::reference(&d)).unwrap_or_else(|e| panic!("{e}\n{text}"));
+        assert_eq!(f.end.reason, e.end.reason, "\n{text}");
+        let gap = (f.runtime_s() - e.runtime_s()).abs();
+        let rel = if gap == 0.0 { 0.0 } else { gap / e.runtime_s() };
+        Some((f.runtime_s(), e.runtime_s(), rel))
+    }
+
     pub(crate) fn config() -> Config {
         let env = |k: &str| std::env::var(k).ok().and_then(|v| v.parse::<u64>().ok());
         Config {

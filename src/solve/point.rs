@@ -65,6 +65,16 @@ pub struct StagePoint {
 }
 
 impl StagePoint {
+    /// A stage off, with nothing in or out (on a dead rail, or before it is recorded).
+    const OFF: StagePoint = StagePoint {
+        state: StageState::Off,
+        vin: 0.0,
+        iin: 0.0,
+        vout: 0.0,
+        iout: 0.0,
+        loss: 0.0,
+    };
+
     /// P_out / P_in while running and drawing; `None` otherwise.
     pub fn efficiency(&self) -> Option<f64> {
         let pin = self.vin * self.iin;
@@ -655,15 +665,7 @@ fn assemble(
     current: f64,
     rec: &[Rec],
 ) -> OperatingPoint {
-    let off = StagePoint {
-        state: StageState::Off,
-        vin: 0.0,
-        iin: 0.0,
-        vout: 0.0,
-        iout: 0.0,
-        loss: 0.0,
-    };
-    let mut stages = vec![off; d.stages.len()];
+    let mut stages = vec![StagePoint::OFF; d.stages.len()];
     let mut loads = vec![
         LoadPoint {
             state: None,
@@ -888,18 +890,10 @@ impl Walker<'_> {
             ));
         }
         for &k in self.d.tree.stages_on(rail) {
-            let off = StagePoint {
-                state: StageState::Off,
-                vin: 0.0,
-                iin: 0.0,
-                vout: 0.0,
-                iout: 0.0,
-                loss: 0.0,
-            };
-            rec.push(Rec::Stage(k, off));
+            rec.push(Rec::Stage(k, StagePoint::OFF));
             let from = rec.len();
             self.dead(k + 1, rec);
-            self.record_cap(k, &off, rec, from);
+            self.record_cap(k, &StagePoint::OFF, rec, from);
         }
     }
 
