@@ -687,6 +687,11 @@ fn assemble(
     if rail_buffers.len() > 1 {
         rail_buffers.sort_by_key(|c| c.stage);
     }
+    // A point blended across a stage's state boundary: each capacitor moves as its blended
+    // stage says (its currents are already the blend of the two walks').
+    for c in &mut rail_buffers {
+        c.state = rail_buffer_state(&stages[c.stage], c.v_cap, d.stages[c.stage].setpoint);
+    }
     OperatingPoint {
         mode,
         pack: PackPoint {
@@ -702,6 +707,18 @@ fn assemble(
     }
 }
 
+/// How a buffer capacitor at voltage `x` on the rail of a stage at point `sp` (setpoint
+/// `setpoint`) moves: from the stage's state, a limited stage's collapsed rail holding it.
+fn rail_buffer_state(sp: &StagePoint, x: f64, setpoint: f64) -> RailBufferState {
+    match sp.state {
+        StageState::Regulating if x >= setpoint => RailBufferState::Settled,
+        StageState::Regulating => RailBufferState::Topping,
+        StageState::Limited if sp.vout > 0.0 => RailBufferState::Limited,
+        StageState::Dropout | StageState::Bypass => RailBufferState::Following,
+        _ => RailBufferState::Holding,
+    }
+}
+
 /// The buffer capacitor `b` (at voltage `x`) on the rail of a stage at point `sp`, the rail
 /// drawing `draw` (its loads and the stages on it): its current is what the stage gives the rail
 /// less the draw and the leakage.
@@ -713,24 +730,13 @@ fn rail_buffer_point(
     sp: &StagePoint,
     draw: f64,
 ) -> RailBufferPoint {
-    let (state, current, node) = match sp.state {
-        StageState::Regulating if x >= setpoint => (RailBufferState::Settled, 0.0, sp.vout),
-        StageState::Regulating => (
-            RailBufferState::Topping,
-            draw + b.leakage - sp.iout,
-            sp.vout,
-        ),
-        StageState::Limited if sp.vout > 0.0 => (
-            RailBufferState::Limited,
-            draw + b.leakage - sp.iout,
-            sp.vout,
-        ),
-        StageState::Dropout | StageState::Bypass => (RailBufferState::Following, 0.0, sp.vout),
-        _ => (
-            RailBufferState::Holding,
-            if x > 0.0 { b.leakage } else { 0.0 },
-            0.0,
-        ),
+    let state = rail_buffer_state(sp, x, setpoint);
+    let (current, node) = match state {
+        RailBufferState::Settled | RailBufferState::Following => (0.0, sp.vout),
+        RailBufferState::Topping | RailBufferState::Limited => {
+            (draw + b.leakage - sp.iout, sp.vout)
+        }
+        RailBufferState::Holding => (if x > 0.0 { b.leakage } else { 0.0 }, 0.0),
     };
     // Held: the leakage runs down the store inside the capacitor, at its own voltage.
     let loss = if state == RailBufferState::Holding {
